@@ -1,0 +1,43 @@
+"""celllab: characterize on-chip decoupling cells from process parameters.
+
+Public API (no UI imports here)::
+
+    from celllab import load_deck, load_cells, characterize, open_catalog
+    deck = load_deck("process_decks/lumen130.toml")
+    cells = load_cells("process_decks/cells/lumen130_cells.toml", deck)
+    run = characterize(deck, cells)
+    catalog = open_catalog("db/celllab.sqlite")
+    catalog.store_run(run)
+
+Results are engineering estimates from analytic models, not sign-off.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+__version__ = "0.1.0"
+MODEL_VERSION = "celllab-models-0.1"
+
+__all__ = ["load_deck", "load_cells", "characterize", "open_catalog", "__version__", "MODEL_VERSION"]
+
+
+def __getattr__(name: str) -> Any:
+    # Lazy, so that importing the physics core never pulls in the catalog or the UI.
+    if name == "load_deck":
+        from celllab.deck import load_deck
+
+        return load_deck
+    if name == "load_cells":
+        from celllab.cells import load_cells
+
+        return load_cells
+    if name == "characterize":
+        from celllab.engine import characterize
+
+        return characterize
+    if name == "open_catalog":
+        from celllab.catalog import open_catalog
+
+        return open_catalog
+    raise AttributeError(name)

@@ -1,0 +1,266 @@
+"""Cell files: families of sweeps -> named, hashed, validated variants.
+
+File layout (TOML)::
+
+    [[family]]
+    name = "lx_ndcap"             # variants are named lx_ndcap-w4-h1-f2 ...
+    topology = "nmos_inversion"
+    oxide = "core"
+    width_sites = [2, 4, 8]        # a list sweeps
+    fingers = { start = 1, stop = 4 }                   # an integer range (inclusive)
+    gate_length_um = { start = 0.2, stop = 1.0, count = 3, spacing = "log" }
+
+    [[cell]]                       # single cells, no sweep
+    name = "lx_big"
+    topology = "mom"
+    width_sites = 40
+
+Every family field takes a scalar, a list, or a range table; variants are the cartesian product
+in the order of ``GEOMETRY_FIELDS``. ``skip_unfit = true`` on a family drops the combinations
+that do not fit the outline instead of reporting them as errors.
+"""
+
+from __future__ import annotations
+
+import difflib
+import hashlib
+import itertools
+import json
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+from pydantic import ValidationError
+
+from celllab.cells.geometry import Geometry, GeometryProblem, resolve_geometry
+from celllab.cells.schema import GEOMETRY_FIELDS, NAME_TAGS, TOPOLOGIES, CellSpec
+from celllab.deck.load import find_line, read_toml, validation_problems
+from celllab.errors import CellError, Problem
+
+MAX_VARIANTS_PER_FAMILY = 20000
+_FAMILY_ONLY = {"name", "topology", "oxide", "description", "skip_unfit"}
+_RANGE_KEYS = {"start", "stop", "step", "count", "spacing"}
+
+
+def cell_hash(spec: CellSpec) -> str:
+    """First 16 hex digits of SHA-256 over topology, oxide and geometry (not the name)."""
+    body = {"topology": spec.topology, "oxide": spec.oxide, **spec.geometry}
+    text = json.dumps(body, sort_keys=True, separators=(",", ":"))
+    return hashlib.sha256(text.encode()).hexdigest()[:16]
+
+
+def _fmt(value: Any) -> str:
+    if isinstance(value, bool):
+        return "1" if value else "0"
+    if isinstance(value, float):
+        return f"{value:.4g}".replace(".", "p").replace("-", "m")
+    return str(value)
+
+
+def variant_name(family: str, values: dict[str, Any], swept: list[str]) -> str:
+    parts = [family, f"w{_fmt(values['width_sites'])}", f"h{_fmt(values.get('height_rows', 1))}"]
+    for f in swept:
+        if f in ("width_sites", "height_rows"):
+            continue
+        parts.append(f"{NAME_TAGS[f]}{_fmt(values[f])}")
+    return "-".join(parts)
+
+
+def _expand_value(value: Any, where: str, file: str, text: str | None, path: list[Any]) -> list[Any]:
+    if isinstance(value, list):
+        if not value:
+            raise CellError([Problem(file, where, "an empty list sweeps nothing", value, find_line(text, path))])
+        return value
+    if isinstance(value, dict):
+        unknown = set(value) - _RANGE_KEYS
+        if unknown or "start" not in value or "stop" not in value:
+            raise CellError([Problem(file, where, "a range needs start and stop, and optionally step, "
+                                     "count, spacing ('linear' or 'log')", value, find_line(text, path))])
+        start, stop = value["start"], value["stop"]
+        if not all(isinstance(v, (int, float)) and not isinstance(v, bool) for v in (start, stop)):
+            raise CellError([Problem(file, where, "range start and stop must be numbers", value, find_line(text, path))])
+        spacing = value.get("spacing", "linear")
+        if spacing not in ("linear", "log"):
+            raise CellError([Problem(file, where + ".spacing", "allowed: linear, log", spacing, find_line(text, path))])
+        if stop < start:
+            raise CellError([Problem(file, where, "range stop is below start", value, find_line(text, path))])
+        if "count" in value:
+            count = value["count"]
+            if not isinstance(count, int) or count < 1 or count > 10000:
+                raise CellError([Problem(file, where + ".count", "must be an integer from 1 to 10000", count,
+                                         find_line(text, path))])
+            if spacing == "log":
+                if start <= 0:
+                    raise CellError([Problem(file, where, "a log range needs start > 0", value, find_line(text, path))])
+                vals = np.geomspace(start, stop, count)
+            else:
+                vals = np.linspace(start, stop, count)
+        else:
+            step = value.get("step", 1)
+            if not isinstance(step, (int, float)) or step <= 0:
+                raise CellError([Problem(file, where + ".step", "must be a number > 0", step, find_line(text, path))])
+            n = int(np.floor((stop - start) / step + 1e-9)) + 1
+            if n > 10000:
+                raise CellError([Problem(file, where, "range has more than 10000 values", value, find_line(text, path))])
+            vals = start + step * np.arange(n)
+        if all(isinstance(v, int) for v in (start, stop, value.get("step", 1))) and "count" not in value:
+            return [int(v) for v in vals]
+        return [round(float(v), 12) for v in vals]
+    return [value]
+
+
+def expand_family(entry: dict[str, Any], index: int, file: str, text: str | None,
+                  kind: str = "family") -> list[dict[str, Any]]:
+    """Raw variant dictionaries (not yet validated) from one family table."""
+    where = f"{kind}[{index}]"
+    if not isinstance(entry, dict):
+        raise CellError([Problem(file, where, "must be a table", entry)])
+    allowed = set(GEOMETRY_FIELDS) | _FAMILY_ONLY
+    problems = []
+    for key in entry:
+        if key not in allowed:
+            guess = difflib.get_close_matches(key, sorted(allowed), n=1)
+            problems.append(Problem(file, f"{where}.{key}", "unknown field" + (f"; did you mean {guess[0]!r}?" if guess
+                                    else "; allowed: " + ", ".join(sorted(allowed))), entry[key],
+                                    find_line(text, [kind, index, key]), has_value=False))
+    if "name" not in entry:
+        problems.append(Problem(file, f"{where}.name", "required field is missing", None,
+                                find_line(text, [kind, index]), has_value=False))
+    if "topology" not in entry:
+        problems.append(Problem(file, f"{where}.topology", "required field is missing; allowed: "
+                                + ", ".join(TOPOLOGIES), None, find_line(text, [kind, index]), has_value=False))
+    if problems:
+        raise CellError(problems)
+    fixed = {k: entry[k] for k in ("name", "topology", "oxide") if k in entry}
+    skip_unfit = entry.get("skip_unfit", False)
+    if not isinstance(skip_unfit, bool):
+        raise CellError([Problem(file, f"{where}.skip_unfit", "must be true or false", skip_unfit,
+                                 find_line(text, [kind, index, "skip_unfit"]))])
+    for k in ("name", "topology", "oxide"):
+        if isinstance(entry.get(k), (list, dict)):
+            raise CellError([Problem(file, f"{where}.{k}", "cannot be swept; give one value", entry[k],
+                                     find_line(text, [kind, index, k]))])
+    if kind == "cell":
+        return [dict(entry)]
+    axes: list[tuple[str, list[Any]]] = []
+    for f in GEOMETRY_FIELDS:
+        if f in entry:
+            axes.append((f, _expand_value(entry[f], f"{where}.{f}", file, text, [kind, index, f])))
+    total = int(np.prod([len(v) for _, v in axes])) if axes else 1
+    if total > MAX_VARIANTS_PER_FAMILY:
+        raise CellError([Problem(file, where, f"sweeps {total} variants; at most {MAX_VARIANTS_PER_FAMILY} "
+                                 "per family", None, find_line(text, [kind, index]), has_value=False)])
+    swept = [f for f, vals in axes if len(vals) > 1]
+    out = []
+    for combo in itertools.product(*[vals for _, vals in axes]):
+        values = dict(zip([f for f, _ in axes], combo))
+        values.setdefault("width_sites", entry.get("width_sites"))
+        raw = {**fixed, **values, "family": fixed["name"]}
+        if skip_unfit:
+            raw["_skip_unfit"] = True
+        raw["name"] = variant_name(str(fixed["name"]), {**values, "height_rows": values.get("height_rows", 1)}, swept) \
+            if values.get("width_sites") is not None else fixed["name"]
+        out.append(raw)
+    return out
+
+
+def validate_cells(raw_variants: list[tuple[str, dict[str, Any]]], deck: Any, file: str,
+                   text: str | None) -> list[CellSpec]:
+    """Validate raw variants against the schema and (when given) the deck's geometry rules."""
+    specs: list[CellSpec] = []
+    problems: list[Problem] = []
+    seen: dict[str, str] = {}
+    for where, raw in raw_variants:
+        skip_unfit = bool(raw.pop("_skip_unfit", False))
+        try:
+            spec = CellSpec.model_validate(raw)
+        except ValidationError as exc:
+            loc_prefix = tuple(where.replace("]", "").split("["))
+            found = validation_problems(exc, file, None, CellSpec)
+            for p in found:
+                fieldname = p.field if p.field else ""
+                line = find_line(text, [loc_prefix[0], int(loc_prefix[1]), fieldname.split(".")[0]]) \
+                    if fieldname else find_line(text, [loc_prefix[0], int(loc_prefix[1])])
+                label = f"{where}.{fieldname}" if fieldname else where
+                if raw.get("name") and raw.get("family"):
+                    label += f" (variant {raw['name']})"
+                problems.append(Problem(file, label, p.message, p.value, line, p.has_value))
+            continue
+        if spec.name in seen:
+            problems.append(Problem(file, f"{where}.name", f"duplicate variant name (also from {seen[spec.name]})",
+                                    spec.name))
+            continue
+        seen[spec.name] = where
+        if deck is not None:
+            try:
+                resolve_geometry(spec, deck)
+            except GeometryProblem as gp:
+                if skip_unfit:
+                    continue
+                idx = int(where.split("[")[1].rstrip("]"))
+                problems.append(Problem(file, f"{where}.{gp.field} (variant {spec.name})", gp.message, gp.value,
+                                        find_line(text, [where.split("[")[0], idx, gp.field])))
+                continue
+        specs.append(spec)
+    if problems:
+        raise CellError(problems)
+    return specs
+
+
+def parse_cells(data: dict[str, Any], deck: Any = None, file: str = "<cells>", text: str | None = None) -> list[CellSpec]:
+    """Expand and validate the families and single cells of one parsed cell file."""
+    problems: list[Problem] = []
+    unknown = set(data) - {"family", "cell", "description", "invented", "process"}
+    for key in sorted(unknown):
+        problems.append(Problem(file, key, "unknown top-level key; allowed: family, cell, description, invented, "
+                                "process", data[key], find_line(text, [key]), has_value=False))
+    raw: list[tuple[str, dict[str, Any]]] = []
+    for kind in ("family", "cell"):
+        entries = data.get(kind, [])
+        if not isinstance(entries, list):
+            problems.append(Problem(file, kind, f"use [[{kind}]] tables", entries, find_line(text, [kind]),
+                                    has_value=False))
+            continue
+        for i, entry in enumerate(entries):
+            try:
+                raw.extend((f"{kind}[{i}]", r) for r in expand_family(entry, i, file, text, kind))
+            except CellError as exc:
+                problems.extend(exc.problems)
+    if not raw and not problems:
+        problems.append(Problem(file, "", "no [[family]] or [[cell]] tables: nothing to characterize",
+                                has_value=False))
+    if problems:
+        raise CellError(problems)
+    return validate_cells(raw, deck, file, text)
+
+
+def load_cells(path: str | Path, deck: Any = None) -> list[CellSpec]:
+    """Load a cell file, expand its families and validate every variant (against ``deck``)."""
+    data, text = read_toml(path, CellError)
+    return parse_cells(data, deck, str(path), text)
+
+
+def apply_cell_changes(spec: CellSpec, changes: dict[str, Any], deck: Any = None, *, name: str | None = None,
+                       source: str = "<what-if>") -> CellSpec:
+    """Validated copy of ``spec`` with geometry fields changed."""
+    problems = []
+    for key in changes:
+        if key not in GEOMETRY_FIELDS and key not in ("topology", "oxide"):
+            guess = difflib.get_close_matches(key, GEOMETRY_FIELDS, n=1)
+            problems.append(Problem(source, key, "not an editable cell field" + (f"; did you mean {guess[0]!r}?"
+                                    if guess else "; allowed: " + ", ".join(GEOMETRY_FIELDS)), changes[key]))
+    if problems:
+        raise CellError(problems)
+    raw = spec.model_dump()
+    raw.update(changes)
+    if name is not None:
+        raw["name"] = name
+    return validate_cells([("cell[0]", raw)], deck, source, None)[0]
+
+
+def resolve(spec: CellSpec, deck: Any) -> Geometry:
+    """Geometry of a validated cell under a deck (CellError if it does not fit)."""
+    try:
+        return resolve_geometry(spec, deck)
+    except GeometryProblem as gp:
+        raise CellError([Problem(spec.name, gp.field, gp.message, gp.value)]) from None

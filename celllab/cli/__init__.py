@@ -1,0 +1,1 @@
+"""Command-line interface: each verb is a few lines over a public library function."""

@@ -1,0 +1,73 @@
+"""Entry point of the ``celllab`` command.
+
+Each verb lives in a small module of this package that exposes ``register(subparsers)``;
+the module adds its sub-parser and sets ``func`` to a callable ``(args) -> int``.
+Library errors (``CelllabError``) are printed one problem per line on stderr, exit status 2,
+never a traceback.
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import sys
+from collections.abc import Sequence
+
+from celllab import __version__
+from celllab.errors import CelllabError
+
+#: Verb modules, in the order their verbs appear in ``--help``.
+VERB_MODULES: tuple[str, ...] = (
+    "celllab.cli.build",
+    "celllab.cli.query",
+    "celllab.cli.export",
+    "celllab.cli.ui",
+)
+
+EPILOG = (
+    "Numbers are engineering estimates from analytic models, not sign-off: defer to the "
+    "foundry's design rules, qualified models and ESD/reliability qualification."
+)
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="celllab",
+        description="Characterize on-chip decoupling cells from a process deck and keep the "
+        "results in a searchable catalog.",
+        epilog=EPILOG,
+    )
+    parser.add_argument("--version", action="version", version=f"celllab {__version__}")
+    sub = parser.add_subparsers(dest="verb", metavar="VERB")
+    for modname in VERB_MODULES:
+        try:
+            module = importlib.import_module(modname)
+        except ModuleNotFoundError as exc:  # a verb module not written yet
+            if exc.name == modname:
+                continue
+            raise
+        module.register(sub)
+    return parser
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    if not getattr(args, "func", None):
+        parser.print_help()
+        return 0
+    try:
+        return int(args.func(args) or 0)
+    except CelllabError as exc:
+        for problem in exc.problems:
+            print(str(problem), file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print("interrupted", file=sys.stderr)
+        return 130
+    except BrokenPipeError:
+        return 0
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

@@ -1,0 +1,316 @@
+"""Reading process decks from TOML and turning every problem into a located message."""
+
+from __future__ import annotations
+
+import copy
+import difflib
+import hashlib
+import json
+import re
+import tomllib
+from collections.abc import Iterable
+from pathlib import Path
+from typing import Any
+
+from pydantic import BaseModel, ValidationError
+
+from celllab.deck.schema import Deck
+from celllab.errors import CelllabError, DeckError, Problem
+
+
+def content_hash(model: BaseModel) -> str:
+    """First 16 hex digits of SHA-256 over the canonical JSON of a model."""
+    text = json.dumps(model.model_dump(mode="json"), sort_keys=True, separators=(",", ":"))
+    return hashlib.sha256(text.encode()).hexdigest()[:16]
+
+
+def read_toml(path: str | Path, error: type[CelllabError]) -> tuple[dict[str, Any], str]:
+    """Read a TOML file; syntax errors become a located ``error``."""
+    p = Path(path)
+    try:
+        text = p.read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise error.single(str(path), "", "file not found") from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise error.single(str(path), "", f"cannot read file: {exc}") from None
+    try:
+        return tomllib.loads(text), text
+    except tomllib.TOMLDecodeError as exc:
+        msg = str(exc)
+        m = re.search(r"\(at line (\d+), column (\d+)\)", msg)
+        line = int(m.group(1)) if m else None
+        msg = re.sub(r"\s*\(at line \d+, column \d+\)", "", msg)
+        raise error([Problem(str(path), "", f"TOML syntax error: {msg}", line=line, has_value=False)]) from None
+
+
+def find_line(text: str | None, path: Iterable[str | int]) -> int | None:
+    """Best-effort line number of a dotted key path in TOML source (None when not found)."""
+    if not text:
+        return None
+    parts = [str(p) for p in path]
+    if not parts:
+        return None
+    table: list[str] = []
+    array_index: dict[str, int] = {}
+    best: int | None = None
+    for lineno, raw in enumerate(text.splitlines(), start=1):
+        line = raw.split("#", 1)[0].strip()
+        if not line:
+            continue
+        m = re.match(r"^\[\[\s*([^\]]+?)\s*\]\]$", line)
+        if m:
+            name = m.group(1)
+            array_index[name] = array_index.get(name, -1) + 1
+            table = name.split(".") + [str(array_index[name])]
+            if table == parts[: len(table)] and best is None and len(table) == len(parts):
+                best = lineno
+            continue
+        m = re.match(r"^\[\s*([^\]]+?)\s*\]$", line)
+        if m:
+            table = [t.strip().strip('"') for t in m.group(1).split(".")]
+            if table == parts[: len(table)] and len(table) == len(parts):
+                best = best or lineno
+            continue
+        m = re.match(r'^("?)([A-Za-z0-9_\-\.]+)\1\s*=', line)
+        if m:
+            key = table + [k.strip('"') for k in m.group(2).split(".")]
+            if key == parts:
+                return lineno
+            if key == parts[: len(key)] and best is None:
+                best = lineno
+    return best
+
+
+def _allowed_from_error(err: dict[str, Any]) -> str:
+    ctx = err.get("ctx") or {}
+    etype = err.get("type", "")
+    if etype == "literal_error" and "expected" in ctx:
+        return "allowed: " + str(ctx["expected"]).replace("'", "")
+    if "ge" in ctx:
+        return f"must be >= {ctx['ge']}" + (f" and <= {ctx['le']}" if "le" in ctx else "")
+    if "gt" in ctx:
+        return f"must be > {ctx['gt']}" + (f" and <= {ctx['le']}" if "le" in ctx else "")
+    if "le" in ctx:
+        return f"must be <= {ctx['le']}"
+    return ""
+
+
+def _model_fields(model: type[BaseModel], loc: tuple[Any, ...]) -> list[str]:
+    """Field names allowed at ``loc`` (for 'did you mean' suggestions)."""
+    current: Any = model
+    for part in loc[:-1]:
+        if isinstance(part, int):
+            continue
+        if not (isinstance(current, type) and issubclass(current, BaseModel)):
+            return []
+        field = current.model_fields.get(str(part))
+        if field is None:
+            return []
+        ann = field.annotation
+        args = getattr(ann, "__args__", ())
+        nxt = None
+        for cand in (ann, *args):
+            if isinstance(cand, type) and issubclass(cand, BaseModel):
+                nxt = cand
+            for sub in getattr(cand, "__args__", ()):
+                if isinstance(sub, type) and issubclass(sub, BaseModel):
+                    nxt = sub
+        if nxt is None:
+            return []
+        current = nxt
+    if isinstance(current, type) and issubclass(current, BaseModel):
+        return list(current.model_fields)
+    return []
+
+
+def validation_problems(exc: ValidationError, file: str, text: str | None,
+                        model: type[BaseModel], prefix: tuple[Any, ...] = ()) -> list[Problem]:
+    """Translate pydantic errors into located problems, one per error."""
+    problems: list[Problem] = []
+    for err in exc.errors(include_url=False):
+        loc = tuple(prefix) + tuple(err["loc"])
+        # dict keys that are Literal-validated appear as "[key]" entries; keep the loc readable
+        loc = tuple(p for p in loc if p not in ("[key]",))
+        dotted = ".".join(str(p) if not isinstance(p, int) else f"[{p}]" for p in loc).replace(".[", "[")
+        etype = err["type"]
+        msg = err["msg"]
+        value = err.get("input")
+        has_value = True
+        if etype == "missing":
+            message = "required field is missing"
+            has_value = False
+        elif etype == "extra_forbidden":
+            allowed = _model_fields(model, loc[len(prefix):]) if not prefix else []
+            guess = difflib.get_close_matches(str(loc[-1]), allowed, n=1)
+            message = "unknown field"
+            if guess:
+                message += f"; did you mean {guess[0]!r}?"
+            elif allowed:
+                message += "; allowed: " + ", ".join(allowed)
+            has_value = False
+        else:
+            message = msg.removeprefix("Value error, ")
+            allowed = _allowed_from_error(err)
+            if etype == "literal_error" and isinstance(value, str):
+                options = [o.strip().strip("'") for o in str((err.get("ctx") or {}).get("expected", "")).replace(" or ", ",").split(",")]
+                guess = difflib.get_close_matches(value, options, n=1)
+                message = f"not an allowed value; {allowed}" + (f". Did you mean {guess[0]!r}?" if guess else "")
+            elif allowed and allowed not in message:
+                message = f"{message} ({allowed})"
+            if isinstance(value, dict):
+                has_value = False
+        line = find_line(text, [p for p in loc])
+        problems.append(Problem(file, dotted, message, value, line, has_value))
+    return problems
+
+
+def parse_deck(data: dict[str, Any], file: str = "<deck>", text: str | None = None) -> Deck:
+    """Validate a deck from already-parsed TOML data; DeckError lists every problem."""
+    try:
+        deck = Deck.model_validate(data)
+    except ValidationError as exc:
+        raise DeckError(validation_problems(exc, file, text, Deck)) from None
+    problems = _corner_problems(deck, data, file, text)
+    if problems:
+        raise DeckError(problems)
+    return deck
+
+
+def load_deck(path: str | Path) -> Deck:
+    """Load and validate one process deck file (TOML)."""
+    data, text = read_toml(path, DeckError)
+    return parse_deck(data, str(path), text)
+
+
+def load_decks(paths: Iterable[str | Path]) -> list[Deck]:
+    """Load several decks; problems from all of them are reported together."""
+    decks: list[Deck] = []
+    problems: list[Problem] = []
+    for p in paths:
+        try:
+            decks.append(load_deck(p))
+        except DeckError as exc:
+            problems.extend(exc.problems)
+    if problems:
+        raise DeckError(problems)
+    return decks
+
+
+# --- dotted paths: what-ifs and corners --------------------------------------------------
+
+def _get_path(data: Any, parts: list[str]) -> Any:
+    cur = data
+    for part in parts:
+        if isinstance(cur, list):
+            cur = cur[int(part)]
+        else:
+            cur = cur[part]
+    return cur
+
+
+def _set_path(data: Any, parts: list[str], value: Any) -> None:
+    cur = data
+    for part in parts[:-1]:
+        cur = cur[int(part)] if isinstance(cur, list) else cur[part]
+    last = parts[-1]
+    if isinstance(cur, list):
+        cur[int(last)] = value
+    else:
+        cur[last] = value
+
+
+def _split(path: str) -> list[str]:
+    return [p for p in re.split(r"\.|\[|\]", path) if p != ""]
+
+
+def numeric_paths(deck: Deck) -> list[str]:
+    """Every dotted path of a numeric deck parameter (what a corner or what-if may change)."""
+    out: list[str] = []
+
+    def walk(node: Any, prefix: str) -> None:
+        if isinstance(node, dict):
+            for k, v in node.items():
+                if prefix == "" and k == "corners":
+                    continue
+                walk(v, f"{prefix}.{k}" if prefix else k)
+        elif isinstance(node, list):
+            for i, v in enumerate(node):
+                walk(v, f"{prefix}[{i}]")
+        elif isinstance(node, (int, float)) and not isinstance(node, bool):
+            out.append(prefix)
+
+    walk(deck.model_dump(mode="json"), "")
+    return out
+
+
+def _check_path(deck_data: dict[str, Any], path: str) -> str | None:
+    try:
+        value = _get_path(deck_data, _split(path))
+    except (KeyError, IndexError, ValueError, TypeError):
+        return "not a deck parameter"
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        return "not a numeric deck parameter"
+    return None
+
+
+def _corner_problems(deck: Deck, raw: dict[str, Any], file: str, text: str | None) -> list[Problem]:
+    problems: list[Problem] = []
+    data = deck.model_dump(mode="json")
+    allowed = numeric_paths(deck)
+    for cname, corner in deck.corners.items():
+        for kind, table in (("set", corner.set), ("scale", corner.scale)):
+            for path in table:
+                why = _check_path(data, path)
+                if why:
+                    guess = difflib.get_close_matches(path, allowed, n=1)
+                    msg = why + (f"; did you mean {guess[0]!r}?" if guess else "")
+                    problems.append(Problem(file, f"corners.{cname}.{kind}", msg, path,
+                                            find_line(text, ["corners", cname, kind])))
+        if not problems:
+            try:
+                corner_deck(deck, cname, file)
+            except DeckError as exc:
+                problems.extend(exc.problems)
+    return problems
+
+
+def apply_changes(deck: Deck, changes: dict[str, Any], source: str = "<what-if>",
+                  scale: dict[str, float] | None = None) -> Deck:
+    """Copy of ``deck`` with dotted paths set (``changes``) and/or multiplied (``scale``)."""
+    data = copy.deepcopy(deck.model_dump(mode="json"))
+    problems: list[Problem] = []
+    allowed = numeric_paths(deck)
+    for table, op in ((changes, "set"), (scale or {}, "scale")):
+        for path, value in table.items():
+            why = _check_path(data, path)
+            if why:
+                guess = difflib.get_close_matches(path, allowed, n=1)
+                problems.append(Problem(source, path, why + (f"; did you mean {guess[0]!r}?" if guess else ""),
+                                        value))
+                continue
+            parts = _split(path)
+            try:
+                new = float(value) if op == "set" else _get_path(data, parts) * float(value)
+            except (TypeError, ValueError):
+                problems.append(Problem(source, path, "must be a number", value))
+                continue
+            _set_path(data, parts, new)
+    if problems:
+        raise DeckError(problems)
+    try:
+        return Deck.model_validate(data)
+    except ValidationError as exc:
+        raise DeckError(validation_problems(exc, source, None, Deck)) from None
+
+
+def corner_deck(deck: Deck, corner: str, file: str | None = None) -> Deck:
+    """The deck with one corner's ``set``/``scale`` changes and supply scaling applied."""
+    if corner not in deck.corners:
+        allowed = ", ".join(deck.corners)
+        raise DeckError.single(file or deck.name, "corner", f"unknown corner; allowed: {allowed}", corner)
+    c = deck.corners[corner]
+    scale = dict(c.scale)
+    if c.supply_scale != 1.0:
+        for key in ("supplies.core_V", "supplies.io_V"):
+            scale[key] = scale.get(key, 1.0) * c.supply_scale
+    return apply_changes(deck, dict(c.set), f"{file or deck.name}: corners.{corner}", scale)

@@ -1,0 +1,263 @@
+"""Process deck model (pydantic v2).
+
+Every numeric field carries its unit in its name (``t_ox_nm``, ``doping_cm3``) and a physical
+range check; descriptions say what the field means. Values are stored as the user typed them;
+``celllab.engine`` converts to SI once.
+"""
+
+from __future__ import annotations
+
+from typing import Annotated, Literal
+
+from pydantic import BaseModel, ConfigDict, Field, model_validator
+
+GateMaterial = Literal["n_poly", "p_poly", "metal"]
+AccelerationModel = Literal["power_law", "e_model", "inverse_e"]
+LeakageModel = Literal["direct_tunnel", "reference"]
+OxideName = Literal["core", "io"]
+
+
+class _Strict(BaseModel):
+    model_config = ConfigDict(extra="forbid", frozen=True)
+
+
+def _f(lo: float | None, hi: float | None, desc: str, *, gt: bool = False, default=...):  # type: ignore[no-untyped-def]
+    kwargs: dict = {"description": desc}
+    if lo is not None:
+        kwargs["gt" if gt else "ge"] = lo
+    if hi is not None:
+        kwargs["le"] = hi
+    return Field(default, **kwargs)
+
+
+class ProcessInfo(_Strict):
+    name: str = Field(pattern=r"^[A-Za-z][A-Za-z0-9_\-]{0,39}$",
+                      description="short process name: letters, digits, _ or -")
+    description: str = Field("", description="free text")
+    invented: bool = Field(False, description="true for demo data that describes no real process")
+    node_nm: float = _f(3, 1000, "nominal node class, nm")
+
+
+class DeviceParams(_Strict):
+    """One device polarity (N or P) on one oxide flavour."""
+
+    vth_V: float = _f(-3.0, 3.0, "threshold voltage at the reference temperature, V (negative for PMOS)")
+    vfb_V: float | None = _f(-3.0, 3.0, "flat-band voltage, V; omitted: from work-function difference",
+                             default=None)
+    mu0_cm2_per_Vs: float = _f(5, 1500, "low-field channel mobility, cm^2/(V s)")
+    theta_per_V: float = _f(0, 5, "mobility degradation coefficient: mu = mu0/(1 + theta Vov), 1/V")
+    mobility_temp_exponent: float = _f(-3, 0, "mu(T) = mu(Tref) (T/Tref)^exponent, unitless")
+    vth_temp_coeff_V: float = _f(-1.0, 1.0, "threshold shift KT1: Vt(T) = Vt + KT1 (T/Tref - 1), V")
+
+
+class LeakageParams(_Strict):
+    model: LeakageModel = Field("direct_tunnel", description="direct_tunnel: Schuegraf-King-Hu WKB "
+                                "model; reference: scale a measured density")
+    barrier_eV: float = _f(0.5, 5.0, "tunnelling barrier height, eV", default=3.1)
+    mass_ratio: float = _f(0.05, 1.0, "oxide tunnelling effective mass / m0", default=0.40)
+    area_factor: float = _f(1e-6, 1e3, "empirical multiplier on the WKB density (calibration), unitless",
+                            default=1.0)
+    j_ref_A_per_cm2: float | None = _f(0, 1e5, "reference gate current density, A/cm^2", default=None)
+    j_ref_t_ox_nm: float | None = _f(0.3, 20, "oxide thickness of the reference density, nm", default=None)
+    j_ref_V: float | None = _f(0.05, 10, "gate voltage of the reference density, V", default=None)
+    decades_per_nm: float = _f(0.5, 20, "decades of current per nm of oxide thinning", default=5.0)
+    voltage_exponent: float = _f(0.5, 10, "J proportional to V^exponent near the reference", default=2.5)
+
+    @model_validator(mode="after")
+    def _reference_complete(self) -> "LeakageParams":
+        if self.model == "reference":
+            missing = [n for n in ("j_ref_A_per_cm2", "j_ref_t_ox_nm", "j_ref_V") if getattr(self, n) is None]
+            if missing:
+                raise ValueError("model 'reference' needs " + ", ".join(missing))
+        return self
+
+
+class ReliabilityParams(_Strict):
+    weibull_beta: float = _f(0.3, 10, "Weibull slope of time to breakdown, unitless")
+    eta_ref_s: float = _f(1.0, 1e20, "Weibull characteristic life (63 %) at the reference condition, s")
+    area_ref_um2: float = _f(1e-3, 1e9, "gate area of the reference test structure, um^2")
+    v_ref_V: float = _f(0.1, 50, "gate voltage of the reference stress, V")
+    t_ref_C: float = _f(-55, 250, "temperature of the reference stress, degC")
+    acceleration: AccelerationModel = Field("power_law", description="voltage-acceleration model")
+    acceleration_exponent: float = _f(0, 200, "power-law n (t ~ V^-n), E-model gamma (cm/MV) or "
+                                      "1/E-model G (MV/cm), per the chosen model")
+    activation_energy_eV: float = _f(0, 2.0, "Arrhenius activation energy, eV")
+
+
+class OxideFlavour(_Strict):
+    """One gate-dielectric flavour (core thin oxide or I/O thick oxide)."""
+
+    t_ox_nm: float | None = _f(0.3, 30, "physical dielectric thickness, nm", default=None)
+    eot_nm: float | None = _f(0.3, 30, "equivalent SiO2 thickness, nm (use instead of t_ox_nm and "
+                              "eps_r for high-k stacks)", default=None)
+    eps_r: float = _f(1.0, 100, "relative permittivity of the dielectric, unitless", default=3.9)
+    gate: GateMaterial = Field("n_poly", description="gate electrode: n_poly, p_poly (NMOS/PMOS get "
+                               "their own doped poly) or metal")
+    gate_doping_cm3: float | None = _f(1e18, 1e22, "active doping of a poly gate, cm^-3", default=None)
+    nmos_gate_workfunction_eV: float | None = _f(3.5, 5.8, "metal gate work function over NMOS, eV", default=None)
+    pmos_gate_workfunction_eV: float | None = _f(3.5, 5.8, "metal gate work function over PMOS, eV", default=None)
+    centroid_model: bool = Field(True, description="apply the BSIM4-style charge-centroid correction")
+    cet_adder_nm: float | None = _f(0, 3, "fixed extra electrical thickness instead of the centroid "
+                                    "model, nm", default=None)
+    overlap_cap_fF_per_um: float = _f(0, 2, "gate-to-diffusion overlap plus fringe capacitance per "
+                                      "um of gate width per side, fF/um")
+    min_gate_length_um: float = _f(0.01, 10, "minimum drawn gate length, um")
+    breakdown_field_dc_MV_per_cm: float = _f(1, 40, "DC ramp breakdown field, MV/cm")
+    breakdown_field_pulse_MV_per_cm: float = _f(1, 60, "short-pulse (~100 ns) breakdown field, MV/cm")
+    nmos: DeviceParams
+    pmos: DeviceParams
+    leakage: LeakageParams = LeakageParams()
+    reliability: ReliabilityParams
+
+    @model_validator(mode="after")
+    def _thickness(self) -> "OxideFlavour":
+        if (self.t_ox_nm is None) == (self.eot_nm is None):
+            raise ValueError("give exactly one of t_ox_nm or eot_nm")
+        if self.gate != "metal" and self.gate_doping_cm3 is None:
+            raise ValueError("a poly gate needs gate_doping_cm3")
+        if self.gate == "metal" and (self.nmos_gate_workfunction_eV is None
+                                     or self.pmos_gate_workfunction_eV is None):
+            if self.nmos.vfb_V is None or self.pmos.vfb_V is None:
+                raise ValueError("a metal gate needs nmos_/pmos_gate_workfunction_eV or vfb_V for both devices")
+        if self.breakdown_field_pulse_MV_per_cm < self.breakdown_field_dc_MV_per_cm:
+            raise ValueError("breakdown_field_pulse_MV_per_cm must not be below breakdown_field_dc_MV_per_cm")
+        return self
+
+    @property
+    def eot_m(self) -> float:
+        """Equivalent oxide thickness, m."""
+        if self.eot_nm is not None:
+            return self.eot_nm * 1e-9
+        assert self.t_ox_nm is not None
+        return self.t_ox_nm * 1e-9 * 3.9 / self.eps_r
+
+    @property
+    def physical_thickness_m(self) -> float:
+        """Physical thickness, m (EOT for an EOT-only oxide)."""
+        return (self.t_ox_nm if self.t_ox_nm is not None else self.eot_nm) * 1e-9  # type: ignore[operator]
+
+
+class Wells(_Strict):
+    substrate_doping_cm3: float = _f(1e13, 1e19, "p-substrate doping, cm^-3")
+    pwell_doping_cm3: float = _f(1e14, 1e19, "p-well doping under NMOS channels, cm^-3")
+    nwell_doping_cm3: float = _f(1e14, 1e19, "n-well doping under PMOS channels, cm^-3")
+    nwell_sheet_ohm_per_sq: float = _f(10, 1e5, "n-well sheet resistance, ohm/sq")
+    pwell_sheet_ohm_per_sq: float = _f(10, 1e5, "p-well sheet resistance, ohm/sq")
+
+
+class Resistances(_Strict):
+    gate_sheet_ohm_per_sq: float = _f(0.01, 1e4, "gate electrode sheet resistance (silicided poly or metal), ohm/sq")
+    diffusion_sheet_ohm_per_sq: float = _f(0.01, 1e4, "source/drain diffusion sheet resistance, ohm/sq")
+    contact_ohm: float = _f(0.01, 1e4, "resistance of one contact, ohm")
+    contact_pitch_um: float = _f(0.02, 10, "pitch of contacts along a diffusion or gate strap, um")
+
+
+class MetalLayer(_Strict):
+    name: str = Field(pattern=r"^[A-Za-z][A-Za-z0-9_]{0,15}$", description="layer name, e.g. M1")
+    thickness_nm: float = _f(10, 10000, "metal thickness, nm")
+    min_width_nm: float = _f(5, 20000, "minimum line width, nm")
+    min_space_nm: float = _f(5, 20000, "minimum line spacing, nm")
+    height_nm: float = _f(10, 50000, "height of the layer bottom above the substrate, nm")
+    ild_eps_r: float = _f(1.0, 10, "relative permittivity of the dielectric around this layer")
+    sheet_ohm_per_sq: float = _f(1e-4, 100, "sheet resistance, ohm/sq")
+    via_below_ohm: float = _f(0, 1e3, "resistance of one via to the layer below, ohm")
+
+
+class Layout(_Strict):
+    site_width_um: float = _f(0.01, 10, "placement site width, um", gt=True)
+    row_height_um: float = _f(0.05, 50, "placement row height, um", gt=True)
+    rail_width_um: float = _f(0.01, 10, "width of each supply rail (half of it inside the cell), um", gt=True)
+    rail_layer: str = Field("M1", description="metal layer of the supply rails")
+    edge_margin_um: float = _f(0, 5, "diffusion-to-cell-edge margin on left and right, um")
+    poly_endcap_um: float = _f(0, 5, "gate extension past diffusion at each end, um")
+    diffusion_strip_um: float = _f(0.01, 5, "width of a contacted source/drain strip between gates, um")
+    well_spacing_um: float = _f(0, 10, "N-to-P active spacing in cells holding both device types, um")
+    rail_clearance_um: float = _f(0, 5, "clearance from rail edge to active, um")
+
+
+class Supplies(_Strict):
+    core_V: float = _f(0.3, 5, "core supply, V", gt=True)
+    io_V: float = _f(0.5, 12, "I/O supply, V", gt=True)
+
+
+class Corner(_Strict):
+    temperature_C: float = _f(-55, 200, "junction temperature, degC")
+    supply_scale: float = _f(0.5, 1.5, "supply multiplier at this corner (e.g. 1.1 = +10 %)", default=1.0)
+    set: dict[str, float] = Field(default_factory=dict, description="dotted deck paths set to new values")
+    scale: dict[str, float] = Field(default_factory=dict, description="dotted deck paths multiplied by a factor")
+
+
+class Deck(_Strict):
+    """A process deck: everything celllab needs to know about one process."""
+
+    process: ProcessInfo
+    reference_temperature_C: float = _f(-55, 200, "temperature at which device parameters are given, degC",
+                                        default=25.0)
+    oxides: dict[OxideName, OxideFlavour]
+    wells: Wells
+    resistances: Resistances
+    metals: list[MetalLayer] = Field(min_length=1)
+    layout: Layout
+    supplies: Supplies
+    corners: dict[str, Corner] = Field(min_length=1)
+
+    @model_validator(mode="after")
+    def _consistency(self) -> "Deck":
+        problems = []
+        names = [m.name for m in self.metals]
+        if len(set(names)) != len(names):
+            problems.append("metals: layer names must be unique")
+        heights = [m.height_nm for m in self.metals]
+        if heights != sorted(heights):
+            problems.append("metals: layers must be listed bottom to top (increasing height_nm)")
+        if self.layout.rail_layer not in names:
+            problems.append(f"layout.rail_layer {self.layout.rail_layer!r} is not a metal layer; allowed: {', '.join(names)}")
+        if "core" not in self.oxides:
+            problems.append("oxides: a 'core' oxide flavour is required")
+        if self.layout.rail_width_um + 2 * self.layout.rail_clearance_um >= self.layout.row_height_um:
+            problems.append("layout: rails plus clearances leave no room in a row")
+        if self.supplies.io_V < self.supplies.core_V:
+            problems.append("supplies: io_V must be at least core_V")
+        for corner_name in self.corners:
+            if not corner_name.replace("_", "").replace("-", "").isalnum():
+                problems.append(f"corners.{corner_name}: corner names use letters, digits, _ and -")
+        if problems:
+            raise ValueError("; ".join(problems))
+        return self
+
+    @property
+    def name(self) -> str:
+        return self.process.name
+
+    def corner_names(self) -> list[str]:
+        return list(self.corners)
+
+    def metal(self, name: str) -> MetalLayer:
+        for m in self.metals:
+            if m.name == name:
+                return m
+        raise KeyError(name)
+
+    def supply_for(self, oxide: str) -> float:
+        """Nominal supply seen by a cell of that oxide flavour, V."""
+        return self.supplies.io_V if oxide == "io" else self.supplies.core_V
+
+    # --- conveniences implemented in celllab.deck.load ----------------------------------
+    @property
+    def content_hash(self) -> str:
+        """Short SHA-256 of the canonical JSON of every parameter (provenance key)."""
+        from celllab.deck.load import content_hash
+
+        return content_hash(self)
+
+    def with_changes(self, changes: dict[str, object], source: str = "<what-if>") -> "Deck":
+        """A validated copy with dotted paths set to new values; DeckError on bad input."""
+        from celllab.deck.load import apply_changes
+
+        return apply_changes(self, changes, source)
+
+    def at_corner(self, corner: str) -> "Deck":
+        """The deck with one corner's changes applied (temperature handled by the engine)."""
+        from celllab.deck.load import corner_deck
+
+        return corner_deck(self, corner)

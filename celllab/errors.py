@@ -1,0 +1,70 @@
+"""Exceptions the library raises for bad input, each carrying a list of located problems.
+
+A ``Problem`` says where (file, line, dotted field path), what was given and what is allowed.
+The CLI prints one line per problem and exits 2; the TUI shows them and keeps going.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+
+@dataclass(frozen=True)
+class Problem:
+    """One located input problem."""
+
+    file: str
+    field: str
+    message: str
+    value: Any = None
+    line: int | None = None
+    has_value: bool = True
+
+    def __str__(self) -> str:
+        where = self.file or "<input>"
+        if self.line is not None:
+            where += f":{self.line}"
+        if self.field and self.has_value:
+            return f"{where}: {self.field} = {self.value!r} -> {self.message}"
+        if self.field:
+            return f"{where}: {self.field} -> {self.message}"
+        return f"{where}: {self.message}"
+
+
+@dataclass
+class CelllabError(Exception):
+    """Base class: one or more problems found in one input."""
+
+    problems: list[Problem] = field(default_factory=list)
+
+    def __post_init__(self) -> None:
+        super().__init__(str(self))
+
+    def __str__(self) -> str:
+        return "\n".join(str(p) for p in self.problems)
+
+    @classmethod
+    def single(cls, file: str, fieldpath: str, message: str, value: Any = None,
+               line: int | None = None, has_value: bool = True) -> "CelllabError":
+        return cls([Problem(file, fieldpath, message, value, line, has_value)])
+
+
+class DeckError(CelllabError):
+    """A process deck could not be read or failed validation."""
+
+
+class CellError(CelllabError):
+    """A cell definition file could not be read or failed validation."""
+
+
+class CatalogError(CelllabError):
+    """The catalog could not be opened, read or written."""
+
+
+class FilterError(CelllabError):
+    """A filter or ranking expression is malformed or names an unknown metric."""
+
+
+class PlanError(CelllabError):
+    """A block fill plan is inconsistent."""
