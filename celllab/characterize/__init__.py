@@ -1,0 +1,1 @@
+"""Characterization: deck + cells -> SI arrays -> physics -> records (no I/O)."""

@@ -1,0 +1,89 @@
+"""Deck parameters as SI arrays over corners, and cell geometry as SI arrays over variants.
+
+Axis order everywhere: (variant, corner). A corner table has shape (1, n_corner); a geometry
+table (n_variant, 1); they broadcast to (n_variant, n_corner).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+from scipy.constants import centi, micro, nano, zero_Celsius
+
+from celllab.deck.schema import Deck, DeviceParams, OxideFlavour
+
+
+@dataclass
+class CornerSet:
+    """The deck evaluated at each corner (``decks[i]`` has corner i's set/scale applied)."""
+
+    names: list[str]
+    decks: list[Deck]
+    temperature_K: np.ndarray       # (n_corner,)
+    reference_temperature_K: float
+
+    @classmethod
+    def from_deck(cls, deck: Deck, corners: list[str] | None = None) -> "CornerSet":
+        from celllab.errors import DeckError, Problem
+
+        names = corners or deck.corner_names()
+        unknown = [c for c in names if c not in deck.corners]
+        if unknown:
+            raise DeckError([Problem(deck.name, "corners", "unknown corner; allowed: " + ", ".join(deck.corners), c)
+                             for c in unknown])
+        decks = [deck.at_corner(c) for c in names]
+        temps = np.array([deck.corners[c].temperature_C + zero_Celsius for c in names])
+        return cls(names, decks, temps, deck.reference_temperature_C + zero_Celsius)
+
+    def oxide_table(self, attr: str, oxides: np.ndarray) -> np.ndarray:
+        """(n_variant, n_corner) array of an OxideFlavour attribute, chosen per variant's oxide."""
+        return _table(self.decks, oxides, lambda ox: getattr(ox, attr))
+
+    def device_table(self, oxides: np.ndarray, device: np.ndarray, attr: str) -> np.ndarray:
+        """(n_variant, n_corner) of a DeviceParams attribute; ``device`` holds 'nmos'/'pmos' per variant."""
+        keys = np.char.add(np.char.add(np.asarray(oxides, dtype=str), "/"), np.asarray(device, dtype=str))
+        combos, index = np.unique(keys, return_inverse=True)
+        values = np.empty((len(combos), len(self.decks)))
+        for k, combo in enumerate(combos):   # a handful of (oxide, device) pairs, not variants
+            ox, dev = str(combo).split("/")
+            for j, d in enumerate(self.decks):
+                value = getattr(getattr(d.oxides[ox], dev), attr)
+                values[k, j] = np.nan if value is None else value
+        return values[index.reshape(-1)]
+
+    def deck_value(self, getter: Any) -> np.ndarray:
+        """(1, n_corner) array of any deck value."""
+        return np.array([[getter(d) for d in self.decks]], dtype=float)
+
+
+def _table(decks: list[Deck], oxides: np.ndarray, getter: Any) -> np.ndarray:
+    # Per-oxide lookup then fancy indexing: the loop runs over corners x oxide flavours (a handful),
+    # never over variants.
+    flavours = sorted(set(oxides.tolist()))
+    index = np.array([flavours.index(o) for o in oxides])
+    values = np.array([[np.nan if getter(d.oxides[f]) is None else getter(d.oxides[f]) for d in decks]
+                       for f in flavours], dtype=float)
+    return values[index]
+
+
+def eot_m(ox: OxideFlavour) -> float:
+    return ox.eot_m
+
+
+def physical_thickness_m(ox: OxideFlavour) -> float:
+    return ox.physical_thickness_m
+
+
+def cm3(value: np.ndarray | float) -> np.ndarray:
+    """cm^-3 -> m^-3."""
+    return np.asarray(value, dtype=float) / centi**3
+
+
+def cm2_per_Vs(value: np.ndarray | float) -> np.ndarray:
+    return np.asarray(value, dtype=float) * centi**2
+
+
+UM = micro
+NM = nano

@@ -1,0 +1,154 @@
+"""Verbs that read decks and cells: ``check``, ``build``, ``demo``."""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+from pathlib import Path
+
+from celllab.errors import CelllabError, Problem
+
+CAUTION = ("Estimates from analytic models, not sign-off: defer to the foundry's design rules, "
+           "qualified models and ESD/reliability qualification.")
+
+
+def _progress_printer(enabled: bool):  # type: ignore[no-untyped-def]
+    if not enabled:
+        return None
+
+    def show(stage: str, done: int, total: int) -> None:
+        width = 30
+        filled = int(width * done / max(total, 1))
+        sys.stderr.write(f"\r{stage:<24} [{'#' * filled}{'.' * (width - filled)}] {done}/{total}")
+        if done >= total:
+            sys.stderr.write("\n")
+        sys.stderr.flush()
+
+    return show
+
+
+def _load(deck_paths: list[str], cell_paths: list[str]):  # type: ignore[no-untyped-def]
+    """Load decks and cells; every problem of every file is collected before raising."""
+    from celllab.cells import load_cells
+    from celllab.deck import load_deck
+
+    problems: list[Problem] = []
+    decks = []
+    for p in deck_paths:
+        try:
+            decks.append(load_deck(p))
+        except CelllabError as exc:
+            problems.extend(exc.problems)
+    pairs = []
+    if decks or not deck_paths:
+        for deck in decks or [None]:
+            cells = []
+            for c in cell_paths:
+                try:
+                    cells.extend(load_cells(c, deck))
+                except CelllabError as exc:
+                    problems.extend(exc.problems)
+            pairs.append((deck, cells))
+    if problems:
+        # keep only distinct problems (one cell file checked against several decks)
+        seen, unique = set(), []
+        for pr in problems:
+            if str(pr) not in seen:
+                seen.add(str(pr))
+                unique.append(pr)
+        raise CelllabError(unique)
+    return pairs
+
+
+def cmd_check(args: argparse.Namespace) -> int:
+    pairs = _load(args.deck, args.cells or [])
+    for deck, cells in pairs:
+        label = deck.name if deck is not None else "(no deck)"
+        extra = f", {len(deck.corners)} corners" if deck is not None else ""
+        print(f"{label}: deck OK{extra}; {len(cells)} cell variants OK")
+    return 0
+
+
+def cmd_build(args: argparse.Namespace) -> int:
+    from celllab.catalog import open_catalog
+    from celllab.engine import characterize
+
+    pairs = _load(args.deck, args.cells)
+    corners = [c.strip() for c in args.corners.split(",")] if args.corners else None
+    catalog = open_catalog(args.catalog)
+    reports = []
+    for deck, cells in pairs:
+        run = characterize(deck, cells, corners=corners, sources=[*args.deck, *args.cells],
+                           progress=_progress_printer(not args.quiet and not args.json))
+        report = catalog.store_run(run)
+        reports.append((deck.name, len(cells), report))
+    if args.json:
+        print(json.dumps([{"deck": d, "cells": n, "run_id": r.run_id, "inserted": r.inserted,
+                           "unchanged": r.unchanged, "superseded": r.superseded} for d, n, r in reports]))
+    else:
+        for d, n, r in reports:
+            print(f"{d}: {n} cells -> {args.catalog} (run {r.run_id}: {r.inserted} new, "
+                  f"{r.unchanged} unchanged, {r.superseded} superseded)")
+        print(CAUTION)
+    return 0
+
+
+def cmd_demo(args: argparse.Namespace) -> int:
+    from celllab.demo import build_demo_catalog
+
+    path = build_demo_catalog(args.catalog, progress=_progress_printer(not args.quiet))
+    if not args.no_ui:
+        try:
+            from celllab.tui.app import run_app
+        except ImportError:
+            pass
+        else:
+            return int(run_app(catalog_path=path) or 0)
+    from celllab.catalog import open_catalog
+
+    catalog = open_catalog(path)
+    rows = catalog.query(corner="worst", order_by="cap_density_fF_per_um2", limit=args.limit)
+    cols = ["name", "deck", "topology", "cap_fF", "cap_density_fF_per_um2", "esr_ohm", "bandwidth_GHz",
+            "leakage_nA_per_nF"]
+    print(f"Densest demo cells (worst corner) in {path}:")
+    print("  ".join(f"{c:>22}" if i else f"{c:<28}" for i, c in enumerate(cols)))
+    for row in rows:
+        cells = []
+        for i, c in enumerate(cols):
+            v = row.get(c)
+            txt = f"{v:.4g}" if isinstance(v, float) else str(v)
+            cells.append(f"{txt:>22}" if i else f"{txt:<28}")
+        print("  ".join(cells))
+    print(CAUTION)
+    return 0
+
+
+def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
+    from celllab.demo import DEFAULT_CATALOG
+
+    p = sub.add_parser("check", help="validate decks and cell files without writing anything",
+                       description="Validate process decks and cell files; print one line per problem.")
+    p.add_argument("--deck", action="append", default=[], metavar="FILE", help="process deck (TOML); repeatable")
+    p.add_argument("--cells", action="append", default=[], metavar="FILE", help="cell file (TOML); repeatable")
+    p.set_defaults(func=cmd_check)
+
+    p = sub.add_parser("build", help="characterize cells under a deck and store them in a catalog",
+                       description="Characterize every cell variant at every corner of the deck and store "
+                       "the results in one transaction. Unchanged deck + cell pairs are skipped.")
+    p.add_argument("--deck", action="append", required=True, metavar="FILE", help="process deck (TOML); repeatable")
+    p.add_argument("--cells", action="append", required=True, metavar="FILE", help="cell file (TOML); repeatable")
+    p.add_argument("--catalog", default=str(DEFAULT_CATALOG), metavar="PATH", help="catalog file (default: %(default)s)")
+    p.add_argument("--corners", metavar="A,B", help="only these corners (default: all the deck defines)")
+    p.add_argument("--json", action="store_true", help="print a JSON summary")
+    p.add_argument("--quiet", action="store_true", help="no progress bar")
+    p.set_defaults(func=cmd_build)
+
+    p = sub.add_parser("demo", help="build the invented demo catalog and open the terminal UI",
+                       description="Characterize the invented demo decks in process_decks/ into a catalog, "
+                       "then open the terminal UI (or print the densest cells with --no-ui).")
+    p.add_argument("--catalog", default=str(DEFAULT_CATALOG), metavar="PATH", help="catalog file (default: %(default)s)")
+    p.add_argument("--no-ui", action="store_true", help="print a ranked table instead of opening the UI")
+    p.add_argument("--limit", type=int, default=15, help="rows to print with --no-ui (default: %(default)s)")
+    p.add_argument("--quiet", action="store_true", help="no progress bar")
+    p.set_defaults(func=cmd_demo)
