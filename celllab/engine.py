@@ -60,7 +60,8 @@ def _finite(x: float) -> float:
     return float(x) if np.isfinite(x) else float("nan")
 
 
-def _record(spec: CellSpec, geo: Any, corners: CornerSet, out: "topologies.GroupResult", k: int) -> CellResult:
+def _record(spec: CellSpec, geo: Any, corners: CornerSet, group: Any, index: int) -> CellResult:
+    out, k = group.row(index)
     corner_results = []
     for j, cname in enumerate(corners.names):
         m = {name: float("nan") for name in METRIC_NAMES}

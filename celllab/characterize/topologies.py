@@ -43,6 +43,10 @@ class GroupResult:
     flags: list[list[list[str]]] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)
 
+    def row(self, variant: int) -> tuple["GroupResult", int]:
+        """(group holding this variant, its index there)."""
+        return self, variant
+
     def netlist_for(self, variant: int, corner: int) -> Netlist:
         """The equivalent circuit of one variant at one corner (plain float values)."""
         return self.netlist.variant(variant * self.n_corner + corner)
@@ -118,7 +122,7 @@ def _mos_circuit(res: MosResult, geo: MosGeometry, l_loop: np.ndarray, n_v: int,
         c_gate=_flat(res.c_gate, n_v, n_c), r_channel=_flat(res.r_channel, n_v, n_c),
         r_gate=_flat(res.r_gate, n_v, n_c), r_access=_flat(res.r_access, n_v, n_c),
         l_loop=_flat(l_loop, n_v, n_c), c_overlap=_flat(res.c_overlap, n_v, n_c),
-        contacted_ends=int(np.max(geo.contacted_ends)) if np.all(geo.contacted_ends == geo.contacted_ends.flat[0]) else 2,
+        contacted_ends=int(geo.contacted_ends.flat[0]),  # one value per sub-group
         name=name)
 
 
@@ -135,9 +139,31 @@ def _evaluate_mos(topology: str, deck: Any, corners: CornerSet, cells: list[Any]
                        stress.vbd_pulse_V, supply, net, res.cv_bias, res.cv_cap, res.v_gb, op_cap, res.flags)
 
 
-def evaluate(topology: str, deck: Any, corners: CornerSet, cells: list[Any], geos: list[Any],
-             freq: np.ndarray) -> GroupResult:
-    """Evaluate a group of cells that share one topology."""
+@dataclass
+class MergedGroup:
+    """Several GroupResults (sub-groups with different circuit structure) in one variant order."""
+
+    parts: list[tuple[list[int], GroupResult]]
+
+    def row(self, variant: int) -> tuple[GroupResult, int]:
+        for idx, part in self.parts:
+            if variant in idx:
+                return part, idx.index(variant)
+        raise IndexError(variant)
+
+
+def _subgroup_key(topology: str, cell: Any, geo: Any) -> tuple[Any, ...]:
+    """Cells whose equivalent circuits share one structure."""
+    layers = tuple(la.name for la in geo.mom_layers)
+    if topology == "mom":
+        return (layers,)
+    if topology == "mos_mom":
+        return (cell.contacted_ends, layers)
+    return (cell.contacted_ends,)
+
+
+def _evaluate_one(topology: str, deck: Any, corners: CornerSet, cells: list[Any], geos: list[Any],
+                  freq: np.ndarray) -> GroupResult:
     if topology in ("nmos_inversion", "pmos_inversion", "accumulation"):
         return _evaluate_mos(topology, deck, corners, cells, geos, freq)
     if topology == "cross_coupled":
@@ -149,3 +175,16 @@ def evaluate(topology: str, deck: Any, corners: CornerSet, cells: list[Any], geo
 
         return evaluate_metal(topology, deck, corners, cells, geos, freq)
     raise ValueError(f"unknown topology {topology!r}")
+
+
+def evaluate(topology: str, deck: Any, corners: CornerSet, cells: list[Any], geos: list[Any],
+             freq: np.ndarray) -> GroupResult | MergedGroup:
+    """Evaluate a group of cells that share one topology (split by circuit structure)."""
+    keys = [_subgroup_key(topology, c, g) for c, g in zip(cells, geos)]
+    order = sorted(set(keys), key=keys.index)
+    parts = []
+    for key in order:  # a handful of circuit structures per topology, not one per variant
+        idx = [i for i, k in enumerate(keys) if k == key]
+        parts.append((idx, _evaluate_one(topology, deck, corners, [cells[i] for i in idx],
+                                         [geos[i] for i in idx], freq)))
+    return parts[0][1] if len(parts) == 1 else MergedGroup(parts)
