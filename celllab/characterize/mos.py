@@ -124,7 +124,19 @@ def characterize_mos(corners: CornerSet, oxides: np.ndarray, roles: np.ndarray, 
     """Characterize one MOS device per variant at every corner.
 
     ``oxides`` and ``roles`` are (n_variant,) string arrays; ``supply`` is (n_variant, n_corner) V.
+    The per-area electrostatics depend only on (oxide, role, bias), so they are solved once per
+    distinct combination and scattered back to the variants.
     """
+    supply = np.broadcast_to(np.asarray(supply, dtype=float), (len(oxides), len(corners.names)))
+    keys = np.array([f"{o}|{r}|" + ",".join(f"{v:.12g}" for v in row) for o, r, row in zip(oxides, roles, supply)])
+    _, first, inverse = np.unique(keys, return_index=True, return_inverse=True)
+    inverse = inverse.reshape(-1)
+    per_area = _per_area(corners, oxides[first], roles[first], supply[first])
+    return _assemble(corners, oxides, roles, geo, supply, {k: v[inverse] for k, v in per_area.items()})
+
+
+def _per_area(corners: CornerSet, oxides: np.ndarray, roles: np.ndarray, supply: np.ndarray) -> dict[str, np.ndarray]:
+    """Bias-dependent per-area quantities for distinct (oxide, role, supply) rows."""
     temperature = corners.temperature_K[None, :]
     eot = corners.oxide_table("eot_m", oxides)
     t_phys = corners.oxide_table("physical_thickness_m", oxides)
@@ -158,7 +170,24 @@ def characterize_mos(corners: CornerSet, oxides: np.ndarray, roles: np.ndarray, 
     cv_op = mos_cv.mos_operating_point(cv_bias, **{k: (np.asarray(v)[..., None] if isinstance(v, np.ndarray) else v)
                                                     for k, v in kwargs.items()})
     cv_area = cv_op.capacitance
+    v_ov = op.q_mobile / cox
+    mu0 = cm2_per_Vs(_role_table(corners, oxides, roles, "mu0_cm2_per_Vs"))
+    theta = _role_table(corners, oxides, roles, "theta_per_V")
+    ute = _role_table(corners, oxides, roles, "mobility_temp_exponent")
+    mu_eff = mobility.effective_mobility(mu0, theta, v_ov, temperature, corners.reference_temperature_K, ute)
+    q_floor = np.maximum(op.q_mobile, 1e-12)
+    return {"c_area": c_area, "cv_bias": cv_bias, "cv_area": cv_area, "v_ov": v_ov, "mu_eff": mu_eff,
+            "r_sheet": channel.channel_sheet_resistance(mu_eff, q_floor), "v_ox": np.abs(op.q_gate) / cox,
+            "v_gb": v_gb, "cox": np.broadcast_to(cox, v_gb.shape), "t_phys": np.broadcast_to(t_phys, v_gb.shape),
+            "body_doping": np.broadcast_to(body_doping, v_gb.shape)}
 
+
+def _assemble(corners: CornerSet, oxides: np.ndarray, roles: np.ndarray, geo: MosGeometry, supply: np.ndarray,
+              pa: dict[str, np.ndarray]) -> MosResult:
+    """Scale per-area quantities by each variant's geometry."""
+    c_area, cv_bias, cv_area, v_ov, mu_eff = pa["c_area"], pa["cv_bias"], pa["cv_area"], pa["v_ov"], pa["mu_eff"]
+    r_sheet, v_ox, v_gb, cox = pa["r_sheet"], pa["v_ox"], pa["v_gb"], pa["cox"]
+    t_phys, body_doping = pa["t_phys"], pa["body_doping"]
     area = geo.gate_area
     c_gate = c_area * area
     c_overlap = (corners.oxide_table("overlap_cap_fF_per_um", oxides) * 1e-15 / 1e-6) \
@@ -166,13 +195,6 @@ def characterize_mos(corners: CornerSet, oxides: np.ndarray, roles: np.ndarray, 
     c_ox_plain = oxide.oxide_capacitance_per_area(corners.oxide_table("eps_r", oxides),
                                                   corners.oxide_table("physical_thickness_m", oxides)) * area
 
-    v_ov = op.q_mobile / cox
-    mu0 = cm2_per_Vs(_role_table(corners, oxides, roles, "mu0_cm2_per_Vs"))
-    theta = _role_table(corners, oxides, roles, "theta_per_V")
-    ute = _role_table(corners, oxides, roles, "mobility_temp_exponent")
-    mu_eff = mobility.effective_mobility(mu0, theta, v_ov, temperature, corners.reference_temperature_K, ute)
-    q_floor = np.maximum(op.q_mobile, 1e-12)
-    r_sheet = channel.channel_sheet_resistance(mu_eff, q_floor)
     r_channel = r_sheet * geo.gate_length / geo.total_width
 
     r_gate_sheet = corners.deck_value(lambda d: d.resistances.gate_sheet_ohm_per_sq)
@@ -187,8 +209,6 @@ def characterize_mos(corners: CornerSet, oxides: np.ndarray, roles: np.ndarray, 
     r_sd = contact / (per_strip * geo.strips * geo.rows)
     r_gc = contact / (geo.fingers * geo.rows * geo.gate_contacted_ends)
     r_access = r_sd + r_gc
-
-    v_ox = np.abs(op.q_gate) / cox
 
     flags = _flags(roles, v_ov, v_ox, t_phys, body_doping)
     cv_cap = cv_area * area[..., None] + c_overlap[..., None]
