@@ -115,7 +115,7 @@ def expand_family(entry: dict[str, Any], index: int, file: str, text: str | None
     where = f"{kind}[{index}]"
     if not isinstance(entry, dict):
         raise CellError([Problem(file, where, "must be a table", entry)])
-    allowed = set(GEOMETRY_FIELDS) | _FAMILY_ONLY
+    allowed = set(GEOMETRY_FIELDS) | _FAMILY_ONLY | ({"family"} if kind == "cell" else set())
     problems = []
     for key in entry:
         if key not in allowed:
@@ -141,7 +141,10 @@ def expand_family(entry: dict[str, Any], index: int, file: str, text: str | None
             raise CellError([Problem(file, f"{where}.{k}", "cannot be swept; give one value", entry[k],
                                      find_line(text, [kind, index, k]))])
     if kind == "cell":
-        return [dict(entry)]
+        if "skip_unfit" in entry:
+            raise CellError([Problem(file, f"{where}.skip_unfit", "applies to [[family]] sweeps only",
+                                     entry["skip_unfit"], find_line(text, [kind, index, "skip_unfit"]))])
+        return [{k: v for k, v in entry.items() if k != "description"}]
     axes: list[tuple[str, list[Any]]] = []
     for f in GEOMETRY_FIELDS:
         if f in entry:

@@ -95,10 +95,30 @@ def _allowed_from_error(err: dict[str, Any]) -> str:
     return ""
 
 
+def _model_in(annotation: Any) -> tuple[Any, bool]:
+    """(pydantic model inside an annotation, whether it is the value type of a dict)."""
+    origin = getattr(annotation, "__origin__", None)
+    args = getattr(annotation, "__args__", ())
+    if isinstance(annotation, type) and issubclass(annotation, BaseModel):
+        return annotation, False
+    if origin is dict and len(args) == 2:
+        inner, _ = _model_in(args[1])
+        return inner, True
+    for arg in args:
+        inner, keyed = _model_in(arg)
+        if inner is not None:
+            return inner, keyed
+    return None, False
+
+
 def _model_fields(model: type[BaseModel], loc: tuple[Any, ...]) -> list[str]:
     """Field names allowed at ``loc`` (for 'did you mean' suggestions)."""
     current: Any = model
-    for part in loc[:-1]:
+    parts = list(loc[:-1])
+    i = 0
+    while i < len(parts):
+        part = parts[i]
+        i += 1
         if isinstance(part, int):
             continue
         if not (isinstance(current, type) and issubclass(current, BaseModel)):
@@ -106,17 +126,11 @@ def _model_fields(model: type[BaseModel], loc: tuple[Any, ...]) -> list[str]:
         field = current.model_fields.get(str(part))
         if field is None:
             return []
-        ann = field.annotation
-        args = getattr(ann, "__args__", ())
-        nxt = None
-        for cand in (ann, *args):
-            if isinstance(cand, type) and issubclass(cand, BaseModel):
-                nxt = cand
-            for sub in getattr(cand, "__args__", ()):
-                if isinstance(sub, type) and issubclass(sub, BaseModel):
-                    nxt = sub
+        nxt, keyed = _model_in(field.annotation)
         if nxt is None:
             return []
+        if keyed:
+            i += 1  # skip the dict key (oxide flavour, corner name)
         current = nxt
     if isinstance(current, type) and issubclass(current, BaseModel):
         return list(current.model_fields)
@@ -170,10 +184,21 @@ def parse_deck(data: dict[str, Any], file: str = "<deck>", text: str | None = No
         deck = Deck.model_validate(data)
     except ValidationError as exc:
         raise DeckError(validation_problems(exc, file, text, Deck)) from None
-    problems = _corner_problems(deck, data, file, text)
+    problems = rule_problems(deck, file, text)
+    if not problems:
+        problems = _corner_problems(deck, data, file, text)
     if problems:
         raise DeckError(problems)
     return deck
+
+
+def rule_problems(deck: Deck, file: str, text: str | None) -> list[Problem]:
+    """The deck's cross-field rules as located problems, one per broken rule."""
+    out = []
+    for dotted, value, message in deck.rule_problems():
+        parts = [p for p in re.split(r"\.|\[|\]", dotted) if p]
+        out.append(Problem(file, dotted, message, value, find_line(text, [int(p) if p.isdigit() else p for p in parts])))
+    return out
 
 
 def load_deck(path: str | Path) -> Deck:
@@ -270,13 +295,21 @@ def _corner_problems(deck: Deck, raw: dict[str, Any], file: str, text: str | Non
             try:
                 corner_deck(deck, cname, file)
             except DeckError as exc:
-                problems.extend(exc.problems)
+                line = find_line(text, ["corners", cname])
+                problems.extend(Problem(p.file, p.field, p.message, p.value, p.line or line, p.has_value)
+                                for p in exc.problems)
     return problems
 
 
 def apply_changes(deck: Deck, changes: dict[str, Any], source: str = "<what-if>",
-                  scale: dict[str, float] | None = None) -> Deck:
-    """Copy of ``deck`` with dotted paths set (``changes``) and/or multiplied (``scale``)."""
+                  scale: dict[str, float] | None = None, field_prefix: str = "",
+                  check_corners: bool = True) -> Deck:
+    """Copy of ``deck`` with dotted paths set (``changes``) and/or multiplied (``scale``).
+
+    The copy is validated like a loaded deck, its corners included (``check_corners``), so a
+    what-if cannot leave a corner that fails later. ``field_prefix`` labels problems (e.g. the
+    corner whose changes these are).
+    """
     data = copy.deepcopy(deck.model_dump(mode="json"))
     problems: list[Problem] = []
     allowed = numeric_paths(deck)
@@ -285,22 +318,31 @@ def apply_changes(deck: Deck, changes: dict[str, Any], source: str = "<what-if>"
             why = _check_path(data, path)
             if why:
                 guess = difflib.get_close_matches(path, allowed, n=1)
-                problems.append(Problem(source, path, why + (f"; did you mean {guess[0]!r}?" if guess else ""),
-                                        value))
+                problems.append(Problem(source, field_prefix + path,
+                                        why + (f"; did you mean {guess[0]!r}?" if guess else ""), value))
                 continue
             parts = _split(path)
             try:
                 new = float(value) if op == "set" else _get_path(data, parts) * float(value)
             except (TypeError, ValueError):
-                problems.append(Problem(source, path, "must be a number", value))
+                problems.append(Problem(source, field_prefix + path, "must be a number", value))
                 continue
             _set_path(data, parts, new)
     if problems:
         raise DeckError(problems)
     try:
-        return Deck.model_validate(data)
+        new = Deck.model_validate(data)
     except ValidationError as exc:
-        raise DeckError(validation_problems(exc, source, None, Deck)) from None
+        found = validation_problems(exc, source, None, Deck)
+        raise DeckError([Problem(p.file, field_prefix + p.field, p.message, p.value, p.line, p.has_value)
+                         for p in found]) from None
+    problems = [Problem(p.file, field_prefix + p.field, p.message, p.value, p.line, p.has_value)
+                for p in rule_problems(new, source, None)]
+    if not problems and check_corners:
+        problems = _corner_problems(new, data, source, None)
+    if problems:
+        raise DeckError(problems)
+    return new
 
 
 def corner_deck(deck: Deck, corner: str, file: str | None = None) -> Deck:
@@ -313,4 +355,5 @@ def corner_deck(deck: Deck, corner: str, file: str | None = None) -> Deck:
     if c.supply_scale != 1.0:
         for key in ("supplies.core_V", "supplies.io_V"):
             scale[key] = scale.get(key, 1.0) * c.supply_scale
-    return apply_changes(deck, dict(c.set), f"{file or deck.name}: corners.{corner}", scale)
+    return apply_changes(deck, dict(c.set), file or deck.name, scale,
+                         field_prefix=f"corners.{corner} -> ", check_corners=False)

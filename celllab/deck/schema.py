@@ -202,28 +202,40 @@ class Deck(_Strict):
     corners: dict[str, Corner] = Field(min_length=1)
 
     @model_validator(mode="after")
-    def _consistency(self) -> "Deck":
-        problems = []
-        names = [m.name for m in self.metals]
-        if len(set(names)) != len(names):
-            problems.append("metals: layer names must be unique")
-        heights = [m.height_nm for m in self.metals]
-        if heights != sorted(heights):
-            problems.append("metals: layers must be listed bottom to top (increasing height_nm)")
-        if self.layout.rail_layer not in names:
-            problems.append(f"layout.rail_layer {self.layout.rail_layer!r} is not a metal layer; allowed: {', '.join(names)}")
+    def _core_required(self) -> "Deck":
         if "core" not in self.oxides:
-            problems.append("oxides: a 'core' oxide flavour is required")
-        if self.layout.rail_width_um + 2 * self.layout.rail_clearance_um >= self.layout.row_height_um:
-            problems.append("layout: rails plus clearances leave no room in a row")
+            raise ValueError("oxides: a 'core' oxide flavour is required")
+        return self
+
+    def rule_problems(self) -> list[tuple[str, object, str]]:
+        """Cross-field rules, one (dotted field, value, message) per broken rule."""
+        problems: list[tuple[str, object, str]] = []
+        names = [m.name for m in self.metals]
+        for i, name in enumerate(names):
+            if names.index(name) != i:
+                problems.append((f"metals[{i}].name", name, "layer names must be unique"))
+        for i in range(1, len(self.metals)):
+            lower, upper = self.metals[i - 1], self.metals[i]
+            if upper.height_nm <= lower.height_nm:
+                problems.append((f"metals[{i}].height_nm", upper.height_nm,
+                                 f"layers are listed bottom to top: must be above {lower.name} at {lower.height_nm:g} nm"))
+            elif upper.height_nm < lower.height_nm + lower.thickness_nm:
+                problems.append((f"metals[{i}].height_nm", upper.height_nm,
+                                 f"overlaps {lower.name} (top at {lower.height_nm + lower.thickness_nm:g} nm)"))
+        if self.layout.rail_layer not in names:
+            problems.append(("layout.rail_layer", self.layout.rail_layer,
+                             "not a metal layer; allowed: " + ", ".join(names)))
+        room = self.layout.rail_width_um + 2 * self.layout.rail_clearance_um
+        if room >= self.layout.row_height_um:
+            problems.append(("layout.row_height_um", self.layout.row_height_um,
+                             f"rails plus clearances ({room:g} um) leave no room in the row"))
         if self.supplies.io_V < self.supplies.core_V:
-            problems.append("supplies: io_V must be at least core_V")
+            problems.append(("supplies.io_V", self.supplies.io_V,
+                             f"must be at least core_V ({self.supplies.core_V:g} V)"))
         for corner_name in self.corners:
             if not corner_name.replace("_", "").replace("-", "").isalnum():
-                problems.append(f"corners.{corner_name}: corner names use letters, digits, _ and -")
-        if problems:
-            raise ValueError("; ".join(problems))
-        return self
+                problems.append((f"corners.{corner_name}", corner_name, "corner names use letters, digits, _ and -"))
+        return problems
 
     @property
     def name(self) -> str:

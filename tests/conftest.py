@@ -1,0 +1,43 @@
+"""Shared fixtures: where the invented demo decks live, and one loaded demo deck."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+
+from celllab.deck import Deck, load_deck
+
+REPO_ROOT = Path(__file__).resolve().parent.parent
+DECK_DIR = REPO_ROOT / "process_decks"
+#: The invented demo processes; each has process_decks/NAME.toml and process_decks/cells/NAME_cells.toml.
+DEMO_DECKS: tuple[str, ...] = ("lumen130", "tarn40lp", "quill28hk")
+
+
+@pytest.fixture(scope="session")
+def deck_dir() -> Path:
+    """The folder holding the demo decks."""
+    return DECK_DIR
+
+
+@pytest.fixture(scope="session")
+def demo_deck_paths() -> dict[str, tuple[Path, Path]]:
+    """Demo process name -> (deck file, cell file)."""
+    return {name: (DECK_DIR / f"{name}.toml", DECK_DIR / "cells" / f"{name}_cells.toml") for name in DEMO_DECKS}
+
+
+@pytest.fixture(params=DEMO_DECKS)
+def demo_deck_name(request: pytest.FixtureRequest) -> str:
+    """Each demo process name in turn (parametrizes the test)."""
+    return str(request.param)
+
+
+@pytest.fixture(scope="session")
+def lumen130_path() -> Path:
+    return DECK_DIR / "lumen130.toml"
+
+
+@pytest.fixture(scope="session")
+def lumen130(lumen130_path: Path) -> Deck:
+    """The lumen130 demo deck, loaded once (decks are frozen, so sharing is safe)."""
+    return load_deck(lumen130_path)
