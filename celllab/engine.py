@@ -56,6 +56,15 @@ def characterize(deck: Deck, cells: Sequence[CellSpec], corners: Sequence[str] |
         source_files=list(sources))
 
 
+def _series_inductance(out: Any, k: int, j: int) -> float:
+    """ESL: the circuit's rail-loop inductance element (the sweep often ends below the SRF)."""
+    try:
+        value = np.broadcast_to(out.netlist.element("l_loop").value, (out.n_variant * out.n_corner,))
+    except KeyError:
+        return float(out.summary["esl_H"][k, j])
+    return float(value[k * out.n_corner + j])
+
+
 def _finite(x: float) -> float:
     return float(x) if np.isfinite(x) else float("nan")
 
@@ -73,7 +82,7 @@ def _record(spec: CellSpec, geo: Any, corners: CornerSet, group: Any, index: int
         m["esr_1GHz_ohm"] = out.summary["esr_at_ohm"][k, j, 0]
         bw = out.summary["bandwidth_Hz"][k, j]
         m["bandwidth_GHz"] = bw / giga
-        m["esl_pH"] = out.summary["esl_H"][k, j] / pico
+        m["esl_pH"] = _series_inductance(out, k, j) / pico
         srf = out.summary["srf_Hz"][k, j]
         m["srf_GHz"] = srf / giga
         m["tau_ps"] = out.summary["tau_s"][k, j] / pico
@@ -106,4 +115,4 @@ def _record(spec: CellSpec, geo: Any, corners: CornerSet, group: Any, index: int
         name=spec.name, cell_hash=spec.content_hash, family=spec.family, topology=spec.topology, oxide=spec.oxide,
         geometry=geometry, area_um2=geo.area_um2, width_sites=spec.width_sites, height_rows=spec.height_rows,
         gate_area_um2=gate_area, esd_safe=spec.esd_safe, corners=corner_results,
-        netlist=out.netlist_for(k, 0), notes=list(out.notes))
+        netlist={cname: out.netlist_for(k, j) for j, cname in enumerate(corners.names)}, notes=list(out.notes))

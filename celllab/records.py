@@ -106,8 +106,8 @@ class CellResult:
     """One characterized cell variant under one deck.
 
     ``geometry`` is the resolved geometry (all derived values filled in), in the cell file's
-    units (um, sites, rows). ``circuit`` is the equivalent circuit at the typical corner, as
-    rendered SPICE-like text for display; ``netlist`` the structure itself (physics.netlist).
+    units (um, sites, rows). ``netlist`` maps corner name -> the one-variant
+    ``physics.netlist.Netlist`` equivalent circuit at that corner.
     """
 
     name: str
@@ -143,3 +143,29 @@ class CharacterizationRun:
     corners: list[str]
     cells: list[CellResult]
     source_files: list[str] = field(default_factory=list)
+
+
+def netlist_to_dict(netlist: Any) -> dict[str, Any]:
+    """A one-variant ``physics.netlist.Netlist`` as plain JSON-able data."""
+    elements = []
+    for el in netlist.elements:
+        item: dict[str, Any] = {"kind": el.kind, "name": el.name, "node_a": el.node_a, "node_b": el.node_b,
+                                "value": float(np.asarray(el.value).reshape(-1)[0])}
+        if el.kind == "RCLINE":
+            item["c_total"] = float(np.asarray(el.c_total).reshape(-1)[0])
+            item["contacted_ends"] = int(el.contacted_ends)
+            if el.node_far is not None:
+                item["node_far"] = el.node_far
+        elements.append(item)
+    return {"name": netlist.name, "ports": list(netlist.ports), "elements": elements}
+
+
+def netlist_from_dict(data: dict[str, Any]) -> Any:
+    """Inverse of ``netlist_to_dict``."""
+    from celllab.physics.netlist import Element, Netlist
+
+    elements = tuple(
+        Element(e["kind"], e["name"], e["node_a"], e["node_b"], e["value"], e.get("c_total"),
+                contacted_ends=e.get("contacted_ends", 1), node_far=e.get("node_far"))
+        for e in data["elements"])
+    return Netlist(data["name"], elements, tuple(data["ports"]))

@@ -172,7 +172,7 @@ def test_without_inductance_ceff_never_exceeds_low_frequency_value(deck) -> None
 
     run = characterize(deck, [_cell(deck), _cell(deck, topology="cross_coupled", name="x")], corners=["typ_25C"])
     for cell in run.cells:
-        net = cell.netlist
+        net = cell.netlist["typ_25C"]
         no_l = type(net)(net.name, tuple(dataclasses.replace(e, value=0.0) if e.kind == "L" else e
                                          for e in net.elements), net.ports)
         f = np.logspace(5, 12, 200)
