@@ -1,0 +1,244 @@
+"""Figures of merit of a decap from its impedance sweep Z(f) (SI: ohm, F, H, Hz, s).
+
+All functions take ``freq`` of shape (n_freq,) (ascending, > 0) and ``z`` of shape
+(..., n_freq) and return arrays over the leading (variant) axes.
+
+Definitions (conventions of the trade): C_eff(f) = -1/(omega Im Z),
+ESR(f) = Re Z, Q(f) = -Im Z / Re Z. Crossing points are found by linear interpolation on
+log f between the bracketing samples; a crossing not reached inside the sweep is ``inf``, one
+already passed at the first sample is ``nan``. For tight values use a dense log grid or
+`bandwidth_by_bisection`.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Sequence
+
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+
+from celllab.physics.constants import FloatArray
+
+ComplexArray = NDArray[np.complex128]
+DEFAULT_FRACTION = 1.0 / np.sqrt(2.0)
+
+
+def _omega(freq: ArrayLike) -> FloatArray:
+    return 2.0 * np.pi * np.asarray(freq, dtype=float)
+
+
+def effective_capacitance(freq: ArrayLike, z: ArrayLike) -> FloatArray:
+    """C_eff(f) = -1 / (2 pi f Im Z), F (negative above self-resonance)."""
+    return -1.0 / (_omega(freq) * np.imag(np.asarray(z)))
+
+
+def esr(z: ArrayLike) -> FloatArray:
+    """Equivalent series resistance Re Z, ohm."""
+    return np.real(np.asarray(z))
+
+
+def quality_factor(z: ArrayLike) -> FloatArray:
+    """Q = -Im Z / Re Z (positive while capacitive)."""
+    zz = np.asarray(z)
+    return -np.imag(zz) / np.real(zz)
+
+
+def _first_crossing(log_f: FloatArray, g: FloatArray) -> FloatArray:
+    """First log-frequency where g goes from >= 0 to < 0 (interpolated); inf / nan as above."""
+    below = g < 0
+    first = np.argmax(below, axis=-1)
+    found = np.any(below, axis=-1)
+    at_start = found & (first == 0)
+    k = np.clip(first, 1, g.shape[-1] - 1)
+    g1 = np.take_along_axis(g, (k - 1)[..., None], -1)[..., 0]
+    g2 = np.take_along_axis(g, k[..., None], -1)[..., 0]
+    x1, x2 = log_f[k - 1], log_f[k]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        x = x1 + (x2 - x1) * g1 / (g1 - g2)
+    return np.where(~found, np.inf, np.where(at_start, np.nan, x))
+
+
+def usable_bandwidth(
+    freq: ArrayLike,
+    c_eff: ArrayLike,
+    c_lf: ArrayLike,
+    fraction: float = DEFAULT_FRACTION,
+) -> FloatArray:
+    """First frequency where C_eff falls to ``fraction`` of its low-frequency value.
+
+    Parameters
+    ----------
+    freq : array_like    (n_freq,), Hz, ascending
+    c_eff : array_like   (..., n_freq), F
+    c_lf : array_like    (...,), F, the reference (low-frequency) capacitance
+    fraction : float     default 1/sqrt(2) (the catalog's cutoff definition)
+
+    Returns
+    -------
+    ndarray   f_c, Hz; ``inf`` if C_eff stays above within the sweep, ``nan`` if already below
+              at the first frequency
+
+    Notes
+    -----
+    Interpolated linearly in log f. For a uniform RC line contacted at one end the exact point
+    is omega R C = 4.7526 (both ends: 19.010), 1.58x above the lumped 1/(ESR C) estimate.
+    """
+    f = np.asarray(freq, dtype=float)
+    ratio = np.asarray(c_eff, dtype=float) / np.asarray(c_lf, dtype=float)[..., None]
+    return np.exp(_first_crossing(np.log(f), ratio - fraction))
+
+
+def self_resonance(freq: ArrayLike, z: ArrayLike) -> FloatArray:
+    """Self-resonant frequency: first sign change of Im Z from negative to positive.
+
+    Returns
+    -------
+    ndarray   f_srf, Hz; ``inf`` if Im Z < 0 over the whole sweep, ``nan`` if Im Z >= 0 at the
+              first frequency
+
+    Notes
+    -----
+    Interpolates omega Im Z linearly in omega^2 between the bracketing samples, which is exact
+    for a series R-L-C (omega X = omega^2 L - 1/C).
+    """
+    f = np.asarray(freq, dtype=float)
+    g = -_omega(f) * np.imag(np.asarray(z))  # > 0 while capacitive
+    below = g <= 0
+    first = np.argmax(below, axis=-1)
+    found = np.any(below, axis=-1)
+    at_start = found & (first == 0)
+    k = np.clip(first, 1, g.shape[-1] - 1)
+    g1 = np.take_along_axis(g, (k - 1)[..., None], -1)[..., 0]
+    g2 = np.take_along_axis(g, k[..., None], -1)[..., 0]
+    w1, w2 = _omega(f[k - 1]) ** 2, _omega(f[k]) ** 2
+    with np.errstate(invalid="ignore", divide="ignore"):
+        w_sq = w1 + (w2 - w1) * g1 / (g1 - g2)
+        f_res = np.sqrt(w_sq) / (2.0 * np.pi)
+    return np.where(~found, np.inf, np.where(at_start, np.nan, f_res))
+
+
+def low_frequency_values(freq: ArrayLike, z: ArrayLike) -> tuple[FloatArray, FloatArray]:
+    """(C_lf, ESR_lf) from the first (lowest) frequency of the sweep, F and ohm."""
+    zz = np.asarray(z)
+    f0 = np.asarray(freq, dtype=float)[0]
+    return effective_capacitance(f0, zz[..., 0]), esr(zz[..., 0])
+
+
+def esl_estimate(freq: ArrayLike, z: ArrayLike, c_lf: ArrayLike | None = None) -> FloatArray:
+    """Equivalent series inductance from the top of the sweep, H.
+
+    Parameters
+    ----------
+    freq, z : sweep
+    c_lf : array_like, optional   low-frequency capacitance, F (default from the first sample)
+
+    Returns
+    -------
+    ndarray   ESL = (Im Z(f_top) + 1/(omega_top C_lf)) / omega_top; ``nan`` where Im Z at the
+              top frequency is still capacitive (no inductive region in the sweep)
+
+    Notes
+    -----
+    Exact for a series R-L-C. For a distributed RC + L it is biased low by the line's
+    -sqrt(R/(2 omega C)) reactance; sweep well past the self-resonance.
+    """
+    f = np.asarray(freq, dtype=float)
+    zz = np.asarray(z)
+    if c_lf is None:
+        c_lf = low_frequency_values(f, zz)[0]
+    w = _omega(f[-1])
+    x_top = np.imag(zz[..., -1])
+    est = (x_top + 1.0 / (w * np.asarray(c_lf, dtype=float))) / w
+    return np.where(x_top > 0, est, np.nan)
+
+
+def rc_time_constant(c_lf: ArrayLike, esr_lf: ArrayLike) -> FloatArray:
+    """tau = ESR_lf * C_lf, s (lumped estimate; the distributed cutoff lies 1.58x higher)."""
+    return np.asarray(c_lf, dtype=float) * np.asarray(esr_lf, dtype=float)
+
+
+def esr_at(freq: ArrayLike, z: ArrayLike, at_Hz: ArrayLike) -> FloatArray:
+    """ESR interpolated (linear in log f) at the frequencies ``at_Hz``; shape (..., n_at)."""
+    f = np.log(np.asarray(freq, dtype=float))
+    r = esr(z)
+    at = np.log(np.atleast_1d(np.asarray(at_Hz, dtype=float)))
+    k = np.clip(np.searchsorted(f, at), 1, f.size - 1)
+    weight = (at - f[k - 1]) / (f[k] - f[k - 1])
+    out = r[..., k - 1] + weight * (r[..., k] - r[..., k - 1])
+    inside = (at >= f[0]) & (at <= f[-1])
+    return np.where(inside, out, np.nan)
+
+
+def summarize(
+    freq: ArrayLike,
+    z: ArrayLike,
+    esr_freqs_Hz: Sequence[float] = (),
+    fraction: float = DEFAULT_FRACTION,
+) -> dict[str, FloatArray]:
+    """All figures of merit of a sweep as arrays over variants.
+
+    Returns
+    -------
+    dict   ``c_lf_F``, ``esr_lf_ohm``, ``esr_at_ohm`` (..., len(esr_freqs_Hz)), ``esr_at_Hz``,
+           ``bandwidth_Hz`` (C_eff = fraction C_lf), ``esl_H``, ``srf_Hz``, ``tau_s``
+    """
+    f = np.asarray(freq, dtype=float)
+    zz = np.asarray(z)
+    c_lf, esr_lf = low_frequency_values(f, zz)
+    return {
+        "c_lf_F": c_lf,
+        "esr_lf_ohm": esr_lf,
+        "esr_at_Hz": np.asarray(esr_freqs_Hz, dtype=float),
+        "esr_at_ohm": (
+            esr_at(f, zz, esr_freqs_Hz) if len(esr_freqs_Hz) else np.zeros(c_lf.shape + (0,))
+        ),
+        "bandwidth_Hz": usable_bandwidth(f, effective_capacitance(f, zz), c_lf, fraction),
+        "esl_H": esl_estimate(f, zz, c_lf),
+        "srf_Hz": self_resonance(f, zz),
+        "tau_s": rc_time_constant(c_lf, esr_lf),
+    }
+
+
+def bandwidth_by_bisection(
+    impedance: Callable[[FloatArray], ComplexArray],
+    c_lf: ArrayLike,
+    f_low: float,
+    f_high: float,
+    fraction: float = DEFAULT_FRACTION,
+    n_grid: int = 41,
+    iterations: int = 40,
+) -> FloatArray:
+    """Cutoff frequency solved to full precision from an impedance function.
+
+    Parameters
+    ----------
+    impedance : callable   ``freq (n_variant, n) -> Z (n_variant, n)``, e.g.
+                           ``lambda f: solve_impedance(netlist, f)``
+    c_lf : array_like      (n_variant,), F
+    f_low, f_high : float  search range, Hz
+    fraction : float       C_eff / C_lf target
+    n_grid : int           coarse log grid to bracket the first crossing
+    iterations : int       bisection steps on log f (40 -> relative 1e-12 of the bracket)
+
+    Returns
+    -------
+    ndarray   (n_variant,) Hz; ``inf``/``nan`` as for `usable_bandwidth`
+    """
+    c = np.asarray(c_lf, dtype=float)
+    n_var = c.shape[0]
+    grid = np.geomspace(f_low, f_high, n_grid)
+    z = impedance(np.broadcast_to(grid, (n_var, n_grid)))
+    g = effective_capacitance(grid, z) / c[:, None] - fraction
+    crossing = _first_crossing(np.log(grid), g)
+    ok = np.isfinite(crossing)
+    below = np.argmax(g < 0, axis=-1)
+    lo = np.log(grid[np.clip(below - 1, 0, n_grid - 1)])
+    hi = np.log(grid[np.clip(below, 0, n_grid - 1)])
+    for _ in range(iterations):
+        mid = 0.5 * (lo + hi)
+        fm = np.exp(mid)
+        zm = impedance(fm[:, None])[:, 0]
+        gm = effective_capacitance(fm, zm) / c - fraction
+        lo = np.where(gm >= 0, mid, lo)
+        hi = np.where(gm >= 0, hi, mid)
+    return np.where(ok, np.exp(0.5 * (lo + hi)), np.exp(crossing))

@@ -1,0 +1,493 @@
+"""Small-signal equivalent circuits of decap cells and their port impedance (SI: ohm, F, H, Hz).
+
+One data structure (`Netlist`: a name, two ports and a list of `Element`) describes every
+topology's equivalent circuit; one solver (`solve_impedance`) evaluates Z(f) between the ports
+for all variants and frequencies at once by complex modified nodal analysis (MNA).
+
+Element kinds
+-------------
+``R``, ``C``, ``L``
+    Two-terminal resistor (ohm, >= 0), capacitor (F, >= 0), inductor (H, >= 0) between
+    ``node_a`` and ``node_b``. Zero R or L is a short (stamped as a branch equation, so a
+    variant may have a zero value without making the matrix singular).
+``RCLINE``
+    Uniform distributed RC line (see `celllab.physics.distributed_rc`): total series
+    resistance ``value`` (ohm) and total shunt capacitance ``c_total`` (F) to the plate node
+    ``node_b``. The series path starts at ``node_a`` (the contacted end). Its far end is
+
+    * open when ``node_far`` is None and ``contacted_ends`` = 1 (a channel fed from one side),
+    * tied to ``node_a`` when ``node_far`` is None and ``contacted_ends`` = 2 (source and drain
+      on the same rail),
+    * connected to ``node_far`` otherwise (a through line, e.g. a channel whose source and drain
+      sit on different nodes; ``contacted_ends`` is then ignored).
+
+    It is stamped exactly (closed-form line admittances). `ladder_expansion` replaces it by an
+    N-segment R-C ladder of plain ``R`` and ``C`` elements (for SPICE).
+
+Values are numpy arrays of shape ``(n_variant,)`` or scalars (stored as Python floats).
+``netlist.variant(i)`` gives one variant with every value a plain float, for rendering; element
+names carry no SPICE kind letter, and builders use node names of letters, digits and ``_``.
+The second port is the reference node; the first port receives a 1 A test current, so its
+voltage is Z.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterator, Mapping, Sequence
+from dataclasses import dataclass, field, replace
+from typing import Any, Literal, cast
+
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+
+from celllab.physics.constants import FloatArray
+from celllab.physics.distributed_rc import rc_line_even_odd_admittances, rc_line_impedance
+
+ComplexArray = NDArray[np.complex128]
+ElementKind = Literal["R", "C", "L", "RCLINE"]
+ELEMENT_KINDS: tuple[ElementKind, ...] = ("R", "C", "L", "RCLINE")
+
+_BRANCH_OHM = 1e-3
+"""Resistors below this (in any variant) get a branch current instead of a conductance stamp,
+so zero and near-zero values stay well conditioned."""
+_MAX_BLOCK_ENTRIES = 4_000_000
+"""Complex matrix entries assembled at once (memory bound); the frequency axis is blocked."""
+
+
+def _as_values(value: ArrayLike | float) -> FloatArray | float:
+    if isinstance(value, float):
+        return value
+    arr = np.asarray(value, dtype=float)
+    if arr.ndim == 0:
+        return float(arr)
+    if arr.ndim > 1:
+        raise ValueError(f"element value has shape {arr.shape} -> must be a scalar or (n_variant,)")
+    return arr
+
+
+@dataclass(frozen=True)
+class Element:
+    """One circuit element; see the module docstring for the kinds and their values.
+
+    Attributes
+    ----------
+    kind : {"R", "C", "L", "RCLINE"}
+    name : str            unique within the netlist (without a SPICE kind letter)
+    node_a, node_b : str  terminals (RCLINE: contacted end, plate)
+    value : array_like    R ohm / C F / L H; RCLINE: total series R, ohm
+    c_total : array_like  RCLINE only: total shunt C, F
+    contacted_ends : {1, 2}   RCLINE only, used when ``node_far`` is None
+    node_far : str | None     RCLINE only: far-end node of a through line
+    """
+
+    kind: ElementKind
+    name: str
+    node_a: str
+    node_b: str
+    value: FloatArray | float
+    c_total: FloatArray | float | None = None
+    contacted_ends: Literal[1, 2] = 1
+    node_far: str | None = None
+
+    def __post_init__(self) -> None:
+        if self.kind not in ELEMENT_KINDS:
+            allowed = ", ".join(ELEMENT_KINDS)
+            raise ValueError(f"element {self.name}: kind = {self.kind!r} -> allowed: {allowed}")
+        if self.node_a == self.node_b:
+            raise ValueError(f"element {self.name}: both terminals on node {self.node_a!r}")
+        object.__setattr__(self, "value", _as_values(self.value))
+        if np.any(~np.isfinite(self.value)) or np.any(np.asarray(self.value) < 0):
+            raise ValueError(f"element {self.name}: value = {self.value!r} -> must be finite, >= 0")
+        if self.kind == "RCLINE":
+            if self.c_total is None:
+                raise ValueError(f"element {self.name}: RCLINE needs c_total (F)")
+            object.__setattr__(self, "c_total", _as_values(self.c_total))
+            c = np.asarray(self.c_total)
+            if np.any(~np.isfinite(c)) or np.any(c <= 0):
+                raise ValueError(f"element {self.name}: c_total = {self.c_total!r} -> must be > 0")
+            if self.contacted_ends not in (1, 2):
+                raise ValueError(
+                    f"element {self.name}: contacted_ends = {self.contacted_ends!r} -> 1 or 2"
+                )
+            if self.node_far is not None:
+                if self.node_far in (self.node_a, self.node_b):
+                    raise ValueError(f"element {self.name}: node_far must be a third node")
+                if np.any(np.asarray(self.value) <= 0):
+                    raise ValueError(f"element {self.name}: a through RCLINE needs value > 0")
+        elif self.c_total is not None or self.node_far is not None:
+            raise ValueError(f"element {self.name}: c_total/node_far are for RCLINE only")
+
+    @property
+    def nodes(self) -> tuple[str, ...]:
+        """Terminal nodes (a, b[, far])."""
+        if self.node_far is None:
+            return (self.node_a, self.node_b)
+        return (self.node_a, self.node_b, self.node_far)
+
+    def _variant_sizes(self) -> list[int]:
+        sizes = [np.size(self.value)]
+        if self.c_total is not None:
+            sizes.append(np.size(self.c_total))
+        return sizes
+
+    def variant(self, index: int) -> Element:
+        """This element with plain float values for one variant."""
+
+        def pick(v: FloatArray | float) -> float:
+            arr = np.asarray(v, dtype=float)
+            return float(arr) if arr.ndim == 0 else float(arr[index])
+
+        c = None if self.c_total is None else pick(self.c_total)
+        return replace(self, value=pick(self.value), c_total=c)
+
+
+@dataclass(frozen=True)
+class Netlist:
+    """A topology's small-signal equivalent circuit between two ports.
+
+    Attributes
+    ----------
+    name : str
+    elements : tuple[Element, ...]
+    ports : (str, str)   (driven port, reference port), default ("vdd", "vss")
+    """
+
+    name: str
+    elements: tuple[Element, ...]
+    ports: tuple[str, str] = ("vdd", "vss")
+    _n_variant: int = field(init=False, repr=False, compare=False, default=1)
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "elements", tuple(self.elements))
+        names = [el.name for el in self.elements]
+        duplicates = sorted({n for n in names if names.count(n) > 1})
+        if duplicates:
+            raise ValueError(f"netlist {self.name}: duplicate element names {duplicates}")
+        if self.ports[0] == self.ports[1]:
+            raise ValueError(f"netlist {self.name}: ports must differ, got {self.ports}")
+        nodes = {n for el in self.elements for n in el.nodes}
+        missing = [p for p in self.ports if p not in nodes]
+        if missing:
+            raise ValueError(f"netlist {self.name}: port(s) {missing} not connected")
+        sizes = {s for el in self.elements for s in el._variant_sizes() if s != 1}
+        if len(sizes) > 1:
+            raise ValueError(
+                f"netlist {self.name}: element values have variant counts {sorted(sizes)} "
+                "-> all must be 1 or the same n_variant"
+            )
+        object.__setattr__(self, "_n_variant", sizes.pop() if sizes else 1)
+
+    @property
+    def n_variant(self) -> int:
+        """Number of variants the values broadcast to."""
+        return self._n_variant
+
+    def __iter__(self) -> Iterator[Element]:
+        return iter(self.elements)
+
+    def element(self, name: str) -> Element:
+        """The element called ``name``."""
+        for el in self.elements:
+            if el.name == name:
+                return el
+        raise KeyError(f"netlist {self.name}: no element {name!r}")
+
+    def node_names(self) -> tuple[str, ...]:
+        """All nodes: the two ports first, then internal nodes in order of appearance."""
+        seen: dict[str, None] = dict.fromkeys(self.ports)
+        for el in self.elements:
+            for n in el.nodes:
+                seen.setdefault(n, None)
+        return tuple(seen)
+
+    def variant(self, index: int) -> Netlist:
+        """The netlist of one variant: every element value a plain float (for rendering)."""
+        if not -self.n_variant <= index < self.n_variant:
+            raise IndexError(f"variant {index} out of range for {self.n_variant} variants")
+        return Netlist(self.name, tuple(el.variant(index) for el in self.elements), self.ports)
+
+    def with_values(
+        self, updates: Mapping[str, ArrayLike | tuple[ArrayLike, ArrayLike]]
+    ) -> Netlist:
+        """Replace element values by name; an RCLINE takes a (R, C) tuple."""
+        new = []
+        for el in self.elements:
+            if el.name in updates:
+                upd = updates[el.name]
+                if el.kind == "RCLINE":
+                    r, c = cast(tuple[ArrayLike, ArrayLike], upd)
+                    el = replace(el, value=_as_values(r), c_total=_as_values(c))
+                else:
+                    el = replace(el, value=_as_values(cast(ArrayLike, upd)))
+            new.append(el)
+        self._check_names(updates)
+        return Netlist(self.name, tuple(new), self.ports)
+
+    def scaled(self, factors: Mapping[str, ArrayLike | tuple[ArrayLike, ArrayLike]]) -> Netlist:
+        """Multiply element values by name; an RCLINE takes one factor (R only) or (fR, fC)."""
+        self._check_names(factors)
+        updates: dict[str, ArrayLike | tuple[ArrayLike, ArrayLike]] = {}
+        for name, f in factors.items():
+            el = self.element(name)
+            if el.kind == "RCLINE":
+                fr, fc = f if isinstance(f, tuple) else (f, 1.0)
+                updates[name] = (
+                    np.asarray(el.value) * np.asarray(fr, dtype=float),
+                    np.asarray(el.c_total) * np.asarray(fc, dtype=float),
+                )
+            else:
+                updates[name] = np.asarray(el.value) * np.asarray(f, dtype=float)
+        return self.with_values(updates)
+
+    def parallel_copies(self, count: ArrayLike) -> Netlist:
+        """``count`` identical copies in parallel: R and L divided, C multiplied by count."""
+        m = np.asarray(count, dtype=float)
+        new = []
+        for el in self.elements:
+            if el.kind == "C":
+                new.append(replace(el, value=_as_values(np.asarray(el.value) * m)))
+            elif el.kind == "RCLINE":
+                new.append(
+                    replace(
+                        el,
+                        value=_as_values(np.asarray(el.value) / m),
+                        c_total=_as_values(np.asarray(el.c_total) * m),
+                    )
+                )
+            else:
+                new.append(replace(el, value=_as_values(np.asarray(el.value) / m)))
+        return Netlist(self.name, tuple(new), self.ports)
+
+    def _check_names(self, names: Mapping[str, object]) -> None:
+        known = {el.name for el in self.elements}
+        unknown = sorted(set(names) - known)
+        if unknown:
+            raise KeyError(f"netlist {self.name}: no element(s) {unknown}; known: {sorted(known)}")
+
+
+def parallel(name: str, parts: Sequence[Netlist], series: Sequence[Element] = ()) -> Netlist:
+    """Join netlists in parallel between shared ports, optionally behind shared series elements.
+
+    Parameters
+    ----------
+    name : str
+    parts : sequence of Netlist   each with ports ("vdd", "vss")-like (driven, reference)
+    series : sequence of Element  elements between the outer driven port and the parts' common
+                                  driven node ``"{name}_in"`` (e.g. a shared loop inductance);
+                                  they must use the nodes ``vdd`` and ``{name}_in``
+
+    Returns
+    -------
+    Netlist   element and internal node names prefixed with ``{part.name}_``; ports
+              ("vdd", "vss")
+    """
+    inner = f"{name}_in" if series else "vdd"
+    elements: list[Element] = list(series)
+    for part in parts:
+        mapping = {part.ports[0]: inner, part.ports[1]: "vss"}
+
+        def rename(
+            node: str | None, part: Netlist = part, mapping: dict[str, str] = mapping
+        ) -> str:
+            assert node is not None
+            return mapping.get(node, f"{part.name}_{node}")
+
+        for el in part.elements:
+            elements.append(
+                replace(
+                    el,
+                    name=f"{part.name}_{el.name}",
+                    node_a=rename(el.node_a),
+                    node_b=rename(el.node_b),
+                    node_far=None if el.node_far is None else rename(el.node_far),
+                )
+            )
+    return Netlist(name, tuple(elements), ("vdd", "vss"))
+
+
+def ladder_expansion(netlist: Netlist, n_segments: int) -> Netlist:
+    """Replace every RCLINE by an ``n_segments`` R-C ladder of plain R and C elements.
+
+    Parameters
+    ----------
+    netlist : Netlist
+    n_segments : int   capacitor count per line, >= 1
+
+    Returns
+    -------
+    Netlist   same ports; line ``x`` becomes resistors ``x_r0..`` , capacitors ``x_c1..`` and
+              internal nodes ``x_1..x_N``
+
+    Notes
+    -----
+    Midpoint discretization: the N capacitors C/N sit at the centres of N equal segments, so
+    the series path is R/(2N), then (N-1) x R/N between capacitors, then R/(2N) to the far end
+    (omitted when the far end is open). Low-frequency ESR of the open ladder is
+    R (1/3 + 1/(6 N^2)): the error falls as 1/N^2. Valid up to omega R C / N^2 << 1.
+    """
+    if n_segments < 1:
+        raise ValueError(f"n_segments = {n_segments} -> must be >= 1")
+    n = n_segments
+    out: list[Element] = []
+    for el in netlist.elements:
+        if el.kind != "RCLINE":
+            out.append(el)
+            continue
+        r = np.asarray(el.value, dtype=float)
+        c = np.asarray(el.c_total, dtype=float)
+        inner = [f"{el.name}_{k}" for k in range(1, n + 1)]
+        out.append(Element("R", f"{el.name}_r0", el.node_a, inner[0], _as_values(r / (2 * n))))
+        for k in range(1, n):
+            out.append(Element("R", f"{el.name}_r{k}", inner[k - 1], inner[k], _as_values(r / n)))
+        for k in range(1, n + 1):
+            out.append(Element("C", f"{el.name}_c{k}", inner[k - 1], el.node_b, _as_values(c / n)))
+        far = (
+            el.node_far
+            if el.node_far is not None
+            else (el.node_a if el.contacted_ends == 2 else None)
+        )
+        if far is not None:
+            out.append(Element("R", f"{el.name}_r{n}", inner[-1], far, _as_values(r / (2 * n))))
+    return Netlist(netlist.name, tuple(out), netlist.ports)
+
+
+def _dc_components(netlist: Netlist) -> dict[str, str]:
+    """Map each node to the root of its DC-connected component (through R, L, line paths)."""
+    parent = {n: n for n in netlist.node_names()}
+
+    def find(n: str) -> str:
+        while parent[n] != n:
+            parent[n] = parent[parent[n]]
+            n = parent[n]
+        return n
+
+    def union(a: str, b: str) -> None:
+        ra, rb = find(a), find(b)
+        if ra != rb:
+            parent[rb] = ra
+
+    for el in netlist.elements:
+        if el.kind in ("R", "L"):
+            union(el.node_a, el.node_b)
+        elif el.kind == "RCLINE" and el.node_far is not None:
+            union(el.node_a, el.node_far)
+    # the ports are the roots of their components (driven port first, so Z = its potential)
+    for port in netlist.ports:
+        root = find(port)
+        if root != port:
+            parent[root] = port
+            parent[port] = port
+    return {n: find(n) for n in parent}
+
+
+def solve_impedance(netlist: Netlist, freq_Hz: ArrayLike) -> ComplexArray:
+    """Impedance between the two ports of every variant at every frequency.
+
+    Parameters
+    ----------
+    netlist : Netlist
+    freq_Hz : array_like   frequencies, Hz, > 0: shape (n_freq,) shared by all variants, or
+                           (n_variant, n_freq) per variant
+
+    Returns
+    -------
+    ndarray   complex Z, ohm, shape (n_variant, n_freq)
+
+    Notes
+    -----
+    Modified nodal analysis (C.-W. Ho, A. E. Ruehli, P. A. Brennan, IEEE TCAS 22(6):504, 1975)
+    with one branch current per L (and per R below 1 mohm in some variant), batched as
+    (n_variant, n_freq_block, n, n) and solved by numpy.linalg.solve with a 1 A current into
+    the driven port. Node voltages are written as the potential of their DC-connected
+    component (through R, L and line paths) plus a local offset, offsets and branch currents
+    ordered first: elimination then leaves the capacitive coupling between components for
+    last, so the real part of a mostly capacitive low-frequency Z (omega R C ~ 1e-9) keeps full
+    relative precision. Every component other than the reference one must reach the network
+    through some element at each frequency (a floating node makes the matrix singular).
+    """
+    f = np.asarray(freq_Hz, dtype=float)
+    if f.ndim == 1:
+        f = f[None, :]
+    if f.ndim != 2:
+        raise ValueError(f"freq_Hz has shape {f.shape} -> must be (n_freq,) or (n_variant, n_freq)")
+    if np.any(~(f > 0)):
+        raise ValueError("freq_Hz must be > 0 everywhere")
+    n_var = max(netlist.n_variant, f.shape[0])
+    if f.shape[0] not in (1, n_var) or netlist.n_variant not in (1, n_var):
+        raise ValueError(
+            f"freq_Hz rows {f.shape[0]} and netlist variants {netlist.n_variant} do not broadcast"
+        )
+    root = _dc_components(netlist)
+    ground = netlist.ports[1]
+    nodes = netlist.node_names()
+    offsets = [n for n in nodes if root[n] != n]
+    branch_elements = [
+        el
+        for el in netlist.elements
+        if el.kind == "L" or (el.kind == "R" and np.any(np.asarray(el.value) < _BRANCH_OHM))
+    ]
+    branch_ids = {id(el): k for k, el in enumerate(branch_elements)}
+    potentials = [n for n in nodes if root[n] == n and root[n] != root[ground]]
+    n_off, n_br = len(offsets), len(branch_elements)
+    index_offset = {n: k for k, n in enumerate(offsets)}
+    index_potential = {n: n_off + n_br + k for k, n in enumerate(potentials)}
+
+    def incidence(coeffs: dict[str, int]) -> dict[int, int]:
+        """Node-space coefficients -> unknown-space coefficients (exact integer arithmetic)."""
+        out: dict[int, int] = {}
+        for node, c in coeffs.items():
+            if node in index_offset:
+                out[index_offset[node]] = out.get(index_offset[node], 0) + c
+            r = root[node]
+            if r in index_potential:
+                out[index_potential[r]] = out.get(index_potential[r], 0) + c
+        return {k: v for k, v in out.items() if v != 0}
+
+    size = n_off + n_br + len(potentials)
+    drive = incidence({netlist.ports[0]: 1})
+    n_freq = f.shape[1]
+    block = max(1, _MAX_BLOCK_ENTRIES // max(1, n_var * size * size))
+    z = np.empty((n_var, n_freq), dtype=complex)
+    for start in range(0, n_freq, block):
+        width = min(block, n_freq - start)
+        omega = 2.0 * np.pi * np.broadcast_to(f[:, start : start + width], (n_var, width))
+        y_mat = np.zeros(omega.shape + (size, size), dtype=complex)
+        for el in netlist.elements:
+            val = np.asarray(el.value, dtype=float).reshape(-1, 1)
+            pair = incidence({el.node_a: 1, el.node_b: -1})
+            if id(el) in branch_ids:
+                # V_a - V_b - Z_branch I = 0; I leaves node a and enters node b
+                k = n_off + branch_ids[id(el)]
+                for p, g in pair.items():
+                    y_mat[..., p, k] += g
+                    y_mat[..., k, p] += g
+                y_mat[..., k, k] -= val * (1j * omega if el.kind == "L" else 1.0)
+            elif el.kind == "R":
+                _stamp(y_mat, pair, 1.0 / val)
+            elif el.kind == "C":
+                _stamp(y_mat, pair, 1j * omega * val)
+            elif el.node_far is None:
+                c = np.asarray(el.c_total, dtype=float).reshape(-1, 1)
+                _stamp(y_mat, pair, 1.0 / rc_line_impedance(val, c, omega, el.contacted_ends))
+            else:
+                # 3-terminal line = odd mode between the ends + even mode ends-to-plate:
+                # Y = (y_o/2) (e_a - e_f)(..)^T + (y_e/2) (e_a + e_f - 2 e_b)(..)^T
+                c = np.asarray(el.c_total, dtype=float).reshape(-1, 1)
+                y_even, y_odd = rc_line_even_odd_admittances(val, c, omega)
+                _stamp(y_mat, incidence({el.node_a: 1, el.node_far: -1}), 0.5 * y_odd)
+                _stamp(
+                    y_mat, incidence({el.node_a: 1, el.node_far: 1, el.node_b: -2}), 0.5 * y_even
+                )
+        rhs = np.zeros(omega.shape + (size, 1), dtype=complex)
+        for p, g in drive.items():
+            rhs[..., p, 0] = g
+        sol = np.linalg.solve(y_mat, rhs)
+        z[:, start : start + width] = sum(g * sol[..., p, 0] for p, g in drive.items())
+    return z
+
+
+def _stamp(y_mat: ComplexArray, coeffs: dict[int, int], adm: NDArray[np.inexact[Any]]) -> None:
+    """Add adm * g g^T for the incidence vector g given as {index: coefficient}."""
+    for p, gp in coeffs.items():
+        for q, gq in coeffs.items():
+            y_mat[..., p, q] += (gp * gq) * adm

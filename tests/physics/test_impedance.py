@@ -1,0 +1,91 @@
+"""Figures of merit from Z(f) against closed forms of the series RLC and the RC line."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from scipy.optimize import brentq
+
+from celllab.physics import impedance as imp
+from celllab.physics.distributed_rc import rc_line_impedance
+from celllab.physics.netlist import Element, Netlist, solve_impedance
+
+R = np.array([0.2, 1.0])
+L = np.array([2e-11, 5e-11])
+C = np.array([1e-12, 4e-12])
+F = np.geomspace(1e6, 1e12, 301)
+W = 2 * np.pi * F
+
+
+def _series_rlc() -> np.ndarray:
+    return R[:, None] + 1j * W * L[:, None] + 1 / (1j * W * C[:, None])
+
+
+def test_summary_of_series_rlc() -> None:
+    # Source: series RLC: C_eff(f -> 0) = C, ESR = R, f_srf = 1/(2 pi sqrt(L C)), ESL = L
+    # (definitions; the omega^2 interpolation and the top-point ESL are exact here); rel 1e-6
+    s = imp.summarize(F, _series_rlc(), esr_freqs_Hz=(1e8, 1e10))
+    np.testing.assert_allclose(s["c_lf_F"], C / (1 - (W[0] ** 2) * L * C), rtol=1e-12)
+    np.testing.assert_allclose(s["esr_lf_ohm"], R, rtol=1e-12)
+    np.testing.assert_allclose(s["esr_at_ohm"], np.stack([R, R], axis=1), rtol=1e-12)
+    np.testing.assert_allclose(s["srf_Hz"], 1 / (2 * np.pi * np.sqrt(L * C)), rtol=1e-9)
+    np.testing.assert_allclose(s["esl_H"], L, rtol=1e-6)
+    np.testing.assert_allclose(s["tau_s"], s["c_lf_F"] * R, rtol=1e-12)
+    # C_eff = C/(1 - omega^2 L C) falls to C/sqrt(2) only past resonance, where it is negative:
+    # the first crossing is the sign change at the SRF
+    np.testing.assert_allclose(s["bandwidth_Hz"], s["srf_Hz"], rtol=1e-2)
+
+
+def test_crossings_outside_the_sweep() -> None:
+    z = _series_rlc()
+    low = F[:10]  # far below resonance: never inductive, C_eff never drops
+    assert np.all(np.isinf(imp.self_resonance(low, z[:, :10])))
+    assert np.all(np.isnan(imp.esl_estimate(low, z[:, :10])))
+    assert np.all(np.isinf(imp.usable_bandwidth(low, imp.effective_capacitance(low, z[:, :10]), C)))
+    high = F[-10:]  # above resonance from the first point
+    assert np.all(np.isnan(imp.self_resonance(high, z[:, -10:])))
+    ceff_high = imp.effective_capacitance(high, z[:, -10:])
+    assert np.all(np.isnan(imp.usable_bandwidth(high, ceff_high, C)))
+
+
+@pytest.mark.parametrize(("ends", "x_c"), [(1, 4.7526), (2, 19.010)])
+def test_bandwidth_of_rc_line(ends: int, x_c: float) -> None:
+    # Source: REFERENCES §13 row 13 [DF]: C_eff = C/sqrt(2) at omega R C = 4.7526 / 19.010;
+    # dense-grid interpolation rel 1e-3, bisection rel 1e-4 (limited by the quoted digits)
+    r, c = np.array([100.0, 400.0]), 1e-12
+    f = np.geomspace(1e7, 1e13, 2001)
+    z = rc_line_impedance(r[:, None], c, 2 * np.pi * f, ends)  # type: ignore[arg-type]
+    bw = imp.usable_bandwidth(f, imp.effective_capacitance(f, z), np.full(2, c))
+    np.testing.assert_allclose(bw, x_c / (2 * np.pi * r * c), rtol=1e-3)
+    nl = Netlist("l", (Element("RCLINE", "ch", "vss", "vdd", r, c, contacted_ends=ends),))  # type: ignore[arg-type]
+    bis = imp.bandwidth_by_bisection(lambda fr: solve_impedance(nl, fr), np.full(2, c), 1e7, 1e13)
+    np.testing.assert_allclose(bis, x_c / (2 * np.pi * r * c), rtol=1e-4)
+
+
+def test_bisection_matches_brentq() -> None:
+    # Source: scipy brentq on the same C_eff(f) (independent root finder); rel 1e-9
+    r, c = 123.0, 2.5e-12
+
+    def gap(f: float) -> float:
+        z = rc_line_impedance(r, c, 2 * np.pi * f)
+        return float(-1 / (2 * np.pi * f * z.imag) / c - 0.5)
+
+    nl = Netlist("l", (Element("RCLINE", "ch", "vss", "vdd", [r], c),))
+    bis = imp.bandwidth_by_bisection(
+        lambda fr: solve_impedance(nl, fr), [c], 1e6, 1e13, fraction=0.5
+    )
+    assert bis[0] == pytest.approx(brentq(gap, 1e6, 1e13, rtol=1e-13), rel=1e-9, abs=0)
+
+
+def test_quality_factor_and_esr() -> None:
+    z = np.array([1.0 - 2.0j, 3.0 - 3.0j])
+    np.testing.assert_allclose(imp.quality_factor(z), [2.0, 1.0])
+    np.testing.assert_allclose(imp.esr(z), [1.0, 3.0])
+
+
+def test_esr_interpolated_on_log_frequency() -> None:
+    # Source: linear interpolation in log f (definition); exact for Re Z linear in log f
+    f = np.array([1e6, 1e7, 1e8])
+    z = np.array([[3.0 + 0j, 2.0 + 0j, 1.0 + 0j]])
+    np.testing.assert_allclose(imp.esr_at(f, z, [np.sqrt(10) * 1e6, 1e8]), [[2.5, 1.0]])
+    assert np.isnan(imp.esr_at(f, z, [1e9])[0, 0])
