@@ -7,7 +7,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.constants import centi, micro, zero_Celsius
 
-from celllab.characterize.params import CornerSet
+from celllab.characterization.params import CornerSet
 from celllab.physics import esd, leakage, tddb
 
 #: Failure fraction at which the catalog quotes oxide life (0.01 %).
@@ -68,7 +68,7 @@ def oxide_stress(corners: CornerSet, oxides: np.ndarray, v_ox: np.ndarray, v_gat
 
 
 def _sub_table(corners: CornerSet, oxides: np.ndarray, group: str, attr: str) -> np.ndarray:
-    from celllab.characterize.params import _table
+    from celllab.characterization.params import _table
 
     return _table(corners.decks, oxides, lambda ox: getattr(getattr(ox, group), attr))
 

@@ -77,8 +77,8 @@ def test_mos_esr_matches_distributed_line_sum(deck) -> None:
     # R W/(3L) per finger); the overlap capacitance (no series R) sits beside the channel branch, so
     # that branch's ESR is weighted by (C_g/(C_g + C_ov))^2 (two parallel RC branches, REFERENCES §5
     # formula). The nodal solution's low-frequency ESR must equal the sum; rel 1e-3
-    from celllab.characterize.params import CornerSet
-    from celllab.characterize.topologies import _single_mos
+    from celllab.characterization.params import CornerSet
+    from celllab.characterization.topologies import _single_mos
 
     cell = _cell(deck)
     run = characterize(deck, [cell], corners=["typ_25C"])
@@ -90,8 +90,8 @@ def test_mos_esr_matches_distributed_line_sum(deck) -> None:
 
 def test_one_end_contact_quadruples_channel_esr(deck) -> None:
     # Source: distributed RC line, R/3 (one end) vs R/12 (both ends), Larsson 1997; rel 1e-3
-    from celllab.characterize.params import CornerSet
-    from celllab.characterize.topologies import _single_mos
+    from celllab.characterization.params import CornerSet
+    from celllab.characterization.topologies import _single_mos
 
     one, two = _cell(deck, contacted_ends=1, name="a"), _cell(deck, contacted_ends=2, name="b")
     run = characterize(deck, [one, two], corners=["typ_25C"])
@@ -115,7 +115,7 @@ def test_cross_coupled_loses_capacitance_and_gains_esr_against_tied(deck) -> Non
 
 def test_cross_coupled_internal_nodes_sit_at_the_rails(deck) -> None:
     # Source: REFERENCES §5 operating state: x ~ VSS, y ~ VDD (only gate leakage flows); 1 mV
-    from celllab.characterize.params import CornerSet
+    from celllab.characterization.params import CornerSet
     from celllab.physics import cross_coupled
 
     pair = _cell(deck, topology="cross_coupled", name="x")

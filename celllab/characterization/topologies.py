@@ -14,9 +14,9 @@ from typing import Any
 import numpy as np
 from scipy.constants import micro
 
-from celllab.characterize.mos import MosGeometry, MosResult, characterize_mos
-from celllab.characterize.oxide_stress import oxide_stress
-from celllab.characterize.params import CornerSet
+from celllab.characterization.mos import MosGeometry, MosResult, characterize_mos
+from celllab.characterization.oxide_stress import oxide_stress
+from celllab.characterization.params import CornerSet
 from celllab.physics import circuits, impedance, inductance
 from celllab.physics.netlist import Netlist, solve_impedance
 
@@ -176,11 +176,11 @@ def _evaluate_one(topology: str, deck: Any, corners: CornerSet, cells: list[Any]
     if topology in ("nmos_inversion", "pmos_inversion", "accumulation"):
         return _evaluate_mos(topology, deck, corners, cells, geos, freq)
     if topology == "cross_coupled":
-        from celllab.characterize.pair import evaluate_cross_coupled
+        from celllab.characterization.pair import evaluate_cross_coupled
 
         return evaluate_cross_coupled(deck, corners, cells, geos, freq)
     if topology in ("mom", "mos_mom"):
-        from celllab.characterize.metal import evaluate_metal
+        from celllab.characterization.metal import evaluate_metal
 
         return evaluate_metal(topology, deck, corners, cells, geos, freq)
     raise ValueError(f"unknown topology {topology!r}")

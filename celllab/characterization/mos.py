@@ -26,7 +26,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.constants import epsilon_0
 
-from celllab.characterize.params import CornerSet, cm2_per_Vs, cm3
+from celllab.characterization.params import CornerSet, cm2_per_Vs, cm3
 from celllab.physics import channel, distributed_rc, mobility, mos_cv, oxide
 from celllab.physics.constants import EPS_R_SIO2
 

@@ -13,9 +13,9 @@ from typing import Any
 
 import numpy as np
 
-from celllab.characterize.mos import characterize_mos
-from celllab.characterize.oxide_stress import oxide_stress
-from celllab.characterize.params import CornerSet
+from celllab.characterization.mos import characterize_mos
+from celllab.characterization.oxide_stress import oxide_stress
+from celllab.characterization.params import CornerSet
 from celllab.physics import circuits, cross_coupled
 from celllab.physics.constants import EPS_R_SIO2
 from celllab.physics import oxide
@@ -23,7 +23,7 @@ from celllab.physics import oxide
 
 def evaluate_cross_coupled(deck: Any, corners: CornerSet, cells: list[Any], geos: list[Any],
                            freq: np.ndarray) -> Any:
-    from celllab.characterize.topologies import GroupResult, _flat, _loop_inductance, _mos_geometry, _solve, _supply
+    from celllab.characterization.topologies import GroupResult, _flat, _loop_inductance, _mos_geometry, _solve, _supply
 
     n_v, n_c = len(cells), len(corners.names)
     oxides = np.array([c.oxide for c in cells])
@@ -87,7 +87,7 @@ def evaluate_cross_coupled(deck: Any, corners: CornerSet, cells: list[Any], geos
 
 def _series_life(t_n: np.ndarray, t_p: np.ndarray, corners: CornerSet, oxides: np.ndarray) -> np.ndarray:
     """Life of two oxides that both must survive (weakest link, same Weibull slope), s."""
-    from celllab.characterize.oxide_stress import _sub_table
+    from celllab.characterization.oxide_stress import _sub_table
 
     beta = _sub_table(corners, oxides, "reliability", "weibull_beta")
     # F_total = 1 - (1-F_n)(1-F_p); for small F with a common slope: t = (t_n^-b + t_p^-b)^(-1/b)

@@ -15,7 +15,7 @@ from typing import Any
 import numpy as np
 from scipy.constants import micro
 
-from celllab.characterize.params import CornerSet
+from celllab.characterization.params import CornerSet
 from celllab.physics import circuits, mom
 
 #: Dielectric height assumed above the top metal of the deck, m (no layer above).
@@ -52,9 +52,9 @@ def mom_figures(deck: Any, cells: list[Any], geos: list[Any]) -> mom.MomResult:
 
 def evaluate_metal(topology: str, deck: Any, corners: CornerSet, cells: list[Any], geos: list[Any],
                     freq: np.ndarray) -> Any:
-    from celllab.characterize.mos import characterize_mos
-    from celllab.characterize.oxide_stress import oxide_stress
-    from celllab.characterize.topologies import (GroupResult, _flat, _loop_inductance, _mos_geometry, _mos_roles,
+    from celllab.characterization.mos import characterize_mos
+    from celllab.characterization.oxide_stress import oxide_stress
+    from celllab.characterization.topologies import (GroupResult, _flat, _loop_inductance, _mos_geometry, _mos_roles,
                                                  _solve, _supply)
 
     n_v, n_c = len(cells), len(corners.names)

@@ -1,0 +1,379 @@
+"""The ``export`` verb: catalog results written for other planning tools.
+
+    celllab export csv --where "esd_safe and leakage_nA_per_nF <= 5" --out picks.csv
+    celllab export spice --deck lumen130 --cells DC_XCP_4 DC_MOM_2 --out decaps.lib
+    celllab export touchstone --corner typ_25C --out sparams/
+    celllab export datasheet --out datasheets/
+
+Each format is a few lines over ``celllab.export``. Without ``--out`` a single-file export
+goes to stdout; an ``--out`` that is an existing folder (or ends with a path separator)
+receives one file per cell where the format has one (spice, touchstone, datasheet), else a
+file with a default name.
+"""
+
+from __future__ import annotations
+
+import argparse
+import difflib
+import os
+import sys
+from collections.abc import Callable, Sequence
+from pathlib import Path
+from typing import Any
+
+from celllab.errors import CatalogError, CelllabError, Problem
+
+FORMATS = ("csv", "json", "schema", "spice", "touchstone", "datasheet")
+DEFAULT_CATALOG = str(Path("db") / "celllab.sqlite")
+#: File written into an --out folder for the single-file formats.
+DEFAULT_FILES = {
+    "csv": "cells.csv",
+    "json": "cells.json",
+    "schema": "celllab-cells.schema.json",
+    "spice": "cells.lib",
+    "datasheet": "index.html",
+}
+AGGREGATE_CORNERS = ("worst", "best", "all")
+
+
+def _problem(field: str, message: str, value: Any = None, has_value: bool = True) -> CelllabError:
+    return CelllabError([Problem("export", field, message, value, has_value=has_value)])
+
+
+def _is_folder(out: str | None) -> bool:
+    if not out:
+        return False
+    return out.endswith(("/", os.sep)) or Path(out).is_dir()
+
+
+def _emit(args: argparse.Namespace, text: str, default_name: str) -> None:
+    """Write one text to --out (file or folder) or stdout."""
+    from celllab.export import atomic_write_text
+
+    if not args.out or args.out == "-":
+        sys.stdout.write(text)
+        return
+    target = Path(args.out) / default_name if _is_folder(args.out) else Path(args.out)
+    target.parent.mkdir(parents=True, exist_ok=True)
+    atomic_write_text(target, text)
+    print(f"wrote {target}", file=sys.stderr)
+
+
+def _emit_many(args: argparse.Namespace, files: dict[str, str]) -> None:
+    """Write several files into the --out folder (created if missing)."""
+    from celllab.export import atomic_write_text
+
+    folder = Path(args.out)
+    folder.mkdir(parents=True, exist_ok=True)
+    for name, text in files.items():
+        atomic_write_text(folder / name, text)
+    print(f"wrote {len(files)} files to {folder}", file=sys.stderr)
+
+
+# --------------------------------------------------------------------------- catalog access
+
+
+def _query_corner(corner: str) -> str | None:
+    return None if corner == "all" else corner
+
+
+def _select_rows(cat: Any, args: argparse.Namespace) -> list[dict[str, Any]]:
+    """Catalog rows for --deck/--corner/--where, narrowed to --cells, then --limit."""
+    rows = cat.query(
+        deck=args.deck,
+        corner=_query_corner(args.corner),
+        where=args.where,
+        order_by=args.by,
+        limit=None,
+    )
+    if args.cells:
+        known = {r["name"] for r in cat.query(deck=args.deck, corner=_query_corner(args.corner))}
+        missing = [n for n in args.cells if n not in known]
+        if missing:
+            raise CatalogError(
+                [
+                    Problem(
+                        str(cat.path),
+                        "--cells",
+                        "no such cell in the catalog"
+                        + (
+                            f"; did you mean {', '.join(close)}?"
+                            if (close := difflib.get_close_matches(name, sorted(known), n=3))
+                            else ""
+                        ),
+                        name,
+                    )
+                    for name in missing
+                ]
+            )
+        wanted = set(args.cells)
+        rows = [r for r in rows if r["name"] in wanted]
+    if args.limit:
+        names: list[str] = []
+        for r in rows:
+            if r["name"] not in names:
+                names.append(r["name"])
+        keep = set(names[: args.limit])
+        rows = [r for r in rows if r["name"] in keep]
+    return rows
+
+
+def _single_deck(rows: Sequence[dict[str, Any]]) -> str | None:
+    decks = sorted({r["deck"] for r in rows})
+    if len(decks) > 1:
+        raise _problem(
+            "--deck",
+            "the selected cells come from several decks "
+            f"({', '.join(decks)}); choose one with --deck",
+            None,
+            has_value=False,
+        )
+    return decks[0] if decks else None
+
+
+def _load_cells(cat: Any, rows: Sequence[dict[str, Any]]) -> tuple[list[Any], str | None]:
+    deck = _single_deck(rows)
+    names: list[str] = []
+    for r in rows:
+        if r["name"] not in names:
+            names.append(r["name"])
+    return [cat.cell(n, deck) for n in names], deck
+
+
+def _render_corner(args: argparse.Namespace) -> str | None:
+    """A named corner for rendering, or None for the aggregate choices."""
+    return None if args.corner in AGGREGATE_CORNERS else args.corner
+
+
+def _need_cells(cells: Sequence[Any]) -> None:
+    if not cells:
+        raise _problem("--where", "no cell matches the selection", None, has_value=False)
+
+
+# --------------------------------------------------------------------------- formats
+
+
+def _export_csv(args: argparse.Namespace, cat: Any) -> None:
+    from celllab.export.csv import render_csv
+
+    rows = _select_rows(cat, args)
+    _emit(args, render_csv(rows, comments=not args.no_comments), DEFAULT_FILES["csv"])
+
+
+def _export_json(args: argparse.Namespace, cat: Any) -> None:
+    from celllab.export.json import render_json
+
+    cells, deck = _load_cells(cat, _select_rows(cat, args))
+    _emit(args, render_json(cells, deck, include_curves=not args.no_curves), DEFAULT_FILES["json"])
+
+
+def _export_spice(args: argparse.Namespace, cat: Any) -> None:
+    from celllab.export.spice import render_spice_library, render_spice_subckt, spice_name
+
+    cells, deck = _load_cells(cat, _select_rows(cat, args))
+    _need_cells(cells)
+    corner = _render_corner(args)
+    without = [c.name for c in cells if c.netlist is None]
+    if without:
+        print(
+            f"note: no stored equivalent circuit for {len(without)} cell(s); their subcircuits "
+            "are series ESR-ESL-C models from the corner metrics (see each header)",
+            file=sys.stderr,
+        )
+    if _is_folder(args.out):
+        _emit_many(
+            args,
+            {
+                f"{spice_name(c.name)}.sp": render_spice_subckt(c, corner, args.segments, deck)
+                for c in cells
+            },
+        )
+    else:
+        _emit(
+            args, render_spice_library(cells, deck, corner, args.segments), DEFAULT_FILES["spice"]
+        )
+
+
+def _export_touchstone(args: argparse.Namespace, cat: Any) -> None:
+    from celllab.export.touchstone import render_touchstone, touchstone_filename
+
+    cells, deck = _load_cells(cat, _select_rows(cat, args))
+    _need_cells(cells)
+    corner = _render_corner(args)
+    files: dict[str, str] = {}
+    for cell in cells:
+        corners = [corner] if corner else [c.corner for c in cell.corners]
+        for name in corners:
+            files[touchstone_filename(cell.name, name)] = render_touchstone(
+                cell, name, deck, reference_ohm=args.reference_ohm
+            )
+    if _is_folder(args.out):
+        _emit_many(args, files)
+    elif len(files) == 1:
+        _emit(args, next(iter(files.values())), next(iter(files)))
+    else:
+        raise _problem(
+            "--out",
+            f"{len(files)} Touchstone files (one per cell and corner) need "
+            "an output folder; give --out DIR/ or narrow with --cells and --corner",
+            args.out,
+            has_value=args.out is not None,
+        )
+
+
+def _export_datasheet(args: argparse.Namespace, cat: Any) -> None:
+    from celllab.export.datasheet import render_datasheet_html, render_library_html
+
+    cells, deck = _load_cells(cat, _select_rows(cat, args))
+    _need_cells(cells)
+    corner = _render_corner(args)
+    plots = not args.no_plots
+    if _is_folder(args.out):
+        files = {
+            f"{_file_stem(c.name)}.html": render_datasheet_html(c, deck, plots=plots) for c in cells
+        }
+        files[DEFAULT_FILES["datasheet"]] = render_library_html(cells, deck, corner, plots=plots)
+        _emit_many(args, files)
+    elif len(cells) == 1:
+        _emit(
+            args,
+            render_datasheet_html(cells[0], deck, plots=plots),
+            f"{_file_stem(cells[0].name)}.html",
+        )
+    else:
+        _emit(
+            args, render_library_html(cells, deck, corner, plots=plots), DEFAULT_FILES["datasheet"]
+        )
+
+
+def _file_stem(name: str) -> str:
+    return "".join(ch if ch.isalnum() or ch in "-_." else "_" for ch in name)
+
+
+EXPORTERS: dict[str, Callable[[argparse.Namespace, Any], None]] = {
+    "csv": _export_csv,
+    "json": _export_json,
+    "spice": _export_spice,
+    "touchstone": _export_touchstone,
+    "datasheet": _export_datasheet,
+}
+
+
+def cmd_export(args: argparse.Namespace) -> int:
+    if args.format == "schema":
+        import json
+
+        from celllab.export.schema import export_json_schema
+
+        _emit(args, json.dumps(export_json_schema(), indent=2) + "\n", DEFAULT_FILES["schema"])
+        return 0
+    if args.reference_ohm is not None and not args.reference_ohm > 0:
+        raise _problem("--reference-ohm", "must be > 0 (ohm)", args.reference_ohm)
+    if args.segments is not None and args.segments < 1:
+        raise _problem("--segments", "must be >= 1", args.segments)
+    from celllab.catalog import open_catalog
+
+    if not Path(args.catalog).exists():
+        raise CatalogError.single(
+            args.catalog,
+            "",
+            "no catalog file here; build one first (celllab build) or pass --catalog PATH",
+        )
+    with open_catalog(args.catalog, create=False) as cat:
+        if args.corner not in AGGREGATE_CORNERS:
+            known = cat.corners(args.deck)
+            if args.corner not in known:
+                raise _problem(
+                    "--corner",
+                    "not a corner of the catalog; allowed: "
+                    + ", ".join([*known, *AGGREGATE_CORNERS]),
+                    args.corner,
+                )
+        try:
+            EXPORTERS[args.format](args, cat)
+        except (ValueError, KeyError) as exc:  # a record this format cannot hold
+            message = exc.args[0] if exc.args else repr(exc)
+            raise _problem(args.format, str(message), None, has_value=False) from None
+    return 0
+
+
+def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
+    p = sub.add_parser(
+        "export",
+        help="write catalog results as CSV, JSON, SPICE, Touchstone or HTML datasheets",
+        description="Export catalog results for other planning tools: csv (one row per cell "
+        "and corner), json (full records; validate with the 'schema' export), spice "
+        "(.subckt NAME vdd vss per cell), touchstone (one-port Z, v1.1, per cell and corner), "
+        "datasheet (HTML with plots). Every export carries the caution that the numbers are "
+        "estimates, not sign-off.",
+    )
+    p.add_argument(
+        "format", choices=FORMATS, metavar="FORMAT", help=f"one of: {', '.join(FORMATS)}"
+    )
+    p.add_argument(
+        "--catalog",
+        default=DEFAULT_CATALOG,
+        metavar="PATH",
+        help="catalog file (default: %(default)s)",
+    )
+    p.add_argument("--deck", metavar="NAME", help="only this deck (name or deck hash)")
+    p.add_argument(
+        "--corner",
+        default="worst",
+        metavar="CORNER",
+        help="a corner name, or 'worst' / 'best' (each metric at its least / most "
+        "favourable corner) or 'all'; filters and csv rows use it, touchstone writes "
+        "every corner unless one is named (default: %(default)s)",
+    )
+    p.add_argument(
+        "--where",
+        default="",
+        metavar="EXPR",
+        help='filter, e.g. "leakage_nA_per_nF <= 5 and esd_safe" '
+        "(the language of 'celllab rank --help')",
+    )
+    p.add_argument("--cells", nargs="+", metavar="NAME", help="only these cells")
+    p.add_argument(
+        "--by",
+        default="cap_density_fF_per_um2",
+        metavar="COLUMN",
+        help="order of the cells (default: %(default)s, best first)",
+    )
+    p.add_argument(
+        "--limit",
+        type=int,
+        default=0,
+        metavar="N",
+        help="only the first N cells in that order (default: all)",
+    )
+    p.add_argument(
+        "--out",
+        metavar="PATH",
+        help="output file, or folder (existing or ending "
+        "in '/') for one file per cell; default: stdout",
+    )
+    p.add_argument(
+        "--no-comments",
+        action="store_true",
+        help="csv: no leading '#' lines (caution, units legend)",
+    )
+    p.add_argument(
+        "--no-curves", action="store_true", help="json: metrics only, without Z(f) and C-V arrays"
+    )
+    p.add_argument(
+        "--segments",
+        type=int,
+        metavar="N",
+        help="spice: R-C ladder segments per distributed line (default: from the "
+        "highest swept frequency)",
+    )
+    p.add_argument(
+        "--reference-ohm",
+        type=float,
+        default=1.0,
+        metavar="R",
+        help="touchstone: reference resistance of the option line; data are Z/R "
+        "(default: %(default)s)",
+    )
+    p.add_argument("--no-plots", action="store_true", help="datasheet: tables only")
+    p.set_defaults(func=cmd_export)

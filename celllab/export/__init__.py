@@ -1,0 +1,106 @@
+"""Exporters: catalog rows and cell records rendered for other planning tools.
+
+Each format has a pure ``render_*`` function returning text and a one-line ``write_*`` that
+stores it atomically (temporary file in the destination folder, then ``os.replace``), so a
+failure never leaves half a file behind.
+
+==========  ===========================================  ============================
+format      render                                       write
+==========  ===========================================  ============================
+CSV         ``render_csv(rows)``                         ``write_csv(path, rows)``
+JSON        ``render_json(cells, deck_name)``            ``write_json(path, cells)``
+schema      ``export_json_schema()``                     ``write_json_schema(path)``
+SPICE       ``render_spice_subckt(cell, corner)``        ``write_spice(path, cells)``
+Touchstone  ``render_touchstone(cell, corner)``          ``write_touchstone(path, ...)``
+datasheet   ``render_datasheet_html(cell, deck_name)``   ``write_datasheet(path, ...)``
+==========  ===========================================  ============================
+
+Every export carries :data:`CAUTION`: the numbers are estimates, not sign-off.
+"""
+
+from __future__ import annotations
+
+import importlib
+import os
+import tempfile
+from pathlib import Path
+from typing import Any
+
+#: Printed in every export whose numbers could drive tape-out decisions.
+CAUTION = (
+    "These are engineering estimates from analytic models, not sign-off; defer to the "
+    "foundry's design rules, qualified device models, ESD/reliability qualification "
+    "standards and licensed practice."
+)
+
+#: Public name -> submodule that defines it (loaded on first use, so that exporting CSV
+#: never imports matplotlib or pydantic).
+_LAZY: dict[str, str] = {
+    "render_csv": "csv",
+    "rows_from_cells": "csv",
+    "write_csv": "csv",
+    "render_json": "json",
+    "write_json": "json",
+    "export_json_schema": "schema",
+    "write_json_schema": "schema",
+    "CellExport": "schema",
+    "CornerExport": "schema",
+    "CellsDocument": "schema",
+    "render_spice_subckt": "spice",
+    "render_spice_library": "spice",
+    "spice_name": "spice",
+    "spice_number": "spice",
+    "write_spice": "spice",
+    "render_touchstone": "touchstone",
+    "write_touchstone": "touchstone",
+    "render_datasheet_html": "datasheet",
+    "render_library_html": "datasheet",
+    "write_datasheet": "datasheet",
+    "write_library_datasheet": "datasheet",
+}
+
+__all__ = [  # noqa: PLE0604 - the lazily loaded names are listed in _LAZY
+    "CAUTION",
+    "atomic_write_text",
+    *_LAZY,
+]
+
+
+def atomic_write_text(path: str | os.PathLike[str], text: str) -> Path:
+    """Write ``text`` (UTF-8) to ``path`` all at once.
+
+    The text goes to a temporary file in the same folder, which then replaces ``path`` with
+    ``os.replace`` (atomic on POSIX and Windows). On any failure the temporary file is removed
+    and an existing ``path`` is left untouched. Returns the path written.
+    """
+    target = Path(path)
+    folder = target.parent if str(target.parent) else Path(".")
+    fd, tmp_name = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=folder)
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8", newline="") as handle:
+            handle.write(text)
+            handle.flush()
+            os.fsync(handle.fileno())
+        # mkstemp creates the file 0600; give it the mode a plain open() would have.
+        os.chmod(tmp_name, 0o666 & ~_current_umask())
+        os.replace(tmp_name, target)
+    except BaseException:
+        try:
+            os.unlink(tmp_name)
+        except FileNotFoundError:
+            pass
+        raise
+    return target
+
+
+def _current_umask() -> int:
+    mask = os.umask(0o022)
+    os.umask(mask)
+    return mask
+
+
+def __getattr__(name: str) -> Any:
+    if name in _LAZY:
+        module = importlib.import_module(f"celllab.export.{_LAZY[name]}")
+        return getattr(module, name)
+    raise AttributeError(f"module 'celllab.export' has no attribute {name!r}")

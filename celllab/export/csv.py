@@ -1,0 +1,158 @@
+"""CSV export of catalog rows (one row per cell x corner).
+
+Column names are the catalog's names, which carry their unit (``cap_fF``, ``esr_ohm``,
+``area_um2``; see ``celllab.records.METRICS``). Numbers are written with Python's shortest
+round-trip representation, so ``float(text)`` gives back exactly the stored value; booleans
+are ``1``/``0``; a missing value is an empty field; undefined values are ``nan``/``inf``.
+
+By default the file opens with ``#`` comment lines (tool, model version, the caution and a
+unit legend), which most numeric readers skip (``pandas.read_csv(comment="#")``,
+``numpy.loadtxt``); ``comments=False`` gives a bare header + rows file.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import math
+import os
+from collections.abc import Iterable, Mapping, Sequence
+from numbers import Integral, Real
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from celllab import MODEL_VERSION, __version__
+from celllab.export import CAUTION, atomic_write_text
+from celllab.records import CELL_COLUMNS, METRIC_BY_NAME, METRIC_NAMES, CellResult
+
+#: Identity columns first, then per-cell columns, then metrics, then the hash.
+ID_COLUMNS: tuple[str, ...] = ("name", "deck", "corner", "family", "topology", "oxide")
+DEFAULT_COLUMNS: tuple[str, ...] = (
+    *ID_COLUMNS,
+    "temperature_C",
+    "supply_V",
+    *CELL_COLUMNS,
+    *METRIC_NAMES,
+    "flags",
+    "model_version",
+    "cell_hash",
+    "deck_hash",
+)
+#: Units of the corner-condition columns (the others come from records.METRICS/CELL_COLUMNS).
+CONDITION_UNITS = {"temperature_C": "degC", "supply_V": "V"}
+
+__all__ = ["DEFAULT_COLUMNS", "format_value", "render_csv", "rows_from_cells", "write_csv"]
+
+
+def format_value(value: Any) -> str:
+    """One field as text: round-trip floats, ``1``/``0`` booleans, empty for ``None``,
+    lists (flags) joined with ``"; "``."""
+    if value is None:
+        return ""
+    if isinstance(value, (list, tuple)):
+        return "; ".join(str(v) for v in value)
+    if isinstance(value, (bool, np.bool_)):
+        return "1" if value else "0"
+    if isinstance(value, Integral):
+        return str(int(value))
+    if isinstance(value, Real):
+        number = float(value)
+        if math.isnan(number):
+            return "nan"
+        return repr(number)  # 'inf', '-inf' or the shortest round-trip decimal
+    return str(value)
+
+
+def _columns(rows: Sequence[Mapping[str, Any]], columns: Sequence[str] | None) -> list[str]:
+    if columns is not None:
+        return list(columns)
+    present: dict[str, None] = {}
+    for row in rows:
+        present.update(dict.fromkeys(row))
+    ordered = [c for c in DEFAULT_COLUMNS if c in present]
+    ordered += [c for c in present if c not in DEFAULT_COLUMNS]
+    return ordered or list(DEFAULT_COLUMNS)
+
+
+def _unit(column: str) -> str:
+    info = METRIC_BY_NAME.get(column) or CELL_COLUMNS.get(column)
+    return info.unit if info else CONDITION_UNITS.get(column, "")
+
+
+def render_csv(
+    rows: Iterable[Mapping[str, Any]],
+    columns: Sequence[str] | None = None,
+    comments: bool = True,
+) -> str:
+    """Render rows (catalog query dicts) as CSV text.
+
+    Parameters
+    ----------
+    rows : iterable of mappings   keys as returned by ``Catalog.query`` (or ``rows_from_cells``)
+    columns : sequence of str, optional   columns to write, in order; default: every key
+        present, in ``DEFAULT_COLUMNS`` order then any others in first-seen order
+    comments : bool   start with ``#`` lines: tool, model version, caution, units legend
+
+    Returns
+    -------
+    str   CSV text, ``\\r\\n`` line ends (RFC 4180), header row first after the comments
+    """
+    materialized = list(rows)
+    names = _columns(materialized, columns)
+    out = io.StringIO(newline="")
+    if comments:
+        out.write(f"# celllab {__version__} catalog export; models {MODEL_VERSION}\r\n")
+        out.write(f"# CAUTION: {CAUTION}\r\n")
+        legend = ", ".join(f"{c} [{_unit(c)}]" for c in names if _unit(c))
+        if legend:
+            out.write(f"# units: {legend}\r\n")
+    writer = csv.writer(out, lineterminator="\r\n")
+    writer.writerow(names)
+    for row in materialized:
+        writer.writerow([format_value(row.get(c)) for c in names])
+    return out.getvalue()
+
+
+def rows_from_cells(
+    cells: Iterable[CellResult], deck_name: str, corner: str | None = None
+) -> list[dict[str, Any]]:
+    """Flatten cell records into catalog-like rows, one per cell x corner.
+
+    ``corner`` keeps only that corner (``KeyError`` if a cell lacks it); ``None`` keeps all.
+    """
+    rows: list[dict[str, Any]] = []
+    for cell in cells:
+        chosen = [cell.corner(corner)] if corner is not None else cell.corners
+        for result in chosen:
+            row: dict[str, Any] = {
+                "name": cell.name,
+                "deck": deck_name,
+                "corner": result.corner,
+                "temperature_C": result.temperature_C,
+                "supply_V": result.supply_V,
+                "family": cell.family,
+                "topology": cell.topology,
+                "oxide": cell.oxide,
+                "area_um2": cell.area_um2,
+                "width_sites": cell.width_sites,
+                "height_rows": cell.height_rows,
+                "gate_area_um2": cell.gate_area_um2,
+                "esd_safe": cell.esd_safe,
+            }
+            row.update({m: result.metrics.get(m) for m in METRIC_NAMES})
+            row["flags"] = list(result.flags)
+            row["cell_hash"] = cell.cell_hash
+            rows.append(row)
+    return rows
+
+
+def write_csv(
+    path: str | os.PathLike[str],
+    rows: Iterable[Mapping[str, Any]],
+    columns: Sequence[str] | None = None,
+    comments: bool = True,
+) -> Path:
+    """Write :func:`render_csv` output to ``path`` atomically."""
+    return atomic_write_text(path, render_csv(rows, columns=columns, comments=comments))

@@ -1,0 +1,145 @@
+"""CSV export: read back with the standard library's csv module."""
+
+from __future__ import annotations
+
+import csv
+import io
+import math
+import os
+
+import pytest
+from hypothesis import given
+from hypothesis import strategies as st
+
+from celllab.export import CAUTION, atomic_write_text
+from celllab.export.csv import DEFAULT_COLUMNS, format_value, render_csv, rows_from_cells, write_csv
+from celllab.records import CELL_COLUMNS, METRIC_NAMES, METRICS
+
+
+def read_back(text: str) -> list[dict[str, str]]:
+    """Parse with the stdlib reader, skipping the '#' comment lines."""
+    lines = [line for line in io.StringIO(text, newline="") if not line.startswith("#")]
+    return list(csv.DictReader(lines))
+
+
+def same_number(text: str, value: float | bool | None) -> bool:
+    if value is None:
+        return text == ""
+    if isinstance(value, bool):
+        return text == ("1" if value else "0")
+    parsed = float(text)
+    if math.isnan(value):
+        return math.isnan(parsed)
+    return parsed == value
+
+
+def test_numbers_survive_a_round_trip(library, deck_name):
+    # Source: RFC 4180 parsing by Python's csv module; exact float equality.
+    rows = rows_from_cells(library, deck_name)
+    back = read_back(render_csv(rows))
+    assert len(back) == len(rows) == sum(len(c.corners) for c in library)
+    for original, parsed in zip(rows, back, strict=True):
+        assert parsed["name"] == original["name"]
+        assert parsed["corner"] == original["corner"]
+        assert parsed["flags"] == "; ".join(original["flags"])
+        for column in ("temperature_C", "supply_V", *CELL_COLUMNS, *METRIC_NAMES):
+            assert same_number(parsed[column], original[column]), column
+
+
+def test_header_is_the_catalog_names_and_units_are_listed(library, deck_name):
+    # Common practice, no source: the unit is in each column name; the legend states it.
+    rows = rows_from_cells(library, deck_name)
+    text = render_csv(rows)
+    comment_lines = [line for line in text.splitlines() if line.startswith("#")]
+    header = next(csv.reader([text.splitlines()[len(comment_lines)]]))
+    assert header == [c for c in DEFAULT_COLUMNS if c in rows[0]]
+    assert set(header) >= {*METRIC_NAMES, *CELL_COLUMNS, "temperature_C", "supply_V"}
+    legend = next(line for line in comment_lines if line.startswith("# units:"))
+    for metric in METRICS:
+        assert f"{metric.name} [{metric.unit}]" in legend
+    assert "temperature_C [degC]" in legend and "supply_V [V]" in legend
+    units_in_names = {"fF", "ohm", "GHz", "pH", "ps", "nA", "MV_per_cm", "years", "V", "um2"}
+    for metric in METRICS:
+        assert any(token in metric.name for token in units_in_names), metric.name
+    assert any(CAUTION in line for line in comment_lines)
+
+
+def test_without_comments_the_header_comes_first(library, deck_name):
+    text = render_csv(rows_from_cells(library, deck_name), comments=False)
+    assert text.startswith("name,deck,corner,")
+    assert "#" not in text.splitlines()[0]
+
+
+def test_selected_columns_and_corner(library, deck_name):
+    corner = library[0].corners[-1].corner
+    rows = rows_from_cells(library[:1], deck_name, corner=corner)
+    back = read_back(render_csv(rows, columns=["name", "corner", "cap_fF"]))
+    assert list(back[0]) == ["name", "corner", "cap_fF"]
+    assert back[0]["corner"] == corner
+    assert float(back[0]["cap_fF"]) == library[0].corner(corner).metrics["cap_fF"]
+
+
+def test_awkward_text_is_quoted(library, deck_name):
+    # Source: RFC 4180 section 2 (fields with commas, quotes, line breaks are quoted).
+    rows = rows_from_cells(library[:1], deck_name)
+    rows[0]["name"] = 'odd, "name"\nwith break'
+    back = read_back(render_csv(rows))
+    assert back[0]["name"] == 'odd, "name"\nwith break'
+
+
+def test_extra_keys_follow_the_known_columns():
+    rows = [{"cap_fF": 1.5, "name": "a", "zz_custom": 3}]
+    text = render_csv(rows, comments=False)
+    assert text.splitlines()[0] == "name,cap_fF,zz_custom"
+
+
+@pytest.mark.parametrize(
+    ("value", "text"),
+    [
+        (None, ""),
+        ([], ""),
+        (["a", "b c"], "a; b c"),
+        (True, "1"),
+        (False, "0"),
+        (3, "3"),
+        (0.1, "0.1"),
+        (1e-15, "1e-15"),
+        (float("inf"), "inf"),
+        (float("-inf"), "-inf"),
+        (float("nan"), "nan"),
+        ("x", "x"),
+    ],
+)
+def test_format_value(value, text):
+    assert format_value(value) == text
+
+
+@given(st.floats(allow_nan=True, allow_infinity=True))
+def test_any_float_round_trips(value):
+    # Source: Python float repr is the shortest string that round-trips (PEP 3101 / repr docs).
+    back = read_back(render_csv([{"name": "c", "cap_fF": value}]))
+    assert same_number(back[0]["cap_fF"], value)
+
+
+def test_write_csv_replaces_the_file_whole(tmp_path, library, deck_name):
+    target = tmp_path / "cells.csv"
+    target.write_text("old contents")
+    write_csv(target, rows_from_cells(library, deck_name))
+    assert len(read_back(target.read_text(encoding="utf-8"))) == sum(
+        len(c.corners) for c in library
+    )
+    assert [p.name for p in tmp_path.iterdir()] == ["cells.csv"]
+
+
+def test_a_failed_write_leaves_the_old_file(tmp_path, monkeypatch):
+    target = tmp_path / "out.csv"
+    target.write_text("previous")
+
+    def broken_replace(src, dst):
+        raise OSError("disk full")
+
+    monkeypatch.setattr(os, "replace", broken_replace)
+    with pytest.raises(OSError, match="disk full"):
+        atomic_write_text(target, "new text")
+    assert target.read_text() == "previous"
+    assert [p.name for p in tmp_path.iterdir()] == ["out.csv"]
