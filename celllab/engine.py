@@ -16,8 +16,8 @@ from scipy.constants import femto, giga, micro, nano, pico, zero_Celsius
 from celllab import MODEL_VERSION
 from celllab.cells.expand import resolve
 from celllab.cells.schema import CellSpec
-from celllab.characterize import topologies
-from celllab.characterize.params import CornerSet
+from celllab.characterization import topologies
+from celllab.characterization.params import CornerSet
 from celllab.deck.schema import Deck
 from celllab.records import METRIC_NAMES, CellResult, CharacterizationRun, CornerResult, CVCurve, FrequencyResponse
 
