@@ -1,0 +1,145 @@
+"""The catalog: characterization results in one SQLite file (the only code touching SQLite).
+
+    catalog = open_catalog("db/celllab.sqlite")
+    catalog.store_run(run)
+    rows = catalog.query(corner="worst", where="leakage_nA_per_nF <= 5 and esd_safe",
+                         order_by="cap_density_fF_per_um2", limit=20)
+
+``Catalog`` is a thin facade: each method is a few lines over ``store``, ``query``, ``pareto``
+and ``merge``. Calls are serialised by a lock, so one Catalog may be shared with worker threads.
+Low-level SQLite failures surface as ``CatalogError`` naming the file.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import sqlite3
+import threading
+from collections.abc import Iterator
+from pathlib import Path
+from typing import Any, Self
+
+from celllab.catalog import merge as _merge
+from celllab.catalog import pareto as _pareto
+from celllab.catalog import query as _query
+from celllab.catalog import store as _store
+from celllab.catalog.merge import MergeReport
+from celllab.catalog.query import DeckInfo
+from celllab.catalog.schema import open_database
+from celllab.catalog.store import StoreReport
+from celllab.errors import CatalogError
+from celllab.records import CellResult, CharacterizationRun
+
+__all__ = ["DEFAULT_PATH", "Catalog", "DeckInfo", "MergeReport", "StoreReport", "open_catalog"]
+
+#: Where the catalog lives unless told otherwise (relative to the working directory).
+DEFAULT_PATH = Path("db") / "celllab.sqlite"
+
+
+class Catalog:
+    """An open catalog file. Create with ``open_catalog``."""
+
+    def __init__(self, path: Path, create: bool = True) -> None:
+        self.path = path
+        self._db = open_database(path, create=create)
+        self._lock = threading.RLock()
+
+    @contextlib.contextmanager
+    def _access(self) -> Iterator[Any]:
+        with self._lock:
+            try:
+                yield self._db
+            except sqlite3.DatabaseError as exc:
+                raise CatalogError.single(str(self.path), "", f"SQLite error: {exc}") from None
+
+    def close(self) -> None:
+        with self._lock:
+            self._db.close()
+
+    def __enter__(self) -> Self:
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self.close()
+
+    def __repr__(self) -> str:
+        return f"Catalog({str(self.path)!r})"
+
+    # writing
+    def store_run(self, run: CharacterizationRun) -> StoreReport:
+        """Store a run in one transaction (unchanged deck + cell + model version: no-op)."""
+        with self._access() as db:
+            return _store.store_run(db, run)
+
+    def merge_from(self, other_path: str | Path) -> MergeReport:
+        """Import another catalog file by content hash; conflicts are reported, never overwritten."""
+        with self._access() as db:
+            return _merge.merge_from(db, self.path, other_path)
+
+    # reading
+    def decks(self) -> list[DeckInfo]:
+        with self._access() as db:
+            return _query.list_decks(db)
+
+    def deck_params(self, deck: str) -> dict[str, Any]:
+        with self._access() as db:
+            return _query.deck_params(db, deck)
+
+    def corners(self, deck: str | None = None) -> list[str]:
+        with self._access() as db:
+            _query.check_deck(db, deck)
+            return _query.corners(db, deck)
+
+    def query(
+        self,
+        deck: str | None = None,
+        corner: str | None = "worst",
+        where: str = "",
+        order_by: str = "cap_density_fF_per_um2",
+        descending: bool | None = None,
+        limit: int | None = None,
+        offset: int = 0,
+        current_only: bool = True,
+    ) -> list[dict[str, Any]]:
+        """Filtered, ranked rows (keys ``query.ROW_KEYS``); corner None gives every corner."""
+        with self._access() as db:
+            return _query.run_query(
+                db, deck, corner, where, order_by, descending, limit, offset, current_only
+            )
+
+    def count(
+        self,
+        deck: str | None = None,
+        corner: str | None = "worst",
+        where: str = "",
+        current_only: bool = True,
+    ) -> int:
+        with self._access() as db:
+            return _query.run_count(db, deck, corner, where, current_only)
+
+    def pareto(
+        self,
+        metrics: list[str],
+        deck: str | None = None,
+        corner: str | None = "worst",
+        where: str = "",
+    ) -> list[dict[str, Any]]:
+        """Non-dominated rows over 2 or 3 metrics, best first by the first metric."""
+        with self._access() as db:
+            return _pareto.catalog_pareto(db, metrics, deck, corner, where)
+
+    def compare(
+        self, names: list[str], deck: str | None = None, corner: str | None = "worst"
+    ) -> list[dict[str, Any]]:
+        with self._access() as db:
+            return _query.compare(db, names, deck, corner)
+
+    def cell(self, name: str, deck: str | None = None) -> CellResult:
+        """The full current record of ``name`` (responses, C-V curves, flags)."""
+        with self._access() as db:
+            return _store.load_cell(db, _query.find_cell_id(db, name, deck))
+
+
+def open_catalog(path: str | Path | None = None, create: bool = True) -> Catalog:
+    """Open the catalog at ``path`` (default ``db/celllab.sqlite``), creating it if ``create``."""
+    return Catalog(Path(path) if path is not None else DEFAULT_PATH, create=create)

@@ -1,0 +1,575 @@
+"""The catalog's filter language: tokenizer, recursive-descent parser, AST and SQL compiler.
+
+Grammar (keywords are case-insensitive)::
+
+    filter     := or_expr | <empty>
+    or_expr    := and_expr ("or" and_expr)*
+    and_expr   := not_expr ("and" not_expr)*
+    not_expr   := "not" not_expr | "(" or_expr ")" | condition
+    condition  := NUMERIC op (number | NUMERIC)        op: = == != <> < <= > >=
+                | NUMERIC ["not"] "in" "(" number ("," number)* ")"
+                | TEXT ("=" | "==" | "!=" | "<>" | "~") text      ~ is a glob: * ? [abc]
+                | TEXT ["not"] "in" "(" text ("," text)* ")"
+                | BOOL [("=" | "!=") ("true" | "false" | 0 | 1)]   a bare BOOL means true
+    number     := ["-"] digits [. digits] [e [+-] digits]          plain floats, no SI suffix
+    text       := "quoted" | 'quoted' | bare_word
+
+Names come only from ``FIELDS`` (the catalog row columns); values are always bound as SQL
+parameters. Errors are ``FilterSyntaxError`` (a ``FilterError``) with the expression, a caret
+under the offending place, what was expected and, for unknown names, the closest allowed names.
+"""
+
+from __future__ import annotations
+
+import difflib
+import re
+import textwrap
+from dataclasses import dataclass
+from typing import Literal, get_args
+
+from celllab.cells.schema import OxideChoice, Topology
+from celllab.errors import FilterError, Problem
+from celllab.records import CELL_COLUMNS, METRIC_BY_NAME, METRIC_NAMES
+
+FieldKind = Literal["number", "text", "bool"]
+
+#: Closed sets of the cell model; filter values are checked against them.
+TOPOLOGIES: tuple[str, ...] = tuple(get_args(Topology))
+OXIDES: tuple[str, ...] = tuple(get_args(OxideChoice))
+CLOSED_VALUES: dict[str, tuple[str, ...]] = {"topology": TOPOLOGIES, "oxide": OXIDES}
+
+TEXT_FIELDS = ("name", "deck", "family", "topology", "oxide", "corner")
+#: Corner conditions (NULL in worst/best rows, where no single corner applies).
+CORNER_FIELDS: dict[str, str] = {"temperature_C": "degC", "supply_V": "V"}
+
+#: Every name a filter or a ranking may use, with its kind.
+FIELDS: dict[str, FieldKind] = {
+    **{n: "text" for n in TEXT_FIELDS},
+    **{n: "number" for n in METRIC_NAMES},
+    **{n: ("bool" if info.unit == "bool" else "number") for n, info in CELL_COLUMNS.items()},
+    **{n: "number" for n in CORNER_FIELDS},
+}
+
+_KEYWORDS = {"and", "or", "not", "in", "true", "false"}
+_COMPARE_OPS = {
+    "=": "=",
+    "==": "=",
+    "!=": "!=",
+    "<>": "!=",
+    "<": "<",
+    "<=": "<=",
+    ">": ">",
+    ">=": ">=",
+    "~": "~",
+}
+
+
+# --------------------------------------------------------------------------- AST
+
+
+@dataclass(frozen=True)
+class FieldRef:
+    """A numeric column used as the right-hand side of a comparison."""
+
+    name: str
+
+
+Value = float | str | FieldRef
+
+
+@dataclass(frozen=True)
+class Compare:
+    """``field op value``; op is one of = != < <= > >= ~ (~ is a glob on text)."""
+
+    field: str
+    op: str
+    value: Value
+
+
+@dataclass(frozen=True)
+class InSet:
+    field: str
+    values: tuple[float | str, ...]
+    negated: bool = False
+
+
+@dataclass(frozen=True)
+class IsTrue:
+    """A bare boolean column: ``esd_safe``."""
+
+    field: str
+
+
+@dataclass(frozen=True)
+class Not:
+    operand: Node
+
+
+@dataclass(frozen=True)
+class And:
+    operands: tuple[Node, ...]
+
+
+@dataclass(frozen=True)
+class Or:
+    operands: tuple[Node, ...]
+
+
+@dataclass(frozen=True)
+class Everything:
+    """The empty filter: every row."""
+
+
+Node = Compare | InSet | IsTrue | Not | And | Or | Everything
+
+
+class FilterSyntaxError(FilterError):
+    """A FilterError that also carries the expression and the 0-based position of the problem."""
+
+    expression: str = ""
+    position: int = 0
+
+
+# --------------------------------------------------------------------------- tokens
+
+
+@dataclass(frozen=True)
+class Token:
+    kind: str  # word number string op lparen rparen comma minus end
+    text: str
+    pos: int
+    value: float | str | None = None
+
+    def describe(self) -> str:
+        if self.kind == "end":
+            return "the end of the filter"
+        if self.kind == "number":
+            return f"the number {self.text}"
+        if self.kind == "string":
+            return f"the text {self.text}"
+        if self.kind == "word":
+            return f"'{self.text}'"
+        return f"'{self.text}'"
+
+
+_NUMBER_RE = re.compile(r"(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?")
+_WORD_START = re.compile(r"[A-Za-z_*?]")
+_WORD_RE = re.compile(r"[A-Za-z_*?][A-Za-z0-9_.*?]*")
+_OPS = ("==", "!=", "<>", "<=", ">=", "=", "<", ">", "~")
+
+
+def _display(text: str) -> str:
+    return text.replace("\n", " ").replace("\t", " ").replace("\r", " ")
+
+
+def _error(
+    text: str, pos: int, length: int, message: str, extra: tuple[str, ...] = ()
+) -> FilterSyntaxError:
+    shown = _display(text)
+    caret = " " * pos + "^" * max(1, length)
+    lines = [f"column {pos + 1}: {message}", f"  {shown}", f"  {caret}"]
+    lines += [f"  {line}" for line in extra]
+    err = FilterSyntaxError([Problem("filter", "", "\n".join(lines), has_value=False)])
+    err.expression = text
+    err.position = pos
+    return err
+
+
+def tokenize(text: str) -> list[Token]:
+    """Split filter text into tokens; a bad character or unclosed quote is a FilterSyntaxError."""
+    tokens: list[Token] = []
+    i, n = 0, len(text)
+    while i < n:
+        ch = text[i]
+        if ch.isspace():
+            i += 1
+            continue
+        if ch in "\"'":
+            j, buf = i + 1, []
+            while j < n and text[j] != ch:
+                if text[j] == "\\" and j + 1 < n:
+                    j += 1
+                buf.append(text[j])
+                j += 1
+            if j >= n:
+                raise _error(text, i, n - i, f"unclosed quote {ch}", (f"close the text with {ch}",))
+            tokens.append(Token("string", text[i : j + 1], i, "".join(buf)))
+            i = j + 1
+            continue
+        if m := _NUMBER_RE.match(text, i):
+            end = m.end()
+            if end < n and (text[end].isalpha() or text[end] == "_"):
+                w = _WORD_RE.match(text, end)
+                stop = w.end() if w else end + 1
+                raise _error(
+                    text,
+                    i,
+                    stop - i,
+                    f"'{text[i:stop]}' is not a plain number",
+                    (
+                        (
+                            "units are part of the metric names: write plain numbers such as "
+                            "5, 0.25 or 2e3 (no SI suffixes)"
+                        ),
+                    ),
+                )
+            tokens.append(Token("number", m.group(), i, float(m.group())))
+            i = end
+            continue
+        if _WORD_START.match(ch):
+            w = _WORD_RE.match(text, i)
+            assert w is not None
+            tokens.append(Token("word", w.group(), i, w.group()))
+            i = w.end()
+            continue
+        op = next((o for o in _OPS if text.startswith(o, i)), None)
+        if op is not None:
+            tokens.append(Token("op", op, i))
+            i += len(op)
+            continue
+        single = {"(": "lparen", ")": "rparen", ",": "comma", "-": "minus"}
+        if ch in single:
+            tokens.append(Token(single[ch], ch, i))
+            i += 1
+            continue
+        raise _error(
+            text,
+            i,
+            1,
+            f"unexpected character {ch!r}",
+            (
+                (
+                    "filters use names, numbers, quoted text, ( ) , and the operators "
+                    "= != < <= > >= ~ in and or not"
+                ),
+            ),
+        )
+    tokens.append(Token("end", "", n))
+    return tokens
+
+
+# --------------------------------------------------------------------------- parser
+
+
+def _allowed_lines(names: list[str], label: str = "allowed names") -> tuple[str, ...]:
+    return tuple(
+        textwrap.wrap(
+            ", ".join(names),
+            width=96,
+            initial_indent=f"{label}: ",
+            subsequent_indent="  ",
+            break_on_hyphens=False,
+        )
+    )
+
+
+def resolve_field(name: str) -> str | None:
+    """The known field spelled ``name`` (exactly, or case-insensitively if unambiguous)."""
+    if name in FIELDS:
+        return name
+    folded = [f for f in FIELDS if f.lower() == name.lower()]
+    return folded[0] if len(folded) == 1 else None
+
+
+def unknown_name_error(
+    text: str, pos: int, name: str, kinds: tuple[FieldKind, ...] | None = None, what: str = "name"
+) -> FilterSyntaxError:
+    """FilterSyntaxError for an unknown column, with difflib suggestions and the allowed list."""
+    allowed = [f for f, k in FIELDS.items() if kinds is None or k in kinds]
+    close = difflib.get_close_matches(name, allowed, n=3, cutoff=0.6)
+    if not close:
+        close = difflib.get_close_matches(
+            name.lower(), [a.lower() for a in allowed], n=3, cutoff=0.6
+        )
+        close = [a for a in allowed if a.lower() in close]
+    hint = f"; did you mean {' or '.join(repr(c) for c in close)}?" if close else ""
+    return _error(text, pos, len(name), f"unknown {what} '{name}'{hint}", _allowed_lines(allowed))
+
+
+class _Parser:
+    def __init__(self, text: str) -> None:
+        self.text = text
+        self.tokens = tokenize(text)
+        self.i = 0
+
+    # helpers
+    @property
+    def tok(self) -> Token:
+        return self.tokens[self.i]
+
+    def next(self) -> Token:
+        t = self.tokens[self.i]
+        self.i += 1
+        return t
+
+    def is_keyword(self, word: str, offset: int = 0) -> bool:
+        t = self.tokens[min(self.i + offset, len(self.tokens) - 1)]
+        return t.kind == "word" and t.text.lower() == word
+
+    def fail(
+        self, expected: str, tok: Token | None = None, extra: tuple[str, ...] = ()
+    ) -> FilterSyntaxError:
+        tok = tok or self.tok
+        return _error(
+            self.text, tok.pos, len(tok.text), f"expected {expected}, found {tok.describe()}", extra
+        )
+
+    # grammar
+    def parse(self) -> Node:
+        if self.tok.kind == "end":
+            return Everything()
+        node = self.or_expr()
+        if self.tok.kind != "end":
+            if self.tok.kind == "rparen":
+                raise self.fail("'and', 'or' or the end of the filter (this ')' closes nothing)")
+            raise self.fail(
+                "'and', 'or' or the end of the filter", extra=("join conditions with 'and' / 'or'",)
+            )
+        return node
+
+    def or_expr(self) -> Node:
+        items = [self.and_expr()]
+        while self.is_keyword("or"):
+            self.next()
+            items.append(self.and_expr())
+        return items[0] if len(items) == 1 else Or(tuple(items))
+
+    def and_expr(self) -> Node:
+        items = [self.not_expr()]
+        while self.is_keyword("and"):
+            self.next()
+            items.append(self.not_expr())
+        return items[0] if len(items) == 1 else And(tuple(items))
+
+    def not_expr(self) -> Node:
+        if self.is_keyword("not"):
+            self.next()
+            return Not(self.not_expr())
+        if self.tok.kind == "lparen":
+            opening = self.next()
+            node = self.or_expr()
+            if self.tok.kind != "rparen":
+                raise self.fail("')'", extra=(f"to close the '(' at column {opening.pos + 1}",))
+            self.next()
+            return node
+        return self.condition()
+
+    def condition(self) -> Node:
+        tok = self.tok
+        if tok.kind != "word" or tok.text.lower() in _KEYWORDS:
+            extra: tuple[str, ...] = ()
+            if tok.kind in ("number", "minus"):
+                extra = ("put the column first, e.g. cap_fF >= 5",)
+            raise self.fail(
+                "a column name (a metric such as cap_fF, or name/topology/oxide/...)", extra=extra
+            )
+        field = resolve_field(tok.text)
+        if field is None:
+            raise unknown_name_error(self.text, tok.pos, tok.text)
+        self.next()
+        kind = FIELDS[field]
+        if self.is_keyword("in") or (self.is_keyword("not") and self.is_keyword("in", 1)):
+            negated = self.is_keyword("not")
+            self.i += 2 if negated else 1
+            return InSet(field, self.value_list(field), negated)
+        if kind == "bool":
+            if self.tok.kind == "op" and self.tok.text in ("=", "==", "!=", "<>"):
+                op = _COMPARE_OPS[self.next().text]
+                value = self.bool_value(field)
+                return Compare(field, op, value)
+            return IsTrue(field)
+        if self.tok.kind != "op":
+            ops = "=, !=, ~, in, not in" if kind == "text" else "=, !=, <, <=, >, >=, in, not in"
+            raise self.fail(f"an operator after '{tok.text}' ({ops})")
+        op_tok = self.next()
+        op = _COMPARE_OPS[op_tok.text]
+        if kind == "text":
+            if op not in ("=", "!=", "~"):
+                raise _error(
+                    self.text,
+                    op_tok.pos,
+                    len(op_tok.text),
+                    f"'{op_tok.text}' does not apply to the text column '{field}'",
+                    ("text columns take =, !=, ~ (glob), in, not in",),
+                )
+            return Compare(field, op, self.text_value(field, glob=op == "~"))
+        if op == "~":
+            raise _error(
+                self.text,
+                op_tok.pos,
+                1,
+                f"'~' (glob) applies to text columns, not '{field}'",
+                ("numeric columns take =, !=, <, <=, >, >=, in, not in",),
+            )
+        return Compare(field, op, self.number_or_field(field))
+
+    def number(self, field: str) -> float:
+        sign = 1.0
+        if self.tok.kind == "minus":
+            self.next()
+            sign = -1.0
+        if self.tok.kind != "number":
+            raise self.fail(f"a number for '{field}'")
+        value = self.next().value
+        assert isinstance(value, float)
+        return sign * value
+
+    def number_or_field(self, field: str) -> float | FieldRef:
+        tok = self.tok
+        if tok.kind == "word" and tok.text.lower() not in _KEYWORDS:
+            other = resolve_field(tok.text)
+            if other is not None and FIELDS[other] == "number":
+                self.next()
+                return FieldRef(other)
+            if other is not None:
+                raise self.fail(f"a number or a numeric column for '{field}'")
+            raise unknown_name_error(self.text, tok.pos, tok.text, ("number",), "numeric column")
+        if tok.kind not in ("number", "minus"):
+            raise self.fail(f"a number for '{field}'")
+        return self.number(field)
+
+    def text_value(self, field: str, glob: bool = False) -> str:
+        tok = self.tok
+        if (
+            tok.kind == "string"
+            or tok.kind == "word"
+            and tok.text.lower() not in ("and", "or", "not", "in")
+        ):
+            value = str(self.next().value)
+        elif tok.kind == "number":
+            raise self.fail(
+                f"a word or quoted text for '{field}'", extra=(f'quote it: {field} = "{tok.text}"',)
+            )
+        else:
+            raise self.fail(f"a word or quoted text for '{field}'")
+        if not glob and field in CLOSED_VALUES and value not in CLOSED_VALUES[field]:
+            allowed = list(CLOSED_VALUES[field])
+            close = difflib.get_close_matches(value, allowed, n=2, cutoff=0.5)
+            hint = f"; did you mean {' or '.join(repr(c) for c in close)}?" if close else ""
+            raise _error(
+                self.text,
+                tok.pos,
+                len(tok.text),
+                f"'{value}' is not a {field}{hint}",
+                _allowed_lines(allowed, "allowed"),
+            )
+        return value
+
+    def bool_value(self, field: str) -> float:
+        tok = self.tok
+        if self.is_keyword("true") or (tok.kind == "number" and tok.value == 1.0):
+            self.next()
+            return 1.0
+        if self.is_keyword("false") or (tok.kind == "number" and tok.value == 0.0):
+            self.next()
+            return 0.0
+        raise self.fail(f"true, false, 1 or 0 for '{field}'")
+
+    def value_list(self, field: str) -> tuple[float | str, ...]:
+        kind = FIELDS[field]
+        if self.tok.kind != "lparen":
+            raise self.fail(f"'(' to open the list of values for '{field}'")
+        self.next()
+        values: list[float | str] = []
+        while True:
+            if kind == "text":
+                values.append(self.text_value(field))
+            elif kind == "bool":
+                values.append(self.bool_value(field))
+            else:
+                values.append(self.number(field))
+            if self.tok.kind == "comma":
+                self.next()
+                continue
+            if self.tok.kind == "rparen":
+                self.next()
+                return tuple(values)
+            raise self.fail("',' or ')' in the list of values")
+
+
+def parse_filter(text: str) -> Node:
+    """Parse filter text into an AST (``Everything`` for empty text); FilterSyntaxError if malformed."""
+    return _Parser(text or "").parse()
+
+
+# --------------------------------------------------------------------------- SQL
+
+
+def quote_column(name: str) -> str:
+    """The SQL identifier of a whitelisted column (anything else is a programming error)."""
+    if name not in FIELDS:
+        raise KeyError(name)
+    return f'"{name}"'
+
+
+def node_to_sql(node: Node, params: list[object]) -> str:
+    """SQL text of ``node``, appending bound values to ``params`` (``?`` placeholders)."""
+    if isinstance(node, Everything):
+        return "1"
+    if isinstance(node, Compare):
+        col = quote_column(node.field)
+        if isinstance(node.value, FieldRef):
+            return f"({col} {node.op} {quote_column(node.value.name)})"
+        params.append(node.value)
+        return f"({col} GLOB ?)" if node.op == "~" else f"({col} {node.op} ?)"
+    if isinstance(node, InSet):
+        params.extend(node.values)
+        marks = ", ".join("?" for _ in node.values)
+        return f"({quote_column(node.field)} {'NOT IN' if node.negated else 'IN'} ({marks}))"
+    if isinstance(node, IsTrue):
+        params.append(1)
+        return f"({quote_column(node.field)} = ?)"
+    if isinstance(node, Not):
+        return f"(NOT {node_to_sql(node.operand, params)})"
+    if isinstance(node, (And, Or)):
+        joiner = " AND " if isinstance(node, And) else " OR "
+        return "(" + joiner.join(node_to_sql(n, params) for n in node.operands) + ")"
+    raise TypeError(f"not a filter node: {node!r}")
+
+
+def compile_filter(text: str) -> tuple[str, list[object]]:
+    """Filter text -> (SQL condition over the catalog row columns, bound parameters)."""
+    params: list[object] = []
+    sql = node_to_sql(parse_filter(text), params)
+    return sql, params
+
+
+def fields_used(node: Node) -> set[str]:
+    """Every column a filter refers to."""
+    if isinstance(node, Compare):
+        return {node.field} | ({node.value.name} if isinstance(node.value, FieldRef) else set())
+    if isinstance(node, (InSet, IsTrue)):
+        return {node.field}
+    if isinstance(node, Not):
+        return fields_used(node.operand)
+    if isinstance(node, (And, Or)):
+        return set().union(*(fields_used(n) for n in node.operands))
+    return set()
+
+
+def describe_language() -> str:
+    """Plain-text help for the filter language, listing every name with its unit."""
+    lines = [
+        "Filter language (--where):",
+        "  conditions   leakage_nA_per_nF <= 5   bandwidth_GHz >= 2   height_rows = 1   esd_safe",
+        "               cap_fF > cap_ox_fF       topology in (cross_coupled, mom)   oxide = core",
+        '               name ~ "ndcap*"  (glob: * ? [abc])   family != fam_a   not esd_safe',
+        "  combine      and, or, not, parentheses: not (esr_ohm > 3 or srf_GHz < 2)",
+        "  values       plain numbers (5, 0.25, 2e3, -40; no SI suffixes: units are in the names),",
+        "               words or quoted text for name/deck/family/topology/oxide/corner",
+        "  corners      with --corner worst (default) each metric is its least favourable value",
+        "               over the corners (best: most favourable) before the filter applies;",
+        "               temperature_C and supply_V are empty there",
+        "Metrics (per corner; better = direction of ranking by default):",
+    ]
+    width = max(len(n) for n in FIELDS)
+    for m in METRIC_BY_NAME.values():
+        lines.append(f"  {m.name:<{width}}  [{m.unit}] {m.better} is better; {m.description}")
+    lines.append("Cell columns:")
+    for c in CELL_COLUMNS.values():
+        lines.append(f"  {c.name:<{width}}  [{c.unit}] {c.description}")
+    for n, unit in CORNER_FIELDS.items():
+        lines.append(f"  {n:<{width}}  [{unit}] corner condition")
+    lines.append(f"Text columns: {', '.join(TEXT_FIELDS)}")
+    lines.append(f"  topology: {', '.join(TOPOLOGIES)};  oxide: {', '.join(OXIDES)}")
+    return "\n".join(lines)

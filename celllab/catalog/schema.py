@@ -1,0 +1,393 @@
+"""Catalog file layout: DDL, schema version, opening checks and forward migrations.
+
+The layout version lives in ``PRAGMA user_version`` and the file is marked as a celllab catalog
+with ``PRAGMA application_id``. ``open_database`` refuses (with a ``CatalogError`` naming the
+file) anything that is not SQLite, is truncated, belongs to another program or was written by a
+newer schema; an older catalog is migrated forward step by step, each step in a transaction.
+
+Metric columns follow ``records.METRICS``: a catalog opened by a version that knows more
+metrics gets the missing ``REAL`` columns added (``sync_metric_columns``); columns of metrics
+that no longer exist stay in the file and are ignored.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import sqlite3
+import struct
+from collections.abc import Callable, Iterator
+from pathlib import Path
+
+import sqlite_utils
+
+from celllab.errors import CatalogError
+from celllab.records import CELL_COLUMNS, METRIC_BY_NAME, METRIC_NAMES
+
+#: Layout version written by this code.
+SCHEMA_VERSION = 2
+#: ``PRAGMA application_id`` of celllab catalogs (ASCII "CELL").
+APPLICATION_ID = 0x43454C4C
+
+SQLITE_MAGIC = b"SQLite format 3\x00"
+
+#: Tables every catalog has.
+TABLES = ("decks", "runs", "cells", "corner_metrics", "corner_extremes", "responses", "cv_curves")
+
+#: SQL types of the per-cell columns (the rest of CELL_COLUMNS are REAL).
+_CELL_COLUMN_TYPES = {"width_sites": "INTEGER", "height_rows": "INTEGER", "esd_safe": "INTEGER"}
+
+#: Metrics indexed for ranking and filtering.
+INDEXED_METRICS = (
+    "cap_fF",
+    "cap_density_fF_per_um2",
+    "esr_ohm",
+    "bandwidth_GHz",
+    "leakage_nA_per_nF",
+)
+
+
+def cell_column_type(name: str) -> str:
+    return _CELL_COLUMN_TYPES.get(name, "REAL")
+
+
+def _metric_columns_sql() -> str:
+    return "".join(f',\n    "{m}" REAL' for m in METRIC_NAMES)
+
+
+def _cell_columns_sql() -> str:
+    return "".join(f',\n    "{c}" {cell_column_type(c)}' for c in CELL_COLUMNS)
+
+
+def v1_ddl() -> str:
+    """DDL of schema version 1 (frozen apart from the metric columns, which follow METRICS).
+
+    Version 2 added ``runs.run_uid`` (to recognise a run across merged catalogs),
+    ``cells.result_digest`` (to tell identical results from conflicting ones) and the
+    ``corner_extremes`` table (worst/best values precomputed for fast ranking).
+    """
+    return f"""
+CREATE TABLE decks (
+    deck_hash TEXT PRIMARY KEY,
+    name TEXT NOT NULL,
+    params_json TEXT NOT NULL,
+    created_utc TEXT NOT NULL,
+    current_since_utc TEXT NOT NULL,
+    current INTEGER NOT NULL DEFAULT 1 CHECK (current IN (0, 1))
+);
+CREATE INDEX decks_by_name ON decks(name, current);
+
+CREATE TABLE runs (
+    run_id INTEGER PRIMARY KEY,
+    deck_hash TEXT NOT NULL REFERENCES decks(deck_hash),
+    model_version TEXT NOT NULL,
+    created_utc TEXT NOT NULL,
+    corners_json TEXT NOT NULL,
+    source_files_json TEXT NOT NULL
+);
+CREATE INDEX runs_by_deck ON runs(deck_hash);
+
+-- one row per cell characterized under one deck with one model version
+CREATE TABLE cells (
+    cell_id INTEGER PRIMARY KEY,
+    deck_hash TEXT NOT NULL REFERENCES decks(deck_hash),
+    cell_hash TEXT NOT NULL,
+    model_version TEXT NOT NULL,
+    run_id INTEGER NOT NULL REFERENCES runs(run_id),
+    name TEXT NOT NULL,
+    family TEXT NOT NULL,
+    topology TEXT NOT NULL,
+    oxide TEXT NOT NULL,
+    geometry_json TEXT NOT NULL,
+    notes_json TEXT NOT NULL DEFAULT '[]'{_cell_columns_sql()},
+    stored_utc TEXT NOT NULL,
+    current INTEGER NOT NULL DEFAULT 1 CHECK (current IN (0, 1)),
+    UNIQUE (deck_hash, cell_hash, model_version)
+);
+CREATE INDEX cells_by_deck ON cells(deck_hash, current);
+CREATE INDEX cells_by_name ON cells(name);
+CREATE INDEX cells_by_deck_name ON cells(deck_hash, name);
+CREATE INDEX cells_by_topology ON cells(topology);
+CREATE INDEX cells_by_run ON cells(run_id);
+
+CREATE TABLE corner_metrics (
+    cell_id INTEGER NOT NULL REFERENCES cells(cell_id) ON DELETE CASCADE,
+    corner TEXT NOT NULL,
+    temperature_C REAL NOT NULL,
+    supply_V REAL NOT NULL{_metric_columns_sql()},
+    flags_json TEXT NOT NULL DEFAULT '[]',
+    PRIMARY KEY (cell_id, corner)
+);
+CREATE INDEX corner_metrics_by_corner ON corner_metrics(corner);
+{
+        "".join(
+            f'CREATE INDEX corner_metrics_by_{m} ON corner_metrics("{m}");{chr(10)}'
+            for m in INDEXED_METRICS
+            if m in METRIC_NAMES
+        )
+    }
+-- freq_Hz: little-endian float64; z_ohm: little-endian complex128 (re, im pairs); exact
+CREATE TABLE responses (
+    cell_id INTEGER NOT NULL,
+    corner TEXT NOT NULL,
+    n_freq INTEGER NOT NULL,
+    freq_Hz BLOB NOT NULL,
+    z_ohm BLOB NOT NULL,
+    PRIMARY KEY (cell_id, corner),
+    FOREIGN KEY (cell_id, corner) REFERENCES corner_metrics(cell_id, corner) ON DELETE CASCADE
+);
+
+-- bias_V, cap_F: little-endian float64; exact
+CREATE TABLE cv_curves (
+    cell_id INTEGER NOT NULL,
+    corner TEXT NOT NULL,
+    n_bias INTEGER NOT NULL,
+    bias_V BLOB NOT NULL,
+    cap_F BLOB NOT NULL,
+    operating_bias_V REAL NOT NULL,
+    operating_cap_F REAL NOT NULL,
+    PRIMARY KEY (cell_id, corner),
+    FOREIGN KEY (cell_id, corner) REFERENCES corner_metrics(cell_id, corner) ON DELETE CASCADE
+);
+"""
+
+
+def _create_v1(db: sqlite_utils.Database) -> None:
+    db.executescript(v1_ddl())
+    db.execute(f"PRAGMA application_id = {APPLICATION_ID}")
+
+
+def extremes_ddl() -> str:
+    """DDL of ``corner_extremes`` (added in version 2): per cell, each metric at its worst and
+    best corner, kept in step with ``corner_metrics`` whenever results are written."""
+    return f"""
+CREATE TABLE corner_extremes (
+    cell_id INTEGER NOT NULL REFERENCES cells(cell_id) ON DELETE CASCADE,
+    kind TEXT NOT NULL CHECK (kind IN ('worst', 'best')){_metric_columns_sql()},
+    PRIMARY KEY (cell_id, kind)
+);
+CREATE INDEX corner_extremes_by_kind ON corner_extremes(kind);
+{
+        "".join(
+            f'CREATE INDEX corner_extremes_by_{m} ON corner_extremes(kind, "{m}");{chr(10)}'
+            for m in INDEXED_METRICS
+            if m in METRIC_NAMES
+        )
+    }"""
+
+
+def aggregate_function(metric: str, kind: str) -> str:
+    """``MIN`` or ``MAX``: the SQL aggregate giving the worst/best value of ``metric`` over corners.
+
+    worst = least favourable by ``METRICS.better`` (MIN of a higher-is-better metric, MAX of a
+    lower-is-better one); best the opposite. SQL MIN/MAX skip empty values.
+    """
+    higher = METRIC_BY_NAME[metric].better == "higher"
+    if kind == "worst":
+        return "MIN" if higher else "MAX"
+    if kind == "best":
+        return "MAX" if higher else "MIN"
+    raise ValueError(kind)
+
+
+def fill_extremes(db: sqlite_utils.Database, after_cell_id: int = 0) -> None:
+    """Compute ``corner_extremes`` of every cell with ``cell_id > after_cell_id`` from its corners."""
+    cols = ", ".join(f'"{m}"' for m in METRIC_NAMES)
+    for kind in ("worst", "best"):
+        aggs = ", ".join(f'{aggregate_function(m, kind)}("{m}")' for m in METRIC_NAMES)
+        db.execute(
+            f"INSERT INTO corner_extremes (cell_id, kind, {cols}) "
+            f"SELECT cell_id, '{kind}', {aggs} FROM corner_metrics "
+            f"WHERE cell_id > ? GROUP BY cell_id",
+            [after_cell_id],
+        )
+
+
+def _v1_to_v2(db: sqlite_utils.Database) -> None:
+    from celllab.catalog.store import stored_result_digest  # store imports this module
+
+    db.executescript(extremes_ddl())
+    fill_extremes(db)
+    db.table("runs").add_column("run_uid", str)
+    db.execute("UPDATE runs SET run_uid = lower(hex(randomblob(16))) WHERE run_uid IS NULL")
+    db.execute("CREATE UNIQUE INDEX runs_by_uid ON runs(run_uid)")
+    db.table("cells").add_column("result_digest", str)
+    for (cell_id,) in db.execute("SELECT cell_id FROM cells").fetchall():
+        db.execute(
+            "UPDATE cells SET result_digest = ? WHERE cell_id = ?",
+            [stored_result_digest(db, cell_id), cell_id],
+        )
+
+
+#: MIGRATIONS[v] turns a version-v file into version v + 1 (v = 0: an empty file).
+MIGRATIONS: dict[int, Callable[[sqlite_utils.Database], None]] = {0: _create_v1, 1: _v1_to_v2}
+
+
+@contextlib.contextmanager
+def write_transaction(db: sqlite_utils.Database) -> Iterator[sqlite_utils.Database]:
+    """One ``BEGIN IMMEDIATE`` transaction: all or nothing (the write lock is taken up front)."""
+    db.execute("BEGIN IMMEDIATE")
+    try:
+        yield db
+    except BaseException:
+        db.rollback()
+        raise
+    else:
+        db.execute("COMMIT")
+
+
+def migrate(db: sqlite_utils.Database, target: int = SCHEMA_VERSION) -> int:
+    """Apply forward migrations from the file's ``user_version`` up to ``target``; each in a transaction."""
+    version = user_version(db)
+    while version < target:
+        with write_transaction(db):
+            MIGRATIONS[version](db)
+            version += 1
+            db.execute(f"PRAGMA user_version = {version}")
+    return version
+
+
+def sync_metric_columns(db: sqlite_utils.Database) -> list[str]:
+    """Add REAL columns for metrics this version knows and the file lacks; return their names."""
+    wanted = {
+        "corner_metrics": {m: "REAL" for m in METRIC_NAMES},
+        "corner_extremes": {m: "REAL" for m in METRIC_NAMES},
+        "cells": {c: cell_column_type(c) for c in CELL_COLUMNS},
+    }
+    missing = {
+        t: [(c, typ) for c, typ in cols.items() if c not in db[t].columns_dict]
+        for t, cols in wanted.items()
+    }
+    added = sorted({c for cols in missing.values() for c, _ in cols})
+    if added:  # new columns hold no values yet, so the stored extremes stay consistent
+        with write_transaction(db):
+            for table, cols in missing.items():
+                for c, typ in cols:
+                    db.execute(f'ALTER TABLE {table} ADD COLUMN "{c}" {typ}')
+    return added
+
+
+def user_version(db: sqlite_utils.Database) -> int:
+    return int(db.execute("PRAGMA user_version").fetchone()[0])
+
+
+def _fail(path: Path, message: str) -> CatalogError:
+    return CatalogError.single(str(path), "", message)  # type: ignore[return-value]
+
+
+def check_file_header(path: Path) -> None:
+    """Refuse a file that is not SQLite or is shorter than its header says, before SQLite opens it."""
+    size = path.stat().st_size
+    if size == 0:
+        return  # SQLite treats an empty file as an empty database
+    with path.open("rb") as fh:
+        header = fh.read(100)
+    if not header.startswith(SQLITE_MAGIC[: min(len(header), 16)]) or len(header) < 16:
+        raise _fail(path, "not an SQLite database (a celllab catalog is an SQLite file)")
+    if len(header) < 100:
+        raise _fail(path, f"truncated SQLite file ({size} bytes, shorter than its 100-byte header)")
+    (page_size,) = struct.unpack(">H", header[16:18])
+    page_size = 65536 if page_size == 1 else page_size
+    if page_size < 512 or page_size & (page_size - 1):
+        raise _fail(path, f"damaged SQLite header (page size {page_size})")
+    change_counter, page_count = struct.unpack(">II", header[24:32])
+    (valid_for,) = struct.unpack(">I", header[92:96])
+    if size % page_size:
+        raise _fail(
+            path,
+            f"truncated SQLite file ({size} bytes, not a whole number of {page_size}-byte pages)",
+        )
+    if valid_for == change_counter and page_count * page_size > size:
+        raise _fail(
+            path, f"truncated SQLite file ({size} bytes; its header says {page_count * page_size})"
+        )
+
+
+def connect(path: Path) -> sqlite_utils.Database:
+    """A sqlite-utils Database over a connection usable from worker threads (callers serialise)."""
+    conn = sqlite3.connect(str(path), check_same_thread=False, timeout=10.0)
+    return sqlite_utils.Database(conn, execute_plugins=False)
+
+
+def inspect(db: sqlite_utils.Database, path: Path) -> int:
+    """Return the file's schema version; raise CatalogError when it is not a catalog we can read."""
+    try:
+        version = user_version(db)
+        app_id = int(db.execute("PRAGMA application_id").fetchone()[0])
+        tables = db.table_names()
+    except sqlite3.DatabaseError as exc:
+        raise _fail(path, f"unreadable SQLite file: {exc}") from None
+    if app_id != APPLICATION_ID and (tables or version):
+        shown = ", ".join(tables[:8]) + (", ..." if len(tables) > 8 else "")
+        raise _fail(
+            path, f"an SQLite database but not a celllab catalog (tables: {shown or 'none'})"
+        )
+    if version > SCHEMA_VERSION:
+        raise _fail(
+            path,
+            f"catalog schema version {version} was written by a newer celllab; this "
+            f"version reads up to {SCHEMA_VERSION}; upgrade celllab to open it",
+        )
+    return version
+
+
+def check_tables(db: sqlite_utils.Database, path: Path) -> None:
+    """After migration every table of the current layout must be there."""
+    tables = set(db.table_names())
+    if missing := [t for t in TABLES if t not in tables]:
+        raise _fail(path, f"damaged catalog: missing tables {', '.join(missing)}")
+
+
+def open_database(path: Path, create: bool = True) -> sqlite_utils.Database:
+    """Open (creating or migrating if needed) the catalog at ``path``: WAL mode, foreign keys on."""
+    if path.exists():
+        if not path.is_file():
+            raise _fail(path, "not a file")
+        check_file_header(path)
+    elif not create:
+        raise _fail(path, "no catalog here (store a characterization run first)")
+    else:
+        path.parent.mkdir(parents=True, exist_ok=True)
+    db = connect(path)
+    try:
+        version = inspect(db, path)
+        db.execute("PRAGMA foreign_keys = ON")
+        db.execute("PRAGMA busy_timeout = 10000")
+        db.enable_wal()
+        if version < SCHEMA_VERSION:
+            migrate(db)
+        check_tables(db, path)
+        sync_metric_columns(db)
+    except sqlite3.DatabaseError as exc:
+        db.close()
+        raise _fail(path, f"cannot open the catalog: {exc}") from None
+    except BaseException:
+        db.close()
+        raise
+    return db
+
+
+def open_source_copy(path: Path) -> sqlite_utils.Database:
+    """Open another catalog for reading without changing it: an in-memory copy, migrated if older."""
+    if not path.is_file():
+        raise _fail(path, "no catalog file here")
+    check_file_header(path)
+    src = connect(path)
+    try:
+        inspect(src, path)
+        mem = sqlite3.connect(":memory:", check_same_thread=False)
+        src.conn.backup(mem)
+    except sqlite3.DatabaseError as exc:
+        raise _fail(path, f"unreadable SQLite file: {exc}") from None
+    finally:
+        src.close()
+    copy = sqlite_utils.Database(mem, execute_plugins=False)
+    try:
+        if inspect(copy, path) == 0:
+            raise _fail(path, "empty file, not a celllab catalog")
+        migrate(copy)
+        check_tables(copy, path)
+        sync_metric_columns(copy)
+    except sqlite3.DatabaseError as exc:
+        copy.close()
+        raise _fail(path, f"cannot read the catalog: {exc}") from None
+    return copy

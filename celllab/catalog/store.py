@@ -1,0 +1,583 @@
+"""Writing characterization runs into the catalog, and reading full cell records back.
+
+``store_run`` is one transaction. Per cell the key is (deck hash, cell hash, model version):
+
+* a key already stored is left alone (``unchanged``); if its numbers differ from the new run the
+  stored ones are kept and the cell is listed in ``StoreReport.differing``;
+* a new key is inserted and becomes the current result of that cell name under that deck; the
+  previous current result of the name is kept as history (``superseded``);
+* storing a deck supersedes every other deck of the same name (its results stay, not current).
+
+Arrays are stored exactly: frequency, bias and capacitance as little-endian float64 blobs,
+impedance as little-endian complex128 blobs.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import math
+import uuid
+from collections.abc import Callable, Iterable, Mapping
+from dataclasses import dataclass, field
+from datetime import UTC, datetime
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import sqlite_utils
+
+from celllab.catalog.schema import cell_column_type, fill_extremes, write_transaction
+from celllab.errors import CatalogError, Problem
+from celllab.records import (
+    CELL_COLUMNS,
+    METRIC_NAMES,
+    CellResult,
+    CharacterizationRun,
+    CornerResult,
+    CVCurve,
+    FrequencyResponse,
+)
+
+#: Test-only: when set, called inside the store transaction after each inserted cell with the
+#: number of cells inserted so far. The crash test uses it to stop a process mid-transaction.
+_cell_stored_hook: Callable[[int], None] | None = None
+
+_F64 = np.dtype("<f8")
+_C128 = np.dtype("<c16")
+
+
+@dataclass(frozen=True)
+class StoreReport:
+    """What ``store_run`` did.
+
+    run_id : id of the run record written; when nothing changed, of the latest earlier run of
+        this deck and model version (None if there is none).
+    inserted, unchanged : cells stored now / already stored with the same key.
+    superseded : results that stopped being current (older deck of the same name, older result
+        of the same cell name).
+    differing : names of unchanged cells whose new numbers differ from the stored ones (kept).
+    """
+
+    run_id: int | None
+    inserted: int
+    unchanged: int
+    superseded: int
+    differing: list[str] = field(default_factory=list)
+
+    @property
+    def changed(self) -> bool:
+        return self.inserted > 0 or self.superseded > 0
+
+
+def utc_now() -> str:
+    """UTC time as sortable ISO 8601 text with microseconds."""
+    return datetime.now(UTC).strftime("%Y-%m-%dT%H:%M:%S.%fZ")
+
+
+def _json_default(value: Any) -> Any:
+    if isinstance(value, np.ndarray):
+        return value.tolist()
+    if isinstance(value, np.generic):
+        return value.item()
+    if isinstance(value, (Path, datetime)):
+        return str(value)
+    if isinstance(value, (set, frozenset)):
+        return sorted(value)
+    raise TypeError(f"{type(value).__name__} is not JSON serialisable")
+
+
+def canonical_json(value: Any) -> str:
+    """JSON text with sorted keys and no spaces, so equal content gives equal text."""
+    return json.dumps(
+        value, sort_keys=True, separators=(",", ":"), default=_json_default, allow_nan=True
+    )
+
+
+def _real(value: Any) -> float | None:
+    if value is None:
+        return None
+    x = float(value)
+    return None if math.isnan(x) else x  # SQLite stores NaN as NULL
+
+
+def _column_value(name: str, value: Any) -> Any:
+    if cell_column_type(name) == "INTEGER":
+        return None if value is None else int(value)
+    return _real(value)
+
+
+def encode_f64(values: Any) -> bytes:
+    return np.ascontiguousarray(np.asarray(values, dtype=float).ravel(), dtype=_F64).tobytes()
+
+
+def encode_c128(values: Any) -> bytes:
+    return np.ascontiguousarray(np.asarray(values, dtype=complex).ravel(), dtype=_C128).tobytes()
+
+
+def decode_f64(blob: bytes) -> np.ndarray:
+    return np.frombuffer(blob, dtype=_F64).astype(float)
+
+
+def decode_c128(blob: bytes) -> np.ndarray:
+    return np.frombuffer(blob, dtype=_C128).astype(complex)
+
+
+@dataclass
+class PreparedCell:
+    """Rows of one cell ready for insertion (cell_id and keys filled in by ``CellWriter.add``)."""
+
+    name: str
+    cell_hash: str
+    cell_row: dict[str, Any]
+    corner_rows: list[dict[str, Any]]
+    response_rows: list[dict[str, Any]]
+    cv_rows: list[dict[str, Any]]
+    digest: str
+
+
+_DIGEST_TEXT_KEYS = ("name", "family", "topology", "oxide", "geometry_json", "notes_json")
+
+
+def _feed(h: Any, data: bytes) -> None:
+    h.update(len(data).to_bytes(8, "little"))
+    h.update(data)
+
+
+def _f64(values: Iterable[Any]) -> bytes:
+    """Values as float64 bytes, empty -> NaN (one canonical NaN, since NaN is stored as empty)."""
+    return np.array([math.nan if v is None else v for v in values], dtype=_F64).tobytes()
+
+
+def result_digest(
+    cell_row: Mapping[str, Any],
+    corner_rows: Iterable[Mapping[str, Any]],
+    response_rows: Iterable[Mapping[str, Any]],
+    cv_rows: Iterable[Mapping[str, Any]],
+) -> str:
+    """SHA-256 over the stored content of one result.
+
+    Takes the rows as stored (REAL values float or None, as both ``prepare_cell`` and SQLite
+    give them). Two results with the same digest hold the same numbers bit for bit.
+    """
+    h = hashlib.sha256()
+    _feed(h, json.dumps([cell_row[k] for k in _DIGEST_TEXT_KEYS]).encode())
+    _feed(h, _f64(_column_value(k, cell_row.get(k)) for k in CELL_COLUMNS))
+    parts: dict[str, list[bytes]] = {}
+    for row in corner_rows:
+        parts[row["corner"]] = [
+            json.dumps([row["corner"], row["flags_json"]]).encode(),
+            _f64([row["temperature_C"], row["supply_V"], *(row.get(m) for m in METRIC_NAMES)]),
+        ]
+    for row in response_rows:
+        parts[row["corner"]] += [b"response", bytes(row["freq_Hz"]), bytes(row["z_ohm"])]
+    for row in cv_rows:
+        parts[row["corner"]] += [
+            b"cv",
+            bytes(row["bias_V"]),
+            bytes(row["cap_F"]),
+            _f64([_real(row["operating_bias_V"]), _real(row["operating_cap_F"])]),
+        ]
+    for corner in sorted(parts):
+        for part in parts[corner]:
+            _feed(h, part)
+    return h.hexdigest()
+
+
+def stored_result_digest(db: sqlite_utils.Database, cell_id: int) -> str:
+    """``result_digest`` recomputed from the rows stored for ``cell_id``."""
+    cell_row = next(db.query("SELECT * FROM cells WHERE cell_id = ?", [cell_id]))
+    where = "WHERE cell_id = ?"
+    return result_digest(
+        cell_row,
+        list(db.query(f"SELECT * FROM corner_metrics {where}", [cell_id])),
+        list(db.query(f"SELECT * FROM responses {where}", [cell_id])),
+        list(db.query(f"SELECT * FROM cv_curves {where}", [cell_id])),
+    )
+
+
+def _corner_problems(where: str, c: CornerResult, run_corners: set[str]) -> list[str]:
+    out = []
+    if run_corners and c.corner not in run_corners:
+        out.append(
+            f"{where}.corner = {c.corner!r} -> not one of the run's corners "
+            f"({', '.join(sorted(run_corners))})"
+        )
+    keys = set(c.metrics)
+    if missing := [m for m in METRIC_NAMES if m not in keys]:
+        out.append(f"{where}.metrics -> missing {', '.join(missing)}")
+    if extra := sorted(keys - set(METRIC_NAMES)):
+        out.append(
+            f"{where}.metrics -> unknown {', '.join(extra)}; allowed: {', '.join(METRIC_NAMES)}"
+        )
+    f, z = np.asarray(c.response.freq_Hz), np.asarray(c.response.z_ohm)
+    if f.ndim != 1 or f.shape != z.shape:
+        out.append(
+            f"{where}.response -> freq_Hz {f.shape} and z_ohm {z.shape} must be equal 1-D arrays"
+        )
+    if c.cv is not None:
+        b, cap = np.asarray(c.cv.bias_V), np.asarray(c.cv.cap_F)
+        if b.ndim != 1 or b.shape != cap.shape:
+            out.append(
+                f"{where}.cv -> bias_V {b.shape} and cap_F {cap.shape} must be equal 1-D arrays"
+            )
+    return out
+
+
+def validate_run(run: CharacterizationRun) -> None:
+    """Raise CatalogError listing every structural problem of ``run`` (nothing is written)."""
+    label = f"run of deck {run.deck_name!r}"
+    msgs: list[str] = []
+    if not run.deck_hash or not run.deck_name or not run.model_version:
+        msgs.append("deck_name, deck_hash and model_version must be non-empty")
+    seen_names: dict[str, int] = {}
+    seen_hashes: dict[str, int] = {}
+    run_corners = set(run.corners)
+    for i, cell in enumerate(run.cells):
+        where = f"cells[{i}] ({cell.name})"
+        if cell.name in seen_names:
+            msgs.append(f"{where} -> name repeats cells[{seen_names[cell.name]}]")
+        if cell.cell_hash in seen_hashes:
+            msgs.append(f"{where} -> cell_hash repeats cells[{seen_hashes[cell.cell_hash]}]")
+        seen_names.setdefault(cell.name, i)
+        seen_hashes.setdefault(cell.cell_hash, i)
+        corner_names = [c.corner for c in cell.corners]
+        if len(set(corner_names)) != len(corner_names):
+            msgs.append(f"{where}.corners -> repeated corner names {corner_names}")
+        for j, c in enumerate(cell.corners):
+            msgs += _corner_problems(f"{where}.corners[{j}]", c, run_corners)
+    if msgs:
+        raise CatalogError([Problem(label, "", m) for m in msgs])
+
+
+def prepare_cell(cell: CellResult) -> PreparedCell:
+    """Encode one cell result as catalog rows and compute its digest (no database access)."""
+    try:
+        geometry_json = canonical_json(cell.geometry)
+        notes_json = canonical_json(list(cell.notes))
+        flags = [canonical_json(list(c.flags)) for c in cell.corners]
+    except TypeError as exc:
+        raise CatalogError.single(f"cell {cell.name}", "geometry", str(exc)) from None
+    cell_row: dict[str, Any] = {
+        "name": cell.name,
+        "cell_hash": cell.cell_hash,
+        "family": cell.family,
+        "topology": cell.topology,
+        "oxide": cell.oxide,
+        "geometry_json": geometry_json,
+        "notes_json": notes_json,
+        **{k: _column_value(k, getattr(cell, k)) for k in CELL_COLUMNS},
+    }
+    corner_rows, response_rows, cv_rows = [], [], []
+    for c, flags_json in zip(cell.corners, flags, strict=True):
+        corner_rows.append(
+            {
+                "corner": c.corner,
+                "temperature_C": _real(c.temperature_C),
+                "supply_V": _real(c.supply_V),
+                **{m: _real(c.metrics[m]) for m in METRIC_NAMES},
+                "flags_json": flags_json,
+            }
+        )
+        response_rows.append(
+            {
+                "corner": c.corner,
+                "n_freq": int(np.size(c.response.freq_Hz)),
+                "freq_Hz": encode_f64(c.response.freq_Hz),
+                "z_ohm": encode_c128(c.response.z_ohm),
+            }
+        )
+        if c.cv is not None:
+            cv_rows.append(
+                {
+                    "corner": c.corner,
+                    "n_bias": int(np.size(c.cv.bias_V)),
+                    "bias_V": encode_f64(c.cv.bias_V),
+                    "cap_F": encode_f64(c.cv.cap_F),
+                    "operating_bias_V": float(c.cv.operating_bias_V),
+                    "operating_cap_F": float(c.cv.operating_cap_F),
+                }
+            )
+    digest = result_digest(cell_row, corner_rows, response_rows, cv_rows)
+    return PreparedCell(
+        cell.name, cell.cell_hash, cell_row, corner_rows, response_rows, cv_rows, digest
+    )
+
+
+def insert_rows(db: sqlite_utils.Database, table: str, rows: list[dict[str, Any]]) -> None:
+    """Bulk insert rows that share their keys (one executemany inside the open transaction)."""
+    if not rows:
+        return
+    cols = list(rows[0])
+    sql = (
+        f"INSERT INTO {_q(table)} ({', '.join(_q(c) for c in cols)}) "
+        f"VALUES ({', '.join('?' for _ in cols)})"
+    )
+    db.conn.executemany(sql, [[r[c] for c in cols] for r in rows])
+
+
+class CellWriter:
+    """Inserts prepared cells; per-corner rows are buffered and written in bulk (``flush``)."""
+
+    FLUSH_EVERY = 256
+
+    def __init__(self, db: sqlite_utils.Database) -> None:
+        self.db = db
+        self.pending: dict[str, list[dict[str, Any]]] = {
+            "corner_metrics": [],
+            "responses": [],
+            "cv_curves": [],
+        }
+        self.first_new_id = int(
+            db.execute("SELECT COALESCE(MAX(cell_id), 0) FROM cells").fetchone()[0]
+        )
+        self.n = 0
+
+    def add(
+        self,
+        cell: PreparedCell,
+        *,
+        deck_hash: str,
+        model_version: str,
+        run_id: int,
+        stored_utc: str,
+        current: bool = True,
+    ) -> int:
+        row = {
+            **cell.cell_row,
+            "deck_hash": deck_hash,
+            "model_version": model_version,
+            "run_id": run_id,
+            "stored_utc": stored_utc,
+            "current": int(current),
+            "result_digest": cell.digest,
+        }
+        cols = list(row)
+        cur = self.db.execute(
+            f"INSERT INTO cells ({', '.join(_q(c) for c in cols)}) "
+            f"VALUES ({', '.join('?' for _ in cols)})",
+            [row[c] for c in cols],
+        )
+        cell_id = int(cur.lastrowid or 0)
+        for table, rows in (
+            ("corner_metrics", cell.corner_rows),
+            ("responses", cell.response_rows),
+            ("cv_curves", cell.cv_rows),
+        ):
+            self.pending[table] += [{**r, "cell_id": cell_id} for r in rows]
+        self.n += 1
+        if self.n % self.FLUSH_EVERY == 0:
+            self.flush()
+        return cell_id
+
+    def flush(self) -> None:
+        for table, rows in self.pending.items():  # corner_metrics first: the others refer to it
+            insert_rows(self.db, table, rows)
+            rows.clear()
+
+    def finish(self) -> None:
+        """Write what is buffered and the worst/best values of every cell added."""
+        self.flush()
+        fill_extremes(self.db, self.first_new_id)
+
+
+def _q(identifier: str) -> str:
+    return '"' + identifier.replace('"', '""') + '"'
+
+
+def _supersede_other_decks(db: sqlite_utils.Database, run: CharacterizationRun) -> int:
+    others = [
+        r[0]
+        for r in db.execute(
+            "SELECT deck_hash FROM decks WHERE name = ? AND deck_hash != ? AND current = 1",
+            [run.deck_name, run.deck_hash],
+        ).fetchall()
+    ]
+    if not others:
+        return 0
+    marks = ", ".join("?" for _ in others)
+    n = db.execute(
+        f"SELECT COUNT(*) FROM cells WHERE current = 1 AND deck_hash IN ({marks})", others
+    ).fetchone()[0]
+    db.execute(f"UPDATE decks SET current = 0 WHERE deck_hash IN ({marks})", others)
+    return int(n)
+
+
+def _ensure_deck(db: sqlite_utils.Database, run: CharacterizationRun, now: str) -> bool:
+    """Insert the deck or make it current again; True when something was written."""
+    row = db.execute(
+        "SELECT name, current FROM decks WHERE deck_hash = ?", [run.deck_hash]
+    ).fetchone()
+    if row is None:
+        try:
+            params_json = canonical_json(run.deck_params)
+        except TypeError as exc:
+            raise CatalogError.single(f"deck {run.deck_name}", "deck_params", str(exc)) from None
+        db.table("decks").insert(
+            {
+                "deck_hash": run.deck_hash,
+                "name": run.deck_name,
+                "params_json": params_json,
+                "created_utc": now,
+                "current_since_utc": now,
+                "current": 1,
+            }
+        )
+        return True
+    if row[0] != run.deck_name:
+        raise CatalogError.single(
+            f"deck {run.deck_name}",
+            "deck_hash",
+            f"already stored under the deck name {row[0]!r}",
+            run.deck_hash,
+        )
+    if not row[1]:
+        db.execute(
+            "UPDATE decks SET current = 1, current_since_utc = ? WHERE deck_hash = ?",
+            [now, run.deck_hash],
+        )
+        return True
+    return False
+
+
+def store_run(db: sqlite_utils.Database, run: CharacterizationRun) -> StoreReport:
+    """Store ``run`` in one transaction; see the module docstring for what is skipped or superseded."""
+    validate_run(run)
+    prepared = [prepare_cell(c) for c in run.cells]
+    now = utc_now()
+    with write_transaction(db):
+        superseded = _supersede_other_decks(db, run)
+        deck_written = _ensure_deck(db, run, now)
+        existing = {
+            (r[0]): (r[1], r[2], r[3])
+            for r in db.execute(
+                "SELECT cell_hash, cell_id, result_digest, current FROM cells "
+                "WHERE deck_hash = ? AND model_version = ?",
+                [run.deck_hash, run.model_version],
+            )
+        }
+        new, unchanged, differing, revive = [], 0, [], []
+        for p in prepared:
+            if p.cell_hash in existing:
+                cell_id, digest, current = existing[p.cell_hash]
+                unchanged += 1
+                if digest != p.digest:
+                    differing.append(p.name)
+                if not current:
+                    revive.append((p.name, cell_id))
+            else:
+                new.append(p)
+        if not (new or revive or deck_written or superseded):
+            last = db.execute(
+                "SELECT MAX(run_id) FROM runs WHERE deck_hash = ? AND model_version = ?",
+                [run.deck_hash, run.model_version],
+            ).fetchone()[0]
+            return StoreReport(last, 0, unchanged, 0, differing)
+        cur = db.execute(
+            "INSERT INTO runs (run_uid, deck_hash, model_version, created_utc, corners_json, "
+            "source_files_json) VALUES (?, ?, ?, ?, ?, ?)",
+            [
+                uuid.uuid4().hex,
+                run.deck_hash,
+                run.model_version,
+                now,
+                canonical_json(list(run.corners)),
+                canonical_json([str(s) for s in run.source_files]),
+            ],
+        )
+        run_id = int(cur.lastrowid or 0)
+        current_names = {
+            r[0]
+            for r in db.execute(
+                "SELECT name FROM cells WHERE deck_hash = ? AND current = 1", [run.deck_hash]
+            )
+        }
+        for name, cell_id in revive:
+            if name in current_names:
+                superseded += _retire_name(db, run.deck_hash, name)
+            db.execute("UPDATE cells SET current = 1 WHERE cell_id = ?", [cell_id])
+        writer = CellWriter(db)
+        for n, p in enumerate(new, start=1):
+            if p.name in current_names:
+                superseded += _retire_name(db, run.deck_hash, p.name)
+            writer.add(
+                p,
+                deck_hash=run.deck_hash,
+                model_version=run.model_version,
+                run_id=run_id,
+                stored_utc=now,
+            )
+            if _cell_stored_hook is not None:
+                _cell_stored_hook(n)
+        writer.finish()
+    return StoreReport(run_id, len(new), unchanged, superseded, differing)
+
+
+def _retire_name(db: sqlite_utils.Database, deck_hash: str, name: str) -> int:
+    cur = db.execute(
+        "UPDATE cells SET current = 0 WHERE deck_hash = ? AND name = ? AND current = 1",
+        [deck_hash, name],
+    )
+    return int(cur.rowcount)
+
+
+def _nan(value: Any) -> float:
+    return math.nan if value is None else float(value)
+
+
+def load_cell(db: sqlite_utils.Database, cell_id: int) -> CellResult:
+    """Rebuild the full ``CellResult`` stored as ``cell_id`` (responses, C-V curves, flags)."""
+    rows = list(db.query("SELECT * FROM cells WHERE cell_id = ?", [cell_id]))
+    if not rows:
+        raise CatalogError.single("catalog", "cell_id", "no such stored cell", cell_id)
+    c = rows[0]
+    responses = {
+        r["corner"]: r for r in db.query("SELECT * FROM responses WHERE cell_id = ?", [cell_id])
+    }
+    cvs = {r["corner"]: r for r in db.query("SELECT * FROM cv_curves WHERE cell_id = ?", [cell_id])}
+    corners = []
+    for m in db.query("SELECT * FROM corner_metrics WHERE cell_id = ? ORDER BY rowid", [cell_id]):
+        resp = responses.get(m["corner"])
+        response = (
+            FrequencyResponse(decode_f64(resp["freq_Hz"]), decode_c128(resp["z_ohm"]))
+            if resp
+            else FrequencyResponse(np.empty(0), np.empty(0, complex))
+        )
+        cv_row = cvs.get(m["corner"])
+        cv = (
+            CVCurve(
+                decode_f64(cv_row["bias_V"]),
+                decode_f64(cv_row["cap_F"]),
+                float(cv_row["operating_bias_V"]),
+                float(cv_row["operating_cap_F"]),
+            )
+            if cv_row
+            else None
+        )
+        corners.append(
+            CornerResult(
+                corner=m["corner"],
+                temperature_C=float(m["temperature_C"]),
+                supply_V=float(m["supply_V"]),
+                metrics={k: _nan(m.get(k)) for k in METRIC_NAMES},
+                response=response,
+                cv=cv,
+                flags=list(json.loads(m["flags_json"])),
+            )
+        )
+    return CellResult(
+        name=c["name"],
+        cell_hash=c["cell_hash"],
+        family=c["family"],
+        topology=c["topology"],
+        oxide=c["oxide"],
+        geometry=json.loads(c["geometry_json"]),
+        area_um2=_nan(c["area_um2"]),
+        width_sites=int(c["width_sites"] or 0),
+        height_rows=int(c["height_rows"] or 0),
+        gate_area_um2=_nan(c["gate_area_um2"]),
+        esd_safe=bool(c["esd_safe"]),
+        corners=corners,
+        netlist=None,
+        notes=list(json.loads(c["notes_json"])),
+    )
