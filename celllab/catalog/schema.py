@@ -24,7 +24,7 @@ from celllab.errors import CatalogError
 from celllab.records import CELL_COLUMNS, METRIC_BY_NAME, METRIC_NAMES
 
 #: Layout version written by this code.
-SCHEMA_VERSION = 2
+SCHEMA_VERSION = 3
 #: ``PRAGMA application_id`` of celllab catalogs (ASCII "CELL").
 APPLICATION_ID = 0x43454C4C
 
@@ -218,8 +218,18 @@ def _v1_to_v2(db: sqlite_utils.Database) -> None:
         )
 
 
+def _v2_to_v3(db: sqlite_utils.Database) -> None:
+    # Equivalent circuit per cell x corner (JSON of records.netlist_to_dict); empty for results
+    # stored before version 3 (exports then fall back to a model built from the metrics).
+    db.table("responses").add_column("circuit_json", str)
+
+
 #: MIGRATIONS[v] turns a version-v file into version v + 1 (v = 0: an empty file).
-MIGRATIONS: dict[int, Callable[[sqlite_utils.Database], None]] = {0: _create_v1, 1: _v1_to_v2}
+MIGRATIONS: dict[int, Callable[[sqlite_utils.Database], None]] = {
+    0: _create_v1,
+    1: _v1_to_v2,
+    2: _v2_to_v3,
+}
 
 
 @contextlib.contextmanager

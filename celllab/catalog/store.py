@@ -30,6 +30,8 @@ import sqlite_utils
 from celllab.catalog.schema import cell_column_type, fill_extremes, write_transaction
 from celllab.errors import CatalogError, Problem
 from celllab.records import (
+    netlist_from_dict,
+    netlist_to_dict,
     CELL_COLUMNS,
     METRIC_NAMES,
     CellResult,
@@ -285,6 +287,7 @@ def prepare_cell(cell: CellResult) -> PreparedCell:
                 "n_freq": int(np.size(c.response.freq_Hz)),
                 "freq_Hz": encode_f64(c.response.freq_Hz),
                 "z_ohm": encode_c128(c.response.z_ohm),
+                "circuit_json": _circuit_json(cell.netlist, c.corner),
             }
         )
         if c.cv is not None:
@@ -525,6 +528,15 @@ def _nan(value: Any) -> float:
     return math.nan if value is None else float(value)
 
 
+def _circuit_json(netlist: Any, corner: str) -> str | None:
+    """The corner's equivalent circuit as canonical JSON (None when the result carries none)."""
+    if isinstance(netlist, Mapping):
+        netlist = netlist.get(corner)
+    if netlist is None:
+        return None
+    return canonical_json(netlist_to_dict(netlist))
+
+
 def load_cell(db: sqlite_utils.Database, cell_id: int) -> CellResult:
     """Rebuild the full ``CellResult`` stored as ``cell_id`` (responses, C-V curves, flags)."""
     rows = list(db.query("SELECT * FROM cells WHERE cell_id = ?", [cell_id]))
@@ -536,6 +548,11 @@ def load_cell(db: sqlite_utils.Database, cell_id: int) -> CellResult:
     }
     cvs = {r["corner"]: r for r in db.query("SELECT * FROM cv_curves WHERE cell_id = ?", [cell_id])}
     corners = []
+    circuits = {
+        corner: netlist_from_dict(json.loads(r["circuit_json"]))
+        for corner, r in responses.items()
+        if r.get("circuit_json")
+    }
     for m in db.query("SELECT * FROM corner_metrics WHERE cell_id = ? ORDER BY rowid", [cell_id]):
         resp = responses.get(m["corner"])
         response = (
@@ -578,6 +595,6 @@ def load_cell(db: sqlite_utils.Database, cell_id: int) -> CellResult:
         gate_area_um2=_nan(c["gate_area_um2"]),
         esd_safe=bool(c["esd_safe"]),
         corners=corners,
-        netlist=None,
+        netlist=circuits or None,
         notes=list(json.loads(c["notes_json"])),
     )

@@ -192,3 +192,27 @@ def test_catalog_is_usable_from_a_worker_thread(filled: Catalog) -> None:
     worker.start()
     worker.join()
     assert results == [filled.count(corner=None)]
+
+
+def test_equivalent_circuits_round_trip_per_corner(tmp_path) -> None:
+    """The catalog keeps each corner's equivalent circuit; the rebuilt netlist gives the same Z(f)."""
+    import numpy as np
+
+    from celllab.catalog import open_catalog
+    from celllab.cells import CellSpec
+    from celllab.deck import load_deck
+    from celllab.engine import characterize
+    from celllab.physics.netlist import solve_impedance
+
+    deck = load_deck("process_decks/lumen130.toml")
+    cells = [CellSpec(name="x", topology="cross_coupled", width_sites=16, fingers=2),
+             CellSpec(name="m", topology="mos_mom", width_sites=16, fingers=2)]
+    run = characterize(deck, cells)
+    cat = open_catalog(tmp_path / "c.sqlite")
+    cat.store_run(run)
+    for original in run.cells:
+        back = cat.cell(original.name)
+        assert set(back.netlist) == set(deck.corner_names())
+        f = np.logspace(6, 11, 30)
+        for corner, net in original.netlist.items():
+            np.testing.assert_allclose(solve_impedance(back.netlist[corner], f), solve_impedance(net, f), rtol=1e-12)
