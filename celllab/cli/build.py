@@ -17,12 +17,17 @@ def _progress_printer(enabled: bool):  # type: ignore[no-untyped-def]
     if not enabled:
         return None
 
+    live = sys.stderr.isatty()
+
     def show(stage: str, done: int, total: int) -> None:
         width = 30
         filled = int(width * done / max(total, 1))
-        sys.stderr.write(f"\r{stage:<24} [{'#' * filled}{'.' * (width - filled)}] {done}/{total}")
-        if done >= total:
-            sys.stderr.write("\n")
+        if live:  # redraw one line in a terminal
+            sys.stderr.write(f"\r{stage:<32} [{'#' * filled}{'.' * (width - filled)}] {done}/{total}")
+            if done >= total:
+                sys.stderr.write("\n")
+        elif done >= total:  # a log gets one line per deck
+            sys.stderr.write(f"{stage.split(':')[0]}: {total} cells characterized\n")
         sys.stderr.flush()
 
     return show
@@ -59,6 +64,19 @@ def _load(deck_paths: list[str], cell_paths: list[str]):  # type: ignore[no-unty
                 unique.append(pr)
         raise CelllabError(unique)
     return pairs
+
+
+def format_table(rows: list[dict], cols: list[str]) -> str:  # type: ignore[type-arg]
+    """Plain aligned text table: text left, numbers right (4 significant digits)."""
+    def text(v: object) -> str:
+        return f"{v:.4g}" if isinstance(v, float) else str(v)
+
+    cells = [[text(r.get(c)) for c in cols] for r in rows]
+    widths = [max([len(c)] + [len(row[i]) for row in cells]) for i, c in enumerate(cols)]
+    numeric = [all(isinstance(r.get(c), (int, float)) for r in rows) for c in cols]
+    def line(values: list[str]) -> str:
+        return "  ".join(v.rjust(w) if num else v.ljust(w) for v, w, num in zip(values, widths, numeric)).rstrip()
+    return "\n".join([line(cols), line(["-" * w for w in widths])] + [line(r) for r in cells])
 
 
 def cmd_check(args: argparse.Namespace) -> int:
@@ -111,15 +129,8 @@ def cmd_demo(args: argparse.Namespace) -> int:
     rows = catalog.query(corner="worst", order_by="cap_density_fF_per_um2", limit=args.limit)
     cols = ["name", "deck", "topology", "cap_fF", "cap_density_fF_per_um2", "esr_ohm", "bandwidth_GHz",
             "leakage_nA_per_nF"]
-    print(f"Densest demo cells (worst corner) in {path}:")
-    print("  ".join(f"{c:>22}" if i else f"{c:<28}" for i, c in enumerate(cols)))
-    for row in rows:
-        cells = []
-        for i, c in enumerate(cols):
-            v = row.get(c)
-            txt = f"{v:.4g}" if isinstance(v, float) else str(v)
-            cells.append(f"{txt:>22}" if i else f"{txt:<28}")
-        print("  ".join(cells))
+    print(f"Densest demo cells (each metric at its worst corner) in {path}:")
+    print(format_table(rows, cols))
     print(CAUTION)
     return 0
 
