@@ -1,0 +1,60 @@
+"""The check / build / demo verbs end to end (CLI mirrors the library)."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import pytest
+
+from celllab.cli.main import build_parser, main
+
+DECK = "process_decks/lumen130.toml"
+CELLS = "process_decks/cells/lumen130_cells.toml"
+
+
+def test_check_reports_counts(capsys) -> None:
+    assert main(["check", "--deck", DECK, "--cells", CELLS]) == 0
+    out = capsys.readouterr().out
+    assert "lumen130: deck OK, 4 corners;" in out and "cell variants OK" in out
+
+
+def test_build_twice_is_a_no_op_and_rebuild_after_deck_change_supersedes(tmp_path, capsys) -> None:
+    cat = tmp_path / "c.sqlite"
+    assert main(["build", "--deck", DECK, "--cells", CELLS, "--catalog", str(cat), "--json", "--corners", "typ_25C"]) == 0
+    first = json.loads(capsys.readouterr().out)[0]
+    assert first["inserted"] == first["cells"] > 40
+    assert main(["build", "--deck", DECK, "--cells", CELLS, "--catalog", str(cat), "--json", "--corners", "typ_25C"]) == 0
+    second = json.loads(capsys.readouterr().out)[0]
+    assert second["inserted"] == 0 and second["unchanged"] == first["cells"]
+    changed = tmp_path / "lumen130.toml"
+    changed.write_text(Path(DECK).read_text().replace("t_ox_nm = 2.2", "t_ox_nm = 2.1"))
+    assert main(["build", "--deck", str(changed), "--cells", CELLS, "--catalog", str(cat), "--json",
+                 "--corners", "typ_25C"]) == 0
+    third = json.loads(capsys.readouterr().out)[0]
+    assert third["inserted"] == first["cells"] and third["superseded"] >= 1
+    assert main(["decks", "--catalog", str(cat)]) == 0
+    assert capsys.readouterr().out.count("lumen130") >= 2  # history kept
+
+
+def test_build_rejects_unknown_corner(tmp_path, capsys) -> None:
+    assert main(["build", "--deck", DECK, "--cells", CELLS, "--catalog", str(tmp_path / "c.sqlite"),
+                 "--corners", "nope"]) == 2
+    err = capsys.readouterr().err
+    assert "unknown corner" in err and "typ_25C" in err and "Traceback" not in err
+    assert not (tmp_path / "c.sqlite").exists() or (tmp_path / "c.sqlite").stat().st_size >= 0
+
+
+def test_demo_without_ui_prints_the_densest_cells(tmp_path, capsys) -> None:
+    assert main(["demo", "--no-ui", "--catalog", str(tmp_path / "demo.sqlite"), "--limit", "3", "--quiet"]) == 0
+    out = capsys.readouterr().out
+    assert "cap_density_fF_per_um2" in out and "not sign-off" in out
+    assert len([line for line in out.splitlines() if "-w" in line]) == 3
+
+
+@pytest.mark.parametrize("verb", sorted(build_parser()._subparsers._group_actions[0].choices))  # type: ignore[union-attr]
+def test_every_verb_has_help(verb: str, capsys) -> None:
+    with pytest.raises(SystemExit) as exit_info:
+        main([verb, "--help"])
+    assert exit_info.value.code == 0
+    assert len(capsys.readouterr().out) > 200
