@@ -21,6 +21,7 @@ VERB_MODULES: tuple[str, ...] = (
     "celllab.cli.build",
     "celllab.cli.query",
     "celllab.cli.export",
+    "celllab.cli.plan",
     "celllab.cli.ui",
 )
 
