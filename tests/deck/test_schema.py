@@ -11,11 +11,12 @@ from typing import Any
 
 import annotated_types
 import pytest
-from hypothesis import given, settings
+from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 from pydantic import BaseModel, ValidationError
 
 from celllab.deck import Deck, OxideFlavour, load_deck, numeric_paths, schema
+from celllab.errors import DeckError
 
 DECK_DIR = Path(__file__).resolve().parents[2] / "process_decks"
 DEMO = ("lumen130", "tarn40lp", "quill28hk")
@@ -232,7 +233,14 @@ def numeric_change(draw: st.DrawFn) -> tuple[str, str, float]:
 def test_numeric_change_round_trips_through_json(change: tuple[str, str, float]) -> None:
     name, path, new = change
     deck = demo_deck(name)
-    changed = deck.with_changes({path: new})
+    try:
+        changed = deck.with_changes({path: new})
+    except DeckError as exc:
+        # a single value inside its own range may still break a cross-field rule (metal layers
+        # overlapping, a corner pushed out of range); the error must then name that field
+        assert exc.problems and all(p.field for p in exc.problems), str(exc)
+        assume(False)
+        return
     dumped = changed.model_dump(mode="json")
     assert _value(dumped, path) == new
     # nothing else moved
