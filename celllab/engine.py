@@ -11,7 +11,7 @@ from collections.abc import Callable, Sequence
 from typing import Any
 
 import numpy as np
-from scipy.constants import femto, giga, micro, nano, pico, zero_Celsius
+from scipy.constants import femto, giga, nano, pico, zero_Celsius
 
 from celllab import MODEL_VERSION
 from celllab.cells.expand import resolve
@@ -19,7 +19,14 @@ from celllab.cells.schema import CellSpec
 from celllab.characterization import topologies
 from celllab.characterization.params import CornerSet
 from celllab.deck.schema import Deck
-from celllab.records import METRIC_NAMES, CellResult, CharacterizationRun, CornerResult, CVCurve, FrequencyResponse
+from celllab.records import (
+    METRIC_NAMES,
+    CellResult,
+    CharacterizationRun,
+    CornerResult,
+    CVCurve,
+    FrequencyResponse,
+)
 
 #: Frequency sweep of every response: 100 kHz .. 1 THz, 20 points per decade.
 FREQ_HZ = np.logspace(5, 12, 141)

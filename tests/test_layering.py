@@ -17,8 +17,8 @@ FORBIDDEN = ["textual", "sqlite3", "sqlite_utils", "matplotlib", "celllab.catalo
 @pytest.mark.parametrize("module", CORE)
 def test_core_module_imports_no_ui_or_database(module: str) -> None:
     code = (
-        "import sys, importlib; importlib.import_module(%r); "
-        "bad = [m for m in %r if m in sys.modules]; print(','.join(bad))" % (module, FORBIDDEN)
+        f"import sys, importlib; importlib.import_module({module!r}); "
+        f"bad = [m for m in {FORBIDDEN!r} if m in sys.modules]; print(','.join(bad))"
     )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == "", f"{module} imported {out.stdout.strip()}"

@@ -30,8 +30,6 @@ import sqlite_utils
 from celllab.catalog.schema import cell_column_type, fill_extremes, write_transaction
 from celllab.errors import CatalogError, Problem
 from celllab.records import (
-    netlist_from_dict,
-    netlist_to_dict,
     CELL_COLUMNS,
     METRIC_NAMES,
     CellResult,
@@ -39,6 +37,8 @@ from celllab.records import (
     CornerResult,
     CVCurve,
     FrequencyResponse,
+    netlist_from_dict,
+    netlist_to_dict,
 )
 
 #: Test-only: when set, called inside the store transaction after each inserted cell with the

@@ -54,8 +54,15 @@ def evaluate_metal(topology: str, deck: Any, corners: CornerSet, cells: list[Any
                     freq: np.ndarray) -> Any:
     from celllab.characterization.mos import characterize_mos
     from celllab.characterization.oxide_stress import oxide_stress
-    from celllab.characterization.topologies import (GroupResult, _flat, _loop_inductance, _mos_geometry, _mos_roles,
-                                                 _solve, _supply)
+    from celllab.characterization.topologies import (
+        GroupResult,
+        _flat,
+        _loop_inductance,
+        _mos_geometry,
+        _mos_roles,
+        _solve,
+        _supply,
+    )
 
     n_v, n_c = len(cells), len(corners.names)
     fig = mom_figures(deck, cells, geos)

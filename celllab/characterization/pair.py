@@ -17,13 +17,18 @@ from celllab.characterization.mos import characterize_mos
 from celllab.characterization.oxide_stress import oxide_stress
 from celllab.characterization.params import CornerSet
 from celllab.physics import circuits, cross_coupled
-from celllab.physics.constants import EPS_R_SIO2
-from celllab.physics import oxide
 
 
 def evaluate_cross_coupled(deck: Any, corners: CornerSet, cells: list[Any], geos: list[Any],
                            freq: np.ndarray) -> Any:
-    from celllab.characterization.topologies import GroupResult, _flat, _loop_inductance, _mos_geometry, _solve, _supply
+    from celllab.characterization.topologies import (
+        GroupResult,
+        _flat,
+        _loop_inductance,
+        _mos_geometry,
+        _solve,
+        _supply,
+    )
 
     n_v, n_c = len(cells), len(corners.names)
     oxides = np.array([c.oxide for c in cells])
@@ -34,8 +39,6 @@ def evaluate_cross_coupled(deck: Any, corners: CornerSet, cells: list[Any], geos
     pmos0 = characterize_mos(corners, oxides, np.array(["pmos"] * n_v), geo, vdd)
     vth_n = np.abs(corners.device_table(oxides, np.array(["nmos"] * n_v), "vth_V"))
     vth_p = np.abs(corners.device_table(oxides, np.array(["pmos"] * n_v), "vth_V"))
-    eot = corners.oxide_table("eot_m", oxides)
-    cox = oxide.oxide_capacitance_per_area(EPS_R_SIO2, eot)
 
     def resistive(first: Any, vth: np.ndarray) -> cross_coupled.ResistiveDevice:
         # R_on(V_ov) = L / (W mu_eff Cox V_ov) with the first-pass effective mobility; the

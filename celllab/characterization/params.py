@@ -12,7 +12,7 @@ from typing import Any
 import numpy as np
 from scipy.constants import centi, micro, nano, zero_Celsius
 
-from celllab.deck.schema import Deck, DeviceParams, OxideFlavour
+from celllab.deck.schema import Deck, OxideFlavour
 
 
 @dataclass

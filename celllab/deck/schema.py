@@ -7,7 +7,7 @@ range check; descriptions say what the field means. Values are stored as the use
 
 from __future__ import annotations
 
-from typing import Annotated, Literal
+from typing import Literal
 
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 

@@ -29,6 +29,7 @@ SCHEMA_DIALECT = "https://json-schema.org/draft/2020-12/schema"
 
 from celllab.cells.schema import OxideChoice as Oxide  # noqa: E402  (one closed set, defined once)
 from celllab.cells.schema import Topology  # noqa: E402
+
 #: JSON has no NaN/inf; those are written as null.
 Number = float | None
 
