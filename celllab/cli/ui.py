@@ -1,0 +1,26 @@
+"""The ``ui`` verb: open the terminal UI on a catalog, with optional deck files."""
+
+from __future__ import annotations
+
+import argparse
+
+
+def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
+    parser = subparsers.add_parser(
+        "ui",
+        help="browse the catalog, look at cells, try what-ifs (terminal UI)",
+        description="Open the terminal UI: catalog table, cell views with plots, what-if "
+        "editor, ranking with a Pareto scatter, deck view. Press ? inside for every key.",
+    )
+    parser.add_argument("--catalog", metavar="PATH", default=None,
+                        help="catalog file (default db/celllab.sqlite; created when missing)")
+    parser.add_argument("--deck", metavar="PATH", nargs="+", action="extend", default=[],
+                        help="process deck file(s) for the deck view and what-ifs; a deck that "
+                        "does not validate is shown with its problems")
+    parser.set_defaults(func=run)
+
+
+def run(args: argparse.Namespace) -> int:
+    from celllab.tui.app import run_app
+
+    return run_app(args.catalog, list(args.deck))

@@ -1,0 +1,237 @@
+"""The celllab terminal UI: one app, services injected, one screen per task.
+
+``CelllabApp(catalog=..., deck=...)`` is the one factory used by ``celllab ui`` and by the
+tests. Catalog access happens in worker threads only, serialised by ``catalog_lock`` (the
+catalog's SQLite connection may be used from any thread, one at a time).
+"""
+
+from __future__ import annotations
+
+import contextlib
+import threading
+from collections.abc import Iterator, Mapping, Sequence
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from textual import work
+from textual.app import App
+from textual.binding import Binding
+
+from celllab.errors import CelllabError, Problem
+from celllab.tui.messages import ExportFinished
+from celllab.tui.screens.about import AboutPanel
+from celllab.tui.screens.catalog import CatalogScreen
+from celllab.tui.screens.deck import DeckScreen
+from celllab.tui.screens.export import ExportContext, ExportDialog, ExportRequest, perform_export
+from celllab.tui.screens.keys import KeysOverlay
+from celllab.tui.screens.ranking import RankingScreen
+
+__all__ = ["CelllabApp", "DeckFailure", "load_decks_for_ui", "run_app"]
+
+
+@dataclass(frozen=True)
+class DeckFailure:
+    """A deck file that did not load: where it is and what is wrong with it."""
+
+    path: str
+    problems: list[Problem] = field(default_factory=list)
+
+    @classmethod
+    def from_error(cls, path: str | Path, error: CelllabError) -> "DeckFailure":
+        return cls(str(path), list(error.problems))
+
+
+class CelllabApp(App[None]):
+    """Catalog browser, cell views, what-if editor, ranking and deck views."""
+
+    CSS_PATH = "app.tcss"
+    TITLE = "celllab"
+    SUB_TITLE = "decap cells · engineering estimates"
+    MODES = {"catalog": CatalogScreen, "ranking": RankingScreen, "decks": DeckScreen}
+    DEFAULT_MODE = "catalog"
+    HORIZONTAL_BREAKPOINTS = [(0, "-narrow"), (120, "-wide")]
+    ENABLE_COMMAND_PALETTE = False
+
+    BINDINGS = [
+        Binding("question_mark,f1", "show_keys", "Keys"),
+        Binding("a", "about", "About"),
+        Binding("x", "export", "Export"),
+        Binding("ctrl+q", "quit", "Quit"),
+        Binding("1", "switch_mode('catalog')", "Catalog", show=False),
+        Binding("2", "switch_mode('ranking')", "Ranking", show=False),
+        Binding("3", "switch_mode('decks')", "Decks", show=False),
+    ]
+
+    def __init__(
+        self,
+        catalog: Any = None,
+        deck: Any = None,
+        *,
+        deck_failures: Sequence[DeckFailure] = (),
+        cells: Mapping[str, Sequence[Any]] | Sequence[Any] | None = None,
+        page_size: int = 100,
+        debounce_s: float = 0.15,
+        export_folder: str | Path | None = None,
+    ) -> None:
+        super().__init__()
+        self.catalog = catalog
+        decks = [] if deck is None else (list(deck) if isinstance(deck, (list, tuple)) else [deck])
+        #: decks given to the app (from deck files), by name
+        self.decks: dict[str, Any] = {d.name: d for d in decks}
+        self.deck_failures: list[DeckFailure] = list(deck_failures)
+        self._specs: dict[tuple[str | None, str], Any] = {}
+        if isinstance(cells, Mapping):
+            for deck_name, specs in cells.items():
+                for spec in specs:
+                    self._specs[(deck_name, spec.name)] = spec
+        elif cells is not None:
+            for spec in cells:
+                self._specs[(None, spec.name)] = spec
+        self.page_size = page_size
+        self.debounce_s = debounce_s
+        self.export_folder = Path(export_folder) if export_folder else Path.cwd()
+        self.catalog_lock = threading.Lock()
+        #: shared choices of the catalog screen, read by the ranking screen
+        self.current_deck: str | None = next(iter(self.decks), None)
+        self.current_corner: str = "worst"
+        self._deck_cache: dict[str, Any] = {}
+
+    # --- services for screens -----------------------------------------------------------
+    @contextlib.contextmanager
+    def using_catalog(self) -> Iterator[Any]:
+        """The catalog, held exclusively (call from worker threads only)."""
+        if self.catalog is None:
+            raise CelllabError([Problem("<catalog>", "", "no catalog is open; start with "
+                                        "--catalog PATH", has_value=False)])
+        with self.catalog_lock:
+            yield self.catalog
+
+    def deck_named(self, name: str | None) -> Any:
+        """The Deck of that name, as the catalog stored it (its cells were computed with it);
+        a deck file given to the app when the catalog does not have that deck.
+
+        Call from a worker thread (it reads the catalog). Raises DeckError/CatalogError.
+        """
+        if name is None:
+            raise CelllabError([Problem("<deck>", "", "no deck chosen", has_value=False)])
+        if name not in self._deck_cache:
+            from celllab.deck import parse_deck
+
+            deck = None
+            failure: CelllabError | None = None
+            if self.catalog is not None:
+                try:
+                    with self.using_catalog() as catalog:
+                        params = catalog.deck_params(name)
+                    deck = parse_deck(params, f"catalog deck {name}")
+                except CelllabError as exc:
+                    failure = exc
+            if deck is None:
+                deck = self.decks.get(name)
+            if deck is None:
+                raise failure or CelllabError([Problem("<deck>", "", f"no deck named {name!r}",
+                                                       has_value=False)])
+            self._deck_cache[name] = deck
+        return self._deck_cache[name]
+
+    def spec_for(self, cell: Any, deck_name: str | None) -> Any:
+        """The CellSpec behind a catalog cell (a given spec, else rebuilt from its geometry)."""
+        for key in ((deck_name, cell.name), (None, cell.name)):
+            if key in self._specs:
+                return self._specs[key]
+        from celllab.tui.screens.whatif import spec_from_result
+
+        return spec_from_result(cell)
+
+    def remember_spec(self, deck_name: str, spec: Any) -> None:
+        """Keep a saved variant's spec so a later what-if starts from exactly it."""
+        self._specs[(deck_name, spec.name)] = spec
+
+    # --- global actions -----------------------------------------------------------------
+    def action_show_keys(self) -> None:
+        if isinstance(self.screen, KeysOverlay):
+            self.screen.dismiss(None)
+            return
+        title = getattr(self.screen, "TASK_TITLE", type(self.screen).__name__)
+        self.push_screen(KeysOverlay.for_screen(title, self.screen.active_bindings,
+                                                self.get_key_display))
+
+    def action_about(self) -> None:
+        def after(choice: str | None) -> None:
+            if choice == "export":
+                self.action_export()
+            elif choice == "keys":
+                self.action_show_keys()
+
+        self.push_screen(AboutPanel(), after)
+
+    def export_context(self) -> ExportContext:
+        maker = getattr(self.screen, "export_context", None)
+        return maker() if callable(maker) else ExportContext(deck=self.current_deck,
+                                                             corner=self.current_corner)
+
+    def action_export(self) -> None:
+        context = self.export_context()
+
+        def after(request: ExportRequest | None) -> None:
+            if request is not None:
+                self._export(request, context)
+
+        self.push_screen(ExportDialog(context, self.export_folder), after)
+
+    @work(thread=True, exclusive=True, group="export")
+    def _export(self, request: ExportRequest, context: ExportContext) -> None:
+        try:
+            if request.format == "csv":
+                with self.using_catalog() as catalog:
+                    path = perform_export(request, context, catalog)
+            else:
+                path = perform_export(request, context, None)
+        except CelllabError as exc:
+            self.post_message(ExportFinished(request.path, str(exc)))
+        except OSError as exc:
+            self.post_message(ExportFinished(request.path, f"{request.path}: {exc.strerror or exc}"))
+        else:
+            self.post_message(ExportFinished(str(path)))
+
+    def on_export_finished(self, message: ExportFinished) -> None:
+        if message.error:
+            self.notify(message.error, title="Export failed", severity="error", timeout=8)
+        else:
+            self.notify(f"written: {message.path}", title="Export")
+
+    def on_mount(self) -> None:
+        if self.deck_failures:
+            names = ", ".join(Path(f.path).name for f in self.deck_failures)
+            self.notify(f"{names}: see Decks (3) for what is wrong", title="Deck problems",
+                        severity="warning", timeout=10)
+
+
+
+
+def load_decks_for_ui(paths: Sequence[str | Path]) -> tuple[list[Any], list[DeckFailure]]:
+    """Load deck files; a deck that does not validate becomes a DeckFailure shown in the app."""
+    from celllab.deck import load_deck
+
+    decks: list[Any] = []
+    failures: list[DeckFailure] = []
+    for path in paths:
+        try:
+            decks.append(load_deck(path))
+        except CelllabError as exc:
+            failures.append(DeckFailure.from_error(path, exc))
+    return decks, failures
+
+
+def run_app(catalog_path: str | Path | None = None, deck_paths: Sequence[str | Path] = ()) -> int:
+    """Open the catalog (created when missing) and the deck files, run the UI; returns 0."""
+    from celllab.catalog import open_catalog
+
+    catalog = open_catalog(catalog_path)
+    decks, failures = load_decks_for_ui(deck_paths)
+    try:
+        CelllabApp(catalog=catalog, deck=decks, deck_failures=failures).run()
+    finally:
+        catalog.close()
+    return 0

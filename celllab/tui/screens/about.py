@@ -1,0 +1,62 @@
+"""About and help: what the numbers are, what they are not, and where to go next."""
+
+from __future__ import annotations
+
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Horizontal, VerticalScroll
+from textual.screen import ModalScreen
+from textual.widgets import Button, Markdown
+
+from celllab import MODEL_VERSION, __version__
+
+CAUTION = (
+    "Engineering estimates from analytic models, not sign-off; defer to the foundry's design "
+    "rules, qualified device models, ESD/reliability qualification standards and licensed "
+    "practice."
+)
+
+ABOUT_TEXT = f"""\
+## celllab {__version__}
+
+Characterizes on-chip **decoupling cells** (MOS decaps, MOM, cross-coupled pairs, stacks)
+from a process deck: capacitance and density, ESR, bandwidth, ESL and self-resonance,
+gate leakage, oxide field, TDDB life and HBM stress, at every corner of the deck.
+Models: `{MODEL_VERSION}`.
+
+> **Caution.** {CAUTION}
+
+The demo decks and cells shipped with celllab are **invented** and describe no real
+process or library.
+
+### Finding your way
+* **1** catalog · **2** ranking · **3** decks; **enter** opens a cell, **w** tries a what-if.
+* **/** filters with the catalog's filter language, for example
+  `esd_safe and leakage_nA_per_nF <= 50`; names are the column names, units are in them.
+* **worst** / **best** corner: per metric, the worst (best) value over the deck's corners.
+* Nothing is written to the catalog until a what-if is saved as a new variant (**ctrl+s**).
+* **x** exports (CSV, JSON, SPICE, Touchstone, datasheet); **?** lists every key.
+"""
+
+
+class AboutPanel(ModalScreen[str | None]):
+    """Help text with the cautions; buttons lead to the key list and the export dialog."""
+
+    BINDINGS = [
+        Binding("escape,a", "dismiss(None)", "Close", show=False),
+        Binding("x", "dismiss('export')", "Export", show=False),
+        Binding("question_mark", "dismiss('keys')", "Keys", show=False),
+    ]
+
+    def compose(self) -> ComposeResult:
+        with VerticalScroll(id="about-box", classes="dialog") as box:
+            box.border_title = "About celllab"
+            yield Markdown(ABOUT_TEXT, id="about-text")
+            with Horizontal(classes="dialog-buttons"):
+                yield Button("Export… (x)", id="about-export")
+                yield Button("Keys (?)", id="about-keys")
+                yield Button("Close (esc)", id="about-close", variant="primary")
+
+    def on_button_pressed(self, event: Button.Pressed) -> None:
+        choice = {"about-export": "export", "about-keys": "keys"}.get(event.button.id or "")
+        self.dismiss(choice)

@@ -1,0 +1,272 @@
+"""Deck view: a process deck's parameters with units and its corners; a bad deck's problems."""
+
+from __future__ import annotations
+
+import re
+import typing
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from rich.text import Text
+from textual import on, work
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Horizontal, Vertical
+from textual.widgets import DataTable, Footer, OptionList, Static, TabbedContent, TabPane
+from textual.widgets.option_list import Option
+
+from celllab.errors import CelllabError, Problem
+from celllab.tui.messages import CatalogDecksLoaded
+from celllab.tui.screens.base import TaskScreen
+from celllab.tui.widgets.problems_view import ProblemsView
+from celllab.tui.widgets.task_bar import TaskBar
+
+#: Unit suffixes of deck parameter names (longest first), for names without a described unit.
+_SUFFIX_UNITS: tuple[tuple[str, str], ...] = (
+    ("_cm2_per_Vs", "cm^2/(V s)"), ("_fF_per_um", "fF/um"), ("_MV_per_cm", "MV/cm"),
+    ("_A_per_cm2", "A/cm^2"), ("_ohm_per_sq", "ohm/sq"), ("_per_V", "1/V"), ("_um2", "um^2"),
+    ("_cm3", "cm^-3"), ("_ohm", "ohm"), ("_nm", "nm"), ("_um", "um"), ("_eV", "eV"),
+    ("_V", "V"), ("_C", "degC"), ("_s", "s"),
+)
+_PART = re.compile(r"\.|\[|\]")
+
+
+def _split(path: str) -> list[str]:
+    return [p for p in _PART.split(path) if p]
+
+
+def deck_value(data: Any, path: str) -> Any:
+    """Value at a dotted path (``metals[0].thickness_nm``) of a dumped deck."""
+    cur = data
+    for part in _split(path):
+        cur = cur[int(part)] if isinstance(cur, list) else cur[part]
+    return cur
+
+
+def _model_of(annotation: Any) -> Any:
+    """The pydantic model inside an annotation (Optional, list[...], dict[..., ...])."""
+    from pydantic import BaseModel
+
+    candidates = [annotation, *typing.get_args(annotation)]
+    for cand in candidates:
+        if isinstance(cand, type) and issubclass(cand, BaseModel):
+            return cand
+        for sub in typing.get_args(cand):
+            if isinstance(sub, type) and issubclass(sub, BaseModel):
+                return sub
+    return None
+
+
+def describe_deck_path(path: str) -> str:
+    """The schema description of a deck parameter ('' when unknown)."""
+    try:
+        from celllab.deck import Deck
+    except ImportError:
+        return ""
+    model: Any = Deck
+    info = None
+    for part in _split(path):
+        if part.isdigit() or model is None:
+            continue
+        fields = getattr(model, "model_fields", {})
+        if part in fields:
+            info = fields[part]
+            model = _model_of(info.annotation)
+        else:  # a dict key (oxide flavour, corner name): stay on the value model
+            continue
+    return (getattr(info, "description", "") or "") if info is not None else ""
+
+
+def unit_of(path: str, description: str = "") -> str:
+    """The parameter's unit: the tail of its description when it names one, else the suffix."""
+    if description and ", " in description:
+        tail = description.rsplit(", ", 1)[1].strip()
+        if tail == "unitless" or (0 < len(tail) <= 14 and " " not in tail.replace("(V s)", "(Vs)")):
+            return tail
+    name = _split(path)[-1] if path else ""
+    for suffix, unit in _SUFFIX_UNITS:
+        if name.endswith(suffix):
+            return unit
+    return ""
+
+
+def flatten(data: Any, prefix: str = "") -> list[tuple[str, Any]]:
+    """(dotted path, leaf value) of every parameter, corners excluded."""
+    out: list[tuple[str, Any]] = []
+    if isinstance(data, dict):
+        for key, value in data.items():
+            if not prefix and key == "corners":
+                continue
+            out.extend(flatten(value, f"{prefix}.{key}" if prefix else str(key)))
+    elif isinstance(data, list):
+        for index, value in enumerate(data):
+            out.extend(flatten(value, f"{prefix}[{index}]"))
+    else:
+        out.append((prefix, data))
+    return out
+
+
+@dataclass
+class DeckEntry:
+    """One line of the deck list: a loaded deck, a catalog deck or a deck that failed."""
+
+    key: str
+    label: str
+    params: dict[str, Any] | None = None
+    problems: list[Problem] = field(default_factory=list)
+    source: str = ""
+
+
+class DeckScreen(TaskScreen):
+    """Decks on the left; parameters, corners and problems of the highlighted one."""
+
+    TASK = "decks"
+    TASK_TITLE = "Decks"
+    BINDINGS = [
+        Binding("right_square_bracket", "tab(1)", "Next tab"),
+        Binding("left_square_bracket", "tab(-1)", "Prev tab"),
+        Binding("slash", "focus_params", "Parameters", show=False),
+    ]
+    TABS = ("deck-params-tab", "deck-corners-tab", "deck-problems-tab")
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.entries: dict[str, DeckEntry] = {}
+        self.shown: str | None = None
+
+    def compose(self) -> ComposeResult:
+        yield TaskBar("decks", id="taskbar")
+        with Horizontal(id="deck-body"):
+            with Vertical(id="deck-left"):
+                yield Static("Decks", classes="section-title")
+                yield OptionList(id="deck-list")
+            with Vertical(id="deck-right"):
+                yield Static("", id="deck-title")
+                with TabbedContent(id="deck-tabs"):
+                    with TabPane("Parameters", id="deck-params-tab"):
+                        yield DataTable(id="deck-params", cursor_type="row", zebra_stripes=True)
+                    with TabPane("Corners", id="deck-corners-tab"):
+                        yield DataTable(id="deck-corners", cursor_type="row")
+                    with TabPane("Problems", id="deck-problems-tab"):
+                        yield ProblemsView("no problems: the deck validated", id="deck-problems")
+        yield Footer()
+
+    def on_mount(self) -> None:
+        for failure in self.lab.deck_failures:
+            key = f"bad:{failure.path}"
+            self.entries[key] = DeckEntry(key, f"✗ {Path(failure.path).name}", None,
+                                          list(failure.problems), failure.path)
+        for name, deck in self.lab.decks.items():
+            key = f"file:{name}"
+            self.entries[key] = DeckEntry(key, f"✓ {name} (file)", deck.model_dump(mode="json"),
+                                          source="deck file")
+        self._refresh_list()
+        self.query_one("#deck-list", OptionList).focus()
+        self._load_catalog_decks()
+
+    @work(thread=True, exclusive=True, group="deck-load")
+    def _load_catalog_decks(self) -> None:
+        if self.lab.catalog is None:
+            return
+        try:
+            with self.lab.using_catalog() as catalog:
+                infos = [d for d in catalog.decks() if getattr(d, "current", True)]
+                found = [(d, catalog.deck_params(d.name)) for d in infos]
+        except CelllabError:
+            return
+        self.post_message(CatalogDecksLoaded(found))
+
+    def on_catalog_decks_loaded(self, message: CatalogDecksLoaded) -> None:
+        for info, params in message.found:
+            if f"file:{info.name}" in self.entries:
+                continue
+            key = f"catalog:{info.name}"
+            label = f"✓ {info.name} ({getattr(info, 'n_cells', '?')} cells)"
+            self.entries[key] = DeckEntry(key, label, params, source="catalog")
+        self._refresh_list()
+
+    def _refresh_list(self) -> None:
+        options = self.query_one("#deck-list", OptionList)
+        highlighted = self.shown
+        options.clear_options()
+        for entry in self.entries.values():
+            style = "red" if entry.problems else ""
+            options.add_option(Option(Text(entry.label, style=style), id=entry.key))
+        if self.entries:
+            keys = list(self.entries)
+            index = keys.index(highlighted) if highlighted in keys else 0
+            options.highlighted = index
+            self.show_entry(keys[index])
+        else:
+            self.query_one("#deck-title", Static).update("no decks: start with --deck FILE or a catalog")
+
+    @on(OptionList.OptionHighlighted, "#deck-list")
+    def _highlighted(self, event: OptionList.OptionHighlighted) -> None:
+        if event.option.id:
+            self.show_entry(event.option.id)
+
+    def show_entry(self, key: str) -> None:
+        """Fill the tabs from one entry of the deck list."""
+        entry = self.entries[key]
+        self.shown = key
+        title = Text(entry.label.lstrip("✓✗ "), style="bold")
+        if entry.problems:
+            title.append(f"  {len(entry.problems)} problem(s): this deck did not load", style="red")
+            title.append(f"\n{entry.source}", style="dim")
+        elif entry.params is not None:
+            invented = (entry.params.get("process") or {}).get("invented")
+            title.append(f"  from {entry.source}" + ("  · invented demo data" if invented else ""),
+                         style="dim")
+        self.query_one("#deck-title", Static).update(title)
+        self._fill_params(entry)
+        self._fill_corners(entry)
+        self.query_one("#deck-problems", ProblemsView).problems = tuple(entry.problems)
+        tabs = self.query_one("#deck-tabs", TabbedContent)
+        tabs.active = "deck-problems-tab" if entry.problems else (
+            tabs.active if tabs.active != "deck-problems-tab" else "deck-params-tab")
+
+    def _fill_params(self, entry: DeckEntry) -> None:
+        table = self.query_one("#deck-params", DataTable)
+        table.clear(columns=True)
+        table.add_column("parameter", key="parameter")
+        table.add_column(Text("value", justify="right"), key="value", width=10)
+        table.add_column("unit", key="unit")
+        table.add_column("meaning", key="meaning")
+        if entry.params is None:
+            return
+        group = None
+        for path, value in flatten(entry.params):
+            head, _, leaf = path.rpartition(".")
+            if head != group:
+                group = head
+                if head:
+                    table.add_row(Text(head, style="bold"), "", "", "", key=f"group:{head}")
+            description = describe_deck_path(path)
+            shown = f"{value:g}" if isinstance(value, float) else ("–" if value is None else str(value))
+            if len(shown) > 10:
+                shown = shown[:9] + "…"
+            text = Text(shown, justify="right" if isinstance(value, (int, float)) else "left")
+            label = f"  {leaf}" if head else leaf
+            table.add_row(label, text, unit_of(path, description), description, key=path)
+
+    def _fill_corners(self, entry: DeckEntry) -> None:
+        table = self.query_one("#deck-corners", DataTable)
+        table.clear(columns=True)
+        table.add_columns("corner", Text("T [degC]", justify="right"),
+                          Text("supply ×", justify="right"), "changes")
+        corners = (entry.params or {}).get("corners") or {}
+        for name, corner in corners.items():
+            changes = [f"{k} = {v:g}" for k, v in (corner.get("set") or {}).items()]
+            changes += [f"{k} × {v:g}" for k, v in (corner.get("scale") or {}).items()]
+            table.add_row(name, Text(f"{corner.get('temperature_C', float('nan')):g}", justify="right"),
+                          Text(f"{corner.get('supply_scale', 1.0):g}", justify="right"),
+                          "; ".join(changes) or "–", key=name)
+
+    def action_tab(self, step: int) -> None:
+        tabs = self.query_one("#deck-tabs", TabbedContent)
+        index = self.TABS.index(tabs.active) if tabs.active in self.TABS else 0
+        tabs.active = self.TABS[(index + step) % len(self.TABS)]
+
+    def action_focus_params(self) -> None:
+        self.query_one("#deck-params", DataTable).focus()

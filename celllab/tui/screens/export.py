@@ -1,0 +1,168 @@
+"""Export dialog: pick a format and a path; ``perform_export`` writes it with celllab.export."""
+
+from __future__ import annotations
+
+import inspect
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Horizontal, Vertical
+from textual.screen import ModalScreen
+from textual.widgets import Button, Input, Label, RadioButton, RadioSet
+
+from celllab.errors import CelllabError, Problem
+
+
+@dataclass(frozen=True)
+class ExportFormat:
+    key: str
+    label: str
+    extension: str
+    needs_cell: bool
+    writer: str
+
+
+FORMATS: tuple[ExportFormat, ...] = (
+    ExportFormat("csv", "CSV: every row of the table (current filter and corner)", "csv", False,
+                 "write_csv"),
+    ExportFormat("json", "JSON: the open cell, every corner, with curves", "json", True, "write_json"),
+    ExportFormat("spice", "SPICE: equivalent-circuit subcircuit of the open cell", "sp", True,
+                 "write_spice"),
+    ExportFormat("touchstone", "Touchstone: Z(f) of the open cell as a 1-port", "s1p", True,
+                 "write_touchstone"),
+    ExportFormat("datasheet", "Datasheet: HTML page of the open cell", "html", True,
+                 "write_datasheet"),
+)
+FORMAT_BY_KEY = {f.key: f for f in FORMATS}
+
+
+@dataclass(frozen=True)
+class ExportContext:
+    """What the current screen can export."""
+
+    cell: Any = None                   # CellResult of the open cell, if any
+    deck: str | None = None
+    corner: str | None = None          # a corner name, or "worst"/"best"
+    query: dict[str, Any] = field(default_factory=dict)  # Catalog.query keywords of the table
+    columns: tuple[str, ...] = ()
+
+    @property
+    def stem(self) -> str:
+        if self.cell is not None:
+            return str(self.cell.name)
+        return f"{self.deck or 'catalog'}_{self.corner or 'rows'}"
+
+
+@dataclass(frozen=True)
+class ExportRequest:
+    format: str
+    path: str
+
+
+def available_formats(context: ExportContext) -> list[ExportFormat]:
+    """Formats that make sense here (a cell is needed for all but CSV)."""
+    return [f for f in FORMATS if context.cell is not None or not f.needs_cell]
+
+
+def _call(writer: Any, path: Path, *args: Any, **options: Any) -> Any:
+    """Call a ``write_*`` with only the keyword options it accepts."""
+    accepted = inspect.signature(writer).parameters
+    return writer(path, *args, **{k: v for k, v in options.items() if k in accepted})
+
+
+def perform_export(request: ExportRequest, context: ExportContext, catalog: Any) -> Path:
+    """Write one export with the matching ``celllab.export.write_*`` function."""
+    import celllab.export as export
+
+    fmt = FORMAT_BY_KEY[request.format]
+    path = Path(request.path).expanduser()
+    if not path.parent.exists():
+        raise CelllabError([Problem(str(path), "", "folder does not exist", has_value=False)])
+    try:
+        writer = getattr(export, fmt.writer)
+    except (AttributeError, ImportError):
+        raise CelllabError([Problem(str(path), "", f"{fmt.key} export is not available in this "
+                                    "installation", has_value=False)]) from None
+    corner = context.corner if context.corner not in (None, "worst", "best") else None
+    if fmt.key == "csv":
+        if catalog is None:
+            raise CelllabError([Problem(str(path), "", "no catalog open", has_value=False)])
+        query = {**context.query, "limit": None, "offset": 0}
+        rows = catalog.query(**query)
+        _call(writer, path, rows)
+    elif fmt.key in ("json", "spice"):
+        _call(writer, path, [context.cell], deck_name=context.deck, corner=corner)
+    else:
+        _call(writer, path, context.cell, corner=corner, deck_name=context.deck)
+    return path
+
+
+class ExportDialog(ModalScreen[ExportRequest | None]):
+    """Pick a format (radio buttons) and a destination path."""
+
+    BINDINGS = [Binding("escape", "dismiss(None)", "Cancel", show=False)]
+
+    def __init__(self, context: ExportContext, folder: Path | None = None) -> None:
+        super().__init__()
+        self._export_context = context
+        self._formats = available_formats(context)
+        self._folder = folder or Path.cwd()
+        self._path_edited = False
+
+    def _default_path(self, fmt: ExportFormat) -> str:
+        return str(self._folder / f"{self._export_context.stem}.{fmt.extension}")
+
+    def compose(self) -> ComposeResult:
+        with Vertical(id="export-box", classes="dialog") as box:
+            box.border_title = "Export"
+            box.border_subtitle = "↑↓ space: format · tab: path · enter exports · esc cancels"
+            with RadioSet(id="export-format"):
+                for index, fmt in enumerate(self._formats):
+                    yield RadioButton(fmt.label, value=index == 0, id=f"fmt-{fmt.key}")
+            if self._export_context.cell is None:
+                yield Label("open a cell (enter on a row) to export SPICE, Touchstone, JSON or a "
+                            "datasheet", classes="dialog-hint")
+            yield Label("path")
+            yield Input(self._default_path(self._formats[0]), id="export-path")
+            yield Label("", id="export-error", classes="dialog-error")
+            with Horizontal(classes="dialog-buttons"):
+                yield Button("Export (enter)", id="export-ok", variant="primary")
+                yield Button("Cancel (esc)", id="export-cancel")
+
+    def on_mount(self) -> None:
+        self.query_one(RadioSet).focus()
+
+    def _chosen(self) -> ExportFormat:
+        radio = self.query_one(RadioSet)
+        index = radio.pressed_index if radio.pressed_index >= 0 else 0
+        return self._formats[index]
+
+    def on_radio_set_changed(self, event: RadioSet.Changed) -> None:
+        event.stop()
+        if not self._path_edited:
+            path_input = self.query_one("#export-path", Input)
+            with path_input.prevent(Input.Changed):
+                path_input.value = self._default_path(self._chosen())
+
+    def on_input_changed(self, event: Input.Changed) -> None:
+        self._path_edited = True
+
+    def _submit(self) -> None:
+        path = self.query_one("#export-path", Input).value.strip()
+        if not path:
+            self.query_one("#export-error", Label).update("✗ give a path")
+            return
+        self.dismiss(ExportRequest(self._chosen().key, path))
+
+    def on_input_submitted(self, event: Input.Submitted) -> None:
+        event.stop()
+        self._submit()
+
+    def on_button_pressed(self, event: Button.Pressed) -> None:
+        if event.button.id == "export-ok":
+            self._submit()
+        else:
+            self.dismiss(None)

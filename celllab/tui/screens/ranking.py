@@ -1,0 +1,235 @@
+"""Ranking view: constraints, the ranked cells and a Pareto scatter of two metrics."""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+from textual import on, work
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Container, Horizontal
+from textual.widgets import Footer, Label, Select, Static
+from textual.worker import get_current_worker
+
+from celllab.errors import CelllabError, FilterError
+from celllab.records import METRIC_BY_NAME, METRIC_NAMES
+from celllab.tui.messages import (
+    CellChosen,
+    FilterChanged,
+    PageRequested,
+    QueryFailed,
+    RankingLoaded,
+    SortRequested,
+)
+from celllab.tui.screens.base import TaskScreen
+from celllab.tui.screens.catalog import EXAMPLE_FILTER, better_descending, check_filter
+from celllab.tui.widgets.catalog_table import CatalogTable
+from celllab.tui.widgets.filter_bar import FilterBar
+from celllab.tui.widgets.plot import Marker, PlotSpec, PlotView, Series
+from celllab.tui.widgets.task_bar import TaskBar
+
+RANK_LIMIT = 50
+CLOUD_LIMIT = 4000
+RANKABLE: tuple[str, ...] = (*METRIC_NAMES, "area_um2", "gate_area_um2")
+
+
+def _axis_label(metric: str) -> str:
+    info = METRIC_BY_NAME.get(metric)
+    unit = info.unit if info else ("um^2" if metric.endswith("um2") else "")
+    return f"{metric} [{unit}]" if unit else metric
+
+
+def _wants_log(values: np.ndarray) -> bool:
+    values = values[np.isfinite(values)]
+    return bool(values.size and values.min() > 0 and values.max() / values.min() > 100)
+
+
+def pareto_plot(cloud: list[dict[str, Any]], front: list[dict[str, Any]], x: str, y: str) -> PlotSpec:
+    """Every candidate as a dot, the non-dominated ones as markers joined by a line."""
+    cx = np.array([r.get(x, np.nan) for r in cloud], dtype=float)
+    cy = np.array([r.get(y, np.nan) for r in cloud], dtype=float)
+    fx = np.array([r.get(x, np.nan) for r in front], dtype=float)
+    fy = np.array([r.get(y, np.nan) for r in front], dtype=float)
+    order = np.argsort(fx)
+    both_x, both_y = np.concatenate((cx, fx)), np.concatenate((cy, fy))
+    series = (Series(cx, cy, "cells", kind="dots"), Series(fx[order], fy[order], "Pareto front"))
+    markers = tuple(Marker(float(a), float(b), "front cell", glyph="●") for a, b in zip(fx, fy))
+    return PlotSpec(title="Pareto", x_label=_axis_label(x), y_label=_axis_label(y),
+                    x_log=_wants_log(both_x), y_log=_wants_log(both_y), series=series,
+                    markers=markers)
+
+
+class RankingScreen(TaskScreen):
+    """Constraints on top; the best cells and the trade-off between two metrics below."""
+
+    TASK = "ranking"
+    TASK_TITLE = "Ranking"
+    BINDINGS = [
+        Binding("slash", "focus_filter", "Constraints"),
+        Binding("m", "pick('rank')", "Rank by"),
+        Binding("h", "pick('x')", "X metric", show=False),
+        Binding("v", "pick('y')", "Y metric", show=False),
+        Binding("r", "reverse", "Reverse", show=False),
+        Binding("escape", "focus_table", "To table", show=False),
+    ]
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.rank_by = "cap_density_fF_per_um2"
+        self.descending = better_descending(self.rank_by)
+        self.x_metric = "cap_density_fF_per_um2"
+        self.y_metric = "leakage_nA_per_nF"
+        self.where = ""
+        self.total = 0
+        self.front: list[dict[str, Any]] = []
+        self._serial = 0
+
+    def compose(self) -> ComposeResult:
+        yield TaskBar("ranking", id="taskbar")
+        options = [(m, m) for m in RANKABLE]
+        with Horizontal(classes="pickers"):
+            yield Label("rank by", classes="picker-label")
+            yield Select(options, value=self.rank_by, allow_blank=False, compact=True, id="rank-by")
+            yield Label("x", classes="picker-label")
+            yield Select(options, value=self.x_metric, allow_blank=False, compact=True, id="rank-x")
+            yield Label("y", classes="picker-label")
+            yield Select(options, value=self.y_metric, allow_blank=False, compact=True, id="rank-y")
+        yield FilterBar(check_filter, prompt="constraints", placeholder=f"e.g. {EXAMPLE_FILTER}",
+                        pause_s=self.lab.debounce_s, id="rank-filter")
+        with Container(id="rank-body"):
+            yield CatalogTable(id="rank-table")
+            yield PlotView(id="rank-plot")
+        yield Static("", id="rank-status", markup=False)
+        yield Footer()
+
+    def on_mount(self) -> None:
+        self.query_one(CatalogTable).page_size = RANK_LIMIT
+        self.query_one(CatalogTable).focus()
+
+    def on_screen_resume(self) -> None:
+        super().on_screen_resume()
+        self.refresh_ranking()  # deck, corner or the catalog may have changed meanwhile
+
+    # --- loading ------------------------------------------------------------------------
+    def refresh_ranking(self, offset: int = 0) -> None:
+        self._serial += 1
+        self._load(self._serial, self.lab.current_deck, self.lab.current_corner, self.where,
+                   self.rank_by, self.descending, self.x_metric, self.y_metric, offset)
+
+    @work(thread=True, exclusive=True, group="ranking")
+    def _load(self, serial: int, deck: str | None, corner: str, where: str, rank_by: str,
+              descending: bool, x: str, y: str, offset: int) -> None:
+        worker = get_current_worker()
+        try:
+            with self.lab.using_catalog() as catalog:
+                total = catalog.count(deck=deck, corner=corner, where=where)
+                ranked = catalog.query(deck=deck, corner=corner, where=where, order_by=rank_by,
+                                       descending=descending, limit=RANK_LIMIT, offset=offset)
+                if worker.is_cancelled:
+                    return
+                cloud = catalog.query(deck=deck, corner=corner, where=where, order_by=rank_by,
+                                      descending=descending, limit=CLOUD_LIMIT)
+                front = catalog.pareto([x, y], deck=deck, corner=corner, where=where) if x != y else []
+        except FilterError as exc:
+            self.post_message(QueryFailed(exc.problems, "filter"))
+            return
+        except CelllabError as exc:
+            self.post_message(QueryFailed(exc.problems, "catalog"))
+            return
+        if not worker.is_cancelled:
+            self.post_message(RankingLoaded(ranked, cloud, front, total, x, y, offset))
+
+    def on_ranking_loaded(self, message: RankingLoaded) -> None:
+        self.total = message.total
+        self.front = message.front
+        self.query_one(FilterBar).error = ""
+        columns = tuple(dict.fromkeys(("name", "topology", self.rank_by, self.x_metric,
+                                       self.y_metric, "esd_safe")))
+        self.query_one(CatalogTable).show_page(message.ranked, columns, message.offset, message.total,
+                                               self.rank_by, self.descending)
+        self.query_one(PlotView).spec = pareto_plot(message.cloud, message.front, message.x, message.y)
+        shown = len(message.cloud)
+        sample = f" (plot: first {shown:,})" if shown < message.total else ""
+        self.query_one("#rank-status", Static).update(
+            f"{message.total:,} cells meet the constraints{sample} · Pareto front "
+            f"{len(message.front)} · deck {self.lab.current_deck} · {self.lab.current_corner}")
+
+    def on_query_failed(self, message: QueryFailed) -> None:
+        text = "\n".join(p.message for p in message.problems)
+        if message.kind == "filter":
+            self.query_one(FilterBar).error = text
+        else:
+            self.query_one("#rank-status", Static).update(text)
+
+    def ranked_rows(self) -> list[dict[str, Any]]:
+        return list(self.query_one(CatalogTable).rows_shown)
+
+    # --- controls -----------------------------------------------------------------------
+    @on(FilterChanged)
+    def _filter_changed(self, message: FilterChanged) -> None:
+        message.stop()  # the filter bar already waited for typing to pause
+        text = message.text.strip()
+        if text != self.where:
+            self.where = text
+            self.refresh_ranking()
+        if message.submitted:
+            self.query_one(CatalogTable).focus()
+
+    @on(Select.Changed)
+    def _select_changed(self, event: Select.Changed) -> None:
+        if event.value is Select.BLANK:
+            return
+        value = str(event.value)
+        if event.select.id == "rank-by" and value != self.rank_by:
+            self.rank_by, self.descending = value, better_descending(value)
+        elif event.select.id == "rank-x" and value != self.x_metric:
+            self.x_metric = value
+        elif event.select.id == "rank-y" and value != self.y_metric:
+            self.y_metric = value
+        else:
+            return
+        self.refresh_ranking()
+
+    @on(SortRequested)
+    def _sort(self, message: SortRequested) -> None:
+        message.stop()
+        if message.column in RANKABLE:
+            self.query_one("#rank-by", Select).value = message.column
+
+    @on(PageRequested)
+    def _page(self, message: PageRequested) -> None:
+        message.stop()
+        self._serial += 1
+        self._load(self._serial, self.lab.current_deck, self.lab.current_corner, self.where,
+                   self.rank_by, self.descending, self.x_metric, self.y_metric, message.offset)
+
+    @on(CellChosen)
+    def _open(self, message: CellChosen) -> None:
+        message.stop()
+        from celllab.tui.screens.cell import CellScreen
+
+        self.app.push_screen(CellScreen(message.name, message.deck or self.lab.current_deck))
+
+    def action_pick(self, which: str) -> None:
+        select = self.query_one({"rank": "#rank-by", "x": "#rank-x", "y": "#rank-y"}[which], Select)
+        select.focus()
+        select.expanded = True
+
+    def action_reverse(self) -> None:
+        self.descending = not self.descending
+        self.refresh_ranking()
+
+    def action_focus_filter(self) -> None:
+        self.query_one(FilterBar).input.focus()
+
+    def action_focus_table(self) -> None:
+        self.query_one(CatalogTable).focus()
+
+    def export_context(self) -> Any:
+        from celllab.tui.screens.export import ExportContext
+
+        return ExportContext(deck=self.lab.current_deck, corner=self.lab.current_corner,
+                             query={"deck": self.lab.current_deck, "corner": self.lab.current_corner,
+                                    "where": self.where, "order_by": self.rank_by,
+                                    "descending": self.descending})

@@ -1,0 +1,76 @@
+"""How catalog values look in tables: units in headers, numbers to four significant digits.
+
+Not a widget itself: the cell renderables every table widget of the TUI shares.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+from rich.text import Text
+
+from celllab.records import CELL_COLUMNS, METRIC_BY_NAME
+
+#: Identity columns of a catalog row, with how they read in a header.
+ID_COLUMNS: dict[str, str] = {
+    "name": "cell name",
+    "deck": "process deck",
+    "corner": "corner (or the worst/best one per metric)",
+    "family": "cell family",
+    "topology": "decap topology",
+    "oxide": "gate-oxide flavour",
+}
+
+__all__ = ["ID_COLUMNS", "column_description", "column_header", "column_unit", "format_number",
+           "value_text"]
+
+
+def column_unit(column: str) -> str:
+    """Unit of a catalog column ('' for identity columns)."""
+    info = METRIC_BY_NAME.get(column) or CELL_COLUMNS.get(column)
+    return info.unit if info else ""
+
+
+def column_description(column: str) -> str:
+    """One-line meaning of a catalog column."""
+    info = METRIC_BY_NAME.get(column) or CELL_COLUMNS.get(column)
+    return info.description if info else ID_COLUMNS.get(column, column)
+
+
+def column_header(column: str, sort_mark: str = "") -> Text:
+    """Two-line header: the column name (as the filter language spells it) over its unit."""
+    unit = column_unit(column)
+    head = Text(column + (f" {sort_mark}" if sort_mark else ""), style="bold")
+    head.append("\n")
+    head.append(f"[{unit}]" if unit and unit != "bool" else "", style="dim")
+    return head
+
+
+def format_number(value: float) -> str:
+    """Four significant digits; exponent form outside 1e-3..1e6."""
+    if not math.isfinite(value):
+        return "nan" if math.isnan(value) else ("inf" if value > 0 else "-inf")
+    if value == 0:
+        return "0"
+    mag = abs(value)
+    if 1e-3 <= mag < 1e6:
+        text = f"{value:.4g}"
+        return text
+    return f"{value:.3e}"
+
+
+def value_text(value: Any, column: str = "") -> Text:
+    """A table cell: numbers right-aligned, booleans as yes/no, None as a dash."""
+    if value is None:
+        return Text("–", style="dim", justify="center")
+    if isinstance(value, bool) or column == "esd_safe":
+        yes = bool(value)
+        return Text("yes" if yes else "no", style="green" if yes else "dim", justify="center")
+    if isinstance(value, int):
+        return Text(str(value), justify="right")
+    if isinstance(value, float):
+        if math.isnan(value):
+            return Text("n/a", style="dim", justify="right")
+        return Text(format_number(value), justify="right")
+    return Text(str(value))

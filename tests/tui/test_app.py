@@ -1,0 +1,131 @@
+"""App-wide pieces: key help, about panel with the cautions, exports, task switching, CLI verb."""
+
+from __future__ import annotations
+
+import argparse
+import csv
+import json
+import re
+from pathlib import Path
+from typing import Any
+
+import pytest
+from textual.widgets import Input, RadioButton, TextArea
+
+from celllab.tui.app import CelllabApp, DeckFailure
+from celllab.tui.screens.about import AboutPanel
+from celllab.tui.screens.export import ExportDialog
+from celllab.tui.screens.keys import KeysOverlay
+
+from .conftest import SYNTHETIC_DECK
+
+
+async def test_key_help_and_about_panel(synthetic_catalog: Any, ui: Any) -> None:
+    app = CelllabApp(catalog=synthetic_catalog)
+    async with app.run_test(size=(100, 40)) as pilot:
+        await ui.settle(pilot)
+        await pilot.press("question_mark")
+        await pilot.pause()
+        assert isinstance(app.screen, KeysOverlay)
+        text = ui.screen_text(app)
+        for words in ("Keys · Catalog", "Filter", "Sort", "Columns", "What-if", "Next page",
+                      "Everywhere", "About"):
+            assert words in text
+        assert "Focus Next" not in text  # Textual's own keys are summed up, not listed
+        await pilot.press("escape")
+        await pilot.pause()
+        assert not isinstance(app.screen, KeysOverlay)
+
+        await pilot.press("a")
+        await pilot.pause()
+        assert isinstance(app.screen, AboutPanel)
+        words = " ".join(re.sub(r"[│▌]", " ", ui.screen_text(app)).split())  # drop borders
+        assert "not sign-off" in words and "foundry's design rules" in words
+        assert "ESD/reliability qualification standards" in words and "invented" in words
+        await pilot.press("x")  # exports are reachable from the about panel
+        await pilot.pause()
+        assert isinstance(app.screen, ExportDialog)
+        await pilot.press("escape")
+        await ui.settle(pilot)
+        assert type(app.screen).__name__ == "CatalogScreen"
+
+
+async def _export(app: CelllabApp, pilot: Any, ui: Any, fmt: str, path: Path) -> None:
+    await pilot.press("x")
+    await pilot.pause()
+    dialog = app.screen
+    assert isinstance(dialog, ExportDialog)
+    dialog.query_one(f"#fmt-{fmt}", RadioButton).value = True
+    await pilot.pause()
+    field = dialog.query_one("#export-path", Input)
+    field.focus()
+    field.value = str(path)
+    await pilot.press("enter")
+    await ui.settle(pilot)
+
+
+async def test_csv_export_writes_every_filtered_row(synthetic_catalog: Any, ui: Any, tmp_path: Path) -> None:
+    app = CelllabApp(catalog=synthetic_catalog, page_size=20, export_folder=tmp_path)
+    async with app.run_test(size=(100, 30)) as pilot:
+        await ui.settle(pilot)
+        await pilot.press("slash")
+        await ui.type_text(pilot, "oxide = io")
+        await pilot.press("enter")
+        await ui.settle(pilot)
+        await _export(app, pilot, ui, "csv", tmp_path / "io.csv")
+        # a folder that does not exist: said so, nothing written, the app keeps going
+        await _export(app, pilot, ui, "csv", tmp_path / "nope" / "x.csv")
+        assert any("folder does not exist" in n.message for n in app._notifications)
+    assert not (tmp_path / "nope").exists()
+    lines = [ln for ln in (tmp_path / "io.csv").read_text().splitlines() if not ln.startswith("#")]
+    rows = list(csv.DictReader(lines))
+    expected = synthetic_catalog.count(deck=SYNTHETIC_DECK, where="oxide = io")
+    assert len(rows) == expected > 20  # every row, not just the page on screen
+    assert {r["oxide"] for r in rows} == {"io"}
+
+
+async def test_circuit_text_and_cell_exports_from_the_cell_view(
+        demo_catalog: Any, ui: Any, tmp_path: Path) -> None:
+    app = CelllabApp(catalog=demo_catalog, export_folder=tmp_path)
+    formats = {"json": "json", "touchstone": "s1p", "spice": "sp", "datasheet": "html"}
+    async with app.run_test(size=(120, 40)) as pilot:
+        await ui.settle(pilot)
+        await pilot.press("enter")
+        await ui.settle(pilot)
+        name = app.screen.cell.name  # type: ignore[attr-defined]
+        # the Circuit tab: the equivalent circuit as SPICE-like text
+        circuit = app.screen.query_one("#cell-circuit", TextArea).text
+        assert name in circuit
+        elements = [ln.split() for ln in circuit.splitlines() if ln.strip() and not ln.startswith("*")]
+        assert any(parts[0][0].upper() in "RCL" for parts in elements)
+        for fmt, suffix in formats.items():
+            await _export(app, pilot, ui, fmt, tmp_path / f"out.{suffix}")
+    for fmt, suffix in formats.items():
+        text = (tmp_path / f"out.{suffix}").read_text()
+        assert name in text, fmt
+    assert json.loads((tmp_path / "out.json").read_text())
+    assert any(line.startswith("#") for line in (tmp_path / "out.s1p").read_text().splitlines())
+
+
+def test_ui_verb_is_registered_and_builds_the_app(monkeypatch: pytest.MonkeyPatch, tmp_path: Path) -> None:
+    from celllab.cli import ui as ui_verb
+
+    parser = argparse.ArgumentParser()
+    sub = parser.add_subparsers()
+    ui_verb.register(sub)
+    bad = tmp_path / "bad.toml"
+    bad.write_text("[process]\nname = 'x'\nnode_nm = -5\n")
+    good = Path(__file__).resolve().parents[2] / "process_decks" / "lumen130.toml"
+    args = parser.parse_args(["ui", "--catalog", str(tmp_path / "c.sqlite"), "--deck", str(good), str(bad)])
+    seen: dict[str, Any] = {}
+
+    def fake_run(self: CelllabApp) -> None:
+        seen["app"] = self
+
+    monkeypatch.setattr(CelllabApp, "run", fake_run)
+    assert args.func(args) == 0
+    app = seen["app"]
+    assert list(app.decks) == ["lumen130"]
+    assert [Path(f.path).name for f in app.deck_failures] == ["bad.toml"]
+    assert all(isinstance(f, DeckFailure) for f in app.deck_failures)
+    assert str(app.catalog.path) == str(tmp_path / "c.sqlite")

@@ -1,0 +1,162 @@
+"""Catalog view driven with keys and clicks: filter, sort, pages, columns, corners."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from textual.widgets import OptionList, Select, SelectionList
+
+from celllab.records import METRIC_NAMES
+from celllab.tui.app import CelllabApp
+from celllab.tui.screens.catalog import DEFAULT_COLUMNS, CatalogScreen
+from celllab.tui.widgets.catalog_table import CatalogTable
+from celllab.tui.widgets.filter_bar import FilterBar
+
+from .conftest import N_SYNTHETIC, SYNTHETIC_DECK
+
+
+def _screen(app: CelllabApp) -> CatalogScreen:
+    screen = app.screen
+    assert isinstance(screen, CatalogScreen)
+    return screen
+
+
+async def test_first_page_units_filter_and_filter_errors(synthetic_catalog: Any, ui: Any) -> None:
+    app = CelllabApp(catalog=synthetic_catalog, page_size=50)
+    async with app.run_test(size=(120, 40)) as pilot:
+        await ui.settle(pilot)
+        screen = _screen(app)
+        # one page, never the whole catalog; the same rows the catalog ranks first
+        rows = screen.visible_rows()
+        assert len(rows) == 50 and screen.total == N_SYNTHETIC
+        assert screen.query_one(CatalogTable).row_count == 50
+        expected = synthetic_catalog.query(deck=SYNTHETIC_DECK, corner="worst", limit=50)
+        assert [r["name"] for r in rows] == [r["name"] for r in expected]
+        text = ui.screen_text(app)
+        assert "cap_density_fF_per_um2 ▼" in text and "[fF/um^2]" in text and "[nA/nF]" in text
+        assert f"rows 1–50 of {N_SYNTHETIC}" in text
+
+        # a bad filter is explained under the input; the table stays as it was
+        before = [r["name"] for r in rows]
+        await pilot.press("slash", *"leakag < 5", "enter")
+        await ui.settle(pilot)
+        bar = screen.query_one(FilterBar)
+        assert "unknown name 'leakag'" in bar.error and "leakage_nA" in bar.error
+        assert "unknown name 'leakag'" in ui.screen_text(app)
+        assert [r["name"] for r in screen.visible_rows()] == before
+
+        # a good one narrows the table to exactly what the catalog returns, error gone
+        where = "esd_safe and leakage_nA_per_nF <= 50"
+        await ui.type_text(pilot, where)
+        await pilot.press("enter")
+        await ui.settle(pilot)
+        assert bar.error == ""
+        rows = screen.visible_rows()
+        assert rows and all(r["esd_safe"] and r["leakage_nA_per_nF"] <= 50 for r in rows)
+        assert screen.total == synthetic_catalog.count(deck=SYNTHETIC_DECK, where=where) < N_SYNTHETIC
+        assert app.focused is screen.query_one(CatalogTable)  # enter hands keys back to the table
+
+        # typing alone (no enter) applies once typing pauses
+        await pilot.press("slash")
+        await ui.type_text(pilot, "oxide = io")
+        await ui.settle(pilot)
+        assert {r["oxide"] for r in screen.visible_rows()} == {"io"}
+
+
+async def test_sort_by_picker_reverse_and_header_click(synthetic_catalog: Any, ui: Any) -> None:
+    app = CelllabApp(catalog=synthetic_catalog)
+    async with app.run_test(size=(160, 40)) as pilot:
+        await ui.settle(pilot)
+        screen = _screen(app)
+        await pilot.press("s")
+        await pilot.pause()
+        options = app.screen.query_one(OptionList)
+        ids = [options.get_option_at_index(i).id for i in range(options.option_count)]
+        options.highlighted = ids.index("esr_ohm")
+        await pilot.press("enter")
+        await ui.settle(pilot)
+        values = [r["esr_ohm"] for r in screen.visible_rows()]
+        assert values == sorted(values)  # ESR: lower is better, best first
+        await pilot.press("r")
+        await ui.settle(pilot)
+        values = [r["esr_ohm"] for r in screen.visible_rows()]
+        assert values == sorted(values, reverse=True)
+
+        table = screen.query_one(CatalogTable)
+        index = list(table.columns_shown).index("cap_fF")
+        x = sum(table.ordered_columns[i].get_render_width(table) for i in range(index)) + 3
+        await pilot.click(CatalogTable, offset=(x, 0))
+        await ui.settle(pilot)
+        assert screen.order_by == "cap_fF"
+        values = [r["cap_fF"] for r in screen.visible_rows()]
+        assert values == sorted(values, reverse=True)  # capacitance: higher is better
+
+
+async def test_pages_cover_the_whole_result_in_order(synthetic_catalog: Any, ui: Any) -> None:
+    app = CelllabApp(catalog=synthetic_catalog, page_size=100)
+    async with app.run_test(size=(100, 30)) as pilot:
+        await ui.settle(pilot)
+        screen = _screen(app)
+        table = screen.query_one(CatalogTable)
+        seen: list[str] = []
+        for _ in range(3):
+            seen += [r["name"] for r in screen.visible_rows()]
+            await pilot.press("right_square_bracket")
+            await ui.settle(pilot)
+        everything = synthetic_catalog.query(deck=SYNTHETIC_DECK)
+        assert seen == [r["name"] for r in everything]  # 100 + 100 + 40, in order, no overlap
+        assert table.row_count == N_SYNTHETIC - 200
+        await pilot.press("home")
+        await ui.settle(pilot)
+        assert screen.row_offset == 0
+        # the arrow keys run on past a page's last row and back before its first
+        table.move_cursor(row=99)
+        await pilot.press("down")
+        await ui.settle(pilot)
+        assert screen.row_offset == 100 and table.cursor_row == 0
+        await pilot.press("up")
+        await ui.settle(pilot)
+        assert screen.row_offset == 0 and table.cursor_row == 99
+
+
+async def test_columns_and_corner_choice(synthetic_catalog: Any, ui: Any) -> None:
+    app = CelllabApp(catalog=synthetic_catalog)
+    async with app.run_test(size=(220, 40)) as pilot:
+        await ui.settle(pilot)
+        screen = _screen(app)
+        table = screen.query_one(CatalogTable)
+        await pilot.press("c")
+        await pilot.pause()
+        chooser = app.screen.query_one(SelectionList)
+        chooser.deselect("area_um2")
+        chooser.select("esl_pH")
+        await pilot.press("a")
+        await ui.settle(pilot)
+        assert table.columns_shown == tuple(c for c in DEFAULT_COLUMNS if c != "area_um2") + ("esl_pH",)
+        assert "[pH]" in ui.screen_text(app)
+
+        await pilot.press("o")
+        await pilot.pause()
+        select = screen.query_one("#corner-select", Select)
+        assert select.expanded
+        for corner in ("best", "slow_125C"):
+            select.value = corner
+            await ui.settle(pilot)
+            rows = screen.visible_rows()
+            expected = synthetic_catalog.query(deck=SYNTHETIC_DECK, corner=corner, limit=len(rows))
+            assert [r["cap_fF"] for r in rows] == [r["cap_fF"] for r in expected]
+            assert app.current_corner == corner
+
+        screen.columns = ("name", *METRIC_NAMES)
+        screen.request_page(0, count=False)
+        await ui.settle(pilot)
+        assert table.columns_shown == ("name", *METRIC_NAMES)
+
+
+async def test_empty_catalog_says_how_to_fill_it(tmp_path: Any, ui: Any) -> None:
+    from celllab.catalog import open_catalog
+
+    app = CelllabApp(catalog=open_catalog(tmp_path / "empty.sqlite"))
+    async with app.run_test(size=(100, 30)) as pilot:
+        await ui.settle(pilot)
+        assert "catalog is empty" in ui.screen_text(app)

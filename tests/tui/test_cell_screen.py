@@ -1,0 +1,102 @@
+"""Cell view: metrics at every corner, plots with their markers, circuit text, flags in words."""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+from textual.widgets import DataTable, TabbedContent
+
+from celllab.records import METRIC_NAMES
+from celllab.tui.app import CelllabApp
+from celllab.tui.screens.cell import CellScreen, explain_flag
+from celllab.tui.screens.whatif import WhatIfScreen
+from celllab.tui.widgets.plot import PlotView
+
+from .conftest import CORNERS, SYNTHETIC_DECK
+
+
+async def _open_first(app: CelllabApp, pilot: Any, ui: Any) -> CellScreen:
+    await ui.settle(pilot)
+    await pilot.press("enter")
+    await ui.settle(pilot)
+    screen = app.screen
+    assert isinstance(screen, CellScreen)
+    return screen
+
+
+async def test_cell_view_metrics_plots_and_back(synthetic_catalog: Any, ui: Any) -> None:
+    app = CelllabApp(catalog=synthetic_catalog)
+    async with app.run_test(size=(120, 40)) as pilot:
+        first = synthetic_catalog.query(deck=SYNTHETIC_DECK, limit=1)[0]["name"]
+        screen = await _open_first(app, pilot, ui)
+        cell = screen.cell
+        assert cell is not None and cell.name == first
+
+        # every metric at every corner, as stored
+        table = screen.query_one("#cell-metrics", DataTable)
+        assert table.row_count == len(METRIC_NAMES)
+        assert [str(c.label).split("\n")[0] for c in table.ordered_columns[1:]] == [c[0] for c in CORNERS]
+        stored = synthetic_catalog.cell(first, SYNTHETIC_DECK)
+        slow = stored.corner("slow_125C").metrics["esr_ohm"]
+        assert float(str(table.get_cell("esr_ohm", "slow_125C"))) == float(f"{slow:.4g}")
+        text = ui.screen_text(app)
+        assert first in text and "typ_25C" in text and "cap_density_fF_per_um2" in text
+
+        # C-V with the operating point; |Z| and C_eff on log axes
+        cv = screen.query_one("#plot-cv", PlotView).spec
+        typ = cell.corner("typ_25C").cv
+        assert cv is not None and len(cv.markers) == 1
+        assert cv.markers[0].x == typ.operating_bias_V
+        assert np.isclose(cv.markers[0].y, typ.operating_cap_F * 1e15)  # plotted in fF
+        z = screen.query_one("#plot-z", PlotView).spec
+        ceff = screen.query_one("#plot-ceff", PlotView).spec
+        assert z.x_log and z.y_log and ceff.x_log and len(z.series) == len(CORNERS)
+        # C_eff = -1/(w Im Z) of a series R-C branch is C at every frequency
+        # Source: circuit theory, Z = R + 1/(jwC) => Im Z = -1/(wC); exact
+        cap_fF = cell.corner("typ_25C").metrics["cap_fF"]
+        ceff_typ = [s for s in ceff.series if s.label == "typ_25C"][0]
+        assert np.allclose(ceff_typ.y, cap_fF, rtol=1e-9)
+
+        await pilot.press("right_square_bracket")  # C-V tab
+        await ui.settle(pilot)
+        assert screen.query_one(TabbedContent).active == "tab-cv"
+        text = ui.screen_text(app)
+        assert "◆ operating point" in text and "V_gb [V]" in text
+        await pilot.press("right_square_bracket")  # |Z|(f) tab
+        await ui.settle(pilot)
+        text = ui.screen_text(app)
+        assert "1G" in text and "10M" in text  # decade ticks on the frequency axis
+
+        await pilot.press("escape")
+        await ui.settle(pilot)
+        assert type(app.screen).__name__ == "CatalogScreen"
+
+
+async def test_flags_in_words_and_unknown_cells(synthetic_catalog: Any, ui: Any) -> None:
+    app = CelllabApp(catalog=synthetic_catalog)
+    flagged = "syn_nmos_0000"  # the synthetic builder flags every 7th cell at every corner
+    async with app.run_test(size=(120, 40)) as pilot:
+        await ui.settle(pilot)
+        app.push_screen(CellScreen(flagged, SYNTHETIC_DECK))
+        await ui.settle(pilot)
+        app.screen.query_one(TabbedContent).active = "tab-flags"
+        await ui.settle(pilot)
+        words = " ".join(ui.screen_text(app).split())  # table cells wrap over lines
+        assert "weak_channel all Overdrive below 0.2 V" in words
+        assert "ESR, tau and bandwidth are the least certain" in words
+        app.push_screen(CellScreen("no_such_cell", SYNTHETIC_DECK))
+        await ui.settle(pilot)
+        assert "cannot open no_such_cell" in ui.screen_text(app)
+        # the synthetic deck holds no full parameter set: a what-if says why it cannot run
+        app.push_screen(WhatIfScreen(flagged, SYNTHETIC_DECK))
+        await ui.settle(pilot)
+        words = " ".join(ui.screen_text(app).split())
+        assert f"cannot edit {flagged}" in words and "required field is missing" in words
+
+
+def test_explain_flag_keeps_the_engine_sentence_and_adds_the_consequence() -> None:
+    words = explain_flag("srf_beyond_sweep: no self-resonance below 1 THz; value is a lower bound")
+    assert words.startswith("No self-resonance below 1 THz")
+    assert "'at least'" in words
+    assert explain_flag("odd_code") == "Odd code."

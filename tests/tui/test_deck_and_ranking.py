@@ -1,0 +1,119 @@
+"""Deck view (parameters with units, corners, a bad deck's located problems) and ranking view."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Any
+
+import pytest
+from textual.widgets import DataTable, OptionList, Select
+
+from celllab.deck import load_deck
+from celllab.errors import DeckError
+from celllab.tui.app import CelllabApp, DeckFailure
+from celllab.tui.screens.deck import DeckScreen, describe_deck_path, unit_of
+from celllab.tui.screens.ranking import RankingScreen
+from celllab.tui.widgets.catalog_table import CatalogTable
+from celllab.tui.widgets.plot import PlotView
+
+from .conftest import DECK_DIR, SYNTHETIC_DECK
+
+
+@pytest.fixture
+def bad_deck(tmp_path: Path) -> DeckFailure:
+    text = (DECK_DIR / "lumen130.toml").read_text()
+    text = text.replace("t_ox_nm = 2.2", "t_ox_nm = -2.2", 1)
+    path = tmp_path / "broken.toml"
+    path.write_text(text)
+    with pytest.raises(DeckError) as caught:
+        load_deck(path)
+    return DeckFailure.from_error(path, caught.value)
+
+
+@pytest.mark.parametrize(("path", "unit"), [
+    ("oxides.core.t_ox_nm", "nm"), ("wells.pwell_doping_cm3", "cm^-3"),
+    ("oxides.core.nmos.mu0_cm2_per_Vs", "cm^2/(V s)"), ("supplies.core_V", "V"),
+    ("metals[0].sheet_ohm_per_sq", "ohm/sq"), ("oxides.core.reliability.weibull_beta", "unitless"),
+    ("oxides.io.reliability.activation_energy_eV", "eV"),
+])
+def test_units_come_from_the_deck_schema(path: str, unit: str) -> None:
+    assert unit_of(path, describe_deck_path(path)) == unit
+
+
+async def test_deck_view_parameters_corners_and_a_bad_deck(
+        lumen130_deck: Any, bad_deck: DeckFailure, synthetic_catalog: Any, ui: Any) -> None:
+    app = CelllabApp(catalog=synthetic_catalog, deck=lumen130_deck, deck_failures=[bad_deck])
+    async with app.run_test(size=(120, 40)) as pilot:
+        await ui.settle(pilot)
+        # the app opened on the catalog and says where to look
+        assert type(app.screen).__name__ == "CatalogScreen"
+        assert any("Decks (3)" in n.message for n in app._notifications)
+        await pilot.press("3")
+        await ui.settle(pilot)
+        screen = app.screen
+        assert isinstance(screen, DeckScreen)
+        words = " ".join(ui.screen_text(app).split())
+        assert "broken.toml" in words and "did not load" in words
+        problem = bad_deck.problems[0]
+        assert problem.line is not None
+        assert f"broken.toml:{problem.line}" in words
+        assert "oxides.core.t_ox_nm = -2.2" in words
+
+        await pilot.press("down")  # the deck file
+        await ui.settle(pilot)
+        params = screen.query_one("#deck-params", DataTable)
+        row = params.get_row("oxides.core.t_ox_nm")
+        assert str(row[1]) == "2.2" and row[2] == "nm"
+        corners = screen.query_one("#deck-corners", DataTable)
+        assert corners.row_count == len(lumen130_deck.corner_names())
+        assert "invented demo data" in ui.screen_text(app)
+        listing = screen.query_one(OptionList)
+        ids = [listing.get_option_at_index(i).id for i in range(listing.option_count)]
+        assert ids == ["bad:" + bad_deck.path, "file:lumen130", f"catalog:{SYNTHETIC_DECK}"]
+
+
+async def test_ranking_orders_by_the_metric_and_marks_the_pareto_front(
+        synthetic_catalog: Any, ui: Any) -> None:
+    app = CelllabApp(catalog=synthetic_catalog)
+    async with app.run_test(size=(140, 44)) as pilot:
+        await ui.settle(pilot)
+        await pilot.click("#taskbar", offset=(25, 0))  # the task bar is clickable: "2 Ranking"
+        await ui.settle(pilot)
+        screen = app.screen
+        assert isinstance(screen, RankingScreen)
+        await pilot.press("slash")
+        await ui.type_text(pilot, "esd_safe")
+        await pilot.press("enter")
+        await ui.settle(pilot)
+        ranked = screen.ranked_rows()
+        values = [r["cap_density_fF_per_um2"] for r in ranked]
+        assert values == sorted(values, reverse=True) and all(r["esd_safe"] for r in ranked)
+        front = synthetic_catalog.pareto(["cap_density_fF_per_um2", "leakage_nA_per_nF"],
+                                         deck=SYNTHETIC_DECK, where="esd_safe")
+        assert {r["name"] for r in screen.front} == {r["name"] for r in front}
+        spec = screen.query_one(PlotView).spec
+        assert len(spec.markers) == len(front)
+        # no candidate beats a front point in both metrics (denser and less leaky)
+        for f in screen.front:
+            assert not any(r["cap_density_fF_per_um2"] > f["cap_density_fF_per_um2"]
+                           and r["leakage_nA_per_nF"] < f["leakage_nA_per_nF"]
+                           for r in synthetic_catalog.query(deck=SYNTHETIC_DECK, where="esd_safe"))
+        assert "●" in ui.screen_text(app)
+
+        # another ranking metric, then enter opens the best cell
+        await pilot.press("m")
+        await pilot.pause()
+        select = screen.query_one("#rank-by", Select)
+        assert select.expanded
+        select.value = "esr_ohm"
+        await ui.settle(pilot)
+        values = [r["esr_ohm"] for r in screen.ranked_rows()]
+        assert values == sorted(values)
+        screen.query_one(CatalogTable).focus()
+        await pilot.press("enter")
+        await ui.settle(pilot)
+        assert type(app.screen).__name__ == "CellScreen"
+        assert app.screen.cell.name == screen.ranked_rows()[0]["name"]  # type: ignore[attr-defined]
+        await pilot.press("escape", "1")  # back to the ranking, then the catalog task
+        await ui.settle(pilot)
+        assert type(app.screen).__name__ == "CatalogScreen"

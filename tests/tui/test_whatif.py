@@ -1,0 +1,178 @@
+"""What-if editor: live recompute in a worker, validation, nothing stored until saved."""
+
+from __future__ import annotations
+
+from typing import Any
+
+import pytest
+from textual.widgets import Input
+
+from celllab.engine import characterize
+from celllab.tui.app import CelllabApp
+from celllab.tui.screens.save_variant import SaveVariantDialog
+from celllab.tui.screens.whatif import (
+    WhatIfScreen,
+    deck_changes,
+    geometry_changes,
+    parse_field_text,
+    spec_from_result,
+)
+from celllab.tui.widgets.problems_view import ProblemsView
+
+CELL = "lm_ncap-w8-h1-f2"
+DECK = "lumen130"
+
+
+async def _open_whatif(app: CelllabApp, pilot: Any, ui: Any) -> WhatIfScreen:
+    await ui.settle(pilot)
+    await pilot.press("slash")
+    await ui.type_text(pilot, f'name = "{CELL}"')
+    await pilot.press("enter")
+    await ui.settle(pilot)
+    await pilot.press("w")
+    await ui.settle(pilot)
+    screen = app.screen
+    assert isinstance(screen, WhatIfScreen) and screen.spec is not None
+    return screen
+
+
+async def _type_into(pilot: Any, screen: WhatIfScreen, input_id: str, text: str) -> None:
+    from textual.widgets import Input
+
+    screen.query_one(f"#{input_id}", Input).focus()
+    await pilot.pause()
+    await pilot.press("ctrl+a", "ctrl+k", *text)  # short values: typed key by key
+
+
+async def test_edits_recompute_like_the_engine_invalid_ones_are_explained(
+        demo_catalog: Any, ui: Any) -> None:
+    app = CelllabApp(catalog=demo_catalog, debounce_s=0.05)
+    before = demo_catalog.count(deck=DECK)
+    async with app.run_test(size=(120, 40)) as pilot:
+        screen = await _open_whatif(app, pilot, ui)
+        await _type_into(pilot, screen, "geo-width_sites", "16")
+        await ui.settle(pilot)
+        assert screen.variant is not None and screen.problems == []
+        deck = app.deck_named(DECK)
+        expected = characterize(deck, [screen.spec.with_changes({"width_sites": 16}, deck)]).cells[0]
+        shown = screen.comparison()
+        worst_cap = min(c.metrics["cap_fF"] for c in expected.corners)
+        assert shown["cap_fF"][1] == pytest.approx(worst_cap, rel=1e-12)
+        assert shown["cap_fF"][1] > shown["cap_fF"][0]  # twice the width, more capacitance
+        assert demo_catalog.count(deck=DECK) == before  # nothing stored yet
+
+        # an invalid value: the model's own rule, shown at the field; nothing computed
+        await _type_into(pilot, screen, "geo-width_sites", "0")
+        await ui.settle(pilot)
+        assert screen.variant is None
+        assert any("width_sites" in p.field for p in screen.problems)
+        text = str(screen.query_one(ProblemsView).render())
+        assert "width_sites" in text and "must be >= 1" in text
+        assert screen.query_one("#geo-width_sites", Input).has_class("-invalid-field")
+        await pilot.press("ctrl+s")
+        await ui.settle(pilot)
+        assert not isinstance(app.screen, SaveVariantDialog)  # nothing valid to save
+
+        # reset drops every change
+        await _type_into(pilot, screen, "geo-fingers", "3")
+        await ui.settle(pilot)
+        await pilot.press("ctrl+r")
+        await ui.settle(pilot)
+        assert screen.variant is None and screen.geometry_edits == {}
+    assert demo_catalog.count(deck=DECK) == before
+
+
+async def _save_as(app: CelllabApp, pilot: Any, ui: Any, name: str) -> None:
+    await pilot.press("ctrl+s")
+    await ui.settle(pilot)
+    assert isinstance(app.screen, SaveVariantDialog)
+    await ui.type_text(pilot, name)
+    await pilot.press("enter")
+    await ui.settle(pilot)
+
+
+async def test_saving_a_variant_through_the_catalog(demo_catalog: Any, ui: Any) -> None:
+    app = CelllabApp(catalog=demo_catalog, debounce_s=0.05)
+    before = demo_catalog.count(deck=DECK)
+    async with app.run_test(size=(120, 40)) as pilot:
+        screen = await _open_whatif(app, pilot, ui)
+        # the demo family already holds four fingers: the same cell is not stored twice
+        await _type_into(pilot, screen, "geo-fingers", "4")
+        await ui.settle(pilot)
+        await _save_as(app, pilot, ui, "my_copy")
+        assert screen.saved_as is None
+        assert any("lm_ncap-w8-h1-f4" in p.message for p in screen.problems)
+        # a new geometry under a name the catalog already uses is refused
+        await _type_into(pilot, screen, "geo-fingers", "3")
+        await ui.settle(pilot)
+        await _save_as(app, pilot, ui, "lm_ncap-w8-h1-f1")
+        assert screen.saved_as is None
+        assert any("already in the catalog" in p.message for p in screen.problems)
+        # a new name: stored
+        await _save_as(app, pilot, ui, "lm_ncap-w8-h1-f3-mine")
+        assert screen.saved_as == ("lm_ncap-w8-h1-f3-mine", DECK)
+    assert demo_catalog.count(deck=DECK) == before + 1
+    stored = demo_catalog.cell("lm_ncap-w8-h1-f3-mine", DECK)
+    deck = app.deck_named(DECK)
+    spec = spec_from_result(demo_catalog.cell(CELL, DECK)).with_changes({"fingers": 3}, deck,
+                                                                        name="lm_ncap-w8-h1-f3-mine")
+    expected = characterize(deck, [spec]).cells[0]
+    assert stored.geometry["fingers"] == 3
+    for corner in expected.corners:
+        assert stored.corner(corner.corner).metrics["cap_fF"] == pytest.approx(corner.metrics["cap_fF"])
+    # the cells it came from are untouched and still current
+    assert demo_catalog.cell(CELL, DECK).geometry["fingers"] == 2
+    assert demo_catalog.cell("lm_ncap-w8-h1-f1", DECK).geometry["fingers"] == 1
+
+
+async def test_deck_parameter_what_if_is_saved_under_a_new_deck(demo_catalog: Any, ui: Any) -> None:
+    app = CelllabApp(catalog=demo_catalog, debounce_s=0.05)
+    async with app.run_test(size=(120, 40)) as pilot:
+        screen = await _open_whatif(app, pilot, ui)
+        path_input = screen.query_one("#deck-path", Input)
+        path_input.focus()
+        await pilot.pause()
+        await ui.type_text(pilot, "oxides.core.t_ox_nm")
+        await pilot.press("enter", *"-1", "enter")  # enter moves on to the value
+        await ui.settle(pilot)
+        assert screen.variant is None
+        assert any("t_ox_nm" in p.field for p in screen.problems)
+
+        path_input.focus()
+        await pilot.pause()
+        await ui.type_text(pilot, "oxides.core.t_ox_nm")
+        await pilot.press("enter", *"1.8", "enter")
+        await ui.settle(pilot)
+        assert screen.deck_edits == {"oxides.core.t_ox_nm": 1.8}
+        # thinner oxide, more capacitance: C_ox = eps_ox / t_ox
+        # Source: Sze & Ng 2007, MOS capacitor oxide capacitance (direction only)
+        cap_before, cap_after = screen.comparison()["cap_fF"]
+        assert cap_after > cap_before
+        await pilot.press("ctrl+s")
+        await ui.settle(pilot)
+        assert isinstance(app.screen, SaveVariantDialog)
+        await pilot.press("enter")  # default names: <cell>_wi1 under deck lumen130-wi
+        await ui.settle(pilot)
+        assert screen.saved_as == (f"{CELL}_wi1", f"{DECK}-wi")
+    decks = {d.name: d for d in demo_catalog.decks()}
+    assert decks[DECK].current and decks[f"{DECK}-wi"].current
+    assert demo_catalog.deck_params(f"{DECK}-wi")["oxides"]["core"]["t_ox_nm"] == 1.8
+    assert demo_catalog.count(deck=f"{DECK}-wi") == 1
+
+
+@pytest.mark.parametrize(("text", "annotation", "value"), [
+    ("", int, None), ("auto", float, None), ("12", int, 12), ("0.35", float | None, 0.35),
+    ("true", bool, True), ("no", bool, False), ("M4", str | None, "M4"), ("1e-3", float, 1e-3),
+])
+def test_parse_field_text(text: str, annotation: Any, value: Any) -> None:
+    assert parse_field_text(text, annotation) == value
+
+
+def test_geometry_changes_lists_only_what_differs(lumen130_deck: Any) -> None:
+    from celllab.cells import CellSpec
+
+    spec = CellSpec(name="x", topology="nmos_inversion", width_sites=8, fingers=2)
+    changes = geometry_changes(spec, {"width_sites": "8", "fingers": "3", "gate_length_um": ""})
+    assert changes == {"fingers": 3}
+    assert deck_changes({"oxides.core.t_ox_nm": "2.5", "supplies.core_V": "x"}) == {
+        "oxides.core.t_ox_nm": 2.5, "supplies.core_V": "x"}
