@@ -28,7 +28,7 @@ carriers, as in a decap. Use ``hf_min_capacitance`` only for an isolated MOS cap
 
 from __future__ import annotations
 
-from typing import Literal, NamedTuple
+from typing import Literal, NamedTuple, TypedDict, Unpack
 
 import numpy as np
 from numpy.typing import ArrayLike
@@ -544,137 +544,46 @@ def mos_operating_point(
     )
 
 
-def solve_surface_potential(
-    vg: ArrayLike,
-    *,
-    vfb: ArrayLike,
-    cox: ArrayLike,
-    body_doping: ArrayLike,
-    body_type: BodyType | ArrayLike,
-    temperature: ArrayLike,
-    gate_doping: ArrayLike | None = np.inf,
-    gate_type: GateType | ArrayLike | None = None,
-    centroid: bool = True,
-    n_i: ArrayLike | None = None,
-    eps_r_si: ArrayLike = EPS_R_SI,
-    eps_r_gate: ArrayLike = EPS_R_POLY,
-) -> FloatArray:
-    """Exact surface band bending psi_s(Vg), V (signed). See ``mos_operating_point``."""
-    return mos_operating_point(
-        vg,
-        vfb=vfb,
-        cox=cox,
-        body_doping=body_doping,
-        body_type=body_type,
-        temperature=temperature,
-        gate_doping=gate_doping,
-        gate_type=gate_type,
-        centroid=centroid,
-        n_i=n_i,
-        eps_r_si=eps_r_si,
-        eps_r_gate=eps_r_gate,
-    ).psi_s
+class MosInputs(TypedDict, total=False):
+    """Keyword arguments shared by ``mos_operating_point`` and its one-field wrappers."""
+
+    vfb: ArrayLike
+    cox: ArrayLike
+    body_doping: ArrayLike
+    body_type: BodyType | ArrayLike
+    temperature: ArrayLike
+    gate_doping: ArrayLike | None
+    gate_type: GateType | ArrayLike | None
+    centroid: bool
+    n_i: ArrayLike | None
+    eps_r_si: ArrayLike
+    eps_r_gate: ArrayLike
 
 
-def mos_capacitance_per_area(
-    vg: ArrayLike,
-    *,
-    vfb: ArrayLike,
-    cox: ArrayLike,
-    body_doping: ArrayLike,
-    body_type: BodyType | ArrayLike,
-    temperature: ArrayLike,
-    gate_doping: ArrayLike | None = np.inf,
-    gate_type: GateType | ArrayLike | None = None,
-    centroid: bool = True,
-    n_i: ArrayLike | None = None,
-    eps_r_si: ArrayLike = EPS_R_SI,
-    eps_r_gate: ArrayLike = EPS_R_POLY,
-) -> FloatArray:
+def solve_surface_potential(vg: ArrayLike, **inputs: Unpack[MosInputs]) -> FloatArray:
+    """Exact surface band bending psi_s(Vg), V (signed). Arguments as ``mos_operating_point``."""
+    return mos_operating_point(vg, **inputs).psi_s
+
+
+def mos_capacitance_per_area(vg: ArrayLike, **inputs: Unpack[MosInputs]) -> FloatArray:
     """Quasi-static gate capacitance per area dQ_gate/dVg, F/m^2: oxide, poly depletion, centroid
-    and semiconductor in series, self-consistently. See ``mos_operating_point``."""
-    return mos_operating_point(
-        vg,
-        vfb=vfb,
-        cox=cox,
-        body_doping=body_doping,
-        body_type=body_type,
-        temperature=temperature,
-        gate_doping=gate_doping,
-        gate_type=gate_type,
-        centroid=centroid,
-        n_i=n_i,
-        eps_r_si=eps_r_si,
-        eps_r_gate=eps_r_gate,
-    ).capacitance
+    and semiconductor in series, self-consistently. Arguments as ``mos_operating_point``."""
+    return mos_operating_point(vg, **inputs).capacitance
 
 
-def gate_charge_per_area(
-    vg: ArrayLike,
-    *,
-    vfb: ArrayLike,
-    cox: ArrayLike,
-    body_doping: ArrayLike,
-    body_type: BodyType | ArrayLike,
-    temperature: ArrayLike,
-    gate_doping: ArrayLike | None = np.inf,
-    gate_type: GateType | ArrayLike | None = None,
-    centroid: bool = True,
-    n_i: ArrayLike | None = None,
-    eps_r_si: ArrayLike = EPS_R_SI,
-    eps_r_gate: ArrayLike = EPS_R_POLY,
-) -> FloatArray:
-    """Signed gate charge per area Q_gate(Vg), C/m^2. See ``mos_operating_point``."""
-    return mos_operating_point(
-        vg,
-        vfb=vfb,
-        cox=cox,
-        body_doping=body_doping,
-        body_type=body_type,
-        temperature=temperature,
-        gate_doping=gate_doping,
-        gate_type=gate_type,
-        centroid=centroid,
-        n_i=n_i,
-        eps_r_si=eps_r_si,
-        eps_r_gate=eps_r_gate,
-    ).q_gate
+def gate_charge_per_area(vg: ArrayLike, **inputs: Unpack[MosInputs]) -> FloatArray:
+    """Signed gate charge per area Q_gate(Vg), C/m^2. Arguments as ``mos_operating_point``."""
+    return mos_operating_point(vg, **inputs).q_gate
 
 
-def mobile_charge_per_area(
-    vg: ArrayLike,
-    *,
-    vfb: ArrayLike,
-    cox: ArrayLike,
-    body_doping: ArrayLike,
-    body_type: BodyType | ArrayLike,
-    temperature: ArrayLike,
-    gate_doping: ArrayLike | None = np.inf,
-    gate_type: GateType | ArrayLike | None = None,
-    centroid: bool = True,
-    n_i: ArrayLike | None = None,
-    eps_r_si: ArrayLike = EPS_R_SI,
-    eps_r_gate: ArrayLike = EPS_R_POLY,
-) -> FloatArray:
+def mobile_charge_per_area(vg: ArrayLike, **inputs: Unpack[MosInputs]) -> FloatArray:
     """Magnitude of the mobile (inversion, or accumulation beyond flat band) charge, C/m^2.
 
     Notes
     -----
     Inversion: |Q_inv| = |Q_s| - |Q_dep| with Q_dep from the majority-carrier term of F alone
     (charge-sheet split of the exact F-function). Accumulation: the whole |Q_s|. This is the
-    charge that carries channel current (``channel.channel_sheet_resistance``).
+    charge that carries channel current (``channel.channel_sheet_resistance``). Arguments as
+    ``mos_operating_point``.
     """
-    return mos_operating_point(
-        vg,
-        vfb=vfb,
-        cox=cox,
-        body_doping=body_doping,
-        body_type=body_type,
-        temperature=temperature,
-        gate_doping=gate_doping,
-        gate_type=gate_type,
-        centroid=centroid,
-        n_i=n_i,
-        eps_r_si=eps_r_si,
-        eps_r_gate=eps_r_gate,
-    ).q_mobile
+    return mos_operating_point(vg, **inputs).q_mobile
