@@ -8,6 +8,21 @@ import pytest
 
 from celllab.deck import Deck, load_deck
 
+_approx = pytest.approx
+
+
+def _approx_no_default_abs(expected, rel=None, abs=None, nan_ok=False):  # type: ignore[no-untyped-def]
+    """pytest.approx without its default absolute tolerance of 1e-12.
+
+    SI capacitances (1e-15 F) and inductances (1e-12 H) sit below that default, where a plain
+    ``approx`` would accept any value; here a comparison is relative unless a test asks for abs.
+    """
+    return _approx(expected, rel=rel if rel is not None else (None if abs is not None else 1e-6),
+                   abs=abs if abs is not None else 0.0, nan_ok=nan_ok)
+
+
+pytest.approx = _approx_no_default_abs  # applies to every test module (imported after conftest)
+
 REPO_ROOT = Path(__file__).resolve().parent.parent
 DECK_DIR = REPO_ROOT / "process_decks"
 #: The invented demo processes; each has process_decks/NAME.toml and process_decks/cells/NAME_cells.toml.
