@@ -595,6 +595,7 @@ def load_cell(db: sqlite_utils.Database, cell_id: int) -> CellResult:
         gate_area_um2=_nan(c["gate_area_um2"]),
         esd_safe=bool(c["esd_safe"]),
         corners=corners,
-        netlist=circuits or None,
+        # in the run's corner order, so "the first circuit" is the first (typical) corner
+        netlist={c.corner: circuits[c.corner] for c in corners if c.corner in circuits} or None,
         notes=list(json.loads(c["notes_json"])),
     )

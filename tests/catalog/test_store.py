@@ -216,3 +216,17 @@ def test_equivalent_circuits_round_trip_per_corner(tmp_path) -> None:
         f = np.logspace(6, 11, 30)
         for corner, net in original.netlist.items():
             np.testing.assert_allclose(solve_impedance(back.netlist[corner], f), solve_impedance(net, f), rtol=1e-12)
+
+
+def test_circuits_come_back_in_the_run_corner_order(tmp_path) -> None:
+    from celllab.catalog import open_catalog
+    from celllab.cells import CellSpec
+    from celllab.deck import load_deck
+    from celllab.engine import characterize
+
+    deck = load_deck("process_decks/lumen130.toml")
+    run = characterize(deck, [CellSpec(name="n", topology="nmos_inversion", width_sites=8)])
+    cat = open_catalog(tmp_path / "c.sqlite")
+    cat.store_run(run)
+    back = cat.cell("n")
+    assert list(back.netlist) == [c.corner for c in back.corners] == deck.corner_names()
