@@ -128,11 +128,22 @@ def characterize_mos(corners: CornerSet, oxides: np.ndarray, roles: np.ndarray, 
     distinct combination and scattered back to the variants.
     """
     supply = np.broadcast_to(np.asarray(supply, dtype=float), (len(oxides), len(corners.names)))
-    keys = np.array([f"{o}|{r}|" + ",".join(f"{v:.12g}" for v in row) for o, r, row in zip(oxides, roles, supply)])
-    _, first, inverse = np.unique(keys, return_index=True, return_inverse=True)
+    _, ox_code = np.unique(np.asarray(oxides, dtype=str), return_inverse=True)
+    _, role_code = np.unique(np.asarray(roles, dtype=str), return_inverse=True)
+    rows = np.column_stack([ox_code.reshape(-1), role_code.reshape(-1), supply])
+    _, first, inverse = np.unique(rows, axis=0, return_index=True, return_inverse=True)
     inverse = inverse.reshape(-1)
     per_area = _per_area(corners, oxides[first], roles[first], supply[first])
     return _assemble(corners, oxides, roles, geo, supply, {k: v[inverse] for k, v in per_area.items()})
+
+
+def _operating_point(vg: np.ndarray, kwargs: dict, centroid: np.ndarray) -> mos_cv.MosOperatingPoint:  # type: ignore[type-arg]
+    """``mos_operating_point`` with the centroid correction switched per element."""
+    on = mos_cv.mos_operating_point(vg, **kwargs, centroid=True)
+    if np.all(centroid):
+        return on
+    off = mos_cv.mos_operating_point(vg, **kwargs, centroid=False)
+    return mos_cv.MosOperatingPoint(*(np.where(centroid, a, b) for a, b in zip(on, off)))
 
 
 def _per_area(corners: CornerSet, oxides: np.ndarray, roles: np.ndarray, supply: np.ndarray) -> dict[str, np.ndarray]:
@@ -148,7 +159,7 @@ def _per_area(corners: CornerSet, oxides: np.ndarray, roles: np.ndarray, supply:
     body_doping = cm3(np.where(body == "p", doping_p, doping_n))
     gate_doping_cm3 = corners.oxide_table("gate_doping_cm3", oxides)
     gate_doping = np.where(np.isnan(gate_doping_cm3), np.inf, cm3(np.nan_to_num(gate_doping_cm3, nan=1.0)))
-    centroid = bool(np.all(corners.oxide_table("centroid_model", oxides) > 0.5))
+    centroid = corners.oxide_table("centroid_model", oxides) > 0.5   # per oxide flavour
     cet_adder = corners.oxide_table("cet_adder_nm", oxides)
     use_adder = ~np.isnan(cet_adder)
     vfb = _flatband(corners, oxides, roles, cox, body_doping, temperature)
@@ -156,20 +167,20 @@ def _per_area(corners: CornerSet, oxides: np.ndarray, roles: np.ndarray, supply:
     sign = _per_role(roles, _BIAS_SIGN).astype(float)
     v_gb = sign * supply
     kwargs = dict(vfb=vfb, cox=cox, body_doping=body_doping, body_type=body, temperature=temperature,
-                  gate_doping=gate_doping, gate_type=gate_type, centroid=centroid)
-    op = mos_cv.mos_operating_point(v_gb, **kwargs)
+                  gate_doping=gate_doping, gate_type=gate_type)
+    op = _operating_point(v_gb, kwargs, centroid & ~use_adder)
     c_area = op.capacitance
-    if np.any(use_adder):  # a fixed CET adder replaces the centroid model where the deck gives one
-        op_nc = mos_cv.mos_operating_point(v_gb, **{**kwargs, "centroid": False})
-        c_adder = epsilon_0 * 11.7 / np.where(use_adder, cet_adder * 1e-9 * 11.7 / EPS_R_SIO2, 1.0)
-        c_alt = 1.0 / (1.0 / op_nc.capacitance + 1.0 / c_adder)
-        c_area = np.where(use_adder, c_alt, c_area)
+    if np.any(use_adder):  # a fixed CET adder (SiO2-equivalent nm) replaces the centroid model
+        c_adder = EPS_R_SIO2 * epsilon_0 / np.where(use_adder, cet_adder * 1e-9, 1.0)
+        c_area = np.where(use_adder, 1.0 / (1.0 / op.capacitance + 1.0 / c_adder), c_area)
 
     frac = np.linspace(-CV_SPAN, CV_SPAN, N_BIAS)
     cv_bias = (np.abs(supply)[..., None] * frac)  # signed V_GB sweep around zero
-    cv_op = mos_cv.mos_operating_point(cv_bias, **{k: (np.asarray(v)[..., None] if isinstance(v, np.ndarray) else v)
-                                                    for k, v in kwargs.items()})
+    cv_op = _operating_point(cv_bias, {k: (np.asarray(v)[..., None] if isinstance(v, np.ndarray) else v)
+                                       for k, v in kwargs.items()}, (centroid & ~use_adder)[..., None])
     cv_area = cv_op.capacitance
+    if np.any(use_adder):
+        cv_area = np.where(use_adder[..., None], 1.0 / (1.0 / cv_area + 1.0 / c_adder[..., None]), cv_area)
     v_ov = op.q_mobile / cox
     mu0 = cm2_per_Vs(_role_table(corners, oxides, roles, "mu0_cm2_per_Vs"))
     theta = _role_table(corners, oxides, roles, "theta_per_V")

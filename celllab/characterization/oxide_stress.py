@@ -7,7 +7,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.constants import centi, micro, zero_Celsius
 
-from celllab.characterization.params import CornerSet
+from celllab.characterization.params import CornerSet, _table
 from celllab.physics import esd, leakage, tddb
 
 #: Failure fraction at which the catalog quotes oxide life (0.01 %).
@@ -33,7 +33,6 @@ def oxide_stress(corners: CornerSet, oxides: np.ndarray, v_ox: np.ndarray, v_gat
     (the reliability reference voltages are applied gate voltages), ``gate_area`` m^2.
     """
     eot = corners.oxide_table("eot_m", oxides)
-    t_phys = corners.oxide_table("physical_thickness_m", oxides)
     temperature = corners.temperature_K[None, :]
 
     def lk(attr: str) -> np.ndarray:
@@ -63,18 +62,12 @@ def oxide_stress(corners: CornerSet, oxides: np.ndarray, v_ox: np.ndarray, v_gat
         ttf = np.where(mask, t, ttf)
     e_bd_pulse = corners.oxide_table("breakdown_field_pulse_MV_per_cm", oxides) * _MV_PER_CM
     vbd = esd.pulse_breakdown_voltage(eot, e_bd_pulse)
-    del t_phys
     return OxideStress(leakage_A=j * gate_area, e_ox_V_per_m=np.abs(v_ox) / eot, ttf_s=ttf, vbd_pulse_V=vbd)
 
 
 def _sub_table(corners: CornerSet, oxides: np.ndarray, group: str, attr: str) -> np.ndarray:
-    from celllab.characterization.params import _table
-
     return _table(corners.decks, oxides, lambda ox: getattr(getattr(ox, group), attr))
 
 
 def _sub_table_str(corners: CornerSet, oxides: np.ndarray, group: str, attr: str) -> np.ndarray:
-    flavours = sorted(set(oxides.tolist()))
-    index = np.array([flavours.index(o) for o in oxides])
-    values = np.array([[getattr(getattr(d.oxides[f], group), attr) for d in corners.decks] for f in flavours])
-    return values[index]
+    return _table(corners.decks, oxides, lambda ox: getattr(getattr(ox, group), attr), dtype=str)

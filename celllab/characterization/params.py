@@ -58,14 +58,17 @@ class CornerSet:
         return np.array([[getter(d) for d in self.decks]], dtype=float)
 
 
-def _table(decks: list[Deck], oxides: np.ndarray, getter: Any) -> np.ndarray:
-    # Per-oxide lookup then fancy indexing: the loop runs over corners x oxide flavours (a handful),
-    # never over variants.
-    flavours = sorted(set(oxides.tolist()))
-    index = np.array([flavours.index(o) for o in oxides])
-    values = np.array([[np.nan if getter(d.oxides[f]) is None else getter(d.oxides[f]) for d in decks]
-                       for f in flavours], dtype=float)
-    return values[index]
+def _table(decks: list[Deck], oxides: np.ndarray, getter: Any, dtype: Any = float) -> np.ndarray:
+    """(n_variant, n_corner) of ``getter(oxide flavour)``; None becomes NaN for numbers.
+
+    Per-flavour lookup then fancy indexing: the loop runs over corners x oxide flavours (a
+    handful), never over variants.
+    """
+    flavours, index = np.unique(np.asarray(oxides, dtype=str), return_inverse=True)
+    values = [[getter(d.oxides[str(f)]) for d in decks] for f in flavours]
+    if dtype is float:
+        values = [[np.nan if v is None else v for v in row] for row in values]
+    return np.array(values, dtype=dtype)[index.reshape(-1)]
 
 
 def eot_m(ox: OxideFlavour) -> float:

@@ -21,7 +21,6 @@ from celllab.physics import circuits, impedance, inductance
 from celllab.physics.netlist import Netlist, solve_impedance
 
 ESR_PROBE_HZ = 1.0e9
-ESR_CONDITION = 1.0e5
 
 
 @dataclass
@@ -62,14 +61,6 @@ def _solve(net: Netlist, freq: np.ndarray, n_v: int, n_c: int) -> tuple[np.ndarr
     if z.shape[0] == 1 and n_v * n_c > 1:
         z = np.broadcast_to(z, (n_v * n_c, z.shape[-1]))
     summary = impedance.summarize(freq, z, esr_freqs_Hz=(ESR_PROBE_HZ,))
-    # Re Z at 100 kHz is a small difference of a ~1e9 ohm reactance; read the low-frequency ESR
-    # at the first frequency where |X| < ESR_CONDITION x R (still omega R C < 1e-5, so the
-    # distributed line's ESR has not moved), which keeps the solve's rounding below 1e-5 R.
-    ratio = np.abs(z.imag) / np.maximum(np.abs(z.real), 1e-300)
-    k = np.argmax(ratio < ESR_CONDITION, axis=-1)
-    esr_lf = np.take_along_axis(z.real, k[:, None], -1)[:, 0]
-    summary["esr_lf_ohm"] = esr_lf
-    summary["tau_s"] = impedance.rc_time_constant(summary["c_lf_F"], esr_lf)
     shaped = {k: (v.reshape((n_v, n_c) + v.shape[1:]) if isinstance(v, np.ndarray) and v.ndim >= 1
                   and v.shape[0] == n_v * n_c else v) for k, v in summary.items()}
     return z.reshape(n_v, n_c, -1), shaped

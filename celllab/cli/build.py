@@ -89,10 +89,13 @@ def cmd_check(args: argparse.Namespace) -> int:
 
 def cmd_build(args: argparse.Namespace) -> int:
     from celllab.catalog import open_catalog
+    from celllab.characterization.params import CornerSet
     from celllab.engine import characterize
 
     pairs = _load(args.deck, args.cells)
     corners = [c.strip() for c in args.corners.split(",")] if args.corners else None
+    for deck, _ in pairs:  # every input is checked before the catalog file is touched
+        CornerSet.from_deck(deck, corners)
     catalog = open_catalog(args.catalog)
     reports = []
     for deck, cells in pairs:

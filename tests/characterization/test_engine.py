@@ -115,15 +115,11 @@ def test_cross_coupled_loses_capacitance_and_gains_esr_against_tied(deck) -> Non
 
 def test_cross_coupled_internal_nodes_sit_at_the_rails(deck) -> None:
     # Source: REFERENCES §5 operating state: x ~ VSS, y ~ VDD (only gate leakage flows); 1 mV
-    from celllab.characterization.params import CornerSet
-    from celllab.physics import cross_coupled
-
     pair = _cell(deck, topology="cross_coupled", name="x")
     run = characterize(deck, [pair])
     cv = run.cells[0].corners[0].cv
     supply = run.cells[0].corners[0].supply_V
     assert cv.operating_bias_V == pytest.approx(supply, abs=1e-3)
-    del CornerSet, cross_coupled
 
 
 def test_mom_cell_has_no_leakage_and_flat_capacitance(run) -> None:
