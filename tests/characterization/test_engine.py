@@ -75,8 +75,8 @@ def test_inversion_capacitance_below_plain_oxide_by_depletion_and_centroid(run) 
 def test_mos_esr_matches_distributed_line_sum(deck) -> None:
     # Source: Larsson, IEEE JSSC 32(4):574, 1997 (both ends: R_ch/12) and Razavi et al. 1994 (gate
     # R W/(3L) per finger); the overlap capacitance (no series R) sits beside the channel branch, so
-    # that branch's ESR is weighted by (C_g/(C_g + C_ov))^2 (two parallel RC branches, REFERENCES §5
-    # formula). The nodal solution's low-frequency ESR must equal the sum; rel 1e-3
+    # that branch's ESR is weighted by (C_g/(C_g + C_ov))^2 (two parallel RC branches,
+    # docs/references.md [44]). The nodal solution's low-frequency ESR must equal the sum; rel 1e-3
     from celllab.characterization.params import CornerSet
     from celllab.characterization.topologies import _single_mos
 
@@ -114,7 +114,8 @@ def test_cross_coupled_loses_capacitance_and_gains_esr_against_tied(deck) -> Non
 
 
 def test_cross_coupled_internal_nodes_sit_at_the_rails(deck) -> None:
-    # Source: REFERENCES §5 operating state: x ~ VSS, y ~ VDD (only gate leakage flows); 1 mV
+    # Source: docs/references.md [50] operating state: x ~ VSS, y ~ VDD (only gate leakage
+    # flows); 1 mV
     pair = _cell(deck, topology="cross_coupled", name="x")
     run = characterize(deck, [pair])
     cv = run.cells[0].corners[0].cv
@@ -133,7 +134,7 @@ def test_mom_cell_has_no_leakage_and_flat_capacitance(run) -> None:
 
 
 def test_io_oxide_leaks_far_less_than_core(run) -> None:
-    # Fact of the trade (REFERENCES §7, [CP]): thick-oxide decaps are practically leakage-free.
+    # Fact of the trade (docs/references.md [72] [CP]): thick-oxide decaps hardly leak.
     core = [c.corners[0].metrics["leakage_nA_per_nF"] for c in run.cells if c.oxide == "core" and c.topology == "nmos_inversion"]
     io = [c.corners[0].metrics["leakage_nA_per_nF"] for c in run.cells if c.oxide == "io" and c.topology == "nmos_inversion"]
     assert max(io) < 1e-3 * min(core)

@@ -72,8 +72,8 @@ def test_report_and_json(block: str, catalog: Path, capsys: pytest.CaptureFixtur
     assert data["sites_used"] == sum(c["sites"] for c in data["cells"]) <= data["empty_sites"]
     assert data["leakage_uA"] <= data["leakage_budget_uA"] * (1 + 1e-9)
     assert data["die_cap_nF"] == pytest.approx(data["fill_cap_nF"] + data["intrinsic_cap_nF"])
-    # Source: REFERENCES §10 [DF], f0 = 1/(2 pi sqrt(L C)) and Z0 = sqrt(L/C) from the printed
-    # L and C; rel 1e-9
+    # Source: docs/references.md [101] [DF], f0 = 1/(2 pi sqrt(L C)) and Z0 = sqrt(L/C) from the
+    # printed L and C; rel 1e-9
     l_H, c_F = data["package_inductance_nH"] * 1e-9, data["die_cap_nF"] * 1e-9
     assert data["f0_MHz"] * 1e6 == pytest.approx(1 / (2 * np.pi * np.sqrt(l_H * c_F)), rel=1e-9)
     assert data["z0_mohm"] * 1e-3 == pytest.approx(np.sqrt(l_H / c_F), rel=1e-9)

@@ -71,11 +71,11 @@ def test_frozen_deck_rejects_assignment() -> None:
 
 @pytest.mark.parametrize(("t_ox_nm", "eps_r", "eot_nm"), [
     (2.0, 3.9, 2.0),        # SiO2 is its own EOT
-    (3.0, 20.0, 0.585),     # Source: REFERENCES.md §1, 3 nm HfO2 (k = 20) -> 0.585 nm [DF]; rel 1e-12
+    (3.0, 20.0, 0.585),     # Source: docs/references.md [11] [DF], 3 nm at k = 20; rel 1e-12
     (1.95, 4.3, 1.95 * 3.9 / 4.3),  # tarn40lp core SiON: EOT = t 3.9/k (same source)
 ])
 def test_eot_from_physical_thickness(t_ox_nm: float, eps_r: float, eot_nm: float) -> None:
-    # Source: EOT = sum_i t_i 3.9/k_i (REFERENCES.md §1, Taur & Ning §2.3); rel 1e-12
+    # Source: EOT = sum_i t_i 3.9/k_i (docs/references.md [11], Taur & Ning §2.3); rel 1e-12
     ox = OxideFlavour.model_validate(_oxide(t_ox_nm=t_ox_nm, eps_r=eps_r))
     assert ox.eot_m == pytest.approx(eot_nm * 1e-9, rel=1e-12)
     assert ox.physical_thickness_m == pytest.approx(t_ox_nm * 1e-9, rel=1e-12)
@@ -89,7 +89,7 @@ def test_eot_only_oxide_uses_eot_for_both_thicknesses() -> None:
 
 def test_tarn40lp_core_eot_from_its_sion() -> None:
     core = demo_deck("tarn40lp").oxides["core"]
-    # Source: EOT = t 3.9/k (REFERENCES.md §1); 1.95 nm at k = 4.3 -> 1.7686 nm; rel 1e-4
+    # Source: EOT = t 3.9/k (docs/references.md [11]); 1.95 nm at k = 4.3 -> 1.7686 nm; rel 1e-4
     assert core.eot_m == pytest.approx(1.7686e-9, rel=1e-4)
 
 

@@ -71,7 +71,7 @@ def test_no_cells_leaves_the_intrinsic_decap() -> None:
     np.testing.assert_allclose(z, zl * zc / (zl + zc), rtol=1e-12, atol=0)
 
 
-# ------------------------------------------------------- REFERENCES §10 through plan_block
+# ------------------------------------- docs/references.md [100]-[103] through plan_block
 
 # 100000 one-site cells of 1 pF (typ corner) = 100 nF; activity 1: no intrinsic decap
 PF_CELL = {"name": "ideal_1pF", "cap_fF": 1000.0}
@@ -82,10 +82,11 @@ def test_resonance_and_characteristic_impedance(tmp_path: Path) -> None:
     plan = _plan(tmp_path, [IdealCell(**PF_CELL)], **TYP)
     assert plan.cells[0].count == 100000
     assert plan.die_capacitance == pytest.approx(100e-9, rel=1e-12, abs=0)
-    # Source: REFERENCES §10 [DF], f0 = 1/(2 pi sqrt(LC)), 1 nH / 100 nF -> 15.915 MHz; rel 1e-6
+    # Source: docs/references.md [101] [DF], f0 = 1/(2 pi sqrt(LC)), 1 nH / 100 nF ->
+    # 15.915 MHz; rel 1e-6
     assert plan.pdn.f0 == pytest.approx(15.9155e6, rel=1e-5, abs=0)
     assert plan.pdn.f0 == pytest.approx(15915494.309, rel=1e-9, abs=0)
-    # Source: REFERENCES §10 [DF], Z0 = sqrt(L/C) -> 0.1 ohm; rel 1e-9
+    # Source: docs/references.md [101] [DF], Z0 = sqrt(L/C) -> 0.1 ohm; rel 1e-9
     assert plan.pdn.z0 == pytest.approx(0.1, rel=1e-9, abs=0)
 
 
@@ -95,7 +96,7 @@ def test_resonance_and_characteristic_impedance(tmp_path: Path) -> None:
 ])
 def test_peak_impedance(tmp_path: Path, esr_ohm: float, r_pkg_mohm: float,
                         peak_ohm: float) -> None:
-    # Source: REFERENCES §10 [DF], exact |Z|max of (R_L + jwL) || (R_C + 1/(jwC)),
+    # Source: docs/references.md [101] [DF], exact |Z|max of (R_L + jwL) || (R_C + 1/(jwC)),
     # 1 nH / 100 nF; rel 1e-3 (sweep: fine grid between the stored points)
     plan = _plan(tmp_path, [IdealCell(**PF_CELL, esr_ohm=esr_ohm)], **TYP,
                  block_package_resistance_mohm=r_pkg_mohm)
@@ -107,8 +108,8 @@ def test_peak_impedance(tmp_path: Path, esr_ohm: float, r_pkg_mohm: float,
 
 
 def test_critically_damped_network_is_flat(tmp_path: Path) -> None:
-    # Source: REFERENCES §10 [DF] (Larsson 1998): R_L = R_C = Z0 = 0.1 ohm -> |Z| = 0.1 ohm at
-    # every frequency; rel 1e-6 at the stored frequencies, 1e-4 for the interpolated peak
+    # Source: docs/references.md [101] [DF] (Larsson 1998): R_L = R_C = Z0 = 0.1 ohm -> |Z| = 0.1
+    # ohm at every frequency; rel 1e-6 at the stored frequencies, 1e-4 for the interpolated peak
     plan = _plan(tmp_path, [IdealCell(**PF_CELL, esr_ohm=10000.0)], **TYP,
                  block_package_resistance_mohm=100.0)
     _, z = plan.sweep()
@@ -119,19 +120,21 @@ def test_critically_damped_network_is_flat(tmp_path: Path) -> None:
 def test_target_impedance_and_droop(tmp_path: Path) -> None:
     plan = _plan(tmp_path, [IdealCell(**PF_CELL)], **TYP, block_supply_V=1.0,
                  block_ripple_fraction=0.05, block_current_step_A=10.0)
-    # Source: REFERENCES §10 [DF] (Smith et al. 1999): 1 V, 5 %, 10 A -> 5.0 mohm; rel 1e-12
+    # Source: docs/references.md [100] [DF] (Smith et al. 1999): 1 V, 5 %, 10 A -> 5.0 mohm
+    # (rel 1e-12)
     assert plan.pdn.target_impedance == pytest.approx(5e-3, rel=1e-12, abs=0)
     assert not plan.pdn.below_target  # the 1.005 ohm peak is far above 5 mohm
     assert plan.pdn.worst_ratio == pytest.approx(plan.pdn.peak_impedance / 5e-3, rel=1e-9)
     plan = _plan(tmp_path / "one_amp", [IdealCell(**PF_CELL)], **TYP, block_current_step_A=1.0)
-    # Source: REFERENCES §10 [DF]: 1 A into 1 nH / 100 nF -> 0.100 V at 15.71 ns; rel 1e-9
+    # Source: docs/references.md [102] [DF]: 1 A into 1 nH / 100 nF -> 0.100 V at 15.71 ns; rel 1e-9
     assert plan.pdn.droop == pytest.approx(0.1, rel=1e-9, abs=0)
     assert plan.pdn.droop_time == pytest.approx(np.pi / 2 * 1e-8, rel=1e-9, abs=0)
     assert plan.pdn.droop_time == pytest.approx(15.71e-9, rel=1e-3, abs=0)
 
 
 def test_below_target_when_damped_and_low(tmp_path: Path) -> None:
-    # Source: REFERENCES §10 [DF]: the flat 0.1 ohm network against a 0.12 ohm target
+    # Source: docs/references.md [100], [101] [DF]: the flat 0.1 ohm network against a 0.12 ohm
+    # target
     plan = _plan(tmp_path, [IdealCell(**PF_CELL, esr_ohm=10000.0)], **TYP,
                  block_package_resistance_mohm=100.0, block_ripple_fraction=0.12,
                  block_current_step_A=1.0)
@@ -141,9 +144,9 @@ def test_below_target_when_damped_and_low(tmp_path: Path) -> None:
 def test_charge_sizing(tmp_path: Path) -> None:
     plan = _plan(tmp_path, [IdealCell(**PF_CELL)], **TYP, block_switching_power_W=1.0,
                  block_supply_V=1.0, block_clock_GHz=1.0, block_ripple_fraction=0.1)
-    # Source: REFERENCES §10 [DF]: alpha C = P/(V^2 f), 1 W, 1 V, 1 GHz -> 1 nF; rel 1e-12
+    # Source: docs/references.md [103] [DF]: alpha C = P/(V^2 f), 1 W, 1 V, 1 GHz -> 1 nF; rel 1e-12
     assert plan.switched_capacitance == pytest.approx(1e-9, rel=1e-12, abs=0)
-    # Source: REFERENCES §10 [DF] (Dally & Poulton 1998): C_dec = 9 C_sw for 10 % droop
+    # Source: docs/references.md [103] [DF] (Dally & Poulton 1998): C_dec = 9 C_sw for 10 % droop
     assert plan.rule_of_thumb_need == pytest.approx(9e-9, rel=1e-12, abs=0)
     assert plan.charge_sharing_need == pytest.approx(9e-9, rel=1e-12, abs=0)
     # activity 1: every gate switches, so no non-switching logic (common practice, no source)
@@ -151,8 +154,8 @@ def test_charge_sizing(tmp_path: Path) -> None:
 
 
 def test_intrinsic_decap_adds_to_the_die(tmp_path: Path) -> None:
-    # Chen & Ling DAC 1997 form (recalled, REFERENCES §10 [FM]): C_int = (1 - a) C_total with
-    # C_total = P / (a V^2 f); only its consistency is checked here, not a published value
+    # Chen & Ling DAC 1997 form (recalled, docs/references.md [104] [FM]): C_int = (1 - a) C_total
+    # with C_total = P / (a V^2 f); only its consistency is checked here, not a published value
     plan = _plan(tmp_path, [IdealCell(**PF_CELL)], **TYP | {"block_activity": 0.2},
                  block_switching_power_W=1.0, block_supply_V=1.0, block_clock_GHz=1.0)
     c_total = plan.switched_capacitance / 0.2
