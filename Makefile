@@ -1,7 +1,7 @@
 # Entry points for a fresh machine; each sets itself up.
 #   make demo   build the invented demo catalog (db/celllab.sqlite) and open the terminal UI
 #   make test   run the whole test suite (installs ngspice from Debian when run as root)
-#   make check  what CI runs: ruff, mypy on the core, then the whole test suite
+#   make check  ruff, mypy on the core, then the whole test suite (CI runs make test)
 PYTHON ?= python3
 VENV   := .venv
 BIN    := $(VENV)/bin
