@@ -46,9 +46,12 @@ from decimal import Decimal
 from pathlib import Path
 from typing import Any, Literal
 
+from pydantic import ValidationError
+
 from celllab import MODEL_VERSION, __version__
+from celllab.cells.expand import spec_from_record
 from celllab.cells.geometry import GeometryProblem, resolve_geometry
-from celllab.cells.schema import GEOMETRY_FIELDS, MOS_TOPOLOGIES, CellSpec
+from celllab.cells.schema import MOS_TOPOLOGIES, CellSpec
 from celllab.errors import ExportError, Problem
 from celllab.export import CAUTION, atomic_write_text
 from celllab.records import CellResult
@@ -206,17 +209,12 @@ def lef_grid(deck: Any, manufacturing_grid_um: float | None = None) -> LefGrid:
 
 
 def _spec(cell: CellResult) -> CellSpec:
-    stored = cell.geometry
-    fields = {f: stored[f] for f in GEOMETRY_FIELDS if f in stored and stored[f] is not None}
-    fields.setdefault("width_sites", cell.width_sites)
-    fields.setdefault("height_rows", cell.height_rows)
     try:
-        return CellSpec(name=cell.name, family=cell.family, topology=cell.topology,
-                        oxide=cell.oxide, **fields)
-    except (ValueError, TypeError) as exc:
+        return spec_from_record(cell)
+    except ValidationError as exc:
+        detail = "; ".join(f"{'.'.join(map(str, e['loc'])) or 'cell'}: {e['msg']}" for e in exc.errors())
         raise ExportError([Problem(f"cell {cell.name}", "geometry", "the stored record does not "
-                                   f"define a cell layout: {' '.join(str(exc).split())[:300]}",
-                                   has_value=False)]) from None
+                                   f"define a cell layout ({detail})", has_value=False)]) from None
 
 
 def macro_view(cell: CellResult, deck: Any, grid: LefGrid) -> MacroView:
