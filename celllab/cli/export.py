@@ -249,13 +249,14 @@ def _export_datasheet(args: argparse.Namespace, cat: Any) -> None:
 
 
 def _export_liberty(args: argparse.Namespace, cat: Any) -> None:
+    from celllab.export.catalog_deck import stored_deck
     from celllab.export.liberty import liberty_filename, render_liberty
-    from celllab.export.stored_deck import stored_deck
 
     cells, deck_name = _load_cells(cat, _select_rows(cat, args))
     _need_cells(cells)
     deck = stored_deck(cat, str(deck_name))
-    corners = [args.corner] if args.corner not in AGGREGATE_CORNERS else list(deck.corners)
+    # every corner in the run's order (the catalog keeps it; the stored deck's keys are sorted)
+    corners = [args.corner] if args.corner not in AGGREGATE_CORNERS else cat.corners(deck_name)
     files = {liberty_filename(deck.name, c): render_liberty(cells, deck, c) for c in corners}
     if _is_folder(args.out):
         _emit_many(args, files)
@@ -272,8 +273,8 @@ def _export_liberty(args: argparse.Namespace, cat: Any) -> None:
 
 
 def _export_lef(args: argparse.Namespace, cat: Any) -> None:
+    from celllab.export.catalog_deck import stored_deck
     from celllab.export.lef import render_lef
-    from celllab.export.stored_deck import stored_deck
 
     cells, deck_name = _load_cells(cat, _select_rows(cat, args))
     _need_cells(cells)

@@ -74,7 +74,7 @@ _LAZY: dict[str, str] = {
     "macro_view": "lef",
     "lef_grid": "lef",
     "placement_class": "lef",
-    "stored_deck": "stored_deck",
+    "stored_deck": "catalog_deck",
 }
 
 __all__ = [  # noqa: PLE0604 - the lazily loaded names are listed in _LAZY

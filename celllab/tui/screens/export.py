@@ -97,13 +97,16 @@ def _view_cells(context: ExportContext, catalog: Any, path: Path) -> tuple[list[
 
 
 def _export_view(fmt: ExportFormat, path: Path, context: ExportContext, catalog: Any) -> None:
-    """Liberty (at the current corner; the deck's first when ranking worst/best) or LEF."""
+    """Liberty (at the current corner; the first characterized one when ranking worst/best) or
+    LEF."""
     from celllab.export import stored_deck, write_lef, write_liberty
 
     cells, deck_name = _view_cells(context, catalog, path)
     deck = stored_deck(catalog, deck_name)
     if fmt.key == "liberty":
-        corner = context.corner if context.corner in deck.corners else next(iter(deck.corners))
+        # the catalog keeps the run's corner order (the stored deck's keys are sorted)
+        corners = [c for c in catalog.corners(deck_name) if c in deck.corners] or list(deck.corners)
+        corner = context.corner if context.corner in deck.corners else corners[0]
         write_liberty(path, cells, deck, corner)
     else:
         write_lef(path, cells, deck)
@@ -186,7 +189,9 @@ class ExportDialog(ModalScreen[ExportRequest | None]):
                 path_input.value = self._default_path(self._chosen())
 
     def on_input_changed(self, event: Input.Changed) -> None:
-        self._path_edited = True
+        # the input reports its first value too: only a path other than the default is an edit
+        if event.value != self._default_path(self._chosen()):
+            self._path_edited = True
 
     def _submit(self) -> None:
         path = self.query_one("#export-path", Input).value.strip()
