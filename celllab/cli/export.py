@@ -280,7 +280,9 @@ def _export_lef(args: argparse.Namespace, cat: Any) -> None:
     _need_cells(cells)
     deck = stored_deck(cat, str(deck_name))
     grid_um = args.grid_nm / 1000 if args.grid_nm is not None else None
-    _emit(args, render_lef(cells, deck, manufacturing_grid_um=grid_um), f"{_file_stem(deck.name)}.lef")
+    _emit(
+        args, render_lef(cells, deck, manufacturing_grid_um=grid_um), f"{_file_stem(deck.name)}.lef"
+    )
 
 
 def _file_stem(name: str) -> str:
@@ -337,7 +339,9 @@ def cmd_export(args: argparse.Namespace) -> int:
             raise _problem(args.format, str(message), None, has_value=False) from None
         except OSError as exc:  # --out not writable: a missing parent we may not create, ...
             where = exc.filename or args.out
-            raise _problem("--out", f"cannot write {where}: {exc.strerror or exc}", args.out) from None
+            raise _problem(
+                "--out", f"cannot write {where}: {exc.strerror or exc}", args.out
+            ) from None
     return 0
 
 

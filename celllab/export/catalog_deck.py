@@ -25,9 +25,16 @@ def stored_deck(catalog: Any, deck: str) -> Deck:
     try:
         return parse_deck(params, file=f"{catalog.path}: deck {deck}")
     except DeckError as exc:
-        raise ExportError([
-            Problem(str(catalog.path), "deck", "the catalog does not hold a complete, valid deck "
+        raise ExportError(
+            [
+                Problem(
+                    str(catalog.path),
+                    "deck",
+                    "the catalog does not hold a complete, valid deck "
                     "under this name, so no library view can be written; characterize the cells "
-                    "again with 'celllab build'", deck),
-            *exc.problems[:3],
-        ]) from None
+                    "again with 'celllab build'",
+                    deck,
+                ),
+                *exc.problems[:3],
+            ]
+        ) from None

@@ -76,8 +76,17 @@ MACRO_CLASS: dict[str, str] = {"core_row": "CORE SPACER", "open_region": "PAD SP
 MACRO_SYMMETRY: dict[str, str] = {"core_row": "X Y", "open_region": "X Y R90"}
 
 #: Manufacturing grids tried, coarsest first (um), and the database units LEF allows.
-GRID_CANDIDATES_UM: tuple[float, ...] = (0.01, 0.005, 0.002, 0.001, 0.0005, 0.00025, 0.0002,
-                                         0.0001, 0.00005)
+GRID_CANDIDATES_UM: tuple[float, ...] = (
+    0.01,
+    0.005,
+    0.002,
+    0.001,
+    0.0005,
+    0.00025,
+    0.0002,
+    0.0001,
+    0.00005,
+)
 LEF_DATABASE_UNITS: tuple[int, ...] = (100, 200, 400, 800, 1000, 2000, 4000, 8000, 10000, 20000)
 _ON_GRID = 1e-6  # relative slack when testing that a deck length is a whole number of grid steps
 
@@ -89,8 +98,16 @@ def placement_class(cell: CellResult) -> Placement:
     core-row cells."""
     value = cell.geometry.get("placement", cell.geometry.get("resolved_placement", "core_row"))
     if value not in PLACEMENTS:
-        raise ExportError([Problem(f"cell {cell.name}", "placement", "not a placement; allowed: "
-                                   + ", ".join(PLACEMENTS), value)])
+        raise ExportError(
+            [
+                Problem(
+                    f"cell {cell.name}",
+                    "placement",
+                    "not a placement; allowed: " + ", ".join(PLACEMENTS),
+                    value,
+                )
+            ]
+        )
     return value  # type: ignore[return-value]
 
 
@@ -183,38 +200,82 @@ def lef_grid(deck: Any, manufacturing_grid_um: float | None = None) -> LefGrid:
     lengths = _deck_lengths(deck)
     if manufacturing_grid_um is not None:
         if not (manufacturing_grid_um > 0 and math.isfinite(manufacturing_grid_um)):
-            raise ExportError([Problem(f"deck {deck.name}", "manufacturing grid",
-                                       "must be a positive length (um)", manufacturing_grid_um)])
+            raise ExportError(
+                [
+                    Problem(
+                        f"deck {deck.name}",
+                        "manufacturing grid",
+                        "must be a positive length (um)",
+                        manufacturing_grid_um,
+                    )
+                ]
+            )
         off = [name for name, (_, um) in lengths.items() if not _on_grid(um, manufacturing_grid_um)]
         if off:
-            raise ExportError([Problem(f"deck {deck.name}", name, f"not a whole number of "
-                                       f"{manufacturing_grid_um:g} um grid steps", lengths[name][0])
-                               for name in off])
+            raise ExportError(
+                [
+                    Problem(
+                        f"deck {deck.name}",
+                        name,
+                        f"not a whole number of {manufacturing_grid_um:g} um grid steps",
+                        lengths[name][0],
+                    )
+                    for name in off
+                ]
+            )
         grid = manufacturing_grid_um
     else:
-        fitting = [g for g in GRID_CANDIDATES_UM
-                   if all(_on_grid(um, g) for _, um in lengths.values())]
+        fitting = [
+            g for g in GRID_CANDIDATES_UM if all(_on_grid(um, g) for _, um in lengths.values())
+        ]
         if not fitting:
             finest = GRID_CANDIDATES_UM[-1]
-            raise ExportError([Problem(f"deck {deck.name}", name, f"not on any manufacturing grid "
-                                       f"down to {finest:g} um", value)
-                               for name, (value, um) in lengths.items() if not _on_grid(um, finest)])
+            raise ExportError(
+                [
+                    Problem(
+                        f"deck {deck.name}",
+                        name,
+                        f"not on any manufacturing grid down to {finest:g} um",
+                        value,
+                    )
+                    for name, (value, um) in lengths.items()
+                    if not _on_grid(um, finest)
+                ]
+            )
         grid = fitting[0]
     for dbu in LEF_DATABASE_UNITS:
         if dbu >= 1000 and _on_grid(grid * dbu, 1.0):
             return LefGrid(grid, dbu)
-    raise ExportError([Problem(f"deck {deck.name}", "manufacturing grid", "no LEF database unit "
-                               "(" + ", ".join(map(str, LEF_DATABASE_UNITS)) + ") holds it exactly",
-                               grid)])
+    raise ExportError(
+        [
+            Problem(
+                f"deck {deck.name}",
+                "manufacturing grid",
+                "no LEF database unit "
+                "(" + ", ".join(map(str, LEF_DATABASE_UNITS)) + ") holds it exactly",
+                grid,
+            )
+        ]
+    )
 
 
 def _spec(cell: CellResult) -> CellSpec:
     try:
         return spec_from_record(cell)
     except ValidationError as exc:
-        detail = "; ".join(f"{'.'.join(map(str, e['loc'])) or 'cell'}: {e['msg']}" for e in exc.errors())
-        raise ExportError([Problem(f"cell {cell.name}", "geometry", "the stored record does not "
-                                   f"define a cell layout ({detail})", has_value=False)]) from None
+        detail = "; ".join(
+            f"{'.'.join(map(str, e['loc'])) or 'cell'}: {e['msg']}" for e in exc.errors()
+        )
+        raise ExportError(
+            [
+                Problem(
+                    f"cell {cell.name}",
+                    "geometry",
+                    f"the stored record does not define a cell layout ({detail})",
+                    has_value=False,
+                )
+            ]
+        ) from None
 
 
 def macro_view(cell: CellResult, deck: Any, grid: LefGrid) -> MacroView:
@@ -223,13 +284,24 @@ def macro_view(cell: CellResult, deck: Any, grid: LefGrid) -> MacroView:
     try:
         geo = resolve_geometry(spec, deck)
     except GeometryProblem as exc:
-        raise ExportError([Problem(f"cell {cell.name}", exc.field, exc.message, exc.value)]) from None
+        raise ExportError(
+            [Problem(f"cell {cell.name}", exc.field, exc.message, exc.value)]
+        ) from None
     for key, now in (("cell_width_um", geo.cell_width_um), ("cell_height_um", geo.cell_height_um)):
         stored = cell.geometry.get(f"resolved_{key}")
         if stored is not None and not math.isclose(float(stored), now, rel_tol=1e-9):
-            raise ExportError([Problem(f"cell {cell.name}", key, f"{now:g} um under deck {deck.name} "
-                                       f"but {float(stored):g} um when characterized; export with the "
-                                       "deck the cell was characterized under", now)])
+            raise ExportError(
+                [
+                    Problem(
+                        f"cell {cell.name}",
+                        key,
+                        f"{now:g} um under deck {deck.name} "
+                        f"but {float(stored):g} um when characterized; export with the "
+                        "deck the cell was characterized under",
+                        now,
+                    )
+                ]
+            )
     lay = deck.layout
     placement = placement_class(cell)
     site_w, row_h = grid.units(lay.site_width_um), grid.units(lay.row_height_um)
@@ -240,7 +312,9 @@ def macro_view(cell: CellResult, deck: Any, grid: LefGrid) -> MacroView:
     for k in range(spec.height_rows + 1):
         y = k * row_h
         net = ground if k % 2 == 0 else power
-        rails[net].append(Rect(lay.rail_layer, 0, max(0, y - half_rail), width, min(height, y + half_rail)))
+        rails[net].append(
+            Rect(lay.rail_layer, 0, max(0, y - half_rail), width, min(height, y + half_rail))
+        )
     obstructions: list[Rect] = []
     if spec.topology in MOS_TOPOLOGIES:
         margin = grid.units(lay.edge_margin_um)
@@ -249,13 +323,21 @@ def macro_view(cell: CellResult, deck: Any, grid: LefGrid) -> MacroView:
             if y2 > y1 and width - 2 * margin > 0:
                 obstructions.append(Rect(lay.rail_layer, margin, y1, width - margin, y2))
     for layer in geo.mom_layers:
-        array = layer.finger_count * layer.finger_width_um + (layer.finger_count - 1) * layer.finger_space_um
+        array = (
+            layer.finger_count * layer.finger_width_um
+            + (layer.finger_count - 1) * layer.finger_space_um
+        )
         x1 = max(0, grid.down((geo.cell_width_um - array) / 2))
         obstructions.append(Rect(layer.name, x1, 0, width - x1, height))
     return MacroView(
-        name=cell.name, placement=placement, macro_class=MACRO_CLASS[placement],
-        symmetry=MACRO_SYMMETRY[placement], site=site_name(deck) if placement == "core_row" else None,
-        width=width, height=height, width_sites=spec.width_sites,
+        name=cell.name,
+        placement=placement,
+        macro_class=MACRO_CLASS[placement],
+        symmetry=MACRO_SYMMETRY[placement],
+        site=site_name(deck) if placement == "core_row" else None,
+        width=width,
+        height=height,
+        width_sites=spec.width_sites,
         pins={power: ("POWER", rails[power]), ground: ("GROUND", rails[ground])},
         obstructions=obstructions,
     )
@@ -294,8 +376,13 @@ def _technology(deck: Any, grid: LefGrid) -> list[str]:
     for i, m in enumerate(deck.metals):
         if i > 0:
             cut = f"CUT_{names[i - 1]}_{m.name}"
-            lines += [f"LAYER {cut}", "  TYPE CUT ;", f"  RESISTANCE {_decimal(m.via_below_ohm)} ;",
-                      f"END {cut}", ""]
+            lines += [
+                f"LAYER {cut}",
+                "  TYPE CUT ;",
+                f"  RESISTANCE {_decimal(m.via_below_ohm)} ;",
+                f"END {cut}",
+                "",
+            ]
         width, space = grid.units(m.min_width_nm / 1000), grid.units(m.min_space_nm / 1000)
         lines += [
             f"LAYER {m.name}",
@@ -330,9 +417,11 @@ def _rect(r: Rect, t: Any) -> str:
 def _macro(view: MacroView, cell: CellResult, grid: LefGrid) -> list[str]:
     t = grid.text
     lines = [
-        _comment(f"{view.name}: {cell.topology}, {cell.oxide} oxide, {_count(view.width_sites, 'site')}"
-                 f" x {_count(cell.height_rows, 'row')}, {view.placement.replace('_', ' ')} cell; "
-                 f"cell hash {cell.cell_hash}"),
+        _comment(
+            f"{view.name}: {cell.topology}, {cell.oxide} oxide, {_count(view.width_sites, 'site')}"
+            f" x {_count(cell.height_rows, 'row')}, {view.placement.replace('_', ' ')} cell; "
+            f"cell hash {cell.cell_hash}"
+        ),
         f"MACRO {view.name}",
         f"  CLASS {view.macro_class} ;",
         "  ORIGIN 0 0 ;",
@@ -342,8 +431,13 @@ def _macro(view: MacroView, cell: CellResult, grid: LefGrid) -> list[str]:
     if view.site:
         lines.append(f"  SITE {view.site} ;")
     for net, (use, rects) in view.pins.items():
-        lines += [f"  PIN {net}", "    DIRECTION INOUT ;", f"    USE {use} ;", "    SHAPE ABUTMENT ;",
-                  "    PORT"]
+        lines += [
+            f"  PIN {net}",
+            "    DIRECTION INOUT ;",
+            f"    USE {use} ;",
+            "    SHAPE ABUTMENT ;",
+            "    PORT",
+        ]
         for layer in dict.fromkeys(r.layer for r in rects):
             lines.append(f"      LAYER {layer} ;")
             lines += ["  " + _rect(r, t) for r in rects if r.layer == layer]
@@ -382,13 +476,29 @@ def render_lef(
         whose geometry cannot be resolved under the deck or differs from the characterized one
     """
     if not cells:
-        raise ExportError([Problem(f"deck {deck.name}", "cells", "no cell to write; the selection "
-                                   "is empty", has_value=False)])
+        raise ExportError(
+            [
+                Problem(
+                    f"deck {deck.name}",
+                    "cells",
+                    "no cell to write; the selection is empty",
+                    has_value=False,
+                )
+            ]
+        )
     names = [c.name for c in cells]
     duplicates = sorted({n for n in names if names.count(n) > 1})
     if duplicates:
-        raise ExportError([Problem(f"deck {deck.name}", "cells", "a library holds each cell once; "
-                                   "given more than once", ", ".join(duplicates))])
+        raise ExportError(
+            [
+                Problem(
+                    f"deck {deck.name}",
+                    "cells",
+                    "a library holds each cell once; given more than once",
+                    ", ".join(duplicates),
+                )
+            ]
+        )
     grid = lef_grid(deck, manufacturing_grid_um)
     views, problems = [], []
     for cell in cells:
@@ -400,13 +510,19 @@ def render_lef(
         raise ExportError(problems)
     today = date or datetime.date.today().isoformat()
     lines = [
-        _comment(f"celllab {__version__} LEF view: technology of deck {deck.name} and "
-                 f"{_count(len(cells), 'decoupling-cell abstract')}"),
-        _comment(f"deck: {deck.name} (content hash {deck.content_hash}); models: {model_version}; "
-                 f"written {today}"),
+        _comment(
+            f"celllab {__version__} LEF view: technology of deck {deck.name} and "
+            f"{_count(len(cells), 'decoupling-cell abstract')}"
+        ),
+        _comment(
+            f"deck: {deck.name} (content hash {deck.content_hash}); models: {model_version}; "
+            f"written {today}"
+        ),
         _comment(f"CAUTION: estimate. {CAUTION}"),
-        _comment("the layer rules below restate the deck's minimum widths and spaces; they are "
-                 "not a design-rule deck"),
+        _comment(
+            "the layer rules below restate the deck's minimum widths and spaces; they are "
+            "not a design-rule deck"
+        ),
         "",
         *_technology(deck, grid),
     ]

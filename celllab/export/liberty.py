@@ -122,8 +122,11 @@ def liberty_filename(deck_name: str, corner: str) -> str:
 def _number(value: float, what: str, problems: list[Problem], cell: str) -> str | None:
     number = float(value)
     if not math.isfinite(number):
-        problems.append(Problem(f"cell {cell}", what, "not a finite number; a Liberty view "
-                                "cannot hold it", number))
+        problems.append(
+            Problem(
+                f"cell {cell}", what, "not a finite number; a Liberty view cannot hold it", number
+            )
+        )
         return None
     text = repr(number)
     return text[:-2] if text.endswith(".0") else text
@@ -154,8 +157,16 @@ def _comment_block(lines: Iterable[str]) -> list[str]:
 
 def _corner_of(deck: Any, corner: str) -> Any:
     if corner not in deck.corners:
-        raise ExportError([Problem(f"deck {deck.name}", "corner", "not a corner of the deck; allowed: "
-                                   + ", ".join(deck.corners), corner)])
+        raise ExportError(
+            [
+                Problem(
+                    f"deck {deck.name}",
+                    "corner",
+                    "not a corner of the deck; allowed: " + ", ".join(deck.corners),
+                    corner,
+                )
+            ]
+        )
     return deck.at_corner(corner)
 
 
@@ -164,24 +175,45 @@ def _cell_corner(cell: CellResult, corner: str) -> CornerResult:
         return cell.corner(corner)
     except KeyError:
         have = ", ".join(c.corner for c in cell.corners) or "none"
-        raise ExportError([Problem(f"cell {cell.name}", "corner", "no results at this corner; the "
-                                   f"cell was characterized at: {have}", corner)]) from None
+        raise ExportError(
+            [
+                Problem(
+                    f"cell {cell.name}",
+                    "corner",
+                    f"no results at this corner; the cell was characterized at: {have}",
+                    corner,
+                )
+            ]
+        ) from None
 
 
-def _cell_lines(cell: CellResult, result: CornerResult, deck_at_corner: Any,
-                problems: list[Problem]) -> list[str]:
+def _cell_lines(
+    cell: CellResult, result: CornerResult, deck_at_corner: Any, problems: list[Problem]
+) -> list[str]:
     power, ground = deck_at_corner.supplies.rail_nets(cell.oxide)
     expected_V = deck_at_corner.supply_for(cell.oxide)
     if not math.isclose(result.supply_V, expected_V, rel_tol=1e-9, abs_tol=1e-12):
-        problems.append(Problem(f"cell {cell.name}", f"corners.{result.corner}.supply_V",
-                                f"characterized at {result.supply_V:g} V but the deck gives "
-                                f"{expected_V:g} V at this corner; export with the deck the cell "
-                                "was characterized under", result.supply_V))
+        problems.append(
+            Problem(
+                f"cell {cell.name}",
+                f"corners.{result.corner}.supply_V",
+                f"characterized at {result.supply_V:g} V but the deck gives "
+                f"{expected_V:g} V at this corner; export with the deck the cell "
+                "was characterized under",
+                result.supply_V,
+            )
+        )
     try:
         parts = leakage_parts(result)
     except ValueError:
-        problems.append(Problem(f"cell {cell.name}", "leakage_nA", "missing: the record has no "
-                                "leakage current", has_value=False))
+        problems.append(
+            Problem(
+                f"cell {cell.name}",
+                "leakage_nA",
+                "missing: the record has no leakage current",
+                has_value=False,
+            )
+        )
         return []
     area = _number(cell.area_um2, "area_um2", problems, cell.name)
     leak = _number(cell_leakage_power_nW(result), "cell_leakage_power", problems, cell.name)
@@ -252,14 +284,30 @@ def render_liberty(
         non-finite area or leakage, or a cell whose supply differs from the deck's
     """
     if not cells:
-        raise ExportError([Problem(f"deck {deck.name}", "cells", "no cell to write; the selection "
-                                   "is empty", has_value=False)])
+        raise ExportError(
+            [
+                Problem(
+                    f"deck {deck.name}",
+                    "cells",
+                    "no cell to write; the selection is empty",
+                    has_value=False,
+                )
+            ]
+        )
     at_corner = _corner_of(deck, corner)
     names = [c.name for c in cells]
     duplicates = sorted({n for n in names if names.count(n) > 1})
     if duplicates:
-        raise ExportError([Problem(f"deck {deck.name}", "cells", "a library holds each cell once; "
-                                   "given more than once", ", ".join(duplicates))])
+        raise ExportError(
+            [
+                Problem(
+                    f"deck {deck.name}",
+                    "cells",
+                    "a library holds each cell once; given more than once",
+                    ", ".join(duplicates),
+                )
+            ]
+        )
     results = [_cell_corner(c, corner) for c in cells]
     supplies = at_corner.supplies
     corner_def = deck.corners[corner]
@@ -273,18 +321,20 @@ def render_liberty(
     today = date or datetime.date.today().isoformat()
     lib = library_name(deck.name, corner)
     core_power = supplies.core_power_net
-    header = _comment_block([
-        f"celllab {__version__} Liberty library view: decoupling cells of deck {deck.name} at "
-        f"corner {corner}",
-        f"deck: {deck.name} (content hash {deck.content_hash}); models: {model_version}; "
-        f"written {today}; {len(cells)} cell" + ("" if len(cells) == 1 else "s"),
-        f"corner {corner}: T = {corner_def.temperature_C:g} degC; "
-        + "; ".join(f"{net} = {v:g} V" for net, v in voltages.items()),
-        f"CAUTION: estimate. {CAUTION}",
-        "units: area um^2; leakage power nW; user attributes (celllab_*) carry their unit "
-        "in their name",
-        "cell_leakage_power = supply voltage x (gate + junction leakage current) at this corner",
-    ])
+    header = _comment_block(
+        [
+            f"celllab {__version__} Liberty library view: decoupling cells of deck {deck.name} at "
+            f"corner {corner}",
+            f"deck: {deck.name} (content hash {deck.content_hash}); models: {model_version}; "
+            f"written {today}; {len(cells)} cell" + ("" if len(cells) == 1 else "s"),
+            f"corner {corner}: T = {corner_def.temperature_C:g} degC; "
+            + "; ".join(f"{net} = {v:g} V" for net, v in voltages.items()),
+            f"CAUTION: estimate. {CAUTION}",
+            "units: area um^2; leakage power nW; user attributes (celllab_*) carry their unit "
+            "in their name",
+            "cell_leakage_power = supply voltage x (gate + junction leakage current) at this corner",
+        ]
+    )
     lines = [*header, f"library ({lib}) {{", "  delay_model : table_lookup ;"]
     lines += [f"  {key} : {value} ;" for key, value in LIBRARY_UNITS.items()]
     lines += [
@@ -341,6 +391,8 @@ def write_liberty_set(
     folder as it was. Returns the paths written, in corner order.
     """
     chosen = list(corners) if corners is not None else list(deck.corners)
-    texts = {liberty_filename(deck.name, c): render_liberty(cells, deck, c, date=date) for c in chosen}
+    texts = {
+        liberty_filename(deck.name, c): render_liberty(cells, deck, c, date=date) for c in chosen
+    }
     target = Path(folder)
     return [atomic_write_text(target / name, text) for name, text in texts.items()]

@@ -59,7 +59,9 @@ def shapes(layout: Any, cell_name: str) -> dict[str, list[Any]]:
     return found
 
 
-def expected_rails(cell: CellResult, deck: Deck, dbu: float) -> set[tuple[str, tuple[int, int, int, int]]]:
+def expected_rails(
+    cell: CellResult, deck: Deck, dbu: float
+) -> set[tuple[str, tuple[int, int, int, int]]]:
     """(net, box) of every rail rectangle by the deck's rules: a rail_width_um rail centred on
     each row boundary, clipped to the outline; ground at the bottom, alternating upwards."""
     um = lambda v: round(v / dbu)  # noqa: E731
@@ -67,8 +69,10 @@ def expected_rails(cell: CellResult, deck: Deck, dbu: float) -> set[tuple[str, t
     height = um(cell.geometry["resolved_cell_height_um"])
     half, row = um(deck.layout.rail_width_um / 2), um(deck.layout.row_height_um)
     power, ground = deck.supplies.rail_nets(cell.oxide)
-    return {((ground, power)[k % 2], (0, max(0, k * row - half), width, min(height, k * row + half)))
-            for k in range(cell.height_rows + 1)}
+    return {
+        ((ground, power)[k % 2], (0, max(0, k * row - half), width, min(height, k * row + half)))
+        for k in range(cell.height_rows + 1)
+    }
 
 
 @pytest.fixture(scope="module")
@@ -78,9 +82,11 @@ def lumen130() -> Deck:
 
 # --- every demo process: render -> KLayout -> equal to the cell geometry ------------------------
 
+
 @pytest.mark.parametrize("deck_name", DECKS)
 def test_macros_load_in_klayout_and_match_the_cell_geometry(
-        deck_name: str, demo_view_runs: dict[str, Any], tmp_path: Path) -> None:
+    deck_name: str, demo_view_runs: dict[str, Any], tmp_path: Path
+) -> None:
     run = demo_view_runs[deck_name]
     deck = load_deck(DECK_DIR / f"{deck_name}.toml")
     path = write_lef(tmp_path / f"{deck_name}.lef", run.cells, deck)
@@ -96,15 +102,23 @@ def test_macros_load_in_klayout_and_match_the_cell_geometry(
         box = outline.box
         # Source: KLayout LEF reader (macro SIZE -> OUTLINE box); expected: stored geometry
         assert (box.left, box.bottom) == (0, 0)
-        assert box.width() * layout.dbu == pytest.approx(cell.geometry["resolved_cell_width_um"], rel=1e-9)
-        assert box.height() * layout.dbu == pytest.approx(cell.geometry["resolved_cell_height_um"], rel=1e-9)
+        assert box.width() * layout.dbu == pytest.approx(
+            cell.geometry["resolved_cell_width_um"], rel=1e-9
+        )
+        assert box.height() * layout.dbu == pytest.approx(
+            cell.geometry["resolved_cell_height_um"], rel=1e-9
+        )
         assert box.width() % site == 0 and box.width() // site == cell.width_sites
         # pins: rectangles on the rail layer, each carrying its LEF pin name as a property
         rail = deck.layout.rail_layer
-        pins = {(s.property(PIN_NAME), (s.box.left, s.box.bottom, s.box.right, s.box.top))
-                for s in found[f"{rail}.PIN"]}
+        pins = {
+            (s.property(PIN_NAME), (s.box.left, s.box.bottom, s.box.right, s.box.top))
+            for s in found[f"{rail}.PIN"]
+        }
         assert pins == expected_rails(cell, deck, layout.dbu)
-        assert {s.text.string for s in found[f"{rail}.LABEL"]} == set(deck.supplies.rail_nets(cell.oxide))
+        assert {s.text.string for s in found[f"{rail}.LABEL"]} == set(
+            deck.supplies.rail_nets(cell.oxide)
+        )
         assert not [n for n in found if n.endswith(".PIN") and not n.startswith(f"{rail}.")]
         # blockages: the rail layer over MOS devices, every MOM finger layer, nothing else
         blocked = {n.removesuffix(".OBS") for n in found if n.endswith(".OBS")}
@@ -123,8 +137,9 @@ def test_macros_load_in_klayout_and_match_the_cell_geometry(
 
 
 @pytest.mark.parametrize("deck_name", DECKS)
-def test_coordinates_lie_on_the_manufacturing_grid(deck_name: str, demo_view_runs: dict[str, Any],
-                                                   tmp_path: Path) -> None:
+def test_coordinates_lie_on_the_manufacturing_grid(
+    deck_name: str, demo_view_runs: dict[str, Any], tmp_path: Path
+) -> None:
     run = demo_view_runs[deck_name]
     deck = load_deck(DECK_DIR / f"{deck_name}.toml")
     grid = lef_grid(deck)
@@ -140,7 +155,9 @@ def test_coordinates_lie_on_the_manufacturing_grid(deck_name: str, demo_view_run
                     assert all(v % step == 0 for v in (b.left, b.bottom, b.right, b.top)), cell.name
 
 
-def test_technology_section_restates_the_deck(lumen130: Deck, demo_view_runs: dict[str, Any]) -> None:
+def test_technology_section_restates_the_deck(
+    lumen130: Deck, demo_view_runs: dict[str, Any]
+) -> None:
     # Own line reader of our output (KLayout loads the section but does not expose layer rules);
     # expected values are the deck's, keywords per the LEF/DEF 5.8 reference (Layer (Routing),
     # Layer (Cut), Site).
@@ -149,7 +166,17 @@ def test_technology_section_restates_the_deck(lumen130: Deck, demo_view_runs: di
     routing = [n for n, body in blocks.items() if "TYPE ROUTING ;" in body]
     assert routing == [m.name for m in lumen130.metals]
     order = re.findall(r"^LAYER (\S+)$", text, flags=re.MULTILINE)
-    assert order == ["M1", "CUT_M1_M2", "M2", "CUT_M2_M3", "M3", "CUT_M3_M4", "M4", "CUT_M4_M5", "M5"]
+    assert order == [
+        "M1",
+        "CUT_M1_M2",
+        "M2",
+        "CUT_M2_M3",
+        "M3",
+        "CUT_M3_M4",
+        "M4",
+        "CUT_M4_M5",
+        "M5",
+    ]
     for i, m in enumerate(lumen130.metals):
         body = blocks[m.name]
         number = lambda key: float(re.search(rf"^  {key} (\S+) ;", body, re.MULTILINE).group(1))  # noqa: E731,B023
@@ -161,14 +188,18 @@ def test_technology_section_restates_the_deck(lumen130: Deck, demo_view_runs: di
         if i:
             cut = blocks[f"CUT_{lumen130.metals[i - 1].name}_{m.name}"]
             assert "TYPE CUT ;" in cut and f"RESISTANCE {m.via_below_ohm:g} ;" in cut
-    site = re.search(r"^SITE lumen130_core\n(.*?)^END lumen130_core$", text, re.MULTILINE | re.DOTALL).group(1)
+    site = re.search(
+        r"^SITE lumen130_core\n(.*?)^END lumen130_core$", text, re.MULTILINE | re.DOTALL
+    ).group(1)
     assert "CLASS CORE ;" in site and "SYMMETRY Y ;" in site and "SIZE 0.410 BY 3.690 ;" in site
     assert "MANUFACTURINGGRID 0.005 ;" in text and "DATABASE MICRONS 1000 ;" in text
     head = "\n".join(line for line in text.splitlines() if line.startswith("#"))
     assert " ".join(CAUTION.split()) in " ".join(head.split()) and lumen130.content_hash in head
 
 
-def test_macro_statements_follow_the_reference_order(lumen130: Deck, demo_view_runs: dict[str, Any]) -> None:
+def test_macro_statements_follow_the_reference_order(
+    lumen130: Deck, demo_view_runs: dict[str, Any]
+) -> None:
     # LEF/DEF 5.8 reference, MACRO: "the keywords must be specified in the given order"
     text = render_lef(demo_view_runs["lumen130"].cells, lumen130)
     rank = {"CLASS": 0, "ORIGIN": 1, "SIZE": 2, "SYMMETRY": 3, "SITE": 4, "PIN": 5, "OBS": 6}
@@ -182,16 +213,22 @@ def test_macro_statements_follow_the_reference_order(lumen130: Deck, demo_view_r
 
 # --- placement class ------------------------------------------------------------------------
 
+
 def test_placement_defaults_to_core_row_and_open_region_cells_are_pad_spacers(
-        lumen130: Deck, demo_view_runs: dict[str, Any], tmp_path: Path) -> None:
+    lumen130: Deck, demo_view_runs: dict[str, Any], tmp_path: Path
+) -> None:
     cell = demo_view_runs["lumen130"].cells[0]
     assert placement_class(cell) == "core_row"
-    spacer = replace(cell, name="ring_spacer", geometry={**cell.geometry, "placement": "open_region"})
+    spacer = replace(
+        cell, name="ring_spacer", geometry={**cell.geometry, "placement": "open_region"}
+    )
     assert placement_class(spacer) == "open_region"
     view = macro_view(spacer, lumen130, lef_grid(lumen130))
     assert (view.macro_class, view.site, view.symmetry) == ("PAD SPACER", None, "X Y R90")
     text = render_lef([cell, spacer], lumen130)
-    macro = re.search(r"^MACRO ring_spacer\n(.*?)^END ring_spacer$", text, re.MULTILINE | re.DOTALL).group(1)
+    macro = re.search(
+        r"^MACRO ring_spacer\n(.*?)^END ring_spacer$", text, re.MULTILINE | re.DOTALL
+    ).group(1)
     assert "CLASS PAD SPACER ;" in macro and "SITE" not in macro
     path = tmp_path / "ring.lef"
     path.write_text(text, encoding="utf-8")
@@ -211,14 +248,19 @@ def test_unknown_placement_lists_the_allowed_ones(demo_view_runs: dict[str, Any]
 
 # --- bad input --------------------------------------------------------------------------------
 
-def test_record_without_a_layout_definition_is_named(library: list[CellResult], lumen130: Deck) -> None:
+
+def test_record_without_a_layout_definition_is_named(
+    library: list[CellResult], lumen130: Deck
+) -> None:
     with pytest.raises(ExportError) as info:
         render_lef(library, lumen130)
     assert {p.file for p in info.value.problems} == {f"cell {c.name}" for c in library}
     assert {p.field for p in info.value.problems} == {"geometry"}
 
 
-def test_cells_from_another_deck_are_refused(lumen130: Deck, demo_view_runs: dict[str, Any]) -> None:
+def test_cells_from_another_deck_are_refused(
+    lumen130: Deck, demo_view_runs: dict[str, Any]
+) -> None:
     tarn_cell = demo_view_runs["tarn40lp"].cells[0]
     with pytest.raises(ExportError) as info:
         render_lef([tarn_cell], lumen130)
@@ -227,12 +269,16 @@ def test_cells_from_another_deck_are_refused(lumen130: Deck, demo_view_runs: dic
     assert "characterized" in problem.message
 
 
-@pytest.mark.parametrize(("grid_um", "fields"), [
-    (0.007, {"layout.site_width_um", "layout.row_height_um"}),
-    (0.0, {"manufacturing grid"}),
-])
-def test_grid_off_the_deck_lengths_names_them(grid_um: float, fields: set[str], lumen130: Deck,
-                                              demo_view_runs: dict[str, Any]) -> None:
+@pytest.mark.parametrize(
+    ("grid_um", "fields"),
+    [
+        (0.007, {"layout.site_width_um", "layout.row_height_um"}),
+        (0.0, {"manufacturing grid"}),
+    ],
+)
+def test_grid_off_the_deck_lengths_names_them(
+    grid_um: float, fields: set[str], lumen130: Deck, demo_view_runs: dict[str, Any]
+) -> None:
     with pytest.raises(ExportError) as info:
         render_lef(demo_view_runs["lumen130"].cells, lumen130, manufacturing_grid_um=grid_um)
     assert fields <= {p.field for p in info.value.problems}
@@ -246,8 +292,9 @@ def test_empty_or_duplicate_selection(lumen130: Deck, demo_view_runs: dict[str, 
         assert [p.field for p in info.value.problems] == ["cells"]
 
 
-def test_failed_render_leaves_an_existing_file_untouched(library: list[CellResult], lumen130: Deck,
-                                                         tmp_path: Path) -> None:
+def test_failed_render_leaves_an_existing_file_untouched(
+    library: list[CellResult], lumen130: Deck, tmp_path: Path
+) -> None:
     target = tmp_path / "keep.lef"
     target.write_text("previous\n", encoding="utf-8")
     with pytest.raises(ExportError):

@@ -52,17 +52,34 @@ def lumen130() -> Deck:
 
 # --- every demo process: CLI -> files -> outside parser -> equal to the catalog ---------------
 
+
 @pytest.mark.parametrize("deck_name", DECKS)
 def test_every_library_parses_and_reads_back_the_catalog(
-        deck_name: str, demo_view_catalog: Path, tmp_path: Path) -> None:
+    deck_name: str, demo_view_catalog: Path, tmp_path: Path
+) -> None:
     out = tmp_path / "views"
-    assert main(["export", "liberty", "--catalog", str(demo_view_catalog), "--deck", deck_name,
-                 "--out", f"{out}/"]) == 0
+    assert (
+        main(
+            [
+                "export",
+                "liberty",
+                "--catalog",
+                str(demo_view_catalog),
+                "--deck",
+                deck_name,
+                "--out",
+                f"{out}/",
+            ]
+        )
+        == 0
+    )
     with open_catalog(demo_view_catalog, create=False) as cat:
         deck = Deck.model_validate(cat.deck_params(deck_name))
         corners = cat.corners(deck_name)
         rows = {c: {r["name"]: r for r in cat.query(deck=deck_name, corner=c)} for c in corners}
-    assert sorted(p.name for p in out.iterdir()) == sorted(liberty_filename(deck_name, c) for c in corners)
+    assert sorted(p.name for p in out.iterdir()) == sorted(
+        liberty_filename(deck_name, c) for c in corners
+    )
     for corner in corners:
         lib = parse((out / liberty_filename(deck_name, corner)).read_text(encoding="utf-8"))
         at = deck.at_corner(corner)
@@ -80,7 +97,8 @@ def test_every_library_parses_and_reads_back_the_catalog(
         assert voltages[at.supplies.core_power_net] == pytest.approx(at.supplies.core_V, rel=1e-12)
         assert voltages[at.supplies.core_ground_net] == 0
         assert {(d.attribute_name, d.group_name, d.attribute_type) for d in lib.defines} == {
-            (name, "cell", kind) for name, (kind, _) in USER_ATTRIBUTES.items()}
+            (name, "cell", kind) for name, (kind, _) in USER_ATTRIBUTES.items()
+        }
         cells = lib.get_groups("cell")
         assert {plain(c.args[0]) for c in cells} == set(rows[corner])
         for group in cells:
@@ -96,7 +114,10 @@ def test_every_library_parses_and_reads_back_the_catalog(
             assert group["celllab_gate_leakage_nA"] == row["leakage_nA"]
             assert group["celllab_junction_leakage_nA"] == 0
             assert plain(group["celllab_cell_hash"]) == row["cell_hash"]
-            pins = {plain(p.args[0]): (p["pg_type"], p["voltage_name"]) for p in group.get_groups("pg_pin")}
+            pins = {
+                plain(p.args[0]): (p["pg_type"], p["voltage_name"])
+                for p in group.get_groups("pg_pin")
+            }
             assert pins == {power: ("primary_power", power), ground: ("primary_ground", ground)}
             assert voltages[power] == pytest.approx(row["supply_V"], rel=1e-12)
             (leak,) = group.get_groups("leakage_power")
@@ -105,7 +126,10 @@ def test_every_library_parses_and_reads_back_the_catalog(
 
 # --- V x I: a worked example ---------------------------------------------------------------
 
-def test_leakage_power_is_supply_times_current_worked_example(make_cell: Any, lumen130: Deck) -> None:
+
+def test_leakage_power_is_supply_times_current_worked_example(
+    make_cell: Any, lumen130: Deck
+) -> None:
     # Worked example (P = V I): at slow_125C the core supply is 1.2 V x 0.90 = 1.08 V. A cell
     # leaking 2.5 nA through its gate oxide and 0.5 nA through its junctions draws 3.0 nA, so
     # P = 1.08 V x 3.0 nA = 3.24 nW; the gate part alone is 1.08 x 2.5 = 2.7 nW.
@@ -116,37 +140,49 @@ def test_leakage_power_is_supply_times_current_worked_example(make_cell: Any, lu
     cell.corners[1] = replace(slow, metrics=metrics)
     assert leakage_parts(cell.corners[1]) == LeakageParts(2.5, 0.5)
     assert cell_leakage_power_nW(cell.corners[1]) == pytest.approx(3.24, rel=1e-12)
-    group = parse(render_liberty([cell], lumen130, "slow_125C", date=DATE)).get_group("cell", "worked")
+    group = parse(render_liberty([cell], lumen130, "slow_125C", date=DATE)).get_group(
+        "cell", "worked"
+    )
     # Source: liberty-parser (PyPI) reading the file back; leakage_power_unit is 1 nW.
     assert group["cell_leakage_power"] == pytest.approx(3.24, rel=1e-12)
     assert group["celllab_gate_leakage_nA"] == 2.5 and group["celllab_junction_leakage_nA"] == 0.5
     cell.corners[1] = replace(slow, metrics={**slow.metrics, "leakage_nA": 2.5})
-    group = parse(render_liberty([cell], lumen130, "slow_125C", date=DATE)).get_group("cell", "worked")
+    group = parse(render_liberty([cell], lumen130, "slow_125C", date=DATE)).get_group(
+        "cell", "worked"
+    )
     assert group["cell_leakage_power"] == pytest.approx(2.7, rel=1e-12)
 
 
 def test_leakage_parts_prefer_split_metrics_when_the_catalog_has_them(make_cell: Any) -> None:
     result = make_cell("mos").corners[0]
     assert leakage_parts(result) == LeakageParts(result.metrics["leakage_nA"], 0.0)
-    split = replace(result, metrics={**result.metrics, "gate_leakage_nA": 1.25, "junction_leakage_nA": 0.75})
+    split = replace(
+        result, metrics={**result.metrics, "gate_leakage_nA": 1.25, "junction_leakage_nA": 0.75}
+    )
     assert leakage_parts(split).total_nA == 2.0
 
 
 # --- the file itself ------------------------------------------------------------------------
 
-def test_header_carries_caution_deck_corner_date_and_generator(library: list[CellResult], lumen130: Deck) -> None:
+
+def test_header_carries_caution_deck_corner_date_and_generator(
+    library: list[CellResult], lumen130: Deck
+) -> None:
     text = render_liberty(library, lumen130, "typ_25C", date=DATE)
     head = text[: text.index("library (")]
     flat = " ".join(line.lstrip(" */") for line in head.splitlines())
     assert "CAUTION" in flat and " ".join(CAUTION.split()) in " ".join(flat.split())
-    assert lumen130.content_hash in flat and "typ_25C" in flat and DATE in flat and "celllab" in flat
+    assert (
+        lumen130.content_hash in flat and "typ_25C" in flat and DATE in flat and "celllab" in flat
+    )
     lib = parse(text)
     # Source: liberty-parser (PyPI); the date and the caution also travel as library attributes.
     assert plain(lib["date"]) == DATE and "not sign-off" in plain(lib["comment"])
 
 
-def test_cell_names_with_dots_and_dashes_are_quoted_and_read_back(library: list[CellResult],
-                                                                  lumen130: Deck) -> None:
+def test_cell_names_with_dots_and_dashes_are_quoted_and_read_back(
+    library: list[CellResult], lumen130: Deck
+) -> None:
     lib = parse(render_liberty(library, lumen130, "fast_m40C", date=DATE))
     # Source: liberty-parser (PyPI)
     assert [plain(c.args[0]) for c in lib.get_groups("cell")] == [c.name for c in library]
@@ -164,17 +200,21 @@ def test_rail_names_come_from_the_deck(library: list[CellResult], lumen130: Deck
     assert pins == {"VPWR_CORE": "primary_power", "VGND_CORE": "primary_ground"}
 
 
-def test_write_liberty_set_writes_one_library_per_corner(library: list[CellResult], lumen130: Deck,
-                                                         tmp_path: Path) -> None:
+def test_write_liberty_set_writes_one_library_per_corner(
+    library: list[CellResult], lumen130: Deck, tmp_path: Path
+) -> None:
     corners = ["typ_25C", "slow_125C", "fast_m40C"]
     paths = write_liberty_set(tmp_path, library, lumen130, corners, date=DATE)
     assert [p.name for p in paths] == [f"lumen130_{c}.lib" for c in corners]
     for path, corner in zip(paths, corners):
         # Source: liberty-parser (PyPI)
-        assert parse(path.read_text(encoding="utf-8")).get_group("operating_conditions").args == [corner]
+        assert parse(path.read_text(encoding="utf-8")).get_group("operating_conditions").args == [
+            corner
+        ]
 
 
 # --- bad input: located errors, nothing written -----------------------------------------------
+
 
 def test_unknown_corner_names_the_allowed_ones(library: list[CellResult], lumen130: Deck) -> None:
     with pytest.raises(ExportError) as info:
@@ -193,11 +233,18 @@ def test_cell_without_the_corner_is_named(library: list[CellResult], lumen130: D
     assert "typ_25C, slow_125C, fast_m40C" in problem.message
 
 
-@pytest.mark.parametrize(("case", "field"), [
-    ("empty", "cells"), ("duplicate", "cells"), ("nan", "cell_leakage_power"),
-    ("supply", "corners.typ_25C.supply_V"),
-])
-def test_bad_selections_give_located_errors(case: str, field: str, make_cell: Any, lumen130: Deck) -> None:
+@pytest.mark.parametrize(
+    ("case", "field"),
+    [
+        ("empty", "cells"),
+        ("duplicate", "cells"),
+        ("nan", "cell_leakage_power"),
+        ("supply", "corners.typ_25C.supply_V"),
+    ],
+)
+def test_bad_selections_give_located_errors(
+    case: str, field: str, make_cell: Any, lumen130: Deck
+) -> None:
     deck = lumen130
     cells = [make_cell("mos", name="A1")]
     if case == "empty":
@@ -215,8 +262,9 @@ def test_bad_selections_give_located_errors(case: str, field: str, make_cell: An
     assert str(info.value)  # one readable line per problem
 
 
-def test_failed_render_leaves_an_existing_file_untouched(library: list[CellResult], lumen130: Deck,
-                                                         tmp_path: Path) -> None:
+def test_failed_render_leaves_an_existing_file_untouched(
+    library: list[CellResult], lumen130: Deck, tmp_path: Path
+) -> None:
     target = tmp_path / "keep.lib"
     target.write_text("previous\n", encoding="utf-8")
     with pytest.raises(ExportError):
