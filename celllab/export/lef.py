@@ -88,7 +88,7 @@ GRID_CANDIDATES_UM: tuple[float, ...] = (
     0.00005,
 )
 LEF_DATABASE_UNITS: tuple[int, ...] = (100, 200, 400, 800, 1000, 2000, 4000, 8000, 10000, 20000)
-_ON_GRID = 1e-6  # relative slack when testing that a deck length is a whole number of grid steps
+_ON_GRID = 1e-6  # slack, in grid steps, for the rounding of decimal deck lengths in binary
 
 
 def placement_class(cell: CellResult) -> Placement:
@@ -157,9 +157,6 @@ class LefGrid:
     def down(self, um: float) -> int:
         return math.floor(um * self.dbu / self.step + 1e-9) * self.step
 
-    def up(self, um: float) -> int:
-        return math.ceil(um * self.dbu / self.step - 1e-9) * self.step
-
     def text(self, units: int) -> str:
         decimals = len(str(self.dbu)) - 1
         return f"{units / self.dbu:.{decimals}f}"
@@ -186,7 +183,7 @@ def _deck_lengths(deck: Any) -> dict[str, tuple[float, float]]:
 
 def _on_grid(length_um: float, grid_um: float) -> bool:
     steps = length_um / grid_um
-    return abs(steps - round(steps)) <= _ON_GRID * max(1.0, steps)
+    return abs(steps - round(steps)) <= _ON_GRID
 
 
 def lef_grid(deck: Any, manufacturing_grid_um: float | None = None) -> LefGrid:

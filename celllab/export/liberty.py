@@ -128,11 +128,11 @@ def _number(value: float, what: str, problems: list[Problem], cell: str) -> str 
             )
         )
         return None
-    text = repr(number)
-    return text[:-2] if text.endswith(".0") else text
+    return _plain_number(number)
 
 
 def _plain_number(value: float) -> str:
+    """Shortest round-trip decimal (``repr``), without a trailing ``.0``."""
     text = repr(float(value))
     return text[:-2] if text.endswith(".0") else text
 
