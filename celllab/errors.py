@@ -68,3 +68,7 @@ class FilterError(CelllabError):
 
 class PlanError(CelllabError):
     """A block fill plan is inconsistent."""
+
+
+class ExportError(CelllabError):
+    """A selection cannot be written in the requested format (unknown corner, no cells, ...)."""

@@ -267,3 +267,23 @@ def resolve(spec: CellSpec, deck: Any) -> Geometry:
         return resolve_geometry(spec, deck)
     except GeometryProblem as gp:
         raise CellError([Problem(spec.name, gp.field, gp.message, gp.value)]) from None
+
+
+def spec_from_record(cell: Any) -> CellSpec:
+    """Rebuild the CellSpec behind a characterized cell record (``records.CellResult``).
+
+    The record keeps its definition in ``geometry``: a ``spec`` table when present, else the
+    geometry fields next to the ``resolved_*`` values. Raises pydantic's ``ValidationError``
+    when the stored fields do not define a valid cell.
+    """
+    geometry = dict(cell.geometry or {})
+    spec_fields = geometry.get("spec") if isinstance(geometry.get("spec"), dict) else None
+    if spec_fields:
+        data = dict(spec_fields)
+    else:
+        data = {f: geometry[f] for f in GEOMETRY_FIELDS if f in geometry}
+        data.setdefault("width_sites", cell.width_sites)
+        data.setdefault("height_rows", cell.height_rows)
+    data.update(name=cell.name, family=cell.family, topology=cell.topology, oxide=cell.oxide)
+    allowed = set(CellSpec.model_fields)
+    return CellSpec.model_validate({k: v for k, v in data.items() if k in allowed})

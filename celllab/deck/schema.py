@@ -7,9 +7,16 @@ range check; descriptions say what the field means. Values are stored as the use
 
 from __future__ import annotations
 
-from typing import Literal
+from typing import Any, Literal
 
-from pydantic import BaseModel, ConfigDict, Field, model_validator
+from pydantic import (
+    BaseModel,
+    ConfigDict,
+    Field,
+    SerializerFunctionWrapHandler,
+    model_serializer,
+    model_validator,
+)
 
 GateMaterial = Literal["n_poly", "p_poly", "metal"]
 AccelerationModel = Literal["power_law", "e_model", "inverse_e"]
@@ -175,9 +182,41 @@ class Layout(_Strict):
     rail_clearance_um: float = _f(0, 5, "clearance from rail edge to active, um")
 
 
+#: Supply net names: letters, digits and _ (safe in Liberty, LEF and SPICE without quoting).
+_NET = r"^[A-Za-z][A-Za-z0-9_]{0,31}$"
+#: Net-name fields and their defaults; see ``Supplies._canonical``.
+NET_NAME_DEFAULTS: dict[str, str] = {
+    "core_power_net": "VDD", "core_ground_net": "VSS", "io_power_net": "VDDIO", "io_ground_net": "VSSIO",
+}
+
+
 class Supplies(_Strict):
     core_V: float = _f(0.3, 5, "core supply, V", gt=True)
     io_V: float = _f(0.5, 12, "I/O supply, V", gt=True)
+    core_power_net: str = Field(NET_NAME_DEFAULTS["core_power_net"], pattern=_NET,
+                                description="net name of the core supply rail (Liberty pg_pin, LEF pin)")
+    core_ground_net: str = Field(NET_NAME_DEFAULTS["core_ground_net"], pattern=_NET,
+                                 description="net name of the ground rail of core-oxide cells")
+    io_power_net: str = Field(NET_NAME_DEFAULTS["io_power_net"], pattern=_NET,
+                              description="net name of the I/O supply rail (cells on the io oxide)")
+    io_ground_net: str = Field(NET_NAME_DEFAULTS["io_ground_net"], pattern=_NET,
+                               description="net name of the ground rail of io-oxide cells")
+
+    @model_serializer(mode="wrap")
+    def _canonical(self, handler: SerializerFunctionWrapHandler) -> dict[str, Any]:
+        # Net names do not change any computed number: left out of the dump (and so of the deck's
+        # content hash) while at their defaults, so decks written before they existed keep their hash.
+        data = dict(handler(self))
+        for name, default in NET_NAME_DEFAULTS.items():
+            if data.get(name) == default:
+                del data[name]
+        return data
+
+    def rail_nets(self, oxide: str) -> tuple[str, str]:
+        """(power, ground) net names of the rails a cell on ``oxide`` connects to."""
+        if oxide == "io":
+            return self.io_power_net, self.io_ground_net
+        return self.core_power_net, self.core_ground_net
 
 
 class Corner(_Strict):
@@ -232,6 +271,15 @@ class Deck(_Strict):
         if self.supplies.io_V < self.supplies.core_V:
             problems.append(("supplies.io_V", self.supplies.io_V,
                              f"must be at least core_V ({self.supplies.core_V:g} V)"))
+        s = self.supplies
+        grounds = {s.core_ground_net, s.io_ground_net}
+        for key in ("core_power_net", "io_power_net"):
+            if getattr(s, key) in grounds:
+                problems.append((f"supplies.{key}", getattr(s, key),
+                                 "a supply net cannot also be a ground net; ground nets: " + ", ".join(sorted(grounds))))
+        if s.core_power_net == s.io_power_net and s.core_V != s.io_V:
+            problems.append(("supplies.io_power_net", s.io_power_net,
+                             f"same net as core_power_net but io_V ({s.io_V:g} V) differs from core_V ({s.core_V:g} V)"))
         for corner_name in self.corners:
             if not corner_name.replace("_", "").replace("-", "").isalnum():
                 problems.append((f"corners.{corner_name}", corner_name, "corner names use letters, digits, _ and -"))

@@ -13,7 +13,13 @@ schema      ``export_json_schema()``                     ``write_json_schema(pat
 SPICE       ``render_spice_subckt(cell, corner)``        ``write_spice(path, cells)``
 Touchstone  ``render_touchstone(cell, corner)``          ``write_touchstone(path, ...)``
 datasheet   ``render_datasheet_html(cell, deck_name)``   ``write_datasheet(path, ...)``
+Liberty     ``render_liberty(cells, deck, corner)``      ``write_liberty(path, ...)``
+LEF         ``render_lef(cells, deck)``                  ``write_lef(path, ...)``
 ==========  ===========================================  ============================
+
+The library views (Liberty: one library per corner, ``write_liberty_set``; LEF: technology
+section and cell abstracts) need the ``Deck`` the cells were characterized under;
+``stored_deck(catalog, name)`` rebuilds it from the catalog.
 
 Every export carries :data:`CAUTION`: the numbers are estimates, not sign-off.
 """
@@ -57,6 +63,18 @@ _LAZY: dict[str, str] = {
     "render_library_html": "datasheet",
     "write_datasheet": "datasheet",
     "write_library_datasheet": "datasheet",
+    "render_liberty": "liberty",
+    "write_liberty": "liberty",
+    "write_liberty_set": "liberty",
+    "liberty_filename": "liberty",
+    "leakage_parts": "liberty",
+    "cell_leakage_power_nW": "liberty",
+    "render_lef": "lef",
+    "write_lef": "lef",
+    "macro_view": "lef",
+    "lef_grid": "lef",
+    "placement_class": "lef",
+    "stored_deck": "catalog_deck",
 }
 
 __all__ = [  # noqa: PLE0604 - the lazily loaded names are listed in _LAZY

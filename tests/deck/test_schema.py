@@ -161,6 +161,42 @@ def test_deck_helpers() -> None:
     assert deck.supply_for("io") == 2.5
 
 
+def test_rail_net_names_default_and_stay_out_of_the_hash_until_set() -> None:
+    deck = demo_deck("lumen130")
+    assert deck.supplies.rail_nets("core") == ("VDD", "VSS")
+    assert deck.supplies.rail_nets("io") == ("VDDIO", "VSSIO")
+    # at their defaults the names are not in the canonical dump, so older decks keep their hash
+    assert "core_power_net" not in deck.model_dump(mode="json")["supplies"]
+    data = deck.model_dump(mode="json")
+    data["supplies"]["core_power_net"] = "VPWR_CORE"
+    renamed = Deck.model_validate(data)
+    assert renamed.supplies.rail_nets("core") == ("VPWR_CORE", "VSS")
+    assert renamed.content_hash != deck.content_hash
+    assert Deck.model_validate(renamed.model_dump(mode="json")) == renamed
+
+
+@pytest.mark.parametrize(("changes", "field", "message"), [
+    ({"core_power_net": "VSS"}, "supplies.core_power_net", "cannot also be a ground net"),
+    ({"io_power_net": "VDD"}, "supplies.io_power_net", "differs from core_V"),
+])
+def test_rail_net_rules(changes: dict[str, str], field: str, message: str) -> None:
+    from celllab.deck import parse_deck
+
+    data = demo_deck("lumen130").model_dump(mode="json")
+    data["supplies"].update(changes)
+    with pytest.raises(DeckError) as info:
+        parse_deck(data)
+    assert [p.field for p in info.value.problems] == [field]
+    assert message in info.value.problems[0].message
+
+
+def test_rail_net_names_must_be_plain_identifiers() -> None:
+    data = demo_deck("lumen130").model_dump(mode="json")
+    data["supplies"]["io_ground_net"] = "VSS IO"
+    with pytest.raises(ValidationError, match="io_ground_net"):
+        Deck.model_validate(data)
+
+
 # --- deck -> JSON -> deck ------------------------------------------------------------------
 
 @pytest.mark.parametrize("name", DEMO)

@@ -106,19 +106,9 @@ def deck_changes(texts: Mapping[str, str]) -> dict[str, Any]:
 
 def spec_from_result(cell: CellResult) -> Any:
     """Rebuild the CellSpec of a catalog cell from its stored geometry."""
-    from celllab.cells import GEOMETRY_FIELDS, CellSpec
+    from celllab.cells import spec_from_record
 
-    geometry = dict(cell.geometry or {})
-    spec_fields = geometry.get("spec") if isinstance(geometry.get("spec"), dict) else None
-    if spec_fields:
-        data = dict(spec_fields)
-    else:
-        data = {f: geometry[f] for f in GEOMETRY_FIELDS if f in geometry}
-        data.setdefault("width_sites", cell.width_sites)
-        data.setdefault("height_rows", cell.height_rows)
-    data.update(name=cell.name, family=cell.family, topology=cell.topology, oxide=cell.oxide)
-    allowed = set(CellSpec.model_fields)
-    return CellSpec.model_validate({k: v for k, v in data.items() if k in allowed})
+    return spec_from_record(cell)
 
 
 def same_cell(catalog: Any, deck: str, cell: CellResult) -> str | None:
