@@ -13,10 +13,9 @@ from typing import Any
 import numpy as np
 from scipy.constants import femto, giga, nano, pico, zero_Celsius
 
-from celllab import MODEL_VERSION
+from celllab import MODEL_VERSION, topologies
 from celllab.cells.expand import resolve
 from celllab.cells.schema import CellSpec
-from celllab.characterization import topologies
 from celllab.characterization.params import CornerSet
 from celllab.deck.schema import Deck
 from celllab.records import (
@@ -30,7 +29,6 @@ from celllab.records import (
 
 #: Frequency sweep of every response: 100 kHz .. 1 THz, 20 points per decade.
 FREQ_HZ = np.logspace(5, 12, 141)
-ESR_PROBE_HZ = 1.0e9
 SECONDS_PER_YEAR = 365.25 * 24 * 3600
 
 Progress = Callable[[str, int, int], None]

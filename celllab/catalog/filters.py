@@ -27,16 +27,20 @@ import textwrap
 from dataclasses import dataclass
 from typing import Literal, get_args
 
-from celllab.cells.schema import OxideChoice, Topology
+from celllab.cells.schema import OxideChoice
 from celllab.errors import FilterError, Problem
 from celllab.records import CELL_COLUMNS, METRIC_BY_NAME, METRIC_NAMES
+from celllab.topologies import REGISTRY
 
 FieldKind = Literal["number", "text", "bool"]
 
 #: Closed sets of the cell model; filter values are checked against them.
-TOPOLOGIES: tuple[str, ...] = tuple(get_args(Topology))
 OXIDES: tuple[str, ...] = tuple(get_args(OxideChoice))
-CLOSED_VALUES: dict[str, tuple[str, ...]] = {"topology": TOPOLOGIES, "oxide": OXIDES}
+
+
+def closed_values() -> dict[str, tuple[str, ...]]:
+    """Text columns with a closed set of values (topologies read from the registry now)."""
+    return {"topology": REGISTRY.names(), "oxide": OXIDES}
 
 TEXT_FIELDS = ("name", "deck", "family", "topology", "oxide", "corner")
 #: Corner conditions (NULL in worst/best rows, where no single corner applies).
@@ -442,8 +446,9 @@ class _Parser:
             )
         else:
             raise self.fail(f"a word or quoted text for '{field}'")
-        if not glob and field in CLOSED_VALUES and value not in CLOSED_VALUES[field]:
-            allowed = list(CLOSED_VALUES[field])
+        closed = closed_values()
+        if not glob and field in closed and value not in closed[field]:
+            allowed = list(closed[field])
             close = difflib.get_close_matches(value, allowed, n=2, cutoff=0.5)
             hint = f"; did you mean {' or '.join(repr(c) for c in close)}?" if close else ""
             raise _error(
@@ -571,5 +576,5 @@ def describe_language() -> str:
     for n, unit in CORNER_FIELDS.items():
         lines.append(f"  {n:<{width}}  [{unit}] corner condition")
     lines.append(f"Text columns: {', '.join(TEXT_FIELDS)}")
-    lines.append(f"  topology: {', '.join(TOPOLOGIES)};  oxide: {', '.join(OXIDES)}")
+    lines.append(f"  topology: {', '.join(REGISTRY.names())};  oxide: {', '.join(OXIDES)}")
     return "\n".join(lines)

@@ -33,9 +33,10 @@ import numpy as np
 from pydantic import ValidationError
 
 from celllab.cells.geometry import Geometry, GeometryProblem, resolve_geometry
-from celllab.cells.schema import GEOMETRY_FIELDS, NAME_TAGS, TOPOLOGIES, CellSpec
+from celllab.cells.schema import GEOMETRY_FIELDS, NAME_TAGS, CellSpec
 from celllab.deck.load import find_line, read_toml, validation_problems
 from celllab.errors import CellError, Problem
+from celllab.topologies import REGISTRY
 
 MAX_VARIANTS_PER_FAMILY = 20000
 _FAMILY_ONLY = {"name", "topology", "oxide", "description", "skip_unfit"}
@@ -128,7 +129,7 @@ def expand_family(entry: dict[str, Any], index: int, file: str, text: str | None
                                 find_line(text, [kind, index]), has_value=False))
     if "topology" not in entry:
         problems.append(Problem(file, f"{where}.topology", "required field is missing; allowed: "
-                                + ", ".join(TOPOLOGIES), None, find_line(text, [kind, index]), has_value=False))
+                                + ", ".join(REGISTRY.names()), None, find_line(text, [kind, index]), has_value=False))
     if problems:
         raise CellError(problems)
     fixed = {k: entry[k] for k in ("name", "topology", "oxide") if k in entry}

@@ -36,7 +36,7 @@ def oxide_stress(corners: CornerSet, oxides: np.ndarray, v_ox: np.ndarray, v_gat
     temperature = corners.temperature_K[None, :]
 
     def lk(attr: str) -> np.ndarray:
-        return _sub_table(corners, oxides, "leakage", attr)
+        return oxide_subtable(corners, oxides, "leakage", attr)
 
     model = _sub_table_str(corners, oxides, "leakage", "model")
     j_wkb = leakage.direct_tunneling_current_density(v_ox, eot, lk("barrier_eV"), lk("mass_ratio")) * lk("area_factor")
@@ -46,7 +46,7 @@ def oxide_stress(corners: CornerSet, oxides: np.ndarray, v_ox: np.ndarray, v_gat
         eot, np.abs(v_gate), lk("decades_per_nm"), lk("voltage_exponent"))
     j = np.where(model == "reference", j_scaled, j_wkb)
 
-    rel = lambda attr: _sub_table(corners, oxides, "reliability", attr)  # noqa: E731
+    rel = lambda attr: oxide_subtable(corners, oxides, "reliability", attr)  # noqa: E731
     accel = _sub_table_str(corners, oxides, "reliability", "acceleration")
     ttf = np.full(np.broadcast_shapes(v_gate.shape, eot.shape), np.nan)
     for name, model_name in _MODEL.items():  # at most three models: a loop over models, not variants
@@ -65,7 +65,8 @@ def oxide_stress(corners: CornerSet, oxides: np.ndarray, v_ox: np.ndarray, v_gat
     return OxideStress(leakage_A=j * gate_area, e_ox_V_per_m=np.abs(v_ox) / eot, ttf_s=ttf, vbd_pulse_V=vbd)
 
 
-def _sub_table(corners: CornerSet, oxides: np.ndarray, group: str, attr: str) -> np.ndarray:
+def oxide_subtable(corners: CornerSet, oxides: np.ndarray, group: str, attr: str) -> np.ndarray:
+    """(n_variant, n_corner) of ``oxide.<group>.<attr>`` per variant's oxide flavour (None -> NaN)."""
     return _table(corners.decks, oxides, lambda ox: getattr(getattr(ox, group), attr))
 
 

@@ -28,7 +28,10 @@ FORMAT_VERSION: Literal[1] = 1
 SCHEMA_DIALECT = "https://json-schema.org/draft/2020-12/schema"
 
 from celllab.cells.schema import OxideChoice as Oxide  # noqa: E402  (one closed set, defined once)
-from celllab.cells.schema import Topology  # noqa: E402
+from celllab.topologies import REGISTRY  # noqa: E402
+
+#: The topologies known when the export format was loaded (an enum in the JSON Schema).
+Topology = Literal[REGISTRY.names()]  # type: ignore[valid-type]
 
 #: JSON has no NaN/inf; those are written as null.
 Number = float | None

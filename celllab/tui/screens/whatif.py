@@ -27,6 +27,7 @@ from textual.worker import get_current_worker
 
 from celllab.errors import CelllabError, Problem
 from celllab.records import METRICS, CellResult
+from celllab.topologies import REGISTRY
 from celllab.tui.messages import (
     CellLoaded,
     QueryFailed,
@@ -46,25 +47,10 @@ from celllab.tui.widgets.whatif_form import WhatIfForm, geometry_help
 _INT = re.compile(r"^[+-]?\d+$")
 _FLOAT = re.compile(r"^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
 
-#: Geometry fields that mean something for each kind of topology.
-_MOS_ONLY = {"gate_length_um", "gate_width_um", "contacted_ends", "gate_contacted_ends"}
-_MOM_ONLY = {"mom_bottom", "mom_top", "finger_width_um", "finger_space_um", "mom_alternate"}
-
-
 def relevant_fields(topology: str, fields: list[str]) -> list[str]:
-    """The geometry fields a cell of this topology uses."""
-    out = []
-    for name in fields:
-        if name in _MOM_ONLY and topology not in ("mom", "mos_mom"):
-            continue
-        if name in _MOS_ONLY and topology == "mom":
-            continue
-        if name == "accumulation_well" and topology != "accumulation":
-            continue
-        if name == "mos_device" and topology != "mos_mom":
-            continue
-        out.append(name)
-    return out
+    """The geometry fields a cell of this topology uses (``Topology.fields`` of the registry)."""
+    applies = REGISTRY[topology].fields
+    return [name for name in fields if name in applies]
 
 
 def parse_field_text(text: str, annotation: Any = None) -> Any:
