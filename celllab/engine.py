@@ -11,7 +11,6 @@ from collections.abc import Callable, Sequence
 from typing import Any
 
 import numpy as np
-from scipy.constants import femto, giga, nano, pico, zero_Celsius
 
 from celllab import MODEL_VERSION, topologies
 from celllab.cells.expand import resolve
@@ -26,10 +25,10 @@ from celllab.records import (
     CVCurve,
     FrequencyResponse,
 )
+from celllab.units import from_si
 
 #: Frequency sweep of every response: 100 kHz .. 1 THz, 20 points per decade.
 FREQ_HZ = np.logspace(5, 12, 141)
-SECONDS_PER_YEAR = 365.25 * 24 * 3600
 
 Progress = Callable[[str, int, int], None]
 
@@ -80,37 +79,37 @@ def _record(spec: CellSpec, geo: Any, corners: CornerSet, group: Any, index: int
     for j, cname in enumerate(corners.names):
         m = {name: float("nan") for name in METRIC_NAMES}
         c_lf = out.summary["c_lf_F"][k, j]
-        m["cap_fF"] = c_lf / femto
-        m["cap_density_fF_per_um2"] = c_lf / femto / geo.area_um2
-        m["cap_ox_fF"] = out.cap_ox_F[k, j] / femto
+        m["cap_fF"] = from_si(c_lf, "fF")
+        m["cap_density_fF_per_um2"] = from_si(c_lf, "fF") / geo.area_um2
+        m["cap_ox_fF"] = from_si(out.cap_ox_F[k, j], "fF")
         m["esr_ohm"] = out.summary["esr_lf_ohm"][k, j]
         m["esr_1GHz_ohm"] = out.summary["esr_at_ohm"][k, j, 0]
         bw = out.summary["bandwidth_Hz"][k, j]
-        m["bandwidth_GHz"] = bw / giga
-        m["esl_pH"] = _series_inductance(out, k, j) / pico
+        m["bandwidth_GHz"] = from_si(bw, "GHz")
+        m["esl_pH"] = from_si(_series_inductance(out, k, j), "pH")
         srf = out.summary["srf_Hz"][k, j]
-        m["srf_GHz"] = srf / giga
-        m["tau_ps"] = out.summary["tau_s"][k, j] / pico
+        m["srf_GHz"] = from_si(srf, "GHz")
+        m["tau_ps"] = from_si(out.summary["tau_s"][k, j], "ps")
         leak = out.leakage_A[k, j]
-        m["leakage_nA"] = leak / nano
-        m["leakage_nA_per_nF"] = (leak / nano) / (c_lf / nano) if c_lf > 0 else float("nan")
-        m["oxide_field_MV_per_cm"] = out.e_ox_V_per_m[k, j] / 1e8
-        m["tddb_life_years"] = out.ttf_s[k, j] / SECONDS_PER_YEAR
+        m["leakage_nA"] = from_si(leak, "nA")
+        m["leakage_nA_per_nF"] = from_si(leak, "nA") / from_si(c_lf, "nF") if c_lf > 0 else float("nan")
+        m["oxide_field_MV_per_cm"] = from_si(out.e_ox_V_per_m[k, j], "MV/cm")
+        m["tddb_life_years"] = from_si(out.ttf_s[k, j], "years")
         m["pulse_vbd_V"] = out.vbd_pulse_V[k, j]
         flags = list(out.flags[k][j])
         if not np.isfinite(bw):
             flags.append("bandwidth_beyond_sweep: C_eff stays above C/sqrt(2) up to 1 THz; value is a lower bound")
-            m["bandwidth_GHz"] = FREQ_HZ[-1] / giga
+            m["bandwidth_GHz"] = from_si(FREQ_HZ[-1], "GHz")
         if not np.isfinite(srf):
             flags.append("srf_beyond_sweep: no self-resonance below 1 THz; value is a lower bound")
-            m["srf_GHz"] = FREQ_HZ[-1] / giga
+            m["srf_GHz"] = from_si(FREQ_HZ[-1], "GHz")
         m = {key: _finite(v) for key, v in m.items()}
         cv = None
         if out.cv_bias is not None:
             cv = CVCurve(bias_V=np.asarray(out.cv_bias[k, j], dtype=float), cap_F=np.asarray(out.cv_cap[k, j], dtype=float),
                          operating_bias_V=float(out.cv_operating_V[k, j]), operating_cap_F=float(out.cv_operating_F[k, j]))
         corner_results.append(CornerResult(
-            corner=cname, temperature_C=float(corners.temperature_K[j] - zero_Celsius),
+            corner=cname, temperature_C=float(from_si(corners.temperature_K[j], "degC")),
             supply_V=float(out.supply_V[k, j]), metrics=m,
             response=FrequencyResponse(freq_Hz=FREQ_HZ.copy(), z_ohm=out.z_ohm[k, j].copy()), cv=cv, flags=flags))
     geometry = {**spec.geometry, **{f"resolved_{key}": v for key, v in geo.as_dict().items() if key != "mom_layers"}}

@@ -10,56 +10,29 @@ responses are stored in SI (Hz, ohm) as numpy arrays.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Any, Literal
+from typing import Any
 
 import numpy as np
 
-Better = Literal["higher", "lower"]
-
-
-@dataclass(frozen=True)
-class MetricInfo:
-    """Description of one per-corner metric column."""
-
-    name: str
-    unit: str
-    description: str
-    better: Better
-
-
-#: Per cell x corner metrics, in display order. Catalog columns, filter names, CSV headers and
-#: TUI column headers are exactly these names.
-METRICS: tuple[MetricInfo, ...] = (
-    MetricInfo("cap_fF", "fF", "low-frequency capacitance at the operating bias", "higher"),
-    MetricInfo("cap_density_fF_per_um2", "fF/um^2", "capacitance per cell footprint area", "higher"),
-    MetricInfo("cap_ox_fF", "fF", "plain Cox x gate area (no depletion, centroid or overlap)", "higher"),
-    MetricInfo("esr_ohm", "ohm", "low-frequency equivalent series resistance", "lower"),
-    MetricInfo("esr_1GHz_ohm", "ohm", "series resistance Re Z at 1 GHz", "lower"),
-    MetricInfo("bandwidth_GHz", "GHz", "usable bandwidth: where C_eff falls to C/sqrt(2)", "higher"),
-    MetricInfo("esl_pH", "pH", "equivalent series inductance", "lower"),
-    MetricInfo("srf_GHz", "GHz", "self-resonance frequency", "higher"),
-    MetricInfo("tau_ps", "ps", "RC time constant ESR x C", "lower"),
-    MetricInfo("leakage_nA", "nA", "gate tunnelling leakage at the supply", "lower"),
-    MetricInfo("leakage_nA_per_nF", "nA/nF", "leakage per nF of capacitance", "lower"),
-    MetricInfo("oxide_field_MV_per_cm", "MV/cm", "oxide field at the supply", "lower"),
-    MetricInfo("tddb_life_years", "years", "time to 0.01 % oxide breakdown of this cell at the supply", "higher"),
-    MetricInfo("pulse_vbd_V", "V", "gate-oxide breakdown voltage under a ~100 ns ESD-like pulse (rail clamps must hold the rails below it; empty for MOM)", "higher"),
+from celllab.columns import (
+    AGGREGATE_CORNERS,
+    CELL_COLUMNS,
+    METRIC_BY_NAME,
+    METRIC_NAMES,
+    METRICS,
+    Better,
+    Column,
 )
 
-METRIC_NAMES: tuple[str, ...] = tuple(m.name for m in METRICS)
-METRIC_BY_NAME: dict[str, MetricInfo] = {m.name: m for m in METRICS}
+#: Column facts (units, better direction, worst/best) live in ``celllab.columns``; the names are
+#: re-exported here because ``CornerResult.metrics`` is keyed by ``METRIC_NAMES``.
+MetricInfo = Column
 
-#: Per-cell (corner-independent) columns that can be filtered and ranked too.
-CELL_COLUMNS: dict[str, MetricInfo] = {
-    m.name: m
-    for m in (
-        MetricInfo("area_um2", "um^2", "cell footprint area", "lower"),
-        MetricInfo("width_sites", "sites", "cell width in placement sites", "lower"),
-        MetricInfo("height_rows", "rows", "cell height in placement rows", "lower"),
-        MetricInfo("gate_area_um2", "um^2", "total gate (or plate) area", "higher"),
-        MetricInfo("esd_safe", "bool", "1 when no gate is tied directly to a rail", "higher"),
-    )
-}
+__all__ = [
+    "CELL_COLUMNS", "METRICS", "METRIC_BY_NAME", "METRIC_NAMES", "Better", "CVCurve", "CellResult",
+    "CharacterizationRun", "CornerResult", "FrequencyResponse", "MetricInfo", "corner_metrics",
+    "netlist_from_dict", "netlist_to_dict",
+]
 
 
 @dataclass
@@ -143,6 +116,18 @@ class CharacterizationRun:
     corners: list[str]
     cells: list[CellResult]
     source_files: list[str] = field(default_factory=list)
+
+
+def corner_metrics(cell: CellResult, corner: str) -> dict[str, float]:
+    """Metrics of ``cell`` at a corner name, or per metric its "worst" / "best" over the corners.
+
+    The Python twin of the catalog's worst/best rows (``columns.Column.over_corners``); a corner
+    the cell lacks raises ``KeyError``.
+    """
+    if corner in AGGREGATE_CORNERS:
+        return {m.name: m.over_corners((c.metrics.get(m.name) for c in cell.corners), corner)  # type: ignore[arg-type]
+                for m in METRICS}
+    return dict(cell.corner(corner).metrics)
 
 
 def netlist_to_dict(netlist: Any) -> dict[str, Any]:

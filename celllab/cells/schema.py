@@ -9,9 +9,10 @@ from __future__ import annotations
 
 from typing import Any, Literal
 
-from pydantic import BaseModel, ConfigDict, Field, field_validator, model_validator
+from pydantic import Field, field_validator, model_validator
 from pydantic_core import PydanticCustomError
 
+from celllab.strict import StrictModel
 from celllab.topologies import REGISTRY
 
 OxideChoice = Literal["core", "io"]
@@ -31,10 +32,8 @@ NAME_TAGS: dict[str, str] = {
 }
 
 
-class CellSpec(BaseModel):
+class CellSpec(StrictModel):
     """One cell variant as the user defined it (before geometry derivation)."""
-
-    model_config = ConfigDict(extra="forbid", frozen=True)
 
     name: str = Field(pattern=r"^[A-Za-z][A-Za-z0-9_\-\.]{0,79}$", description="variant name")
     family: str = Field("", description="family this variant came from")

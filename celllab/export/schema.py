@@ -18,10 +18,11 @@ import os
 from pathlib import Path
 from typing import Any, Literal
 
-from pydantic import BaseModel, ConfigDict, Field, create_model
+from pydantic import BaseModel, Field, create_model
 
 from celllab.export import CAUTION, atomic_write_text
 from celllab.records import METRICS
+from celllab.strict import StrictModel
 
 FORMAT_NAME: Literal["celllab.cells"] = "celllab.cells"
 FORMAT_VERSION: Literal[1] = 1
@@ -49,11 +50,7 @@ __all__ = [
 ]
 
 
-class _Strict(BaseModel):
-    model_config = ConfigDict(extra="forbid")
-
-
-class ResponseExport(_Strict):
+class ResponseExport(StrictModel):
     """Small-signal impedance between the rails, Z = z_real_ohm + j z_imag_ohm."""
 
     freq_Hz: list[Number] = Field(description="frequency points [Hz], increasing")
@@ -61,7 +58,7 @@ class ResponseExport(_Strict):
     z_imag_ohm: list[Number] = Field(description="Im Z at each frequency [ohm]")
 
 
-class CVExport(_Strict):
+class CVExport(StrictModel):
     """Quasi-static capacitance versus gate-to-body bias, and the operating point."""
 
     bias_V: list[Number] = Field(description="gate-to-body bias [V]")
@@ -72,7 +69,7 @@ class CVExport(_Strict):
 
 MetricsExport: type[BaseModel] = create_model(  # type: ignore[call-overload]
     "MetricsExport",
-    __config__=ConfigDict(extra="forbid"),
+    __base__=StrictModel,
     __doc__="Per-corner metrics; null when undefined or not finite.",
     **{
         m.name: (Number, Field(description=f"{m.description} [{m.unit}]; {m.better} is better"))
@@ -81,7 +78,7 @@ MetricsExport: type[BaseModel] = create_model(  # type: ignore[call-overload]
 )
 
 
-class CircuitElementExport(_Strict):
+class CircuitElementExport(StrictModel):
     """One element of a corner's equivalent circuit between the ports vdd and vss."""
 
     name: str = Field(description="element name, unique in the circuit")
@@ -95,7 +92,7 @@ class CircuitElementExport(_Strict):
     )
 
 
-class CornerExport(_Strict):
+class CornerExport(StrictModel):
     """Metrics and curves of one cell at one corner."""
 
     corner: str = Field(description="deck-defined corner name")
@@ -110,7 +107,7 @@ class CornerExport(_Strict):
     )
 
 
-class CellExport(_Strict):
+class CellExport(StrictModel):
     """One characterized cell variant under one deck."""
 
     name: str
@@ -128,7 +125,7 @@ class CellExport(_Strict):
     corners: list[CornerExport] = Field(min_length=1)
 
 
-class CellsDocument(_Strict):
+class CellsDocument(StrictModel):
     """A celllab JSON export: cells characterized under one process deck."""
 
     format: Literal["celllab.cells"] = FORMAT_NAME

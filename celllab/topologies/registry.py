@@ -7,7 +7,6 @@ validation, geometry, the engine, the filter language and the UI all read ``REGI
 
 from __future__ import annotations
 
-import difflib
 from collections.abc import Callable, Iterator, Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any
@@ -96,10 +95,6 @@ class Registry(Mapping[str, Topology]):
         """Topologies a geometry field applies to, in listing order."""
         return tuple(n for n, t in self._items.items() if fieldname in t.fields)
 
-    def closest(self, name: str) -> str | None:
-        """The known name closest to a mistyped one, or None."""
-        guess = difflib.get_close_matches(name, self.names(), n=1)
-        return guess[0] if guess else None
 
 
 REGISTRY = Registry()

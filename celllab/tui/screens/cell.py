@@ -15,6 +15,7 @@ from textual.binding import Binding
 from textual.containers import VerticalScroll
 from textual.widgets import DataTable, Footer, Static, TabbedContent, TabPane, TextArea
 
+from celllab import CAUTION_SHORT
 from celllab.errors import CelllabError
 from celllab.records import METRICS, CellResult
 from celllab.tui.messages import CellLoaded, QueryFailed
@@ -184,7 +185,7 @@ def flags_table(cell: CellResult) -> Table | Text:
             where.setdefault(flag, []).append(c.corner)
     if not where and not cell.notes:
         return Text("No validity flags: every model was used inside its stated range at every "
-                    "corner.\n\nThe numbers remain engineering estimates, not sign-off.",
+                    "corner.\n\n" + CAUTION_SHORT,
                     style="green")
     table = Table(expand=True, box=None, padding=(0, 1), show_lines=True)
     table.add_column("flag", no_wrap=True, style="yellow")
@@ -291,7 +292,7 @@ class CellScreen(TaskScreen):
         for info in METRICS:
             values = [c.metrics.get(info.name) for c in cell.corners]
             name = Text(info.name)
-            name.append(" ↑" if info.better == "higher" else " ↓", style="dim")
+            name.append(f" {info.arrow}", style="dim")
             table.add_row(name, *[value_text(v) for v in values], key=info.name)
 
     # --- actions ------------------------------------------------------------------------
