@@ -12,15 +12,19 @@ empty values (NaN, NULL) are skipped, and a metric empty at every corner stays e
 
 Corner selectors, read the same way by queries and exports: a corner name is that corner;
 ``"worst"`` / ``"best"`` (``AGGREGATE_CORNERS``) are the per-metric extremes above; ``None``
-means no corner singled out, i.e. every corner.
+means no corner singled out: outputs that hold several rows give every corner (catalog
+queries, CSV rows, the datasheet summary), outputs that hold exactly one corner (a SPICE
+subcircuit, one Touchstone file) use the cell's first corner, the run's first.
 """
 
 from __future__ import annotations
 
 import math
-from collections.abc import Iterable
+from collections.abc import Callable, Iterable
 from dataclasses import dataclass
-from typing import Literal
+from typing import Any, Literal
+
+from celllab.units import from_si
 
 Better = Literal["higher", "lower"]
 Kind = Literal["number", "text", "bool"]
@@ -42,6 +46,8 @@ class Column:
     better : {"higher", "lower"} or None   ranking direction; None for text and conditions
     kind : {"number", "text", "bool"}
     digits : int        significant digits when shown to people
+    compute : callable  metrics only: the value in ``unit`` from the SI figures of one cell at
+                        one corner (``records.CornerFigures``); the engine calls it
     """
 
     name: str
@@ -50,6 +56,7 @@ class Column:
     better: Better | None = None
     kind: Kind = "number"
     digits: int = 4
+    compute: Callable[[Any], float] | None = None
 
     @property
     def higher_is_better(self) -> bool:
@@ -87,23 +94,39 @@ class Column:
         return after > before if self.higher_is_better else after < before
 
 
-#: Per cell x corner metrics, in display order.
+def _per_nF(f: Any) -> float:
+    return from_si(f.leakage_A, "nA") / from_si(f.c_lf_F, "nF") if f.c_lf_F > 0 else math.nan
+
+
+#: Per cell x corner metrics, in display order; each computed from ``records.CornerFigures``.
 METRICS: tuple[Column, ...] = (
-    Column("cap_fF", "fF", "low-frequency capacitance at the operating bias", "higher"),
-    Column("cap_density_fF_per_um2", "fF/um^2", "capacitance per cell footprint area", "higher"),
-    Column("cap_ox_fF", "fF", "plain Cox x gate area (no depletion, centroid or overlap)", "higher"),
-    Column("esr_ohm", "ohm", "low-frequency equivalent series resistance", "lower"),
-    Column("esr_1GHz_ohm", "ohm", "series resistance Re Z at 1 GHz", "lower"),
-    Column("bandwidth_GHz", "GHz", "usable bandwidth: where C_eff falls to C/sqrt(2)", "higher"),
-    Column("esl_pH", "pH", "equivalent series inductance", "lower"),
-    Column("srf_GHz", "GHz", "self-resonance frequency", "higher"),
-    Column("tau_ps", "ps", "RC time constant ESR x C", "lower"),
-    Column("leakage_nA", "nA", "gate tunnelling leakage at the supply", "lower"),
-    Column("leakage_nA_per_nF", "nA/nF", "leakage per nF of capacitance", "lower"),
-    Column("oxide_field_MV_per_cm", "MV/cm", "oxide field at the supply", "lower"),
-    Column("tddb_life_years", "years", "time to 0.01 % oxide breakdown of this cell at the supply", "higher"),
+    Column("cap_fF", "fF", "low-frequency capacitance at the operating bias", "higher",
+           compute=lambda f: from_si(f.c_lf_F, "fF")),
+    Column("cap_density_fF_per_um2", "fF/um^2", "capacitance per cell footprint area", "higher",
+           compute=lambda f: from_si(f.c_lf_F, "fF") / f.area_um2),
+    Column("cap_ox_fF", "fF", "plain Cox x gate area (no depletion, centroid or overlap)", "higher",
+           compute=lambda f: from_si(f.cap_ox_F, "fF")),
+    Column("esr_ohm", "ohm", "low-frequency equivalent series resistance", "lower",
+           compute=lambda f: f.esr_lf_ohm),
+    Column("esr_1GHz_ohm", "ohm", "series resistance Re Z at 1 GHz", "lower",
+           compute=lambda f: f.esr_probe_ohm),
+    Column("bandwidth_GHz", "GHz", "usable bandwidth: where C_eff falls to C/sqrt(2)", "higher",
+           compute=lambda f: from_si(f.bandwidth_Hz, "GHz")),
+    Column("esl_pH", "pH", "equivalent series inductance", "lower",
+           compute=lambda f: from_si(f.esl_H, "pH")),
+    Column("srf_GHz", "GHz", "self-resonance frequency", "higher",
+           compute=lambda f: from_si(f.srf_Hz, "GHz")),
+    Column("tau_ps", "ps", "RC time constant ESR x C", "lower",
+           compute=lambda f: from_si(f.tau_s, "ps")),
+    Column("leakage_nA", "nA", "gate tunnelling leakage at the supply", "lower",
+           compute=lambda f: from_si(f.leakage_A, "nA")),
+    Column("leakage_nA_per_nF", "nA/nF", "leakage per nF of capacitance", "lower", compute=_per_nF),
+    Column("oxide_field_MV_per_cm", "MV/cm", "oxide field at the supply", "lower",
+           compute=lambda f: from_si(f.e_ox_V_per_m, "MV/cm")),
+    Column("tddb_life_years", "years", "time to 0.01 % oxide breakdown of this cell at the supply", "higher",
+           compute=lambda f: from_si(f.ttf_s, "years")),
     Column("pulse_vbd_V", "V", "gate-oxide breakdown voltage under a ~100 ns ESD-like pulse (rail clamps "
-           "must hold the rails below it; empty for MOM)", "higher"),
+           "must hold the rails below it; empty for MOM)", "higher", compute=lambda f: f.vbd_pulse_V),
 )
 
 #: Per-cell (corner-independent) columns that can be filtered and ranked too.

@@ -14,7 +14,9 @@ from typing import Any
 
 import numpy as np
 
-__all__ = ["finite_or_none", "format_number", "format_value", "jsonable", "nan_to_none", "none_to_nan",
+from celllab.columns import unit_of
+
+__all__ = ["corner_conditions", "finite_or_none", "format_number", "format_value", "jsonable", "nan_to_none", "none_to_nan",
            "text_table"]
 
 #: Magnitudes shown in plain notation by ``format_number(..., plain_range=PLAIN_RANGE)``;
@@ -54,6 +56,12 @@ def format_value(value: Any, empty: str = "-", digits: int = 4) -> str:
     return str(value)
 
 
+def corner_conditions(temperature_C: float, supply_V: float) -> str:
+    """``T = 25 degC, supply = 1.2 V``: a corner's conditions for file headers."""
+    return (f"T = {temperature_C:g} {unit_of('temperature_C')}, "
+            f"supply = {supply_V:g} {unit_of('supply_V')}")
+
+
 def _is_number(value: Any) -> bool:
     return isinstance(value, (Real, np.bool_)) and not isinstance(value, str)
 
@@ -90,10 +98,8 @@ def none_to_nan(value: Any) -> float:
 
 def finite_or_none(value: Any) -> float | None:
     """A number as float, None for None, NaN and infinities: JSON has no such numbers."""
-    if value is None:
-        return None
-    number = float(value)
-    return number if math.isfinite(number) else None
+    number = nan_to_none(value)
+    return number if number is None or math.isfinite(number) else None
 
 
 def jsonable(value: Any) -> Any:

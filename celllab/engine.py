@@ -18,9 +18,10 @@ from celllab.cells.schema import CellSpec
 from celllab.characterization.params import CornerSet
 from celllab.deck.schema import Deck
 from celllab.records import (
-    METRIC_NAMES,
+    METRICS,
     CellResult,
     CharacterizationRun,
+    CornerFigures,
     CornerResult,
     CVCurve,
     FrequencyResponse,
@@ -77,33 +78,22 @@ def _record(spec: CellSpec, geo: Any, corners: CornerSet, group: Any, index: int
     out, k = group.row(index)
     corner_results = []
     for j, cname in enumerate(corners.names):
-        m = {name: float("nan") for name in METRIC_NAMES}
-        c_lf = out.summary["c_lf_F"][k, j]
-        m["cap_fF"] = from_si(c_lf, "fF")
-        m["cap_density_fF_per_um2"] = from_si(c_lf, "fF") / geo.area_um2
-        m["cap_ox_fF"] = from_si(out.cap_ox_F[k, j], "fF")
-        m["esr_ohm"] = out.summary["esr_lf_ohm"][k, j]
-        m["esr_1GHz_ohm"] = out.summary["esr_at_ohm"][k, j, 0]
-        bw = out.summary["bandwidth_Hz"][k, j]
-        m["bandwidth_GHz"] = from_si(bw, "GHz")
-        m["esl_pH"] = from_si(_series_inductance(out, k, j), "pH")
-        srf = out.summary["srf_Hz"][k, j]
-        m["srf_GHz"] = from_si(srf, "GHz")
-        m["tau_ps"] = from_si(out.summary["tau_s"][k, j], "ps")
-        leak = out.leakage_A[k, j]
-        m["leakage_nA"] = from_si(leak, "nA")
-        m["leakage_nA_per_nF"] = from_si(leak, "nA") / from_si(c_lf, "nF") if c_lf > 0 else float("nan")
-        m["oxide_field_MV_per_cm"] = from_si(out.e_ox_V_per_m[k, j], "MV/cm")
-        m["tddb_life_years"] = from_si(out.ttf_s[k, j], "years")
-        m["pulse_vbd_V"] = out.vbd_pulse_V[k, j]
         flags = list(out.flags[k][j])
+        bw = float(out.summary["bandwidth_Hz"][k, j])
         if not np.isfinite(bw):
             flags.append("bandwidth_beyond_sweep: C_eff stays above C/sqrt(2) up to 1 THz; value is a lower bound")
-            m["bandwidth_GHz"] = from_si(FREQ_HZ[-1], "GHz")
+            bw = float(FREQ_HZ[-1])
+        srf = float(out.summary["srf_Hz"][k, j])
         if not np.isfinite(srf):
             flags.append("srf_beyond_sweep: no self-resonance below 1 THz; value is a lower bound")
-            m["srf_GHz"] = from_si(FREQ_HZ[-1], "GHz")
-        m = {key: _finite(v) for key, v in m.items()}
+            srf = float(FREQ_HZ[-1])
+        figures = CornerFigures(
+            area_um2=geo.area_um2, c_lf_F=float(out.summary["c_lf_F"][k, j]), cap_ox_F=float(out.cap_ox_F[k, j]),
+            esr_lf_ohm=float(out.summary["esr_lf_ohm"][k, j]), esr_probe_ohm=float(out.summary["esr_at_ohm"][k, j, 0]),
+            bandwidth_Hz=bw, esl_H=_series_inductance(out, k, j), srf_Hz=srf, tau_s=float(out.summary["tau_s"][k, j]),
+            leakage_A=float(out.leakage_A[k, j]), e_ox_V_per_m=float(out.e_ox_V_per_m[k, j]),
+            ttf_s=float(out.ttf_s[k, j]), vbd_pulse_V=float(out.vbd_pulse_V[k, j]))
+        m = {metric.name: _finite(metric.compute(figures)) for metric in METRICS}  # type: ignore[misc]
         cv = None
         if out.cv_bias is not None:
             cv = CVCurve(bias_V=np.asarray(out.cv_bias[k, j], dtype=float), cap_F=np.asarray(out.cv_cap[k, j], dtype=float),

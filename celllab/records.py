@@ -30,9 +30,32 @@ MetricInfo = Column
 
 __all__ = [
     "CELL_COLUMNS", "METRICS", "METRIC_BY_NAME", "METRIC_NAMES", "Better", "CVCurve", "CellResult",
-    "CharacterizationRun", "CornerResult", "FrequencyResponse", "MetricInfo", "corner_metrics",
+    "CharacterizationRun", "CornerFigures", "CornerResult", "FrequencyResponse", "MetricInfo", "corner_metrics",
     "netlist_from_dict", "netlist_to_dict",
 ]
+
+
+@dataclass(frozen=True)
+class CornerFigures:
+    """SI figures of one cell at one corner: what each metric (``columns.METRICS``) is computed from.
+
+    The engine fills them from a topology's group result; values outside the sweep are already
+    clamped to its end (with a flag), undefined ones are NaN.
+    """
+
+    area_um2: float          # cell footprint, um^2 (the one non-SI figure: densities are per um^2)
+    c_lf_F: float            # low-frequency capacitance, F
+    cap_ox_F: float          # plain Cox x area (+ metal), F
+    esr_lf_ohm: float        # low-frequency Re Z, ohm
+    esr_probe_ohm: float     # Re Z at the ESR probe frequency (1 GHz), ohm
+    bandwidth_Hz: float      # C_eff = C / sqrt(2), Hz
+    esl_H: float             # series inductance, H
+    srf_Hz: float            # self-resonance, Hz
+    tau_s: float             # ESR x C, s
+    leakage_A: float         # gate leakage at the supply, A
+    e_ox_V_per_m: float      # SiO2-equivalent oxide field, V/m
+    ttf_s: float             # time to the quoted oxide failure fraction, s
+    vbd_pulse_V: float       # pulse breakdown voltage, V
 
 
 @dataclass

@@ -86,9 +86,9 @@ UNITS: dict[str, Unit] = {
         Unit("A", "A", 1.0, suffixes=("_A",)),
         Unit("nA", "A", nano, suffixes=("_nA",)),
         Unit("nA/nF", "A/F", 1.0, suffixes=("_nA_per_nF",)),
-        Unit("A/cm^2", "A/m^2", centi**-2, suffixes=("_A_per_cm2",)),
+        Unit("A/cm^2", "A/m^2", (1 / centi) ** 2, suffixes=("_A_per_cm2",)),
         # materials
-        Unit("cm^-3", "m^-3", centi**-3, suffixes=("_cm3",)),
+        Unit("cm^-3", "m^-3", (1 / centi) ** 3, suffixes=("_cm3",)),
         Unit("cm^2/(V s)", "m^2/(V s)", centi**2, suffixes=("_cm2_per_Vs",)),
         # temperature
         Unit("degC", "K", 1.0, zero_Celsius, suffixes=("_C",)),

@@ -44,6 +44,7 @@ def test_every_name_once_with_its_unit_in_the_name() -> None:
         if column.kind == "number":
             assert column.name.endswith(tags[column.unit]), column.name
     assert all(c.better is not None for c in RANKED.values())
+    assert all(m.compute is not None for m in METRICS)  # the engine computes every metric from here
     assert all(c.better is None for c in (*TEXT_COLUMNS.values(), *CORNER_COLUMNS.values()))
 
 
@@ -102,3 +103,63 @@ def test_corner_metrics_of_a_record() -> None:
     assert math.isnan(worst["srf_GHz"])
     with pytest.raises(KeyError):
         corner_metrics(cell, "c9")
+
+
+ADDED_METRIC = '''    Column("cap_nF", "nF", "low-frequency capacitance in nF", "higher",
+           compute=lambda f: from_si(f.c_lf_F, "nF")),
+'''
+
+ADDED_METRIC_CHECK = '''
+import json, pathlib, sys
+import celllab.columns
+assert pathlib.Path(celllab.columns.__file__).is_relative_to(sys.argv[1]), celllab.columns.__file__
+from celllab.catalog import open_catalog
+from celllab.catalog.filters import describe_language
+from celllab.cells import CellSpec
+from celllab.deck import load_deck
+from celllab.engine import characterize
+from celllab.export.csv import render_csv
+from celllab.export.schema import export_json_schema
+from celllab.tui.screens.catalog import ALL_COLUMNS
+
+deck = load_deck(pathlib.Path(sys.argv[2]) / "process_decks" / "lumen130.toml")
+run = characterize(deck, [CellSpec(name="t", topology="nmos_inversion", width_sites=8)], corners=["typ_25C"])
+with open_catalog(pathlib.Path(sys.argv[1]) / "c.sqlite") as catalog:
+    catalog.store_run(run)
+    rows = catalog.query(where="cap_nF > 0", order_by="cap_nF")
+print(json.dumps({
+    "metric": run.cells[0].corners[0].metrics["cap_nF"], "cap_fF": run.cells[0].corners[0].metrics["cap_fF"],
+    "row": rows[0]["cap_nF"], "csv": render_csv(rows).splitlines()[:4],
+    "schema": "cap_nF" in json.dumps(export_json_schema()), "help": "cap_nF" in describe_language(),
+    "tui": "cap_nF" in ALL_COLUMNS,
+}))
+'''
+
+
+def test_a_metric_added_in_columns_alone_reaches_every_consumer(tmp_path) -> None:
+    """Adding a metric edits celllab/columns.py only: engine, catalog, filter, CSV, JSON schema, UI."""
+    import json
+    import shutil
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    import celllab
+
+    package = Path(celllab.__file__).parent
+    copy = tmp_path / "celllab"
+    shutil.copytree(package, copy, ignore=shutil.ignore_patterns("__pycache__"))
+    columns = copy / "columns.py"
+    text = columns.read_text(encoding="utf-8")
+    anchor = '    Column("pulse_vbd_V"'
+    assert text.count(anchor) == 1
+    columns.write_text(text.replace(anchor, ADDED_METRIC + anchor), encoding="utf-8")
+    out = subprocess.run([sys.executable, "-c", ADDED_METRIC_CHECK, str(tmp_path), str(package.parent)],
+                         capture_output=True, text=True, cwd=tmp_path, env={"PYTHONPATH": str(tmp_path), "PATH": ""})
+    assert out.returncode == 0, out.stderr
+    got = json.loads(out.stdout)
+    # Source: SI prefixes, 1 nF = 1e6 fF (BIPM SI Brochure, table 7); rel 1e-12
+    assert got["metric"] == pytest.approx(got["cap_fF"] * 1e-6, rel=1e-12)
+    assert got["row"] == pytest.approx(got["metric"], rel=1e-12)
+    assert any("cap_nF [nF]" in line for line in got["csv"]) and any("cap_nF" in line for line in got["csv"])
+    assert got["schema"] and got["help"] and got["tui"]

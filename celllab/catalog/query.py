@@ -367,39 +367,34 @@ def compare(
     return sorted(rows, key=lambda r: order[r["name"]])
 
 
-def name_taken(db: sqlite_utils.Database, name: str, deck: str) -> bool:
-    """Whether a current cell called ``name`` exists under the current deck ``deck`` (name or hash)."""
+def _current_cells(
+    db: sqlite_utils.Database, deck: str | None, columns: str, condition: str, values: list[object]
+) -> list[tuple[Any, ...]]:
+    """``columns`` of the current cells (of the current deck ``deck``) meeting ``condition``."""
     params: list[object] = []
     scope = _scope_sql("c", "d", deck, True, params)
     return db.execute(
-        f"SELECT 1 FROM cells c JOIN decks d ON d.deck_hash = c.deck_hash "
-        f"WHERE {scope} AND c.name = ? LIMIT 1",
-        [*params, name],
-    ).fetchone() is not None
+        f"SELECT {columns} FROM cells c JOIN decks d ON d.deck_hash = c.deck_hash "
+        f"WHERE {scope} AND {condition}",
+        [*params, *values],
+    ).fetchall()
+
+
+def name_taken(db: sqlite_utils.Database, name: str, deck: str) -> bool:
+    """Whether a current cell called ``name`` exists under the current deck ``deck`` (name or hash)."""
+    return bool(_current_cells(db, deck, "1", "c.name = ? LIMIT 1", [name]))
 
 
 def identical_cell(db: sqlite_utils.Database, cell_hash: str, deck: str) -> str | None:
     """Name of a current cell of deck ``deck`` with this content hash (same definition), if any."""
-    params: list[object] = []
-    scope = _scope_sql("c", "d", deck, True, params)
-    row = db.execute(
-        f"SELECT c.name FROM cells c JOIN decks d ON d.deck_hash = c.deck_hash "
-        f"WHERE {scope} AND c.cell_hash = ? ORDER BY c.name LIMIT 1",
-        [*params, cell_hash],
-    ).fetchone()
-    return None if row is None else str(row[0])
+    rows = _current_cells(db, deck, "c.name", "c.cell_hash = ? ORDER BY c.name LIMIT 1", [cell_hash])
+    return str(rows[0][0]) if rows else None
 
 
 def find_cell_id(db: sqlite_utils.Database, name: str, deck: str | None = None) -> int:
     """cell_id of the current result of ``name`` (in ``deck``); CatalogError if absent or ambiguous."""
     check_deck(db, deck)
-    params: list[object] = []
-    scope = _scope_sql("c", "d", deck, True, params)
-    rows = db.execute(
-        f"SELECT c.cell_id, d.name FROM cells c JOIN decks d "
-        f"ON d.deck_hash = c.deck_hash WHERE {scope} AND c.name = ?",
-        [*params, name],
-    ).fetchall()
+    rows = _current_cells(db, deck, "c.cell_id, d.name", "c.name = ?", [name])
     if not rows:
         raise _missing_names_error(db, [name], deck)
     if len(rows) > 1:

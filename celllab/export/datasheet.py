@@ -23,7 +23,7 @@ from matplotlib.figure import Figure
 from matplotlib.ticker import FuncFormatter, NullLocator
 
 from celllab import MODEL_VERSION, __version__
-from celllab.columns import CELL_COLUMNS, METRICS
+from celllab.columns import CELL_COLUMNS, METRICS, unit_of
 from celllab.display import format_value
 from celllab.export import CAUTION, atomic_write_text
 from celllab.records import CellResult, CornerResult, corner_metrics
@@ -252,7 +252,8 @@ def _cell_table(cell: CellResult) -> str:
 def _metrics_table(corners: Sequence[CornerResult]) -> str:
     head = "".join(f'<th scope="col">{_text(c.corner)}</th>' for c in corners)
     conditions = "".join(
-        f"<td>{_fmt(c.temperature_C)} degC, {_fmt(c.supply_V)} V</td>" for c in corners
+        f"<td>{_fmt(c.temperature_C)} {unit_of('temperature_C')}, {_fmt(c.supply_V)} {unit_of('supply_V')}</td>"
+        for c in corners
     )
     rows = [f'<tr><th scope="row">conditions</th><td></td><td></td>{conditions}</tr>']
     for info in METRICS:

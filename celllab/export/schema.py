@@ -20,8 +20,8 @@ from typing import Any, Literal
 
 from pydantic import BaseModel, Field, create_model
 
+from celllab.columns import CORNER_COLUMNS, METRICS
 from celllab.export import CAUTION, atomic_write_text
-from celllab.records import METRICS
 from celllab.strict import StrictModel
 
 FORMAT_NAME: Literal["celllab.cells"] = "celllab.cells"
@@ -33,6 +33,11 @@ from celllab.topologies import REGISTRY  # noqa: E402
 
 #: The topologies known when the export format was loaded (an enum in the JSON Schema).
 Topology = Literal[REGISTRY.names()]  # type: ignore[valid-type]
+
+def _described(name: str) -> str:
+    column = CORNER_COLUMNS[name]
+    return f"{column.description} [{column.unit}]"
+
 
 #: JSON has no NaN/inf; those are written as null.
 Number = float | None
@@ -96,8 +101,8 @@ class CornerExport(StrictModel):
     """Metrics and curves of one cell at one corner."""
 
     corner: str = Field(description="deck-defined corner name")
-    temperature_C: Number = Field(description="corner temperature [degC]")
-    supply_V: Number = Field(description="supply voltage at this corner [V]")
+    temperature_C: Number = Field(description=_described("temperature_C"))
+    supply_V: Number = Field(description=_described("supply_V"))
     metrics: MetricsExport  # type: ignore[valid-type]
     flags: list[str] = Field(description="warnings, e.g. a model used outside its range")
     response: ResponseExport | None = Field(description="Z(f), or null when omitted")

@@ -27,7 +27,7 @@ import numpy as np
 
 from celllab import MODEL_VERSION, __version__
 from celllab.columns import unit_of
-from celllab.display import format_value
+from celllab.display import corner_conditions, format_value
 from celllab.export import CAUTION, atomic_write_text
 from celllab.physics.netlist import Element, Netlist, ladder_expansion, solve_impedance
 from celllab.records import CellResult, CornerResult
@@ -353,8 +353,7 @@ def render_spice_subckt(
     ]
     if result is not None:
         header.append(
-            f"corner {result.corner} (T = {result.temperature_C:g} degC, supply = "
-            f"{result.supply_V:g} V):"
+            f"corner {result.corner} ({corner_conditions(result.temperature_C, result.supply_V)}):"
         )
         header += [
             f"  {m} = {_metric_text(result.metrics[m], unit_of(m))}"

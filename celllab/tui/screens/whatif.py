@@ -44,6 +44,7 @@ from celllab.tui.widgets.problems_view import ProblemsView
 from celllab.tui.widgets.task_bar import TaskBar
 from celllab.tui.widgets.values import value_text
 from celllab.tui.widgets.whatif_form import WhatIfForm, geometry_help
+from celllab.units import from_si
 
 _INT = re.compile(r"^[+-]?\d+$")
 _FLOAT = re.compile(r"^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
@@ -342,7 +343,7 @@ class WhatIfScreen(TaskScreen):
         self.query_one(ProblemsView).problems = ()
         self.query_one(WhatIfForm).invalid = frozenset()
         self.query_one("#wi-status", Static).update(
-            Text(f"updated in {message.seconds * 1000:.0f} ms · not saved (ctrl+s)", style="green"))
+            Text(f"updated in {from_si(message.seconds, 'ms'):.0f} ms · not saved (ctrl+s)", style="green"))
         self._refresh_views()
 
     def on_what_if_rejected(self, message: WhatIfRejected) -> None:
