@@ -31,10 +31,8 @@ from celllab.catalog.store import StoreReport
 from celllab.errors import CatalogError
 from celllab.records import CellResult, CharacterizationRun
 
-__all__ = ["DEFAULT_PATH", "Catalog", "DeckInfo", "MergeReport", "StoreReport", "open_catalog"]
+__all__ = ["Catalog", "DeckInfo", "MergeReport", "StoreReport", "open_catalog"]
 
-#: Where the catalog lives unless told otherwise (``celllab.DEFAULT_CATALOG``).
-DEFAULT_PATH = DEFAULT_CATALOG
 
 
 class Catalog:
@@ -153,4 +151,4 @@ class Catalog:
 
 def open_catalog(path: str | Path | None = None, create: bool = True) -> Catalog:
     """Open the catalog at ``path`` (default ``db/celllab.sqlite``), creating it if ``create``."""
-    return Catalog(Path(path) if path is not None else DEFAULT_PATH, create=create)
+    return Catalog(Path(path) if path is not None else DEFAULT_CATALOG, create=create)
