@@ -213,7 +213,8 @@ CASES: list[Bad] = [
     Bad("cells-mom-field-on-mos", "cells", "family[0]", ("mom_top applies to mom and mos_mom cells only",
                                                           "not nmos_inversion"),
         cells=GOOD_CELLS + 'mom_top = "M3"\n'),
-    Bad("cells-gate-field-on-mom", "cells", "cell[0]", ("gate_length_um does not apply to a mom cell",),
+    Bad("cells-gate-field-on-mom", "cells", "cell[0]", ("gate_length_um applies to nmos_inversion, pmos_inversion, accumulation, cross_coupled and "
+                                                         "mos_mom cells only", "not mom"),
         cells=mom("gate_length_um = 0.5\n")),
     Bad("cells-oxide-not-in-deck", "cells", "family[0].oxide", ("no such oxide flavour", "allowed: core"),
         deck=without_io, cells=GOOD_CELLS + 'oxide = "io"\n', line_of='oxide = "io"'),

@@ -12,9 +12,10 @@ from pathlib import Path
 import pytest
 from pydantic import BaseModel
 
-from celllab.cells import TOPOLOGIES, CellSpec, load_cells, resolve_geometry
+from celllab.cells import CellSpec, load_cells, resolve_geometry
 from celllab.cli.main import main
 from celllab.deck import Deck, load_deck, schema
+from celllab.topologies import REGISTRY
 
 
 def _load(paths: tuple[Path, Path]) -> tuple[Deck, list[CellSpec]]:
@@ -48,7 +49,7 @@ def test_variant_count(demo_deck_name: str, demo_deck_paths: dict[str, tuple[Pat
 @pytest.mark.parametrize("name", ["tarn40lp", "quill28hk"])
 def test_families_cover_every_topology(name: str, demo_deck_paths: dict[str, tuple[Path, Path]]) -> None:
     _, cells = _load(demo_deck_paths[name])
-    assert {c.topology for c in cells} == set(TOPOLOGIES)
+    assert {c.topology for c in cells} == set(REGISTRY)
     acc_wells = {c.accumulation_well for c in cells if c.topology == "accumulation"}
     assert acc_wells == {"n", "p"}
     assert {c.mom_alternate for c in cells if c.topology == "mom"} == {False, True}

@@ -20,8 +20,8 @@ from pathlib import Path
 
 import sqlite_utils
 
+from celllab.columns import AGGREGATE_CORNERS, CELL_COLUMNS, METRIC_BY_NAME, METRIC_NAMES
 from celllab.errors import CatalogError
-from celllab.records import CELL_COLUMNS, METRIC_BY_NAME, METRIC_NAMES
 
 #: Layout version written by this code.
 SCHEMA_VERSION = 3
@@ -175,25 +175,11 @@ CREATE INDEX corner_extremes_by_kind ON corner_extremes(kind);
     }"""
 
 
-def aggregate_function(metric: str, kind: str) -> str:
-    """``MIN`` or ``MAX``: the SQL aggregate giving the worst/best value of ``metric`` over corners.
-
-    worst = least favourable by ``METRICS.better`` (MIN of a higher-is-better metric, MAX of a
-    lower-is-better one); best the opposite. SQL MIN/MAX skip empty values.
-    """
-    higher = METRIC_BY_NAME[metric].better == "higher"
-    if kind == "worst":
-        return "MIN" if higher else "MAX"
-    if kind == "best":
-        return "MAX" if higher else "MIN"
-    raise ValueError(kind)
-
-
 def fill_extremes(db: sqlite_utils.Database, after_cell_id: int = 0) -> None:
     """Compute ``corner_extremes`` of every cell with ``cell_id > after_cell_id`` from its corners."""
     cols = ", ".join(f'"{m}"' for m in METRIC_NAMES)
-    for kind in ("worst", "best"):
-        aggs = ", ".join(f'{aggregate_function(m, kind)}("{m}")' for m in METRIC_NAMES)
+    for kind in AGGREGATE_CORNERS:  # worst / best as defined in celllab.columns; MIN/MAX skip NULLs
+        aggs = ", ".join(f'{METRIC_BY_NAME[m].sql_aggregate(kind)}("{m}")' for m in METRIC_NAMES)
         db.execute(
             f"INSERT INTO corner_extremes (cell_id, kind, {cols}) "
             f"SELECT cell_id, '{kind}', {aggs} FROM corner_metrics "

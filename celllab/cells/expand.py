@@ -22,7 +22,6 @@ that do not fit the outline instead of reporting them as errors.
 
 from __future__ import annotations
 
-import difflib
 import hashlib
 import itertools
 import json
@@ -33,9 +32,10 @@ import numpy as np
 from pydantic import ValidationError
 
 from celllab.cells.geometry import Geometry, GeometryProblem, resolve_geometry
-from celllab.cells.schema import GEOMETRY_FIELDS, NAME_TAGS, TOPOLOGIES, CellSpec
+from celllab.cells.schema import GEOMETRY_FIELDS, NAME_TAGS, CellSpec
 from celllab.deck.load import find_line, read_toml, validation_problems
-from celllab.errors import CellError, Problem
+from celllab.errors import CellError, Problem, allowed_hint
+from celllab.topologies import REGISTRY
 
 MAX_VARIANTS_PER_FAMILY = 20000
 _FAMILY_ONLY = {"name", "topology", "oxide", "description", "skip_unfit"}
@@ -119,16 +119,14 @@ def expand_family(entry: dict[str, Any], index: int, file: str, text: str | None
     problems = []
     for key in entry:
         if key not in allowed:
-            guess = difflib.get_close_matches(key, sorted(allowed), n=1)
-            problems.append(Problem(file, f"{where}.{key}", "unknown field" + (f"; did you mean {guess[0]!r}?" if guess
-                                    else "; allowed: " + ", ".join(sorted(allowed))), entry[key],
-                                    find_line(text, [kind, index, key]), has_value=False))
+            problems.append(Problem(file, f"{where}.{key}", "unknown field" + allowed_hint(key, sorted(allowed)),
+                                    entry[key], find_line(text, [kind, index, key]), has_value=False))
     if "name" not in entry:
         problems.append(Problem(file, f"{where}.name", "required field is missing", None,
                                 find_line(text, [kind, index]), has_value=False))
     if "topology" not in entry:
         problems.append(Problem(file, f"{where}.topology", "required field is missing; allowed: "
-                                + ", ".join(TOPOLOGIES), None, find_line(text, [kind, index]), has_value=False))
+                                + ", ".join(REGISTRY.names()), None, find_line(text, [kind, index]), has_value=False))
     if problems:
         raise CellError(problems)
     fixed = {k: entry[k] for k in ("name", "topology", "oxide") if k in entry}
@@ -249,9 +247,8 @@ def apply_cell_changes(spec: CellSpec, changes: dict[str, Any], deck: Any = None
     problems = []
     for key in changes:
         if key not in GEOMETRY_FIELDS and key not in ("topology", "oxide"):
-            guess = difflib.get_close_matches(key, GEOMETRY_FIELDS, n=1)
-            problems.append(Problem(source, key, "not an editable cell field" + (f"; did you mean {guess[0]!r}?"
-                                    if guess else "; allowed: " + ", ".join(GEOMETRY_FIELDS)), changes[key]))
+            problems.append(Problem(source, key, "not an editable cell field" + allowed_hint(key, GEOMETRY_FIELDS),
+                                    changes[key]))
     if problems:
         raise CellError(problems)
     raw = spec.model_dump()

@@ -16,17 +16,17 @@ library per corner for liberty (``<deck>_<corner>.lib``), else a file with a def
 from __future__ import annotations
 
 import argparse
-import difflib
 import os
 import sys
 from collections.abc import Callable, Sequence
 from pathlib import Path
 from typing import Any
 
-from celllab.errors import CatalogError, CelllabError, Problem
+from celllab import DEFAULT_CATALOG
+from celllab.columns import AGGREGATE_CORNERS
+from celllab.errors import CatalogError, CelllabError, Problem, did_you_mean
 
 FORMATS = ("csv", "json", "schema", "spice", "touchstone", "datasheet", "liberty", "lef")
-DEFAULT_CATALOG = str(Path("db") / "celllab.sqlite")
 #: File written into an --out folder for the single-file formats.
 DEFAULT_FILES = {
     "csv": "cells.csv",
@@ -35,7 +35,8 @@ DEFAULT_FILES = {
     "spice": "cells.lib",
     "datasheet": "index.html",
 }
-AGGREGATE_CORNERS = ("worst", "best", "all")
+#: --corner words besides corner names: the per-metric extremes, and "all" (no corner singled out).
+CORNER_WORDS = (*AGGREGATE_CORNERS, "all")
 
 
 def _problem(field: str, message: str, value: Any = None, has_value: bool = True) -> CelllabError:
@@ -76,6 +77,7 @@ def _emit_many(args: argparse.Namespace, files: dict[str, str]) -> None:
 
 
 def _query_corner(corner: str) -> str | None:
+    """--corner as the library reads it: a name, "worst"/"best", or None for every corner."""
     return None if corner == "all" else corner
 
 
@@ -97,12 +99,7 @@ def _select_rows(cat: Any, args: argparse.Namespace) -> list[dict[str, Any]]:
                     Problem(
                         str(cat.path),
                         "--cells",
-                        "no such cell in the catalog"
-                        + (
-                            f"; did you mean {', '.join(close)}?"
-                            if (close := difflib.get_close_matches(name, sorted(known), n=3))
-                            else ""
-                        ),
+                        "no such cell in the catalog" + did_you_mean(name, sorted(known), n=3),
                         name,
                     )
                     for name in missing
@@ -143,8 +140,9 @@ def _load_cells(cat: Any, rows: Sequence[dict[str, Any]]) -> tuple[list[Any], st
 
 
 def _render_corner(args: argparse.Namespace) -> str | None:
-    """A named corner for rendering, or None for the aggregate choices."""
-    return None if args.corner in AGGREGATE_CORNERS else args.corner
+    """The corner of a one-corner view (SPICE, Touchstone): a named corner, else None (see
+    ``celllab.columns``: each cell's first corner, or every corner where files are per corner)."""
+    return None if args.corner in CORNER_WORDS else args.corner
 
 
 def _need_cells(cells: Sequence[Any]) -> None:
@@ -228,13 +226,13 @@ def _export_datasheet(args: argparse.Namespace, cat: Any) -> None:
 
     cells, deck = _load_cells(cat, _select_rows(cat, args))
     _need_cells(cells)
-    corner = _render_corner(args)
+    summary = _query_corner(args.corner)  # the summary table reads worst/best like a query
     plots = not args.no_plots
     if _is_folder(args.out):
         files = {
             f"{_file_stem(c.name)}.html": render_datasheet_html(c, deck, plots=plots) for c in cells
         }
-        files[DEFAULT_FILES["datasheet"]] = render_library_html(cells, deck, corner, plots=plots)
+        files[DEFAULT_FILES["datasheet"]] = render_library_html(cells, deck, summary, plots=plots)
         _emit_many(args, files)
     elif len(cells) == 1:
         _emit(
@@ -244,7 +242,7 @@ def _export_datasheet(args: argparse.Namespace, cat: Any) -> None:
         )
     else:
         _emit(
-            args, render_library_html(cells, deck, corner, plots=plots), DEFAULT_FILES["datasheet"]
+            args, render_library_html(cells, deck, summary, plots=plots), DEFAULT_FILES["datasheet"]
         )
 
 
@@ -323,13 +321,13 @@ def cmd_export(args: argparse.Namespace) -> int:
             "no catalog file here; build one first (celllab build) or pass --catalog PATH",
         )
     with open_catalog(args.catalog, create=False) as cat:
-        if args.corner not in AGGREGATE_CORNERS:
+        if args.corner not in CORNER_WORDS:
             known = cat.corners(args.deck)
             if args.corner not in known:
                 raise _problem(
                     "--corner",
                     "not a corner of the catalog; allowed: "
-                    + ", ".join([*known, *AGGREGATE_CORNERS]),
+                    + ", ".join([*known, *CORNER_WORDS]),
                     args.corner,
                 )
         try:
@@ -363,7 +361,7 @@ def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
     )
     p.add_argument(
         "--catalog",
-        default=DEFAULT_CATALOG,
+        default=str(DEFAULT_CATALOG),
         metavar="PATH",
         help="catalog file (default: %(default)s)",
     )

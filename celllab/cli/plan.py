@@ -11,12 +11,10 @@ import argparse
 import json
 import math
 import sys
-from pathlib import Path
 from typing import Any
 
-from celllab.cli.build import CAUTION, format_table
-
-DEFAULT_CATALOG = str(Path("db") / "celllab.sqlite")
+from celllab import CAUTION, DEFAULT_CATALOG
+from celllab.display import text_table
 
 
 def _num(value: float, digits: int = 4) -> str:
@@ -36,7 +34,7 @@ def render_report(summary: dict[str, Any]) -> str:
     if s["cells"]:
         cols = ["name", "topology", "count", "sites", "cap_fF", "total_cap_nF", "leakage_nA",
                 "total_leakage_uA", "bandwidth_GHz", "z_corner"]
-        lines.append(format_table(s["cells"], cols))
+        lines.append(text_table(s["cells"], cols))
     else:
         lines.append("No cell fits the site and leakage budgets: the die has only its "
                      "intrinsic decap.")
@@ -114,7 +112,7 @@ def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
         "package_resistance_mohm, leakage_budget_uA) and a [fill] table (where, corner, "
         "max_kinds, require_esd_safe).")
     p.add_argument("block", metavar="BLOCKFILE", help="block file (TOML)")
-    p.add_argument("--catalog", default=DEFAULT_CATALOG, metavar="PATH",
+    p.add_argument("--catalog", default=str(DEFAULT_CATALOG), metavar="PATH",
                    help="catalog file (default: %(default)s)")
     p.add_argument("--json", action="store_true", help="print the plan as JSON")
     p.add_argument("--out", metavar="DIR",

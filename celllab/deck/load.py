@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import copy
-import difflib
 import hashlib
 import json
 import re
@@ -15,7 +14,7 @@ from typing import Any
 from pydantic import BaseModel, ValidationError
 
 from celllab.deck.schema import Deck
-from celllab.errors import CelllabError, DeckError, Problem
+from celllab.errors import CelllabError, DeckError, Problem, allowed_hint, close_names, did_you_mean
 
 
 def content_hash(model: BaseModel) -> str:
@@ -155,19 +154,14 @@ def validation_problems(exc: ValidationError, file: str, text: str | None,
             has_value = False
         elif etype == "extra_forbidden":
             allowed = _model_fields(model, loc[len(prefix):]) if not prefix else []
-            guess = difflib.get_close_matches(str(loc[-1]), allowed, n=1)
-            message = "unknown field"
-            if guess:
-                message += f"; did you mean {guess[0]!r}?"
-            elif allowed:
-                message += "; allowed: " + ", ".join(allowed)
+            message = "unknown field" + (allowed_hint(loc[-1], allowed) if allowed else "")
             has_value = False
         else:
             message = msg.removeprefix("Value error, ")
             allowed = _allowed_from_error(err)
             if etype == "literal_error" and isinstance(value, str):
                 options = [o.strip().strip("'") for o in str((err.get("ctx") or {}).get("expected", "")).replace(" or ", ",").split(",")]
-                guess = difflib.get_close_matches(value, options, n=1)
+                guess = close_names(value, options)
                 message = f"not an allowed value; {allowed}" + (f". Did you mean {guess[0]!r}?" if guess else "")
             elif allowed and allowed not in message:
                 message = f"{message} ({allowed})"
@@ -287,8 +281,7 @@ def _corner_problems(deck: Deck, raw: dict[str, Any], file: str, text: str | Non
             for path in table:
                 why = _check_path(data, path)
                 if why:
-                    guess = difflib.get_close_matches(path, allowed, n=1)
-                    msg = why + (f"; did you mean {guess[0]!r}?" if guess else "")
+                    msg = why + did_you_mean(path, allowed)
                     problems.append(Problem(file, f"corners.{cname}.{kind}", msg, path,
                                             find_line(text, ["corners", cname, kind])))
         if not problems:
@@ -317,9 +310,7 @@ def apply_changes(deck: Deck, changes: dict[str, Any], source: str = "<what-if>"
         for path, value in table.items():
             why = _check_path(data, path)
             if why:
-                guess = difflib.get_close_matches(path, allowed, n=1)
-                problems.append(Problem(source, field_prefix + path,
-                                        why + (f"; did you mean {guess[0]!r}?" if guess else ""), value))
+                problems.append(Problem(source, field_prefix + path, why + did_you_mean(path, allowed), value))
                 continue
             parts = _split(path)
             try:

@@ -10,22 +10,20 @@ from __future__ import annotations
 from typing import Any, Literal
 
 from pydantic import (
-    BaseModel,
-    ConfigDict,
     Field,
     SerializerFunctionWrapHandler,
     model_serializer,
     model_validator,
 )
 
+from celllab.physics.constants import EPS_R_SIO2
+from celllab.strict import StrictModel
+from celllab.units import to_si
+
 GateMaterial = Literal["n_poly", "p_poly", "metal"]
 AccelerationModel = Literal["power_law", "e_model", "inverse_e"]
 LeakageModel = Literal["direct_tunnel", "reference"]
 OxideName = Literal["core", "io"]
-
-
-class _Strict(BaseModel):
-    model_config = ConfigDict(extra="forbid", frozen=True)
 
 
 def _f(lo: float | None, hi: float | None, desc: str, *, gt: bool = False, default=...):  # type: ignore[no-untyped-def]
@@ -37,7 +35,7 @@ def _f(lo: float | None, hi: float | None, desc: str, *, gt: bool = False, defau
     return Field(default, **kwargs)
 
 
-class ProcessInfo(_Strict):
+class ProcessInfo(StrictModel):
     name: str = Field(pattern=r"^[A-Za-z][A-Za-z0-9_\-]{0,39}$",
                       description="short process name: letters, digits, _ or -")
     description: str = Field("", description="free text")
@@ -45,7 +43,7 @@ class ProcessInfo(_Strict):
     node_nm: float = _f(3, 1000, "nominal node class, nm")
 
 
-class DeviceParams(_Strict):
+class DeviceParams(StrictModel):
     """One device polarity (N or P) on one oxide flavour."""
 
     vth_V: float = _f(-3.0, 3.0, "threshold voltage at the reference temperature, V (negative for PMOS)")
@@ -57,7 +55,7 @@ class DeviceParams(_Strict):
     vth_temp_coeff_V: float = _f(-1.0, 1.0, "threshold shift KT1: Vt(T) = Vt + KT1 (T/Tref - 1), V")
 
 
-class LeakageParams(_Strict):
+class LeakageParams(StrictModel):
     model: LeakageModel = Field("direct_tunnel", description="direct_tunnel: Schuegraf-King-Hu WKB "
                                 "model; reference: scale a measured density")
     barrier_eV: float = _f(0.5, 5.0, "tunnelling barrier height, eV", default=3.1)
@@ -79,7 +77,7 @@ class LeakageParams(_Strict):
         return self
 
 
-class ReliabilityParams(_Strict):
+class ReliabilityParams(StrictModel):
     weibull_beta: float = _f(0.3, 10, "Weibull slope of time to breakdown, unitless")
     eta_ref_s: float = _f(1.0, 1e20, "Weibull characteristic life (63 %) at the reference condition, s")
     area_ref_um2: float = _f(1e-3, 1e9, "gate area of the reference test structure, um^2")
@@ -91,7 +89,7 @@ class ReliabilityParams(_Strict):
     activation_energy_eV: float = _f(0, 2.0, "Arrhenius activation energy, eV")
 
 
-class OxideFlavour(_Strict):
+class OxideFlavour(StrictModel):
     """One gate-dielectric flavour (core thin oxide or I/O thick oxide)."""
 
     t_ox_nm: float | None = _f(0.3, 30, "physical dielectric thickness, nm", default=None)
@@ -134,17 +132,17 @@ class OxideFlavour(_Strict):
     def eot_m(self) -> float:
         """Equivalent oxide thickness, m."""
         if self.eot_nm is not None:
-            return self.eot_nm * 1e-9
+            return to_si(self.eot_nm, "nm")
         assert self.t_ox_nm is not None
-        return self.t_ox_nm * 1e-9 * 3.9 / self.eps_r
+        return to_si(self.t_ox_nm, "nm") * EPS_R_SIO2 / self.eps_r
 
     @property
     def physical_thickness_m(self) -> float:
         """Physical thickness, m (EOT for an EOT-only oxide)."""
-        return (self.t_ox_nm if self.t_ox_nm is not None else self.eot_nm) * 1e-9  # type: ignore[operator]
+        return to_si(self.t_ox_nm if self.t_ox_nm is not None else self.eot_nm, "nm")  # type: ignore[type-var]
 
 
-class Wells(_Strict):
+class Wells(StrictModel):
     substrate_doping_cm3: float = _f(1e13, 1e19, "p-substrate doping, cm^-3")
     pwell_doping_cm3: float = _f(1e14, 1e19, "p-well doping under NMOS channels, cm^-3")
     nwell_doping_cm3: float = _f(1e14, 1e19, "n-well doping under PMOS channels, cm^-3")
@@ -152,14 +150,14 @@ class Wells(_Strict):
     pwell_sheet_ohm_per_sq: float = _f(10, 1e5, "p-well sheet resistance, ohm/sq")
 
 
-class Resistances(_Strict):
+class Resistances(StrictModel):
     gate_sheet_ohm_per_sq: float = _f(0.01, 1e4, "gate electrode sheet resistance (silicided poly or metal), ohm/sq")
     diffusion_sheet_ohm_per_sq: float = _f(0.01, 1e4, "source/drain diffusion sheet resistance, ohm/sq")
     contact_ohm: float = _f(0.01, 1e4, "resistance of one contact, ohm")
     contact_pitch_um: float = _f(0.02, 10, "pitch of contacts along a diffusion or gate strap, um")
 
 
-class MetalLayer(_Strict):
+class MetalLayer(StrictModel):
     name: str = Field(pattern=r"^[A-Za-z][A-Za-z0-9_]{0,15}$", description="layer name, e.g. M1")
     thickness_nm: float = _f(10, 10000, "metal thickness, nm")
     min_width_nm: float = _f(5, 20000, "minimum line width, nm")
@@ -170,7 +168,7 @@ class MetalLayer(_Strict):
     via_below_ohm: float = _f(0, 1e3, "resistance of one via to the layer below, ohm")
 
 
-class Layout(_Strict):
+class Layout(StrictModel):
     site_width_um: float = _f(0.01, 10, "placement site width, um", gt=True)
     row_height_um: float = _f(0.05, 50, "placement row height, um", gt=True)
     rail_width_um: float = _f(0.01, 10, "width of each supply rail (half of it inside the cell), um", gt=True)
@@ -190,7 +188,7 @@ NET_NAME_DEFAULTS: dict[str, str] = {
 }
 
 
-class Supplies(_Strict):
+class Supplies(StrictModel):
     core_V: float = _f(0.3, 5, "core supply, V", gt=True)
     io_V: float = _f(0.5, 12, "I/O supply, V", gt=True)
     core_power_net: str = Field(NET_NAME_DEFAULTS["core_power_net"], pattern=_NET,
@@ -219,14 +217,14 @@ class Supplies(_Strict):
         return self.core_power_net, self.core_ground_net
 
 
-class Corner(_Strict):
+class Corner(StrictModel):
     temperature_C: float = _f(-55, 200, "junction temperature, degC")
     supply_scale: float = _f(0.5, 1.5, "supply multiplier at this corner (e.g. 1.1 = +10 %)", default=1.0)
     set: dict[str, float] = Field(default_factory=dict, description="dotted deck paths set to new values")
     scale: dict[str, float] = Field(default_factory=dict, description="dotted deck paths multiplied by a factor")
 
 
-class Deck(_Strict):
+class Deck(StrictModel):
     """A process deck: everything celllab needs to know about one process."""
 
     process: ProcessInfo

@@ -32,12 +32,7 @@ import tempfile
 from pathlib import Path
 from typing import Any
 
-#: Printed in every export whose numbers could drive tape-out decisions.
-CAUTION = (
-    "These are engineering estimates from analytic models, not sign-off; defer to the "
-    "foundry's design rules, qualified device models, ESD/reliability qualification "
-    "standards and licensed practice."
-)
+from celllab import CAUTION  # printed in every export (numbers could drive tape-out decisions)
 
 #: Public name -> submodule that defines it (loaded on first use, so that exporting CSV
 #: never imports matplotlib or pydantic).

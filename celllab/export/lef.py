@@ -51,7 +51,7 @@ from pydantic import ValidationError
 from celllab import MODEL_VERSION, __version__
 from celllab.cells.expand import spec_from_record
 from celllab.cells.geometry import GeometryProblem, resolve_geometry
-from celllab.cells.schema import MOS_TOPOLOGIES, CellSpec
+from celllab.cells.schema import CellSpec
 from celllab.errors import ExportError, Problem
 from celllab.export import CAUTION, atomic_write_text
 from celllab.records import CellResult
@@ -313,7 +313,7 @@ def macro_view(cell: CellResult, deck: Any, grid: LefGrid) -> MacroView:
             Rect(lay.rail_layer, 0, max(0, y - half_rail), width, min(height, y + half_rail))
         )
     obstructions: list[Rect] = []
-    if spec.topology in MOS_TOPOLOGIES:
+    if geo.devices > 0:  # MOS devices between the rails
         margin = grid.units(lay.edge_margin_um)
         for r in range(spec.height_rows):
             y1, y2 = r * row_h + half_rail, (r + 1) * row_h - half_rail

@@ -13,9 +13,10 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from celllab.cells import GEOMETRY_FIELDS, TOPOLOGIES, CellSpec, cell_hash, load_cells, parse_cells
+from celllab.cells import GEOMETRY_FIELDS, CellSpec, cell_hash, load_cells, parse_cells
 from celllab.deck import Deck, load_deck
 from celllab.errors import CellError
+from celllab.topologies import REGISTRY
 
 
 def family(**fields: Any) -> dict[str, Any]:
@@ -153,13 +154,13 @@ def test_hash_changes_with_each_mom_field(field: str) -> None:
 
 def test_every_geometry_field_is_a_cell_field() -> None:
     assert set(GEOMETRY_FIELDS) <= set(CellSpec.model_fields)
-    assert set(TOPOLOGIES) == {"nmos_inversion", "pmos_inversion", "accumulation", "cross_coupled", "mom",
+    assert set(REGISTRY) == {"nmos_inversion", "pmos_inversion", "accumulation", "cross_coupled", "mom",
                                "mos_mom"}
 
 
 def test_esd_safe_topologies() -> None:
     # contract: no gate tied directly to a rail in cross_coupled and mom cells
-    safe = {t for t in TOPOLOGIES if CellSpec(name="c", topology=t, width_sites=8).esd_safe}
+    safe = {t for t in REGISTRY if CellSpec(name="c", topology=t, width_sites=8).esd_safe}
     assert safe == {"cross_coupled", "mom"}
 
 

@@ -11,10 +11,11 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from scipy.constants import epsilon_0, femto, micro
 
-from celllab.cells import TOPOLOGIES, CellSpec, load_cells, resolve
+from celllab.cells import CellSpec, load_cells, resolve
 from celllab.deck import load_deck
 from celllab.engine import characterize
 from celllab.records import METRIC_NAMES
+from celllab.topologies import REGISTRY
 
 DECK = "process_decks/lumen130.toml"
 CELLS = "process_decks/cells/lumen130_cells.toml"
@@ -38,7 +39,7 @@ def _cell(deck, **kw) -> CellSpec:
 
 def test_every_topology_and_corner_has_finite_positive_capacitance(run, deck) -> None:
     seen = {c.topology for c in run.cells}
-    assert seen == set(TOPOLOGIES)  # the demo covers every topology
+    assert seen == set(REGISTRY)  # the demo covers every topology
     for cell in run.cells:
         assert [c.corner for c in cell.corners] == deck.corner_names()
         for corner in cell.corners:
@@ -78,11 +79,11 @@ def test_mos_esr_matches_distributed_line_sum(deck) -> None:
     # that branch's ESR is weighted by (C_g/(C_g + C_ov))^2 (two parallel RC branches,
     # docs/references.md [44]). The nodal solution's low-frequency ESR must equal the sum; rel 1e-3
     from celllab.characterization.params import CornerSet
-    from celllab.characterization.topologies import _single_mos
+    from celllab.topologies.common import mos_devices
 
     cell = _cell(deck)
     run = characterize(deck, [cell], corners=["typ_25C"])
-    res, *_ = _single_mos(deck, CornerSet.from_deck(deck, ["typ_25C"]), [cell], [resolve(cell, deck)])
+    res = mos_devices(CornerSet.from_deck(deck, ["typ_25C"]), [cell], [resolve(cell, deck)], np.array(["nmos"])).result
     weight = (res.c_gate[0, 0] / (res.c_gate[0, 0] + res.c_overlap[0, 0])) ** 2
     expected = res.r_channel[0, 0] / 12 * weight + res.r_gate[0, 0] + res.r_access[0, 0]
     assert run.cells[0].corners[0].metrics["esr_ohm"] == pytest.approx(expected, rel=1e-3)
@@ -91,11 +92,11 @@ def test_mos_esr_matches_distributed_line_sum(deck) -> None:
 def test_one_end_contact_quadruples_channel_esr(deck) -> None:
     # Source: distributed RC line, R/3 (one end) vs R/12 (both ends), Larsson 1997; rel 1e-3
     from celllab.characterization.params import CornerSet
-    from celllab.characterization.topologies import _single_mos
+    from celllab.topologies.common import mos_devices
 
     one, two = _cell(deck, contacted_ends=1, name="a"), _cell(deck, contacted_ends=2, name="b")
     run = characterize(deck, [one, two], corners=["typ_25C"])
-    res, *_ = _single_mos(deck, CornerSet.from_deck(deck, ["typ_25C"]), [one], [resolve(one, deck)])
+    res = mos_devices(CornerSet.from_deck(deck, ["typ_25C"]), [one], [resolve(one, deck)], np.array(["nmos"])).result
     extra = res.r_gate[0, 0] + res.r_access[0, 0]
     esr1, esr2 = (c.corners[0].metrics["esr_ohm"] - extra for c in run.cells)  # overlap weight cancels
     assert esr1 / esr2 == pytest.approx(4.0, rel=1e-3)
