@@ -72,6 +72,7 @@ from celllab.planner.fill_model import (
     extract,
     round_down,
     run_model,
+    top_up,
     violations,
 )
 from celllab.planner.kinds import choose_kinds
@@ -99,6 +100,8 @@ Goal = Literal["max_useful_cap", "min_leakage"]
 #: Models with more variables than this, and a kind limit that can bind, choose their kinds by
 #: the LP-guided search of ``kinds`` before the exact solve; smaller ones go to HiGHS directly.
 DIRECT_LIMIT = 2500
+#: A further HiGHS run is started only with at least this much of the time limit left, s.
+_MIN_RUN_S = 0.1
 
 
 @dataclass(frozen=True)
@@ -326,7 +329,9 @@ def _solve_goal(p: FillProblem, targets: FloatArray, mode: Literal["hard", "elas
     usable_cells = int(np.count_nonzero(p.usable().any(axis=0)))
     if model.n_vars <= DIRECT_LIMIT or usable_cells <= p.max_kinds:
         return _exact(p, targets, mode, phase, mip_rel_gap, deadline)
-    first = run_model(model, 0.0, deadline - time.perf_counter(), relax=True)
+    lp_start = time.perf_counter()
+    first = run_model(model, 0.0, deadline - lp_start, relax=True)
+    lp_seconds = time.perf_counter() - lp_start
     if first.values is None:
         return None if first.status == 2 else _exact(p, targets, mode, phase, mip_rel_gap,
                                                      deadline)
@@ -337,12 +342,25 @@ def _solve_goal(p: FillProblem, targets: FloatArray, mode: Literal["hard", "elas
     sub_model = build_model(sub, targets, mode, phase, p.leakage_budget, p.oxide_budget, scale)
     relaxed = run_model(sub_model, 0.0, deadline - time.perf_counter(), relax=True)
     found: _Found | None = None
+    sub_bound = relaxed.objective if relaxed.values is not None else bound
     if relaxed.values is not None:
         counts = round_down(relaxed)
+        if mode == "hard" and np.any(targets > 0):
+            counts = top_up(sub, counts, targets)
         if not violations(sub, counts, _checked_targets(targets, targets, counts, mode)):
             found = _Found(sub, counts, _natural(p, counts, phase), bound, 0,
                            "kinds from the LP search, LP rounded down")
-    if (found is None or found.gap > mip_rel_gap) and time.perf_counter() < deadline:
+
+    def worth_a_run(best_possible: float) -> bool:
+        """Another HiGHS run may pay: no fill yet, or one that could still gain more than
+        the gap, with time left for at least a few LP solves."""
+        if found is None:
+            return True
+        gain = (found.value - best_possible) / max(abs(found.value), np.finfo(float).tiny)
+        left = deadline - time.perf_counter()
+        return gain > mip_rel_gap and left > max(_MIN_RUN_S, 3 * lp_seconds)
+
+    if worth_a_run(sub_bound):
         try:
             exact = _exact(sub, targets, mode, phase, mip_rel_gap, deadline)
         except FillTimeout:
@@ -352,7 +370,7 @@ def _solve_goal(p: FillProblem, targets: FloatArray, mode: Literal["hard", "elas
         if exact is not None and (found is None or exact.value < found.value):
             found = _Found(sub, exact.counts, exact.value, bound, exact.status,
                            "kinds from the LP search; " + exact.message)
-    if (found is None or found.gap > mip_rel_gap) and time.perf_counter() < deadline:
+    if worth_a_run(bound):
         try:
             full = _exact(p, targets, mode, phase, mip_rel_gap, deadline)
         except FillTimeout:

@@ -109,6 +109,24 @@ def type_room(p: FillProblem) -> FloatArray:
     return room
 
 
+#: A budget-row term whose largest contribution (coefficient x the variable's bound) is below
+#: this fraction of the limit is left out of the row (its effect is far below the tolerance).
+NEGLIGIBLE = 1e-14
+
+
+def _row_terms(per: FloatArray, bound: FloatArray, limit: float) -> tuple[IntArray, float]:
+    """Columns kept in a budget row and the factor the row is divided by.
+
+    HiGHS drops matrix entries of magnitude <= 1e-9, so the scale maps the kept coefficients
+    into [1e-6, 1e4] where their range allows (the largest at most 1e4), instead of dividing
+    by the limit."""
+    keep = np.flatnonzero((per > 0) & (per * bound > NEGLIGIBLE * limit))
+    if keep.size == 0:
+        return keep, max(limit, np.finfo(float).tiny)
+    lo, hi = float(per[keep].min()), float(per[keep].max())
+    return keep, max(hi / 1e4, lo / 1e-6)
+
+
 def build_model(p: FillProblem, targets: FloatArray, mode: Literal["hard", "elastic"],
            phase: Literal["goal", "shortfall"], leak_limit: float, oxide_limit: float,
            target_scale: FloatArray) -> Model:
@@ -207,11 +225,11 @@ def build_model(p: FillProblem, targets: FloatArray, mode: Literal["hard", "elas
                  float(p.max_kinds))
     leak_per = np.tile(p.leakage, n_r) @ copies
     area_per = np.tile(p.oxide_area, n_r) @ copies
+    bound = np.array(upper)
     for name, per, limit in (("leakage", leak_per, leak_limit), ("oxide", area_per, oxide_limit)):
-        most = float(per @ np.array(upper))  # the whole fill at every variable's bound
+        most = float(per @ bound)  # the whole fill at every variable's bound
         if np.isfinite(limit) and most > limit:  # else the row cannot bind: left out
-            scale = max(limit, float(np.max(per, initial=0.0)), np.finfo(float).tiny)
-            nz = np.flatnonzero(per)
+            nz, scale = _row_terms(per, bound, limit)
             rows.add(name, nz, per[nz] / scale, -np.inf, limit / scale, scale)
     cap_rows = []
     for r in range(n_r):
@@ -219,8 +237,7 @@ def build_model(p: FillProblem, targets: FloatArray, mode: Literal["hard", "elas
         block[r * n_i:(r + 1) * n_i] = p.useful_cap[r]
         cap_rows.append(block @ copies)
     for r in np.flatnonzero(targets > 0).tolist():
-        ts = target_scale[r]
-        nz = np.flatnonzero(cap_rows[r])
+        nz, ts = _row_terms(cap_rows[r], bound[:len(cap_rows[r])], target_scale[r])
         cols, vals = nz, cap_rows[r][nz] / ts
         if r in short_index:  # C_r / T_r + shortfall_r >= 1
             cols = np.concatenate([cols, [short_index[r]]])
@@ -376,3 +393,68 @@ def violations(p: FillProblem, counts: Counts, targets: FloatArray) -> dict[str,
     if np.any(reached < targets * (1 - tol)):
         out["target"] = 1.0
     return out
+
+
+def top_up(p: FillProblem, counts: Counts, targets: FloatArray) -> Counts:
+    """Add copies of the cells already used to regions still short of their target, where
+    room, gaps, slots and budgets are left (greedy, best useful capacitance first). Mends a
+    rounded-down LP fill that fell just below a target; never adds a kind."""
+    patterns = [a.copy() for a in counts.patterns]
+    slots = [a.copy() for a in counts.slots]
+    row_copies = counts.row_copies.copy()
+    copies = counts.copies.copy()
+    used = copies.sum(axis=0) > 0
+    usable = p.usable() & used[None, :]
+    leak_left = p.leakage_budget - float(np.sum(copies @ p.leakage))
+    area_left = p.oxide_budget - float(np.sum(copies @ p.oxide_area))
+
+    def affordable(i: int, n: int) -> int:
+        """Copies of cell i (at most n) the budgets still allow."""
+        out = n
+        if p.leakage[i] > 0:
+            out = min(out, int(max(leak_left, 0.0) // p.leakage[i]))
+        if p.oxide_area[i] > 0:
+            out = min(out, int(max(area_left, 0.0) // p.oxide_area[i]))
+        return max(out, 0)
+
+    def add(r: int, i: int, n: int) -> None:
+        nonlocal leak_left, area_left
+        copies[r, i] += n
+        leak_left -= n * p.leakage[i]
+        area_left -= n * p.oxide_area[i]
+
+    for r in np.flatnonzero(targets > 0).tolist():
+        order = [i for i in np.argsort(-p.useful_cap[r]).tolist() if usable[r, i]]
+        for i in order:
+            short = targets[r] * (1 + BUDGET_TOLERANCE) - float(copies[r] @ p.useful_cap[r])
+            if short <= 0:
+                break
+            need = int(np.ceil(short / p.useful_cap[r, i]))
+            t = int(p.cell_type[i])
+            if t >= 0:  # room already laid, then one more gap per step
+                room = sum(int(patterns[g] @ c.patterns[:, t]) for g, c in
+                           enumerate(p.row_classes) if c.region == r)
+                placed = sum(int(row_copies[r, j]) for j in np.flatnonzero(p.cell_type == t))
+                n = affordable(i, min(need, room - placed))
+                row_copies[r, i] += n
+                add(r, i, n)
+                need -= n
+                for g, c in enumerate(p.row_classes):
+                    while need > 0 and c.region == r and patterns[g].sum() < c.count:
+                        best = int(np.argmax(c.patterns[:, t]))
+                        per_gap = int(c.patterns[best, t])
+                        n = affordable(i, min(need, per_gap))
+                        if n == 0:
+                            break
+                        patterns[g][best] += 1
+                        row_copies[r, i] += n
+                        add(r, i, n)
+                        need -= n
+            for o, c in enumerate(p.open_classes):
+                while need > 0 and c.region == r and c.copies[i] > 0 and slots[o].sum() < c.count:
+                    if affordable(i, int(c.copies[i])) < c.copies[i]:
+                        break
+                    slots[o][i] += 1
+                    add(r, i, int(c.copies[i]))
+                    need -= int(c.copies[i])
+    return Counts(patterns, slots, row_copies, copies, counts.shortfall)
