@@ -8,6 +8,7 @@ Public API (no UI imports here)::
     run = characterize(deck, cells)
     catalog = open_catalog("db/celllab.sqlite")
     catalog.store_run(run)
+    plan = plan("process_decks/blocks/lumen130_dsp.toml", "db/celllab.sqlite")  # BlockPlan
 
 Results are engineering estimates from analytic models, not sign-off.
 """
@@ -19,7 +20,8 @@ from typing import Any
 __version__ = "0.1.0"
 MODEL_VERSION = "celllab-models-0.1"
 
-__all__ = ["load_deck", "load_cells", "characterize", "open_catalog", "__version__", "MODEL_VERSION"]
+__all__ = ["load_deck", "load_cells", "characterize", "open_catalog", "plan", "__version__",
+           "MODEL_VERSION"]
 
 
 def __getattr__(name: str) -> Any:
@@ -40,4 +42,8 @@ def __getattr__(name: str) -> Any:
         from celllab.catalog import open_catalog
 
         return open_catalog
+    if name == "plan":
+        from celllab.planner.plan import plan_file
+
+        return plan_file
     raise AttributeError(name)

@@ -13,6 +13,10 @@ schema      ``export_json_schema()``                     ``write_json_schema(pat
 SPICE       ``render_spice_subckt(cell, corner)``        ``write_spice(path, cells)``
 Touchstone  ``render_touchstone(cell, corner)``          ``write_touchstone(path, ...)``
 datasheet   ``render_datasheet_html(cell, deck_name)``   ``write_datasheet(path, ...)``
+block plan  ``render_fill_csv(plan)``, ``render_fill_    ``write_plan_files(plan,
+            json``, ``render_plan_html``, ``render_      folder)``
+            impedance_csv``, ``render_impedance_
+            touchstone`` (``export.plan``)
 ==========  ===========================================  ============================
 
 Every export carries :data:`CAUTION`: the numbers are estimates, not sign-off.
@@ -57,6 +61,12 @@ _LAZY: dict[str, str] = {
     "render_library_html": "datasheet",
     "write_datasheet": "datasheet",
     "write_library_datasheet": "datasheet",
+    "render_fill_csv": "plan",
+    "render_fill_json": "plan",
+    "render_plan_html": "plan",
+    "render_impedance_csv": "plan",
+    "render_impedance_touchstone": "plan",
+    "write_plan_files": "plan",
 }
 
 __all__ = [  # noqa: PLE0604 - the lazily loaded names are listed in _LAZY

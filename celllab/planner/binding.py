@@ -44,7 +44,8 @@ class Binding:
     shadow_price : goal units per unit of the limit (LP at fixed kinds); None where not computed
     gain : improvement when lifted (MILP re-solve); None where not re-solved. In goal units,
            or, when lifting the limit lowers the regions' target shortfall, that reduction in F
-           (``gain_in`` = "shortfall")
+    gain_in : "goal" or "shortfall": the unit of ``gain`` and ``shadow_price`` (a shortfall
+              price is F of shortfall removed per unit of the limit)
     """
 
     kind: Kind
@@ -96,13 +97,29 @@ def explain_fill(problem: FillProblem, solution: FillSolution,
                    ESD-safe-only restriction (re-solved with it lifted)
     mip_rel_gap, time_limit : for the re-solves
     resolve : False skips the MILP re-solves (gains are then None)
+
+    When a region target is not reached, the shadow prices are those of the shortfall (F of
+    total shortfall removed per unit of the limit), since that is what the limits hold back.
     """
     p, s = problem, solution
-    targets = np.asarray(s.lowered_targets if s.lowered_targets.size else p.target, float)
-    model = build_model(p, targets, "hard", "goal", p.leakage_budget, p.oxide_budget,
-                   np.where(targets > 0, targets, 1.0))
+    short = bool(np.any(s.shortfall > 0))
+    if short:
+        # targets not reached: what holds the shortfall back (prices in F of shortfall)
+        targets = np.asarray(p.target, dtype=float)
+        model = build_model(p, targets, "elastic", "shortfall", p.leakage_budget,
+                            p.oxide_budget, np.where(targets > 0, targets, 1.0))
+        # objective: total shortfall in F, scaled to order one for the solver's tolerances
+        top = float(targets.max())
+        for r, col in model.short_index.items():
+            model.objective[col] = targets[r] / top
+        model.objective_scale = top
+        base = float(s.shortfall.sum())
+    else:
+        targets = np.asarray(s.lowered_targets if s.lowered_targets.size else p.target, float)
+        model = build_model(p, targets, "hard", "goal", p.leakage_budget, p.oxide_budget,
+                            np.where(targets > 0, targets, 1.0))
+        base = goal_value(p, s.copies)
     prices = _lp_prices(model, s.used)
-    base = goal_value(p, s.copies)
     sign = 1.0 if p.goal == "max_useful_cap" else -1.0
     tol = _ZERO * max(abs(base), np.finfo(float).tiny)
 
@@ -112,17 +129,19 @@ def explain_fill(problem: FillProblem, solution: FillSolution,
     def binds(value: float | None, gain: float | None = None) -> bool:
         return bool((value is not None and value > tol) or (gain is not None and gain > tol))
 
+
+    unit: Literal["goal", "shortfall"] = "shortfall" if short else "goal"
     out: list[Binding] = []
     leak = float(np.sum(s.copies @ p.leakage))
     if np.isfinite(p.leakage_budget):
         sp_ = price("leakage")
         out.append(Binding("leakage", -1, leak, p.leakage_budget,
-                           binds(sp_ and sp_ * p.leakage_budget), sp_, None))
+                           binds(sp_ and sp_ * p.leakage_budget), sp_, None, unit))
     area = float(np.sum(s.copies @ p.oxide_area))
     if np.isfinite(p.oxide_budget):
         sp_ = price("oxide")
         out.append(Binding("oxide", -1, area, p.oxide_budget,
-                           binds(sp_ and sp_ * p.oxide_budget), sp_, None))
+                           binds(sp_ and sp_ * p.oxide_budget), sp_, None, unit))
     n_kinds = int(np.count_nonzero(s.used))
     usable_cells = int(np.count_nonzero(p.usable().any(axis=0)))
     gain = None
@@ -137,7 +156,8 @@ def explain_fill(problem: FillProblem, solution: FillSolution,
     for r in np.flatnonzero(p.target > 0).tolist():
         sp_ = price(f"target:{r}")
         out.append(Binding("target", r, float(reached[r]), float(p.target[r]),
-                           binds(sp_ and sp_ * p.target[r]) or s.shortfall[r] > 0, sp_, None))
+                           bool(binds(sp_ and sp_ * p.target[r]) or s.shortfall[r] > 0), sp_,
+                           None, unit))
     for r, cells in (unrestricted or {}).items():
         gain, unit = None, "goal"
         if resolve:
@@ -149,11 +169,11 @@ def explain_fill(problem: FillProblem, solution: FillSolution,
     for g, c in enumerate(p.row_classes):
         sp_ = price(f"gaps:{g}")
         out.append(Binding("gaps", g, float(s.pattern_counts[g].sum()), float(c.count),
-                           binds(sp_), sp_, None))
+                           binds(sp_), sp_, None, unit))
     for o, c in enumerate(p.open_classes):
         sp_ = price(f"slots:{o}")
         out.append(Binding("slots", o, float(s.slot_counts[o].sum()), float(c.count),
-                           binds(sp_), sp_, None))
+                           binds(sp_), sp_, None, unit))
     return out
 
 

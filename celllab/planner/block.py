@@ -43,7 +43,7 @@ A block file is TOML (every number's unit is in its name)::
     quiet = false                   # true: no switching current of its own
     weight = 1.0                    # share of the objective
     # switching activity, one of: charge_per_cycle_pC | peak_current_mA + rise_time_ps
-    # (+ fall_time_ps) | switching_power_mW + clock_MHz
+    # (+ fall_time_ps) | switching_power_mW + clock_MHz (a clock alone: frequency only)
     peak_current_mA = 80
     rise_time_ps = 150
     fall_time_ps = 250
@@ -248,9 +248,10 @@ class Region(_Strict):
     row_gaps: list[RowGaps] = Field(default_factory=list, max_length=1000)
 
     def activity_form(self) -> str | None:
-        """Which of ``ACTIVITY_FIELDS`` the region uses (None: no activity given)."""
+        """Which of ``ACTIVITY_FIELDS`` the region uses (None: no activity given; a clock
+        alone only sets the frequency of interest)."""
         given = [form for form, names in ACTIVITY_FIELDS.items()
-                 if any(getattr(self, n) is not None for n in names)]
+                 if any(getattr(self, n) is not None for n in names if n != "clock_MHz")]
         return given[0] if len(given) == 1 else None
 
 
@@ -341,8 +342,9 @@ def _region_rules(i: int, r: Region) -> list[tuple[str, Any, str]]:
     if not r.open_slots and not r.row_gaps:
         out.append((at, r.name, "a region needs at least one [[region.open_slots]] or "
                     "[[region.row_gaps]] table"))
+    # a clock alone only sets the frequency of interest; the power form starts with the power
     forms = [form for form, names in ACTIVITY_FIELDS.items()
-             if any(getattr(r, n) is not None for n in names)]
+             if any(getattr(r, n) is not None for n in names if n != "clock_MHz")]
     if r.quiet and forms:
         given = next(n for n in ACTIVITY_FIELDS[forms[0]] if getattr(r, n) is not None)
         out.append((f"{at}.{given}", getattr(r, given),
@@ -358,10 +360,8 @@ def _region_rules(i: int, r: Region) -> list[tuple[str, Any, str]]:
         missing = "rise_time_ps" if r.rise_time_ps is None else "peak_current_mA"
         out.append((f"{at}.{missing}", None, "required with the other pulse fields "
                     "(peak_current_mA, rise_time_ps; fall_time_ps defaults to the rise time)"))
-    elif forms == ["power"] and (r.switching_power_mW is None or r.clock_MHz is None):
-        missing = "clock_MHz" if r.clock_MHz is None else "switching_power_mW"
-        out.append((f"{at}.{missing}", None, "required with the other of switching_power_mW "
-                    "and clock_MHz"))
+    elif forms == ["power"] and r.clock_MHz is None:
+        out.append((f"{at}.clock_MHz", None, "required with switching_power_mW"))
     if r.logic_activity is not None and not forms:
         out.append((f"{at}.logic_activity", r.logic_activity,
                     "needs the region's switching activity (charge, pulse or power)"))

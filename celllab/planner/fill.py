@@ -272,8 +272,12 @@ class _Found:
 
 
 def _natural(p: FillProblem, counts: Counts, phase: str) -> float:
+    """The minimized figure of a fill in natural units: -sum w C (F), the leakage (A), or
+    the total relative target shortfall."""
     if phase == "shortfall":
-        return float(counts.shortfall.sum())
+        reached = np.sum(counts.copies * p.useful_cap, axis=1)
+        short = np.where(p.target > 0, np.maximum(p.target - reached, 0.0), 0.0)
+        return float(np.sum(short / np.where(p.target > 0, p.target, 1.0)))
     return -goal_value(p, counts.copies) if p.goal == "max_useful_cap" else goal_value(
         p, counts.copies)
 
@@ -315,8 +319,9 @@ def _exact(p: FillProblem, targets: FloatArray, mode: Literal["hard", "elastic"]
 
 def _checked_targets(targets: FloatArray, levels: FloatArray, counts: Counts,
                      mode: str) -> FloatArray:
+    """Targets a fill must meet exactly: none in the elastic (shortfall) solve."""
     if mode == "elastic":
-        return np.maximum(levels - counts.shortfall * targets, 0.0)
+        return np.zeros_like(levels)
     return levels
 
 
@@ -345,7 +350,7 @@ def _solve_goal(p: FillProblem, targets: FloatArray, mode: Literal["hard", "elas
     sub_bound = relaxed.objective if relaxed.values is not None else bound
     if relaxed.values is not None:
         counts = round_down(relaxed)
-        if mode == "hard" and np.any(targets > 0):
+        if np.any(targets > 0):
             counts = top_up(sub, counts, targets)
         if not violations(sub, counts, _checked_targets(targets, targets, counts, mode)):
             found = _Found(sub, counts, _natural(p, counts, phase), bound, 0,
@@ -416,14 +421,15 @@ def solve_fill(problem: FillProblem, mip_rel_gap: float = 5e-3,
         first = _solve_goal(p, targets, "elastic", "shortfall", mip_rel_gap, deadline)
         assert first is not None  # the empty fill is always feasible here
         reached = np.sum(first.counts.copies * p.useful_cap, axis=1)
-        lowered = np.where(reached < targets, reached, targets)
+        # a region within the solver's tolerance of its target keeps the target
+        lowered = np.where(reached < targets * (1 - 1e-6), reached, targets)
         found = _solve_goal(p, lowered, "hard", "goal", mip_rel_gap,
                             max(deadline, time.perf_counter() + 1.0))
         if found is None:  # numerically at the edge: keep the least-shortfall fill
             found = first
     counts = found.counts
     reached = np.sum(counts.copies * p.useful_cap, axis=1)
-    shortfall = np.where(targets > reached, targets - reached, 0.0)
+    shortfall = np.where(reached < targets * (1 - 1e-6), targets - reached, 0.0)
     return FillSolution(
         pattern_counts=counts.patterns, slot_counts=counts.slots, row_copies=counts.row_copies,
         copies=counts.copies, shortfall=shortfall, optimal=found.gap <= mip_rel_gap * (1 + 1e-9),

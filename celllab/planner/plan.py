@@ -13,6 +13,7 @@ from __future__ import annotations
 
 from collections.abc import Callable
 from dataclasses import dataclass
+from pathlib import Path
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -23,7 +24,7 @@ from celllab.errors import PlanError, Problem
 from celllab.physics import pdn
 from celllab.planner import corners as policy
 from celllab.planner.binding import Binding, explain_fill
-from celllab.planner.block import BlockFile
+from celllab.planner.block import BlockFile, load_block
 from celllab.planner.candidates import (
     Candidate,
     CatalogContext,
@@ -71,9 +72,12 @@ __all__ = [
     "PreparedFill",
     "RegionFill",
     "plan_block",
+    "plan_file",
     "prepare_fill",
 ]
 
+#: Catalog opened by ``plan_file`` when none is given (relative to the working folder).
+DEFAULT_CATALOG = Path("db") / "celllab.sqlite"
 #: Cells whose characterization supply differs from the block's by more than this get a note.
 SUPPLY_NOTE_FRACTION = 0.10
 Progress = Callable[[str], None]
@@ -289,6 +293,19 @@ def plan_block(block: BlockFile, catalog: Catalog, *, explain: bool = True,
     return _assemble(block, prep, solution, bindings)
 
 
+def plan_file(block: str | Path | BlockFile, catalog: str | Path = DEFAULT_CATALOG, *,
+              explain: bool = True) -> BlockPlan:
+    """``plan_block`` from paths: load the block file, open the catalog (read only), plan.
+
+    The public ``celllab.plan``; ``PlanError``/``CatalogError`` on bad input.
+    """
+    from celllab.catalog import open_catalog
+
+    loaded = block if isinstance(block, BlockFile) else load_block(block)
+    with open_catalog(catalog, create=False) as opened:
+        return plan_block(loaded, opened, explain=explain)
+
+
 # --------------------------------------------------------------------------- results
 
 
@@ -340,12 +357,16 @@ def _distribute(layout: _Layout, solution: FillSolution, region: int
     return out
 
 
-def _why_open(block: BlockFile, bindings: list[Binding]) -> list[str]:
+def _why_open(block: BlockFile, bindings: list[Binding], solution: FillSolution,
+              region: int) -> list[str]:
+    """Why area a region could fill stays empty: the limits that bind, or the goal."""
     reasons = [{"leakage": "leakage budget", "oxide": "thin-oxide budget",
                 "kinds": "max_kinds"}[b.kind]
                for b in bindings if b.binding and b.kind in ("leakage", "oxide", "kinds")]
-    if block.objective.goal == "min_leakage":
-        reasons.append("goal min_leakage: the targets are met, more fill only adds leakage")
+    met = solution.shortfall[region] <= 0
+    if block.objective.goal == "min_leakage" and met:
+        reasons.append("goal min_leakage: the region's target is met, more fill only adds "
+                       "leakage")
     return reasons or ["no gain for the goal"]
 
 
@@ -362,7 +383,7 @@ def _class_fills(block: BlockFile, layout: _Layout, cells: list[Candidate],
     chosen_types = np.zeros(len(layout.types), dtype=bool)
     on = layout.cell_type[chosen & usable & (layout.cell_type >= 0)]
     chosen_types[on] = True
-    why = _why_open(block, bindings)
+    why = _why_open(block, bindings, solution, region)
     price = {(b.kind, b.index): b.shadow_price for b in bindings}
     per_class = _distribute(layout, solution, region)
     out: list[ClassFill] = []
@@ -451,14 +472,15 @@ def _budget_checks(block: BlockFile, cells_problem: FillProblem, solution: FillS
     for b in bindings:
         if b.kind == "leakage":
             out.append(BudgetCheck("leakage", policy.LEAKAGE_BUDGET.name, b.used, b.limit,
-                                   b.binding, b.shadow_price, note="each cell at its "
-                                   "leakiest corner"))
+                                   b.binding, b.shadow_price, gain_in=b.gain_in,
+                                   note="each cell at its leakiest corner"))
         elif b.kind == "oxide":
             note = f"limit from {oxide_source}"
             if failure is not None:
                 note += f"; fill failure fraction {failure / micro:.3g} ppm"
             out.append(BudgetCheck("thin-oxide gate area", "geometry (corner independent)",
-                                   b.used, b.limit, b.binding, b.shadow_price, note=note))
+                                   b.used, b.limit, b.binding, b.shadow_price,
+                                   gain_in=b.gain_in, note=note))
         elif b.kind == "kinds":
             out.append(BudgetCheck("distinct kinds", "-", b.used, b.limit, b.binding,
                                    None, b.gain, b.gain_in,
@@ -468,11 +490,23 @@ def _budget_checks(block: BlockFile, cells_problem: FillProblem, solution: FillS
             out.append(BudgetCheck(
                 f"target: {names[b.index]}", policy.USEFUL_CAPACITANCE.name, b.used,
                 float(cells_problem.target[b.index]), b.binding, b.shadow_price,
+                gain_in=b.gain_in,
                 note=(f"short by {short / nano:.4g} nF" if short > 0 else "met")))
         elif b.kind == "esd":
             out.append(BudgetCheck(f"ESD-safe-only: {names[b.index]}", "-", 0.0, None,
                                    b.binding, None, b.gain, b.gain_in,
                                    note="gain if the region took every cell"))
+    for r, name in enumerate(names):
+        mine = [b for b in bindings
+                if (b.kind == "gaps" and cells_problem.row_classes[b.index].region == r)
+                or (b.kind == "slots" and cells_problem.open_classes[b.index].region == r)]
+        if mine:
+            priced = [b.shadow_price for b in mine if b.shadow_price is not None]
+            out.append(BudgetCheck(
+                f"space: {name}", "-", float(sum(b.used for b in mine)),
+                float(sum(b.limit for b in mine)), any(b.binding for b in mine),
+                max(priced) if priced else None, gain_in=mine[0].gain_in,
+                note="gaps and slots of the region; price: most valuable extra gap"))
     return out
 
 

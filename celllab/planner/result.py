@@ -374,21 +374,21 @@ BUDGET_UNITS: dict[str, tuple[str, float]] = {
     "leakage": ("uA", micro),
     "thin-oxide gate area": ("um2", _UM2),
     "distinct kinds": ("kinds", 1.0),
+    "space": ("gaps", 1.0),
 }
 
 
 def _budget_dict(b: BudgetCheck, goal: str) -> dict[str, Any]:
     unit, factor = BUDGET_UNITS.get(b.name.split(":")[0], ("nF", nano))
     goal_unit, goal_factor = ("nF", nano) if goal == "max_useful_cap" else ("uA", micro)
+    if b.gain_in == "shortfall":
+        goal_unit, goal_factor = "nF less shortfall", nano
     price = None if b.shadow_price is None else b.shadow_price * factor / goal_factor
-    gain_factor = nano if b.gain_in == "shortfall" else goal_factor
     return {
         "name": b.name, "policy": b.policy, "unit": unit, "used": b.used / factor,
-        "limit": _opt(b.limit, factor), "binding": b.binding,
+        "limit": _opt(b.limit, factor), "binding": bool(b.binding),
         "shadow_price": price, "shadow_price_unit": f"{goal_unit} per {unit}",
-        "gain": _opt(b.gain, gain_factor),
-        "gain_unit": "nF less shortfall" if b.gain_in == "shortfall" else goal_unit,
-        "note": b.note,
+        "gain": _opt(b.gain, goal_factor), "gain_unit": goal_unit, "note": b.note,
     }
 
 
