@@ -117,14 +117,14 @@ NEGLIGIBLE = 1e-14
 def _row_terms(per: FloatArray, bound: FloatArray, limit: float) -> tuple[IntArray, float]:
     """Columns kept in a budget row and the factor the row is divided by.
 
-    HiGHS drops matrix entries of magnitude <= 1e-9, so the scale maps the kept coefficients
-    into [1e-6, 1e4] where their range allows (the largest at most 1e4), instead of dividing
-    by the limit."""
+    HiGHS drops matrix entries of magnitude <= 1e-9, so the row is divided by its largest
+    coefficient, or, when that would leave the smallest below 1e-7, by less (the largest then
+    up to 1e4), instead of by the limit."""
     keep = np.flatnonzero((per > 0) & (per * bound > NEGLIGIBLE * limit))
     if keep.size == 0:
         return keep, max(limit, np.finfo(float).tiny)
     lo, hi = float(per[keep].min()), float(per[keep].max())
-    return keep, max(hi / 1e4, lo / 1e-6)
+    return keep, hi if lo >= 1e-7 * hi else max(hi / 1e4, lo / 1e-7)
 
 
 def build_model(p: FillProblem, targets: FloatArray, mode: Literal["hard", "elastic"],
