@@ -67,7 +67,6 @@ from numpy.typing import NDArray
 from celllab.planner.fill_model import (
     BUDGET_TOLERANCE,
     Counts,
-    Raw,
     build_model,
     extract,
     round_down,
