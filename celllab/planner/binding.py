@@ -23,7 +23,7 @@ from numpy.typing import NDArray
 from scipy import sparse
 from scipy.optimize import linprog
 
-from celllab.planner.fill import FillProblem, FillSolution, goal_value, solve_fill
+from celllab.planner.fill import FillProblem, FillSolution, FillTimeout, goal_value, solve_fill
 from celllab.planner.fill_model import Model, build_model
 
 __all__ = ["Binding", "explain_fill"]
@@ -146,10 +146,10 @@ def explain_fill(problem: FillProblem, solution: FillSolution,
     usable_cells = int(np.count_nonzero(p.usable().any(axis=0)))
     gain = None
     if resolve and n_kinds >= p.max_kinds and p.max_kinds < usable_cells:
-        more = solve_fill(p.replace(max_kinds=p.max_kinds + 1), mip_rel_gap, time_limit)
-        gain, unit = _improvement(p, s, more, sign)
+        more = _resolve(p.replace(max_kinds=p.max_kinds + 1), mip_rel_gap, time_limit)
+        gain, kind_unit = _improvement(p, s, more, sign) if more else (None, "goal")
         out.append(Binding("kinds", -1, float(n_kinds), float(p.max_kinds), binds(None, gain),
-                           None, gain, unit))
+                           None, gain, kind_unit))
     else:
         out.append(Binding("kinds", -1, float(n_kinds), float(p.max_kinds), False, None, None))
     reached = np.sum(s.copies * p.useful_cap, axis=1)
@@ -159,13 +159,13 @@ def explain_fill(problem: FillProblem, solution: FillSolution,
                            bool(binds(sp_ and sp_ * p.target[r]) or s.shortfall[r] > 0), sp_,
                            None, unit))
     for r, cells in (unrestricted or {}).items():
-        gain, unit = None, "goal"
+        gain, esd_unit = None, "goal"
         if resolve:
             allowed = p.allowed.copy()
             allowed[r] = cells
-            opened = solve_fill(p.replace(allowed=allowed), mip_rel_gap, time_limit)
-            gain, unit = _improvement(p, s, opened, sign)
-        out.append(Binding("esd", r, 0.0, 0.0, binds(None, gain), None, gain, unit))
+            opened = _resolve(p.replace(allowed=allowed), mip_rel_gap, time_limit)
+            gain, esd_unit = _improvement(p, s, opened, sign) if opened else (None, "goal")
+        out.append(Binding("esd", r, 0.0, 0.0, binds(None, gain), None, gain, esd_unit))
     for g, c in enumerate(p.row_classes):
         sp_ = price(f"gaps:{g}")
         out.append(Binding("gaps", g, float(s.pattern_counts[g].sum()), float(c.count),
@@ -175,6 +175,14 @@ def explain_fill(problem: FillProblem, solution: FillSolution,
         out.append(Binding("slots", o, float(s.slot_counts[o].sum()), float(c.count),
                            binds(sp_), sp_, None, unit))
     return out
+
+
+def _resolve(p: FillProblem, mip_rel_gap: float, time_limit: float) -> FillSolution | None:
+    """The fill with one limit lifted, or None when the time ran out first."""
+    try:
+        return solve_fill(p, mip_rel_gap, time_limit)
+    except FillTimeout:
+        return None
 
 
 def _improvement(p: FillProblem, before: FillSolution, after: FillSolution,

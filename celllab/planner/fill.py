@@ -42,15 +42,18 @@ replacing every copy of i by a copy of j keeps every constraint (no more kinds, 
 oxide area, no less capacitance toward any target) and does not worsen either goal. Of
 identical cells the first is kept.
 
-Rows are scaled to order one (HiGHS checks rows to an absolute tolerance); the rounded
-solution is re-checked exactly and, if a rounded count overshoots a budget (possible only
-within the tolerance), re-solved with that budget tightened.
+Rows are scaled (HiGHS checks rows to an absolute tolerance and ignores tiny coefficients):
+gap, slot and link rows by their counts, budget and target rows by their largest coefficient
+(``fill_model``). The rounded solution is re-checked exactly and, if a rounded count
+overshoots a budget (possible only within the tolerance), re-solved with that budget
+tightened.
 
 Solving: a model of at most ``DIRECT_LIMIT`` variables, or one whose kind limit cannot bind,
 goes to HiGHS branch and bound as it is. A larger one first gets its LP relaxation (a bound
 on every fill) and K kinds from the LP-guided search of ``kinds``; the fill restricted to
-those kinds (patterns projected onto their footprints) is solved, by rounding its LP down when
-that already lies within the requested gap of the bound, else by HiGHS. While the certified
+those kinds (patterns projected onto their footprints) is solved, by rounding its LP down (and
+topping up a target the rounding just missed) when that already lies within the requested gap
+of the bound, else by HiGHS. While the certified
 gap to the bound is above the requested one and time remains, the full model goes to HiGHS
 as well and the better fill is kept. ``FillSolution.mip_gap`` is the certified gap.
 """
