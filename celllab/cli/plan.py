@@ -110,16 +110,20 @@ def render_report(summary: dict[str, Any], console: Any) -> None:
          for role, v in s["roles"].items()]
         + [["total", t["cap_nF"], t["useful_cap_nF"], t["leakage_uA"], t["leakage_uW"]]],
         {1, 2, 3, 4}))
+    budgets = s["budgets"]
     console.print(_table(
         "budgets and binding constraints",
         ["constraint", "corner policy", "used", "limit", "unit", "binds", "shadow price",
-         "gain if lifted", "note"],
-        [[b["name"], b["policy"], b["used"], b["limit"], b["unit"],
-          "BINDS" if b["binding"] else "no",
+         "gain if lifted"],
+        [[b["name"], b["policy"], "–" if b["limit"] is None else b["used"], b["limit"],
+          b["unit"] if b["limit"] is not None else "", "BINDS" if b["binding"] else "no",
           "–" if b["shadow_price"] is None else f"{_n(b['shadow_price'])} "
           f"{b['shadow_price_unit']}",
-          "–" if b["gain"] is None else f"{_n(b['gain'])} {b['gain_unit']}", b["note"]]
-         for b in s["budgets"]], {2, 3}))
+          "–" if b["gain"] is None else f"{_n(b['gain'])} {b['gain_unit']}"]
+         for b in budgets], {2, 3}))
+    for b in budgets:
+        if b["note"]:
+            console.print(f"  {b['name']}: {b['note']}", soft_wrap=True, markup=False)
     console.print(_table("the fill at every stored corner", ["corner", "cap nF", "leak uA"],
                          [[c["corner"], c["cap_nF"], c["leakage_uA"]] for c in s["corners"]],
                          {1, 2}))
