@@ -42,15 +42,31 @@ def read_toml(path: str | Path, error: type[CelllabError]) -> tuple[dict[str, An
         raise error([Problem(str(path), "", f"TOML syntax error: {msg}", line=line, has_value=False)]) from None
 
 
+def _resolve_table(name: str, arrays: dict[tuple[str, ...], int]) -> list[str]:
+    """Key path of a table header, with the current element index after every array of
+    tables it lies in (``[[region.row_gaps]]`` inside the second ``[[region]]`` ->
+    region, 1, row_gaps)."""
+    resolved: list[str] = []
+    for part in (t.strip().strip('"') for t in name.split(".")):
+        resolved.append(part)
+        key = tuple(resolved)
+        if key in arrays:
+            resolved.append(str(arrays[key]))
+    return resolved
+
+
 def find_line(text: str | None, path: Iterable[str | int]) -> int | None:
-    """Best-effort line number of a dotted key path in TOML source (None when not found)."""
+    """Best-effort line number of a dotted key path in TOML source (None when not found).
+
+    Arrays of tables are indexed (``["metals", 4, "name"]``), nested ones too
+    (``["region", 1, "row_gaps", 0, "count"]``)."""
     if not text:
         return None
     parts = [str(p) for p in path]
     if not parts:
         return None
     table: list[str] = []
-    array_index: dict[str, int] = {}
+    arrays: dict[tuple[str, ...], int] = {}  # array-of-tables path -> index of its last element
     best: int | None = None
     for lineno, raw in enumerate(text.splitlines(), start=1):
         line = raw.split("#", 1)[0].strip()
@@ -58,24 +74,30 @@ def find_line(text: str | None, path: Iterable[str | int]) -> int | None:
             continue
         m = re.match(r"^\[\[\s*([^\]]+?)\s*\]\]$", line)
         if m:
-            name = m.group(1)
-            array_index[name] = array_index.get(name, -1) + 1
-            table = name.split(".") + [str(array_index[name])]
+            owner = _resolve_table(m.group(1), {})
+            # the array's own path runs through the current elements of enclosing arrays
+            base = _resolve_table(".".join(owner[:-1]), arrays) if len(owner) > 1 else []
+            key = (*base, owner[-1])
+            arrays[key] = arrays.get(key, -1) + 1
+            # a new element forgets the elements of arrays nested in the previous one
+            for nested in [k for k in arrays if len(k) > len(key) and k[:len(key)] == key]:
+                del arrays[nested]
+            table = [*key, str(arrays[key])]
             if table == parts[: len(table)] and best is None and len(table) == len(parts):
                 best = lineno
             continue
         m = re.match(r"^\[\s*([^\]]+?)\s*\]$", line)
         if m:
-            table = [t.strip().strip('"') for t in m.group(1).split(".")]
+            table = _resolve_table(m.group(1), arrays)
             if table == parts[: len(table)] and len(table) == len(parts):
                 best = best or lineno
             continue
         m = re.match(r'^("?)([A-Za-z0-9_\-\.]+)\1\s*=', line)
         if m:
-            key = table + [k.strip('"') for k in m.group(2).split(".")]
-            if key == parts:
+            key_path = table + [k.strip('"') for k in m.group(2).split(".")]
+            if key_path == parts:
                 return lineno
-            if key == parts[: len(key)] and best is None:
+            if key_path == parts[: len(key_path)] and best is None:
                 best = lineno
     return best
 
