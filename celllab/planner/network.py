@@ -364,17 +364,28 @@ class BlockNetwork:
 
     # ------------------------------------------------------------------ frequency domain
 
+    def _frequencies(self, freq: ArrayLike) -> FloatArray:
+        """(n_freq,) shared by all corners, or (n_corner, n_freq): one row per corner."""
+        f = np.asarray(freq, dtype=float)
+        if f.ndim == 2 and f.shape[0] not in (1, len(self.corners)):
+            raise ValueError(f"freq has {f.shape[0]} rows for {len(self.corners)} corners")
+        if f.ndim not in (1, 2):
+            raise ValueError(f"freq has shape {f.shape} -> (n_freq,) or (n_corner, n_freq)")
+        return f
+
     def fill_admittance(self, freq: ArrayLike) -> dict[str, ComplexArray]:
         """Each region's fill admittance, S, (n_corner, n_freq); cached per frequency grid.
 
-        Cells of one circuit structure are solved together: variants = cells x corners.
+        ``freq``: (n_freq,) Hz, or (n_corner, n_freq) for a grid per corner. Cells of one
+        circuit structure are solved together: variants = cells x corners.
         """
-        f = np.asarray(freq, dtype=float).reshape(-1)
-        key = f.tobytes()
+        f = self._frequencies(freq)
+        key = f.tobytes() + bytes(str(f.shape), "ascii")
         if key in self._cache:
             return self._cache[key]
         n_corner = len(self.corners)
-        out = {r.name: np.zeros((n_corner, f.size), dtype=complex) for r in self.regions}
+        rows = np.broadcast_to(f if f.ndim == 2 else f[None, :], (n_corner, f.shape[-1]))
+        out = {r.name: np.zeros((n_corner, f.shape[-1]), dtype=complex) for r in self.regions}
         groups: dict[Any, list[tuple[str, FillEntry]]] = {}
         for region in self.regions:
             for entry in region.fill:
@@ -388,7 +399,8 @@ class BlockNetwork:
                 names = ", ".join(sorted({e.cell for _, e in members}))
                 raise ValueError(f"cells {names}: circuits differ between corners ({exc})"
                                  ) from None
-            z = solve_impedance(stacked, f).reshape(len(members), n_corner, f.size)
+            z = solve_impedance(stacked, np.tile(rows, (len(members), 1)))
+            z = z.reshape(len(members), n_corner, f.shape[-1])
             for (name, entry), z_cell in zip(members, z):
                 out[name] += entry.count / z_cell
         if len(self._cache) > 8:
@@ -399,8 +411,9 @@ class BlockNetwork:
     def transfer(self, freq: ArrayLike, observe: Sequence[str] | None = None,
                  entrance: ArrayLike | None = None, probe: float = 0.0) -> ComplexArray:
         """V(observe) / I(region), ohm, (n_corner, n_freq, n_observe, n_region): 1 A pushed
-        into each region node in turn (``observe`` default: the region nodes)."""
-        f = np.asarray(freq, dtype=float).reshape(-1)
+        into each region node in turn (``observe`` default: the region nodes). ``freq``:
+        (n_freq,) Hz or (n_corner, n_freq)."""
+        f = self._frequencies(freq)
         shunts = {region_node(n): y for n, y in self.fill_admittance(f).items()
                   if np.any(y != 0)}
         z = solve_transfer(self.backbone(entrance, probe), f, self.region_nodes,

@@ -22,12 +22,13 @@ Every shape is piecewise linear, so its Fourier coefficients have an exact close
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Literal
 
 import numpy as np
-from scipy.integrate import trapezoid
 from numpy.typing import ArrayLike, NDArray
+from scipy.integrate import trapezoid
 
 FloatArray = NDArray[np.float64]
 ComplexArray = NDArray[np.complex128]
@@ -37,6 +38,7 @@ STIMULI: tuple[Stimulus, ...] = ("step", "clock", "samples")
 __all__ = [
     "STIMULI",
     "Activity",
+    "block_current_spectrum",
     "current_waveform",
     "harmonic_spectrum",
     "pwl_harmonics",
@@ -273,3 +275,35 @@ def trapezoid_envelope(
     f1, f2 = 1.0 / (np.pi * width), 1.0 / (np.pi * edge)
     bound = level * np.minimum(1.0, f1 / f)
     return np.asarray(bound * np.minimum(1.0, f2 / f), dtype=float)
+
+
+def block_current_spectrum(activities: Sequence[Activity], f_max: float
+                           ) -> tuple[FloatArray, ComplexArray]:
+    """The regions' clock harmonics on one frequency axis, as peak phasors.
+
+    Parameters
+    ----------
+    activities : sequence of Activity   one per region (those without a period contribute 0)
+    f_max : float                       Hz: highest harmonic kept
+
+    Returns
+    -------
+    (freq, current) : (n_h,) Hz, sorted union of every region's harmonics; (n_h, n_region)
+                      complex A, peak phasor 2 a_n of each region at each frequency (0 where
+                      that region has no harmonic)
+
+    Notes
+    -----
+    Every clock starts its period at t = 0 (edges aligned), so the phasors of regions on one
+    clock add with their true relative phase.
+    """
+    spectra = []
+    for a in activities:
+        spectra.append(harmonic_spectrum(a, f_max) if a.period is not None else
+                       (np.empty(0), np.empty(0, dtype=complex)))
+    freq = np.unique(np.round(np.concatenate([f for f, _ in spectra] or [np.empty(0)]), 3))
+    current = np.zeros((freq.size, len(activities)), dtype=complex)
+    for j, (f, c) in enumerate(spectra):
+        if f.size:
+            current[np.searchsorted(freq, np.round(f, 3)), j] = 2.0 * c
+    return freq, current
