@@ -289,6 +289,18 @@ class BlockNetwork:
     def region_nodes(self) -> list[str]:
         return [region_node(r.name) for r in self.regions]
 
+    def with_fill(self, fills: Mapping[str, Sequence[FillEntry]]) -> BlockNetwork:
+        """The same network with each region's fill replaced (regions not named: no fill);
+        the intrinsic capacitance and activity stay. Corners stay those of this network."""
+        unknown = sorted(set(fills) - set(self.region_names))
+        if unknown:
+            raise ValueError(f"no region(s) {unknown}; regions: {list(self.region_names)}")
+        regions = [replace(r, fill=tuple(fills.get(r.name, ()))) for r in self.regions]
+        corners = self.corners if any(fills.values()) else None
+        if corners is None:
+            return BlockNetwork(self.supply, tuple(regions), self.corners)
+        return build_network(self.supply, regions, corners)
+
     # ------------------------------------------------------------------ netlists
 
     def backbone(self, entrance: ArrayLike | None = None, probe: float = 0.0) -> Netlist:
