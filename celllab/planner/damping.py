@@ -221,8 +221,9 @@ def size_entrance_resistors(
     Minimizes max_r max_{corner, f in band_r} |Z_rr| / Z_t,r over the resistors R_r >= 0 with
     scipy.optimize.minimize(method="COBYLA") (derivative-free, inequality constraints; the
     objective is a maximum, so not smooth), constraints drop_r(R) <= limit_r from the DC
-    solution of the network, started from R = {0.5, 1, 2} x sqrt(L/C) per region and from the
-    resistors given; the best feasible point wins. A drop already over the limit with the given
+    solution of the network, started from R = sqrt(L/C) per region and from the resistors
+    given; the best feasible point wins. The search evaluates every other grid point (the
+    peak refined by a parabola in log-log); the reported peaks use the whole grid. A drop already over the limit with the given
     resistors is reported, not repaired (the resistors can only add drop).
     """
     f = np.asarray(freq, dtype=float)
@@ -236,8 +237,12 @@ def size_entrance_resistors(
     def drops(x: FloatArray) -> FloatArray:
         return network.dc_state(np.maximum(x, 0.0) * scale).drop
 
+    # the search runs on every other grid point (the peak is refined by a parabola); the
+    # reported figures use the whole grid
+    f_search = f[::2] if f.size > 100 else f
+
     def objective(x: FloatArray) -> float:
-        return float(np.max(worst_peaks(network, f, targets, bands,
+        return float(np.max(worst_peaks(network, f_search, targets, bands,
                                         np.maximum(x, 0.0) * scale).ratio))
 
     peak_before = worst_peaks(network, f, targets, bands, before_r)
@@ -247,12 +252,11 @@ def size_entrance_resistors(
     if np.any(network.dc_state(np.zeros(n_r)).drop > limit):
         message = "the DC drop exceeds the limit without any entrance resistor"
     else:
-        starts = [np.clip(m * z0 / scale, 0.0, upper) for m in (0.5, 1.0, 2.0)]
-        starts.append(before_r / scale)
+        starts = [np.clip(z0 / scale, 0.0, upper), np.clip(before_r / scale, 0.0, upper)]
         for x0 in starts:
             res = minimize(objective, x0, method="COBYLA", constraints=constraints,
                            bounds=[(0.0, upper)] * n_r,
-                           options={"rhobeg": 0.25, "maxiter": 400, "tol": 1e-4})
+                           options={"rhobeg": 0.25, "maxiter": 300, "tol": 1e-3})
             x = np.clip(res.x, 0.0, upper)
             feasible = bool(np.all(drops(x) <= limit * (1 + 1e-6)))
             value = objective(x)

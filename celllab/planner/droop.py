@@ -56,7 +56,7 @@ SETTLE_FRACTION = 0.02
 #: small bumps during the edge are not the die-package response (common practice, no source).
 FIRST_PROMINENCE, FIRST_LEVEL = 0.05, 0.25
 #: Largest number of time steps of one run.
-MAX_STEPS = 20000
+MAX_STEPS = 6000
 #: RC-line ladder rule for the droop: omega R C / N^2 <= this at the ringing frequency (the
 #: SPICE export's accuracy rule, applied where the droop's energy is), N within the bounds.
 LADDER_X = 0.03
@@ -86,8 +86,12 @@ class DroopRun:
 
 def droop_grid(activities: list[Activity], f_ring: float, settle_time: float
                ) -> tuple[FloatArray, bool]:
-    """Time grid for a droop run, s: a fine stretch over the edges and the first ring periods,
-    then a coarser one to ``settle_time`` (step, samples); uniform fine steps for clocks.
+    """Time grid for a droop run, s.
+
+    Step and samples: steps of a tenth of the fastest edge over the edges, then 1/60 of the
+    ringing period over three ring periods, then a coarser step (at most 400 more) to
+    ``settle_time`` after the edges. Clocks: the edge step throughout (every pulse has
+    edges), over ``settle_time`` and at least three clock periods.
 
     Parameters
     ----------
@@ -99,25 +103,28 @@ def droop_grid(activities: list[Activity], f_ring: float, settle_time: float
     -------
     (t, truncated)   grid from 0; ``truncated`` when ``MAX_STEPS`` shortened it
     """
-    edges = [min(a.rise_time, a.fall_time_s) for a in activities]
-    fine = min(min(edges) / 10.0, 1.0 / (40.0 * f_ring))
+    edge = min(min(a.rise_time, a.fall_time_s) for a in activities)
+    fine = edge / 10.0
+    ring = max(fine, 1.0 / (60.0 * f_ring))
     clocks = [a for a in activities if a.stimulus == "clock"]
     if clocks:
         periods = [1.0 / a.clock_frequency for a in clocks]  # type: ignore[operator]
-        t_stop = max(settle_time, 3.0 * max(periods))
-        stretches = [(t_stop, fine)]
+        stretches = [(max(settle_time, 3.0 * max(periods)), fine)]
     else:
-        ends = []
-        for a in activities:
-            if a.stimulus == "step":
-                ends.append(a.step_delay + a.rise_time)
-            else:
-                ends.append(float(np.asarray(a.samples[0])[-1]))  # type: ignore[index]
+        ends = [a.step_delay + a.rise_time if a.stimulus == "step"
+                else float(np.asarray(a.samples[0])[-1])  # type: ignore[index]
+                for a in activities]
         edge_end = max(ends)
-        fine_end = edge_end + 3.0 / f_ring
-        t_stop = max(edge_end + settle_time, fine_end * 1.5)
-        coarse = max(fine, min(1.0 / (40.0 * f_ring) * 4.0, (t_stop - fine_end) / 400.0))
-        stretches = [(fine_end, fine), (t_stop, coarse)]
+        samples = [a for a in activities if a.stimulus == "samples"]
+        if samples:  # resolve the sampled waveform wherever it moves
+            spacing = min(float(np.min(np.diff(np.asarray(a.samples[0]))))  # type: ignore[index]
+                          for a in samples)
+            fine = min(fine, spacing)
+        fast_end = edge_end + 2.0 * edge
+        ring_end = fast_end + 3.0 / f_ring
+        t_stop = max(edge_end + settle_time, 1.5 * ring_end)
+        coarse = max(ring, (t_stop - ring_end) / 400.0)
+        stretches = [(fast_end, fine), (ring_end, ring), (t_stop, coarse)]
     grid = tr.piecewise_grid(stretches)
     truncated = grid.size > MAX_STEPS + 1
     return (grid[: MAX_STEPS + 1] if truncated else grid), truncated

@@ -54,6 +54,7 @@ __all__ = [
     "SupplyNetwork",
     "analysis_frequencies",
     "build_network",
+    "entry_node",
     "region_node",
 ]
 
@@ -72,7 +73,8 @@ def region_node(name: str) -> str:
     return f"r_{name}"
 
 
-def _entry_node(name: str) -> str:
+def entry_node(name: str) -> str:
+    """Node between a region's entrance resistor and its grid segment."""
     return f"r_{name}_entry"
 
 
@@ -326,7 +328,7 @@ class BlockNetwork:
         elements += _series("pkg", pkg_from, RING, s.package_resistance, s.package_inductance)
         for region in self.regions:
             name, path = region.name, s.paths[region.name]
-            node, entry = region_node(name), _entry_node(name)
+            node, entry = region_node(name), entry_node(name)
             elements.append(Element("R", f"{name}_entrance", RING, entry,
                                     path.entrance_resistance))
             elements += _series(f"{name}_grid", entry, node, path.grid_resistance,
@@ -478,7 +480,7 @@ class BlockNetwork:
             dc_elements.append(replace(el, kind="R", value=0.0) if el.kind == "L" else el)
         dc = Netlist("block_dc", tuple(dc_elements), back.ports)
         nodes = self.region_nodes
-        entries = [_entry_node(r.name) for r in self.regions]
+        entries = [entry_node(r.name) for r in self.regions]
         v = solve_transfer(dc, [1.0], nodes, [RING, *entries, *nodes])[0, 0].real
         current = self.mean_currents()
         volts = v @ current

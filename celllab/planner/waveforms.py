@@ -144,17 +144,15 @@ class Activity:
         return None
 
     def mean_current(self) -> float:
-        """Average current, A: ``average_current`` if given; else step: base + peak (the state
-        after the step); clock: base + Q f_clk; samples: the time average of the samples."""
+        """Average current, A: ``average_current`` if given; else the time average of the
+        periodic view (clock pulses, or the samples as one period) when there is one; else
+        base + peak (a step with no clock: the state after the step)."""
         if self.average_current is not None:
             return self.average_current
-        if self.stimulus == "step":
-            return self.base_current + self.peak_current
-        if self.stimulus == "clock":
+        if self.period is not None:
             t, i = self.periodic_breakpoints()
             return float(trapezoid(i, t) / (t[-1] - t[0]))
-        t, i = (np.asarray(a, dtype=float) for a in self.samples)  # type: ignore[misc]
-        return float(trapezoid(i, t) / (t[-1] - t[0]))
+        return self.base_current + self.peak_current
 
     def periodic_breakpoints(self) -> tuple[FloatArray, FloatArray]:
         """One period as piecewise-linear breakpoints (t from 0 to T, i(T) = i(0)), s and A."""
