@@ -48,6 +48,7 @@ import csv
 import difflib
 import io
 import re
+from collections.abc import Mapping, Sequence
 from dataclasses import replace
 from pathlib import Path
 from typing import Any, Literal
@@ -59,12 +60,15 @@ from scipy.constants import giga, mega, milli, nano, pico
 from celllab.deck.load import find_line, read_toml, validation_problems
 from celllab.errors import PlanError, Problem
 from celllab.planner.network import (
+    FillEntry,
     GridLink,
     OffChipDecap,
+    RegionLoad,
     RegionPath,
     SupplyNetwork,
     analysis_frequencies,
 )
+from celllab.planner.network_figures import NetworkGoals
 from celllab.planner.waveforms import Activity
 
 __all__ = [
@@ -75,9 +79,11 @@ __all__ = [
     "OffChipSpec",
     "RegionSpec",
     "load_network_spec",
+    "network_goals",
     "parse_network_spec",
     "read_waveform_csv",
     "region_activity",
+    "region_loads",
     "supply_network",
 ]
 
@@ -139,7 +145,7 @@ class RegionSpec(_Strict):
 class LinkSpec(_Strict):
     """A grid segment joining two regions."""
 
-    regions: tuple[str, str] = Field(description="the two regions joined")
+    regions: list[str] = Field(min_length=2, max_length=2, description="the two regions joined")
     resistance_mohm: float = Field(ge=0, le=1e6, description="mohm")
     inductance_pH: float = Field(0.0, ge=0, le=1e6, description="pH")
 
@@ -379,3 +385,42 @@ def read_waveform_csv(path: str | Path) -> tuple[np.ndarray, np.ndarray]:
     if problems:
         raise PlanError(problems)
     return np.asarray(t) * nano, np.asarray(i) * milli
+
+
+def region_loads(spec: NetworkSpec, fills: Mapping[str, Sequence[FillEntry]],
+                 samples: Mapping[str, tuple[np.ndarray, np.ndarray]] | None = None
+                 ) -> list[RegionLoad]:
+    """One `RegionLoad` per region of the table, with the planner's fill for it.
+
+    Parameters
+    ----------
+    spec : NetworkSpec
+    fills : mapping region -> fill entries (a region not named gets no fill)
+    samples : mapping region -> (t s, i A) for regions with stimulus 'samples' (from
+              `read_waveform_csv`, path resolved by the caller)
+    """
+    unknown = sorted(set(fills) - set(spec.regions))
+    if unknown:
+        raise ValueError(f"fills for unknown region(s) {unknown}; regions: {list(spec.regions)}")
+    out = []
+    for name, region in spec.regions.items():
+        out.append(RegionLoad(name, tuple(fills.get(name, ())),
+                              region.intrinsic_capacitance_nF * nano,
+                              region.intrinsic_esr_mohm * milli,
+                              region_activity(region, (samples or {}).get(name))))
+    return out
+
+
+def network_goals(spec: NetworkSpec,
+                  naive_fill: Mapping[str, Sequence[FillEntry]] | None = None) -> NetworkGoals:
+    """The checks the table asks for (`planner.network_figures.NetworkGoals`, SI)."""
+    names = list(spec.regions)
+    ripple = {n: (r.ripple_fraction if r.ripple_fraction is not None else spec.ripple_fraction)
+              for n, r in spec.regions.items()}
+    limit = {n: (r.ir_drop_limit_mV if r.ir_drop_limit_mV is not None
+                 else spec.ir_drop_limit_mV) * milli for n, r in spec.regions.items()}
+    return NetworkGoals(ripple_fraction={n: ripple[n] for n in names},
+                        ir_drop_limit={n: limit[n] for n in names},
+                        freq=spec.frequencies(), emission_f_max=spec.emission_f_max_MHz * mega,
+                        probe=spec.probe_ohm, size_entrance=spec.size_entrance_resistors,
+                        naive_fill=naive_fill)
