@@ -7,9 +7,10 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from physics.ngspice_util import run_deck  # tests/physics (rootdir on sys.path)
 
 from celllab.catalog import Catalog
-from celllab.physics.netlist import Element, Netlist, solve_impedance, solve_z_matrix
+from celllab.physics.netlist import Element, Netlist, solve_z_matrix
 from celllab.planner.network import (
     BlockNetwork,
     FillEntry,
@@ -24,7 +25,6 @@ from celllab.planner.network import (
 )
 from celllab.planner.waveforms import Activity
 
-from physics.ngspice_util import require_ngspice, run_deck  # tests/physics (rootdir on sys.path)
 from .network_demo import demo_network, spice_network
 
 STEP = Activity(peak_current=0.1, rise_time=100e-12)
