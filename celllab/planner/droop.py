@@ -16,8 +16,8 @@ worst droop      the largest droop of the run
 settled droop    where the droop ends: the last 5 % of the run (step, samples) or the mean over
                  the last clock period (clock)
 overshoot        the largest rebound above the settled level after the first droop
-ringing          step and samples: frequency from successive droop maxima after the first
-                 droop, Q from their decay (log decrement delta of a second-order response:
+ringing          step and samples: frequency from the first two droop maxima from the first
+                 droop on (each placed by a parabola through its samples), Q from their decay (log decrement delta of a second-order response:
                  zeta = delta / sqrt(4 pi^2 + delta^2), Q = 1 / (2 zeta)); clock: not computed
 settling time    after the stimulus edge, the last time the droop is more than
                  ``SETTLE_FRACTION`` of the first excursion away from the settled level (step,
@@ -204,13 +204,29 @@ class DroopFigures:
         return np.asarray(np.argmax(self.worst_droop, axis=0))
 
 
+def _vertex(t: FloatArray, y: FloatArray, k: int) -> tuple[float, float]:
+    """(time, value) of the parabola through samples k-1, k, k+1 (a maximum between grid
+    points); the sample itself at the ends of the trace."""
+    if k <= 0 or k >= t.size - 1:
+        return float(t[k]), float(y[k])
+    t0, t1, t2 = t[k - 1], t[k], t[k + 1]
+    y0, y1, y2 = y[k - 1], y[k], y[k + 1]
+    s1, s2 = (y1 - y0) / (t1 - t0), (y2 - y1) / (t2 - t1)
+    curv = (s2 - s1) / (t2 - t0)
+    if curv >= 0:
+        return float(t1), float(y1)
+    slope = s1 + curv * (t1 - t0)
+    shift = float(np.clip(-slope / (2.0 * curv), t0 - t1, t2 - t1))
+    return float(t1 + shift), float(y1 + slope * shift + curv * shift * shift)
+
+
 def _trace_figures(t: FloatArray, d: FloatArray, stimulus: str, start: float, end: float,
                    period: float | None) -> tuple[float, ...]:
     """(first, t_first, worst, t_worst, settled, overshoot, f_ring, q, t_settle) of one trace."""
     after = t >= start
     tt, dd = t[after], d[after]
     k_worst = int(np.argmax(dd))
-    worst, t_worst = float(dd[k_worst]), float(tt[k_worst])
+    t_worst, worst = _vertex(tt, dd, k_worst)
     if stimulus == "clock" and period is not None:
         settled = float(np.mean(d[t >= t[-1] - period]))
     else:
@@ -219,7 +235,7 @@ def _trace_figures(t: FloatArray, d: FloatArray, stimulus: str, start: float, en
     peaks, _ = find_peaks(dd, prominence=FIRST_PROMINENCE * span)
     peaks = peaks[dd[peaks] - dd[0] >= FIRST_LEVEL * (worst - dd[0])]
     k_first = int(peaks[0]) if peaks.size else k_worst
-    first, t_first = float(dd[k_first]), float(tt[k_first])
+    t_first, first = _vertex(tt, dd, k_first)
     rest = dd[k_first:] - settled
     overshoot = float(max(-np.min(rest), 0.0))
     f_ring = q = t_settle = float("nan")
@@ -238,8 +254,9 @@ def _trace_figures(t: FloatArray, d: FloatArray, stimulus: str, start: float, en
     maxima, _ = find_peaks(dev, prominence=FIRST_PROMINENCE * abs(first - settled))
     maxima = maxima[maxima >= k_first]
     if maxima.size >= 2 and dev[maxima[0]] > 0 and dev[maxima[1]] > 0:
-        f_ring = 1.0 / float(tt[maxima[1]] - tt[maxima[0]])
-        delta = float(np.log(dev[maxima[0]] / dev[maxima[1]]))
+        (ta, ya), (tb, yb) = _vertex(tt, dev, int(maxima[0])), _vertex(tt, dev, int(maxima[1]))
+        f_ring = 1.0 / (tb - ta)
+        delta = float(np.log(ya / yb))
         if delta > 0:
             zeta = delta / np.sqrt(4.0 * np.pi ** 2 + delta ** 2)
             q = 1.0 / (2.0 * zeta)
