@@ -199,8 +199,11 @@ class NetworkFile(_Strict):
         """A located problem about field ``dotted`` of this file."""
         parts: list[str | int] = [int(p) if p.isdigit() else p
                                   for p in dotted.replace("[", ".").replace("]", "").split(".")]
-        return Problem(self._file, dotted, message, value, find_line(self._text, parts),
-                       has_value)
+        line = None
+        while parts and line is None:  # an absent key: the line of its table
+            line = find_line(self._text, parts)
+            parts = parts[:-1]
+        return Problem(self._file, dotted, message, value, line, has_value)
 
 
 def _rule_problems(spec: NetworkFile) -> list[Problem]:
