@@ -331,8 +331,12 @@ def stack_variants(name: str, netlists: Sequence[Netlist]) -> Netlist:
                 "cannot stack them as variants"
             )
     counts = [nl.n_variant for nl in netlists]
+    single = all(n == 1 for n in counts)
 
     def column(values: list[FloatArray | float | None]) -> FloatArray:
+        if single:  # the common case (one circuit per cell and corner): no broadcasting
+            return np.array([v if isinstance(v, float) else float(np.asarray(v).reshape(-1)[0])
+                             for v in values], dtype=float)
         return np.concatenate(
             [np.broadcast_to(np.asarray(v, dtype=float), (n,)) for v, n in zip(values, counts)]
         )

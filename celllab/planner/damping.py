@@ -39,6 +39,7 @@ from celllab.planner.network import BlockNetwork
 
 __all__ = [
     "DampingTrade",
+    "cell_impedance",
     "PeakSummary",
     "conductance_needed",
     "damping_score",
@@ -62,20 +63,22 @@ def match_ratio(esr: ArrayLike, capacitance: ArrayLike, f_resonance: ArrayLike) 
                       * np.asarray(esr, dtype=float) * np.asarray(capacitance, dtype=float))
 
 
-def resonance_conductance(circuits: Sequence[Netlist], f_resonance: float) -> FloatArray:
-    """g_i = Re(1 / Z_i(f0)) of each cell's circuit, S (n_cell,): its damping per copy.
-
-    Circuits of one structure are solved together (one `solve_impedance` per structure).
-    """
-    out = np.empty(len(circuits))
+def cell_impedance(circuits: Sequence[Netlist], freq: ArrayLike) -> NDArray[np.complex128]:
+    """Z of each cell's one-variant circuit, ohm, (n_cell, n_freq); circuits of one structure
+    are solved together (one `solve_impedance` per structure)."""
+    f = np.asarray(freq, dtype=float).reshape(-1)
+    out = np.empty((len(circuits), f.size), dtype=complex)
     groups: dict[object, list[int]] = {}
     for i, nl in enumerate(circuits):
         groups.setdefault(structure_key(nl), []).append(i)
     for members in groups.values():
-        z = solve_impedance(stack_variants("cells", [circuits[i] for i in members]),
-                            [f_resonance])[:, 0]
-        out[members] = np.real(1.0 / z)
+        out[members] = solve_impedance(stack_variants("cells", [circuits[i] for i in members]), f)
     return out
+
+
+def resonance_conductance(circuits: Sequence[Netlist], f_resonance: float) -> FloatArray:
+    """g_i = Re(1 / Z_i(f0)) of each cell's circuit, S (n_cell,): its damping per copy."""
+    return np.asarray(np.real(1.0 / cell_impedance(circuits, [f_resonance])[:, 0]))
 
 
 def damping_score(conductance: ArrayLike, capacitance: ArrayLike, f_resonance: ArrayLike

@@ -282,6 +282,7 @@ class BlockNetwork:
     corners: tuple[str, ...]
     _cache: dict[bytes, dict[str, ComplexArray]] = field(
         default_factory=dict, repr=False, compare=False)
+    _groups: dict[str, Any] = field(default_factory=dict, repr=False, compare=False)
 
     @property
     def region_names(self) -> tuple[str, ...]:
@@ -387,6 +388,29 @@ class BlockNetwork:
             raise ValueError(f"freq has shape {f.shape} -> (n_freq,) or (n_corner, n_freq)")
         return f
 
+    def _fill_groups(self) -> list[tuple[list[tuple[str, FillEntry]], Netlist]]:
+        """Fill cells grouped by circuit structure, each group's circuits stacked as variants
+        (cell-major, corner-minor); built once per network."""
+        if "groups" in self._groups:
+            return self._groups["groups"]
+        groups: dict[Any, list[tuple[str, FillEntry]]] = {}
+        for region in self.regions:
+            for entry in region.fill:
+                first = entry.circuits[self.corners[0]]
+                groups.setdefault(structure_key(first), []).append((region.name, entry))
+        out = []
+        for members in groups.values():
+            try:
+                stacked = stack_variants("group", [e.circuits[c] for _, e in members
+                                                   for c in self.corners])
+            except ValueError as exc:
+                names = ", ".join(sorted({e.cell for _, e in members}))
+                raise ValueError(f"cells {names}: circuits differ between corners ({exc})"
+                                 ) from None
+            out.append((members, stacked))
+        self._groups["groups"] = out
+        return out
+
     def fill_admittance(self, freq: ArrayLike) -> dict[str, ComplexArray]:
         """Each region's fill admittance, S, (n_corner, n_freq); cached per frequency grid.
 
@@ -400,19 +424,7 @@ class BlockNetwork:
         n_corner = len(self.corners)
         rows = np.broadcast_to(f if f.ndim == 2 else f[None, :], (n_corner, f.shape[-1]))
         out = {r.name: np.zeros((n_corner, f.shape[-1]), dtype=complex) for r in self.regions}
-        groups: dict[Any, list[tuple[str, FillEntry]]] = {}
-        for region in self.regions:
-            for entry in region.fill:
-                first = entry.circuits[self.corners[0]]
-                groups.setdefault(structure_key(first), []).append((region.name, entry))
-        for members in groups.values():
-            try:
-                stacked = stack_variants("group", [e.circuits[c] for _, e in members
-                                                   for c in self.corners])
-            except ValueError as exc:
-                names = ", ".join(sorted({e.cell for _, e in members}))
-                raise ValueError(f"cells {names}: circuits differ between corners ({exc})"
-                                 ) from None
+        for members, stacked in self._fill_groups():
             z = solve_impedance(stacked, np.tile(rows, (len(members), 1)))
             z = z.reshape(len(members), n_corner, f.shape[-1])
             for (name, entry), z_cell in zip(members, z):

@@ -21,12 +21,11 @@ import numpy as np
 from numpy.typing import NDArray
 
 from celllab.physics import pdn
-from celllab.physics.netlist import Netlist, solve_impedance
 from celllab.planner.damping import (
     DampingTrade,
+    cell_impedance,
     damping_score,
     match_ratio,
-    resonance_conductance,
     size_entrance_resistors,
 )
 from celllab.planner.droop import DroopFigures, DroopRun, droop_figures, droop_grid, simulate_droop
@@ -220,18 +219,15 @@ def _cell_damping(network: BlockNetwork, r: int, f0: float, corner: int,
     if not region.fill:
         return []
     circuits = [e.circuits[network.corners[corner]] for e in region.fill]
-    g = resonance_conductance(circuits, f0)
-    cap = np.imag(1.0 / np.array([_z(nl, f_low) for nl in circuits])) / (2.0 * np.pi * f_low)
-    esr = np.real(np.array([_z(nl, f0) for nl in circuits]))
+    z = cell_impedance(circuits, [f_low, f0])
+    g = np.real(1.0 / z[:, 1])  # = resonance_conductance(circuits, f0)
+    cap = np.imag(1.0 / z[:, 0]) / (2.0 * np.pi * f_low)
+    esr = np.real(z[:, 1])
     x = match_ratio(esr, cap, f0)
     score = damping_score(g, cap, f0)
     return [CellDamping(e.cell, e.count, f0, float(c), float(s), float(xi), float(sc),
                         float(gi), float(e.count * gi))
             for e, c, s, xi, sc, gi in zip(region.fill, cap, esr, x, score, g)]
-
-
-def _z(netlist: Netlist, f: float) -> complex:
-    return complex(solve_impedance(netlist, [f])[0, 0])
 
 
 def _entrance_ac_power(network: BlockNetwork, entrance: FloatArray, f_max: float) -> FloatArray:

@@ -11,10 +11,11 @@ Method, all curves at once
 1. Extrema of 20 log10 |Z| on the analysis grid with a prominence of at least
    ``min_prominence_dB`` (`scipy.signal.find_peaks`); grid ends are never extrema.
 2. Each extremum refined on grids between its neighbouring points, evaluated by the caller's
-   ``evaluate`` (the network itself), zooming four times.
+   ``evaluate`` (the network itself), zooming three times, then a parabola through the
+   best point and its neighbours in (ln f, ln |Z|).
 3. Q from the -3 dB width: |Z| = |Z|_peak / sqrt(2) (peak) or sqrt(2) |Z|_dip (dip) found on
-   both sides (a scan, then two bracket refinements), Q = f0 / (f_hi - f_lo). Exact for a parallel (series) RLC:
-   bandwidth = f0 / Q (e.g. J. W. Nilsson, S. A. Riedel, *Electric Circuits*, parallel and series
+   both sides (a scan, then two bracket refinements), Q = f0 / (f_hi - f_lo). Exact for a
+   parallel (series) RLC: bandwidth = f0 / Q (e.g. J. W. Nilsson, S. A. Riedel, *Electric Circuits*, parallel and series
    resonance). Where a side does not reach -3 dB before the next extremum (overlapping or heavily
    damped resonances) Q comes from the local fit instead: near a resonance of a single RLC,
    ln|Z| ~ -/+ 2 Q^2 (ln f/f0)^2, so Q = sqrt(|d^2 ln|Z| / d(ln f)^2| / 4) from a parabola through
@@ -48,7 +49,7 @@ per corner) -> (n_group, n_member, m) ohm (e.g. every region at that corner)."""
 #: f_band = 0.35 / t_rise: the bandwidth of an edge (10-90 % rise of a single-pole response);
 #: common practice, from memory.
 BAND_EDGE_FACTOR = 0.35
-_ZOOM_POINTS, _ZOOM_ROUNDS = 9, 4
+_ZOOM_POINTS, _ZOOM_ROUNDS = 13, 3
 _WIDTH_POINTS, _WIDTH_ROUNDS = 9, 3
 _HALF_POWER = np.sqrt(2.0)
 
@@ -216,13 +217,15 @@ def find_resonances(
                 else:
                     right_stop[n] = min(right_stop[n], f[k2])
     span = np.exp(np.clip(4.0 / np.maximum(q_fit, 1e-6), 1e-6, np.log(1e3)))
-    sides = {}
-    for direction, stop in ((-1, left_stop), (1, right_stop)):
-        far = f0 * span ** direction
-        far = np.where(direction * (far - stop) > 0, stop, far)
-        sides[direction] = _crossings(items, f0, far, level, sign)
+    far_left = np.where(f0 / span < left_stop, left_stop, f0 / span)
+    far_right = np.where(f0 * span > right_stop, right_stop, f0 * span)
+    # both sides of every extremum in the same evaluations
+    both = _Items(np.tile(items.group, 2), np.tile(items.member, 2), n_group, evaluate)
+    crossing = _crossings(both, np.tile(f0, 2), np.concatenate([far_left, far_right]),
+                          np.tile(level, 2), np.tile(sign, 2))
+    n_found = len(found)
     for n, (g, j, kind, _, prominence) in enumerate(found):
-        f_left, f_right = sides[-1][n], sides[1][n]
+        f_left, f_right = crossing[n], crossing[n_found + n]
         if np.isfinite(f_left) and np.isfinite(f_right) and f_right > f_left:
             q, method = f0[n] / (f_right - f_left), "-3 dB width"
         else:
