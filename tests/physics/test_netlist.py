@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from celllab.physics.distributed_rc import rc_line_impedance
 from celllab.physics.netlist import Element, Netlist, ladder_expansion, parallel, solve_impedance
@@ -315,3 +317,24 @@ def test_stack_variants_keeps_each_netlist_as_a_variant() -> None:
     other = Netlist("other", (Element("C", "c", "vdd", "vss", 1e-12),))
     with pytest.raises(ValueError, match="structure"):
         stack_variants("bad", [a, other])
+
+
+@given(
+    values=st.lists(st.floats(0.01, 100.0), min_size=6, max_size=6),
+    freq=st.floats(1e3, 1e10),
+)
+@settings(max_examples=40, deadline=None)
+def test_z_matrix_is_reciprocal_and_passive(values: list[float], freq: float) -> None:
+    # Invariants of passive RLC networks (circuit theory): Z symmetric (reciprocity) and
+    # Re Z_ii >= 0 (passivity); rel 1e-9
+    from celllab.physics.netlist import solve_z_matrix
+
+    r1, r2, r3, c1, c2, l1 = values
+    nl = Netlist("mesh", (
+        Element("R", "r1", "a", "b", r1), Element("R", "r2", "b", "c", r2),
+        Element("R", "r3", "c", "gnd", r3), Element("C", "c1", "a", "gnd", c1 * 1e-12),
+        Element("C", "c2", "b", "gnd", c2 * 1e-12), Element("L", "l1", "a", "c", l1 * 1e-10),
+    ), ports=("a", "gnd"))
+    z = solve_z_matrix(nl, [freq], ["a", "b", "c"])[0, 0]
+    np.testing.assert_allclose(z, z.T, rtol=1e-9, atol=1e-12 * np.abs(z).max())
+    assert np.all(np.diag(z).real >= -1e-12 * np.abs(z).max())
