@@ -1,4 +1,4 @@
-"""Fixtures for the supply-network tests: one lumen130 catalog per session."""
+"""Fixtures for the supply-network tests: one lumen130 catalog per test run."""
 
 from __future__ import annotations
 
