@@ -80,6 +80,7 @@ def render_z_csv(figures: NetworkFigures) -> str:
     for i, obs in enumerate(names):
         for j, drv in enumerate(names):
             target = figures.regions[i].target if i == j else None
+            target = target if target is not None and math.isfinite(target) else None
             for c, corner in enumerate(figures.corners):
                 z = figures.z[c, :, i, j]
                 for f, zk in zip(figures.freq.tolist(), z.tolist()):
@@ -203,8 +204,9 @@ def _plot_impedance(figures: NetworkFigures) -> str:
         for c, corner in enumerate(figures.corners):
             ax.loglog(figures.freq, np.abs(figures.z[c, :, k, k]),
                       color=_COLOURS[c % len(_COLOURS)], lw=1.2, label=corner)
-        ax.axhline(reg.target, color=_TARGET_COLOUR, lw=1.0, ls="--",
-                   label=f"target {reg.target * 1e3:.3g} mohm")
+        if math.isfinite(reg.target):
+            ax.axhline(reg.target, color=_TARGET_COLOUR, lw=1.0, ls="--",
+                       label=f"target {reg.target * 1e3:.3g} mohm")
         ax.axvspan(reg.band[1], figures.freq[-1], color="#000000", alpha=0.05, lw=0)
         for t in reg.resonances:
             marker = "v" if t.kind == "peak" else "^"
@@ -304,13 +306,19 @@ def _with_corner(pair: tuple[float, str] | None, scale: float, unit: str) -> str
 
 def _region_section(reg: RegionFigures, figures: NetworkFigures) -> str:
     check = reg.check
-    verdict = "meets" if check.passes else "exceeds"
-    parts = [f"<h4>Region {_t(reg.name)}</h4>",
-             f"<p>Target {_num(reg.target, 1e3)} mohm over {_num(reg.band[0], 1e-6)} to "
-             f"{_num(reg.band[1], 1e-6)} MHz: the worst point {verdict} it at "
-             f"{_num(check.worst_ratio)} x target, {_num(check.worst_frequency, 1e-6)} MHz "
-             f"(<span class=\"net-corner\">{_t(reg.check_corner)}</span>). DC drop at the "
-             f"average currents: {_num(reg.dc_drop, 1e3)} mV.</p>"]
+    parts = [f"<h4>Region {_t(reg.name)}</h4>"]
+    if check is None:
+        parts.append(f"<p>Quiet region (no switching current of its own): no target; band "
+                     f"{_num(reg.band[0], 1e-6)} to {_num(reg.band[1], 1e-6)} MHz. DC drop at "
+                     f"the average currents: {_num(reg.dc_drop, 1e3)} mV.</p>")
+    else:
+        verdict = "meets" if check.passes else "exceeds"
+        parts.append(
+            f"<p>Target {_num(reg.target, 1e3)} mohm over {_num(reg.band[0], 1e-6)} to "
+            f"{_num(reg.band[1], 1e-6)} MHz: the worst point {verdict} it at "
+            f"{_num(check.worst_ratio)} x target, {_num(check.worst_frequency, 1e-6)} MHz "
+            f"(<span class=\"net-corner\">{_t(reg.check_corner)}</span>). DC drop at the "
+            f"average currents: {_num(reg.dc_drop, 1e3)} mV.</p>")
     rows = [[_t(t.kind), _num(t.frequency, 1e-6, 4), _num(t.magnitude, 1e3), _num(t.q),
              _t(t.q_method), _t(t.corner), str(len(t.per_corner))] for t in reg.resonances]
     parts.append(_table(["kind", "f (MHz)", "|Z| (mohm)", "Q", "Q from", "worst corner",

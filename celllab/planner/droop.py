@@ -27,6 +27,7 @@ settling time    after the stimulus edge, the last time the droop is more than
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -84,7 +85,7 @@ class DroopRun:
     truncated: bool
 
 
-def droop_grid(activities: list[Activity], f_ring: float, settle_time: float
+def droop_grid(activities: Sequence[Activity | None], f_ring: float, settle_time: float
                ) -> tuple[FloatArray, bool]:
     """Time grid for a droop run, s.
 
@@ -95,7 +96,7 @@ def droop_grid(activities: list[Activity], f_ring: float, settle_time: float
 
     Parameters
     ----------
-    activities : the regions' activities
+    activities : the regions' activities (None: a quiet region, ignored)
     f_ring : Hz   frequency of the ringing to resolve (the worst in-band |Z| peak)
     settle_time : s   how long the response needs to settle after the stimulus
 
@@ -103,6 +104,9 @@ def droop_grid(activities: list[Activity], f_ring: float, settle_time: float
     -------
     (t, truncated)   grid from 0; ``truncated`` when ``MAX_STEPS`` shortened it
     """
+    activities = [a for a in activities if a is not None]
+    if not activities:
+        raise ValueError("no region draws a current: nothing to simulate")
     edge = min(min(a.rise_time, a.fall_time_s) for a in activities)
     fine = edge / 10.0
     ring = max(fine, 1.0 / (60.0 * f_ring))
@@ -163,17 +167,21 @@ def simulate_droop(network: BlockNetwork, t: ArrayLike, f_ring: float,
     grid = np.asarray(t, dtype=float)
     netlist = network.netlist(entrance)
     n_seg = n_segments if n_segments is not None else _ladder_segments(network, f_ring)
+    active = [r for r in network.regions if r.activity is not None]
+    if not active:
+        raise ValueError("no region draws a current: nothing to simulate")
     sources = [tr.CurrentSource(f"i_{r.name}", region_node(r.name), GROUND,
                                 lambda tt, a=r.activity: current_waveform(a, tt)[None, :])
-               for r in network.regions]
+               for r in active]
     probes = {r.name: f"v({region_node(r.name)})" for r in network.regions}
     result = tr.simulate(netlist, sources, t_points=grid, probes=probes, initial="dc",
                          n_segments=n_seg)
     droop = -np.stack([result.probes[r.name] for r in network.regions], axis=-1)
-    current = np.stack([current_waveform(r.activity, grid) for r in network.regions], axis=-1)
+    current = np.stack([np.zeros_like(grid) if r.activity is None
+                        else current_waveform(r.activity, grid) for r in network.regions], axis=-1)
+    refs = _references(network.activities)
     ends = []
-    for r in network.regions:
-        a = r.activity
+    for a in refs:
         if a.stimulus == "step":
             ends.append(a.step_delay + a.rise_time)
         elif a.stimulus == "clock":
@@ -181,8 +189,15 @@ def simulate_droop(network: BlockNetwork, t: ArrayLike, f_ring: float,
         else:
             ends.append(float(np.asarray(a.samples[0])[-1]))  # type: ignore[index]
     return DroopRun(grid, droop, current, network.corners, network.region_names,
-                    tuple(r.activity.stimulus for r in network.regions), np.array(ends),
+                    tuple(a.stimulus for a in refs), np.array(ends),
                     result.n_segments or n_seg, False)
+
+
+def _references(activities: Sequence[Activity | None]) -> list[Activity]:
+    """The activity each region's droop is read against: its own, or for a quiet region the
+    first region that draws a current (its start, edge and period)."""
+    first = next(a for a in activities if a is not None)
+    return [first if a is None else a for a in activities]
 
 
 @dataclass(frozen=True)
@@ -270,21 +285,19 @@ def _trace_figures(t: FloatArray, d: FloatArray, stimulus: str, start: float, en
     return first, t_first, worst, t_worst, settled, overshoot, f_ring, q, t_settle
 
 
-def droop_figures(run: DroopRun, activities: list[Activity]) -> DroopFigures:
-    """First and worst droop, ringing and settling of every corner and region of a run."""
+def droop_figures(run: DroopRun, activities: Sequence[Activity | None]) -> DroopFigures:
+    """First and worst droop, ringing and settling of every corner and region of a run (a quiet
+    region is read against the first region that draws a current)."""
+    refs = _references(activities)
     n_c, _, n_r = run.droop.shape
     out = np.full((9, n_c, n_r), np.nan)
     for r in range(n_r):
-        a = activities[r]
+        a = refs[r]
         start = a.step_delay if a.stimulus == "step" else 0.0
         for c in range(n_c):
             out[:, c, r] = _trace_figures(run.t, run.droop[c, :, r], a.stimulus, start,
                                           float(run.stimulus_end[r]), a.period)
     first, t_first, worst, t_worst, settled, over, f_ring, q, t_settle = out
-    return DroopFigures(first, t_first - _starts(activities)[None, :], worst,
-                        t_worst - _starts(activities)[None, :], settled, over, f_ring, q,
-                        t_settle)
-
-
-def _starts(activities: list[Activity]) -> FloatArray:
-    return np.array([a.step_delay if a.stimulus == "step" else 0.0 for a in activities])
+    starts = np.array([a.step_delay if a.stimulus == "step" else 0.0 for a in refs])
+    return DroopFigures(first, t_first - starts[None, :], worst, t_worst - starts[None, :],
+                        settled, over, f_ring, q, t_settle)

@@ -116,7 +116,7 @@ def emission_spectrum(network: BlockNetwork, f_max: float = 1e9, label: str = "p
     I_pkg(f_n) = sum_r H_r(f_n) I_r(f_n), H_r = I_pkg / I_region from the network at each
     corner; I_r the region's peak phasor (exact Fourier coefficients of its waveform).
     """
-    freq, currents = block_current_spectrum([r.activity for r in network.regions], f_max)
+    freq, currents = block_current_spectrum(network.activities, f_max)
     if freq.size == 0:
         raise ValueError("no region has a periodic current (clock_frequency) below f_max")
     h = network.package_transfer(freq, probe=probe if probe_in_loop else 0.0)

@@ -218,14 +218,17 @@ class RegionLoad:
     fill : sequence of FillEntry        the chosen cells and their counts
     intrinsic_capacitance : float       F, >= 0: non-switching logic, wells, wiring
     intrinsic_esr : float               ohm, >= 0: its series resistance
-    activity : Activity                 the switching current (`planner.waveforms`)
+    activity : Activity | None          the switching current (`planner.waveforms`); None for
+                                        a quiet region (no switching of its own, e.g. a pad
+                                        ring): it has no target of its own and draws nothing,
+                                        but its node still sees the others' currents
     """
 
     name: str
     fill: Sequence[FillEntry]
     intrinsic_capacitance: float
     intrinsic_esr: float
-    activity: Activity
+    activity: Activity | None
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "fill", tuple(self.fill))
@@ -472,8 +475,14 @@ class BlockNetwork:
     # ------------------------------------------------------------------ DC
 
     def mean_currents(self) -> FloatArray:
-        """Each region's average current, A (`Activity.mean_current`)."""
-        return np.array([r.activity.mean_current() for r in self.regions], dtype=float)
+        """Each region's average current, A (`Activity.mean_current`; 0 for a quiet region)."""
+        return np.array([0.0 if r.activity is None else r.activity.mean_current()
+                         for r in self.regions], dtype=float)
+
+    @property
+    def activities(self) -> list[Activity | None]:
+        """Each region's activity (None: quiet), in region order."""
+        return [r.activity for r in self.regions]
 
     def dc_state(self, entrance: ArrayLike | None = None) -> DcState:
         """DC drops and entrance-resistor currents for the regions' average currents.

@@ -132,12 +132,16 @@ class CellDamping:
 
 @dataclass(frozen=True)
 class RegionFigures:
-    """One region's figures, each at its own worst corner (SI; corner names beside them)."""
+    """One region's figures, each at its own worst corner (SI; corner names beside them).
+
+    A quiet region (no current of its own) has ``target`` inf, no ``check`` and no
+    ``conductance_needed`` (nan); its impedance, resonances and droop are still reported.
+    """
 
     name: str
     target: float
     band: tuple[float, float]
-    check: TargetCheck
+    check: TargetCheck | None
     check_corner: str
     resonances: list[ResonanceTrack]
     per_corner_resonances: dict[str, list[Resonance]]
@@ -233,7 +237,7 @@ def _cell_damping(network: BlockNetwork, r: int, f0: float, corner: int,
 def _entrance_ac_power(network: BlockNetwork, entrance: FloatArray, f_max: float) -> FloatArray:
     """Power of the clock harmonics in each entrance resistor at its worst corner, W:
     sum_h |V_entry - V_ring|^2 / (2 R) with the regions' peak phasors superposed."""
-    freq, currents = block_current_spectrum([r.activity for r in network.regions], f_max)
+    freq, currents = block_current_spectrum(network.activities, f_max)
     n = len(network.regions)
     if freq.size == 0:
         return np.zeros(n)
@@ -271,12 +275,16 @@ def evaluate_network(network: BlockNetwork, goals: NetworkGoals) -> NetworkFigur
     n_r = len(names)
     notes: list[str] = []
     ripple = goals.per_region(goals.ripple_fraction, names)
-    targets = np.array([float(pdn.target_impedance(network.supply.supply_voltage, ripple[k],
-                                                   r.activity.peak_current))
-                        for k, r in enumerate(network.regions)])
+    # a quiet region (no current of its own) has no target: inf keeps it out of every ratio
+    targets = np.array([np.inf if r.activity is None else float(pdn.target_impedance(
+        network.supply.supply_voltage, ripple[k], r.activity.peak_current))
+        for k, r in enumerate(network.regions)])
+    edges = {r.name: activity_band_edge(r.activity.rise_time, r.activity.fall_time_s)
+             for r in network.regions if r.activity is not None}
+    block_edge = max(edges.values(), default=float(f[-1]))
     bands = []
     for r in network.regions:
-        edge = activity_band_edge(r.activity.rise_time, r.activity.fall_time_s)
+        edge = edges.get(r.name, block_edge)  # quiet: the block's fastest edge
         if edge > f[-1]:
             notes.append(f"region {r.name}: its band reaches {edge / 1e9:.3g} GHz, above the "
                          f"analysis grid ({f[-1] / 1e9:.3g} GHz): checked up to the grid's end")
@@ -295,9 +303,10 @@ def evaluate_network(network: BlockNetwork, goals: NetworkGoals) -> NetworkFigur
     ring_f = np.full(n_r, np.nan)
     for k, region in enumerate(network.regions):
         per_corner = {c: found[i][k] for i, c in enumerate(corners)}
-        checks = [check_target(f, diag[i, k], targets[k], bands[k], found[i][k])
-                  for i in range(len(corners))]
-        i_worst = int(np.argmax([c.worst_ratio for c in checks]))
+        quiet = region.activity is None
+        checks = [check_target(f, diag[i, k], 1.0 if quiet else targets[k], bands[k],
+                               found[i][k]) for i in range(len(corners))]
+        i_worst = int(np.argmax([c.worst_ratio for c in checks]))  # quiet: highest |Z|
         tracks = _tracks(per_corner)
         in_band = [t for t in tracks if t.kind == "peak" and bands[k][0] <= t.frequency
                    <= bands[k][1]]
@@ -319,15 +328,20 @@ def evaluate_network(network: BlockNetwork, goals: NetworkGoals) -> NetworkFigur
             c_idx, f_idx = np.unravel_index(np.argmax(mag), mag.shape)
             transfer[other] = (float(mag[c_idx, f_idx]), float(f[f_idx]), corners[c_idx])
         regions.append(RegionFigures(
-            name=region.name, target=float(targets[k]), band=bands[k], check=checks[i_worst],
-            check_corner=corners[i_worst], resonances=tracks, per_corner_resonances=per_corner,
-            transfer_peak=transfer, cell_damping=damping,
-            conductance_needed=float(1.0 / targets[k] - (g_total - g_fill)),
+            name=region.name, target=float(targets[k]), band=bands[k],
+            check=None if quiet else checks[i_worst],
+            check_corner="-" if quiet else corners[i_worst], resonances=tracks,
+            per_corner_resonances=per_corner, transfer_peak=transfer, cell_damping=damping,
+            conductance_needed=float("nan") if quiet else float(1.0 / targets[k]
+                                                                - (g_total - g_fill)),
             dc_drop=float(dc.drop[k])))
 
     trade = ac_power = run = run_after = None
     droop_fig = droop_after = None
-    if goals.droop or goals.size_entrance:
+    active = any(a is not None for a in network.activities)
+    if not active and (goals.droop or goals.size_entrance):
+        notes.append("no region draws a current: no droop run and no entrance resistors")
+    if active and (goals.droop or goals.size_entrance):
         f_ring = float(np.nanmax(ring_f)) if np.any(np.isfinite(ring_f)) else float(
             np.sqrt(f[0] * f[-1]))
         settle = 0.0
@@ -337,11 +351,11 @@ def evaluate_network(network: BlockNetwork, goals: NetworkGoals) -> NetworkFigur
                         and np.isfinite(t.q) and reg.band[0] <= t.frequency <= reg.band[1]):
                     settle = max(settle, 5.0 * max(t.q, 0.5) / (np.pi * t.frequency))
         settle = max(settle, 10.0 / f_ring)
-        grid, truncated = droop_grid([r.activity for r in network.regions], f_ring, settle)
+        grid, truncated = droop_grid(network.activities, f_ring, settle)
         if truncated:
             notes.append(f"the droop run was cut at {grid[-1] * 1e9:.4g} ns (step limit): "
                          "settling may lie beyond it")
-        activities = [r.activity for r in network.regions]
+        activities = network.activities
         if goals.droop:
             run = simulate_droop(network, grid, f_ring, n_segments=goals.droop_segments)
             droop_fig = droop_figures(run, activities)
@@ -359,7 +373,7 @@ def evaluate_network(network: BlockNetwork, goals: NetworkGoals) -> NetworkFigur
 
     emission: dict[str, EmissionSpectrum] = {}
     bands_out: list[BandLevels] = []
-    if any(r.activity.period is not None for r in network.regions):
+    if any(a is not None and a.period is not None for a in network.activities):
         emission["plan"] = emission_spectrum(network, goals.emission_f_max, "plan", goals.probe)
         emission["no on-die decap"] = emission_spectrum(network.with_fill({}),
                                                         goals.emission_f_max, "no on-die decap",

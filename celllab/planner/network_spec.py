@@ -139,7 +139,8 @@ class RegionSpec(_Strict):
                                           description="allowed ripple / V_DD for this region")
     ir_drop_limit_mV: float | None = Field(None, gt=0, le=1e4,
                                            description="DC drop allowed at this region, mV")
-    activity: ActivitySpec
+    activity: ActivitySpec | None = Field(
+        None, description="the switching current; absent: a quiet region (no current of its own)")
 
 
 class LinkSpec(_Strict):
@@ -239,6 +240,8 @@ def _rule_problems(spec: NetworkFile) -> list[Problem]:
                                 f"({net.f_max_GHz} GHz)", net.f_min_MHz))
     for name, region in net.regions.items():
         a, where = region.activity, f"network.regions.{name}.activity"
+        if a is None:
+            continue
         if a.stimulus == "clock" and a.clock_MHz is None:
             out.append(spec.problem(f"{where}.clock_MHz", "required for stimulus 'clock'",
                                     has_value=False))
@@ -317,9 +320,12 @@ def supply_network(spec: NetworkSpec, supply_V: float | None = None) -> SupplyNe
 
 
 def region_activity(spec: RegionSpec, samples: tuple[np.ndarray, np.ndarray] | None = None
-                    ) -> Activity:
-    """The region's `Activity` in SI; ``samples`` (s, A) from `read_waveform_csv`."""
+                    ) -> Activity | None:
+    """The region's `Activity` in SI (None for a quiet region); ``samples`` (s, A) from
+    `read_waveform_csv`."""
     a = spec.activity
+    if a is None:
+        return None
     return Activity(
         peak_current=a.peak_current_mA * milli,
         rise_time=a.rise_time_ps * pico,

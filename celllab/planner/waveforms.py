@@ -275,13 +275,13 @@ def trapezoid_envelope(
     return np.asarray(bound * np.minimum(1.0, f2 / f), dtype=float)
 
 
-def block_current_spectrum(activities: Sequence[Activity], f_max: float
+def block_current_spectrum(activities: Sequence[Activity | None], f_max: float
                            ) -> tuple[FloatArray, ComplexArray]:
     """The regions' clock harmonics on one frequency axis, as peak phasors.
 
     Parameters
     ----------
-    activities : sequence of Activity   one per region (those without a period contribute 0)
+    activities : sequence of Activity or None   one per region (None, or no period: 0)
     f_max : float                       Hz: highest harmonic kept
 
     Returns
@@ -297,7 +297,8 @@ def block_current_spectrum(activities: Sequence[Activity], f_max: float
     """
     spectra = []
     for a in activities:
-        spectra.append(harmonic_spectrum(a, f_max) if a.period is not None else
+        spectra.append(harmonic_spectrum(a, f_max) if a is not None and a.period is not None
+                       else
                        (np.empty(0), np.empty(0, dtype=complex)))
     freq = np.unique(np.round(np.concatenate([f for f, _ in spectra] or [np.empty(0)]), 3))
     current = np.zeros((freq.size, len(activities)), dtype=complex)

@@ -29,11 +29,12 @@ DECK = "lumen130"
 SUPPLY_V = 1.2
 #: The fill of each region (cell name, count): invented, standing in for the fill planner.
 DEMO_FILL: dict[str, list[tuple[str, int]]] = {
-    "mac": [("lm_ncap-w32-h1-f4", 3000), ("lm_xcap-w16-h1-f4", 2000)],
-    "ctrl": [("lm_stack-w16-h1-f4-toM4", 1500), ("lm_acap-w16-h1-f4-welln", 1000)],
+    "mac_array": [("lm_ncap-w32-h1-f4", 3000), ("lm_xcap-w16-h1-f4", 2000)],
+    "pad_ring": [("lm_mom-w16-h1-toM5-alt1", 400), ("lm_xcap-w16-h1-f2", 300)],  # ESD-safe
 }
 #: Free sites of each region (for the naive "fill every site with the densest cell").
-REGION_SITES = {"mac": 250000, "ctrl": 150000}
+#: The plan above uses 128 000 and 11 200 of them.
+REGION_SITES = {"mac_array": 160000, "pad_ring": 16000}
 
 
 def build_lumen_catalog(folder: Path) -> Catalog:

@@ -3,6 +3,7 @@ network against an ngspice transient analysis of the same network."""
 
 from __future__ import annotations
 
+from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
@@ -12,7 +13,7 @@ from physics.ngspice_util import run_deck  # tests/physics (rootdir on sys.path)
 from celllab.catalog import Catalog
 from celllab.physics import transient as tr
 from celllab.physics.netlist import Element, Netlist
-from celllab.planner.droop import DroopRun, droop_figures, droop_grid, simulate_droop
+from celllab.planner.droop import droop_figures, droop_grid, simulate_droop
 from celllab.planner.network import (
     FillEntry,
     RegionLoad,
@@ -100,12 +101,15 @@ def test_demo_droop_matches_ngspice(lumen_catalog: Catalog, tmp_path: Path) -> N
     net, _ = demo_network(lumen_catalog)
     corner = "slow_125C"
     c = net.corners.index(corner)
-    acts = [r.activity for r in net.regions]
+    acts = net.activities
     grid = tr.piecewise_grid([(2e-9, 30e-12), (60e-9, 100e-12), (150e-9, 200e-12)])
-    ours = droop_figures(simulate_droop(net, grid, 80e6), acts)
+    run = simulate_droop(net, grid, 80e6)
+    ours = droop_figures(run, acts)
     lines = spice_network(net, lumen_catalog, corner)
     for r in net.regions:
         a = r.activity
+        if a is None:
+            continue
         lines.append(f"I{r.name} {region_node(r.name)} 0 PWL(0 0 {a.step_delay:.9e} 0 "
                      f"{a.step_delay + a.rise_time:.9e} {a.peak_current:.9e})")
     probes = " ".join(f"v({region_node(r.name)})" for r in net.regions)
@@ -116,10 +120,7 @@ def test_demo_droop_matches_ngspice(lumen_catalog: Catalog, tmp_path: Path) -> N
     data = np.loadtxt(tmp_path / "tran.txt")
     droop = np.stack([-np.interp(grid, data[:, 0], data[:, 1 + 2 * k])
                       for k in range(len(net.regions))], axis=-1)[None]
-    spice_run = DroopRun(grid, droop, np.zeros((grid.size, len(acts))), (corner,),
-                         net.region_names, tuple(a.stimulus for a in acts),
-                         np.array([a.step_delay + a.rise_time for a in acts]), 0, False)
-    theirs = droop_figures(spice_run, acts)
+    theirs = droop_figures(replace(run, droop=droop, corners=(corner,)), acts)
     for name in ("first_droop", "first_droop_time", "overshoot", "ringing_frequency",
                  "ringing_q"):
         np.testing.assert_allclose(getattr(ours, name)[c], getattr(theirs, name)[0], rtol=0.03,

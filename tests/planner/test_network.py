@@ -137,7 +137,8 @@ def test_bad_supply_network_values(kwargs: dict[str, object], message: str) -> N
 
 def test_demo_network_is_built_from_catalog_circuits(lumen_catalog: Catalog) -> None:
     net, _ = demo_network(lumen_catalog)
-    assert net.region_names == ("mac", "ctrl")
+    assert net.region_names == ("mac_array", "pad_ring")
+    assert net.regions[1].activity is None  # the quiet pad ring
     assert net.corners == tuple(lumen_catalog.corners("lumen130"))
     # the fill admittance at low frequency is count x each cell's stored capacitance; the
     # catalog's cap_fF is the same circuit's low-frequency C (rel 2 %: it is read at the
