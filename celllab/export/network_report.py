@@ -183,6 +183,17 @@ def _log_label(value: float, _pos: int) -> str:
     return f"{value:.3g}"
 
 
+def _freq_text(value: float) -> str:
+    for scale, unit in ((1e9, "GHz"), (1e6, "MHz"), (1e3, "kHz")):
+        if value >= scale:
+            return f"{value / scale:.3g} {unit}"
+    return f"{value:.3g} Hz"
+
+
+def _ohm_text(value: float) -> str:
+    return f"{value:.3g} ohm" if value >= 1 else f"{value * 1e3:.3g} mohm"
+
+
 def _ohm_label(value: float, _pos: int) -> str:
     if value <= 0:
         return ""
@@ -206,14 +217,14 @@ def _plot_impedance(figures: NetworkFigures) -> str:
                       color=_COLOURS[c % len(_COLOURS)], lw=1.2, label=corner)
         if math.isfinite(reg.target):
             ax.axhline(reg.target, color=_TARGET_COLOUR, lw=1.0, ls="--",
-                       label=f"target {reg.target * 1e3:.3g} mohm")
+                       label=f"target {_ohm_text(reg.target)}")
         ax.axvspan(reg.band[1], figures.freq[-1], color="#000000", alpha=0.05, lw=0)
         for t in reg.resonances:
             marker = "v" if t.kind == "peak" else "^"
             ax.plot([t.frequency], [t.magnitude], marker=marker, ms=7, mfc="none",
                     mec="#222222", ls="none")
-            ax.annotate(f"{t.frequency / 1e6:.3g} MHz\nQ {t.q:.2g}", (t.frequency, t.magnitude),
-                        textcoords="offset points", xytext=(4, 6 if t.kind == "peak" else -18),
+            ax.annotate(f"{_freq_text(t.frequency)}\nQ {t.q:.2g}", (t.frequency, t.magnitude),
+                        textcoords="offset points", xytext=(7, -12 if t.kind == "peak" else 2),
                         fontsize=6.5, color="#222222")
         for axis, fmt in ((ax.xaxis, _log_label), (ax.yaxis, _ohm_label)):
             axis.set_major_formatter(FuncFormatter(fmt))
@@ -224,7 +235,9 @@ def _plot_impedance(figures: NetworkFigures) -> str:
         ax.set_ylabel("|Z| (ohm)", fontsize=8)
         ax.tick_params(labelsize=7)
         ax.grid(True, which="major", alpha=0.25)
-        ax.legend(fontsize=6.5, ncol=3, loc="lower left")
+        low, high = ax.get_ylim()
+        ax.set_ylim(low, high * 1.6)  # room above the highest peak's marker
+        ax.legend(fontsize=6.5, ncol=3, loc="upper left")
     return _svg(fig, "impedance")
 
 
@@ -264,6 +277,8 @@ def _plot_emission(figures: NetworkFigures) -> str | None:
                     color=_COLOURS[width[name] % len(_COLOURS)], label=name)
     for band in figures.emission_bands:
         ax.axvline(band.band.f_lo, color="#999999", lw=0.6)
+        ax.text(band.band.f_lo * 1.05, 1.0, band.band.name.split()[0], fontsize=7,
+                color="#666666", transform=ax.get_xaxis_transform(), va="top")
     ax.xaxis.set_major_formatter(FuncFormatter(_log_label))
     ax.xaxis.set_minor_locator(NullLocator())
     ax.set_title("1 ohm ground-return probe, each harmonic at its loudest corner", fontsize=9)

@@ -113,7 +113,8 @@ def worst_peaks(network: BlockNetwork, freq: ArrayLike, targets: ArrayLike,
     """Worst |Z_rr| / Z_target_r over corners and the in-band grid of each region r.
 
     The grid maximum is refined by a parabola through it and its neighbours in
-    (ln f, ln |Z|), so the figure changes smoothly with the network values.
+    (ln f, ln |Z|), so the figure changes smoothly with the network values. A region whose
+    target is inf (quiet) reports its highest |Z| and a ratio of 0.
     """
     f = np.asarray(freq, dtype=float)
     z = network.z_matrix(f, entrance)
@@ -121,7 +122,9 @@ def worst_peaks(network: BlockNetwork, freq: ArrayLike, targets: ArrayLike,
     mag = np.abs(z[..., np.arange(n_r), np.arange(n_r)])  # (n_c, n_f, n_r)
     target = np.asarray(targets, dtype=float)
     inside = np.array([(f >= lo) & (f <= hi) for lo, hi in bands]).T  # (n_f, n_r)
-    ratio = np.where(inside[None], mag / target, -np.inf)
+    # a region without a target (inf: quiet) is ranked by |Z| itself; its ratio is 0
+    scale = np.where(np.isfinite(target), target, 1.0)
+    ratio = np.where(inside[None], mag / scale, -np.inf)
     n_c, n_f = mag.shape[:2]
     flat = ratio.transpose(2, 0, 1).reshape(n_r, -1)
     best = np.argmax(flat, axis=1)

@@ -140,8 +140,9 @@ def compare_emission(spectra: Mapping[str, EmissionSpectrum], reference: str,
                      bands: Sequence[EmissionBand] = BANDS) -> list[BandLevels]:
     """Per band: each network's highest level and its change against ``reference``.
 
-    All spectra must share the harmonic frequencies (the same activities). A band without
-    harmonics is left out.
+    All spectra must share the harmonic frequencies (the same activities). A band holds the
+    harmonics above its lower edge up to and including its upper edge (a harmonic on a shared
+    edge counts once, in the lower band). A band without harmonics is left out.
     """
     if reference not in spectra:
         raise ValueError(f"reference {reference!r} not among {list(spectra)}")
@@ -151,7 +152,7 @@ def compare_emission(spectra: Mapping[str, EmissionSpectrum], reference: str,
             raise ValueError(f"spectrum {name!r} has other harmonics than {reference!r}")
     out = []
     for band in bands:
-        inside = (base >= band.f_lo) & (base <= band.f_hi)
+        inside = (base > band.f_lo) & (base <= band.f_hi)  # each harmonic in one band
         if not inside.any():
             continue
         levels, corners = {}, {}
