@@ -135,3 +135,15 @@ def test_no_clock_no_spectrum() -> None:
     net = build_network(supply, [RegionLoad("r", [], 1e-9, 0.0, step)])
     with pytest.raises(ValueError, match="periodic"):
         emission_spectrum(net, 1e9)
+
+
+def test_a_harmonic_on_a_band_edge_counts_once() -> None:
+    # 300 MHz sits on the C/D edge: it belongs to C (upper edges inclusive), D starts above
+    a = Activity(peak_current=0.1, rise_time=1e-10, clock_frequency=3e8, stimulus="clock")
+    supply = SupplyNetwork(1.0, 0.01, 0.0, {"r": RegionPath(0.0, 0.0)})
+    net = build_network(supply, [RegionLoad("r", [], 0.0, 0.0, a)])
+    spectrum = emission_spectrum(net, 1e9)
+    c_band, d_band = compare_emission({"plan": spectrum}, "plan")
+    level, _ = spectrum.worst()
+    assert c_band.level_dBuV["plan"] == pytest.approx(level[0], rel=1e-12)
+    assert d_band.level_dBuV["plan"] == pytest.approx(level[1:].max(), rel=1e-12)
