@@ -1,4 +1,5 @@
-"""A demo catalog (the invented lumen130 and quill28hk decks) shared by the planner tests."""
+"""Planner test fixtures: a demo catalog (the invented lumen130 and quill28hk decks) and one
+lumen130 catalog for the supply-network tests."""
 
 from __future__ import annotations
 
@@ -9,6 +10,8 @@ import pytest
 
 from celllab.catalog import Catalog, open_catalog
 from celllab.demo import build_demo_catalog
+
+from .network_demo import build_lumen_catalog
 
 REPO = Path(__file__).resolve().parents[2]
 
@@ -21,3 +24,8 @@ def demo_catalog(tmp_path_factory: pytest.TempPathFactory) -> Catalog:
         shutil.copy(REPO / "process_decks" / f"{deck}.toml", folder)
         shutil.copy(REPO / "process_decks" / "cells" / f"{deck}_cells.toml", folder / "cells")
     return open_catalog(build_demo_catalog(folder / "demo.sqlite", folder=folder))
+
+
+@pytest.fixture(scope="session")
+def lumen_catalog(tmp_path_factory: pytest.TempPathFactory) -> Catalog:
+    return build_lumen_catalog(tmp_path_factory.mktemp("lumen_network"))

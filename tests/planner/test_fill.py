@@ -142,7 +142,10 @@ def test_max_useful_cap_equals_brute_force(case: Case) -> None:
     assert solution.optimal
 
 
-@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+# Many drawn targets are out of reach of any fill and are left out (assume), so filtering is
+# expected here.
+@settings(max_examples=40, deadline=None,
+          suppress_health_check=[HealthCheck.too_slow, HealthCheck.filter_too_much])
 @given(cases(goal="min_leakage", targets=True))
 def test_min_leakage_with_targets_equals_brute_force(case: Case) -> None:
     # Source: exhaustive enumeration (written here): least leakage over the fills meeting both
