@@ -55,7 +55,7 @@ def evaluate(deck: Any, corners: CornerSet, cells: Sequence[Any], geos: Sequence
         return circuits.mos_decap_circuit(
             c_gate=flat(res.c_gate, n_v, n_c), r_channel=flat(res.r_channel, n_v, n_c),
             r_gate=flat(res.r_gate, n_v, n_c), r_access=flat(res.r_access, n_v, n_c), l_loop=0.0,
-            c_overlap=flat(res.c_overlap, n_v, n_c), contacted_ends=int(cells[0].contacted_ends), name=name)
+            c_overlap=flat(res.c_overlap, n_v, n_c), contacted_ends=cells[0].contacted_ends, name=name)
 
     net = circuits.tied_cmos_circuit(branch(nmos, "nmos"), branch(pmos, "pmos"),
                                      l_loop=flat(common.loop_inductance(corners, geos), n_v, n_c))

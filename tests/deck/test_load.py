@@ -128,7 +128,7 @@ def test_corners_apply_set_scale_supply_scale_and_resistance_tempco(
     base = deck.full_dump()
     for name, corner in raw["corners"].items():
         at = deck.at_corner(name).full_dump()
-        tcr = lambda path: _tcr_factor(raw, path, corner["temperature_C"])  # noqa: E731
+        tcr = lambda path, t=corner["temperature_C"]: _tcr_factor(raw, path, t)  # noqa: E731
         touched = set(corner.get("set", {})) | set(corner.get("scale", {}))
         for path, value in corner.get("set", {}).items():
             assert _value(at, path) == pytest.approx(value * tcr(path), rel=1e-12), (name, path)

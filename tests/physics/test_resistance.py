@@ -9,6 +9,7 @@ import pytest
 
 from celllab.physics.resistance import linear_tcr_factor
 from celllab.units import to_si
+
 from .ngspice_util import run_deck
 
 
