@@ -20,13 +20,13 @@ OxideChoice = Literal["core", "io"]
 
 #: Fields a family may sweep (scalar, list or range), in the order they appear in variant names.
 GEOMETRY_FIELDS: tuple[str, ...] = (
-    "placement", "width_sites", "height_rows", "fingers", "gate_length_um", "gate_width_um", "contacted_ends",
+    "width_sites", "height_rows", "placement", "fingers", "gate_length_um", "gate_width_um", "contacted_ends",
     "gate_contacted_ends", "accumulation_well", "mos_device", "mom_bottom", "mom_top",
     "finger_width_um", "finger_space_um", "mom_alternate",
 )
 #: Short tags for variant names.
 NAME_TAGS: dict[str, str] = {
-    "placement": "", "width_sites": "w", "height_rows": "h", "fingers": "f", "gate_length_um": "L",
+    "width_sites": "w", "height_rows": "h", "placement": "", "fingers": "f", "gate_length_um": "L",
     "gate_width_um": "W", "contacted_ends": "e", "gate_contacted_ends": "g",
     "accumulation_well": "well", "mos_device": "", "mom_bottom": "", "mom_top": "to",
     "finger_width_um": "fw", "finger_space_um": "fs", "mom_alternate": "alt",

@@ -119,7 +119,7 @@ def test_toy_topology_is_validated_from_the_registry(toy: Topology) -> None:
     with pytest.raises(CellError) as err:
         parse_cells({"cell": [{"name": "x", "topology": "toy_plat", "width_sites": 4}]})
     assert "toy_plate" in str(err.value) and "did you mean 'toy_plate'" in str(err.value).lower()
-    assert relevant_fields("toy_plate", list(GEOMETRY_FIELDS)) == ["placement", "width_sites", "height_rows",
+    assert relevant_fields("toy_plate", list(GEOMETRY_FIELDS)) == ["width_sites", "height_rows", "placement",
                                                                    "fingers"]
 
 
