@@ -95,10 +95,19 @@ def best_of(fn: Callable[[], object], repeats: int = 3) -> float:
 
 # --------------------------------------------------------------------------- engine
 
+def variants(n: int) -> list:  # type: ignore[type-arg]
+    """``n`` distinct nmos_inversion variants (width x fingers x height; up to 192 000)."""
+    from celllab.cells import CellSpec
+
+    return [CellSpec(name=f"v{i}", topology="nmos_inversion", width_sites=8 + i % 1000,
+                     fingers=1 + (i // 1000) % 3, height_rows=1 + (i // 3000) % 64)
+            for i in range(n)]
+
+
 _ENGINE_CHILD = r"""
 import json, resource, sys, time
 sys.path.insert(0, sys.argv[3])
-from bench_engine import variants
+from bench_scale import variants
 from celllab.deck import load_deck
 from celllab.engine import characterize
 deck = load_deck(sys.argv[1])
@@ -182,8 +191,6 @@ def store_figures(n: int) -> list[Figure]:
     from celllab.catalog import open_catalog
     from celllab.deck import load_deck
     from celllab.engine import characterize
-
-    from bench_engine import variants
 
     deck = load_deck(DECK)
     run = characterize(deck, variants(n))
