@@ -265,6 +265,27 @@ def sync_metric_columns(db: sqlite_utils.Database) -> list[str]:
     return added
 
 
+def ranking_indexes() -> dict[str, str]:
+    """Indexes the ranked query walks to stop early (name -> DDL), beyond the version-1 ones:
+    per corner and metric, so one corner's rows come in metric order."""
+    return {
+        f"corner_metrics_by_corner_{m}": f'ON corner_metrics(corner, "{m}")'
+        for m in INDEXED_METRICS
+        if m in METRIC_NAMES
+    }
+
+
+def sync_indexes(db: sqlite_utils.Database) -> list[str]:
+    """Create the ranking indexes a file lacks (no layout change: older versions ignore them)."""
+    have = {r[0] for r in db.execute("SELECT name FROM sqlite_master WHERE type = 'index'")}
+    missing = {n: ddl for n, ddl in ranking_indexes().items() if n not in have}
+    if missing:
+        with write_transaction(db):
+            for name, ddl in missing.items():
+                db.execute(f"CREATE INDEX IF NOT EXISTS {name} {ddl}")
+    return sorted(missing)
+
+
 def user_version(db: sqlite_utils.Database) -> int:
     return int(db.execute("PRAGMA user_version").fetchone()[0])
 
@@ -356,6 +377,7 @@ def open_database(path: Path, create: bool = True) -> sqlite_utils.Database:
             migrate(db)
         check_tables(db, path)
         sync_metric_columns(db)
+        sync_indexes(db)
     except sqlite3.DatabaseError as exc:
         db.close()
         raise _fail(path, f"cannot open the catalog: {exc}") from None
