@@ -203,9 +203,13 @@ def keyed_rows_sql(
     base, params = base_rows_sql(corner, deck)
     pairs = ", ".join("(?, ?)" for _ in keys)
     flat = [v for key in keys for v in key]
+    ids = sorted({int(k[0]) for k in keys})
+    marks = ", ".join("?" for _ in ids)
+    # the cell_id list lets SQLite look the cells up by key; the pairs then pick the corners
     return (
-        f"SELECT * FROM ({base}) AS r WHERE (r.cell_id, r.corner) IN (VALUES {pairs})",
-        [*params, *flat],
+        f"SELECT * FROM ({base}) AS r WHERE r.cell_id IN ({marks}) "
+        f"AND (r.cell_id, r.corner) IN (VALUES {pairs})",
+        [*params, *ids, *flat],
     )
 
 
