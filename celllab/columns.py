@@ -24,7 +24,14 @@ from collections.abc import Callable, Iterable
 from dataclasses import dataclass
 from typing import Any, Literal
 
-from celllab.units import from_si
+
+def from_si(value: Any, unit: str) -> Any:
+    """``celllab.units.from_si``, imported on the first conversion: the column table itself is
+    read by the command line's help and queries, which need no unit conversion (nor scipy)."""
+    from celllab.units import from_si as convert
+
+    return convert(value, unit)
+
 
 Better = Literal["higher", "lower"]
 Kind = Literal["number", "text", "bool"]

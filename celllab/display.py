@@ -8,11 +8,10 @@ Pure functions over plain values; no I/O.
 from __future__ import annotations
 
 import math
+import sys
 from collections.abc import Collection, Mapping, Sequence
 from numbers import Integral, Real
 from typing import Any
-
-import numpy as np
 
 from celllab.columns import unit_of
 
@@ -47,7 +46,7 @@ def format_value(value: Any, empty: str = "-", digits: int = 4) -> str:
         return empty
     if isinstance(value, (list, tuple)):
         return "; ".join(str(v) for v in value) or empty
-    if isinstance(value, (bool, np.bool_)):
+    if isinstance(value, bool) or _is_numpy_bool(value):
         return "yes" if value else "no"
     if isinstance(value, Integral):
         return str(int(value))
@@ -62,8 +61,15 @@ def corner_conditions(temperature_C: float, supply_V: float) -> str:
             f"supply = {supply_V:g} {unit_of('supply_V')}")
 
 
+def _is_numpy_bool(value: Any) -> bool:
+    """Whether ``value`` is a numpy bool (numpy is not imported for this: without it loaded,
+    no value can be one), so printing a table does not load numpy."""
+    np = sys.modules.get("numpy")
+    return np is not None and isinstance(value, np.bool_)
+
+
 def _is_number(value: Any) -> bool:
-    return isinstance(value, (Real, np.bool_)) and not isinstance(value, str)
+    return (isinstance(value, Real) or _is_numpy_bool(value)) and not isinstance(value, str)
 
 
 def text_table(rows: Sequence[Mapping[str, Any]], columns: Sequence[str],

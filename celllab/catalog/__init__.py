@@ -14,22 +14,38 @@ from __future__ import annotations
 
 import contextlib
 import sqlite3
+import sys
 import threading
 from collections.abc import Iterator
 from pathlib import Path
 from typing import Any, Self
 
-from celllab import DEFAULT_CATALOG
-from celllab.catalog import merge as _merge
-from celllab.catalog import pareto as _pareto
-from celllab.catalog import query as _query
-from celllab.catalog import store as _store
-from celllab.catalog.merge import MergeReport
-from celllab.catalog.query import DeckInfo
-from celllab.catalog.schema import open_database
-from celllab.catalog.store import StoreReport
-from celllab.errors import CatalogError
-from celllab.records import CellResult, CharacterizationRun
+
+def _import_sqlite_utils() -> None:
+    """Import sqlite-utils without pandas: it loads pandas when installed (about a second)
+    only to recognise pandas values, which the catalog never hands it."""
+    if "sqlite_utils" in sys.modules or "pandas" in sys.modules:
+        return
+    sys.modules["pandas"] = None  # type: ignore[assignment]  # import pandas -> ImportError
+    try:
+        import sqlite_utils  # noqa: F401
+    finally:
+        del sys.modules["pandas"]
+
+
+_import_sqlite_utils()
+
+from celllab import DEFAULT_CATALOG  # noqa: E402
+from celllab.catalog import merge as _merge  # noqa: E402
+from celllab.catalog import pareto as _pareto  # noqa: E402
+from celllab.catalog import query as _query  # noqa: E402
+from celllab.catalog import store as _store  # noqa: E402
+from celllab.catalog.merge import MergeReport  # noqa: E402
+from celllab.catalog.query import DeckInfo  # noqa: E402
+from celllab.catalog.schema import open_database  # noqa: E402
+from celllab.catalog.store import StoreReport  # noqa: E402
+from celllab.errors import CatalogError  # noqa: E402
+from celllab.records import CellResult, CharacterizationRun  # noqa: E402
 
 __all__ = ["Catalog", "DeckInfo", "MergeReport", "StoreReport", "open_catalog"]
 

@@ -24,23 +24,29 @@ from __future__ import annotations
 import re
 import textwrap
 from dataclasses import dataclass
-from typing import Literal, get_args
+from typing import Any, Literal, get_args
 
-from celllab.cells.schema import OxideChoice
 from celllab.columns import CELL_COLUMNS, CORNER_COLUMNS, METRICS, TEXT_COLUMNS
 from celllab.errors import FilterError, Problem, did_you_mean
-from celllab.topologies import REGISTRY
-from celllab.topologies.geometry import PLACEMENTS
 
 FieldKind = Literal["number", "text", "bool"]
 
-#: Closed sets of the cell model; filter values are checked against them.
-OXIDES: tuple[str, ...] = tuple(get_args(OxideChoice))
+def __getattr__(name: str) -> Any:
+    # OXIDES (the closed set of the cell model) is read from the cell model on first use, so
+    # parsing and compiling filters does not load the topologies (and their physics).
+    if name == "OXIDES":
+        from celllab.cells.schema import OxideChoice
+
+        return tuple(get_args(OxideChoice))
+    raise AttributeError(name)
 
 
 def closed_values() -> dict[str, tuple[str, ...]]:
     """Text columns with a closed set of values (topologies read from the registry now)."""
-    return {"topology": REGISTRY.names(), "oxide": OXIDES, "placement": PLACEMENTS}
+    from celllab.topologies import REGISTRY
+    from celllab.topologies.geometry import PLACEMENTS
+
+    return {"topology": REGISTRY.names(), "oxide": __getattr__("OXIDES"), "placement": PLACEMENTS}
 
 TEXT_FIELDS: tuple[str, ...] = tuple(TEXT_COLUMNS)
 #: Corner conditions (NULL in worst/best rows, where no single corner applies).
@@ -568,6 +574,11 @@ def describe_language() -> str:
     for c in CORNER_COLUMNS.values():
         lines.append(f"  {c.name:<{width}}  [{c.unit}] corner condition")
     lines.append(f"Text columns: {', '.join(TEXT_FIELDS)}")
-    lines.append(f"  topology: {', '.join(REGISTRY.names())};  oxide: {', '.join(OXIDES)}")
-    lines.append(f"  placement: {', '.join(PLACEMENTS)};  rail: core, io or a deck's named rail")
+    closed = closed_values()
+    lines.append(
+        f"  topology: {', '.join(closed['topology'])};  oxide: {', '.join(closed['oxide'])}"
+    )
+    lines.append(
+        f"  placement: {', '.join(closed['placement'])};  rail: core, io or a deck's named rail"
+    )
     return "\n".join(lines)

@@ -27,8 +27,22 @@ VERB_MODULES: tuple[str, ...] = (
 
 
 
+class HelpOnDemandParser(argparse.ArgumentParser):
+    """An ArgumentParser whose epilog may be a callable, called when the help is printed.
+
+    Long help texts built from the catalog's columns or the topology registry (the filter
+    language) then cost nothing at start-up: ``celllab --help`` and every other verb start
+    without loading the physics behind them.
+    """
+
+    def format_help(self) -> str:
+        if callable(self.epilog):
+            self.epilog = self.epilog()
+        return super().format_help()
+
+
 def build_parser() -> argparse.ArgumentParser:
-    parser = argparse.ArgumentParser(
+    parser = HelpOnDemandParser(
         prog="celllab",
         description="Characterize on-chip decoupling cells from a process deck and keep the "
         "results in a searchable catalog.",

@@ -305,9 +305,14 @@ def _filtered(p: argparse.ArgumentParser) -> None:
     p.add_argument("--json", action="store_true", help="print JSON instead of a table")
 
 
-def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
-    from celllab.catalog.filters import describe_language
+def describe_language() -> str:
+    """The filter language's help (loads the topology registry, so only when help is shown)."""
+    from celllab.catalog.filters import describe_language as describe
 
+    return describe()
+
+
+def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
     raw = argparse.RawDescriptionHelpFormatter
     metric_list = ", ".join(f"{m.name} [{m.unit}]" for m in METRIC_BY_NAME.values())
 
@@ -315,7 +320,7 @@ def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
         "rank",
         help="list catalog cells filtered and ranked by a metric",
         formatter_class=raw,
-        epilog=describe_language(),
+        epilog=describe_language,
         description="Filter the current catalog results and rank them by a metric "
         "or cell column, best first unless --asc/--desc says otherwise.",
     )
@@ -340,7 +345,7 @@ def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
         "pareto",
         help="cells no other cell beats in every chosen metric",
         formatter_class=raw,
-        epilog=describe_language(),
+        epilog=describe_language,
         description="Pareto front over 2 or 3 metrics: the rows that no other row "
         "matches or beats in all of them (direction of each from its 'better').",
     )
