@@ -224,6 +224,7 @@ def store_figures(n: int) -> list[Figure]:
 def build_query_catalog(path: Path, metric_rows: int, base_cells: int = 2000) -> int:
     """Store a synthetic run, then replicate its rows in SQL up to ``metric_rows``."""
     from bench_tui import synthetic_run
+
     from celllab.catalog import open_catalog
 
     catalog = open_catalog(path)
