@@ -148,7 +148,7 @@ def merge_from(db: sqlite_utils.Database, own_path: Path, other_path: str | Path
                 t: set(db[t].columns_dict)
                 for t in ("cells", "corner_metrics", "responses", "cv_curves")
             }
-            writer = CellWriter(db)
+            writer = CellWriter(db, defer_cells=False)
             run_ids: dict[int, int] = {}
             runs_added = [0]
             touched: set[tuple[str, str]] = set()

@@ -325,13 +325,19 @@ def insert_rows(db: sqlite_utils.Database, table: str, rows: list[dict[str, Any]
 
 
 class CellWriter:
-    """Inserts prepared cells; per-corner rows are buffered and written in bulk (``flush``)."""
+    """Inserts prepared cells in bulk: ids are assigned up front (after the largest stored one,
+    which is what SQLite would pick inside the write transaction), rows are buffered and written
+    with one ``executemany`` per table every ``FLUSH_EVERY`` cells (``flush``)."""
 
     FLUSH_EVERY = 256
 
-    def __init__(self, db: sqlite_utils.Database) -> None:
+    def __init__(self, db: sqlite_utils.Database, defer_cells: bool = True) -> None:
+        """defer_cells=False writes each ``cells`` row at once, for callers that query the
+        cells table between adds (merge checks names against what it imported so far)."""
         self.db = db
+        self.defer_cells = defer_cells
         self.pending: dict[str, list[dict[str, Any]]] = {
+            "cells": [],  # first: the per-corner rows refer to it
             "corner_metrics": [],
             "responses": [],
             "cv_curves": [],
@@ -351,22 +357,22 @@ class CellWriter:
         stored_utc: str,
         current: bool = True,
     ) -> int:
-        row = {
-            **cell.cell_row,
-            "deck_hash": deck_hash,
-            "model_version": model_version,
-            "run_id": run_id,
-            "stored_utc": stored_utc,
-            "current": int(current),
-            "result_digest": cell.digest,
-        }
-        cols = list(row)
-        cur = self.db.execute(
-            f"INSERT INTO cells ({', '.join(_q(c) for c in cols)}) "
-            f"VALUES ({', '.join('?' for _ in cols)})",
-            [row[c] for c in cols],
+        cell_id = self.first_new_id + self.n + 1
+        self.pending["cells"].append(
+            {
+                "cell_id": cell_id,
+                **cell.cell_row,
+                "deck_hash": deck_hash,
+                "model_version": model_version,
+                "run_id": run_id,
+                "stored_utc": stored_utc,
+                "current": int(current),
+                "result_digest": cell.digest,
+            }
         )
-        cell_id = int(cur.lastrowid or 0)
+        if not self.defer_cells:
+            insert_rows(self.db, "cells", self.pending["cells"])
+            self.pending["cells"].clear()
         for table, rows in (
             ("corner_metrics", cell.corner_rows),
             ("responses", cell.response_rows),
@@ -379,7 +385,7 @@ class CellWriter:
         return cell_id
 
     def flush(self) -> None:
-        for table, rows in self.pending.items():  # corner_metrics first: the others refer to it
+        for table, rows in self.pending.items():  # in the order rows refer to each other
             insert_rows(self.db, table, rows)
             rows.clear()
 
