@@ -25,12 +25,18 @@ from dataclasses import dataclass
 from typing import Any, Literal
 
 
+_convert: Callable[[Any, str], Any] | None = None
+
+
 def from_si(value: Any, unit: str) -> Any:
     """``celllab.units.from_si``, imported on the first conversion: the column table itself is
     read by the command line's help and queries, which need no unit conversion (nor scipy)."""
-    from celllab.units import from_si as convert
+    global _convert
+    if _convert is None:
+        from celllab.units import from_si as convert
 
-    return convert(value, unit)
+        _convert = convert
+    return _convert(value, unit)
 
 
 Better = Literal["higher", "lower"]
