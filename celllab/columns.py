@@ -24,7 +24,6 @@ from collections.abc import Callable, Iterable
 from dataclasses import dataclass
 from typing import Any, Literal
 
-
 _convert: Callable[[Any, str], Any] | None = None
 
 

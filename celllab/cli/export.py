@@ -168,11 +168,15 @@ def _export_json(args: argparse.Namespace, cat: Any) -> None:
 
 
 def _export_spice(args: argparse.Namespace, cat: Any) -> None:
+    from scipy import constants
+
     from celllab.export.spice import render_spice_library, render_spice_subckt, spice_name
 
     cells, deck = _load_cells(cat, _select_rows(cat, args))
     _need_cells(cells)
     corner = _render_corner(args)
+    percent = getattr(args, "ladder_accuracy_percent", None)
+    accuracy = None if percent is None else percent * constants.centi  # per cent
     without = [c.name for c in cells if c.netlist is None]
     if without:
         print(
@@ -184,13 +188,17 @@ def _export_spice(args: argparse.Namespace, cat: Any) -> None:
         _emit_many(
             args,
             {
-                f"{spice_name(c.name)}.sp": render_spice_subckt(c, corner, args.segments, deck)
+                f"{spice_name(c.name)}.sp": render_spice_subckt(
+                    c, corner, args.segments, deck, accuracy=accuracy
+                )
                 for c in cells
             },
         )
     else:
         _emit(
-            args, render_spice_library(cells, deck, corner, args.segments), DEFAULT_FILES["spice"]
+            args,
+            render_spice_library(cells, deck, corner, args.segments, accuracy=accuracy),
+            DEFAULT_FILES["spice"],
         )
 
 
@@ -310,6 +318,9 @@ def cmd_export(args: argparse.Namespace) -> int:
         raise _problem("--reference-ohm", "must be > 0 (ohm)", args.reference_ohm)
     if args.segments is not None and args.segments < 1:
         raise _problem("--segments", "must be >= 1", args.segments)
+    accuracy = getattr(args, "ladder_accuracy_percent", None)
+    if accuracy is not None and not 0 < accuracy < 100:
+        raise _problem("--ladder-accuracy-percent", "must be > 0 and < 100 (percent)", accuracy)
     if args.grid_nm is not None and not args.grid_nm > 0:
         raise _problem("--grid-nm", "must be > 0 (nm)", args.grid_nm)
     from celllab.catalog import open_catalog
@@ -414,7 +425,15 @@ def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
         type=int,
         metavar="N",
         help="spice: R-C ladder segments per distributed line (default: from the "
-        "highest swept frequency)",
+        "highest swept frequency and --ladder-accuracy-percent)",
+    )
+    p.add_argument(
+        "--ladder-accuracy-percent",
+        type=float,
+        metavar="P",
+        help="spice: largest deviation of each R-C ladder from its distributed line at the "
+        "highest swept frequency, percent (default: about 0.5); a file needing more than "
+        "20000 segments says in its header that it is coarser",
     )
     p.add_argument(
         "--reference-ohm",
