@@ -55,7 +55,7 @@ DEFAULT_N_SEGMENTS = 16
 #: Relative deviation |Z_ladder / Z_line - 1| of a midpoint ladder per unit of
 #: x = omega R C / N^2 (N segments): at most 0.17 x for x <= 0.2, measured with the nodal
 #: solver on open and both-ends-contacted lines against the exact line impedance
-#: (tests/export/test_spice_accuracy.py repeats it; ngspice agrees within its own 1e-3).
+#: (tests/export/test_spice_accuracy.py repeats the check; ngspice runs of exported ladders there).
 LADDER_ERROR_PER_X = 0.17
 #: Largest omega R C / N^2 allowed at the top swept frequency by default (about 0.5 %).
 LADDER_X_MAX = 0.03
