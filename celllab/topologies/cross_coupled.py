@@ -3,9 +3,10 @@
 Each row holds an NMOS (p-well, source/body on VSS) and a PMOS (n-well, source/body on VDD);
 each gate is driven by the other device's drain (``celllab.physics.cross_coupled``). No gate
 touches a rail, so the topology is ESD-safe. The internal nodes settle within the leakage
-current x on-resistance of the rails; each device's capacitance is then evaluated at the gate
-bias the operating point gives it, and the channels enter the equivalent circuit as through RC
-lines (``circuits.cross_coupled_circuit``).
+current x on-resistance of the rails; each device is then characterized at the gate bias the
+operating point gives it with the same charge and mobility model as a tied device
+(``characterization.mos``): at V_DS ~ 0 its channel resistance is the tied device's. The channels
+enter the equivalent circuit as through RC lines (``circuits.cross_coupled_circuit``).
 
 Geometry rule: an NMOS and a PMOS per row, each (active row height - well_spacing) / 2 tall
 before end caps (``geometry.place_mos``).
@@ -59,31 +60,32 @@ def evaluate(deck: Any, corners: CornerSet, cells: Sequence[Any], geos: Sequence
     # First pass at the full rail bias gives each device's channel model and leakage density.
     nmos0 = characterize_mos(corners, oxides, nmos_role, geo, vdd)
     pmos0 = characterize_mos(corners, oxides, pmos_role, geo, vdd)
-    vth_n = np.abs(corners.device_table(oxides, nmos_role, "vth_V"))
-    vth_p = np.abs(corners.device_table(oxides, pmos_role, "vth_V"))
 
-    def resistive(first: Any, vth: np.ndarray) -> pair.ResistiveDevice:
-        # R_on(V_ov) = L / (W mu_eff Cox V_ov) with the first-pass effective mobility; the
-        # first-pass overdrive already includes poly depletion and centroid (mobile charge / Cox).
+    def resistive(first: Any) -> pair.ResistiveDevice:
+        # The tied device's channel model at the rail (mobile charge / Cox with poly depletion and
+        # centroid, same mobility), extended to nearby gate voltages at fixed mobility:
+        # R_on(V_GS) = R(VDD) Q(VDD) / Q(V_GS), Q linear in V_GS with unit slope. Only the
+        # operating-point solve uses it (node shifts of leakage x R_on, uV to mV).
         r_at_op = first.r_channel
         v_op = np.maximum(first.v_ov, MIN_OVERDRIVE_V)
-        return pair.ResistiveDevice(vth, lambda v: r_at_op * v_op / v)
+        return pair.ResistiveDevice(np.abs(vdd) - v_op, lambda v: r_at_op * v_op / v)
 
     area = geo.gate_area
     lk_n = oxide_stress(corners, oxides, nmos0.v_ox, nmos0.v_gb, area).leakage_A
     lk_p = oxide_stress(corners, oxides, pmos0.v_ox, pmos0.v_gb, area).leakage_A
     supply_abs = np.abs(vdd)
     op = pair.operating_point(
-        vdd, resistive(nmos0, vth_n), resistive(pmos0, vth_p),
+        vdd, resistive(nmos0), resistive(pmos0),
         leakage_n=lambda v: lk_n * (np.abs(v) / supply_abs) ** LEAKAGE_VOLTAGE_EXPONENT,
         leakage_p=lambda v: lk_p * (np.abs(v) / supply_abs) ** LEAKAGE_VOLTAGE_EXPONENT)
     ok = np.asarray(op.converged, dtype=bool)
     v_gn = np.where(ok, op.v_y, vdd)            # NMOS gate-to-body bias
     v_gp = np.where(ok, vdd - op.v_x, vdd)      # PMOS |gate-to-body| bias
+    # Each device at its own gate bias with V_DS ~ 0: the terminal voltages of a tied device,
+    # so its channel resistance is the tied device's (same charge and mobility model).
     nmos = characterize_mos(corners, oxides, nmos_role, geo, v_gn)
     pmos = characterize_mos(corners, oxides, pmos_role, geo, v_gp)
-    r_on_n = np.where(ok & np.isfinite(op.r_on_n), op.r_on_n, nmos.r_channel)
-    r_on_p = np.where(ok & np.isfinite(op.r_on_p), op.r_on_p, pmos.r_channel)
+    r_on_n, r_on_p = nmos.r_channel, pmos.r_channel
 
     flat = common.flat
     net = circuits.cross_coupled_circuit(
