@@ -118,13 +118,18 @@ METRICS: tuple[Column, ...] = (
            compute=lambda f: from_si(f.srf_Hz, "GHz")),
     Column("tau_ps", "ps", "RC time constant ESR x C", "lower",
            compute=lambda f: from_si(f.tau_s, "ps")),
-    Column("leakage_nA", "nA", "gate tunnelling leakage at the supply", "lower",
-           compute=lambda f: from_si(f.leakage_A, "nA")),
-    Column("leakage_nA_per_nF", "nA/nF", "leakage per nF of capacitance", "lower", compute=_per_nF),
+    Column("leakage_nA", "nA", "total leakage at the supply: gate tunnelling plus well-junction reverse "
+           "current", "lower", compute=lambda f: from_si(f.leakage_A, "nA")),
+    Column("leakage_nA_per_nF", "nA/nF", "total leakage per nF of capacitance", "lower", compute=_per_nF),
+    Column("gate_leakage_nA", "nA", "gate tunnelling current at the supply (electrons or holes by device)",
+           "lower", compute=lambda f: from_si(f.gate_leakage_A, "nA")),
+    Column("junction_leakage_nA", "nA", "reverse current of the well junctions the supply biases (empty when "
+           "the deck gives no densities)", "lower", compute=lambda f: from_si(f.junction_leakage_A, "nA")),
     Column("oxide_field_MV_per_cm", "MV/cm", "oxide field at the supply", "lower",
            compute=lambda f: from_si(f.e_ox_V_per_m, "MV/cm")),
-    Column("tddb_life_years", "years", "time to 0.01 % oxide breakdown of this cell at the supply", "higher",
-           compute=lambda f: from_si(f.ttf_s, "years")),
+    Column("tddb_fit_per_mm2", "FIT/mm^2", "gate-oxide breakdown rate per mm^2 of this cell's gate oxide, "
+           "averaged over 10 years at this corner's supply and temperature (times a fill's gate area: its "
+           "rate; empty for MOM)", "lower", compute=lambda f: from_si(f.tddb_rate_per_s_m2, "FIT/mm^2")),
     Column("pulse_vbd_V", "V", "gate-oxide breakdown voltage under a ~100 ns ESD-like pulse (rail clamps "
            "must hold the rails below it; empty for MOM)", "higher", compute=lambda f: f.vbd_pulse_V),
 )

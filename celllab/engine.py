@@ -91,8 +91,9 @@ def _record(spec: CellSpec, geo: Any, corners: CornerSet, group: Any, index: int
             area_um2=geo.area_um2, c_lf_F=float(out.summary["c_lf_F"][k, j]), cap_ox_F=float(out.cap_ox_F[k, j]),
             esr_lf_ohm=float(out.summary["esr_lf_ohm"][k, j]), esr_probe_ohm=float(out.summary["esr_at_ohm"][k, j, 0]),
             bandwidth_Hz=bw, esl_H=_series_inductance(out, k, j), srf_Hz=srf, tau_s=float(out.summary["tau_s"][k, j]),
-            leakage_A=float(out.leakage_A[k, j]), e_ox_V_per_m=float(out.e_ox_V_per_m[k, j]),
-            ttf_s=float(out.ttf_s[k, j]), vbd_pulse_V=float(out.vbd_pulse_V[k, j]))
+            gate_leakage_A=float(out.gate_leakage_A[k, j]), junction_leakage_A=float(out.junction_leakage_A[k, j]),
+            e_ox_V_per_m=float(out.e_ox_V_per_m[k, j]), tddb_rate_per_s_m2=float(out.tddb_rate_per_s_m2[k, j]),
+            vbd_pulse_V=float(out.vbd_pulse_V[k, j]))
         m = {metric.name: _finite(metric.compute(figures)) for metric in METRICS}  # type: ignore[misc]
         cv = None
         if out.cv_bias is not None:

@@ -9,6 +9,7 @@ responses are stored in SI (Hz, ohm) as numpy arrays.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -52,10 +53,17 @@ class CornerFigures:
     esl_H: float             # series inductance, H
     srf_Hz: float            # self-resonance, Hz
     tau_s: float             # ESR x C, s
-    leakage_A: float         # gate leakage at the supply, A
+    gate_leakage_A: float    # gate tunnelling current at the supply, A
+    junction_leakage_A: float  # reverse current of the biased well junctions, A (NaN: not modelled)
     e_ox_V_per_m: float      # SiO2-equivalent oxide field, V/m
-    ttf_s: float             # time to the quoted oxide failure fraction, s
+    tddb_rate_per_s_m2: float  # mission-average TDDB failure rate per m^2 of gate oxide, 1/(s m^2)
     vbd_pulse_V: float       # pulse breakdown voltage, V
+
+    @property
+    def leakage_A(self) -> float:
+        """Total leakage at the supply, A: gate plus junction (a junction part not modelled counts 0)."""
+        junction = 0.0 if math.isnan(self.junction_leakage_A) else self.junction_leakage_A
+        return self.gate_leakage_A + junction
 
 
 @dataclass

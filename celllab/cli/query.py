@@ -26,7 +26,7 @@ DEFAULT_COLUMNS = (
     "esr_ohm",
     "bandwidth_GHz",
     "leakage_nA_per_nF",
-    "tddb_life_years",
+    "tddb_fit_per_mm2",
 )
 
 

@@ -47,7 +47,7 @@ _SUMMARY_METRICS = (
     "bandwidth_GHz",
     "srf_GHz",
     "leakage_nA",
-    "tddb_life_years",
+    "tddb_fit_per_mm2",
 )
 
 _ESD_WARNING = (

@@ -33,9 +33,10 @@ class GroupResult:
     z_ohm: np.ndarray                  # (n_v, n_c, n_f) complex ohm
     summary: dict[str, np.ndarray]     # impedance.summarize, reshaped to (n_v, n_c, ...)
     cap_ox_F: np.ndarray               # plain Cox x area (plus metal capacitance), F
-    leakage_A: np.ndarray              # gate leakage at the supply, A
+    gate_leakage_A: np.ndarray         # gate tunnelling current at the supply, A
+    junction_leakage_A: np.ndarray     # reverse current of biased well junctions, A (NaN: not modelled)
     e_ox_V_per_m: np.ndarray           # SiO2-equivalent oxide field, V/m
-    ttf_s: np.ndarray                  # time to the quoted failure fraction, s
+    tddb_rate_per_s_m2: np.ndarray     # mission-average TDDB failures per second per m^2 of gate oxide
     vbd_pulse_V: np.ndarray            # pulse breakdown voltage, V
     supply_V: np.ndarray               # rail voltage, V
     netlist: Netlist                   # values over n_variant x n_corner (variant-major)
@@ -90,6 +91,14 @@ def solve(net: Netlist, freq: np.ndarray, n_v: int, n_c: int) -> Solution:
     shaped = {k: (v.reshape((n_v, n_c) + v.shape[1:]) if isinstance(v, np.ndarray) and v.ndim >= 1
                   and v.shape[0] == n_v * n_c else v) for k, v in summary.items()}
     return Solution(z.reshape(n_v, n_c, -1), shaped)
+
+
+def merge_flags(*parts: list[list[list[str]]]) -> list[list[list[str]]]:
+    """[variant][corner] flag lists joined part by part, each flag once, in first-seen order."""
+    merged: list[list[list[str]]] = []
+    for per_variant in zip(*parts):
+        merged.append([list(dict.fromkeys(f for part in per_corner for f in part)) for per_corner in zip(*per_variant)])
+    return merged
 
 
 def oxides_of(cells: Sequence[Any]) -> np.ndarray:

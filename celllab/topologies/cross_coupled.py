@@ -20,8 +20,9 @@ from typing import Any
 import numpy as np
 from scipy.constants import milli
 
+from celllab.characterization.junctions import junction_leakage
 from celllab.characterization.mos import characterize_mos
-from celllab.characterization.oxide_stress import oxide_stress, oxide_subtable
+from celllab.characterization.oxide_stress import oxide_stress
 from celllab.characterization.params import CornerSet
 from celllab.physics import circuits
 from celllab.physics import cross_coupled as pair
@@ -34,6 +35,7 @@ from celllab.topologies.geometry import (
     place_mos,
 )
 from celllab.topologies.registry import Topology
+from celllab.topologies.wells import pair_wells
 
 #: Gate leakage against the node voltage inside the operating-point solve, I ~ V^n: an assumed
 #: power law for the bracketing solve only (modelling choice, no source); the reported leakage
@@ -71,8 +73,8 @@ def evaluate(deck: Any, corners: CornerSet, cells: Sequence[Any], geos: Sequence
         return pair.ResistiveDevice(np.abs(vdd) - v_op, lambda v: r_at_op * v_op / v)
 
     area = geo.gate_area
-    lk_n = oxide_stress(corners, oxides, nmos0.v_ox, nmos0.v_gb, area).leakage_A
-    lk_p = oxide_stress(corners, oxides, pmos0.v_ox, pmos0.v_gb, area).leakage_A
+    lk_n = oxide_stress(corners, oxides, nmos_role, nmos0.v_ox, nmos0.v_gb, area).leakage_A
+    lk_p = oxide_stress(corners, oxides, pmos_role, pmos0.v_ox, pmos0.v_gb, area).leakage_A
     supply_abs = np.abs(vdd)
     op = pair.operating_point(
         vdd, resistive(nmos0), resistive(pmos0),
@@ -95,33 +97,26 @@ def evaluate(deck: Any, corners: CornerSet, cells: Sequence[Any], geos: Sequence
         l_loop=flat(common.loop_inductance(deck, geos), n_v, n_c), c_overlap_n=flat(nmos.c_overlap, n_v, n_c),
         c_overlap_p=flat(pmos.c_overlap, n_v, n_c))
     sol = common.solve(net, freq, n_v, n_c)
-    sn = oxide_stress(corners, oxides, nmos.v_ox, nmos.v_gb, area)
-    sp = oxide_stress(corners, oxides, pmos.v_ox, pmos.v_gb, area)
+    sn = oxide_stress(corners, oxides, nmos_role, nmos.v_ox, nmos.v_gb, area)
+    sp = oxide_stress(corners, oxides, pmos_role, pmos.v_ox, pmos.v_gb, area)
+    junction, junction_flags = junction_leakage(corners, *pair_wells(cells, geos), vdd)
     flags = [[nmos.flags[i][j] + [f for f in pmos.flags[i][j] if f not in nmos.flags[i][j]]
               + ([] if ok[i, j] else ["pair_no_operating_point: no both-on state found; devices "
                                       "evaluated at the full rail voltage"])
               for j in range(n_c)] for i in range(n_v)]
     return common.GroupResult(
         n_variant=n_v, n_corner=n_c, z_ohm=sol.z_ohm, summary=sol.summary,
-        cap_ox_F=nmos.c_ox_plain + pmos.c_ox_plain, leakage_A=sn.leakage_A + sp.leakage_A,
-        e_ox_V_per_m=np.maximum(sn.e_ox_V_per_m, sp.e_ox_V_per_m),
-        ttf_s=series_life(sn.ttf_s, sp.ttf_s, corners, oxides),
+        cap_ox_F=nmos.c_ox_plain + pmos.c_ox_plain, gate_leakage_A=sn.leakage_A + sp.leakage_A,
+        junction_leakage_A=junction, e_ox_V_per_m=np.maximum(sn.e_ox_V_per_m, sp.e_ox_V_per_m),
+        # equal gate areas: the hazards add, so the rate per area of the cell's gate is the mean
+        tddb_rate_per_s_m2=0.5 * (sn.tddb_rate_per_s_m2 + sp.tddb_rate_per_s_m2),
         vbd_pulse_V=np.minimum(sn.vbd_pulse_V, sp.vbd_pulse_V), supply_V=vdd, netlist=net,
         # C-V: NMOS and PMOS swept together against the rail voltage
         cv_bias=nmos.cv_bias, cv_cap=nmos.cv_cap + pmos.cv_cap, cv_operating_V=v_gn,
-        cv_operating_F=nmos.c_gate + pmos.c_gate + nmos.c_overlap + pmos.c_overlap, flags=flags,
+        cv_operating_F=nmos.c_gate + pmos.c_gate + nmos.c_overlap + pmos.c_overlap,
+        flags=common.merge_flags(flags, junction_flags),
         notes=["cross-coupled: internal nodes from the self-consistent DC operating point (gate leakage "
                "through the on-resistances); channels modelled as through RC lines"])
-
-
-def series_life(t_n: np.ndarray, t_p: np.ndarray, corners: CornerSet, oxides: np.ndarray) -> np.ndarray:
-    """Life of two oxides that both must survive (weakest link, same Weibull slope), s.
-
-    F_total = 1 - (1 - F_n)(1 - F_p); for small F with a common slope beta this gives
-    t = (t_n^-beta + t_p^-beta)^(-1/beta) (series system of Weibull elements).
-    """
-    beta = oxide_subtable(corners, oxides, "reliability", "weibull_beta")
-    return (t_n ** -beta + t_p ** -beta) ** (-1.0 / beta)
 
 
 TOPOLOGIES = (

@@ -6,8 +6,9 @@ accumulation. None is ESD-safe: the gate oxide sits directly across the rails.
 
 Geometry rule: one device per row, as tall as the active row height
 (``geometry.place_mos``). Evaluation: the device model of ``characterization.mos`` at the rail
-voltage, the distributed-channel circuit of ``physics.circuits.mos_decap_circuit``, and the
-oxide stress of ``characterization.oxide_stress``.
+voltage, the distributed-channel circuit of ``physics.circuits.mos_decap_circuit``, the
+oxide stress of ``characterization.oxide_stress`` and the well-junction leakage of
+``characterization.junctions`` over the outline of ``topologies.wells``.
 """
 
 from __future__ import annotations
@@ -17,6 +18,7 @@ from typing import Any
 
 import numpy as np
 
+from celllab.characterization.junctions import junction_leakage
 from celllab.characterization.oxide_stress import oxide_stress
 from celllab.characterization.params import CornerSet
 from celllab.topologies import common
@@ -28,6 +30,7 @@ from celllab.topologies.geometry import (
     place_mos,
 )
 from celllab.topologies.registry import Evaluate, Topology
+from celllab.topologies.wells import single_device_wells
 
 
 def one_device_per_row(spec: Any, deck: Any, geo: Geometry) -> None:
@@ -43,12 +46,14 @@ def evaluate_tied_gate(topology: str, deck: Any, corners: CornerSet, cells: Sequ
     res = dev.result
     net = common.mos_circuit(res, dev.geometry, common.loop_inductance(deck, geos), n_v, n_c, topology)
     sol = common.solve(net, freq, n_v, n_c)
-    stress = oxide_stress(corners, dev.oxides, res.v_ox, res.v_gb, dev.geometry.gate_area)
+    stress = oxide_stress(corners, dev.oxides, roles, res.v_ox, res.v_gb, dev.geometry.gate_area)
+    junction, junction_flags = junction_leakage(corners, *single_device_wells(geos, roles), dev.supply_V)
     return common.GroupResult(
         n_variant=n_v, n_corner=n_c, z_ohm=sol.z_ohm, summary=sol.summary, cap_ox_F=res.c_ox_plain,
-        leakage_A=stress.leakage_A, e_ox_V_per_m=stress.e_ox_V_per_m, ttf_s=stress.ttf_s,
-        vbd_pulse_V=stress.vbd_pulse_V, supply_V=dev.supply_V, netlist=net, cv_bias=res.cv_bias,
-        cv_cap=res.cv_cap, cv_operating_V=res.v_gb, cv_operating_F=res.c_gate + res.c_overlap, flags=res.flags)
+        gate_leakage_A=stress.leakage_A, junction_leakage_A=junction, e_ox_V_per_m=stress.e_ox_V_per_m,
+        tddb_rate_per_s_m2=stress.tddb_rate_per_s_m2, vbd_pulse_V=stress.vbd_pulse_V, supply_V=dev.supply_V,
+        netlist=net, cv_bias=res.cv_bias, cv_cap=res.cv_cap, cv_operating_V=res.v_gb,
+        cv_operating_F=res.c_gate + res.c_overlap, flags=common.merge_flags(res.flags, junction_flags))
 
 
 def _evaluator(topology: str, role: Callable[[Any], str]) -> Evaluate:
