@@ -48,6 +48,8 @@ class Column:
     digits : int        significant digits when shown to people
     compute : callable  metrics only: the value in ``unit`` from the SI figures of one cell at
                         one corner (``records.CornerFigures``); the engine calls it
+    bounds : str        for a bound flag: the metric it marks (1 = that metric's value is only a
+                        lower bound; shown with "≥", see ``bound_flag``)
     """
 
     name: str
@@ -57,6 +59,7 @@ class Column:
     kind: Kind = "number"
     digits: int = 4
     compute: Callable[[Any], float] | None = None
+    bounds: str | None = None
 
     @property
     def higher_is_better(self) -> bool:
@@ -110,12 +113,18 @@ METRICS: tuple[Column, ...] = (
            compute=lambda f: f.esr_lf_ohm),
     Column("esr_1GHz_ohm", "ohm", "series resistance Re Z at 1 GHz", "lower",
            compute=lambda f: f.esr_probe_ohm),
-    Column("bandwidth_GHz", "GHz", "usable bandwidth: where C_eff falls to C/sqrt(2)", "higher",
+    Column("bandwidth_GHz", "GHz", "usable bandwidth: where C_eff (loop inductance removed) falls to "
+           "C/sqrt(2), at most the self-resonance (a lower bound where bandwidth_is_bound)", "higher",
            compute=lambda f: from_si(f.bandwidth_Hz, "GHz")),
+    Column("bandwidth_is_bound", "bool", "1 when bandwidth_GHz is only a lower bound", "lower", kind="bool",
+           compute=lambda f: float(f.bandwidth_is_bound), bounds="bandwidth_GHz"),
     Column("esl_pH", "pH", "equivalent series inductance", "lower",
            compute=lambda f: from_si(f.esl_H, "pH")),
-    Column("srf_GHz", "GHz", "self-resonance frequency", "higher",
+    Column("srf_GHz", "GHz", "self-resonance frequency (above the deck's analysed band: computed from the "
+           "equivalent circuit and flagged; a lower bound where srf_is_bound)", "higher",
            compute=lambda f: from_si(f.srf_Hz, "GHz")),
+    Column("srf_is_bound", "bool", "1 when srf_GHz is only a lower bound: no resonance in the circuit up to it",
+           "lower", kind="bool", compute=lambda f: float(f.srf_is_bound), bounds="srf_GHz"),
     Column("tau_ps", "ps", "RC time constant ESR x C", "lower",
            compute=lambda f: from_si(f.tau_s, "ps")),
     Column("leakage_nA", "nA", "total leakage at the supply: gate tunnelling plus well-junction reverse "
@@ -174,6 +183,24 @@ METRIC_BY_NAME: dict[str, Column] = {m.name: m for m in METRICS}
 COLUMNS: dict[str, Column] = {**TEXT_COLUMNS, **METRIC_BY_NAME, **CELL_COLUMNS, **CORNER_COLUMNS}
 #: Columns with a ranking direction (metrics and cell columns).
 RANKED: dict[str, Column] = {**METRIC_BY_NAME, **CELL_COLUMNS}
+
+
+#: Metric name -> the bool metric that marks its value as a lower bound.
+BOUND_FLAGS: dict[str, str] = {c.bounds: c.name for c in METRICS if c.bounds}
+
+
+def bound_flag(name: str) -> str | None:
+    """The column that marks ``name``'s value as a lower bound (``srf_GHz`` -> ``srf_is_bound``)."""
+    return BOUND_FLAGS.get(name)
+
+
+def is_lower_bound(row: Any, name: str) -> bool:
+    """Whether ``row`` (a mapping of column values) holds only a lower bound for ``name``."""
+    flag = BOUND_FLAGS.get(name)
+    if flag is None:
+        return False
+    value = row.get(flag) if hasattr(row, "get") else None
+    return value is not None and not (isinstance(value, float) and math.isnan(value)) and bool(value)
 
 
 def unit_of(name: str) -> str:

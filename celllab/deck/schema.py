@@ -262,6 +262,27 @@ class Layout(StrictModel):
     rail_clearance_um: float = _f(0, 5, "clearance from rail edge to active, um")
 
 
+# --- the frequency band the deck's cells are analysed over ([analysis]) -------------------------
+
+class AnalysisBand(StrictModel):
+    """The band a deck's cells are swept over: the band that matters for decoupling in this
+    process (from below the package resonance to a few times its fastest clock harmonics).
+    Self-resonance and cutoff above it are computed from each cell's equivalent circuit and
+    marked as beyond the band, or stored as lower bounds where the circuit shows none."""
+
+    f_min_MHz: float = _f(1e-3, 1e3, "lowest swept frequency (the low-frequency C and ESR are read "
+                          "there), MHz", gt=True, default=0.1)
+    f_max_GHz: float = _f(0.01, 1e4, "highest swept frequency: top of the band that matters, GHz",
+                          gt=True, default=100.0)
+    points_per_decade: float = _f(5, 200, "sweep points per decade (rounded to a whole number)", default=20.0)
+
+    @model_validator(mode="after")
+    def _ordered(self) -> "AnalysisBand":
+        if to_si(self.f_max_GHz, "GHz") <= 10 * to_si(self.f_min_MHz, "MHz"):
+            raise ValueError("f_max_GHz must lie more than a decade above f_min_MHz")
+        return self
+
+
 #: Supply net names: letters, digits and _ (safe in Liberty, LEF and SPICE without quoting).
 _NET = r"^[A-Za-z][A-Za-z0-9_]{0,31}$"
 #: Net-name fields and their defaults; see ``Supplies._canonical``.
@@ -319,6 +340,7 @@ class Deck(StrictModel):
     metals: list[MetalLayer] = Field(min_length=1)
     layout: Layout
     supplies: Supplies
+    analysis: AnalysisBand = AnalysisBand()
     corners: dict[str, Corner] = Field(min_length=1)
 
     @model_validator(mode="after")

@@ -96,7 +96,7 @@ def evaluate(deck: Any, corners: CornerSet, cells: Sequence[Any], geos: Sequence
         r_gate_n=flat(nmos.r_gate + nmos.r_access, n_v, n_c), r_gate_p=flat(pmos.r_gate + pmos.r_access, n_v, n_c),
         l_loop=flat(common.loop_inductance(deck, geos), n_v, n_c), c_overlap_n=flat(nmos.c_overlap, n_v, n_c),
         c_overlap_p=flat(pmos.c_overlap, n_v, n_c))
-    sol = common.solve(net, freq, n_v, n_c)
+    sol = common.solve(net, freq, n_v, n_c, common.lumped_limit(deck, geos))
     sn = oxide_stress(corners, oxides, nmos_role, nmos.v_ox, nmos.v_gb, area)
     sp = oxide_stress(corners, oxides, pmos_role, pmos.v_ox, pmos.v_gb, area)
     junction, junction_flags = junction_leakage(corners, *pair_wells(cells, geos), vdd)

@@ -87,7 +87,7 @@ def evaluate(deck: Any, corners: CornerSet, cells: Sequence[Any], geos: Sequence
     per = LayerValues(fig, n_c)
     net = circuits.mom_circuit(per.capacitance, per.line_resistance, per.via_resistance,
                                common.flat(common.loop_inductance(deck, geos), n_v, n_c))
-    sol = common.solve(net, freq, n_v, n_c)
+    sol = common.solve(net, freq, n_v, n_c, common.lumped_limit(deck, geos))
     nan = np.full((n_v, n_c), np.nan)
     zero = np.zeros((n_v, n_c))
     return common.GroupResult(

@@ -51,7 +51,7 @@ def evaluate(deck: Any, corners: CornerSet, cells: Sequence[Any], geos: Sequence
         r_access=flat(res.r_access, n_v, n_c), c_overlap=flat(res.c_overlap, n_v, n_c),
         contacted_ends=int(cells[0].contacted_ends), r_vias=per.via_resistance,
         l_loop=flat(common.loop_inductance(deck, geos), n_v, n_c))
-    sol = common.solve(net, freq, n_v, n_c)
+    sol = common.solve(net, freq, n_v, n_c, common.lumped_limit(deck, geos))
     roles = np.array([c.mos_device for c in cells])
     stress = oxide_stress(corners, dev.oxides, roles, res.v_ox, res.v_gb, dev.geometry.gate_area)
     junction, junction_flags = junction_leakage(corners, *single_device_wells(geos, roles), dev.supply_V)

@@ -45,7 +45,7 @@ def evaluate_tied_gate(topology: str, deck: Any, corners: CornerSet, cells: Sequ
     dev = common.mos_devices(corners, cells, geos, roles)
     res = dev.result
     net = common.mos_circuit(res, dev.geometry, common.loop_inductance(deck, geos), n_v, n_c, topology)
-    sol = common.solve(net, freq, n_v, n_c)
+    sol = common.solve(net, freq, n_v, n_c, common.lumped_limit(deck, geos))
     stress = oxide_stress(corners, dev.oxides, roles, res.v_ox, res.v_gb, dev.geometry.gate_area)
     junction, junction_flags = junction_leakage(corners, *single_device_wells(geos, roles), dev.supply_V)
     return common.GroupResult(

@@ -96,6 +96,8 @@ def make_metrics(
         "bandwidth_GHz": 1.0 / (2 * math.pi * esr * c_F) / 1e9,
         "esl_pH": esl_pH,
         "srf_GHz": 1.0 / (2 * math.pi * math.sqrt(l_H * c_F)) / 1e9,
+        "srf_is_bound": 1.0 if mom and corner != "slow_125C" else 0.0,  # bounds, to exercise their rules
+        "bandwidth_is_bound": 0.0,
         "tau_ps": esr * c_F * 1e12,
         "leakage_nA": leak_nA,
         "leakage_nA_per_nF": leak_per_nF,

@@ -120,6 +120,8 @@ def metrics_from_response(freq: np.ndarray, z: np.ndarray, area_um2: float) -> d
         "esr_1GHz_ohm": float(np.interp(9.0, np.log10(freq), z.real)),
         "bandwidth_GHz": bandwidth_GHz,
         "srf_GHz": srf_GHz,
+        "srf_is_bound": 0.0,
+        "bandwidth_is_bound": 0.0,
         "tau_ps": esr * cap * 1e12,
         "leakage_nA": leakage_nA,
         "leakage_nA_per_nF": leakage_nA / (cap * 1e9),
