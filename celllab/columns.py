@@ -8,7 +8,10 @@ Worst and best over corners (one definition, ``Column.extreme``): per metric, *w
 least favourable value over a cell's corners (the minimum of a higher-is-better metric, the
 maximum of a lower-is-better one) and *best* the most favourable. The catalog's SQL aggregate
 (``Column.sql_aggregate``) and the Python version (``Column.over_corners``) both come from it;
-empty values (NaN, NULL) are skipped, and a metric empty at every corner stays empty.
+empty values (NaN, NULL) are skipped, and a metric empty at every corner stays empty. A bound
+flag (``Column.bounds``: ``srf_is_bound`` marks ``srf_GHz``) is not aggregated on its own: it is
+the flag of the corner that gives its metric's worst/best value (``schema.fill_extremes``,
+``records.corner_metrics``).
 
 Corner selectors, read the same way by queries and exports: a corner name is that corner;
 ``"worst"`` / ``"best"`` (``AGGREGATE_CORNERS``) are the per-metric extremes above; ``None``
