@@ -237,24 +237,49 @@ def summarize(
     }
 
 
-def crossing_by_bisection(
-    g: Callable[[FloatArray], FloatArray], f_low: ArrayLike, f_high: ArrayLike, iterations: int = 50
+def bracketed_crossing(
+    g: Callable[[FloatArray], FloatArray],
+    f_low: ArrayLike,
+    f_high: ArrayLike,
+    iterations: int = 60,
+    rtol: float = 1e-13,
 ) -> FloatArray:
     """Per variant, the frequency where g changes sign between ``f_low`` (g >= 0) and
-    ``f_high`` (g < 0), by bisection on log f, Hz.
+    ``f_high`` (g < 0), Hz.
 
     Parameters
     ----------
     g : callable      ``f (n_variant,) -> (n_variant,)``, evaluated at one frequency per variant
     f_low, f_high : array_like   (n_variant,) brackets, Hz, 0 < f_low < f_high
-    iterations : int  halvings of the log bracket (50: relative 1e-15 of a decade-wide bracket)
+    iterations : int  at most this many evaluations of g
+    rtol : float      stop once every bracket is narrower than this, relative in f
+
+    Notes
+    -----
+    Bracketing false position on log f with the Illinois modification (M. Dowell, P. Jarratt,
+    BIT 11:168, 1971): superlinear on smooth crossings, and the bracket always holds the root,
+    so it cannot do worse than keeping the bracket; a final midpoint is returned.
     """
     lo = np.log(np.asarray(f_low, dtype=float))
     hi = np.log(np.asarray(f_high, dtype=float))
+    g_lo = np.asarray(g(np.exp(lo)), dtype=float)
+    g_hi = np.asarray(g(np.exp(hi)), dtype=float)
+    side = np.zeros(lo.shape, dtype=int)  # which end was kept last (+1 low, -1 high)
     for _ in range(iterations):
-        mid = 0.5 * (lo + hi)
-        above = np.asarray(g(np.exp(mid))) >= 0
-        lo, hi = np.where(above, mid, lo), np.where(above, hi, mid)
+        if np.all(hi - lo <= rtol):
+            break
+        with np.errstate(invalid="ignore", divide="ignore"):
+            x = hi - g_hi * (hi - lo) / (g_hi - g_lo)
+        bad = ~np.isfinite(x) | (x <= lo) | (x >= hi)
+        x = np.where(bad, 0.5 * (lo + hi), x)
+        g_x = np.asarray(g(np.exp(x)), dtype=float)
+        above = g_x >= 0
+        # Illinois: halve the value at the end that stays twice in a row
+        g_hi = np.where(above & (side == 1), 0.5 * g_hi, g_hi)
+        g_lo = np.where(~above & (side == -1), 0.5 * g_lo, g_lo)
+        lo, g_lo = np.where(above, x, lo), np.where(above, g_x, g_lo)
+        hi, g_hi = np.where(above, hi, x), np.where(above, g_hi, g_x)
+        side = np.where(above, 1, -1)
     return np.asarray(np.exp(0.5 * (lo + hi)), dtype=np.float64)
 
 
@@ -281,12 +306,12 @@ def extend_beyond_sweep(
     need_srf, need_bandwidth : array_like of bool   (n_variant,) rows to search
     search_top : array_like   (n_variant,) highest frequency searched per row (where the circuit
                               still describes the cell), Hz
-    points_per_decade : int   coarse grid of the search, refined by bisection
+    points_per_decade : int   coarse grid of the search, refined in its bracket
 
     Returns
     -------
     dict   ``srf_Hz``, ``bandwidth_rc_Hz`` (n_variant,): the first crossing above f_top, refined
-           by bisection to full precision; ``inf`` where none lies at or below the row's search
+           in its bracket to full precision; ``inf`` where none lies at or below the row's search
            top (NaN for rows not searched)
 
     Notes
@@ -314,17 +339,22 @@ def extend_beyond_sweep(
     def impedance_at(f: FloatArray) -> ComplexArray:
         return impedance(f[:, None])[:, 0]
 
-    out: dict[str, FloatArray] = {}
-    lo, hi, found = first(g_srf)
-    srf = crossing_by_bisection(lambda f: -_omega(f) * np.imag(impedance_at(f)), lo, hi)
-    found &= srf <= top
-    out["srf_Hz"] = np.where(np.asarray(need_srf, dtype=bool), np.where(found, srf, np.inf), np.nan)
-    lo, hi, found = first(g_bw)
-    bw = crossing_by_bisection(
-        lambda f: -1.0 / (_omega(f) * (np.imag(impedance_at(f)) - _omega(f) * l_series)) / c - fraction, lo, hi)
-    found &= bw <= top
-    out["bandwidth_rc_Hz"] = np.where(np.asarray(need_bandwidth, dtype=bool), np.where(found, bw, np.inf), np.nan)
-    return out
+    def refine(g_grid: FloatArray, need: ArrayLike, g: Callable[[FloatArray], FloatArray]) -> FloatArray:
+        lo, hi, found = first(g_grid)
+        wanted = np.asarray(need, dtype=bool)
+        search = wanted & found
+        root = np.full(c.shape, np.inf)
+        if np.any(search):  # rows not searched get an empty bracket, so they cost no iterations
+            root = bracketed_crossing(g, np.where(search, lo, hi), hi)
+        found = search & (root <= top)
+        return np.where(wanted, np.where(found, root, np.inf), np.nan)
+
+    return {
+        "srf_Hz": refine(g_srf, need_srf, lambda f: -_omega(f) * np.imag(impedance_at(f))),
+        "bandwidth_rc_Hz": refine(
+            g_bw, need_bandwidth,
+            lambda f: -1.0 / (_omega(f) * (np.imag(impedance_at(f)) - _omega(f) * l_series)) / c - fraction),
+    }
 
 
 def bandwidth_by_bisection(
