@@ -1,21 +1,12 @@
 """Reverse leakage of the well junctions a decap cell biases, per variant x corner (SI: A, m, m^2, V).
 
-Which junction a device role reverse-biases (``WELL_JUNCTION``), from the bias table of
-``characterization.mos``:
-
-=======  ==========================================  =====================
-role     body and its rail                           biased junction
-=======  ==========================================  =====================
-nmos     p-well (the p-substrate) on VSS             none
-pmos     n-well on VDD, substrate on VSS             nwell (n-well/p-sub)
-acc_n    n-well on VSS                               none
-acc_p    isolated p-well on VDD in a deep n-well     deep_nwell (DNW/p-sub)
-=======  ==========================================  =====================
-
-Source and drain diffusions sit on their own well's rail (tied cells) or within the leakage
-drop of it (the cross-coupled pair's internal nodes), so they carry no reverse bias. The outline
-of each biased well (area, perimeter) is the topology's geometry rule (``topologies.wells``).
-No I/O.
+Which well junction a cell reverse-biases depends on its devices and placement: the n-well
+(n-well/p-substrate) on the cell's rail, present under every core-row cell holding transistors and under PMOS
+devices in open regions, and the deep n-well tub (DNW/p-substrate) of an isolated p-well
+accumulation cell. The kinds, areas and perimeters are the topology's geometry rule
+(``topologies.wells``). Source and drain diffusions sit on their own well's rail (tied cells) or
+within the leakage drop of it (the cross-coupled pair's internal nodes), so they carry no reverse
+bias. No I/O.
 """
 
 from __future__ import annotations
@@ -26,8 +17,6 @@ from celllab.characterization.params import CornerSet
 from celllab.physics import leakage
 from celllab.units import to_si
 
-#: The well junction each device role reverse-biases ('' = none); names as in ``[junctions]``.
-WELL_JUNCTION = {"nmos": "", "pmos": "nwell", "acc_n": "", "acc_p": "deep_nwell"}
 _FIELDS = ("area_fA_per_um2", "perimeter_fA_per_um", "xti", "emission_coefficient")
 
 
@@ -38,7 +27,7 @@ def junction_leakage(corners: CornerSet, kinds: np.ndarray, area: np.ndarray, pe
     Parameters
     ----------
     corners : CornerSet
-    kinds : (n_variant,) str        junction kind per variant ('' = none), ``WELL_JUNCTION``
+    kinds : (n_variant,) str        junction kind per variant ('' = none), ``topologies.wells``
     area, perimeter : (n_variant, 1)   junction area, m^2, and perimeter, m
     v_reverse : (n_variant, n_corner)  reverse bias, V (the supply the well sits on)
 

@@ -4,11 +4,18 @@
 n-well in inversion; ``accumulation``: n+ gate in an n-well (or p+ in a p-well) in
 accumulation. None is ESD-safe: the gate oxide sits directly across the rails.
 
-Geometry rule: one device per row, as tall as the active row height
-(``geometry.place_mos``). Evaluation: the device model of ``characterization.mos`` at the rail
-voltage, the distributed-channel circuit of ``physics.circuits.mos_decap_circuit``, the
-oxide stress of ``characterization.oxide_stress`` and the well-junction leakage of
-``characterization.junctions`` over the outline of ``topologies.wells``.
+Geometry rule (``geometry.device_band``, stated in ``celllab.topologies.geometry``): one device
+per row. In a core row the NMOS sits on the p-well half and the PMOS on the n-well half, the
+other half left to its well. An accumulation device's well is on the other rail than the row's
+well of its type, so the cell is one well island over the row height: the n-well device keeps
+``nwell_to_nwell_space_um`` from the power-rail and side edges (the row's n-wells on the power
+rail), the p-well device (isolated p-well in a deep n-well) keeps ``deep_nwell_space_um`` from
+the ground-rail and side edges. In an open region the device fills the active row height (the
+p-well accumulation device keeps its deep-n-well spacing all round). Common practice, no source.
+Evaluation: the device model of ``characterization.mos`` at the cell's rail voltage, the
+distributed-channel circuit of ``physics.circuits.mos_decap_circuit``, the oxide stress of
+``characterization.oxide_stress`` and the well-junction leakage of ``characterization.junctions``
+over the wells of ``topologies.wells``.
 """
 
 from __future__ import annotations
@@ -26,16 +33,27 @@ from celllab.topologies.geometry import (
     MOS_FIELDS,
     OUTLINE_FIELDS,
     Geometry,
-    active_row_height,
+    device_band,
     place_mos,
 )
 from celllab.topologies.registry import Evaluate, Topology
-from celllab.topologies.wells import single_device_wells
+from celllab.topologies.wells import biased_wells
+
+
+def device_role(spec: Any) -> str:
+    """The device role (``characterization.mos.ROLES``) of a one-device cell."""
+    if spec.topology == "pmos_inversion":
+        return "pmos"
+    if spec.topology == "accumulation":
+        return _accumulation_role(spec)
+    if spec.topology == "mos_mom":
+        return str(spec.mos_device)
+    return "nmos"
 
 
 def one_device_per_row(spec: Any, deck: Any, geo: Geometry) -> None:
-    """One MOS device per row, using the whole active row height."""
-    place_mos(spec, deck, geo, device_height_um=active_row_height(deck), devices=1)
+    """One MOS device per row, in the band its well and the cell's placement give it."""
+    place_mos(spec, deck, geo, [device_band(spec, deck, device_role(spec))])
 
 
 def evaluate_tied_gate(topology: str, deck: Any, corners: CornerSet, cells: Sequence[Any], geos: Sequence[Any],
@@ -44,10 +62,10 @@ def evaluate_tied_gate(topology: str, deck: Any, corners: CornerSet, cells: Sequ
     n_v, n_c = len(cells), len(corners.names)
     dev = common.mos_devices(corners, cells, geos, roles)
     res = dev.result
-    net = common.mos_circuit(res, dev.geometry, common.loop_inductance(deck, geos), n_v, n_c, topology)
+    net = common.mos_circuit(res, dev.geometry, common.loop_inductance(corners, geos), n_v, n_c, topology)
     sol = common.solve(net, freq, n_v, n_c, common.lumped_limit(deck, geos))
     stress = oxide_stress(corners, dev.oxides, roles, res.v_ox, res.v_gb, dev.geometry.gate_area)
-    junction, junction_flags = junction_leakage(corners, *single_device_wells(geos, roles), dev.supply_V)
+    junction, junction_flags = junction_leakage(corners, *biased_wells(deck, cells, geos, roles), dev.supply_V)
     return common.GroupResult(
         n_variant=n_v, n_corner=n_c, z_ohm=sol.z_ohm, summary=sol.summary, cap_ox_F=res.c_ox_plain,
         gate_leakage_A=stress.leakage_A, junction_leakage_A=junction, e_ox_V_per_m=stress.e_ox_V_per_m,

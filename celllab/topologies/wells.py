@@ -1,19 +1,29 @@
 """Outline of the well junction a cell reverse-biases: area and perimeter per variant (SI: m, m^2).
 
-Rules (common practice, no source), from the resolved geometry of ``topologies.geometry``:
+Rules (common practice, no source), from the resolved geometry and placement of
+``topologies.geometry`` (W = cell width, H = cell height, h = row height, h_n = the core row's
+n-well half, rows = height in rows):
 
-* A single-device cell whose device sits in a biased n-well (``pmos``) has that n-well under
-  the whole outline: area = width x height. Along a row the well continues into the neighbours
-  on the left and right, so only the top and bottom edges are junction perimeter: 2 x width.
-* An isolated p-well cell (``acc_p``) sits in its own deep n-well tub under the whole outline:
-  area = width x height, perimeter = 2 (width + height).
-* The cross-coupled pair holds its PMOS in an n-well over half of each row: area =
-  width x height / 2; the n-well/p-well boundary runs once per row: perimeter = width x rows
-  (the edge at the rail meets the mirrored row's n-well).
-* Roles with no biased junction (``characterization.junctions.WELL_JUNCTION``) get zeros.
+==========================  =============================  ====================================
+device(s)                   core_row                       open_region
+==========================  =============================  ====================================
+NMOS, PMOS, NMOS + PMOS     row n-well half on the power   PMOS: n-well W x H, perimeter
+                            rail: W h_n rows; perimeter    2 (W + H); NMOS + PMOS: each row's
+                            W rows (the n/p boundary)      n-well half W h/2, perimeter 2W + h
+                                                           per row; NMOS: none (p-substrate)
+n-well accumulation         none (its n-well is on the     none
+                            ground rail, like the
+                            substrate)
+p-well accumulation         deep n-well tub W x H,         deep n-well tub W x H,
+                            perimeter 2 (W + H)            perimeter 2 (W + H)
+==========================  =============================  ====================================
 
-These outlines follow the cells' present placement (one device per row, or the pair's halves); a
-cell that leaves part of a core row to the other well type carries that well too and would add it.
+In a core row the n-well half is there whatever the cell places on it (``geometry``: the other
+half is left to its well), and it continues into the neighbours at the side edges and across the
+power rail into the next row's n-well, so only the n/p boundary inside the cell is junction
+perimeter. An open region has no neighbouring wells: each n-well ends inside the outline (an
+upper estimate where abutting spacer cells merge their wells). The n-well sits on the cell's
+rail, so that rail's voltage reverse-biases it.
 """
 
 from __future__ import annotations
@@ -24,22 +34,41 @@ from typing import Any
 import numpy as np
 from scipy.constants import micro
 
-from celllab.characterization.junctions import WELL_JUNCTION
+#: Device arrangement of a cell holding both an NMOS and a PMOS (tied CMOS, cross-coupled pair).
+BOTH_TYPES = "nmos+pmos"
 
 
-def single_device_wells(geos: Sequence[Any], roles: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """(kinds (n_v,), area (n_v, 1) m^2, perimeter (n_v, 1) m) for one device per row."""
-    kinds = np.array([WELL_JUNCTION[str(r)] for r in roles])
-    width = np.array([g.cell_width_um for g in geos]) * micro
-    height = np.array([g.cell_height_um for g in geos]) * micro
-    area = np.where(kinds == "", 0.0, width * height)
-    perimeter = np.select([kinds == "nwell", kinds == "deep_nwell"], [2.0 * width, 2.0 * (width + height)], 0.0)
-    return kinds, area[:, None], perimeter[:, None]
+def _junction(role: str, placement: str) -> str:
+    """Junction kind ('' = none) a cell of this device arrangement and placement biases."""
+    if role == "acc_p":
+        return "deep_nwell"
+    if role == "acc_n":
+        return ""
+    if placement == "core_row":
+        return "nwell"              # the row's n-well half, on the power rail
+    return "nwell" if role in ("pmos", BOTH_TYPES) else ""
 
 
-def pair_wells(cells: Sequence[Any], geos: Sequence[Any]) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """(kinds, area m^2, perimeter m) of the cross-coupled pair's PMOS n-well halves."""
+def biased_wells(deck: Any, cells: Sequence[Any], geos: Sequence[Any],
+                 roles: Sequence[str]) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """(kinds (n_v,), area (n_v, 1) m^2, perimeter (n_v, 1) m) of each cell's biased well junction.
+
+    ``roles``: per variant the device role (``characterization.mos.ROLES``) of a one-device cell,
+    or ``BOTH_TYPES`` for a cell holding an NMOS and a PMOS. Rules in the module docstring.
+    """
+    roles = [str(r) for r in roles]
+    placement = [str(g.placement) for g in geos]
+    kinds = np.array([_junction(r, p) for r, p in zip(roles, placement)])
     width = np.array([g.cell_width_um for g in geos]) * micro
     height = np.array([g.cell_height_um for g in geos]) * micro
     rows = np.array([c.height_rows for c in cells], dtype=float)
-    return np.full(len(geos), "nwell"), (width * height / 2.0)[:, None], (width * rows)[:, None]
+    row_h = deck.layout.row_height_um * micro
+    h_n = deck.layout.nwell_half_um * micro
+    core = np.array([p == "core_row" for p in placement])
+    both = np.array([r == BOTH_TYPES for r in roles])
+    tub = kinds == "deep_nwell"
+    area = np.select([kinds == "", tub, core, both], [0.0, width * height, width * h_n * rows, width * row_h / 2 * rows],
+                     width * height)
+    perimeter = np.select([kinds == "", tub, core, both],
+                          [0.0, 2 * (width + height), width * rows, (2 * width + row_h) * rows], 2 * (width + height))
+    return kinds, area[:, None], perimeter[:, None]
