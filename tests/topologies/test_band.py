@@ -87,6 +87,11 @@ def test_bounds_filter_and_show_marked(lumen130, tmp_path, capsys) -> None:
     line_x = next(line for line in out.splitlines() if line.startswith("x "))
     line_n = next(line for line in out.splitlines() if line.startswith("n "))
     assert "≥" in line_x and "≥" not in line_n
+    # the flag is a filter of the command line too: bounds left out of a ranking by srf_GHz
+    assert main(["rank", "--catalog", str(path), "--columns", "name,srf_GHz", "--corner", "typ_25C",
+                 "--where", "not srf_is_bound"]) == 0
+    names = [line.split()[0] for line in capsys.readouterr().out.splitlines() if line[:2] in ("x ", "n ")]
+    assert names == ["n"]
     assert main(["show", "--catalog", str(path), "x"]) == 0
     shown = capsys.readouterr().out
     assert "analysed band" in shown and "≥" in next(line for line in shown.splitlines() if line.startswith("srf_GHz"))
