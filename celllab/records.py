@@ -173,7 +173,7 @@ def corner_metrics(cell: CellResult, corner: str) -> dict[str, float]:
     the cell lacks raises ``KeyError``.
     """
     if corner in AGGREGATE_CORNERS:
-        out = {m.name: m.over_corners((c.metrics.get(m.name) for c in cell.corners), corner)  # type: ignore[arg-type]
+        out = {m.name: m.over_corners((c.metrics.get(m.name) for c in cell.corners), corner)
                for m in METRICS}
         for m in METRICS:
             if m.bounds:  # a bound flag follows the corner that gives its metric's extreme

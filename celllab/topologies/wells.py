@@ -50,22 +50,22 @@ def _junction(role: str, placement: str) -> str:
 
 
 def biased_wells(deck: Any, cells: Sequence[Any], geos: Sequence[Any],
-                 roles: Sequence[str]) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+                 roles: Sequence[str] | np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """(kinds (n_v,), area (n_v, 1) m^2, perimeter (n_v, 1) m) of each cell's biased well junction.
 
     ``roles``: per variant the device role (``characterization.mos.ROLES``) of a one-device cell,
     or ``BOTH_TYPES`` for a cell holding an NMOS and a PMOS. Rules in the module docstring.
     """
-    roles = [str(r) for r in roles]
+    names = [str(r) for r in roles]
     placement = [str(g.placement) for g in geos]
-    kinds = np.array([_junction(r, p) for r, p in zip(roles, placement)])
+    kinds = np.array([_junction(r, p) for r, p in zip(names, placement)])
     width = np.array([g.cell_width_um for g in geos]) * micro
     height = np.array([g.cell_height_um for g in geos]) * micro
     rows = np.array([c.height_rows for c in cells], dtype=float)
     row_h = deck.layout.row_height_um * micro
     h_n = deck.layout.nwell_half_um * micro
     core = np.array([p == "core_row" for p in placement])
-    both = np.array([r == BOTH_TYPES for r in roles])
+    both = np.array([r == BOTH_TYPES for r in names])
     tub = kinds == "deep_nwell"
     area = np.select([kinds == "", tub, core, both], [0.0, width * height, width * h_n * rows, width * row_h / 2 * rows],
                      width * height)
