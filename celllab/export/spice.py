@@ -27,7 +27,7 @@ import numpy as np
 
 from celllab import MODEL_VERSION, __version__
 from celllab.columns import unit_of
-from celllab.display import corner_conditions, format_value
+from celllab.display import corner_conditions, format_metric
 from celllab.export import CAUTION, atomic_write_text
 from celllab.physics.netlist import Element, Netlist, ladder_expansion, solve_impedance
 from celllab.records import CellResult, CornerResult
@@ -267,9 +267,10 @@ def _comment_lines(text: str) -> list[str]:
     return ["* " + indent + line for line in textwrap.wrap(flat, width=96)] or ["*"]
 
 
-def _metric_text(value: float, unit: str) -> str:
-    text = format_value(value, empty="n/a")
-    return text if text == "n/a" else f"{text} {unit}"
+def _metric_text(metrics: Mapping[str, Any], name: str) -> str:
+    """``name``'s value with its unit; a lower bound reads "≥value" (``display.format_metric``)."""
+    text = format_metric(metrics, name, empty="n/a")
+    return text if text == "n/a" else f"{text} {unit_of(name)}"
 
 
 def _max_freq(cell: CellResult) -> float | None:
@@ -405,7 +406,7 @@ def render_spice_subckt(
             f"corner {result.corner} ({corner_conditions(result.temperature_C, result.supply_V)}):"
         )
         header += [
-            f"  {m} = {_metric_text(result.metrics[m], unit_of(m))}"
+            f"  {m} = {_metric_text(result.metrics, m)}"
             for m in _HEADLINE_METRICS
             if m in result.metrics
         ]

@@ -76,6 +76,8 @@ class Candidate:
     esr, bandwidth : catalog ESR (ohm) and usable bandwidth (Hz) at the query corner (NaN if
     missing)
     record : the stored cell (every corner's Z(f), metrics and equivalent circuit)
+    bandwidth_is_bound : the catalog stores the bandwidth only as a lower bound (no cutoff or
+    resonance found up to it); plan reports carry the flag with the value
     """
 
     name: str
@@ -97,6 +99,7 @@ class Candidate:
     esr: float
     bandwidth: float
     record: CellResult
+    bandwidth_is_bound: bool = False
 
 
 @dataclass(frozen=True)
@@ -201,7 +204,8 @@ def load_candidates(block: BlockFile, catalog: Catalog, ctx: CatalogContext
             cap=float(row["cap_fF"]) * femto, leakage=float(row["leakage_nA"]) * nano,
             oxide_area=_oxide_area(record, ctx), corner_cap=caps, corner_leakage=leaks,
             pdn_corner=pdn_corner, esr=_number(row.get("esr_ohm")),
-            bandwidth=_number(row.get("bandwidth_GHz")) * giga, record=record))
+            bandwidth=_number(row.get("bandwidth_GHz")) * giga, record=record,
+            bandwidth_is_bound=bool(_number(row.get("bandwidth_is_bound")) == 1.0)))
     if not out:
         why = "; ".join(f"{n} {k}" for k, n in excluded.items() if n)
         raise PlanError([block.problem(

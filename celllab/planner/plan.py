@@ -550,7 +550,7 @@ def _assemble(block: BlockFile, prep: PreparedFill, solution: FillSolution,
     chosen = [ChosenCell(name=c.name, topology=c.topology, oxide=c.oxide, count=int(total[i]),
                          width_sites=c.width_sites, height_rows=c.height_rows, cap=c.cap,
                          leakage=c.leakage, esr=c.esr, bandwidth=c.bandwidth,
-                         z_corner=c.pdn_corner)
+                         z_corner=c.pdn_corner, bandwidth_is_bound=c.bandwidth_is_bound)
               for i, c in enumerate(cells) if total[i] > 0]
     notes: list[str] = []
     for i in np.flatnonzero(total).tolist():

@@ -88,6 +88,7 @@ class ChosenCell:
     esr: float
     bandwidth: float
     z_corner: str
+    bandwidth_is_bound: bool = False     # the bandwidth is only a lower bound (catalog flag)
 
 
 @dataclass(frozen=True)
@@ -424,7 +425,8 @@ def _summary(plan: BlockPlan) -> dict[str, Any]:
              "width_sites": c.width_sites, "height_rows": c.height_rows,
              "cap_fF": c.cap / femto, "total_cap_nF": c.count * c.cap / nano,
              "leakage_nA": c.leakage / nano, "total_leakage_uA": c.count * c.leakage / micro,
-             "esr_ohm": c.esr, "bandwidth_GHz": c.bandwidth / giga, "z_corner": c.z_corner}
+             "esr_ohm": c.esr, "bandwidth_GHz": c.bandwidth / giga,
+             "bandwidth_is_bound": c.bandwidth_is_bound, "z_corner": c.z_corner}
             for c in plan.cells],
         "pdn": _pdn_dict(plan),
         "notes": list(plan.notes),

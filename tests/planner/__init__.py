@@ -69,6 +69,8 @@ def _corner(cell: IdealCell, corner: str, cap_factor: float, leak_factor: float)
         cap_fF=cell.cap_fF * cap_factor, cap_density_fF_per_um2=cell.cap_fF * cap_factor / area,
         cap_ox_fF=cell.cap_fF * cap_factor, esr_ohm=cell.esr_ohm, esr_1GHz_ohm=cell.esr_ohm,
         bandwidth_GHz=(1 / (2 * np.pi * cell.esr_ohm * c_F) / 1e9 if cell.esr_ohm else 1e3),
+        # without an ESR there is no RC cutoff: 1000 GHz is only a lower bound, flagged as such
+        bandwidth_is_bound=0.0 if cell.esr_ohm else 1.0, srf_is_bound=0.0,
         esl_pH=0.0, leakage_nA=cell.leakage_nA * leak_factor,
         leakage_nA_per_nF=cell.leakage_nA * leak_factor / (cell.cap_fF * 1e-6),
     )

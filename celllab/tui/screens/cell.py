@@ -294,10 +294,10 @@ class CellScreen(TaskScreen):
                                   f"{format_number(c.supply_V)}V", justify="right"), key=c.corner)
         table.header_height = 2
         for info in METRICS:
-            values = [c.metrics.get(info.name) for c in cell.corners]
             name = Text(info.name)
             name.append(f" {info.arrow}", style="dim")
-            table.add_row(name, *[value_text(v) for v in values], key=info.name)
+            table.add_row(name, *[value_text(c.metrics.get(info.name), info.name, c.metrics) for c in cell.corners],
+                          key=info.name)
 
     # --- actions ------------------------------------------------------------------------
     def action_tab(self, step: int) -> None:

@@ -25,7 +25,7 @@ from textual.timer import Timer
 from textual.widgets import Footer, Input, Select, Static, TabbedContent, TabPane
 from textual.worker import get_current_worker
 
-from celllab.columns import METRICS, Column
+from celllab.columns import METRICS, Column, is_lower_bound
 from celllab.errors import CelllabError, Problem
 from celllab.records import CellResult, corner_metrics
 from celllab.topologies import REGISTRY
@@ -141,8 +141,12 @@ def compare_table(before: Mapping[str, float], after: Mapping[str, float] | None
         a = after.get(info.name) if after is not None else None
         name = Text(info.name)
         name.append(f" {info.arrow}", style="dim")
-        table.add_row(name, value_text(b), value_text(a) if after is not None else Text("–", style="dim"),
-                      change_text(b, a, info) if after is not None else Text(""))
+        # a lower bound on either side has no relative change to show
+        bound = is_lower_bound(before, info.name) or (after is not None and is_lower_bound(after, info.name))
+        change = Text("bound", style="dim", justify="right") if bound else change_text(b, a, info)
+        table.add_row(name, value_text(b, info.name, before),
+                      value_text(a, info.name, after) if after is not None else Text("–", style="dim"),
+                      change if after is not None else Text(""))
     return table
 
 

@@ -67,7 +67,7 @@ class CatalogTable(DataTable[Any]):
         self.row_offset = offset
         self.total = total
         self.add_rows(
-            [[value_text(row.get(c), c) for c in columns] for row in self.rows_shown]
+            [[value_text(row.get(c), c, row) for c in columns] for row in self.rows_shown]
         )
         if self.rows_shown:
             target = self._pending_cursor if self._pending_cursor is not None else keep_cursor

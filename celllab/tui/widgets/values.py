@@ -11,7 +11,7 @@ from typing import Any
 from rich.text import Text
 
 from celllab import display
-from celllab.columns import COLUMNS, TEXT_COLUMNS, unit_of
+from celllab.columns import COLUMNS, TEXT_COLUMNS, is_lower_bound, unit_of
 
 #: Identity columns of a catalog row, with how they read in a header.
 ID_COLUMNS: dict[str, str] = {name: column.description for name, column in TEXT_COLUMNS.items()}
@@ -46,8 +46,12 @@ def format_number(value: float, digits: int = 4) -> str:
     return display.format_number(value, digits, plain_range=display.PLAIN_RANGE)
 
 
-def value_text(value: Any, column: str = "") -> Text:
-    """A table cell: numbers right-aligned, booleans as yes/no, None as a dash."""
+def value_text(value: Any, column: str = "", row: Any = None) -> Text:
+    """A table cell: numbers right-aligned, booleans as yes/no, None as a dash.
+
+    With the cell's ``row`` (its column values), a value the row marks as only a lower bound
+    (``columns.is_lower_bound``) reads "≥value".
+    """
     if value is None:
         return Text("–", style="dim", justify="center")
     if isinstance(value, bool) or column == "esd_safe":
@@ -58,5 +62,6 @@ def value_text(value: Any, column: str = "") -> Text:
     if isinstance(value, float):
         if math.isnan(value):
             return Text("n/a", style="dim", justify="right")
-        return Text(format_number(value), justify="right")
+        bound = row is not None and is_lower_bound(row, column)
+        return Text((display.LOWER_BOUND if bound else "") + format_number(value), justify="right")
     return Text(str(value))
