@@ -8,7 +8,7 @@ import pytest
 CORE = [
     "celllab.physics.oxide", "celllab.physics.mos_cv", "celllab.physics.netlist", "celllab.physics.mom",
     "celllab.physics.circuits", "celllab.physics.cross_coupled", "celllab.physics.leakage",
-    "celllab.physics.tddb", "celllab.physics.esd", "celllab.physics.impedance",
+    "celllab.physics.tddb", "celllab.physics.esd", "celllab.physics.impedance", "celllab.physics.transient",
     "celllab.deck", "celllab.cells", "celllab.records", "celllab.engine", "celllab",
 ]
 FORBIDDEN = ["textual", "sqlite3", "sqlite_utils", "matplotlib", "celllab.catalog", "celllab.tui", "celllab.export"]
