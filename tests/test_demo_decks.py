@@ -135,7 +135,7 @@ def test_readme_documents_every_deck_field(deck_dir: Path, demo_deck_paths: dict
     readme = (deck_dir / "README.md").read_text(encoding="utf-8")
     models = [schema.Deck, schema.ProcessInfo, schema.OxideFlavour, schema.DeviceParams, schema.LeakageParams,
               schema.ReliabilityParams, schema.Wells, schema.Resistances, schema.MetalLayer, schema.Layout,
-              schema.Supplies, schema.Corner, CellSpec]
+              schema.Supplies, schema.Corner, schema.RailDomain, schema.Mission, CellSpec]
     def documented(model: type[BaseModel], name: str) -> bool:
         ann = model.model_fields[name].annotation
         if any(isinstance(a, type) and issubclass(a, BaseModel) for a in (ann, *typing.get_args(ann))):

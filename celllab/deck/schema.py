@@ -82,6 +82,8 @@ class ReliabilityParams(_Strict):
     acceleration_exponent: float = _f(0, 200, "power-law n (t ~ V^-n), E-model gamma (cm/MV) or "
                                       "1/E-model G (MV/cm), per the chosen model")
     activation_energy_eV: float = _f(0, 2.0, "Arrhenius activation energy, eV")
+    breakdown_spot_ohm: float = _f(1, 1e9, "resistance of a hard-breakdown spot through this oxide "
+                                   "(gate to channel), ohm", default=2000.0)
 
 
 class OxideFlavour(_Strict):
@@ -180,6 +182,37 @@ class Supplies(_Strict):
     io_V: float = _f(0.5, 12, "I/O supply, V", gt=True)
 
 
+class RailDomain(_Strict):
+    """Protection and supply of one rail domain (the core or I/O VDD-VSS pair)."""
+
+    clamp_on_V: float | None = _f(0.2, 50, "turn-on voltage of the domain's VDD-VSS ESD clamp, V; "
+                                  "omitted: 1.5 x the domain's nominal supply", default=None)
+    clamp_on_ohm: float = _f(0.01, 1000, "on-resistance of the clamp once triggered, ohm",
+                             default=1.0, gt=True)
+    clamp_response_ns: float = _f(0, 100, "time constant of the clamp's trigger (0: instantaneous), "
+                                  "ns", default=0.5)
+    clamp_diode_V: float = _f(0.1, 5, "turn-on of the clamp's reverse (VSS-to-VDD) diode, V",
+                              default=0.7)
+    rail_capacitance_pF: float = _f(0, 1e6, "capacitance between the domain's rails besides the "
+                                    "decap fill (wells, junctions, wiring, circuits), pF", default=100.0)
+    supply_source_ohm: float = _f(0, 1e3, "resistance from the supply through package and grid to a "
+                                  "cell, ohm", default=0.2)
+    fault_current_limit_mA: float = _f(0, 1e6, "largest extra DC current one broken oxide may draw "
+                                       "(supply current limit, standby budget or local rail "
+                                       "electromigration limit, the tightest), mA", default=10.0, gt=True)
+
+
+class Mission(_Strict):
+    """The life the gate oxides of a fill must survive."""
+
+    life_years: float = _f(0, 100, "operating life, years", default=10.0, gt=True)
+    temperature_C: float = _f(-55, 200, "junction temperature over the life, degC", default=105.0)
+    supply_scale: float | None = _f(0.5, 1.5, "supply over the life as a multiple of nominal; "
+                                    "omitted: the largest corner supply_scale", default=None)
+    target_ppm: float = _f(0, 1e6, "cumulative oxide failure fraction allowed over the life, ppm "
+                           "(sets the affordable gate area)", default=10.0, gt=True)
+
+
 class Corner(_Strict):
     temperature_C: float = _f(-55, 200, "junction temperature, degC")
     supply_scale: float = _f(0.5, 1.5, "supply multiplier at this corner (e.g. 1.1 = +10 %)", default=1.0)
@@ -200,6 +233,10 @@ class Deck(_Strict):
     layout: Layout
     supplies: Supplies
     corners: dict[str, Corner] = Field(min_length=1)
+    rails: dict[OxideName, RailDomain] = Field(default_factory=dict, description="ESD clamp and "
+                                               "supply of each rail domain; a missing domain takes "
+                                               "the defaults")
+    mission: Mission = Field(default_factory=Mission, description="oxide life profile")
 
     @model_validator(mode="after")
     def _core_required(self) -> "Deck":
@@ -232,6 +269,13 @@ class Deck(_Strict):
         if self.supplies.io_V < self.supplies.core_V:
             problems.append(("supplies.io_V", self.supplies.io_V,
                              f"must be at least core_V ({self.supplies.core_V:g} V)"))
+        for domain in self.rails:
+            # corner decks carry their scaled supply, so every corner is checked at its own
+            v_supply = self.supply_for(domain)
+            if self.clamp_on_V(domain) <= v_supply:
+                problems.append((f"rails.{domain}.clamp_on_V", self.clamp_on_V(domain),
+                                 f"must exceed the domain's supply ({v_supply:g} V), or the clamp "
+                                 "conducts in operation"))
         for corner_name in self.corners:
             if not corner_name.replace("_", "").replace("-", "").isalnum():
                 problems.append((f"corners.{corner_name}", corner_name, "corner names use letters, digits, _ and -"))
@@ -253,6 +297,21 @@ class Deck(_Strict):
     def supply_for(self, oxide: str) -> float:
         """Nominal supply seen by a cell of that oxide flavour, V."""
         return self.supplies.io_V if oxide == "io" else self.supplies.core_V
+
+    def rail(self, domain: str) -> RailDomain:
+        """Clamp and supply parameters of a rail domain ("core" or "io"), defaults if not given."""
+        return self.rails.get(domain, RailDomain())  # type: ignore[call-overload]
+
+    def clamp_on_V(self, domain: str) -> float:
+        """Clamp turn-on voltage of a domain, V (1.5 x its nominal supply unless given)."""
+        given = self.rail(domain).clamp_on_V
+        return given if given is not None else 1.5 * self.supply_for(domain)
+
+    def mission_supply_scale(self) -> float:
+        """Supply multiplier over the mission (the largest corner's unless given)."""
+        if self.mission.supply_scale is not None:
+            return self.mission.supply_scale
+        return max(c.supply_scale for c in self.corners.values())
 
     # --- conveniences implemented in celllab.deck.load ----------------------------------
     @property

@@ -842,7 +842,10 @@ def _prepare(netlist: Netlist, sources: Sequence[Source], nonlinear: Sequence[No
 
 def _initial_vector(system: _System, values: Mapping[str, ArrayLike] | None) -> FloatArray:
     x = np.zeros((system.n_var, system.n))
-    for name, value in (values or {}).items():
+    values = dict(values or {})
+    if "*" in values:
+        x[:, : system.n_nodes] = _vec(values.pop("*"), system.n_var, "initial voltage *")[:, None]
+    for name, value in values.items():
         if name not in system.index or system.index[name] < 0:
             raise ValueError(f"initial voltage for {name!r}: not a (non-ground) node")
         x[:, system.index[name]] = _vec(value, system.n_var, f"initial voltage {name}")
@@ -938,7 +941,8 @@ def simulate(
     nonlinear : sequence            `SquareLawChannel`, `DistributedChannel`, `RailClamp`,
                                     `NonlinearConductance`
     initial : {"zero", "dc"}        "zero": every unknown 0 except ``initial_voltages``
-                                    (node -> V, like SPICE ``.ic`` with ``uic``); "dc": the
+                                    (node -> V, like SPICE ``.ic`` with ``uic``; the key
+                                    ``"*"`` sets every node not listed); "dc": the
                                     operating point at t = 0 (``nodeset`` guides Newton)
     ground : str                    reference node (default: the netlist's second port)
     n_segments : int | None         ladder segments per RCLINE (None: the accuracy rule in the

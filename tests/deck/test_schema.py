@@ -24,7 +24,7 @@ DEMO = ("lumen130", "tarn40lp", "quill28hk")
 DECK_MODELS = [
     schema.ProcessInfo, schema.DeviceParams, schema.LeakageParams, schema.ReliabilityParams,
     schema.OxideFlavour, schema.Wells, schema.Resistances, schema.MetalLayer, schema.Layout,
-    schema.Supplies, schema.Corner, schema.Deck,
+    schema.Supplies, schema.Corner, schema.RailDomain, schema.Mission, schema.Deck,
 ]
 
 
