@@ -68,7 +68,7 @@ GMIN_S = 1e-12
 _MAX_NEWTON = 40
 _WOODBURY_ITERATIONS = 10
 _MAX_SPLIT_DEPTH = 8
-_ATOL, _RTOL = 1e-9, 1e-7
+_ATOL, _RTOL = 1e-8, 1e-6
 
 Polarity = Literal["n", "p"]
 
@@ -576,6 +576,15 @@ class _System:
         U[minus, np.arange(self.m)] -= 1.0
         self.U = U[:n]
         self.plus, self.minus = plus, minus
+        # every branch's controls padded to three with -1 (the ground column of x_ext)
+        self.controls = np.full((self.m, 3), -1)
+        self._slices: list[tuple[slice, int]] = []
+        start = 0
+        for fam in self.families:
+            size, k = fam.plus.size, fam.controls.shape[1]
+            self.controls[start : start + size, :k] = fam.controls
+            self._slices.append((slice(start, start + size), k))
+            start += size
         self._cache: dict[float | None, tuple[FloatArray, FloatArray, FloatArray]] = {}
 
     def _families(self, nonlinear: Sequence[SquareLawChannel | RailClamp | NonlinearConductance],
@@ -629,24 +638,18 @@ class _System:
 
     def evaluate(self, x: FloatArray) -> tuple[FloatArray, FloatArray, NDArray[np.int_]]:
         """Branch currents (n_var, m), gradients (n_var, m, 3) and control indices (m, 3)."""
-        x_ext = np.concatenate([x, np.zeros((x.shape[0], 1))], axis=1)
-        currents, grads, controls = [], [], []
-        for fam in self.families:
-            v = x_ext[:, fam.controls]
-            i, g = fam.law(v)
-            k = fam.controls.shape[1]
-            currents.append(np.broadcast_to(i, (x.shape[0], fam.plus.size)))
-            pad = np.zeros((x.shape[0], fam.plus.size, 3))
-            pad[..., :k] = g
-            grads.append(pad)
-            ctrl = np.full((fam.plus.size, 3), -1)
-            ctrl[:, :k] = fam.controls
-            controls.append(ctrl)
-        if not currents:
-            return (np.zeros((x.shape[0], 0)), np.zeros((x.shape[0], 0, 3)),
-                    np.zeros((0, 3), dtype=int))
-        return (np.concatenate(currents, axis=1), np.concatenate(grads, axis=1),
-                np.concatenate(controls, axis=0))
+        n_var = x.shape[0]
+        x_ext = np.empty((n_var, self.n + 1))
+        x_ext[:, : self.n] = x
+        x_ext[:, self.n] = 0.0
+        v = x_ext[:, self.controls]
+        currents = np.empty((n_var, self.m))
+        grads = np.zeros((n_var, self.m, 3))
+        for fam, (sl, k) in zip(self.families, self._slices):
+            i, g = fam.law(v[:, sl, :k])
+            currents[:, sl] = i
+            grads[:, sl, :k] = g
+        return currents, grads, self.controls
 
     def nonlinear_rows(self, currents: FloatArray) -> FloatArray:
         """f(x): the nonlinear currents scattered onto their rows, (n_var, n)."""
@@ -665,19 +668,21 @@ class _System:
     # -- linear algebra ------------------------------------------------------------------------
 
     def matrices(self, h: float | None) -> tuple[FloatArray, FloatArray, FloatArray]:
-        """(M, M^-1, M^-1 U) for a step h (None: DC)."""
+        """(M, M^-1, M^-1 U with a zero row appended) for a step h (None: DC)."""
         key = None if h is None else float(h)
         if key not in self._cache:
             M = self.G.copy() if h is None else self.G + self.C / (KAPPA * h)
             Minv = np.linalg.inv(M)
-            self._cache[key] = (M, Minv, Minv @ self.U)
+            mu = np.zeros((self.n_var, self.n + 1, self.m))
+            mu[:, : self.n] = Minv @ self.U
+            self._cache[key] = (M, Minv, mu)
         return self._cache[key]
 
     def newton(self, h: float | None, rhs: FloatArray, x0: FloatArray,
                limit_V: float | None = None, max_iter: int = _MAX_NEWTON
                ) -> tuple[FloatArray, NDArray[np.bool_], int]:
         """Solve M x + f(x) = rhs from x0; returns (x, converged per variant, iterations)."""
-        M, Minv, MinvU = self.matrices(h)
+        M, Minv, mu_ext = self.matrices(h)
         x = x0.copy()
         n_var = x.shape[0]
         done = np.zeros(n_var, dtype=bool)
@@ -689,13 +694,12 @@ class _System:
             if self.m == 0:
                 dx = np.einsum("vij,vj->vi", Minv, resid)
             elif it <= _WOODBURY_ITERATIONS:
-                y = np.einsum("vij,vj->vi", Minv, resid)
-                y_ext = np.concatenate([y, np.zeros((n_var, 1))], axis=1)
-                wy = np.sum(grads * y_ext[:, controls], axis=2)
-                mu_ext = np.concatenate([MinvU, np.zeros((n_var, 1, self.m))], axis=1)
+                y_ext = np.zeros((n_var, self.n + 1))
+                y_ext[:, : self.n] = np.einsum("vij,vj->vi", Minv, resid)
+                wy = np.einsum("vjk,vjk->vj", grads, y_ext[:, controls])
                 S = eye + np.einsum("vjk,vjkl->vjl", grads, mu_ext[:, controls, :])
                 z = np.linalg.solve(S, wy[..., None])[..., 0]
-                dx = y - np.einsum("vil,vl->vi", MinvU, z)
+                dx = y_ext[:, : self.n] - np.einsum("vil,vl->vi", mu_ext[:, : self.n], z)
             else:
                 W = np.zeros((n_var, self.m, self.n + 1))
                 rows = np.repeat(np.arange(self.m), 3)
