@@ -179,7 +179,8 @@ def junction_capacitance_per_area(
     -----
     C_j = sqrt(q eps_si N / (2 (V_bi + V_R - 2 kT/q))), V_bi = (kT/q) ln(N N_heavy / n_i^2)
     (one-sided abrupt junction, Sze & Ng 2007 §2.3, eqs. 2.10-2.26 with the majority-carrier
-    correction 2 kT/q). Valid in the depletion approximation, below forward bias.
+    correction 2 kT/q). N = 1e17, N_heavy = 1e20 cm^-3, n_i = 1e10 cm^-3, 300 K: V_bi = 1.012 V,
+    9.30e-4 F/m^2 at 0 V. Valid in the depletion approximation, below forward bias.
     """
     vt = thermal_voltage(temperature)
     ni = _n_i(temperature, n_i)
