@@ -41,6 +41,10 @@ OXIDE_LINES: dict[str, dict[str, str]] = {
 #: Source/drain diffusion doping assumed for junction capacitances, m^-3 (1e20 cm^-3; typical
 #: of a degenerate diffusion, common practice, no source).
 DIFFUSION_DOPING = 1e26
+#: Drain-to-well leakage of the pair's devices in DC analyses, ohm: a stand-in (far above real
+#: junction leakage, far below any fault current) that pulls each drain toward its own well, as
+#: reverse junction leakage does, so the DC state of a pair whose device is off is defined.
+DRAIN_LEAKAGE_OHM = 1e9
 #: Smallest overdrive accepted for the pair's square law at its operating point, V.
 MIN_OVERDRIVE_V = 0.05
 #: Frequencies at which the characterization is run here (only the circuits are used).
@@ -61,7 +65,8 @@ class OxideRiskInputs:
     gate_area: dict[str, np.ndarray]  # m^2 per oxide
     v_gate: dict[str, np.ndarray]     # operating gate-to-body voltage magnitude per oxide, V
     v_bd_pulse: np.ndarray
-    supply: np.ndarray
+    supply: np.ndarray                # the corner's supply of the cell's domain, V
+    nominal_supply: np.ndarray        # the domain's nominal supply, V
     protection: RailProtection
     series_rc: np.ndarray             # s
     spot_ohm: np.ndarray
@@ -71,7 +76,8 @@ class OxideRiskInputs:
     temperature_K: np.ndarray
     reliability: dict[str, np.ndarray]
     channels: tuple[DistributedChannel, ...] = ()
-    extra_elements: tuple[Element, ...] = ()
+    extra_elements: tuple[Element, ...] = ()    # added for transients (junction capacitances)
+    dc_elements: tuple[Element, ...] = ()       # added for DC analyses (drain leakage)
     nodeset: dict[str, np.ndarray] = field(default_factory=dict)
     flags: list[list[str]] = field(default_factory=list)  # per row
 
@@ -125,7 +131,8 @@ def _protection(deck: Any, corners: CornerSet, flavour: np.ndarray, supply: np.n
 
 def _pair_devices(deck: Any, corners: CornerSet, out: Any, cells: list[Any], geos: list[Any],
                   flavour: np.ndarray) -> tuple[tuple[DistributedChannel, ...], tuple[Element, ...],
-                             dict[str, np.ndarray], list[list[str]]]:
+                                                tuple[Element, ...], dict[str, np.ndarray],
+                                                list[list[str]]]:
     """Square-law channels, drain junctions and the both-on guess of the pair's devices."""
     n_v, n_c = out.n_variant, out.n_corner
     net = out.netlist
@@ -168,10 +175,12 @@ def _pair_devices(deck: Any, corners: CornerSet, out: Any, cells: list[Any], geo
     assert mn.node_far is not None and mp.node_far is not None
     extra = (Element("C", "esd_cj_n", mn.node_far, mn.node_a, c_j_n),
              Element("C", "esd_cj_p", mp.node_far, mp.node_a, c_j_p))
+    leaks = (Element("R", "dc_leak_n", mn.node_far, mn.node_a, DRAIN_LEAKAGE_OHM),
+             Element("R", "dc_leak_p", mp.node_far, mp.node_a, DRAIN_LEAKAGE_OHM))
     vdd = _rows(supply, n_v, n_c)
     guess = {mn.node_far: np.zeros_like(vdd), mp.node_far: vdd, mn.node_b: vdd,
              mp.node_b: np.zeros_like(vdd)}
-    return channels, extra, guess, flags
+    return channels, extra, leaks, guess, flags
 
 
 def _series_rc(topology: str, net: Netlist) -> np.ndarray:
@@ -243,16 +252,19 @@ def _inputs(deck: Any, corners: CornerSet, topology: str, out: Any, positions: l
     flags: list[list[str]] = [[] for _ in range(n_v * n_c)]
     channels: tuple[DistributedChannel, ...] = ()
     extra: tuple[Element, ...] = ()
+    leaks: tuple[Element, ...] = ()
     nodeset: dict[str, np.ndarray] = {}
     if topology == "cross_coupled":
-        channels, extra, nodeset, flags = _pair_devices(deck, corners, out, cells, geos, flavour)
+        channels, extra, leaks, nodeset, flags = _pair_devices(deck, corners, out, cells, geos,
+                                                               flavour)
     return OxideRiskInputs(
         topology=topology, cells=cells, positions=positions, corners=list(corners.names),
         netlist=out.netlist, oxides=dict(oxides), flavour=flavour, gate_area=gate_area,
         v_gate=v_gate, v_bd_pulse=_rows(out.vbd_pulse_V, n_v, n_c), supply=supply,
+        nominal_supply=_rows(np.array([deck.supply_for(str(f)) for f in flavour])[:, None], n_v, n_c),
         protection=prot, series_rc=(_series_rc(topology, out.netlist) if oxides
                                     else np.full(n_v * n_c, np.nan)),
         spot_ohm=rel.pop("breakdown_spot_ohm"), source_ohm=source, fault_limit_A=limit,
         eot=_rows(corners.oxide_table("eot_m", flavour), n_v, n_c),
         temperature_K=_rows(corners.temperature_K[None, :], n_v, n_c), reliability=rel,
-        channels=channels, extra_elements=extra, nodeset=nodeset, flags=flags)
+        channels=channels, extra_elements=extra, dc_elements=leaks, nodeset=nodeset, flags=flags)

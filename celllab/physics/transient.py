@@ -897,16 +897,34 @@ def operating_point(
     -----
     Newton iteration with node-voltage updates limited to 1 V per iteration (common practice
     in SPICE-like solvers, no source); nodes reached only through capacitors settle at 0 V
-    through gmin.
+    through gmin. `operating_point_status` returns the values with a per-variant
+    convergence flag instead of raising.
     """
+    values, ok = operating_point_status(netlist, sources, nonlinear, t=t, nodeset=nodeset,
+                                        ground=ground, n_segments=n_segments, gmin=gmin)
+    if not np.all(ok):
+        bad = np.flatnonzero(~ok)[:10].tolist()
+        raise RuntimeError(f"operating point did not converge for variants {bad}")
+    return values
+
+
+def operating_point_status(
+    netlist: Netlist,
+    sources: Sequence[Source] = (),
+    nonlinear: Sequence[Nonlinear] = (),
+    *,
+    t: float = 0.0,
+    nodeset: Mapping[str, ArrayLike] | None = None,
+    ground: str | None = None,
+    n_segments: int = 4,
+    gmin: float = GMIN_S,
+) -> tuple[dict[str, FloatArray], NDArray[np.bool_]]:
+    """`operating_point` values and a (n_variant,) bool: Newton converged for that variant."""
     system, _, _ = _prepare(netlist, sources, nonlinear, ground, n_segments, 1.0, gmin)
     rhs = system.rhs(system.source_values(np.array([float(t)]))[..., 0])
     x0 = _initial_vector(system, nodeset)
     x, ok, _ = system.newton(None, rhs, x0, limit_V=1.0, max_iter=200)
-    if not np.all(ok):
-        bad = np.flatnonzero(~ok)[:10].tolist()
-        raise RuntimeError(f"operating point did not converge for variants {bad}")
-    return {label: x[:, k] for k, label in enumerate(system.labels)}
+    return {label: x[:, k] for k, label in enumerate(system.labels)}, ok
 
 
 def simulate(
@@ -1083,6 +1101,7 @@ __all__ = [
     "constant",
     "expand",
     "operating_point",
+    "operating_point_status",
     "piecewise_grid",
     "pwl",
     "simulate",
