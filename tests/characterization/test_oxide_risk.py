@@ -9,6 +9,11 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from physics.ngspice_util import (  # tests/physics
+    dc_operating_point,
+    render_transient,
+    require_ngspice,
+)
 from scipy.constants import hour, micro, year, zero_Celsius
 from scipy.stats import weibull_min
 
@@ -17,7 +22,6 @@ from celllab.characterization.oxide_risk import MissionProfile, fault_circuit, o
 from celllab.characterization.risk_inputs import OxideRiskInputs, gather
 from celllab.deck import load_deck
 from celllab.physics import transient as tr
-from physics.ngspice_util import dc_operating_point, render_transient, require_ngspice  # tests/physics
 
 DECK_DIR = Path(__file__).resolve().parents[2] / "process_decks"
 DEMO_DECKS = ("lumen130", "tarn40lp", "quill28hk")
