@@ -64,6 +64,8 @@ class OxideRiskInputs:
     flavour: np.ndarray               # (n_variant,) oxide flavour names
     gate_area: dict[str, np.ndarray]  # m^2 per oxide
     v_gate: dict[str, np.ndarray]     # operating gate-to-body voltage magnitude per oxide, V
+    cell_area_m2: np.ndarray          # (n_variant,) footprint of one cell
+    c_cell: np.ndarray                # low-frequency capacitance of one cell, F
     v_bd_pulse: np.ndarray
     supply: np.ndarray                # the corner's supply of the cell's domain, V
     nominal_supply: np.ndarray        # the domain's nominal supply, V
@@ -260,7 +262,9 @@ def _inputs(deck: Any, corners: CornerSet, topology: str, out: Any, positions: l
     return OxideRiskInputs(
         topology=topology, cells=cells, positions=positions, corners=list(corners.names),
         netlist=out.netlist, oxides=dict(oxides), flavour=flavour, gate_area=gate_area,
-        v_gate=v_gate, v_bd_pulse=_rows(out.vbd_pulse_V, n_v, n_c), supply=supply,
+        v_gate=v_gate, cell_area_m2=np.array([g.area_um2 for g in geos]) * micro**2,
+        c_cell=_rows(out.summary["c_lf_F"], n_v, n_c),
+        v_bd_pulse=_rows(out.vbd_pulse_V, n_v, n_c), supply=supply,
         nominal_supply=_rows(np.array([deck.supply_for(str(f)) for f in flavour])[:, None], n_v, n_c),
         protection=prot, series_rc=(_series_rc(topology, out.netlist) if oxides
                                     else np.full(n_v * n_c, np.nan)),
