@@ -34,10 +34,10 @@ from celllab.physics import esd
 from celllab.physics.constants import FloatArray
 from celllab.physics.netlist import Element, Netlist
 from celllab.physics.transient import (
+    LADDER_X_MAX,
     DistributedChannel,
     RailClamp,
     VoltageSource,
-    auto_segments,
     constant,
     operating_point,
     piecewise_grid,
@@ -152,7 +152,8 @@ class EventResult:
     margin : (n_rows, n_ox)           V_BD,pulse / |peak V_ox| (> 1: survives)
     v_bd_pulse : (n_rows,)
     converged : (n_rows,) bool        every Newton iteration converged
-    n_segments : int                  ladder segments per channel line
+    n_segments : int                  ladder segments per channel line (`event_segments`)
+    segments_capped : bool            the ladder rule wanted more than `MAX_EVENT_SEGMENTS`
     """
 
     event: EsdEvent
@@ -168,6 +169,7 @@ class EventResult:
     v_bd_pulse: FloatArray
     converged: NDArray[np.bool_]
     n_segments: int
+    segments_capped: bool = False
 
     @property
     def worst_margin(self) -> FloatArray:
@@ -225,6 +227,28 @@ class EventCircuit:
     probes: dict[str, str]
     n_rows: int
     v_bd_pulse: FloatArray
+    segments_capped: bool = False
+
+
+#: Ladder segments per channel line in an event: between 2 and this many.
+MAX_EVENT_SEGMENTS = 32
+
+
+def event_segments(netlist: Netlist, edge_time: float) -> tuple[int, bool]:
+    """Ladder segments for the RC lines of an event circuit, and whether the cap was hit.
+
+    N = ceil(sqrt(R C / (0.03 t_edge))) over every line and row: omega R C / N^2 <= 0.03 at
+    omega = 1 / t_edge (the accuracy rule of `physics.transient`, applied at the event's edge
+    rather than at its step), between 2 and `MAX_EVENT_SEGMENTS`. A capped ladder resolves a
+    channel whose R C is far above the edge only coarsely near its contacts, where its oxide
+    is stressed first.
+    """
+    lines = [el for el in netlist.elements if el.kind == "RCLINE"]
+    if not lines:
+        return 1, False
+    rc = max(float(np.max(np.asarray(el.value) * np.asarray(el.c_total))) for el in lines)
+    need = int(np.ceil(np.sqrt(rc / (LADDER_X_MAX * edge_time))))
+    return int(np.clip(need, 2, MAX_EVENT_SEGMENTS)), need > MAX_EVENT_SEGMENTS
 
 
 def event_circuit(
@@ -253,7 +277,7 @@ def event_circuit(
     nonlinear = (clamp, *channels)
     grid = (event_grid(event, float(np.max(p["t_response"]))) if t_points is None
             else np.asarray(t_points, dtype=float))
-    n_seg = max(auto_segments(chip, float(np.min(np.diff(grid))))[0], 1)
+    n_seg, capped = event_segments(chip, event.edge_time)
     if event.model == "hbm":
         source = esd.hbm_network(event.sign * event.voltage, event.edge_time, pin, ref)
         initial: dict[str, ArrayLike] = {}
@@ -269,7 +293,8 @@ def event_circuit(
     probes.update({f"ox:{label}": f"vc({line})" for label, line in oxides.items()})
     return EventCircuit(
         Netlist(chip.name, (*chip.elements, *source.elements), chip.ports), nonlinear, initial,
-        source.ground, grid, n_seg, probes, n_rows, _rows(v_bd_pulse, n_rows, "v_bd_pulse"))
+        source.ground, grid, n_seg, probes, n_rows, _rows(v_bd_pulse, n_rows, "v_bd_pulse"),
+        capped)
 
 
 def simulate_event(
@@ -345,6 +370,7 @@ def simulate_event(
         v_bd_pulse=v_bd,
         converged=np.broadcast_to(res.converged, (n_rows,)).copy(),
         n_segments=res.n_segments,
+        segments_capped=circuit.segments_capped,
     )
 
 

@@ -352,7 +352,11 @@ def esd_exposure(deck: Any, cells: Sequence[Any], *,
             res = esd_events.simulate_event(g.netlist, ev, prot, g.oxides, g.v_bd_pulse,
                                              channels=g.channels, extra_elements=g.extra_elements,
                                              nodeset=g.nodeset)
-            per_event.append((res, esd_events.shielding_notes(res, g.series_rc, g.pair)))
+            notes = esd_events.shielding_notes(res, g.series_rc, g.pair)
+            if res.segments_capped:
+                notes = [n + f"; channel R*C far above the edge: {res.n_segments}-segment ladder, "
+                         "the oxide next to the contacts may see more" for n in notes]
+            per_event.append((res, notes))
         runs = [res for res, _ in per_event]
         # (n_event, rows) figures of the worst oxide of each row
         worst = np.stack([_worst_oxide(r) for r in runs])[..., None]

@@ -18,10 +18,10 @@ order and L-stable, so stiff parts (ps channel RC under a ns step) are damped in
 ringing as under plain trapezoidal integration; rows without capacitance or inductance
 (algebraic constraints) are enforced at every stage end. Both stages share the matrix
 ``M = G + C / (kappa h)``, kappa = gamma / 2, whose inverse is formed once per distinct step
-for all variants (batched). Nonlinear elements enter by Newton iteration at every stage; their
-Jacobian is a low-rank update of M (each element is one current path), applied through the
-Sherman-Morrison-Woodbury identity with the cached inverse, with a dense batched solve as a
-fallback. A step whose Newton iteration does not converge is split in halves (up to 8 levels).
+for all variants (batched). Nonlinear elements enter by chord (modified Newton) iteration at
+every stage: the inverse of M plus their Jacobian is kept across iterations, stages and steps
+and formed again (batched) when an iteration contracts too slowly. A step whose iteration does
+not converge is split in halves (up to 8 levels).
 
 RCLINE elements become N-segment midpoint ladders (`ladder_expansion`). Unless given, N is
 the smallest number with omega R C / N^2 <= 0.03 at omega = 1 / (10 h_min) for every line and
@@ -66,7 +66,6 @@ BRANCH_OHM = 1e-3
 GMIN_S = 1e-12
 """Conductance from every node to ground (keeps capacitively floating nodes defined)."""
 _MAX_NEWTON = 40
-_WOODBURY_ITERATIONS = 10
 _MAX_SPLIT_DEPTH = 8
 _ATOL, _RTOL = 1e-8, 1e-6
 
@@ -585,7 +584,8 @@ class _System:
             self.controls[start : start + size, :k] = fam.controls
             self._slices.append((slice(start, start + size), k))
             start += size
-        self._cache: dict[float | None, tuple[FloatArray, FloatArray, FloatArray]] = {}
+        self._cache: dict[float | None, tuple[FloatArray, FloatArray | None]] = {}
+        self._chord: dict[float | None, FloatArray] = {}
 
     def _families(self, nonlinear: Sequence[SquareLawChannel | RailClamp | NonlinearConductance],
                   clamps: Sequence[RailClamp]) -> list[_Family]:
@@ -667,57 +667,79 @@ class _System:
 
     # -- linear algebra ------------------------------------------------------------------------
 
-    def matrices(self, h: float | None) -> tuple[FloatArray, FloatArray, FloatArray]:
-        """(M, M^-1, M^-1 U with a zero row appended) for a step h (None: DC)."""
+    def matrices(self, h: float | None) -> tuple[FloatArray, FloatArray | None]:
+        """(M, M^-1) for a step h (None: DC); the inverse only for linear circuits."""
         key = None if h is None else float(h)
         if key not in self._cache:
             M = self.G.copy() if h is None else self.G + self.C / (KAPPA * h)
-            Minv = np.linalg.inv(M)
-            mu = np.zeros((self.n_var, self.n + 1, self.m))
-            mu[:, : self.n] = Minv @ self.U
-            self._cache[key] = (M, Minv, mu)
+            self._cache[key] = (M, None if self.m else np.linalg.inv(M))
         return self._cache[key]
+
+    def jacobian_inverse(self, h: float | None, grads: FloatArray) -> FloatArray:
+        """(M + d f / d x)^-1 at the given branch gradients, cached as the chord matrix."""
+        M = self.matrices(h)[0]
+        n_var = grads.shape[0]
+        J = np.zeros((n_var, self.n + 1, self.n + 1))
+        J[:, : self.n, : self.n] = M
+        ctrl = self.controls.reshape(-1)
+        for rows, sign in ((self.plus, 1.0), (self.minus, -1.0)):
+            np.add.at(J, (slice(None), np.repeat(rows, 3), ctrl), sign * grads.reshape(n_var, -1))
+        inverse = np.linalg.inv(J[:, : self.n, : self.n])
+        self._chord[None if h is None else float(h)] = inverse
+        return inverse
 
     def newton(self, h: float | None, rhs: FloatArray, x0: FloatArray,
                limit_V: float | None = None, max_iter: int = _MAX_NEWTON
                ) -> tuple[FloatArray, NDArray[np.bool_], int]:
-        """Solve M x + f(x) = rhs from x0; returns (x, converged per variant, iterations)."""
-        M, Minv, mu_ext = self.matrices(h)
+        """Solve M x + f(x) = rhs from x0; returns (x, converged per variant, iterations).
+
+        Linear circuits: one solve and one refinement with the cached inverse of M. Nonlinear:
+        chord (modified Newton) iteration with a Jacobian inverse kept across iterations, stages
+        and steps of the same h, formed again whenever an iteration contracts by less than half
+        (common practice in stiff integrators, e.g. Hairer & Wanner, Solving ODEs II, IV.8).
+        """
+        M, Minv = self.matrices(h)
         x = x0.copy()
         n_var = x.shape[0]
         done = np.zeros(n_var, dtype=bool)
-        eye = np.eye(self.m)
+        key = None if h is None else float(h)
+        chord = self._chord.get(key) if self.m else Minv
+        previous = np.full(n_var, np.inf)
+        fresh = False
         it = 0
         for it in range(1, max_iter + 1):
-            currents, grads, controls = self.evaluate(x)
-            resid = np.einsum("vij,vj->vi", M, x) - rhs + self.nonlinear_rows(currents)
-            if self.m == 0:
-                dx = np.einsum("vij,vj->vi", Minv, resid)
-            elif it <= _WOODBURY_ITERATIONS:
-                y_ext = np.zeros((n_var, self.n + 1))
-                y_ext[:, : self.n] = np.einsum("vij,vj->vi", Minv, resid)
-                wy = np.einsum("vjk,vjk->vj", grads, y_ext[:, controls])
-                S = eye + np.einsum("vjk,vjkl->vjl", grads, mu_ext[:, controls, :])
-                z = np.linalg.solve(S, wy[..., None])[..., 0]
-                dx = y_ext[:, : self.n] - np.einsum("vil,vl->vi", mu_ext[:, : self.n], z)
-            else:
-                W = np.zeros((n_var, self.m, self.n + 1))
-                rows = np.repeat(np.arange(self.m), 3)
-                np.add.at(W, (slice(None), rows, controls.reshape(-1)),
-                          grads.reshape(n_var, -1))
-                J = M + self.U @ W[..., : self.n]
-                dx = np.linalg.solve(J, resid[..., None])[..., 0]
+            with np.errstate(over="ignore", invalid="ignore"):
+                currents, grads, _ = self.evaluate(x)
+                resid = np.einsum("vij,vj->vi", M, x) - rhs + self.nonlinear_rows(currents)
+            if chord is None:
+                chord = self.jacobian_inverse(h, np.nan_to_num(grads))
+                fresh = True
+            dx = np.einsum("vij,vj->vi", chord, resid)
             if limit_V is not None:
                 worst = np.max(np.abs(dx[:, : self.n_nodes]), axis=1, initial=0.0)
                 dx *= np.minimum(1.0, limit_V / np.maximum(worst, 1e-300))[:, None]
-            x = x - dx
-            small = np.all(np.abs(dx) <= _ATOL + _RTOL * np.abs(x), axis=1)
-            if self.m == 0 and it >= 2:
-                done[:] = True
-                break
-            done = small & np.all(np.isfinite(x), axis=1)
+            if self.m == 0:
+                x = x - dx
+                if it >= 2:
+                    done[:] = True
+                    break
+                continue
+            with np.errstate(over="ignore", invalid="ignore"):
+                scaled = np.max(np.abs(dx) / (_ATOL + _RTOL * np.abs(x)), axis=1)
+            scaled = np.where(np.isfinite(scaled), scaled, np.inf)
+            growing = (scaled > previous) & ~done
+            if np.any(growing) and not fresh:
+                # a stale chord diverges: keep x, form the Jacobian here and try again
+                chord = None
+                continue
+            x = x - np.where(np.isfinite(dx), dx, 0.0)
+            done = (scaled <= 1.0) & np.all(np.isfinite(x), axis=1)
             if np.all(done):
                 break
+            if np.any((scaled > 0.5 * previous) & ~done):
+                chord = None  # slow contraction: the Jacobian moved, form it again
+            previous = scaled
+            fresh = False
         return x, done, it
 
     # -- sources -------------------------------------------------------------------------------
