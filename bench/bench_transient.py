@@ -87,7 +87,7 @@ def _case_esd(topology: str, n_cells: int) -> tuple[str, int, int, float, float,
                          extra_elements=g.extra_elements)
     ours = time.perf_counter() - t0
     prot = RailProtection(*(float(np.asarray(getattr(g.protection, f)).reshape(-1)[0])
-                            for f in ("v_on", "r_on", "t_response", "v_diode", "c_rail", "v_supply")))
+                            for f in ("v_on", "r_on", "t_response", "v_diode", "c_rail", "v_supply", "r_diode")))
 
     def first(v: object) -> object:
         return None if v is None else float(np.asarray(v).reshape(-1)[0])

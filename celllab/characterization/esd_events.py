@@ -126,6 +126,7 @@ class RailProtection:
     v_on, r_on, t_response, v_diode : array_like   clamp (see `physics.transient.RailClamp`)
     c_rail : array_like     capacitance between the rails besides the cell, F
     v_supply : array_like   the domain's supply (powered events), V
+    r_diode : array_like | None   the clamp's reverse-diode resistance, ohm (None: r_on)
     """
 
     v_on: ArrayLike
@@ -134,6 +135,7 @@ class RailProtection:
     v_diode: ArrayLike
     c_rail: ArrayLike
     v_supply: ArrayLike
+    r_diode: ArrayLike | None = None
 
 
 @dataclass(frozen=True)
@@ -273,7 +275,9 @@ def event_circuit(
         (*netlist.elements, *extra_elements, Element("C", "esd_rail_c", pin, ref, p["c_rail"])),
         netlist.ports,
     )
-    clamp = esd.rail_clamp(p["v_on"], p["r_on"], p["t_response"], p["v_diode"], pin, ref)
+    r_diode = p["r_on"] if protection.r_diode is None else _rows(protection.r_diode, n_rows,
+                                                                    "protection.r_diode")
+    clamp = esd.rail_clamp(p["v_on"], p["r_on"], p["t_response"], p["v_diode"], pin, ref, r_diode)
     nonlinear = (clamp, *channels)
     grid = (event_grid(event, float(np.max(p["t_response"]))) if t_points is None
             else np.asarray(t_points, dtype=float))

@@ -35,9 +35,10 @@ CAUTION = ("Estimates for comparing cells and fills, not qualification: follow t
 MM2 = milli**2
 DEFAULT_EVENTS: tuple[EsdEvent, ...] = (
     EsdEvent("hbm", 2000.0), EsdEvent("hbm", 2000.0, "negative"),
-    EsdEvent("cdm", 500.0), EsdEvent("cdm", 500.0, "negative"),
+    EsdEvent("cdm", 250.0), EsdEvent("cdm", 250.0, "negative"),
 )
-"""HBM 2 kV and CDM 500 V in both polarities, unpowered."""
+"""HBM 2 kV and CDM 250 V (common component-level targets, from memory) in both polarities,
+unpowered."""
 
 
 @dataclass(frozen=True)
@@ -306,7 +307,7 @@ def esd_exposure(deck: Any, cells: Sequence[Any], *,
     Parameters
     ----------
     deck, cells, corners : as for `fill_oxide_risk`
-    events : sequence of EsdEvent   default `DEFAULT_EVENTS` (HBM 2 kV, CDM 500 V, both
+    events : sequence of EsdEvent   default `DEFAULT_EVENTS` (HBM 2 kV, CDM 250 V, both
                                     polarities, unpowered)
     fill_mm2 : None | float | mapping
         the decap fill on the same rails, whose capacitance adds to the deck's

@@ -125,6 +125,8 @@ def _protection(deck: Any, corners: CornerSet, flavour: np.ndarray, supply: np.n
         v_diode=_rows(table(lambda d, f: d.rail(f).clamp_diode_V), n_v, n_c),
         c_rail=_rows(table(lambda d, f: d.rail(f).rail_capacitance_pF) * pico, n_v, n_c),
         v_supply=supply,
+        r_diode=_rows(table(lambda d, f: d.rail(f).clamp_diode_ohm if d.rail(f).clamp_diode_ohm
+                            is not None else d.rail(f).clamp_on_ohm), n_v, n_c),
     )
     source = _rows(table(lambda d, f: d.rail(f).supply_source_ohm), n_v, n_c)
     limit = _rows(table(lambda d, f: d.rail(f).fault_current_limit_mA) * milli, n_v, n_c)

@@ -193,6 +193,8 @@ class RailDomain(_Strict):
                                   "ns", default=0.5)
     clamp_diode_V: float = _f(0.1, 5, "turn-on of the clamp's reverse (VSS-to-VDD) diode, V",
                               default=0.7)
+    clamp_diode_ohm: float | None = _f(0.01, 1000, "on-resistance of the clamp's reverse diode, ohm; "
+                                       "omitted: clamp_on_ohm", default=None, gt=True)
     rail_capacitance_pF: float = _f(0, 1e6, "capacitance between the domain's rails besides the "
                                     "decap fill (wells, junctions, wiring, circuits), pF", default=100.0)
     supply_source_ohm: float = _f(0, 1e3, "resistance from the supply through package and grid to a "

@@ -327,9 +327,10 @@ def rail_clamp(
     v_diode: ArrayLike = 0.7,
     pos: str = "vdd",
     neg: str = "vss",
+    r_diode: ArrayLike | None = None,
 ) -> RailClamp:
     """The supply clamp between the rails (see `celllab.physics.transient.RailClamp`)."""
-    return RailClamp("esd_clamp", pos, neg, v_on, r_on, t_response, v_diode)
+    return RailClamp("esd_clamp", pos, neg, v_on, r_on, t_response, v_diode, r_diode)
 
 
 def series_rlc_discharge_current(

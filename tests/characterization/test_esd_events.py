@@ -81,7 +81,7 @@ def _one_row(g: OxideRiskInputs, row: int = 0):
     """The inputs of one row, as plain scalars (a one-variant circuit for ngspice)."""
     net = g.netlist.variant(row)
     prot = RailProtection(*(float(np.asarray(getattr(g.protection, f)).reshape(-1)[row])
-                            for f in ("v_on", "r_on", "t_response", "v_diode", "c_rail", "v_supply")))
+                            for f in ("v_on", "r_on", "t_response", "v_diode", "c_rail", "v_supply", "r_diode")))
 
     def pick(v):
         return None if v is None else float(np.asarray(v).reshape(-1)[row]) if np.size(v) > 1 else v
