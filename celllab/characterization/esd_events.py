@@ -23,8 +23,8 @@ rules, ANSI/ESDA/JEDEC JS-001 / JS-002 testing and licensed practice.
 
 from __future__ import annotations
 
-from collections.abc import Mapping, Sequence
-from dataclasses import dataclass
+from collections.abc import Callable, Mapping, Sequence
+from dataclasses import dataclass, replace
 from typing import Literal
 
 import numpy as np
@@ -154,8 +154,8 @@ class EventResult:
     margin : (n_rows, n_ox)           V_BD,pulse / |peak V_ox| (> 1: survives)
     v_bd_pulse : (n_rows,)
     converged : (n_rows,) bool        every Newton iteration converged
-    n_segments : int                  ladder segments per channel line (`event_segments`)
-    segments_capped : bool            the ladder rule wanted more than `MAX_EVENT_SEGMENTS`
+    n_segments : int                  largest ladder per channel line (`row_segments`)
+    segments_capped : bool            some row wanted more than `MAX_EVENT_SEGMENTS`
     """
 
     event: EsdEvent
@@ -190,17 +190,20 @@ class EventResult:
 
 
 def event_grid(event: EsdEvent, t_response_max: float = 0.0) -> FloatArray:
-    """The time grid of an event, s: fine over the edge, coarser over the tail.
+    """The time grid of an event, s: finest where the clamp turns on, coarser over the tail.
 
-    Steps of the edge time / 40 (and at most a tenth of the clamp's response time) over ten
-    edge times; HBM then 0.5 ns to 100 ns and 2.5 ns to 600 ns (four 150 ns decay constants);
-    CDM then 20 ps to 10 ns.
+    Steps of the edge time / 40, and over the first three edge times (where the rail crosses
+    the clamp's turn-on) at most a tenth of the clamp's response time, up to ten edge times;
+    HBM then 0.5 ns to 100 ns and 2.5 ns to 600 ns (four 150 ns decay constants); CDM then
+    20 ps to 10 ns.
     """
     edge = event.edge_time
-    h1 = min(edge / 40.0, t_response_max / 10.0 if t_response_max > 0 else np.inf)
+    h_edge = edge / 40.0
+    h_clamp = min(h_edge, t_response_max / 10.0 if t_response_max > 0 else np.inf)
+    head = [(3 * edge, h_clamp), (10 * edge, h_edge)]
     if event.model == "hbm":
-        return piecewise_grid([(10 * edge, h1), (100e-9, 0.5e-9), (600e-9, 2.5e-9)])
-    return piecewise_grid([(10 * edge, h1), (10e-9, 20e-12)])
+        return piecewise_grid([*head, (100e-9, 0.5e-9), (600e-9, 2.5e-9)])
+    return piecewise_grid([*head, (10e-9, 20e-12)])
 
 
 def _rows(value: ArrayLike, n: int, what: str) -> FloatArray:
@@ -236,21 +239,30 @@ class EventCircuit:
 MAX_EVENT_SEGMENTS = 32
 
 
-def event_segments(netlist: Netlist, edge_time: float) -> tuple[int, bool]:
-    """Ladder segments for the RC lines of an event circuit, and whether the cap was hit.
+def row_segments(netlist: Netlist, edge_time: float) -> tuple[NDArray[np.int_], NDArray[np.bool_]]:
+    """Ladder segments each row's RC lines need in an event, and whether the cap was hit.
 
-    N = ceil(sqrt(R C / (0.03 t_edge))) over every line and row: omega R C / N^2 <= 0.03 at
+    N = ceil(sqrt(R C / (0.03 t_edge))) over the row's lines: omega R C / N^2 <= 0.03 at
     omega = 1 / t_edge (the accuracy rule of `physics.transient`, applied at the event's edge
-    rather than at its step), between 2 and `MAX_EVENT_SEGMENTS`. A capped ladder resolves a
-    channel whose R C is far above the edge only coarsely near its contacts, where its oxide
-    is stressed first.
+    rather than at its step), rounded up to a power of two between 2 and `MAX_EVENT_SEGMENTS`
+    (rows are simulated in bins of equal N). A capped ladder resolves a channel whose R C is
+    far above the edge only coarsely near its contacts, where its oxide is stressed first.
     """
     lines = [el for el in netlist.elements if el.kind == "RCLINE"]
+    n = netlist.n_variant
     if not lines:
-        return 1, False
-    rc = max(float(np.max(np.asarray(el.value) * np.asarray(el.c_total))) for el in lines)
-    need = int(np.ceil(np.sqrt(rc / (LADDER_X_MAX * edge_time))))
-    return int(np.clip(need, 2, MAX_EVENT_SEGMENTS)), need > MAX_EVENT_SEGMENTS
+        return np.ones(n, dtype=int), np.zeros(n, dtype=bool)
+    rc = np.max([np.broadcast_to(np.asarray(el.value) * np.asarray(el.c_total), (n,))
+                 for el in lines], axis=0)
+    need = np.ceil(np.sqrt(rc / (LADDER_X_MAX * edge_time)))
+    power = 2 ** np.ceil(np.log2(np.clip(need, 2, MAX_EVENT_SEGMENTS)))
+    return power.astype(int), need > MAX_EVENT_SEGMENTS
+
+
+def event_segments(netlist: Netlist, edge_time: float) -> tuple[int, bool]:
+    """One ladder size for all rows of an event circuit (the largest `row_segments`)."""
+    need, capped = row_segments(netlist, edge_time)
+    return int(np.max(need)), bool(np.any(capped))
 
 
 def event_circuit(
@@ -264,8 +276,12 @@ def event_circuit(
     extra_elements: Sequence[Element] = (),
     nodeset: Mapping[str, ArrayLike] | None = None,
     t_points: ArrayLike | None = None,
+    n_segments: int | None = None,
 ) -> EventCircuit:
-    """The cell, its rail domain and the ESD source as one circuit (see `simulate_event`)."""
+    """The cell, its rail domain and the ESD source as one circuit (see `simulate_event`).
+
+    ``n_segments`` fixes the channel ladders (default: `event_segments`).
+    """
     n_rows = max(netlist.n_variant, np.size(v_bd_pulse))
     pin, ref = netlist.ports
     p = {name: _rows(getattr(protection, name), n_rows, f"protection.{name}")
@@ -282,6 +298,8 @@ def event_circuit(
     grid = (event_grid(event, float(np.max(p["t_response"]))) if t_points is None
             else np.asarray(t_points, dtype=float))
     n_seg, capped = event_segments(chip, event.edge_time)
+    if n_segments is not None:
+        n_seg = n_segments
     if event.model == "hbm":
         source = esd.hbm_network(event.sign * event.voltage, event.edge_time, pin, ref)
         initial: dict[str, ArrayLike] = {}
@@ -343,39 +361,75 @@ def simulate_event(
     inversion-layer centroid in series), so they bound the voltage across the dielectric from
     above. Time above breakdown uses the linear interpolant between samples.
     """
-    circuit = event_circuit(netlist, event, protection, oxides, v_bd_pulse, channels=channels,
-                            extra_elements=extra_elements, nodeset=nodeset, t_points=t_points)
-    res = simulate(circuit.netlist, t_points=circuit.t_points, probes=circuit.probes,
-                   nonlinear=circuit.nonlinear, initial_voltages=circuit.initial_voltages,
-                   ground=circuit.ground, n_segments=circuit.n_segments)
-    n_rows, grid, v_bd = circuit.n_rows, circuit.t_points, circuit.v_bd_pulse
+    n_rows = max(netlist.n_variant, np.size(v_bd_pulse))
+    t_max = float(np.max(np.asarray(protection.t_response, dtype=float)))
+    grid = event_grid(event, t_max) if t_points is None else np.asarray(t_points, dtype=float)
+    need, capped_rows = row_segments(netlist, event.edge_time)
+    need = np.broadcast_to(need, (n_rows,))
+    v_bd = _rows(v_bd_pulse, n_rows, "v_bd_pulse")
     labels = tuple(oxides)
-    rail = np.broadcast_to(res.probes["rail"], (n_rows, grid.size))
-    if labels:
-        ox = np.stack([np.broadcast_to(res.probes[f"ox:{k}"], (n_rows, grid.size))
-                       for k in labels], axis=1)
-    else:
-        ox = np.zeros((n_rows, 0, grid.size))
+    rail = np.empty((n_rows, grid.size))
+    clamp = np.empty((n_rows, grid.size))
+    ox = np.empty((n_rows, len(labels), grid.size))
+    converged = np.empty(n_rows, dtype=bool)
+    for n_seg in np.unique(need):  # a few ladder sizes (powers of two), not one per row
+        idx = np.flatnonzero(need == n_seg)
+        whole = idx.size == n_rows
+
+        def take(v: ArrayLike | None, idx: NDArray[np.int_] = idx, whole: bool = whole) -> ArrayLike | None:
+            if v is None or whole or np.size(v) == 1:
+                return v
+            return np.asarray(v, dtype=float).reshape(-1)[idx]
+
+        sub_net = netlist if whole else _take_rows(netlist, take)
+        sub_prot = protection if whole else RailProtection(
+            *(take(getattr(protection, f)) for f in ("v_on", "r_on", "t_response", "v_diode",
+                                                      "c_rail", "v_supply", "r_diode")))
+        sub_channels = [ch if whole else replace(
+            ch, beta=take(ch.beta), v_threshold=take(ch.v_threshold), c_body=take(ch.c_body),
+            v_flatband=take(ch.v_flatband)) for ch in channels]
+        sub_extra = [el if whole else replace(el, value=take(el.value)) for el in extra_elements]
+        sub_nodeset = None if nodeset is None else {k: take(v) for k, v in nodeset.items()}
+        circuit = event_circuit(sub_net, event, sub_prot, oxides, v_bd[idx],
+                                channels=sub_channels, extra_elements=sub_extra,
+                                nodeset=sub_nodeset, t_points=grid, n_segments=int(n_seg))
+        res = simulate(circuit.netlist, t_points=grid, probes=circuit.probes,
+                       nonlinear=circuit.nonlinear, initial_voltages=circuit.initial_voltages,
+                       ground=circuit.ground, n_segments=circuit.n_segments)
+        shape = (idx.size, grid.size)
+        rail[idx] = np.broadcast_to(res.probes["rail"], shape)
+        clamp[idx] = np.broadcast_to(res.probes["clamp"], shape)
+        for k, label in enumerate(labels):
+            ox[idx, k] = np.broadcast_to(res.probes[f"ox:{label}"], shape)
+        converged[idx] = np.broadcast_to(res.converged, (idx.size,))
     peak_ox = _signed_peak(ox)
     with np.errstate(divide="ignore"):
         margin = v_bd[:, None] / np.abs(peak_ox)
     return EventResult(
         event=event,
         oxides=labels,
-        t=res.t,
-        rail_V=np.asarray(rail, dtype=np.float64),
-        clamp_A=np.asarray(np.broadcast_to(res.probes["clamp"], (n_rows, grid.size)),
-                           dtype=np.float64),
-        oxide_V=np.asarray(ox, dtype=np.float64),
+        t=grid,
+        rail_V=rail,
+        clamp_A=clamp,
+        oxide_V=ox,
         peak_rail_V=_signed_peak(rail),
         peak_oxide_V=peak_ox,
-        time_above_s=esd.time_above(res.t, ox, v_bd[:, None]),
+        time_above_s=esd.time_above(grid, ox, v_bd[:, None]),
         margin=np.asarray(margin, dtype=np.float64),
         v_bd_pulse=v_bd,
-        converged=np.broadcast_to(res.converged, (n_rows,)).copy(),
-        n_segments=res.n_segments,
-        segments_capped=circuit.segments_capped,
+        converged=converged,
+        n_segments=int(np.max(need)),
+        segments_capped=bool(np.any(capped_rows)),
     )
+
+
+def _take_rows(netlist: Netlist, take: Callable[[ArrayLike | None], ArrayLike | None]) -> Netlist:
+    """The netlist of a subset of rows (``take`` picks them from each value array)."""
+    elements = tuple(
+        replace(el, value=take(el.value),
+                c_total=None if el.c_total is None else take(el.c_total))
+        for el in netlist.elements)
+    return Netlist(netlist.name, elements, netlist.ports)
 
 
 def shielding_notes(result: EventResult, series_rc: ArrayLike, pair: bool) -> list[str]:

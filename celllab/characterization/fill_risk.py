@@ -120,7 +120,8 @@ def _cell_risks(inputs: list[OxideRiskInputs], n_cells: int, mission: MissionPro
             fit_per_mm2=wear.fit_per_mm2[rows],
             fit_per_mm2_footprint=hazard / area * MM2 * 1e9 / mission.life_hours,
             fault_current_mA=fault.worst_current_A[rows] / milli,
-            fault_power_mW=np.max(fault.supply_power_W[rows], axis=1, initial=0.0) / milli,
+            fault_power_mW=(np.max(fault.supply_power_W[rows], axis=1) if fault.oxides
+                            else np.full(g.n_corner, np.nan)) / milli,
             fault_limit_mA=fault.limit_A[rows] / milli, fault_survives=fault.survives[rows],
             cell_hazard=hazard, flags=flags))
     return out
@@ -169,7 +170,10 @@ class FillOxideRisk:
             f"largest fill of this mix within the target: {self.affordable_footprint_mm2[j]:.3g} mm^2",
         ]
         for c in self.cells:
-            worst = int(np.nanargmax(c.fault_current_mA)) if np.any(np.isfinite(c.fault_current_mA)) else 0
+            if not np.any(np.isfinite(c.fault_current_mA)):
+                lines.append(f"{c.cell} ({c.topology}): no gate oxide to break")
+                continue
+            worst = int(np.nanargmax(c.fault_current_mA))
             lines.append(
                 f"{c.cell} ({c.topology}): one broken oxide draws {c.fault_current_mA[worst]:.3g} mA "
                 f"({c.fault_power_mW[worst]:.3g} mW) at {c.corners[worst]}; domain limit "

@@ -183,7 +183,7 @@ class OxideFault:
     current_A            supply current with that oxide broken
     supply_power_W       V_supply x current
     spot_power_W         dissipated in the breakdown spot
-    worst_current_A : (rows,)   the larger over the cell's oxides
+    worst_current_A : (rows,)   the larger over the cell's oxides (NaN: no gate oxide)
     limit_A : (rows,)           the domain's fault current limit
     survives : (rows,) bool     worst current below the limit (False where not converged)
     converged : (rows,) bool    the DC solution was found (NaN currents otherwise)
@@ -230,6 +230,10 @@ def oxide_fault(inputs: OxideRiskInputs) -> OxideFault:
         v_plate = op[plate] if plate in op else np.zeros(n_rows)
         drop = v_plate - op[f"{line}_1"]
         spot_power[:, k] = np.where(ok, drop * drop / inputs.spot_ohm, np.nan)
-    worst = np.max(current, axis=1, initial=0.0)
+    if not labels:  # no gate oxide: nothing to break here
+        worst = np.full(n_rows, np.nan)
+        return OxideFault(labels, current, current, spot_power, worst, inputs.fault_limit_A,
+                          np.ones(n_rows, dtype=bool), converged)
+    worst = np.max(current, axis=1)
     return OxideFault(labels, current, current * inputs.supply[:, None], spot_power, worst,
                       inputs.fault_limit_A, worst < inputs.fault_limit_A, converged)
