@@ -127,6 +127,24 @@ def test_oxide_voltage_matches_ngspice(tmp_path: Path, deck_name: str, kind: str
     assert np.max(np.abs(ours.rail_V[0, inside] - rail)) <= 0.02 * np.max(np.abs(rail_ref))
 
 
+def test_small_pair_turns_on_with_the_rail_and_matches_ngspice(tmp_path: Path) -> None:
+    # a pair of short fingers, whose drain junctions hold its gates apart, latches on as the rail
+    # rises (its oxides then carry the clamped rail); Source: ngspice .tran of the same circuit,
+    # peak oxide voltages within 2 %
+    require_ngspice()
+    small = CellSpec(name="small", topology="cross_coupled", oxide="core", width_sites=4, fingers=2)
+    (g,) = gather(load_deck(DECK_DIR / "lumen130.toml"), [small], ["typ_25C"])
+    net, prot, channels, extra, nodeset, v_bd = _one_row(g)
+    event = EsdEvent("hbm", 2000.0)
+    ours = simulate_event(net, event, prot, g.oxides, v_bd, channels=channels, extra_elements=extra)
+    assert np.all(ours.shielding > 0.9)
+    circuit = event_circuit(net, event, prot, g.oxides, v_bd, channels=channels, extra_elements=extra)
+    _, _, worst = _ngspice_event(circuit, tmp_path)
+    for k, line in enumerate(g.oxides.values()):
+        ref = worst[line]
+        assert ours.peak_oxide_V[0, k] == pytest.approx(ref[np.argmax(np.abs(ref))], rel=0.02)
+
+
 def test_powered_pair_starts_at_its_operating_point_and_matches_ngspice(tmp_path: Path) -> None:
     # Source: ngspice .tran of the same circuit from the same initial state (our DC operating
     # point with the pair both on, x ~ VSS, y ~ VDD); peak oxide voltages within 2 %
