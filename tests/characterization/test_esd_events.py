@@ -215,3 +215,18 @@ def test_event_arguments_are_checked() -> None:
     with pytest.raises(ValueError, match="unpowered"):
         EsdEvent("cdm", 500.0, powered=True)
     assert EsdEvent("cdm", 250.0, "negative").label == "CDM -250 V"
+
+
+def test_unpowered_pair_stays_off_where_a_powered_one_conducts() -> None:
+    # The same long-finger pair: unpowered, its devices start off and its gates follow the rail
+    # through the channel-to-body and junction capacitances (little oxide stress); powered, both
+    # devices are on and each oxide carries the rail (the series R C is ps against a 2 ns edge)
+    tied, pair = _inputs("lumen130")
+    net, prot, channels, extra, nodeset, v_bd = _one_row(pair)
+    off = simulate_event(net, EsdEvent("hbm", 2000.0), prot, pair.oxides, v_bd, channels=channels,
+                         extra_elements=extra)
+    on = simulate_event(net, EsdEvent("hbm", 2000.0, powered=True), prot, pair.oxides, v_bd,
+                        channels=channels, extra_elements=extra, nodeset=nodeset)
+    assert off.shielding[0] < 0.2 < 0.9 < on.shielding[0]
+    assert "stay off" in shielding_notes(off, pair.series_rc[:1], True)[0]
+    assert "does not help" in shielding_notes(on, pair.series_rc[:1], True)[0]
