@@ -1,11 +1,12 @@
-# Two entry points for a fresh machine; each sets itself up.
+# Entry points for a fresh machine; each sets itself up.
 #   make demo   build the invented demo catalog (db/celllab.sqlite) and open the terminal UI
 #   make test   run the whole test suite (installs ngspice from Debian when run as root)
+#   make check  ruff, mypy on the core, then the whole test suite (CI runs make test)
 PYTHON ?= python3
 VENV   := .venv
 BIN    := $(VENV)/bin
 
-.PHONY: demo test check bench clean
+.PHONY: demo test lint typecheck check bench clean
 
 $(BIN)/python:
 	$(PYTHON) -m venv $(VENV)
@@ -26,11 +27,17 @@ ngspice:
 test: $(VENV)/.installed ngspice
 	$(BIN)/python -m pytest
 
-check: test
+lint: $(VENV)/.installed
 	$(BIN)/python -m ruff check celllab tests
+
+typecheck: $(VENV)/.installed
+	$(BIN)/python -m mypy
+
+# the quick checks first, so a lint or type error is reported before the long suite runs
+check: lint typecheck test
 
 bench: $(VENV)/.installed
 	$(BIN)/python bench/run_all.py
 
 clean:
-	rm -rf $(VENV) db/*.sqlite db/*.sqlite-wal db/*.sqlite-shm
+	rm -rf $(VENV) .mypy_cache db/*.sqlite db/*.sqlite-wal db/*.sqlite-shm

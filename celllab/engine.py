@@ -11,34 +11,41 @@ from collections.abc import Callable, Sequence
 from typing import Any
 
 import numpy as np
-from scipy.constants import femto, giga, nano, pico, zero_Celsius
 
-from celllab import MODEL_VERSION
+from celllab import MODEL_VERSION, topologies
 from celllab.cells.expand import resolve
 from celllab.cells.schema import CellSpec
-from celllab.characterization import topologies
+from celllab.characterization.cell_risk import CatalogRisk, catalog_figures
+from celllab.characterization.esd_events import EsdEvent
 from celllab.characterization.params import CornerSet
+from celllab.characterization.risk_inputs import inputs_from_group
 from celllab.deck.schema import Deck
 from celllab.records import (
-    METRIC_NAMES,
+    METRICS,
     CellResult,
     CharacterizationRun,
+    CornerFigures,
     CornerResult,
     CVCurve,
     FrequencyResponse,
 )
+from celllab.units import from_si
 
 #: Frequency sweep of every response: 100 kHz .. 1 THz, 20 points per decade.
 FREQ_HZ = np.logspace(5, 12, 141)
-ESR_PROBE_HZ = 1.0e9
-SECONDS_PER_YEAR = 365.25 * 24 * 3600
 
 Progress = Callable[[str, int, int], None]
 
 
 def characterize(deck: Deck, cells: Sequence[CellSpec], corners: Sequence[str] | None = None,
-                 progress: Progress | None = None, sources: Sequence[str] = ()) -> CharacterizationRun:
-    """Characterize every cell at every corner of ``deck`` (or the named ``corners``)."""
+                 progress: Progress | None = None, sources: Sequence[str] = (),
+                 esd: bool = True) -> CharacterizationRun:
+    """Characterize every cell at every corner of ``deck`` (or the named ``corners``).
+
+    ``esd``: also run the deck's ``[esd]`` HBM and CDM events on every cell's circuit and the
+    broken-oxide DC analysis (transients: most of the run time); False leaves those columns
+    empty.
+    """
     corner_set = CornerSet.from_deck(deck, list(corners) if corners else None)
     geometries = [resolve(c, deck) for c in cells]
     results: list[CellResult | None] = [None] * len(cells)
@@ -50,8 +57,9 @@ def characterize(deck: Deck, cells: Sequence[CellSpec], corners: Sequence[str] |
         group_cells = [cells[i] for i in idx]
         group_geo = [geometries[i] for i in idx]
         out = topologies.evaluate(topology, deck, corner_set, group_cells, group_geo, FREQ_HZ)
+        risk = _risk(deck, corner_set, topology, out, group_cells, group_geo) if esd else {}
         for k, i in enumerate(idx):
-            results[i] = _record(cells[i], geometries[i], corner_set, out, k)
+            results[i] = _record(cells[i], geometries[i], corner_set, out, k, risk.get(k))
         done += len(idx)
         if progress:
             progress(f"{deck.name}: {topology}", done, len(cells))
@@ -61,6 +69,35 @@ def characterize(deck: Deck, cells: Sequence[CellSpec], corners: Sequence[str] |
         deck_name=deck.name, deck_hash=deck.content_hash, deck_params=deck.model_dump(mode="json"),
         model_version=MODEL_VERSION, corners=corner_set.names, cells=[r for r in results if r is not None],
         source_files=list(sources))
+
+
+def _risk(deck: Deck, corners: CornerSet, topology: str, out: Any, cells: list[CellSpec],
+          geos: list[Any]) -> dict[int, tuple[CatalogRisk, int]]:
+    """ESD and broken-oxide figures of a group: variant index -> (figures, its index in them)."""
+    events = (EsdEvent("hbm", deck.esd.hbm_V), EsdEvent("cdm", deck.esd.cdm_V))
+    parts = out.parts if hasattr(out, "parts") else [(list(range(len(cells))), out)]
+    found: dict[int, tuple[CatalogRisk, int]] = {}
+    for local, part in parts:  # one per circuit structure
+        inputs = inputs_from_group(deck, corners, topology, part, local, [cells[i] for i in local],
+                                   [geos[i] for i in local])
+        figures = catalog_figures(inputs, *events)
+        found.update({i: (figures, k) for k, i in enumerate(local)})
+    return found
+
+
+def _risk_figures(risk: tuple[CatalogRisk, int] | None, n_corner: int, j: int) -> dict[str, float]:
+    if risk is None:
+        return {}
+    fig, k = risk
+    r = k * n_corner + j
+    return dict(
+        hbm_peak_oxide_V=float(np.abs(fig.hbm.peak_oxide_V[0, r])),
+        hbm_time_above_s=float(fig.hbm.time_above_s[0, r]),
+        cdm_peak_oxide_V=float(np.abs(fig.cdm.peak_oxide_V[0, r])),
+        cdm_time_above_s=float(fig.cdm.time_above_s[0, r]),
+        hbm_oxide_share=float(fig.hbm.shielding[0, r]), esd_series_helps=float(fig.series_helps[r]),
+        fault_current_A=float(fig.fault_current_A[r]), fault_power_W=float(fig.fault_power_W[r]),
+        fault_survives=float(fig.fault_survives[r]))
 
 
 def _series_inductance(out: Any, k: int, j: int) -> float:
@@ -76,45 +113,41 @@ def _finite(x: float) -> float:
     return float(x) if np.isfinite(x) else float("nan")
 
 
-def _record(spec: CellSpec, geo: Any, corners: CornerSet, group: Any, index: int) -> CellResult:
+def _record(spec: CellSpec, geo: Any, corners: CornerSet, group: Any, index: int,
+            risk: tuple[CatalogRisk, int] | None = None) -> CellResult:
     out, k = group.row(index)
     corner_results = []
+    notes = list(out.notes)
     for j, cname in enumerate(corners.names):
-        m = {name: float("nan") for name in METRIC_NAMES}
-        c_lf = out.summary["c_lf_F"][k, j]
-        m["cap_fF"] = c_lf / femto
-        m["cap_density_fF_per_um2"] = c_lf / femto / geo.area_um2
-        m["cap_ox_fF"] = out.cap_ox_F[k, j] / femto
-        m["esr_ohm"] = out.summary["esr_lf_ohm"][k, j]
-        m["esr_1GHz_ohm"] = out.summary["esr_at_ohm"][k, j, 0]
-        bw = out.summary["bandwidth_Hz"][k, j]
-        m["bandwidth_GHz"] = bw / giga
-        m["esl_pH"] = _series_inductance(out, k, j) / pico
-        srf = out.summary["srf_Hz"][k, j]
-        m["srf_GHz"] = srf / giga
-        m["tau_ps"] = out.summary["tau_s"][k, j] / pico
-        leak = out.leakage_A[k, j]
-        m["leakage_nA"] = leak / nano
-        m["leakage_nA_per_nF"] = (leak / nano) / (c_lf / nano) if c_lf > 0 else float("nan")
-        m["oxide_field_MV_per_cm"] = out.e_ox_V_per_m[k, j] / 1e8
-        m["tddb_life_years"] = out.ttf_s[k, j] / SECONDS_PER_YEAR
-        m["pulse_vbd_V"] = out.vbd_pulse_V[k, j]
         flags = list(out.flags[k][j])
+        if risk is not None:
+            flags += [f for f in risk[0].flags[risk[1] * len(corners.names) + j] if f not in flags]
+        bw = float(out.summary["bandwidth_Hz"][k, j])
         if not np.isfinite(bw):
             flags.append("bandwidth_beyond_sweep: C_eff stays above C/sqrt(2) up to 1 THz; value is a lower bound")
-            m["bandwidth_GHz"] = FREQ_HZ[-1] / giga
+            bw = float(FREQ_HZ[-1])
+        srf = float(out.summary["srf_Hz"][k, j])
         if not np.isfinite(srf):
             flags.append("srf_beyond_sweep: no self-resonance below 1 THz; value is a lower bound")
-            m["srf_GHz"] = FREQ_HZ[-1] / giga
-        m = {key: _finite(v) for key, v in m.items()}
+            srf = float(FREQ_HZ[-1])
+        figures = CornerFigures(
+            area_um2=geo.area_um2, c_lf_F=float(out.summary["c_lf_F"][k, j]), cap_ox_F=float(out.cap_ox_F[k, j]),
+            esr_lf_ohm=float(out.summary["esr_lf_ohm"][k, j]), esr_probe_ohm=float(out.summary["esr_at_ohm"][k, j, 0]),
+            bandwidth_Hz=bw, esl_H=_series_inductance(out, k, j), srf_Hz=srf, tau_s=float(out.summary["tau_s"][k, j]),
+            leakage_A=float(out.leakage_A[k, j]), e_ox_V_per_m=float(out.e_ox_V_per_m[k, j]),
+            ttf_s=float(out.ttf_s[k, j]), vbd_pulse_V=float(out.vbd_pulse_V[k, j]),
+            **_risk_figures(risk, len(corners.names), j))
+        m = {metric.name: _finite(metric.compute(figures)) for metric in METRICS}  # type: ignore[misc]
         cv = None
         if out.cv_bias is not None:
             cv = CVCurve(bias_V=np.asarray(out.cv_bias[k, j], dtype=float), cap_F=np.asarray(out.cv_cap[k, j], dtype=float),
                          operating_bias_V=float(out.cv_operating_V[k, j]), operating_cap_F=float(out.cv_operating_F[k, j]))
         corner_results.append(CornerResult(
-            corner=cname, temperature_C=float(corners.temperature_K[j] - zero_Celsius),
+            corner=cname, temperature_C=float(from_si(corners.temperature_K[j], "degC")),
             supply_V=float(out.supply_V[k, j]), metrics=m,
             response=FrequencyResponse(freq_Hz=FREQ_HZ.copy(), z_ohm=out.z_ohm[k, j].copy()), cv=cv, flags=flags))
+    if risk is not None and risk[0].notes[risk[1] * len(corners.names)] != "no gate oxide":
+        notes.append(f"HBM {spec.name} at {corners.names[0]}: " + risk[0].notes[risk[1] * len(corners.names)])
     geometry = {**spec.geometry, **{f"resolved_{key}": v for key, v in geo.as_dict().items() if key != "mom_layers"}}
     geometry["resolved_mom_layers"] = [layer.name for layer in geo.mom_layers]
     gate_area = geo.gate_area_um2 if geo.gate_area_um2 else geo.mom_plate_area_um2
@@ -122,4 +155,5 @@ def _record(spec: CellSpec, geo: Any, corners: CornerSet, group: Any, index: int
         name=spec.name, cell_hash=spec.content_hash, family=spec.family, topology=spec.topology, oxide=spec.oxide,
         geometry=geometry, area_um2=geo.area_um2, width_sites=spec.width_sites, height_rows=spec.height_rows,
         gate_area_um2=gate_area, esd_safe=spec.esd_safe, corners=corner_results,
-        netlist={cname: out.netlist_for(k, j) for j, cname in enumerate(corners.names)}, notes=list(out.notes))
+        netlist={cname: out.netlist_for(k, j) for j, cname in enumerate(corners.names)}, notes=notes,
+        placement=spec.placement, rail=spec.rail)

@@ -10,7 +10,6 @@ plain arrays and netlists.
 
 from __future__ import annotations
 
-from collections.abc import Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -21,13 +20,14 @@ from celllab.characterization.esd_events import RailProtection
 from celllab.characterization.oxide_stress import (
     _EXPONENT_TO_SI,
     _MODEL,
-    _sub_table,
     _sub_table_str,
+    oxide_subtable,
 )
-from celllab.characterization.params import CornerSet, cm3
+from celllab.characterization.params import CornerSet
 from celllab.physics import mos_cv
 from celllab.physics.netlist import Element, Netlist
 from celllab.physics.transient import DistributedChannel
+from celllab.units import to_si
 
 #: Lines of each topology's equivalent circuit that are gate oxides (label -> RCLINE name).
 OXIDE_LINES: dict[str, dict[str, str]] = {
@@ -36,19 +36,18 @@ OXIDE_LINES: dict[str, dict[str, str]] = {
     "accumulation": {"gate": "channel"},
     "mos_mom": {"gate": "mos_channel"},
     "cross_coupled": {"nmos": "mn_channel", "pmos": "mp_channel"},
+    "tied_cmos": {"nmos": "nmos_channel", "pmos": "pmos_channel"},
     "mom": {},
 }
 #: Source/drain diffusion doping assumed for junction capacitances, m^-3 (1e20 cm^-3; typical
 #: of a degenerate diffusion, common practice, no source).
-DIFFUSION_DOPING = 1e26
+DIFFUSION_DOPING = to_si(1e20, "cm^-3")
 #: Drain-to-well leakage of the pair's devices in DC analyses, ohm: a stand-in (far above real
 #: junction leakage, far below any fault current) that pulls each drain toward its own well, as
 #: reverse junction leakage does, so the DC state of a pair whose device is off is defined.
 DRAIN_LEAKAGE_OHM = 1e9
 #: Smallest overdrive accepted for the pair's square law at its operating point, V.
 MIN_OVERDRIVE_V = 0.05
-#: Frequencies at which the characterization is run here (only the circuits are used).
-_FREQ_HZ = np.logspace(5, 12, 29)
 
 
 @dataclass
@@ -108,10 +107,12 @@ def _value(net: Netlist, name: str, attr: str = "value") -> np.ndarray | None:
     return np.asarray(getattr(el, attr), dtype=float)
 
 
-def _protection(deck: Any, corners: CornerSet, flavour: np.ndarray, supply: np.ndarray
+def _protection(deck: Any, corners: CornerSet, rails: np.ndarray, supply: np.ndarray
                 ) -> tuple[RailProtection, np.ndarray, np.ndarray]:
-    """Rail clamp and supply per row from each corner's deck (clamp default: 1.5 x nominal)."""
-    n_v, n_c = len(flavour), len(corners.names)
+    """Clamp and supply of each cell's rail per row from each corner's deck (clamp default:
+    1.5 x the rail's nominal voltage)."""
+    flavour = rails
+    n_v, n_c = len(rails), len(corners.names)
 
     def table(get: Any) -> np.ndarray:
         return np.array([[get(d, str(f)) for d in corners.decks] for f in flavour], dtype=float)
@@ -155,17 +156,20 @@ def _pair_devices(deck: Any, corners: CornerSet, out: Any, cells: list[Any], geo
     beta_n = 1.0 / (r_on_n * _rows(np.maximum(vov_n, MIN_OVERDRIVE_V), n_v, n_c))
     beta_p = 1.0 / (r_on_p * _rows(np.maximum(vov_p, MIN_OVERDRIVE_V), n_v, n_c))
     temp = corners.temperature_K[None, :]
-    area = np.array([g.gate_area_um2 / g.devices for g in geos])[:, None] * micro**2
-    width = np.array([g.gate_width_um for g in geos])[:, None] * micro
     fingers = np.array([c.fingers for c in cells])[:, None]
-    drain_area = ((fingers + 1) // 2) * deck.layout.diffusion_strip_um * micro * width
-    dop_p = cm3(corners.deck_value(lambda d: d.wells.pwell_doping_cm3))
-    dop_n = cm3(corners.deck_value(lambda d: d.wells.nwell_doping_cm3))
-    c_dep_n = _rows(mos_cv.depletion_capacitance_per_area(dop_p, temp) * area, n_v, n_c)
-    c_dep_p = _rows(mos_cv.depletion_capacitance_per_area(dop_n, temp) * area, n_v, n_c)
-    c_j_n = _rows(mos_cv.junction_capacitance_per_area(dop_p, temp, DIFFUSION_DOPING) * drain_area,
+    length = np.array([g.gate_length_um for g in geos])[:, None] * micro
+    width_n = np.array([g.gate_width_um for g in geos])[:, None] * micro
+    width_p = np.array([g.pmos_gate_width_um for g in geos])[:, None] * micro
+    area_n, area_p = fingers * length * width_n, fingers * length * width_p
+    strip = ((fingers + 1) // 2) * deck.layout.diffusion_strip_um * micro
+    drain_n, drain_p = strip * width_n, strip * width_p
+    dop_p = to_si(corners.deck_value(lambda d: d.wells.pwell_doping_cm3), "cm^-3")
+    dop_n = to_si(corners.deck_value(lambda d: d.wells.nwell_doping_cm3), "cm^-3")
+    c_dep_n = _rows(mos_cv.depletion_capacitance_per_area(dop_p, temp) * area_n, n_v, n_c)
+    c_dep_p = _rows(mos_cv.depletion_capacitance_per_area(dop_n, temp) * area_p, n_v, n_c)
+    c_j_n = _rows(mos_cv.junction_capacitance_per_area(dop_p, temp, DIFFUSION_DOPING) * drain_n,
                   n_v, n_c)
-    c_j_p = _rows(mos_cv.junction_capacitance_per_area(dop_n, temp, DIFFUSION_DOPING) * drain_area,
+    c_j_p = _rows(mos_cv.junction_capacitance_per_area(dop_n, temp, DIFFUSION_DOPING) * drain_p,
                   n_v, n_c)
     vfb_n = _rows(mos_cv.flatband_voltage("n+poly", dop_p, "p", temp), n_v, n_c)
     vfb_p = _rows(mos_cv.flatband_voltage("p+poly", dop_n, "n", temp), n_v, n_c)
@@ -195,57 +199,49 @@ def _series_rc(topology: str, net: Netlist) -> np.ndarray:
         c_n, c_p = _value(net, "mn_channel", "c_total"), _value(net, "mp_channel", "c_total")
         assert r_n is not None and r_p is not None and c_n is not None and c_p is not None
         return np.maximum(r_p * c_n, r_n * c_p)
-    prefix = "mos_" if topology == "mos_mom" else ""
-    line = net.element(f"{prefix}channel")
-    r_line = np.asarray(line.value, dtype=float) / (12.0 if line.contacted_ends == 2 else 3.0)
-    extra = sum((v for v in (_value(net, f"{prefix}r_gate"), _value(net, f"{prefix}r_access"))
-                 if v is not None), np.zeros(1))
-    return np.asarray((r_line + extra) * np.asarray(line.c_total, dtype=float), dtype=float)
+    rcs = []
+    for line_name in OXIDE_LINES[topology].values():
+        prefix = line_name[: -len("channel")]
+        line = net.element(line_name)
+        r_line = np.asarray(line.value, dtype=float) / (12.0 if line.contacted_ends == 2 else 3.0)
+        extra = sum((v for v in (_value(net, f"{prefix}r_gate"), _value(net, f"{prefix}r_access"))
+                     if v is not None), np.zeros(1))
+        rcs.append((r_line + extra) * np.asarray(line.c_total, dtype=float))
+    return np.asarray(np.max(np.broadcast_arrays(*rcs), axis=0), dtype=float)
 
 
-def gather(deck: Any, cells: Sequence[Any], corners: Sequence[str] | None = None
-           ) -> list[OxideRiskInputs]:
-    """Characterize ``cells`` under ``deck`` and collect the oxide-risk inputs per structure."""
-    from celllab.cells.expand import resolve
-    from celllab.characterization import topologies
+def inputs_from_group(deck: Any, corners: CornerSet, topology: str, out: Any, positions: list[int],
+                      cells: list[Any], geos: list[Any]) -> OxideRiskInputs:
+    """The oxide-risk inputs of one characterized group (``topologies.common.GroupResult``).
 
-    corner_set = CornerSet.from_deck(deck, list(corners) if corners else None)
-    geos = [resolve(c, deck) for c in cells]
-    groups: dict[str, list[int]] = {}
-    for i, c in enumerate(cells):
-        groups.setdefault(c.topology, []).append(i)
-    found = []
-    for topology, idx in groups.items():
-        out = topologies.evaluate(topology, deck, corner_set, [cells[i] for i in idx],
-                                  [geos[i] for i in idx], _FREQ_HZ)
-        parts = out.parts if hasattr(out, "parts") else [(list(range(len(idx))), out)]
-        for local, part in parts:
-            positions = [idx[k] for k in local]
-            found.append(_inputs(deck, corner_set, topology, part, positions,
-                                 [cells[i] for i in positions], [geos[i] for i in positions]))
-    return found
-
-
-def _inputs(deck: Any, corners: CornerSet, topology: str, out: Any, positions: list[int],
-            cells: list[Any], geos: list[Any]) -> OxideRiskInputs:
+    ``positions`` are the group's cells' indices in the caller's list; ``cells`` and ``geos``
+    the group's cells and resolved geometries in the group's order.
+    """
     n_v, n_c = out.n_variant, out.n_corner
     flavour = np.array([c.oxide for c in cells])
+    rails = np.array([c.rail for c in cells])
     supply = _rows(out.supply_V, n_v, n_c)
     oxides = OXIDE_LINES[topology]
     gate_um2 = np.array([g.gate_area_um2 for g in geos])[:, None]
+    # two-device cells: each device's gate area from its own width (fingers x length x width)
+    per_um = np.array([c.fingers * g.gate_length_um for c, g in zip(cells, geos)])[:, None]
+    area_n = _rows(per_um * np.array([g.gate_width_um for g in geos])[:, None] * micro**2, n_v, n_c)
+    area_p = _rows(per_um * np.array([g.pmos_gate_width_um for g in geos])[:, None] * micro**2, n_v, n_c)
     if topology == "cross_coupled":
-        per = _rows(gate_um2 / 2.0 * micro**2, n_v, n_c)
-        gate_area = {"nmos": per, "pmos": per.copy()}
+        gate_area = {"nmos": area_n, "pmos": area_p}
         v_gate = {"nmos": _rows(np.abs(out.cv_operating_V), n_v, n_c), "pmos": supply.copy()}
+    elif topology == "tied_cmos":  # both gates tied across the rails
+        gate_area = {"nmos": area_n, "pmos": area_p}
+        v_gate = {"nmos": supply.copy(), "pmos": supply.copy()}
     elif oxides:
         gate_area = {"gate": _rows(gate_um2 * micro**2, n_v, n_c)}
         v_gate = {"gate": _rows(np.abs(out.cv_operating_V), n_v, n_c)}
     else:
         gate_area, v_gate = {}, {}
-    prot, source, limit = _protection(deck, corners, flavour, supply)
+    prot, source, limit = _protection(deck, corners, rails, supply)
     rel_names = ("weibull_beta", "eta_ref_s", "area_ref_um2", "v_ref_V", "t_ref_C",
                  "acceleration_exponent", "activation_energy_eV", "breakdown_spot_ohm")
-    rel = {name: _rows(_sub_table(corners, flavour, "reliability", name), n_v, n_c)
+    rel = {name: _rows(oxide_subtable(corners, flavour, "reliability", name), n_v, n_c)
            for name in rel_names}
     accel = np.broadcast_to(_sub_table_str(corners, flavour, "reliability", "acceleration"),
                             (n_v, n_c)).reshape(-1)
@@ -267,7 +263,7 @@ def _inputs(deck: Any, corners: CornerSet, topology: str, out: Any, positions: l
         v_gate=v_gate, cell_area_m2=np.array([g.area_um2 for g in geos]) * micro**2,
         c_cell=_rows(out.summary["c_lf_F"], n_v, n_c),
         v_bd_pulse=_rows(out.vbd_pulse_V, n_v, n_c), supply=supply,
-        nominal_supply=_rows(np.array([deck.supply_for(str(f)) for f in flavour])[:, None], n_v, n_c),
+        nominal_supply=_rows(np.array([deck.supply_for(str(r)) for r in rails])[:, None], n_v, n_c),
         protection=prot, series_rc=(_series_rc(topology, out.netlist) if oxides
                                     else np.full(n_v * n_c, np.nan)),
         spot_ohm=rel.pop("breakdown_spot_ohm"), source_ohm=source, fault_limit_A=limit,

@@ -13,7 +13,7 @@ import importlib
 import sys
 from collections.abc import Sequence
 
-from celllab import __version__
+from celllab import CAUTION, __version__
 from celllab.errors import CelllabError
 
 #: Verb modules, in the order their verbs appear in ``--help``.
@@ -25,10 +25,6 @@ VERB_MODULES: tuple[str, ...] = (
     "celllab.cli.ui",
 )
 
-EPILOG = (
-    "Numbers are engineering estimates from analytic models, not sign-off: defer to the "
-    "foundry's design rules, qualified models and ESD/reliability qualification."
-)
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -36,7 +32,7 @@ def build_parser() -> argparse.ArgumentParser:
         prog="celllab",
         description="Characterize on-chip decoupling cells from a process deck and keep the "
         "results in a searchable catalog.",
-        epilog=EPILOG,
+        epilog=CAUTION,
     )
     parser.add_argument("--version", action="version", version=f"celllab {__version__}")
     sub = parser.add_subparsers(dest="verb", metavar="VERB")

@@ -19,7 +19,8 @@ from celllab.characterization.esd_events import (
     shielding_notes,
     simulate_event,
 )
-from celllab.characterization.risk_inputs import OxideRiskInputs, gather
+from celllab.characterization.risk_inputs import OxideRiskInputs
+from celllab.fill_risk import gather
 from celllab.deck import load_deck
 from celllab.physics import transient as tr
 from celllab.physics.circuits import mos_decap_circuit

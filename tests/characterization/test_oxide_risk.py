@@ -19,7 +19,8 @@ from scipy.stats import weibull_min
 
 from celllab.cells import CellSpec
 from celllab.characterization.oxide_risk import MissionProfile, fault_circuit, oxide_fault, wearout
-from celllab.characterization.risk_inputs import OxideRiskInputs, gather
+from celllab.characterization.risk_inputs import OxideRiskInputs
+from celllab.fill_risk import gather
 from celllab.deck import load_deck
 from celllab.physics import transient as tr
 

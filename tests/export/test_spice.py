@@ -95,7 +95,7 @@ def _cell_with(make_cell, netlist: Netlist, name: str = "HOSTILE"):
 
 @needs_ngspice
 def test_ngspice_number_reading(tmp_path):
-    # Source: REFERENCES §12 [DF] (SPICE2 / ngspice manual scale suffixes): '1MEG' -> 1e6,
+    # Source: docs/references.md [121] [DF] (SPICE2 / ngspice manual scale suffixes): '1MEG' -> 1e6,
     # '1M' -> 1e-3 (milli), '1F' -> 1e-15; and our exponent format is read as intended.
     values = [1e6, 1e-3, 1e-15, 2.5e-12, 123.456, 4.7e9, 0.1, 33.0]
     texts = ["1MEG", "1M", "1F", "1FF", "10u"] + [spice_number(v) for v in values]

@@ -54,8 +54,8 @@ def test_skrf_reads_back_the_impedance(tmp_path, library, deck_name, reference_o
             np.testing.assert_allclose(network.z0[:, 0], reference_ohm)
 
 
-def test_references_section_12_example(tmp_path, make_cell):
-    # Source: REFERENCES §12 [DF]: 10 mohm ESR + 100 nF at 1 MHz; '# Hz Z RI R 50' stores
+def test_v1_z_file_is_normalized_to_the_reference(tmp_path, make_cell):
+    # Source: docs/references.md [120] [DF]: 10 mohm ESR + 100 nF at 1 MHz; '# Hz Z RI R 50' stores
     # 2.0e-4, -3.18310e-2 (Z = 0.01 - j1.591549 ohm); rel 1e-5.
     freq = np.array([1e6])
     z = 0.01 + 1.0 / (1j * 2 * np.pi * freq * 100e-9)
@@ -76,7 +76,7 @@ def test_references_section_12_example(tmp_path, make_cell):
 
 
 def test_one_ohm_against_fifty_gives_the_textbook_s11(tmp_path, make_cell):
-    # Source: REFERENCES §12 [DF]: S = (Z - Z0)/(Z + Z0), Z = 1 ohm, Z0 = 50 -> -0.960784.
+    # Source: docs/references.md [120] [DF]: S = (Z - Z0)/(Z + Z0), Z = 1 ohm, Z0 = 50 -> -0.960784.
     cell = make_cell(response=FrequencyResponse(np.array([1e6, 1e7]), np.array([1.0, 1.0 + 0j])))
     path = tmp_path / "one_ohm.s1p"
     path.write_text(render_touchstone(cell, reference_ohm=50.0))

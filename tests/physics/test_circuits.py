@@ -26,7 +26,8 @@ def test_mos_decap_structure_and_zero_elements() -> None:
 
 @pytest.mark.parametrize(("ends", "fraction"), [(1, 1 / 3), (2, 1 / 12)])
 def test_mos_decap_low_frequency_esr(ends: int, fraction: float) -> None:
-    # Source: REFERENCES §4: first-order decap ESR = R_ch/3 or /12 + R_gate + contacts; rel 1e-9
+    # Source: docs/references.md [41], [42]: first-order decap ESR = R_ch/3 or /12 + R_gate
+    # + contacts; rel 1e-9
     nl = circuits.mos_decap_circuit(2e-12, 120.0, 4.0, 1.5, 2e-11, contacted_ends=ends)  # type: ignore[arg-type]
     s = summarize(F, solve_impedance(nl, F))
     assert s["esr_lf_ohm"][0] == pytest.approx(120.0 * fraction + 5.5, rel=1e-9, abs=0)

@@ -9,7 +9,7 @@ from celllab.physics import constants as c
 
 
 def test_pinned_material_inputs() -> None:
-    # Source: REFERENCES §0 pinned inputs (Sze & Ng 2007 tables; Altermatt 2003); exact
+    # Source: docs/references.md [2] pinned inputs (Sze & Ng 2007 tables; Altermatt 2003); exact
     assert c.EPS_R_SIO2 == 3.9
     assert c.EPS_R_SI == 11.7
     assert c.N_I_300K == 9.65e15
@@ -18,8 +18,8 @@ def test_pinned_material_inputs() -> None:
 @pytest.mark.parametrize(
     ("temperature", "expected"),
     [
-        (300.0, 0.025852),  # Source: REFERENCES §0 [DF] kT/q at 300 K = 25.852 mV; rel 2e-5
-        (300.15, 0.025865),  # Source: REFERENCES §0 [DF] at 300.15 K = 25.865 mV; rel 2e-5
+        (300.0, 0.025852),  # Source: docs/references.md [1] [DF] kT/q = 25.852 mV; rel 2e-5
+        (300.15, 0.025865),  # Source: docs/references.md [1] [DF] 25.865 mV; rel 2e-5
     ],
 )
 def test_thermal_voltage(temperature: float, expected: float) -> None:
@@ -27,7 +27,7 @@ def test_thermal_voltage(temperature: float, expected: float) -> None:
 
 
 def test_bandgap_at_300K() -> None:
-    # Source: REFERENCES §0 [DF], Varshni/Thurmond Eg(300 K) = 1.1245 eV; abs 1e-4 eV
+    # Source: docs/references.md [3] [DF], Varshni/Thurmond Eg(300 K) = 1.1245 eV; abs 1e-4 eV
     assert c.bandgap_eV(300.0) == pytest.approx(1.1245, abs=1e-4)
 
 
@@ -37,7 +37,7 @@ def test_bandgap_at_0K_is_eg0() -> None:
 
 
 def test_intrinsic_density_anchor() -> None:
-    # Source: REFERENCES §0 n_i(300 K) = 9.65e9 cm^-3; rel 1e-12
+    # Source: docs/references.md [2] n_i(300 K) = 9.65e9 cm^-3; rel 1e-12
     assert c.intrinsic_density(300.0) == pytest.approx(9.65e15, rel=1e-12)
 
 

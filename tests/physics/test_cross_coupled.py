@@ -13,7 +13,7 @@ from celllab.physics.netlist import solve_impedance
 
 
 def test_reference_pair_esr() -> None:
-    # Source: REFERENCES §5 [DF]: R_on,p 500, R_on,n 250, ESR 20 each, C_n = C_p ->
+    # Source: docs/references.md [50] [DF]: R_on,p 500, R_on,n 250, ESR 20 each, C_n = C_p ->
     # branches 520 / 270 ohm, pair ESR 197.5 ohm (LF) -> 177.7 ohm (HF); rel 1e-4
     ra, rb = cc.branch_resistances(250.0, 500.0, 20.0, 20.0)
     assert (ra, rb) == (520.0, 270.0)
@@ -22,8 +22,8 @@ def test_reference_pair_esr() -> None:
 
 
 def test_reference_pair_through_the_solver() -> None:
-    # Source: REFERENCES §5 [DF] again, now from solve_impedance of the two-branch netlist;
-    # rel 1e-6 at omega R C = 1e-6 and 1e4
+    # Source: docs/references.md [50] [DF] again, now from solve_impedance of the two-branch
+    # netlist; rel 1e-6 at omega R C = 1e-6 and 1e4
     nl = cross_coupled_two_branch_circuit(1e-12, 1e-12, 520.0, 270.0)
     f = np.array([1e-6, 1e4]) / (2 * np.pi * 520.0 * 1e-12)
     z = solve_impedance(nl, f)[0]
@@ -95,7 +95,7 @@ def test_resistive_device_matches_square_law_for_small_drops() -> None:
 
 
 def test_compare_to_tied() -> None:
-    # Source: REFERENCES §5 numbers; tied reference = branches ESR_n + C_n || ESR_p + C_p
+    # Source: docs/references.md [50] numbers; tied reference = branches ESR_n + C_n || ESR_p + C_p
     res = cc.compare_to_tied(1e-12, 1e-12, 250.0, 500.0, 20.0, 20.0, freq=[1e6, 1e10])
     assert res.capacitance_lost == 0.0
     assert res.esr_gain == pytest.approx(197.5 - 10.0, rel=1e-9, abs=0)
@@ -115,7 +115,7 @@ def test_compare_to_tied() -> None:
 )
 def test_pair_esr_bounds(r_a: float, r_b: float, c_a: float, c_b: float) -> None:
     # Source: parallel series-RC branches: R_a || R_b <= ESR(omega) <= max(R_a, R_b) and the LF
-    # limit is the C^2-weighted mean (REFERENCES §5); common property
+    # limit is the C^2-weighted mean (docs/references.md [44]); common property
     lf = cc.pair_esr_low_frequency(r_a, c_a, r_b, c_b)
     hf = cc.pair_esr_high_frequency(r_a, r_b)
     assert hf <= lf * (1 + 1e-12)

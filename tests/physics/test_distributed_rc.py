@@ -19,8 +19,8 @@ def _naive_one_end(x: float) -> complex:
 
 @pytest.mark.parametrize(("ends", "fraction"), [(1, 1 / 3), (2, 1 / 12)])
 def test_low_frequency_esr(ends: int, fraction: float) -> None:
-    # Source: REFERENCES §13 row 11 (Szekely; Larsson 1997): Re Z -> R/3 (one end), R/12 (both);
-    # rel 1e-6
+    # Source: docs/references.md [40], [41] (Szekely; Larsson 1997): Re Z -> R/3 (one end),
+    # R/12 (both); rel 1e-6
     r, c = 250.0, 1e-12
     z = d.rc_line_impedance(r, c, 1e-6 / (r * c), ends=ends)
     assert z.real == pytest.approx(fraction * r, rel=1e-6, abs=0)
@@ -30,7 +30,7 @@ def test_low_frequency_esr(ends: int, fraction: float) -> None:
 
 
 def test_first_unity_q_point() -> None:
-    # Source: REFERENCES §13 row 12: Q first reaches 1 at omega R C = pi^2/2, where
+    # Source: docs/references.md [43]: Q first reaches 1 at omega R C = pi^2/2, where
     # Re Z = R tanh(pi/2)/pi = 0.291939 R (quoted to 6 digits: abs 5e-7)
     x = np.pi**2 / 2
     z = d.rc_line_impedance(1.0, 1.0, x)
@@ -44,7 +44,7 @@ def test_first_unity_q_point() -> None:
 
 @pytest.mark.parametrize(("ends", "expected"), [(1, 4.7526), (2, 19.010)])
 def test_ceff_half_power_point(ends: int, expected: float) -> None:
-    # Source: REFERENCES §13 row 13 [DF]: C_eff = C/sqrt(2) at omega R C = 4.7526 (one end),
+    # Source: docs/references.md [43] [DF]: C_eff = C/sqrt(2) at omega R C = 4.7526 (one end),
     # 19.010 (both); rel 1e-4. Root found with scipy brentq on our closed form.
     def gap(x: float) -> float:
         z = d.rc_line_impedance(1.0, 1.0, x, ends=ends)
@@ -54,7 +54,8 @@ def test_ceff_half_power_point(ends: int, expected: float) -> None:
 
 
 def test_high_frequency_asymptote() -> None:
-    # Source: REFERENCES §4 [DF]: Z -> sqrt(R/(2 omega C)) (1 - j) for omega R C >> 1; rel 1e-9
+    # Source: docs/references.md [40] [DF]: Z -> sqrt(R/(2 omega C)) (1 - j) for omega R C >> 1
+    # (rel 1e-9)
     x = 1e8
     z = d.rc_line_impedance(1.0, 1.0, x)
     assert z == pytest.approx(np.sqrt(1 / (2 * x)) * (1 - 1j), rel=1e-9, abs=0)
@@ -97,7 +98,7 @@ def test_zero_resistance_is_ideal_capacitor() -> None:
 
 @pytest.mark.parametrize(("ends", "expected"), [(1, 53.333333333), (2, 13.333333333)])
 def test_gate_resistance(ends: int, expected: float) -> None:
-    # Source: REFERENCES §13 row 14 (Razavi, Yan, Lee 1994): 8 ohm/sq, W 2 um, L 0.1 um;
+    # Source: docs/references.md [42] (Razavi, Yan, Lee 1994): 8 ohm/sq, W 2 um, L 0.1 um;
     # rel 1e-9
     assert d.gate_resistance(8.0, 2e-6, 0.1e-6, ends=ends) == pytest.approx(
         expected, rel=1e-9, abs=0

@@ -9,8 +9,8 @@ from scipy.integrate import solve_ivp
 from celllab.physics import esd
 
 
-def test_hbm_row20() -> None:
-    # Source: REFERENCES §13 row 20 [DF] (JS-001 100 pF / 1500 ohm), 2 kV: I_pk 1.3333 A,
+def test_hbm_source_check_values() -> None:
+    # Source: docs/references.md [90] [DF] (JS-001 100 pF / 1500 ohm), 2 kV: I_pk 1.3333 A,
     # tau 150 ns, Q 200 nC, E 0.2 mJ; rel 1e-9
     assert esd.hbm_peak_current(2000.0) == pytest.approx(4.0 / 3.0, rel=1e-9)
     assert esd.hbm_time_constant() == pytest.approx(150e-9, rel=1e-9)
@@ -25,9 +25,9 @@ def test_hbm_current_waveform() -> None:
 
 
 def test_hbm_shared_voltage() -> None:
-    # Source: REFERENCES §9 [DF], 2 kV / 100 pF onto 1 nF with no clamp -> 181.8 V; rel 1e-4
+    # Source: docs/references.md [92] [DF], 2 kV / 100 pF onto 1 nF, no clamp -> 181.8 V; rel 1e-4
     assert esd.hbm_shared_voltage(2000.0, 1e-9) == pytest.approx(181.82, rel=1e-4)
-    # Source: REFERENCES §9 [DF], 200 nC into 10 nF -> 20 V (large-decap limit); rel 1e-2
+    # Source: docs/references.md [92] [DF], 200 nC into 10 nF -> 20 V (large-decap limit); rel 1e-2
     assert esd.hbm_shared_voltage(2000.0, 10e-9) == pytest.approx(20.0, rel=1e-2)
 
 
@@ -36,7 +36,7 @@ def test_pulse_breakdown_and_margin() -> None:
     v_bd = esd.pulse_breakdown_voltage(2e-9, 15e8)
     assert v_bd == pytest.approx(3.0, rel=1e-12)
     assert esd.oxide_stress_margin(2.0, v_bd) == pytest.approx(1.5, rel=1e-12)
-    # Source: REFERENCES §9, clamp <= 0.8 V_BD,pulse (common practice, no source)
+    # Source: docs/references.md [93], clamp <= 0.8 V_BD,pulse (common practice, no source)
     np.testing.assert_array_equal(
         esd.within_clamp_window(np.array([2.3, 2.5]), v_bd), [True, False]
     )

@@ -50,7 +50,7 @@ def test_crossings_outside_the_sweep() -> None:
 
 @pytest.mark.parametrize(("ends", "x_c"), [(1, 4.7526), (2, 19.010)])
 def test_bandwidth_of_rc_line(ends: int, x_c: float) -> None:
-    # Source: REFERENCES §13 row 13 [DF]: C_eff = C/sqrt(2) at omega R C = 4.7526 / 19.010;
+    # Source: docs/references.md [43] [DF]: C_eff = C/sqrt(2) at omega R C = 4.7526 / 19.010;
     # dense-grid interpolation rel 1e-3, bisection rel 1e-4 (limited by the quoted digits)
     r, c = np.array([100.0, 400.0]), 1e-12
     f = np.geomspace(1e7, 1e13, 2001)

@@ -12,7 +12,7 @@ from celllab.physics import inductance as ind
 
 @pytest.mark.parametrize(("hf", "expected_nH"), [(False, 0.865), (True, 0.815)])
 def test_bond_wire(hf: bool, expected_nH: float) -> None:
-    # Source: REFERENCES §10 [DF] (Grover 1946; Rosa 1908): l = 1 mm, r = 12.5 um ->
+    # Source: docs/references.md [64] [DF] (Grover 1946; Rosa 1908): l = 1 mm, r = 12.5 um ->
     # 0.865 nH (uniform current) / 0.815 nH (surface current); abs 0.5 pH (quoted digits)
     l_w = ind.wire_self_inductance(1e-3, 12.5e-6, high_frequency=hf)
     assert l_w / nano == pytest.approx(expected_nH, abs=5e-4)

@@ -10,7 +10,7 @@ from celllab.physics import leakage as lk
 
 
 def test_schuegraf_coefficients() -> None:
-    # Source: REFERENCES §7 [DF], phi_b 3.1 eV, m_ox 0.40 m0: A = 1.2431e-6 A/V^2,
+    # Source: docs/references.md [70] [DF], phi_b 3.1 eV, m_ox 0.40 m0: A = 1.2431e-6 A/V^2,
     # B = 235.80 MV/cm; rel 1e-4
     a, b = lk.schuegraf_coefficients(3.1, 0.40)
     assert a == pytest.approx(1.2431e-6, rel=1e-4)
@@ -20,9 +20,9 @@ def test_schuegraf_coefficients() -> None:
 @pytest.mark.parametrize(
     ("phi_b", "m_rel", "a_ref", "b_ref"),
     [
-        (3.1, 0.40, 4.9724e-7, 7.4568e11),  # Source: REFERENCES §13 row 16 [DF] ECB; rel 1e-4
-        (4.5, 0.32, 3.4254e-7, 1.16646e12),  # Source: REFERENCES §7 [DF] HVB; rel 1e-4
-        (4.1, 0.30, 3.7596e-7, 9.822e11),  # Source: REFERENCES §7 [DF] EVB; rel 1e-4
+        (3.1, 0.40, 4.9724e-7, 7.4568e11),  # Source: docs/references.md [71] [DF] ECB; rel 1e-4
+        (4.5, 0.32, 3.4254e-7, 1.16646e12),  # Source: docs/references.md [71] [DF] HVB; rel 1e-4
+        (4.1, 0.30, 3.7596e-7, 9.822e11),  # Source: docs/references.md [71] [DF] EVB; rel 1e-4
     ],
 )
 def test_bsim_prefactors(phi_b: float, m_rel: float, a_ref: float, b_ref: float) -> None:
@@ -33,7 +33,7 @@ def test_bsim_prefactors(phi_b: float, m_rel: float, a_ref: float, b_ref: float)
 
 def test_direct_tunnelling_formula() -> None:
     # Source: Schuegraf, King & Hu 1992, J = A E^2 exp(-B [1 - (1 - V/phi)^1.5] / E), evaluated
-    # here from the 5-digit REFERENCES §7 coefficients; rel 1e-3 (B's rounding times an
+    # here from the 5-digit coefficients of docs/references.md [70]; rel 1e-3 (B's rounding times an
     # exponent of ~21)
     a, b = 1.2431e-6, 235.80e8
     v, t = 1.0, 2e-9
@@ -62,8 +62,8 @@ def test_zero_bias_and_sign() -> None:
 
 
 def test_typical_magnitude_order() -> None:
-    # Source: REFERENCES §7 [FM] typical 2 nm SiO2 at 1 V ~1e-1..1e-2 A/cm^2 (+-1 decade): only a
-    # generous 4-decade window is asserted (free-electron WKB estimate)
+    # Source: docs/references.md [72] [FM] typical 2 nm SiO2 at 1 V ~1e-1..1e-2 A/cm^2 (+-1 decade):
+    # only a generous 4-decade window is asserted (free-electron WKB estimate)
     j = lk.direct_tunneling_current_density(1.0, 2e-9) / 1e4  # A/cm^2
     assert 1e-4 < j < 1e1
 
@@ -73,7 +73,7 @@ def test_scaled_leakage_density() -> None:
     j = lk.scaled_leakage_density(10.0, 1.5e-9, 1.0, 1.7e-9, 1.2, 5.0, 2.5)
     assert j == pytest.approx(10.0 * 10 ** (-1.0) * 1.2**2.5, rel=1e-12)
     assert lk.scaled_leakage_density(3.0, 2e-9, 1.0, 2e-9, 1.0, 5.0, 2.5) == pytest.approx(3.0)
-    # Source: REFERENCES §7 [DF] 1 mm^2 of oxide at 10 A/cm^2 leaks 0.1 A
+    # Source: docs/references.md [72] [DF] 1 mm^2 of oxide at 10 A/cm^2 leaks 0.1 A
     assert lk.scaled_leakage_density(
         10e4, 1.5e-9, 1.0, 1.5e-9, 1.0, 5.0, 2.5
     ) * 1e-6 == pytest.approx(0.1)
@@ -82,8 +82,9 @@ def test_scaled_leakage_density() -> None:
 @settings(deadline=None)
 @given(st.floats(1.0, 3.5), st.floats(0.1, 1.0), st.floats(0.3, 1.5))
 def test_leakage_rises_steeply_as_oxide_thins(t_nm: float, dt_nm: float, v: float) -> None:
-    # Source: direct tunnelling rises by about a decade per 0.2 nm of thinning (REFERENCES §7,
-    # common practice); property asserted at >= 2 decades per nm in 1-4.5 nm, 0.3-1.5 V
+    # Source: direct tunnelling rises by about a decade per 0.2 nm of thinning
+    # (docs/references.md [72], common practice); property asserted at >= 2 decades per nm in
+    # 1-4.5 nm, 0.3-1.5 V
     j_thin = lk.direct_tunneling_current_density(v, t_nm * nano)
     j_thick = lk.direct_tunneling_current_density(v, (t_nm + dt_nm) * nano)
     assert np.log10(j_thin / j_thick) >= 2.0 * dt_nm

@@ -9,13 +9,14 @@ from celllab.physics import mobility as mob
 
 
 def test_theta_model_check() -> None:
-    # Source: REFERENCES §3 [DF], mu0 400 cm^2/Vs, theta 0.5/V, V_ov 0.8 V -> 285.7 cm^2/Vs; rel 1e-4
+    # Source: docs/references.md [31] [DF], mu0 400 cm^2/Vs, theta 0.5/V, V_ov 0.8 V ->
+    # 285.7 cm^2/Vs; rel 1e-4
     mu = mob.effective_mobility(400e-4, 0.5, 0.8, 300.0, 300.0)
     assert mu / 1e-4 == pytest.approx(285.714, rel=1e-4)
 
 
-def test_bsim_temperature_row10() -> None:
-    # Source: REFERENCES §13 row 10 [DF, recomputed], 298.15 -> 398.15 K, UTE -1.5, KT1 -0.11 V:
+def test_bsim_temperature_check_values() -> None:
+    # Source: docs/references.md [33] [DF], 298.15 -> 398.15 K, UTE -1.5, KT1 -0.11 V:
     # mu ratio 0.64801, dV_T = -36.894 mV; rel 1e-4
     ratio = mob.temperature_scaled_mobility(1.0, 398.15, 298.15, -1.5)
     assert ratio == pytest.approx(0.64801, rel=1e-4)
@@ -42,8 +43,8 @@ def test_universal_mobility_structure() -> None:
 
 
 def test_effective_field_forms() -> None:
-    # Source: REFERENCES §3 [DF of FM formula], V_GS 1.0, V_T 0.3, T_ox 2 nm -> 1.083 MV/cm
-    # (checks our arithmetic of the recalled form only); rel 1e-3
+    # Source: docs/references.md [32] [DF of an FM formula], V_GS 1.0, V_T 0.3, T_ox 2 nm ->
+    # 1.083 MV/cm (checks our arithmetic of the recalled form only); rel 1e-3
     e_eff = mob.effective_field_from_voltages(1.0, 0.3, 2e-9, "electron")
     assert e_eff / 1e8 == pytest.approx(1.0833, rel=1e-3)
     # Source: Takagi et al. 1994, E_eff = (Q_dep + eta Q_inv)/eps_si, eta 1/2 (n), 1/3 (p); rel 1e-12

@@ -12,7 +12,7 @@ from celllab.physics import mom
 
 
 def test_sakurai_tamaru_check_values() -> None:
-    # Source: REFERENCES §13 row 15 / §6 (Sakurai & Tamaru 1983): W = H = T = S gives
+    # Source: docs/references.md [61] (Sakurai & Tamaru 1983): W = H = T = S gives
     # C1/eps = 3.95, C21/eps = 0.79 (rel 1e-9); in SiO2 C1 = 136.40 aF/um, C21 = 27.28 aF/um
     # (rel 1e-4)
     c1, c21 = mom.sakurai_tamaru(1e-6, 1e-6, 1e-6, 1e-6, 1.0)
@@ -24,8 +24,8 @@ def test_sakurai_tamaru_check_values() -> None:
 
 
 def test_sidewall_density_check_value() -> None:
-    # Source: REFERENCES §6 [DF]: sidewall-only density eps t / (s p), eps_r 3.0, t 0.2 um,
-    # w = s = 0.1 um -> 0.2656 fF/um^2 per layer; rel 1e-3 (quoted to 4 digits)
+    # Source: docs/references.md [60] [DF]: sidewall-only density eps t / (s p), eps_r 3.0,
+    # t 0.2 um, w = s = 0.1 um -> 0.2656 fF/um^2 per layer; rel 1e-3 (quoted to 4 digits)
     per_length = mom.sidewall_capacitance(3.0, 0.2e-6, 0.1e-6)
     density = per_length / 0.2e-6
     assert density * 1e-12 / femto == pytest.approx(0.2656, rel=1e-3, abs=0)

@@ -19,37 +19,38 @@ from celllab.physics import oxide as o
 
 T300 = 300.0
 NA17 = 1e23  # 1e17 cm^-3
-NI_1E10 = 1e16  # 1e10 cm^-3 (Sproul & Green), for the REFERENCES check values that use it
+NI_1E10 = 1e16  # 1e10 cm^-3 (Sproul & Green), for the docs/references.md check values that use it
 COX2 = o.oxide_capacitance_per_area(3.9, 2e-9)
 
 
 # ------------------------------------------------------------------------------------------
-# Check values (REFERENCES §2 and §13 rows 3-8)
+# Check values (docs/references.md [20]-[23])
 
 
-def test_fermi_potential_row3() -> None:
-    # Source: REFERENCES §13 row 3 [DF], N_A 1e17, n_i 1e10, 300 K -> 0.41669 V; rel 1e-4
+def test_fermi_potential() -> None:
+    # Source: docs/references.md [20] [DF], N_A 1e17, n_i 1e10, 300 K -> 0.41669 V; rel 1e-4
     assert m.fermi_potential(NA17, T300, n_i=NI_1E10) == pytest.approx(0.41669, rel=1e-4)
 
 
 def test_fermi_potential_default_n_i() -> None:
-    # Source: REFERENCES §2 [DF], n_i = 9.65e9 -> 0.41761 V; rel 1e-4
+    # Source: docs/references.md [20] [DF], n_i = 9.65e9 -> 0.41761 V; rel 1e-4
     assert m.fermi_potential(NA17, T300) == pytest.approx(0.41761, rel=1e-4)
 
 
-def test_max_depletion_width_row4() -> None:
-    # Source: REFERENCES §13 row 4 [DF], W_max = 0.1038 um; rel 2e-3
+def test_max_depletion_width() -> None:
+    # Source: docs/references.md [20] [DF], W_max = 0.1038 um; rel 2e-3
     assert m.max_depletion_width(NA17, T300, n_i=NI_1E10) / micro == pytest.approx(0.1038, rel=2e-3)
 
 
 def test_low_doping_values() -> None:
-    # Source: REFERENCES §2 [DF], N_A 1e16, n_i 1e10: phi_F 0.3572 V, W_max 0.3039 um; rel 1e-3
+    # Source: docs/references.md [20] [DF], N_A 1e16, n_i 1e10: phi_F 0.3572 V,
+    # W_max 0.3039 um; rel 1e-3
     assert m.fermi_potential(1e22, T300, n_i=NI_1E10) == pytest.approx(0.3572, rel=1e-3)
     assert m.max_depletion_width(1e22, T300, n_i=NI_1E10) / micro == pytest.approx(0.3039, rel=1e-3)
 
 
-def test_debye_length_and_flatband_capacitance_row5() -> None:
-    # Source: REFERENCES §2 [DF] L_D = 12.929 nm; §13 row 5 C_s(FB) = 8.0126e-3 F/m^2; rel 1e-4
+def test_debye_length_and_flatband_capacitance() -> None:
+    # Source: docs/references.md [20] [DF] L_D = 12.929 nm, C_s(FB) = 8.0126e-3 F/m^2; rel 1e-4
     assert m.debye_length(NA17, T300) / nano == pytest.approx(12.929, rel=1e-4)
     c_fb = m.semiconductor_capacitance_per_area(
         0.0, body_doping=NA17, body_type="p", temperature=T300
@@ -62,8 +63,8 @@ def test_debye_length_and_flatband_capacitance_row5() -> None:
     assert c_near == pytest.approx(c_fb, rel=1e-3)
 
 
-def test_sze_charge_at_two_phi_f_row6() -> None:
-    # Source: REFERENCES §13 row 6 [DF]: |Q_s(2 phi_F)| = sqrt(2 eps q N_A 2 phi_F); rel 2e-3
+def test_sze_charge_at_two_phi_f() -> None:
+    # Source: docs/references.md [21] [DF]: |Q_s(2 phi_F)| = sqrt(2 eps q N_A 2 phi_F); rel 2e-3
     two_phi = 2 * m.fermi_potential(NA17, T300, n_i=NI_1E10)
     q_s = m.surface_charge_per_area(
         two_phi, body_doping=NA17, body_type="p", temperature=T300, n_i=NI_1E10
@@ -71,12 +72,13 @@ def test_sze_charge_at_two_phi_f_row6() -> None:
     q_dep = np.sqrt(2 * 11.7 * epsilon_0 * e * NA17 * two_phi)
     assert q_s < 0
     assert abs(q_s) == pytest.approx(q_dep, rel=2e-3)
-    # Source: REFERENCES §2 [DF] |Q_s| = 1.6632e-3 C/m^2; rel 1e-3
+    # Source: docs/references.md [21] [DF] |Q_s| = 1.6632e-3 C/m^2; rel 1e-3
     assert abs(q_s) == pytest.approx(1.6632e-3, rel=1e-3)
 
 
 def test_lf_semiconductor_capacitance_at_two_phi_f() -> None:
-    # Source: REFERENCES §2 [DF], LF C_s(2 phi_F) = 1.996e-3 F/m^2 vs eps/W_max = 9.97e-4; rel 1e-3
+    # Source: docs/references.md [21] [DF], LF C_s(2 phi_F) = 1.996e-3 F/m^2 vs
+    # eps/W_max = 9.97e-4; rel 1e-3
     two_phi = 2 * m.fermi_potential(NA17, T300, n_i=NI_1E10)
     c_s = m.semiconductor_capacitance_per_area(
         two_phi, body_doping=NA17, body_type="p", temperature=T300, n_i=NI_1E10
@@ -86,14 +88,15 @@ def test_lf_semiconductor_capacitance_at_two_phi_f() -> None:
     assert c_dep == pytest.approx(9.97e-4, rel=1e-3)
 
 
-def test_threshold_row7() -> None:
-    # Source: REFERENCES §13 row 7 [DF], V_T - V_FB = 0.9297 V (tox 2 nm, N_A 1e17); abs 1 mV
+def test_threshold_above_flat_band() -> None:
+    # Source: docs/references.md [22] [DF], V_T - V_FB = 0.9297 V (tox 2 nm, N_A 1e17); abs 1 mV
     vt = m.threshold_voltage(0.0, COX2, NA17, "p", T300, n_i=NI_1E10)
     assert vt == pytest.approx(0.9297, abs=1e-3)
 
 
 def test_threshold_with_n_poly_gate() -> None:
-    # Source: REFERENCES §2 [DF], n+ poly, Eg = 1.12 eV: V_FB = -0.977 V, V_T = -0.047 V; abs 2 mV
+    # Source: docs/references.md [22] [DF], n+ poly, Eg = 1.12 eV: V_FB = -0.977 V,
+    # V_T = -0.047 V; abs 2 mV
     vfb = m.flatband_voltage("n+poly", NA17, "p", T300, n_i=NI_1E10, eg_eV=1.12)
     assert vfb == pytest.approx(-0.977, abs=2e-3)
     assert m.threshold_voltage(vfb, COX2, NA17, "p", T300, n_i=NI_1E10) == pytest.approx(
@@ -102,7 +105,8 @@ def test_threshold_with_n_poly_gate() -> None:
 
 
 def test_flatband_n_poly_on_n_well() -> None:
-    # Source: REFERENCES §2 [DF], n+ poly / n-well N_D 1e17: V_FB = -0.143 V; abs 2 mV
+    # Source: docs/references.md [22], [24] [DF], n+ poly / n-well N_D 1e17: V_FB = -0.143 V;
+    # abs 2 mV
     vfb = m.flatband_voltage("n+poly", NA17, "n", T300, n_i=NI_1E10, eg_eV=1.12)
     assert vfb == pytest.approx(-0.143, abs=2e-3)
 
@@ -130,8 +134,8 @@ def test_flatband_rejects_unknown_gate() -> None:
 
 
 def test_threshold_temperature_coefficient() -> None:
-    # Source: REFERENCES §3 [DF], physics route (n+ poly, 1e17, 2 nm, n_i ~ T^1.5 exp(-Eg/2kT),
-    # Varshni Eg): dV_T/dT = -0.70 mV/K at 300 K; abs 0.05 mV/K
+    # Source: docs/references.md [33] [DF], physics route (n+ poly, 1e17, 2 nm, n_i ~ T^1.5
+    # exp(-Eg/2kT), Varshni Eg): dV_T/dT = -0.70 mV/K at 300 K; abs 0.05 mV/K
     def vt(temperature: float) -> float:
         vfb = m.flatband_voltage("n+poly", NA17, "p", temperature)
         return float(m.threshold_voltage(vfb, COX2, NA17, "p", temperature))
@@ -140,8 +144,8 @@ def test_threshold_temperature_coefficient() -> None:
     assert slope * 1e3 == pytest.approx(-0.70, abs=0.05)
 
 
-def test_hf_min_capacitance_row8() -> None:
-    # Source: REFERENCES §13 row 8 [DF], tox 5 nm, n_i 9.65e9: C_min/C_ox = 0.1261; rel 1e-3
+def test_hf_min_capacitance() -> None:
+    # Source: docs/references.md [23] [DF], tox 5 nm, n_i 9.65e9: C_min/C_ox = 0.1261; rel 1e-3
     cox = o.oxide_capacitance_per_area(3.9, 5e-9)
     assert m.hf_min_capacitance(cox, NA17, T300) / cox == pytest.approx(0.1261, rel=1e-3)
 
@@ -154,8 +158,9 @@ def test_hf_min_capacitance_row8() -> None:
     ],
 )
 def test_textbook_capacitor(vg: float, psi_expected: float, tol: float) -> None:
-    # Source: REFERENCES §2 [DF] textbook case (eps_s 11.9, d = 5 nm, N_A 1e17, n_i 9.65e9),
-    # depletion-approximation numbers; the exact charge differs by the -kT/q term, hence abs tol
+    # Source: docs/references.md [23] [DF] textbook case (eps_s 11.9, d = 5 nm, N_A 1e17,
+    # n_i 9.65e9), depletion-approximation numbers; the exact charge differs by the -kT/q term,
+    # hence abs tol
     psi = m.solve_surface_potential(
         vg,
         vfb=0.0,
@@ -317,9 +322,10 @@ def test_cv_exact_series_identity_with_poly() -> None:
 
 
 def test_cv_with_poly_and_centroid_bounded_by_series_estimates() -> None:
-    # Source: series model of REFERENCES §1 (1/C = 1/C_ox + 1/C_poly + 1/C_cen + 1/C_s, BSIM4
-    # X_DC). The centroid shrinks as charge grows, so the exact C lies between the estimate with
-    # the static X_DC (lower bound) and the estimate without centroid (upper bound), within 6 %.
+    # Source: series model of docs/references.md [14] (1/C = 1/C_ox + 1/C_poly + 1/C_cen + 1/C_s,
+    # BSIM4 X_DC). The centroid shrinks as charge grows, so the exact C lies between the estimate
+    # with the static X_DC (lower bound) and the estimate without centroid (upper bound),
+    # within 6 %.
     vt = float(m.threshold_voltage(-0.98, COX2, NA17, "p", T300))
     vg = np.array([-0.98 - 2.0, -0.98 - 1.0, vt + 0.5, vt + 1.0, vt + 2.0])
     op = _cv(vg, gate_doping=1e26)
@@ -351,8 +357,8 @@ def test_poly_depletion_lowers_inversion_only_for_opposite_gate() -> None:
 
 
 def test_centroid_lowers_capacitance_and_vanishes_at_flat_band() -> None:
-    # Source: REFERENCES §1, C_cen in series lowers C in accumulation/inversion by ~5-10 % at
-    # 2 nm; at flat band the mobile charge is zero so the correction is negligible (< 0.5 %)
+    # Source: docs/references.md [14], C_cen in series lowers C in accumulation/inversion by ~5-10 %
+    # at 2 nm; at flat band the mobile charge is zero so the correction is negligible (< 0.5 %)
     vg = np.array([-3.0, -0.98, 2.0])
     with_c = _cv(vg).capacitance
     without = _cv(vg, centroid=False).capacitance

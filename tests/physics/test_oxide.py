@@ -12,9 +12,9 @@ from celllab.physics import oxide as o
 @pytest.mark.parametrize(
     ("t_ox_nm", "fF_per_um2", "rel"),
     [
-        (2.0, 17.2657, 1e-5),  # Source: REFERENCES §13 row 1 / §1 [DF]; rel 1e-5 (6 digits given)
-        (1.0, 34.531, 2e-5),  # Source: REFERENCES §1 [DF]; rel 2e-5 (5 digits given)
-        (10.0, 3.4531, 2e-5),  # Source: REFERENCES §1 [DF]; rel 2e-5 (5 digits given)
+        (2.0, 17.2657, 1e-5),  # Source: docs/references.md [10] [DF]; rel 1e-5 (6 digits given)
+        (1.0, 34.531, 2e-5),  # Source: docs/references.md [10] [DF]; rel 2e-5 (5 digits given)
+        (10.0, 3.4531, 2e-5),  # Source: docs/references.md [10] [DF]; rel 2e-5 (5 digits given)
     ],
 )
 def test_oxide_capacitance(t_ox_nm: float, fF_per_um2: float, rel: float) -> None:
@@ -23,7 +23,7 @@ def test_oxide_capacitance(t_ox_nm: float, fF_per_um2: float, rel: float) -> Non
 
 
 def test_oxide_capacitance_exact_value() -> None:
-    # Source: eps0 * 3.9 / 2 nm with CODATA eps0 (REFERENCES §0: rel >= 1e-9 on eps0 terms)
+    # Source: eps0 * 3.9 / 2 nm with CODATA eps0 (docs/references.md [1]: rel >= 1e-9 on eps0 terms)
     c = o.oxide_capacitance_per_area(3.9, 2e-9)
     assert c == pytest.approx(1.72657e-2, rel=1e-5)
     assert c == pytest.approx(epsilon_0 * 3.9 / 2e-9, rel=1e-9)
@@ -32,8 +32,8 @@ def test_oxide_capacitance_exact_value() -> None:
 @pytest.mark.parametrize(
     ("layers_nm", "k", "eot_nm"),
     [
-        ([0.5, 2.0], [3.9, 20.0], 0.890),  # Source: REFERENCES §13 row 2 [DF]; abs 1e-9 nm
-        ([3.0], [20.0], 0.585),  # Source: REFERENCES §1 [DF]; abs 1e-9 nm
+        ([0.5, 2.0], [3.9, 20.0], 0.890),  # Source: docs/references.md [11] [DF]; abs 1e-9 nm
+        ([3.0], [20.0], 0.585),  # Source: docs/references.md [11] [DF]; abs 1e-9 nm
     ],
 )
 def test_equivalent_oxide_thickness(layers_nm: list[float], k: list[float], eot_nm: float) -> None:
@@ -49,11 +49,11 @@ def test_eot_broadcasts_over_variants() -> None:
 
 
 def test_centroid_bsim4_check() -> None:
-    # Source: REFERENCES §1 [DF] BSIM4 X_DC, TOXP = 2 nm, numerator 2.2 V -> 0.4421 nm; rel 1e-4
-    # numerator Vgsteff + 4(VTH0-VFB-Phi_s) = 1.0 + 4 * 0.3 = 2.2 V
+    # Source: docs/references.md [13] [DF] BSIM4 X_DC, TOXP = 2 nm, numerator 2.2 V -> 0.4421 nm;
+    # rel 1e-4 numerator Vgsteff + 4(VTH0-VFB-Phi_s) = 1.0 + 4 * 0.3 = 2.2 V
     x = o.centroid_distance(1.0, 0.3, 2e-9)
     assert x / nano == pytest.approx(0.4421, rel=1e-4)
-    # Source: REFERENCES §1 [DF] Delta t = (3.9/11.7) X_DC = 0.1474 nm; rel 1e-3
+    # Source: docs/references.md [13] [DF] Delta t = (3.9/11.7) X_DC = 0.1474 nm; rel 1e-3
     assert (3.9 / 11.7) * x / nano == pytest.approx(0.1474, rel=1e-3)
 
 
@@ -63,7 +63,7 @@ def test_centroid_zero_field_limit() -> None:
 
 
 def test_poly_depletion_worked_example() -> None:
-    # Source: REFERENCES §1 [DF] |Q_gate| = 1.893e-2 C/m^2, N_poly = 1e20 cm^-3:
+    # Source: docs/references.md [12] [DF] |Q_gate| = 1.893e-2 C/m^2, N_poly = 1e20 cm^-3:
     # W_p = 1.181 nm, Delta t_poly = 0.394 nm; rel 1e-3
     w = o.poly_depletion_width(1.893e-2, 1e26)
     assert w / nano == pytest.approx(1.181, rel=1e-3)

@@ -1,4 +1,4 @@
-"""Power-delivery helpers against the REFERENCES §10 check values."""
+"""Power-delivery helpers against the docs/references.md [100]-[104] check values."""
 
 from __future__ import annotations
 
@@ -13,12 +13,12 @@ L_PKG, C_DIE = 1e-9, 100e-9
 
 
 def test_target_impedance() -> None:
-    # Source: REFERENCES §13 row 21 (Smith et al. 1999): 1.0 V, 5 %, 10 A -> 5.0 mohm; rel 1e-12
+    # Source: docs/references.md [100] (Smith et al. 1999): 1.0 V, 5 %, 10 A -> 5.0 mohm; rel 1e-12
     assert pdn.target_impedance(1.0, 0.05, 10.0) == pytest.approx(5.0e-3, rel=1e-12, abs=0)
 
 
 def test_resonance_and_flat_damping() -> None:
-    # Source: REFERENCES §13 row 22: 1 nH with 100 nF -> f0 = 15.9155 MHz, Z0 = 0.1 ohm;
+    # Source: docs/references.md [101]: 1 nH with 100 nF -> f0 = 15.9155 MHz, Z0 = 0.1 ohm;
     # R_L = R_C = Z0 gives |Z| = Z0 at all f (constant-resistance network); rel 1e-6
     assert pdn.resonance_frequency(L_PKG, C_DIE) == pytest.approx(15.9155e6, rel=1e-6, abs=0)
     assert pdn.characteristic_impedance(L_PKG, C_DIE) == pytest.approx(0.1, rel=1e-12, abs=0)
@@ -31,7 +31,7 @@ def test_resonance_and_flat_damping() -> None:
     ("r_l", "r_c", "expected"), [(0.01, 0.0, 1.0050), (0.01, 0.01, 0.5050), (0.1, 0.1, 0.1000)]
 )
 def test_peak_impedance(r_l: float, r_c: float, expected: float) -> None:
-    # Source: REFERENCES §10 [DF]: exact |Z|max 1.0050 / 0.5050 / 0.1000 ohm; rel 1e-3
+    # Source: docs/references.md [101] [DF]: exact |Z|max 1.0050 / 0.5050 / 0.1000 ohm; rel 1e-3
     z_max, f_max = pdn.peak_impedance(L_PKG, C_DIE, r_l, r_c)
     assert z_max == pytest.approx(expected, rel=1e-3, abs=0)
     # light damping peaks at f0 (rel 1 %)
@@ -40,7 +40,7 @@ def test_peak_impedance(r_l: float, r_c: float, expected: float) -> None:
     # and it is the maximum of a dense sweep
     f = np.geomspace(1e6, 1e8, 20001)
     assert np.max(np.abs(pdn.tank_impedance(f, L_PKG, C_DIE, r_l, r_c))) <= z_max * (1 + 1e-9)
-    # estimate L/(C R_tot) for Q >> 1 (REFERENCES §10: approx 1.000 and 0.500)
+    # estimate L/(C R_tot) for Q >> 1 (docs/references.md [101]: approx 1.000 and 0.500)
     if r_c != r_l or r_l < 0.1:
         assert pdn.peak_impedance_estimate(L_PKG, C_DIE, r_l + r_c) == pytest.approx(
             expected, rel=1e-2, abs=0
@@ -48,14 +48,14 @@ def test_peak_impedance(r_l: float, r_c: float, expected: float) -> None:
 
 
 def test_first_droop() -> None:
-    # Source: REFERENCES §10 [DF]: 1 A into 1 nH / 100 nF -> 0.100 V at 15.71 ns; rel 1e-3
+    # Source: docs/references.md [102] [DF]: 1 A into 1 nH / 100 nF -> 0.100 V at 15.71 ns; rel 1e-3
     dv, t = pdn.first_droop(1.0, L_PKG, C_DIE)
     assert dv == pytest.approx(0.100, rel=1e-3, abs=0)
     assert t == pytest.approx(15.71e-9, rel=1e-3, abs=0)
 
 
 def test_charge_sizing() -> None:
-    # Source: REFERENCES §10 [DF]: 1 A for 1 ns at 50 mV -> 20 nF; 10 % droop -> 9 C_sw
+    # Source: docs/references.md [103] [DF]: 1 A for 1 ns at 50 mV -> 20 nF; 10 % droop -> 9 C_sw
     # (Dally & Poulton 1998); 1 W, 1 V, 1 GHz -> 1 nF switched; rel 1e-12
     assert pdn.decap_for_charge(1.0, 1e-9, 0.05) == pytest.approx(20e-9, rel=1e-12, abs=0)
     assert pdn.decap_for_charge_sharing(1e-9, 0.1) == pytest.approx(9e-9, rel=1e-12, abs=0)

@@ -1,8 +1,8 @@
 """Netlist solver and the exact RC-line element against ngspice AC analyses.
 
 Every deck drives the port with a 1 A AC current source, so the printed node voltage is the
-impedance (ngspice manual, AC analysis; REFERENCES §12). Ladders in the first two tests are
-written here as text, independently of `ladder_expansion`.
+impedance (ngspice manual, AC analysis; docs/references.md [130]). Ladders in the first two tests
+are written here as text, independently of `ladder_expansion`.
 """
 
 from __future__ import annotations

@@ -9,27 +9,28 @@ from scipy.constants import hour
 from celllab.physics import tddb
 
 
-def test_area_scaling_row17() -> None:
-    # Source: REFERENCES §13 row 17 [DF], beta 1.5, A_test/A_chip = 1e-4 -> 2.1544e-3; rel 1e-4
+def test_area_scaling_check_value() -> None:
+    # Source: docs/references.md [82] [DF], beta 1.5, A_test/A_chip = 1e-4 -> 2.1544e-3; rel 1e-4
     assert tddb.area_scaled_eta(1.0, 1e-4, 1.0, 1.5) == pytest.approx(2.1544e-3, rel=1e-4)
 
 
 def test_area_scaling_percentile_equivalence() -> None:
-    # Source: REFERENCES §8, 1 - F2 = (1 - F1)^(A2/A1) is the same law as eta scaling; rel 1e-9
+    # Source: docs/references.md [82], 1 - F2 = (1 - F1)^(A2/A1) is the same law as eta
+    # scaling; rel 1e-9
     eta, beta, a1, a2, t = 1e8, 1.5, 1e-10, 1e-6, 3e5
     f1 = tddb.weibull_cdf(t, eta, beta)
     f2 = tddb.area_scaled_fraction(f1, a1, a2)
     assert f2 == pytest.approx(
         tddb.weibull_cdf(t, tddb.area_scaled_eta(eta, a1, a2, beta), beta), rel=1e-9
     )
-    # Source: REFERENCES §8 [DF] F = 1e-4 percentile factor 2.1545e-3; rel 1e-4
+    # Source: docs/references.md [82] [DF] F = 1e-4 percentile factor 2.1544e-3; rel 1e-4
     p_test = tddb.weibull_percentile(1e-4, 1.0, 1.5)
     p_chip = tddb.weibull_percentile(1e-4, tddb.area_scaled_eta(1.0, 1e-4, 1.0, 1.5), 1.5)
-    assert p_chip / p_test == pytest.approx(2.1545e-3, rel=1e-4)
+    assert p_chip / p_test == pytest.approx(2.1544e-3, rel=1e-4)
 
 
 def test_weibull_relations() -> None:
-    # Source: REFERENCES §8 Weibull identities; exact
+    # Source: docs/references.md [81] Weibull identities; exact
     eta, beta = 1e7, 1.3
     assert tddb.weibull_cdf(eta, eta, beta) == pytest.approx(1 - np.exp(-1), rel=1e-12)
     t = tddb.weibull_percentile(0.01, eta, beta)
@@ -41,9 +42,9 @@ def test_weibull_relations() -> None:
 @pytest.mark.parametrize(
     ("n", "expected"),
     [
-        (44, 1.7592e13),  # Source: REFERENCES §13 row 18 [DF]; rel 1e-4
-        (40, 1.0995e12),  # Source: REFERENCES §8 [DF]; rel 1e-4
-        (48, 2.8147e14),  # Source: REFERENCES §8 [DF]; rel 1e-4
+        (44, 1.7592e13),  # Source: docs/references.md [83] [DF]; rel 1e-4
+        (40, 1.0995e12),  # Source: docs/references.md [83] [DF]; rel 1e-4
+        (48, 2.8147e14),  # Source: docs/references.md [83] [DF]; rel 1e-4
     ],
 )
 def test_power_law_acceleration(n: int, expected: float) -> None:
@@ -68,8 +69,8 @@ def test_field_models() -> None:
 @pytest.mark.parametrize(
     ("t_use_C", "expected"),
     [
-        (105.0, 2.942),  # Source: REFERENCES §8 [DF], Ea 0.7 eV, 105 -> 125 degC; rel 1e-3
-        (85.0, 9.763),  # Source: REFERENCES §8 [DF], Ea 0.7 eV, 85 -> 125 degC; rel 1e-3
+        (105.0, 2.942),  # Source: docs/references.md [84] [DF], Ea 0.7 eV; rel 1e-3
+        (85.0, 9.763),  # Source: docs/references.md [84] [DF], Ea 0.7 eV; rel 1e-3
     ],
 )
 def test_arrhenius(t_use_C: float, expected: float) -> None:
@@ -80,9 +81,9 @@ def test_arrhenius(t_use_C: float, expected: float) -> None:
 @pytest.mark.parametrize(
     ("failures", "confidence", "expected"),
     [
-        (0, 0.6, 916.29),  # Source: REFERENCES §13 row 19 [DF]; rel 1e-4
-        (0, 0.9, 2302.6),  # Source: REFERENCES §8 [DF]; rel 1e-4
-        (1, 0.6, 2022.3),  # Source: REFERENCES §8 [DF]; rel 1e-4
+        (0, 0.6, 916.29),  # Source: docs/references.md [85] [DF]; rel 1e-4
+        (0, 0.9, 2302.6),  # Source: docs/references.md [85] [DF]; rel 1e-4
+        (1, 0.6, 2022.3),  # Source: docs/references.md [85] [DF]; rel 1e-4
     ],
 )
 def test_fit_chi_square(failures: int, confidence: float, expected: float) -> None:
@@ -92,7 +93,8 @@ def test_fit_chi_square(failures: int, confidence: float, expected: float) -> No
 
 
 def test_time_to_failure_chain() -> None:
-    # Source: REFERENCES §8 chain eta_use = eta_ref (A_ref/A)^(1/beta) AF_V AF_T; rel 1e-12
+    # Source: docs/references.md [80] chain eta_use = eta_ref (A_ref/A)^(1/beta) AF_V AF_T
+    # (rel 1e-12)
     kw = {
         "eta_ref_s": 1e4,
         "area_ref": 1e-10,

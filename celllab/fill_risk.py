@@ -17,22 +17,25 @@ JEDEC/ESDA qualification (JESD47, JEP122, JS-001, JS-002) and licensed practice.
 from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
 from scipy.constants import micro, milli, nano, year
 
-from celllab.characterization import esd_events, oxide_risk
+from celllab.characterization import cell_risk, esd_events, oxide_risk
 from celllab.characterization.esd_events import EsdEvent
 from celllab.characterization.oxide_risk import MissionProfile
-from celllab.characterization.risk_inputs import OxideRiskInputs, gather
+from celllab.characterization.params import CornerSet
+from celllab.characterization.risk_inputs import OxideRiskInputs, inputs_from_group
 from celllab.physics import tddb
 
 CAUTION = ("Estimates for comparing cells and fills, not qualification: follow the foundry's "
            "reliability and ESD rules, JEDEC/ESDA qualification (JESD47, JEP122, JS-001, JS-002) "
            "and licensed practice.")
 MM2 = milli**2
+#: Frequencies of the characterization run here (only the circuits are used), Hz.
+_FREQ_HZ = np.logspace(5, 12, 29)
 DEFAULT_EVENTS: tuple[EsdEvent, ...] = (
     EsdEvent("hbm", 2000.0), EsdEvent("hbm", 2000.0, "negative"),
     EsdEvent("cdm", 250.0), EsdEvent("cdm", 250.0, "negative"),
@@ -252,6 +255,31 @@ def fill_oxide_risk(deck: Any, cells: Sequence[Any], fill_mm2: float | Mapping[s
         worst_corner=risks[0].corners[worst], cells=[by_name[n] for n in mapping])
 
 
+def gather(deck: Any, cells: Sequence[Any], corners: Sequence[str] | None = None
+           ) -> list[OxideRiskInputs]:
+    """Characterize ``cells`` under ``deck`` and collect the oxide-risk inputs per circuit structure
+    (the same topology evaluation as the engine; only the circuits and operating points are used)."""
+    from celllab import topologies
+    from celllab.cells.expand import resolve
+
+    corner_set = CornerSet.from_deck(deck, list(corners) if corners else None)
+    geos = [resolve(c, deck) for c in cells]
+    groups: dict[str, list[int]] = {}
+    for i, c in enumerate(cells):
+        groups.setdefault(c.topology, []).append(i)
+    found = []
+    for topology, idx in groups.items():
+        out = topologies.evaluate(topology, deck, corner_set, [cells[i] for i in idx],
+                                  [geos[i] for i in idx], _FREQ_HZ)
+        parts = out.parts if hasattr(out, "parts") else [(list(range(len(idx))), out)]
+        for local, part in parts:
+            positions = [idx[k] for k in local]
+            found.append(inputs_from_group(deck, corner_set, topology, part, positions,
+                                           [cells[i] for i in positions],
+                                           [geos[i] for i in positions]))
+    return found
+
+
 # --- ESD ---------------------------------------------------------------------------------------
 
 
@@ -351,25 +379,9 @@ def esd_exposure(deck: Any, cells: Sequence[Any], *,
         for k, cell in enumerate(g.cells):
             rows = slice(k * g.n_corner, (k + 1) * g.n_corner)
             fill_c[rows] = float(fill_mm2) * c_per_mm2[cell.name] if alone else mixed  # type: ignore[arg-type]
-        prot = replace(g.protection, c_rail=np.asarray(g.protection.c_rail) + fill_c)
-        per_event = []
-        for ev in events:  # a handful of events, each over all rows at once
-            res = esd_events.simulate_event(g.netlist, ev, prot, g.oxides, g.v_bd_pulse,
-                                             channels=g.channels, extra_elements=g.extra_elements,
-                                             nodeset=g.nodeset)
-            notes = esd_events.shielding_notes(res, g.series_rc, g.pair)
-            if res.segments_capped:
-                notes = [n + f"; channel R*C far above the edge: {res.n_segments}-segment ladder, "
-                         "the oxide next to the contacts may see more" for n in notes]
-            per_event.append((res, notes))
-        runs = [res for res, _ in per_event]
-        # (n_event, rows) figures of the worst oxide of each row
-        worst = np.stack([_worst_oxide(r) for r in runs])[..., None]
-        peak_all = np.take_along_axis(np.stack([_pad(r.peak_oxide_V) for r in runs]), worst, -1)[..., 0]
-        above_all = np.take_along_axis(np.stack([_pad(r.time_above_s) for r in runs]), worst, -1)[..., 0]
-        margin_all = np.stack([r.worst_margin for r in runs])
-        rail_all = np.stack([r.peak_rail_V for r in runs])
-        shield_all = np.stack([r.shielding for r in runs])
+        fig = cell_risk.event_figures(g, events, fill_c)
+        peak_all, above_all, margin_all = fig.peak_oxide_V, fig.time_above_s, fig.margin
+        rail_all, shield_all = fig.peak_rail_V, fig.shielding
         for k, cell in enumerate(g.cells):
             rows = slice(k * g.n_corner, (k + 1) * g.n_corner)
             margin, above = margin_all[:, rows], above_all[:, rows]
@@ -377,19 +389,8 @@ def esd_exposure(deck: Any, cells: Sequence[Any], *,
                 cell=cell.name, topology=g.topology, oxide=cell.oxide, corners=g.corners,
                 events=[ev.label for ev in events], fill_capacitance_nF=float(np.max(fill_c[rows])) / nano,
                 v_bd_pulse_V=g.v_bd_pulse[rows], peak_rail_V=rail_all[:, rows],
-                peak_oxide_V=peak_all[:, rows] if g.oxides else np.full_like(margin, np.nan),
+                peak_oxide_V=peak_all[:, rows],
                 time_above_ns=above / nano, margin=margin, shielding=shield_all[:, rows],
                 survives=(margin > 1.0) & (above == 0.0),
-                notes=[notes[rows] for _, notes in per_event])
+                notes=[notes[rows] for notes in fig.notes])
     return [results[n] for n in names]
-
-
-def _pad(a: np.ndarray) -> np.ndarray:
-    """(rows, n_oxide) with a zero column for cells without gate oxide."""
-    return a if a.shape[1] else np.zeros((a.shape[0], 1))
-
-
-def _worst_oxide(res: esd_events.EventResult) -> np.ndarray:
-    if not res.oxides:
-        return np.zeros(res.rail_V.shape[0], dtype=int)
-    return np.asarray(np.argmin(res.margin, axis=1))

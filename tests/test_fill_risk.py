@@ -10,11 +10,11 @@ import pytest
 
 from celllab.cells import CellSpec
 from celllab.characterization.esd_events import EsdEvent
-from celllab.characterization.fill_risk import cell_oxide_risk, esd_exposure, fill_oxide_risk
+from celllab.fill_risk import cell_oxide_risk, esd_exposure, fill_oxide_risk
 from celllab.deck import load_deck
 from celllab.physics import tddb
 
-DECK = load_deck(Path(__file__).resolve().parents[2] / "process_decks" / "quill28hk.toml")
+DECK = load_deck(Path(__file__).resolve().parents[1] / "process_decks" / "quill28hk.toml")
 TIED = CellSpec(name="tied", topology="nmos_inversion", oxide="core", width_sites=16, fingers=2)
 PAIR = CellSpec(name="pair", topology="cross_coupled", oxide="core", width_sites=16, fingers=2)
 MOM = CellSpec(name="mom", topology="mom", width_sites=16)
