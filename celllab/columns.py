@@ -8,7 +8,10 @@ Worst and best over corners (one definition, ``Column.extreme``): per metric, *w
 least favourable value over a cell's corners (the minimum of a higher-is-better metric, the
 maximum of a lower-is-better one) and *best* the most favourable. The catalog's SQL aggregate
 (``Column.sql_aggregate``) and the Python version (``Column.over_corners``) both come from it;
-empty values (NaN, NULL) are skipped, and a metric empty at every corner stays empty.
+empty values (NaN, NULL) are skipped, and a metric empty at every corner stays empty. A bound
+flag (``Column.bounds``: ``srf_is_bound`` marks ``srf_GHz``) is not aggregated on its own: it is
+the flag of the corner that gives its metric's worst/best value (``schema.fill_extremes``,
+``records.corner_metrics``).
 
 Corner selectors, read the same way by queries and exports: a corner name is that corner;
 ``"worst"`` / ``"best"`` (``AGGREGATE_CORNERS``) are the per-metric extremes above; ``None``
@@ -48,6 +51,8 @@ class Column:
     digits : int        significant digits when shown to people
     compute : callable  metrics only: the value in ``unit`` from the SI figures of one cell at
                         one corner (``records.CornerFigures``); the engine calls it
+    bounds : str        for a bound flag: the metric it marks (1 = that metric's value is only a
+                        lower bound; shown with "≥", see ``bound_flag``)
     """
 
     name: str
@@ -57,6 +62,7 @@ class Column:
     kind: Kind = "number"
     digits: int = 4
     compute: Callable[[Any], float] | None = None
+    bounds: str | None = None
 
     @property
     def higher_is_better(self) -> bool:
@@ -110,21 +116,32 @@ METRICS: tuple[Column, ...] = (
            compute=lambda f: f.esr_lf_ohm),
     Column("esr_1GHz_ohm", "ohm", "series resistance Re Z at 1 GHz", "lower",
            compute=lambda f: f.esr_probe_ohm),
-    Column("bandwidth_GHz", "GHz", "usable bandwidth: where C_eff falls to C/sqrt(2)", "higher",
+    Column("bandwidth_GHz", "GHz", "usable bandwidth: where C_eff (loop inductance removed) falls to "
+           "C/sqrt(2), at most the self-resonance (a lower bound where bandwidth_is_bound)", "higher",
            compute=lambda f: from_si(f.bandwidth_Hz, "GHz")),
+    Column("bandwidth_is_bound", "bool", "1 when bandwidth_GHz is only a lower bound", "lower", kind="bool",
+           compute=lambda f: float(f.bandwidth_is_bound), bounds="bandwidth_GHz"),
     Column("esl_pH", "pH", "equivalent series inductance", "lower",
            compute=lambda f: from_si(f.esl_H, "pH")),
-    Column("srf_GHz", "GHz", "self-resonance frequency", "higher",
+    Column("srf_GHz", "GHz", "self-resonance frequency (above the deck's analysed band: computed from the "
+           "equivalent circuit and flagged; a lower bound where srf_is_bound)", "higher",
            compute=lambda f: from_si(f.srf_Hz, "GHz")),
+    Column("srf_is_bound", "bool", "1 when srf_GHz is only a lower bound: no resonance in the circuit up to it",
+           "lower", kind="bool", compute=lambda f: float(f.srf_is_bound), bounds="srf_GHz"),
     Column("tau_ps", "ps", "RC time constant ESR x C", "lower",
            compute=lambda f: from_si(f.tau_s, "ps")),
-    Column("leakage_nA", "nA", "gate tunnelling leakage at the supply", "lower",
-           compute=lambda f: from_si(f.leakage_A, "nA")),
-    Column("leakage_nA_per_nF", "nA/nF", "leakage per nF of capacitance", "lower", compute=_per_nF),
+    Column("leakage_nA", "nA", "total leakage at the supply: gate tunnelling plus well-junction reverse "
+           "current", "lower", compute=lambda f: from_si(f.leakage_A, "nA")),
+    Column("leakage_nA_per_nF", "nA/nF", "total leakage per nF of capacitance", "lower", compute=_per_nF),
+    Column("gate_leakage_nA", "nA", "gate tunnelling current at the supply (electrons or holes by device)",
+           "lower", compute=lambda f: from_si(f.gate_leakage_A, "nA")),
+    Column("junction_leakage_nA", "nA", "reverse current of the well junctions the supply biases (empty when "
+           "the deck gives no densities)", "lower", compute=lambda f: from_si(f.junction_leakage_A, "nA")),
     Column("oxide_field_MV_per_cm", "MV/cm", "oxide field at the supply", "lower",
            compute=lambda f: from_si(f.e_ox_V_per_m, "MV/cm")),
-    Column("tddb_life_years", "years", "time to 0.01 % oxide breakdown of this cell at the supply", "higher",
-           compute=lambda f: from_si(f.ttf_s, "years")),
+    Column("tddb_fit_per_mm2", "FIT/mm^2", "gate-oxide breakdown rate per mm^2 of this cell's gate oxide, "
+           "averaged over 10 years at this corner's supply and temperature (times a fill's gate area: its "
+           "rate; empty for MOM)", "lower", compute=lambda f: from_si(f.tddb_rate_per_s_m2, "FIT/mm^2")),
     Column("pulse_vbd_V", "V", "gate-oxide breakdown voltage under a ~100 ns ESD-like pulse (rail clamps "
            "must hold the rails below it; empty for MOM)", "higher", compute=lambda f: f.vbd_pulse_V),
     Column("hbm_oxide_peak_V", "V", "largest voltage across the cell's gate oxide during the deck's HBM zap "
@@ -198,6 +215,24 @@ METRIC_BY_NAME: dict[str, Column] = {m.name: m for m in METRICS}
 COLUMNS: dict[str, Column] = {**TEXT_COLUMNS, **METRIC_BY_NAME, **CELL_COLUMNS, **CORNER_COLUMNS}
 #: Columns with a ranking direction (metrics and the cell columns that have one).
 RANKED: dict[str, Column] = {**METRIC_BY_NAME, **{n: c for n, c in CELL_COLUMNS.items() if c.better}}
+
+
+#: Metric name -> the bool metric that marks its value as a lower bound.
+BOUND_FLAGS: dict[str, str] = {c.bounds: c.name for c in METRICS if c.bounds}
+
+
+def bound_flag(name: str) -> str | None:
+    """The column that marks ``name``'s value as a lower bound (``srf_GHz`` -> ``srf_is_bound``)."""
+    return BOUND_FLAGS.get(name)
+
+
+def is_lower_bound(row: Any, name: str) -> bool:
+    """Whether ``row`` (a mapping of column values) holds only a lower bound for ``name``."""
+    flag = BOUND_FLAGS.get(name)
+    if flag is None:
+        return False
+    value = row.get(flag) if hasattr(row, "get") else None
+    return value is not None and not (isinstance(value, float) and math.isnan(value)) and bool(value)
 
 
 def unit_of(name: str) -> str:

@@ -14,10 +14,13 @@ from typing import Any
 
 import numpy as np
 
-from celllab.columns import unit_of
+from celllab.columns import BOUND_FLAGS, is_lower_bound, unit_of
 
-__all__ = ["corner_conditions", "finite_or_none", "format_number", "format_value", "jsonable", "nan_to_none", "none_to_nan",
-           "text_table"]
+__all__ = ["LOWER_BOUND", "corner_conditions", "finite_or_none", "format_metric", "format_number", "format_value",
+           "jsonable", "mark_bounds", "nan_to_none", "none_to_nan", "text_table"]
+
+#: Prefix of a value that is only a lower bound (no resonance or cutoff found up to it).
+LOWER_BOUND = "≥"
 
 #: Magnitudes shown in plain notation by ``format_number(..., plain_range=PLAIN_RANGE)``;
 #: outside it, exponent notation keeps table columns narrow (a display choice, not a rule).
@@ -54,6 +57,22 @@ def format_value(value: Any, empty: str = "-", digits: int = 4) -> str:
     if isinstance(value, Real):
         return empty if math.isnan(float(value)) else format_number(float(value), digits)
     return str(value)
+
+
+def format_metric(row: Mapping[str, Any], name: str, empty: str = "-", digits: int = 4) -> str:
+    """``row[name]`` as ``format_value`` does, prefixed with "≥" when the row marks it as a lower
+    bound (``columns.is_lower_bound``)."""
+    text = format_value(row.get(name), empty, digits)
+    return f"{LOWER_BOUND}{text}" if text != empty and is_lower_bound(row, name) else text
+
+
+def mark_bounds(row: Mapping[str, Any], empty: str = "-", digits: int = 4) -> dict[str, Any]:
+    """A copy of ``row`` whose lower-bound values read "≥value" (text); other values unchanged."""
+    out = dict(row)
+    for name in BOUND_FLAGS:
+        if name in out and is_lower_bound(row, name):
+            out[name] = format_metric(row, name, empty, digits)
+    return out
 
 
 def corner_conditions(temperature_C: float, supply_V: float) -> str:

@@ -19,7 +19,7 @@ from celllab.characterization.cell_risk import CatalogRisk, catalog_figures
 from celllab.characterization.esd_events import EsdEvent
 from celllab.characterization.params import CornerSet
 from celllab.characterization.risk_inputs import inputs_from_group
-from celllab.deck.schema import Deck
+from celllab.deck.schema import AnalysisBand, Deck
 from celllab.records import (
     METRICS,
     CellResult,
@@ -29,10 +29,17 @@ from celllab.records import (
     CVCurve,
     FrequencyResponse,
 )
-from celllab.units import from_si
+from celllab.units import from_si, to_si
 
-#: Frequency sweep of every response: 100 kHz .. 1 THz, 20 points per decade.
-FREQ_HZ = np.logspace(5, 12, 141)
+
+def sweep_frequencies(band: AnalysisBand) -> np.ndarray:
+    """The log-spaced sweep of a deck's analysis band (``[analysis]``), Hz, both ends included."""
+    lo, hi = to_si(band.f_min_MHz, "MHz"), to_si(band.f_max_GHz, "GHz")
+    return np.geomspace(lo, hi, max(2, int(round(np.log10(hi / lo) * band.points_per_decade)) + 1))
+
+
+#: Sweep of a deck that states no band (the ``[analysis]`` defaults: 100 kHz .. 100 GHz).
+FREQ_HZ = sweep_frequencies(AnalysisBand())
 
 Progress = Callable[[str, int, int], None]
 
@@ -53,13 +60,14 @@ def characterize(deck: Deck, cells: Sequence[CellSpec], corners: Sequence[str] |
     for i, c in enumerate(cells):
         groups.setdefault(c.topology, []).append(i)
     done = 0
+    freq = sweep_frequencies(deck.analysis)
     for topology, idx in groups.items():
         group_cells = [cells[i] for i in idx]
         group_geo = [geometries[i] for i in idx]
-        out = topologies.evaluate(topology, deck, corner_set, group_cells, group_geo, FREQ_HZ)
+        out = topologies.evaluate(topology, deck, corner_set, group_cells, group_geo, freq)
         risk = _risk(deck, corner_set, topology, out, group_cells, group_geo) if esd else {}
         for k, i in enumerate(idx):
-            results[i] = _record(cells[i], geometries[i], corner_set, out, k, risk.get(k))
+            results[i] = _record(cells[i], geometries[i], corner_set, out, k, freq, risk.get(k))
         done += len(idx)
         if progress:
             progress(f"{deck.name}: {topology}", done, len(cells))
@@ -113,29 +121,42 @@ def _finite(x: float) -> float:
     return float(x) if np.isfinite(x) else float("nan")
 
 
-def _record(spec: CellSpec, geo: Any, corners: CornerSet, group: Any, index: int,
+def _band_flags(out: Any, k: int, j: int, top_Hz: float) -> list[str]:
+    """Flags of SRF and bandwidth values above the analysed band (computed) or bounds."""
+    top = f"{from_si(top_Hz, 'GHz'):g} GHz"
+    flags = []
+    for name, label in (("srf", "self-resonance"), ("bandwidth", "usable bandwidth")):
+        value = f"{from_si(float(out.summary[f'{name}_Hz'][k, j]), 'GHz'):.4g} GHz"
+        if bool(out.summary[f"{name}_is_bound"][k, j]):
+            flags.append(f"{name}_is_bound: no {label} in the equivalent circuit up to {value}, where the "
+                         "lumped circuit stops describing the cell (a tenth of a wavelength) or the search ends; "
+                         "the value is a lower bound, not a result")
+        elif bool(out.summary[f"{name}_beyond_band"][k, j]):
+            flags.append(f"{name}_beyond_band: {label} {value} lies above the analysed band (to {top}); "
+                         "computed from the equivalent circuit, an extrapolation of the lumped model")
+    return flags
+
+
+def _record(spec: CellSpec, geo: Any, corners: CornerSet, group: Any, index: int, freq: np.ndarray,
             risk: tuple[CatalogRisk, int] | None = None) -> CellResult:
     out, k = group.row(index)
     corner_results = []
     notes = list(out.notes)
     for j, cname in enumerate(corners.names):
-        flags = list(out.flags[k][j])
+        flags = list(out.flags[k][j]) + _band_flags(out, k, j, float(freq[-1]))
         if risk is not None:
             flags += [f for f in risk[0].flags[risk[1] * len(corners.names) + j] if f not in flags]
         bw = float(out.summary["bandwidth_Hz"][k, j])
-        if not np.isfinite(bw):
-            flags.append("bandwidth_beyond_sweep: C_eff stays above C/sqrt(2) up to 1 THz; value is a lower bound")
-            bw = float(FREQ_HZ[-1])
         srf = float(out.summary["srf_Hz"][k, j])
-        if not np.isfinite(srf):
-            flags.append("srf_beyond_sweep: no self-resonance below 1 THz; value is a lower bound")
-            srf = float(FREQ_HZ[-1])
         figures = CornerFigures(
             area_um2=geo.area_um2, c_lf_F=float(out.summary["c_lf_F"][k, j]), cap_ox_F=float(out.cap_ox_F[k, j]),
             esr_lf_ohm=float(out.summary["esr_lf_ohm"][k, j]), esr_probe_ohm=float(out.summary["esr_at_ohm"][k, j, 0]),
-            bandwidth_Hz=bw, esl_H=_series_inductance(out, k, j), srf_Hz=srf, tau_s=float(out.summary["tau_s"][k, j]),
-            leakage_A=float(out.leakage_A[k, j]), e_ox_V_per_m=float(out.e_ox_V_per_m[k, j]),
-            ttf_s=float(out.ttf_s[k, j]), vbd_pulse_V=float(out.vbd_pulse_V[k, j]),
+            bandwidth_Hz=bw, bandwidth_is_bound=bool(out.summary["bandwidth_is_bound"][k, j]),
+            esl_H=_series_inductance(out, k, j), srf_Hz=srf, srf_is_bound=bool(out.summary["srf_is_bound"][k, j]),
+            tau_s=float(out.summary["tau_s"][k, j]),
+            gate_leakage_A=float(out.gate_leakage_A[k, j]), junction_leakage_A=float(out.junction_leakage_A[k, j]),
+            e_ox_V_per_m=float(out.e_ox_V_per_m[k, j]), tddb_rate_per_s_m2=float(out.tddb_rate_per_s_m2[k, j]),
+            vbd_pulse_V=float(out.vbd_pulse_V[k, j]),
             **_risk_figures(risk, len(corners.names), j))
         m = {metric.name: _finite(metric.compute(figures)) for metric in METRICS}  # type: ignore[misc]
         cv = None
@@ -145,7 +166,7 @@ def _record(spec: CellSpec, geo: Any, corners: CornerSet, group: Any, index: int
         corner_results.append(CornerResult(
             corner=cname, temperature_C=float(from_si(corners.temperature_K[j], "degC")),
             supply_V=float(out.supply_V[k, j]), metrics=m,
-            response=FrequencyResponse(freq_Hz=FREQ_HZ.copy(), z_ohm=out.z_ohm[k, j].copy()), cv=cv, flags=flags))
+            response=FrequencyResponse(freq_Hz=freq.copy(), z_ohm=out.z_ohm[k, j].copy()), cv=cv, flags=flags))
     if risk is not None and risk[0].notes[risk[1] * len(corners.names)] != "no gate oxide":
         notes.append(f"HBM {spec.name} at {corners.names[0]}: " + risk[0].notes[risk[1] * len(corners.names)])
     geometry = {**spec.geometry, **{f"resolved_{key}": v for key, v in geo.as_dict().items() if key != "mom_layers"}}

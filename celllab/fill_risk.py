@@ -21,7 +21,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
-from scipy.constants import micro, milli, nano, year
+from scipy.constants import micro, milli, nano, year, zero_Celsius
 
 from celllab.characterization import cell_risk, esd_events, oxide_risk
 from celllab.characterization.esd_events import EsdEvent
@@ -165,7 +165,7 @@ class FillOxideRisk:
         total = sum(self.footprint_mm2.values())
         lines = [
             f"fill: {total:.4g} mm^2 of decap ({self.gate_area_mm2:.4g} mm^2 of gate oxide) for "
-            f"{m.life_s / year:.3g} years at {m.temperature_K - 273.15:.4g} degC, "
+            f"{m.life_s / year:.3g} years at {m.temperature_K - zero_Celsius:.4g} degC, "
             f"supply x{m.supply_scale:.3g}",
             f"worst corner {self.worst_corner}: {self.failure_ppm[j]:.3g} ppm oxide failures over "
             f"the life ({self.fit[j]:.3g} FIT); target {m.target_fraction * 1e6:.3g} ppm -> "

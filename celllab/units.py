@@ -22,6 +22,7 @@ from scipy.constants import (
     centi,
     femto,
     giga,
+    hour,
     mega,
     micro,
     milli,
@@ -91,6 +92,10 @@ UNITS: dict[str, Unit] = {
         Unit("%", "1", centi, suffixes=("_pct",)),
         Unit("nA/nF", "A/F", 1.0, suffixes=("_nA_per_nF",)),
         Unit("A/cm^2", "A/m^2", (1 / centi) ** 2, suffixes=("_A_per_cm2",)),
+        Unit("fA/um^2", "A/m^2", femto / micro**2, suffixes=("_fA_per_um2",)),
+        Unit("fA/um", "A/m", femto / micro, suffixes=("_fA_per_um",)),
+        # failure rates: FIT = failures per 1e9 device-hours; per mm^2 of gate oxide
+        Unit("FIT/mm^2", "1/(s m^2)", 1.0 / (giga * hour * milli**2), suffixes=("_fit_per_mm2",)),
         # materials
         Unit("cm^-3", "m^-3", (1 / centi) ** 3, suffixes=("_cm3",)),
         Unit("cm^2/(V s)", "m^2/(V s)", centi**2, suffixes=("_cm2_per_Vs",)),

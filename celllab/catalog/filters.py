@@ -555,7 +555,10 @@ def describe_language() -> str:
         "               words or quoted text for name/deck/family/topology/oxide/corner",
         "  corners      with --corner worst (default) each metric is its least favourable value",
         "               over the corners (best: most favourable) before the filter applies;",
-        "               temperature_C and supply_V are empty there",
+        "               temperature_C and supply_V are empty there; a *_is_bound flag is that of",
+        "               the corner giving its metric's value",
+        "  bounds       srf_is_bound, bandwidth_is_bound: the value is only a lower bound (shown",
+        "               as ≥value); e.g. srf_GHz >= 50 and not srf_is_bound",
         "Metrics (per corner; better = direction of ranking by default):",
     ]
     width = max(len(n) for n in FIELDS)

@@ -189,6 +189,14 @@ def fill_extremes(db: sqlite_utils.Database, after_cell_id: int = 0) -> None:
             f"WHERE cell_id > ? GROUP BY cell_id",
             [after_cell_id],
         )
+        for flag, metric in ((m, METRIC_BY_NAME[m].bounds) for m in METRIC_NAMES if METRIC_BY_NAME[m].bounds):
+            # a bound flag follows the corner that gives its metric's extreme, not its own
+            db.execute(
+                f'UPDATE corner_extremes SET "{flag}" = (SELECT MAX(m."{flag}") FROM corner_metrics m '
+                f'WHERE m.cell_id = corner_extremes.cell_id AND m."{metric}" = corner_extremes."{metric}") '
+                f"WHERE kind = ? AND cell_id > ?",
+                [kind, after_cell_id],
+            )
 
 
 def _v1_to_v2(db: sqlite_utils.Database) -> None:

@@ -24,8 +24,8 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.constants import hour, milli, year, zero_Celsius
 
+from celllab.characterization.oxide_stress import tddb_failure_rate_per_area
 from celllab.characterization.risk_inputs import OxideRiskInputs
-from celllab.physics import tddb
 from celllab.physics.constants import FloatArray
 from celllab.physics.netlist import Element, Netlist
 from celllab.physics.transient import VoltageSource, constant, operating_point_status
@@ -111,31 +111,21 @@ def wearout(inputs: OxideRiskInputs, mission: MissionProfile) -> Wearout:
     -----
     V_use = |V_gate at the corner| x (V_nominal x supply_scale) / V_corner (the operating gate
     voltage scaled with the supply); T_use = the mission temperature; the corner's own process
-    values (thickness, Weibull and acceleration parameters). Hazard per area from
-    `tddb.cumulative_hazard_per_area`; FIT per mm^2 = h x 1 mm^2 x 1e9 / life[h] (JESD85 FIT,
+    values (thickness, Weibull and acceleration parameters). Hazard per area = the mission-average
+    rate of `oxide_stress.tddb_failure_rate_per_area` (the one TDDB chain) x life; FIT per mm^2 = h x 1 mm^2 x 1e9 / life[h] (JESD85 FIT,
     linear in area while F is small).
     """
-    rel = inputs.reliability
     n_rows = inputs.supply.size
+    shape = (inputs.n_variant, inputs.n_corner)
     hazards: dict[str, FloatArray] = {}
     v_use: dict[str, FloatArray] = {}
     cell_hazard = np.zeros(n_rows)
     area = np.zeros(n_rows)
     for label in inputs.oxides:
         v = inputs.v_gate[label] * inputs.nominal_supply * mission.supply_scale / inputs.supply
-        h = np.full(n_rows, np.nan)
-        for model in ("power", "e", "inverse_e"):  # at most three laws, not a loop over rows
-            mask = rel["model"] == model
-            if not np.any(mask):
-                continue
-            value = tddb.cumulative_hazard_per_area(
-                mission.life_s, np.maximum(v[mask], 1e-3), mission.temperature_K,
-                eta_ref_s=rel["eta_ref_s"][mask], area_ref=rel["area_ref_m2"][mask],
-                v_ref=rel["v_ref_V"][mask], t_ref_K=rel["t_ref_K"][mask],
-                beta=rel["weibull_beta"][mask], model=model,  # type: ignore[arg-type]
-                exponent=rel["exponent_si"][mask], ea_eV=rel["activation_energy_eV"][mask],
-                t_ox=inputs.eot[mask])
-            h[mask] = value
+        rate = tddb_failure_rate_per_area(inputs.corner_set, inputs.flavour, v.reshape(shape),
+                                          mission.life_s, temperature_K=mission.temperature_K)
+        h = np.asarray(rate, dtype=float).reshape(-1) * mission.life_s
         hazards[label], v_use[label] = h, v
         cell_hazard += inputs.gate_area[label] * h
         area += inputs.gate_area[label]

@@ -14,15 +14,10 @@ from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
-from scipy.constants import micro, milli, nano, pico, zero_Celsius
+from scipy.constants import micro, milli, nano, pico
 
 from celllab.characterization.esd_events import RailProtection
-from celllab.characterization.oxide_stress import (
-    _EXPONENT_TO_SI,
-    _MODEL,
-    _sub_table_str,
-    oxide_subtable,
-)
+from celllab.characterization.oxide_stress import oxide_subtable
 from celllab.characterization.params import CornerSet
 from celllab.physics import mos_cv
 from celllab.physics.netlist import Element, Netlist
@@ -73,9 +68,7 @@ class OxideRiskInputs:
     spot_ohm: np.ndarray
     source_ohm: np.ndarray
     fault_limit_A: np.ndarray
-    eot: np.ndarray                   # m
-    temperature_K: np.ndarray
-    reliability: dict[str, np.ndarray]
+    corner_set: CornerSet             # the corners' decks (process values per corner)
     channels: tuple[DistributedChannel, ...] = ()
     extra_elements: tuple[Element, ...] = ()    # added for transients (junction capacitances)
     dc_elements: tuple[Element, ...] = ()       # added for DC analyses (drain leakage)
@@ -239,16 +232,7 @@ def inputs_from_group(deck: Any, corners: CornerSet, topology: str, out: Any, po
     else:
         gate_area, v_gate = {}, {}
     prot, source, limit = _protection(deck, corners, rails, supply)
-    rel_names = ("weibull_beta", "eta_ref_s", "area_ref_um2", "v_ref_V", "t_ref_C",
-                 "acceleration_exponent", "activation_energy_eV", "breakdown_spot_ohm")
-    rel = {name: _rows(oxide_subtable(corners, flavour, "reliability", name), n_v, n_c)
-           for name in rel_names}
-    accel = np.broadcast_to(_sub_table_str(corners, flavour, "reliability", "acceleration"),
-                            (n_v, n_c)).reshape(-1)
-    rel["model"] = np.array([_MODEL[a] for a in accel])
-    rel["exponent_si"] = rel["acceleration_exponent"] * np.array([_EXPONENT_TO_SI[a] for a in accel])
-    rel["area_ref_m2"] = rel["area_ref_um2"] * micro**2
-    rel["t_ref_K"] = rel["t_ref_C"] + zero_Celsius
+    spot = _rows(oxide_subtable(corners, flavour, "reliability", "breakdown_spot_ohm"), n_v, n_c)
     flags: list[list[str]] = [[] for _ in range(n_v * n_c)]
     channels: tuple[DistributedChannel, ...] = ()
     extra: tuple[Element, ...] = ()
@@ -266,7 +250,5 @@ def inputs_from_group(deck: Any, corners: CornerSet, topology: str, out: Any, po
         nominal_supply=_rows(np.array([deck.supply_for(str(r)) for r in rails])[:, None], n_v, n_c),
         protection=prot, series_rc=(_series_rc(topology, out.netlist) if oxides
                                     else np.full(n_v * n_c, np.nan)),
-        spot_ohm=rel.pop("breakdown_spot_ohm"), source_ohm=source, fault_limit_A=limit,
-        eot=_rows(corners.oxide_table("eot_m", flavour), n_v, n_c),
-        temperature_K=_rows(corners.temperature_K[None, :], n_v, n_c), reliability=rel,
+        spot_ohm=spot, source_ohm=source, fault_limit_A=limit, corner_set=corners,
         channels=channels, extra_elements=extra, dc_elements=leaks, nodeset=nodeset, flags=flags)

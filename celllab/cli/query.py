@@ -14,7 +14,8 @@ from typing import Any
 
 from celllab import CAUTION_SHORT, DEFAULT_CATALOG
 from celllab.columns import CELL_COLUMNS, COLUMNS, METRIC_BY_NAME, METRIC_NAMES, RANKED, unit_of
-from celllab.display import format_value, jsonable, text_table
+from celllab.display import LOWER_BOUND, format_value, jsonable, mark_bounds, text_table
+from celllab.units import from_si
 
 #: Columns of ``rank`` and ``pareto`` tables unless --columns says otherwise.
 DEFAULT_COLUMNS = (
@@ -26,7 +27,7 @@ DEFAULT_COLUMNS = (
     "esr_ohm",
     "bandwidth_GHz",
     "leakage_nA_per_nF",
-    "tddb_life_years",
+    "tddb_fit_per_mm2",
 )
 
 
@@ -34,9 +35,10 @@ DEFAULT_COLUMNS = (
 
 
 def render_table(rows: Sequence[dict[str, Any]], columns: Sequence[str]) -> str:
-    """Plain-text table: a header of column names, then one line per row (catalog numbers right-aligned)."""
+    """Plain-text table: a header of column names, then one line per row (catalog numbers
+    right-aligned, lower bounds as "≥value")."""
     numeric = {c for c in columns if c in COLUMNS and COLUMNS[c].kind != "text"}
-    return text_table(rows, columns, numeric)
+    return text_table([mark_bounds(r) for r in rows], columns, numeric)
 
 
 def dump_json(value: Any) -> str:
@@ -50,8 +52,9 @@ def render_compare(rows: Sequence[dict[str, Any]]) -> str:
     labels = (
         names if len(set(names)) == len(names) else [f"{r['name']} ({r['deck']})" for r in rows]
     )
+    marked = [mark_bounds(r) for r in rows]
     table = [
-        {"column": k, "unit": unit_of(k), **{lab: r.get(k) for lab, r in zip(labels, rows)}}
+        {"column": k, "unit": unit_of(k), **{lab: r.get(k) for lab, r in zip(labels, marked)}}
         for k in keys
     ]
     return render_table(table, ["column", "unit", *labels])
@@ -65,6 +68,11 @@ def render_cell(cell: Any, deck: str) -> str:
         f"  cell_hash {cell.cell_hash}",
     ]
     lines.append("  " + "   ".join(f"{c} {format_value(getattr(cell, c))}" for c in CELL_COLUMNS))
+    if cell.corners and len(cell.corners[0].response.freq_Hz):
+        freq = cell.corners[0].response.freq_Hz
+        lines.append(f"  analysed band {format_value(from_si(float(freq[0]), 'MHz'))} MHz to "
+                     f"{format_value(from_si(float(freq[-1]), 'GHz'))} GHz; SRF and bandwidth above it are "
+                     f"computed from the equivalent circuit (flagged), {LOWER_BOUND} marks a lower bound")
     if cell.geometry:
         lines.append("  geometry: " + ", ".join(f"{k}={v}" for k, v in cell.geometry.items()))
     if cell.notes:
@@ -78,12 +86,13 @@ def render_cell(cell: Any, deck: str) -> str:
         },
         {"metric": "supply_V", "unit": unit_of("supply_V"), **{c.corner: c.supply_V for c in cell.corners}},
     ]
+    marked = {c.corner: mark_bounds(c.metrics) for c in cell.corners}
     table += [
         {
             "metric": m,
             "unit": METRIC_BY_NAME[m].unit,
             "better": METRIC_BY_NAME[m].better,
-            **{c.corner: c.metrics.get(m) for c in cell.corners},
+            **{c.corner: marked[c.corner].get(m) for c in cell.corners},
         }
         for m in METRIC_NAMES
     ]

@@ -8,6 +8,7 @@ range check; descriptions say what the field means. Values are stored as the use
 from __future__ import annotations
 
 import re
+import warnings
 from typing import Any, Literal
 
 from pydantic import (
@@ -76,11 +77,10 @@ class DeviceParams(StrictModel):
 class LeakageParams(StrictModel):
     model: LeakageModel = Field("direct_tunnel", description="direct_tunnel: Schuegraf-King-Hu WKB "
                                 "model; reference: scale a measured density")
-    barrier_eV: float = _f(0.5, 5.0, "tunnelling barrier height, eV", default=3.1)
-    mass_ratio: float = _f(0.05, 1.0, "oxide tunnelling effective mass / m0", default=0.40)
     area_factor: float = _f(1e-6, 1e3, "empirical multiplier on the WKB density (calibration), unitless",
                             default=1.0)
-    j_ref_A_per_cm2: float | None = _f(0, 1e5, "reference gate current density, A/cm^2", default=None)
+    j_ref_A_per_cm2: float | None = _f(0, 1e5, "reference gate current density (electron tunnelling, "
+                                       "an NMOS in inversion), A/cm^2", default=None)
     j_ref_t_ox_nm: float | None = _f(0.3, 20, "oxide thickness of the reference density, nm", default=None)
     j_ref_V: float | None = _f(0.05, 10, "gate voltage of the reference density, V", default=None)
     decades_per_nm: float = _f(0.5, 20, "decades of current per nm of oxide thinning", default=5.0)
@@ -93,6 +93,33 @@ class LeakageParams(StrictModel):
             if missing:
                 raise ValueError("model 'reference' needs " + ", ".join(missing))
         return self
+
+
+# --- gate tunnelling per carrier and its temperature law ([oxides.<flavour>.tunnelling]) -------
+
+#: Fields of ``[oxides.<flavour>.leakage]`` that moved to ``[oxides.<flavour>.tunnelling]``.
+MOVED_TUNNELLING_FIELDS: dict[str, str] = {"barrier_eV": "electron_barrier_eV", "mass_ratio": "electron_mass_ratio"}
+
+
+class Tunnelling(StrictModel):
+    """Gate tunnelling per carrier through one dielectric, and its temperature law.
+
+    Electrons tunnel from the conduction band where the channel or accumulation layer holds
+    electrons (NMOS in inversion, n-type accumulation); holes from the valence band where it holds
+    holes (PMOS in inversion, p-type accumulation). Defaults: Lee & Hu, IEEE TED 48(7), 2001 (the
+    BSIM4 constants): electrons 3.1 eV / 0.40 m0, holes 4.5 eV / 0.32 m0.
+    """
+
+    electron_barrier_eV: float = _f(0.5, 6.0, "barrier for electrons from the conduction band, eV", default=3.1)
+    electron_mass_ratio: float = _f(0.05, 1.0, "oxide effective mass of tunnelling electrons / m0", default=0.40)
+    hole_barrier_eV: float = _f(0.5, 6.0, "barrier for holes from the valence band, eV", default=4.5)
+    hole_mass_ratio: float = _f(0.05, 1.0, "oxide effective mass of tunnelling holes / m0", default=0.32)
+    temperature_exponent: float = _f(-5.0, 10.0, "gate current J(T) = J(T_ref) (T/T_ref)^exponent on top of "
+                                     "the bias shift, unitless (2.5: BSIM-CMG IGT default)", default=2.5)
+    hole_j_ref_A_per_cm2: float | None = _f(0, 1e5, "reference model only: hole gate current density at the "
+                                            "leakage reference point (a PMOS in inversion), A/cm^2; omitted: "
+                                            "the electron reference times the WKB hole/electron ratio",
+                                            default=None)
 
 
 class ReliabilityParams(StrictModel):
@@ -136,7 +163,36 @@ class OxideFlavour(StrictModel):
     nmos: DeviceParams
     pmos: DeviceParams
     leakage: LeakageParams = LeakageParams()
+    tunnelling: Tunnelling = Tunnelling()
     reliability: ReliabilityParams
+
+    @model_serializer(mode="wrap")
+    def _canonical(self, handler: SerializerFunctionWrapHandler, info: SerializationInfo) -> dict[str, Any]:
+        # the per-carrier tunnelling table stays out of the dump (and hash) at its published defaults
+        return _without_defaults(dict(handler(self)), {"tunnelling": Tunnelling().model_dump()}, info)
+
+    @model_validator(mode="before")
+    @classmethod
+    def _moved_tunnelling_fields(cls, data: Any) -> Any:
+        # leakage.barrier_eV / mass_ratio were the electron parameters before tunnelling was split
+        # by carrier: still read (with a FutureWarning), written back under tunnelling
+        if not isinstance(data, dict) or not isinstance(data.get("leakage"), dict):
+            return data
+        moved = {old: new for old, new in MOVED_TUNNELLING_FIELDS.items() if old in data["leakage"]}
+        if not moved:
+            return data
+        data = {**data, "leakage": dict(data["leakage"])}
+        tunnelling = dict(data.get("tunnelling") or {})
+        for old, new in moved.items():
+            value = data["leakage"].pop(old)
+            if new in tunnelling and tunnelling[new] != value:
+                raise ValueError(f"leakage.{old} ({value}) and tunnelling.{new} ({tunnelling[new]}) disagree; "
+                                 f"give only tunnelling.{new}")
+            tunnelling[new] = value
+        data["tunnelling"] = tunnelling
+        warnings.warn("deck: " + ", ".join(f"leakage.{o} is now tunnelling.{n}" for o, n in moved.items())
+                      + " (read for now; rename it in the deck)", FutureWarning, stacklevel=2)
+        return data
 
     @model_validator(mode="after")
     def _thickness(self) -> "OxideFlavour":
@@ -172,6 +228,37 @@ class Wells(StrictModel):
     nwell_doping_cm3: float = _f(1e14, 1e19, "n-well doping under PMOS channels, cm^-3")
     nwell_sheet_ohm_per_sq: float = _f(10, 1e5, "n-well sheet resistance, ohm/sq")
     pwell_sheet_ohm_per_sq: float = _f(10, 1e5, "p-well sheet resistance, ohm/sq")
+
+
+# --- well-junction leakage ([junctions.<kind>]) ------------------------------------------------
+
+#: Reverse-biased well junctions a decap cell can hold, by the name used in ``[junctions]``.
+JunctionKind = Literal["nwell", "deep_nwell"]
+
+
+class JunctionLeakage(StrictModel):
+    """Reverse saturation current of one well junction kind, BSIM4-style diode.
+
+    I = (J_area A + J_perimeter P)(1 - exp(-V / (N kT/q))) at reverse bias V, with the densities
+    scaled from the reference temperature by exp{[Eg(T_ref)/(kT_ref/q) - Eg(T)/(kT/q)
+    + XTI ln(T/T_ref)] / N} (BSIM4 JSS/JSWS and their temperature law).
+    """
+
+    area_fA_per_um2: float = _f(0, 1e6, "saturation current per junction area at the reference "
+                                "temperature, fA/um^2")
+    perimeter_fA_per_um: float = _f(0, 1e6, "saturation current per junction perimeter at the reference "
+                                    "temperature, fA/um")
+    xti: float = _f(0, 10, "temperature exponent of the saturation current (BSIM4 XTIS), unitless", default=3.0)
+    emission_coefficient: float = _f(0.5, 5, "diode emission coefficient N (BSIM4 NJS), unitless", default=1.0)
+
+
+class Junctions(StrictModel):
+    """Well junctions reverse-biased by the supply in some decap cells; a kind left out is not modelled
+    (its cells carry a flag and count no junction leakage)."""
+
+    nwell: JunctionLeakage | None = Field(None, description="n-well to p-substrate (an n-well on VDD)")
+    deep_nwell: JunctionLeakage | None = Field(None, description="deep n-well to p-substrate (isolated "
+                                               "p-wells on VDD)")
 
 
 class Resistances(StrictModel):
@@ -238,6 +325,27 @@ class Layout(StrictModel):
     def pwell_half_um(self) -> float:
         """Height of a core row's p-well half, um."""
         return self.row_height_um - self.nwell_half_um
+
+
+# --- the frequency band the deck's cells are analysed over ([analysis]) -------------------------
+
+class AnalysisBand(StrictModel):
+    """The band a deck's cells are swept over: the band that matters for decoupling in this
+    process (from below the package resonance to a few times its fastest clock harmonics).
+    Self-resonance and cutoff above it are computed from each cell's equivalent circuit and
+    marked as beyond the band, or stored as lower bounds where the circuit shows none."""
+
+    f_min_MHz: float = _f(1e-3, 1e3, "lowest swept frequency (the low-frequency C and ESR are read "
+                          "there), MHz", gt=True, default=0.1)
+    f_max_GHz: float = _f(0.01, 1e4, "highest swept frequency: top of the band that matters, GHz",
+                          gt=True, default=100.0)
+    points_per_decade: float = _f(5, 200, "sweep points per decade (rounded to a whole number)", default=20.0)
+
+    @model_validator(mode="after")
+    def _ordered(self) -> "AnalysisBand":
+        if to_si(self.f_max_GHz, "GHz") <= 10 * to_si(self.f_min_MHz, "MHz"):
+            raise ValueError("f_max_GHz must lie more than a decade above f_min_MHz")
+        return self
 
 
 #: Supply net names: letters, digits and _ (safe in Liberty, LEF and SPICE without quoting).
@@ -396,10 +504,12 @@ class Deck(StrictModel):
                                         default=25.0)
     oxides: dict[OxideName, OxideFlavour]
     wells: Wells
+    junctions: Junctions = Junctions()
     resistances: Resistances
     metals: list[MetalLayer] = Field(min_length=1)
     layout: Layout
     supplies: Supplies
+    analysis: AnalysisBand = AnalysisBand()
     corners: dict[str, Corner] = Field(min_length=1)
     rails: dict[str, RailDomain] = Field(default_factory=dict, description="ESD clamp and supply of "
                                          "each rail (core, io or a named rail); a rail not listed takes "
@@ -411,10 +521,13 @@ class Deck(StrictModel):
 
     @model_serializer(mode="wrap")
     def _canonical(self, handler: SerializerFunctionWrapHandler, info: SerializationInfo) -> dict[str, Any]:
-        # left out of the dump (and the content hash) while every coefficient is zero
-        return _without_defaults(dict(handler(self)), {"resistance_tempco": ResistanceTempco().model_dump(),
-                                                        "rails": {}, "mission": Mission().model_dump(),
-                                                        "esd": EsdTargets().model_dump()}, info)
+        # left out of the dump (and the content hash) while at their defaults: no temperature
+        # coefficients, no well junctions modelled, the default analysis band, rail clamps,
+        # mission and ESD events
+        return _without_defaults(dict(handler(self)), {
+            "resistance_tempco": ResistanceTempco().model_dump(), "junctions": Junctions().model_dump(),
+            "analysis": AnalysisBand().model_dump(), "rails": {}, "mission": Mission().model_dump(),
+            "esd": EsdTargets().model_dump()}, info)
 
     def full_dump(self) -> dict[str, Any]:
         """Every field as JSON data, defaults included (the paths corners and what-ifs may name)."""

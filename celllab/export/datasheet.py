@@ -24,7 +24,7 @@ from matplotlib.ticker import FuncFormatter, NullLocator
 
 from celllab import MODEL_VERSION, __version__
 from celllab.columns import CELL_COLUMNS, METRICS, unit_of
-from celllab.display import format_value
+from celllab.display import format_metric, format_value
 from celllab.export import CAUTION, atomic_write_text
 from celllab.records import CellResult, CornerResult, corner_metrics
 from celllab.units import from_si
@@ -47,7 +47,7 @@ _SUMMARY_METRICS = (
     "bandwidth_GHz",
     "srf_GHz",
     "leakage_nA",
-    "tddb_life_years",
+    "tddb_fit_per_mm2",
 )
 
 _ESD_WARNING = (
@@ -257,7 +257,7 @@ def _metrics_table(corners: Sequence[CornerResult]) -> str:
     )
     rows = [f'<tr><th scope="row">conditions</th><td></td><td></td>{conditions}</tr>']
     for info in METRICS:
-        cells = "".join(f"<td>{_fmt(c.metrics.get(info.name))}</td>" for c in corners)
+        cells = "".join(f"<td>{_text(format_metric(c.metrics, info.name, 'n/a'))}</td>" for c in corners)
         rows.append(
             f'<tr><th scope="row" title="{_attr(info.description)}">{_text(info.name)}</th>'
             f"<td>{_text(info.unit)}</td><td>{_text(info.better)}</td>{cells}</tr>"
@@ -385,7 +385,7 @@ def _summary_table(cells: Sequence[CellResult], corner: str | None) -> str:
         picks = [c.corner for c in cell.corners] if every else [corner]
         for pick in picks:
             values = corner_metrics(cell, pick)
-            tds = "".join(f"<td>{_fmt(values.get(m))}</td>" for m in shown)
+            tds = "".join(f"<td>{_text(format_metric(values, m, 'n/a'))}</td>" for m in shown)
             rows.append(
                 f'<tr><td><a href="#{_anchor(cell.name)}">{_text(cell.name)}</a></td>'
                 + (f"<td>{_text(pick)}</td>" if every else "")

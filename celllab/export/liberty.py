@@ -96,13 +96,15 @@ def leakage_parts(result: CornerResult) -> LeakageParts:
 
     Reads ``gate_leakage_nA`` and ``junction_leakage_nA`` where the catalog has them; a record
     without a gate part counts its ``leakage_nA`` (gate tunnelling) as the gate part, and one
-    without a junction part counts 0 nA of junction leakage.
+    without a junction part, or with an empty one (the deck gives no junction densities; the row
+    carries a flag), counts 0 nA of junction leakage, as the catalog's ``leakage_nA`` does.
     """
     metrics = result.metrics
     gate = metrics.get("gate_leakage_nA", metrics.get("leakage_nA"))
     junction = metrics.get("junction_leakage_nA", 0.0)
     if gate is None:
         raise ValueError("no leakage_nA metric")
+    junction = 0.0 if junction is None or math.isnan(float(junction)) else junction
     return LeakageParts(float(gate), float(junction))
 
 

@@ -24,6 +24,13 @@ Sign conventions
 
 The capacitance is quasi-static (low frequency): source/drain or well taps supply the mobile
 carriers, as in a decap. Use ``hf_min_capacitance`` only for an isolated MOS capacitor.
+
+Minority carriers: ``minority_carriers=False`` describes a device whose contacts supply majority
+carriers only (an accumulation capacitor: n+ gate over an n-well with n+ taps). Driven from flat
+band toward inversion its surface cannot invert within any electrical time scale, so it goes into
+deep depletion: the minority term of F is dropped and the depletion region keeps widening past
+W_max (Nicollian & Brews 1982; Sze & Ng 2007 ch. 4; docs/references.md [25]). Thermal generation
+refills an inversion layer only over ms to s; that slow equilibrium is not modelled.
 """
 
 from __future__ import annotations
@@ -430,12 +437,14 @@ def _frame(
     n_i: ArrayLike | None,
     eps_r_si: ArrayLike,
     eps_r_gate: ArrayLike,
+    minority_carriers: bool | ArrayLike = True,
 ) -> tuple[FloatArray, _Frame]:
     sign = _body_sign(body_type)
     vt = thermal_voltage(temperature)
     n = np.asarray(body_doping, dtype=float)
     eps_s = epsilon_0 * np.asarray(eps_r_si, dtype=float)
-    ratio = (_n_i(temperature, n_i) / n) ** 2
+    # no minority-carrier supply (deep depletion): the minority term of F is absent
+    ratio = (_n_i(temperature, n_i) / n) ** 2 * np.where(np.asarray(minority_carriers, dtype=bool), 1.0, 0.0)
     c_ox = np.asarray(cox, dtype=float)
     if gate_doping is None:
         n_gate = np.asarray(np.inf)
@@ -533,6 +542,7 @@ def mos_operating_point(
     n_i: ArrayLike | None = None,
     eps_r_si: ArrayLike = EPS_R_SI,
     eps_r_gate: ArrayLike = EPS_R_POLY,
+    minority_carriers: bool | ArrayLike = True,
 ) -> MosOperatingPoint:
     """Solve the MOS gate equation and return surface potential, charges and capacitance.
 
@@ -550,6 +560,10 @@ def mos_operating_point(
     centroid : bool            apply the charge-centroid correction (default True)
     n_i : array_like, optional intrinsic density override, m^-3
     eps_r_si, eps_r_gate : relative permittivities of body and poly (11.7)
+    minority_carriers : bool or array_like of bool
+        True (default): contacts supply minority carriers, the quasi-static curve inverts.
+        False: majority-carrier contacts only; beyond flat band toward inversion the surface
+        goes into deep depletion (no inversion branch; see module notes)
 
     Returns
     -------
@@ -583,6 +597,7 @@ def mos_operating_point(
         n_i=n_i,
         eps_r_si=eps_r_si,
         eps_r_gate=eps_r_gate,
+        minority_carriers=minority_carriers,
     )
     v_target = sign * (np.asarray(vg, dtype=float) - np.asarray(vfb, dtype=float))
     shape = np.broadcast_shapes(np.shape(v_target), *(np.shape(a) for a in fr[:-2]))
@@ -616,6 +631,7 @@ class MosInputs(TypedDict, total=False):
     n_i: ArrayLike | None
     eps_r_si: ArrayLike
     eps_r_gate: ArrayLike
+    minority_carriers: bool | ArrayLike
 
 
 def solve_surface_potential(vg: ArrayLike, **inputs: Unpack[MosInputs]) -> FloatArray:

@@ -169,38 +169,6 @@ def use_characteristic_life(
     return np.asarray(eta * temperature_acceleration(t_ref_K, temperature, ea_eV), dtype=np.float64)
 
 
-def cumulative_hazard_per_area(
-    t: ArrayLike,
-    voltage: ArrayLike,
-    temperature: ArrayLike,
-    *,
-    eta_ref_s: ArrayLike,
-    area_ref: ArrayLike,
-    v_ref: ArrayLike,
-    t_ref_K: ArrayLike,
-    beta: ArrayLike,
-    model: VoltageModel,
-    exponent: ArrayLike,
-    ea_eV: ArrayLike,
-    t_ox: ArrayLike | None = None,
-) -> FloatArray:
-    """Cumulative Weibull hazard per unit oxide area after a time t at use conditions, 1/m^2.
-
-    Notes
-    -----
-    H(t, A) = (A / A_ref) (t / eta_ref,use)^beta with eta_ref,use the reference-area life at use
-    (`use_characteristic_life` at A_ref), so F = 1 - exp(-sum_i A_i h_i) for any mix of oxide
-    areas A_i with hazards per area h_i (weakest link: independent spots fail as a Poisson
-    process, Degraeve et al., IEEE TED 45(4):904, 1998). The additive figure that scales with
-    gate area; same parameters as `use_characteristic_life`.
-    """
-    eta = use_characteristic_life(
-        area_ref, voltage, temperature, eta_ref_s=eta_ref_s, area_ref=area_ref, v_ref=v_ref,
-        t_ref_K=t_ref_K, beta=beta, model=model, exponent=exponent, ea_eV=ea_eV, t_ox=t_ox)
-    z = (np.asarray(t, dtype=float) / eta) ** np.asarray(beta, dtype=float)
-    return np.asarray(z / np.asarray(area_ref, dtype=float), dtype=np.float64)
-
-
 def fraction_from_hazard(hazard: ArrayLike) -> FloatArray:
     """Failure fraction F = 1 - exp(-H) of a total cumulative hazard H (unitless)."""
     return np.asarray(-np.expm1(-np.asarray(hazard, dtype=float)), dtype=np.float64)

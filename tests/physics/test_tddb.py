@@ -171,24 +171,6 @@ def test_area_law_worked_case() -> None:
     assert 100 * (t63 / eta) ** beta == pytest.approx(1.0, rel=1e-10)
 
 
-KW = dict(eta_ref_s=3e5, area_ref=1e-9, v_ref=2.6, t_ref_K=398.15, beta=1.6, model="power", exponent=42.0,
-          ea_eV=0.6)
-
-
-def test_hazard_per_area_composes_the_weibull_chain() -> None:
-    # 1 - exp(-A h) must equal the Weibull CDF of the area-scaled, accelerated characteristic life
-    # (the same JEP122 chain written two ways); rel 1e-9
-    t, area, v, temp = 10 * 365.25 * 24 * hour, 3e-7, 1.32, 378.15
-    h = tddb.cumulative_hazard_per_area(t, v, temp, **KW)
-    eta = tddb.use_characteristic_life(area, v, temp, **KW)
-    assert tddb.fraction_from_hazard(area * h) == pytest.approx(tddb.weibull_cdf(t, eta, 1.6), rel=1e-9)
-    # and scipy's Weibull agrees with the same life
-    assert tddb.fraction_from_hazard(area * h) == pytest.approx(weibull_min.cdf(t, 1.6, scale=eta), rel=1e-9)
-    # time_to_failure is the inverse at that area
-    f = float(tddb.fraction_from_hazard(area * h))
-    assert tddb.time_to_failure(f, area, v, temp, **KW) == pytest.approx(t, rel=1e-9)
-
-
 def test_area_for_fraction_inverts_the_hazard() -> None:
     # A_max = -ln(1 - F) / h makes F exactly the target; rel 1e-12
     h = 2.5e3  # 1/m^2
