@@ -26,6 +26,7 @@ from scipy.constants import micro, milli, nano, year, zero_Celsius
 from celllab.characterization import cell_risk, esd_events, oxide_risk
 from celllab.characterization.esd_events import EsdEvent
 from celllab.characterization.oxide_risk import MissionProfile
+from celllab.characterization.oxide_stress import tddb_failure_rate_per_area
 from celllab.characterization.params import CornerSet
 from celllab.characterization.risk_inputs import OxideRiskInputs, inputs_from_group
 from celllab.physics import tddb
@@ -278,6 +279,70 @@ def gather(deck: Any, cells: Sequence[Any], corners: Sequence[str] | None = None
                                            [cells[i] for i in positions],
                                            [geos[i] for i in positions]))
     return found
+
+
+# --- a chip's thin-oxide budget over a mission of phases (the planner's wear-out budget) -------
+
+
+@dataclass(frozen=True)
+class MissionPhase:
+    """One phase of a mission profile: duration (s), junction temperature (K), gate voltage (V)."""
+
+    duration: float
+    temperature: float
+    voltage: float
+
+
+def mission_hazard_per_area(deck: Any, oxide: str, mission: Sequence[MissionPhase]) -> float:
+    """Cumulative TDDB hazard of 1 m^2 of ``oxide`` gate after the mission, 1/m^2 (the deck's
+    nominal process values).
+
+    Notes
+    -----
+    Each phase's hazard from the one TDDB chain (`oxide_stress.tddb_failure_rate_per_area` x
+    duration, at the phase's voltage and temperature); phases add by cumulative exposure,
+    H = (sum_i H_i^(1/beta))^beta, i.e. sum_i t_i / eta_i raised to beta (W. Nelson, Accelerated
+    Testing, Wiley 1990, from memory). Valid while one Weibull slope describes the oxide over
+    the whole mission.
+    """
+    if oxide not in deck.oxides:
+        raise ValueError(f"oxide = {oxide!r} -> allowed: {', '.join(deck.oxides)}")
+    beta = float(deck.oxides[oxide].reliability.weibull_beta)
+    nominal = CornerSet(["nominal"], [deck], np.array([zero_Celsius + deck.reference_temperature_C]),
+                        zero_Celsius + deck.reference_temperature_C)
+    exposure = 0.0
+    for p in mission:  # a handful of phases
+        if not (p.duration > 0 and p.temperature > 0 and np.isfinite(p.voltage)):
+            raise ValueError(f"mission phase {p} -> duration and temperature must be > 0")
+        rate = tddb_failure_rate_per_area(nominal, np.array([oxide]), np.array([[p.voltage]]),
+                                          p.duration, temperature_K=p.temperature)
+        exposure += float(rate.reshape(-1)[0] * p.duration) ** (1.0 / beta)
+    return exposure**beta
+
+
+def affordable_gate_area(deck: Any, oxide: str, mission: Sequence[MissionPhase],
+                         failure_fraction: float) -> float:
+    """Largest gate area of ``oxide`` whose failure fraction after the mission is at most
+    ``failure_fraction`` (0 < F < 1), m^2; inf when the mission does not wear the oxide.
+
+    A = -ln(1 - F) / H with H from `mission_hazard_per_area` (`tddb.area_for_fraction`).
+    """
+    if not 0 < failure_fraction < 1:
+        raise ValueError(f"failure_fraction = {failure_fraction!r} -> must lie in (0, 1)")
+    hazard = mission_hazard_per_area(deck, oxide, mission)
+    if hazard <= 0:
+        return float("inf")
+    return float(tddb.area_for_fraction(failure_fraction, hazard))
+
+
+def gate_failure_fraction(deck: Any, oxide: str, mission: Sequence[MissionPhase], area: float) -> float:
+    """Failure fraction of ``area`` m^2 of ``oxide`` gate after the mission (0 for no area).
+
+    F = 1 - exp(-A H) (weakest link, `tddb.fraction_from_hazard`).
+    """
+    if area <= 0:
+        return 0.0
+    return float(tddb.fraction_from_hazard(area * mission_hazard_per_area(deck, oxide, mission)))
 
 
 # --- ESD ---------------------------------------------------------------------------------------
