@@ -28,8 +28,8 @@ from physics.ngspice_util import render_transient  # noqa: E402
 
 from celllab.cells import load_cells  # noqa: E402
 from celllab.characterization.esd_events import EsdEvent, RailProtection, event_circuit  # noqa: E402
-from celllab.fill_risk import gather  # noqa: E402
 from celllab.deck import load_deck  # noqa: E402
+from celllab.fill_risk import gather  # noqa: E402
 from celllab.physics import transient as tr  # noqa: E402
 from celllab.physics.netlist import Element, Netlist  # noqa: E402
 

@@ -98,11 +98,13 @@ def _risk_figures(risk: tuple[CatalogRisk, int] | None, n_corner: int, j: int) -
         return {}
     fig, k = risk
     r = k * n_corner + j
+
+    def above(ev: Any) -> float:  # empty, not zero, for a cell without gate oxide
+        return float(ev.time_above_s[0, r]) if np.isfinite(ev.peak_oxide_V[0, r]) else float("nan")
+
     return dict(
-        hbm_peak_oxide_V=float(np.abs(fig.hbm.peak_oxide_V[0, r])),
-        hbm_time_above_s=float(fig.hbm.time_above_s[0, r]),
-        cdm_peak_oxide_V=float(np.abs(fig.cdm.peak_oxide_V[0, r])),
-        cdm_time_above_s=float(fig.cdm.time_above_s[0, r]),
+        hbm_peak_oxide_V=float(np.abs(fig.hbm.peak_oxide_V[0, r])), hbm_time_above_s=above(fig.hbm),
+        cdm_peak_oxide_V=float(np.abs(fig.cdm.peak_oxide_V[0, r])), cdm_time_above_s=above(fig.cdm),
         hbm_oxide_share=float(fig.hbm.shielding[0, r]), esd_series_helps=float(fig.series_helps[r]),
         fault_current_A=float(fig.fault_current_A[r]), fault_power_W=float(fig.fault_power_W[r]),
         fault_survives=float(fig.fault_survives[r]))

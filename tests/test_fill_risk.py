@@ -10,8 +10,8 @@ import pytest
 
 from celllab.cells import CellSpec
 from celllab.characterization.esd_events import EsdEvent
-from celllab.fill_risk import cell_oxide_risk, esd_exposure, fill_oxide_risk
 from celllab.deck import load_deck
+from celllab.fill_risk import cell_oxide_risk, esd_exposure, fill_oxide_risk
 from celllab.physics import tddb
 
 DECK = load_deck(Path(__file__).resolve().parents[1] / "process_decks" / "quill28hk.toml")

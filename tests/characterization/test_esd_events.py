@@ -20,8 +20,8 @@ from celllab.characterization.esd_events import (
     simulate_event,
 )
 from celllab.characterization.risk_inputs import OxideRiskInputs
-from celllab.fill_risk import gather
 from celllab.deck import load_deck
+from celllab.fill_risk import gather
 from celllab.physics import transient as tr
 from celllab.physics.circuits import mos_decap_circuit
 

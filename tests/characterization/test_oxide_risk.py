@@ -20,8 +20,8 @@ from scipy.stats import weibull_min
 from celllab.cells import CellSpec
 from celllab.characterization.oxide_risk import MissionProfile, fault_circuit, oxide_fault, wearout
 from celllab.characterization.risk_inputs import OxideRiskInputs
-from celllab.fill_risk import gather
 from celllab.deck import load_deck
+from celllab.fill_risk import gather
 from celllab.physics import transient as tr
 
 DECK_DIR = Path(__file__).resolve().parents[2] / "process_decks"
