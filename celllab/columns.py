@@ -156,6 +156,31 @@ METRICS: tuple[Column, ...] = (
            "rate; empty for MOM)", "lower", compute=lambda f: from_si(f.tddb_rate_per_s_m2, "FIT/mm^2")),
     Column("pulse_vbd_V", "V", "gate-oxide breakdown voltage under a ~100 ns ESD-like pulse (rail clamps "
            "must hold the rails below it; empty for MOM)", "higher", compute=lambda f: f.vbd_pulse_V),
+    Column("hbm_oxide_peak_V", "V", "largest voltage across the cell's gate oxide during the deck's HBM zap "
+           "([esd] hbm_V, unpowered, on the rail's clamp; transient of the cell's circuit; empty for MOM)",
+           "lower", compute=lambda f: f.hbm_peak_oxide_V),
+    Column("hbm_over_vbd_ns", "ns", "time that oxide spends above pulse_vbd_V during the HBM zap", "lower",
+           compute=lambda f: from_si(f.hbm_time_above_s, "ns")),
+    Column("hbm_margin_V", "V", "pulse_vbd_V minus hbm_oxide_peak_V (negative: the zap breaks the oxide)",
+           "higher", compute=lambda f: f.vbd_pulse_V - f.hbm_peak_oxide_V),
+    Column("cdm_oxide_peak_V", "V", "largest voltage across the cell's gate oxide during the deck's CDM "
+           "event ([esd] cdm_V; empty for MOM)", "lower", compute=lambda f: f.cdm_peak_oxide_V),
+    Column("cdm_over_vbd_ns", "ns", "time that oxide spends above pulse_vbd_V during the CDM event", "lower",
+           compute=lambda f: from_si(f.cdm_time_above_s, "ns")),
+    Column("cdm_margin_V", "V", "pulse_vbd_V minus cdm_oxide_peak_V (negative: the event breaks the oxide)",
+           "higher", compute=lambda f: f.vbd_pulse_V - f.cdm_peak_oxide_V),
+    Column("hbm_oxide_share_pct", "%", "share of the rail's HBM peak that reaches the worst oxide (100: the "
+           "oxide sees the whole rail)", "lower", compute=lambda f: from_si(f.hbm_oxide_share, "%")),
+    Column("esd_series_helps", "bool", "1 when the cell's own series path (the pair's devices, a long "
+           "channel) keeps the HBM zap off its oxide: the oxide sees under 90 % of the rail", "higher",
+           kind="bool", compute=lambda f: f.esd_series_helps),
+    Column("broken_oxide_mA", "mA", "DC supply current if one oxide of the cell breaks (tied: spot and "
+           "supply limit it; pair: the protecting device); empty for MOM", "lower",
+           compute=lambda f: from_si(f.fault_current_A, "mA")),
+    Column("broken_oxide_mW", "mW", "supply power drawn then", "lower",
+           compute=lambda f: from_si(f.fault_power_W, "mW")),
+    Column("broken_oxide_ok", "bool", "1 when that current stays within the rail's fault_current_limit_mA",
+           "higher", kind="bool", compute=lambda f: f.fault_survives),
 )
 
 #: Per-cell (corner-independent) columns that can be filtered and ranked too.

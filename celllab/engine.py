@@ -15,7 +15,10 @@ import numpy as np
 from celllab import MODEL_VERSION, topologies
 from celllab.cells.expand import resolve
 from celllab.cells.schema import CellSpec
+from celllab.characterization.cell_risk import CatalogRisk, catalog_figures
+from celllab.characterization.esd_events import EsdEvent
 from celllab.characterization.params import CornerSet
+from celllab.characterization.risk_inputs import inputs_from_group
 from celllab.deck.schema import AnalysisBand, Deck
 from celllab.records import (
     METRICS,
@@ -42,8 +45,14 @@ Progress = Callable[[str, int, int], None]
 
 
 def characterize(deck: Deck, cells: Sequence[CellSpec], corners: Sequence[str] | None = None,
-                 progress: Progress | None = None, sources: Sequence[str] = ()) -> CharacterizationRun:
-    """Characterize every cell at every corner of ``deck`` (or the named ``corners``)."""
+                 progress: Progress | None = None, sources: Sequence[str] = (),
+                 esd: bool = True) -> CharacterizationRun:
+    """Characterize every cell at every corner of ``deck`` (or the named ``corners``).
+
+    ``esd``: also run the deck's ``[esd]`` HBM and CDM events on every cell's circuit and the
+    broken-oxide DC analysis (transients: most of the run time); False leaves those columns
+    empty.
+    """
     corner_set = CornerSet.from_deck(deck, list(corners) if corners else None)
     geometries = [resolve(c, deck) for c in cells]
     results: list[CellResult | None] = [None] * len(cells)
@@ -56,8 +65,9 @@ def characterize(deck: Deck, cells: Sequence[CellSpec], corners: Sequence[str] |
         group_cells = [cells[i] for i in idx]
         group_geo = [geometries[i] for i in idx]
         out = topologies.evaluate(topology, deck, corner_set, group_cells, group_geo, freq)
+        risk = _risk(deck, corner_set, topology, out, group_cells, group_geo) if esd else {}
         for k, i in enumerate(idx):
-            results[i] = _record(cells[i], geometries[i], corner_set, out, k, freq)
+            results[i] = _record(cells[i], geometries[i], corner_set, out, k, freq, risk.get(k))
         done += len(idx)
         if progress:
             progress(f"{deck.name}: {topology}", done, len(cells))
@@ -67,6 +77,37 @@ def characterize(deck: Deck, cells: Sequence[CellSpec], corners: Sequence[str] |
         deck_name=deck.name, deck_hash=deck.content_hash, deck_params=deck.model_dump(mode="json"),
         model_version=MODEL_VERSION, corners=corner_set.names, cells=[r for r in results if r is not None],
         source_files=list(sources))
+
+
+def _risk(deck: Deck, corners: CornerSet, topology: str, out: Any, cells: list[CellSpec],
+          geos: list[Any]) -> dict[int, tuple[CatalogRisk, int]]:
+    """ESD and broken-oxide figures of a group: variant index -> (figures, its index in them)."""
+    events = (EsdEvent("hbm", deck.esd.hbm_V), EsdEvent("cdm", deck.esd.cdm_V))
+    parts = out.parts if hasattr(out, "parts") else [(list(range(len(cells))), out)]
+    found: dict[int, tuple[CatalogRisk, int]] = {}
+    for local, part in parts:  # one per circuit structure
+        inputs = inputs_from_group(deck, corners, topology, part, local, [cells[i] for i in local],
+                                   [geos[i] for i in local])
+        figures = catalog_figures(inputs, *events)
+        found.update({i: (figures, k) for k, i in enumerate(local)})
+    return found
+
+
+def _risk_figures(risk: tuple[CatalogRisk, int] | None, n_corner: int, j: int) -> dict[str, float]:
+    if risk is None:
+        return {}
+    fig, k = risk
+    r = k * n_corner + j
+
+    def above(ev: Any) -> float:  # empty, not zero, for a cell without gate oxide
+        return float(ev.time_above_s[0, r]) if np.isfinite(ev.peak_oxide_V[0, r]) else float("nan")
+
+    return dict(
+        hbm_peak_oxide_V=float(np.abs(fig.hbm.peak_oxide_V[0, r])), hbm_time_above_s=above(fig.hbm),
+        cdm_peak_oxide_V=float(np.abs(fig.cdm.peak_oxide_V[0, r])), cdm_time_above_s=above(fig.cdm),
+        hbm_oxide_share=float(fig.hbm.shielding[0, r]), esd_series_helps=float(fig.series_helps[r]),
+        fault_current_A=float(fig.fault_current_A[r]), fault_power_W=float(fig.fault_power_W[r]),
+        fault_survives=float(fig.fault_survives[r]))
 
 
 def _series_inductance(out: Any, k: int, j: int) -> float:
@@ -98,11 +139,15 @@ def _band_flags(out: Any, k: int, j: int, top_Hz: float) -> list[str]:
     return flags
 
 
-def _record(spec: CellSpec, geo: Any, corners: CornerSet, group: Any, index: int, freq: np.ndarray) -> CellResult:
+def _record(spec: CellSpec, geo: Any, corners: CornerSet, group: Any, index: int, freq: np.ndarray,
+            risk: tuple[CatalogRisk, int] | None = None) -> CellResult:
     out, k = group.row(index)
     corner_results = []
+    notes = list(out.notes)
     for j, cname in enumerate(corners.names):
         flags = list(out.flags[k][j]) + _band_flags(out, k, j, float(freq[-1]))
+        if risk is not None:
+            flags += [f for f in risk[0].flags[risk[1] * len(corners.names) + j] if f not in flags]
         bw = float(out.summary["bandwidth_Hz"][k, j])
         srf = float(out.summary["srf_Hz"][k, j])
         figures = CornerFigures(
@@ -113,7 +158,8 @@ def _record(spec: CellSpec, geo: Any, corners: CornerSet, group: Any, index: int
             tau_s=float(out.summary["tau_s"][k, j]),
             gate_leakage_A=float(out.gate_leakage_A[k, j]), junction_leakage_A=float(out.junction_leakage_A[k, j]),
             e_ox_V_per_m=float(out.e_ox_V_per_m[k, j]), tddb_rate_per_s_m2=float(out.tddb_rate_per_s_m2[k, j]),
-            vbd_pulse_V=float(out.vbd_pulse_V[k, j]))
+            vbd_pulse_V=float(out.vbd_pulse_V[k, j]),
+            **_risk_figures(risk, len(corners.names), j))
         m = {metric.name: _finite(metric.compute(figures)) for metric in METRICS}  # type: ignore[misc]
         cv = None
         if out.cv_bias is not None:
@@ -123,6 +169,8 @@ def _record(spec: CellSpec, geo: Any, corners: CornerSet, group: Any, index: int
             corner=cname, temperature_C=float(from_si(corners.temperature_K[j], "degC")),
             supply_V=float(out.supply_V[k, j]), metrics=m,
             response=FrequencyResponse(freq_Hz=freq.copy(), z_ohm=out.z_ohm[k, j].copy()), cv=cv, flags=flags))
+    if risk is not None and risk[0].notes[risk[1] * len(corners.names)] != "no gate oxide":
+        notes.append(f"HBM {spec.name} at {corners.names[0]}: " + risk[0].notes[risk[1] * len(corners.names)])
     geometry = {**spec.geometry, **{f"resolved_{key}": v for key, v in geo.as_dict().items() if key != "mom_layers"}}
     geometry["resolved_mom_layers"] = [layer.name for layer in geo.mom_layers]
     gate_area = geo.gate_area_um2 if geo.gate_area_um2 else geo.mom_plate_area_um2
@@ -130,5 +178,5 @@ def _record(spec: CellSpec, geo: Any, corners: CornerSet, group: Any, index: int
         name=spec.name, cell_hash=spec.content_hash, family=spec.family, topology=spec.topology, oxide=spec.oxide,
         geometry=geometry, area_um2=geo.area_um2, width_sites=spec.width_sites, height_rows=spec.height_rows,
         gate_area_um2=gate_area, esd_safe=spec.esd_safe, corners=corner_results,
-        netlist={cname: out.netlist_for(k, j) for j, cname in enumerate(corners.names)}, notes=list(out.notes),
+        netlist={cname: out.netlist_for(k, j) for j, cname in enumerate(corners.names)}, notes=notes,
         placement=spec.placement, rail=spec.rail)

@@ -67,6 +67,16 @@ class CornerFigures:
         """Total leakage at the supply, A: gate plus junction (a junction part not modelled counts 0)."""
         junction = 0.0 if math.isnan(self.junction_leakage_A) else self.junction_leakage_A
         return self.gate_leakage_A + junction
+    # ESD events of the deck's [esd] table and one broken oxide (NaN: not computed / no oxide)
+    hbm_peak_oxide_V: float = math.nan    # |peak V_ox| of the worst oxide under HBM, V
+    hbm_time_above_s: float = math.nan    # time above the pulse breakdown voltage, s
+    cdm_peak_oxide_V: float = math.nan
+    cdm_time_above_s: float = math.nan
+    hbm_oxide_share: float = math.nan     # |peak V_ox| / |peak rail| under HBM, 0..1
+    esd_series_helps: float = math.nan    # 1: the cell's series path keeps the zap off its oxide
+    fault_current_A: float = math.nan     # supply current with the worst oxide broken, A
+    fault_power_W: float = math.nan       # supply power then, W
+    fault_survives: float = math.nan      # 1: that current is within the rail's limit
 
 
 @dataclass

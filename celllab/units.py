@@ -78,6 +78,7 @@ UNITS: dict[str, Unit] = {
         Unit("s", "s", 1.0, suffixes=("_s",)),
         Unit("ms", "s", milli, suffixes=("_ms",)),
         Unit("ps", "s", pico, suffixes=("_ps",)),
+        Unit("ns", "s", nano, suffixes=("_ns",)),
         Unit("years", "s", Julian_year, suffixes=("_years",)),
         # voltage, field, current
         Unit("V", "V", 1.0, suffixes=("_V",)),
@@ -86,6 +87,9 @@ UNITS: dict[str, Unit] = {
         Unit("MV/cm", "V/m", mega / centi, suffixes=("_MV_per_cm",)),
         Unit("A", "A", 1.0, suffixes=("_A",)),
         Unit("nA", "A", nano, suffixes=("_nA",)),
+        Unit("mA", "A", milli, suffixes=("_mA",)),
+        Unit("mW", "W", milli, suffixes=("_mW",)),
+        Unit("%", "1", centi, suffixes=("_pct",)),
         Unit("nA/nF", "A/F", 1.0, suffixes=("_nA_per_nF",)),
         Unit("A/cm^2", "A/m^2", (1 / centi) ** 2, suffixes=("_A_per_cm2",)),
         Unit("fA/um^2", "A/m^2", femto / micro**2, suffixes=("_fA_per_um2",)),

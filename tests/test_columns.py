@@ -39,7 +39,8 @@ def test_every_name_once_with_its_unit_in_the_name() -> None:
     # Common practice, no source: the unit is spelled in the column name (cap_fF, leakage_nA).
     tags = {"fF": "fF", "fF/um^2": "fF_per_um2", "ohm": "ohm", "GHz": "GHz", "pH": "pH", "ps": "ps",
             "nA": "nA", "nA/nF": "nA_per_nF", "MV/cm": "MV_per_cm", "FIT/mm^2": "fit_per_mm2", "V": "V",
-            "um^2": "um2", "sites": "sites", "rows": "rows", "degC": "C"}
+            "um^2": "um2", "sites": "sites", "rows": "rows", "degC": "C", "ns": "ns", "mA": "mA", "mW": "mW",
+            "%": "pct"}
     for column in COLUMNS.values():
         if column.kind == "number":
             assert column.name.endswith(tags[column.unit]), column.name

@@ -173,7 +173,8 @@ def test_readme_documents_every_deck_field(deck_dir: Path, demo_deck_paths: dict
     models = [schema.Deck, schema.ProcessInfo, schema.OxideFlavour, schema.DeviceParams, schema.LeakageParams,
               schema.Tunnelling, schema.ReliabilityParams, schema.Wells, schema.Junctions, schema.JunctionLeakage,
               schema.Resistances, schema.MetalLayer, schema.Layout, schema.Supplies, schema.NamedSupply,
-              schema.ResistanceTempco, schema.AnalysisBand, schema.Corner, CellSpec]
+              schema.ResistanceTempco, schema.AnalysisBand, schema.Corner, schema.RailDomain,
+              schema.EsdTargets, schema.Mission, CellSpec]
     def documented(model: type[BaseModel], name: str) -> bool:
         ann = model.model_fields[name].annotation
         if any(isinstance(a, type) and issubclass(a, BaseModel) for a in (ann, *typing.get_args(ann))):

@@ -97,11 +97,13 @@ def gate_leakage_density(corners: CornerSet, oxides: np.ndarray, roles: np.ndarr
 
 
 def tddb_failure_rate_per_area(corners: CornerSet, oxides: np.ndarray, v_gate: np.ndarray,
-                               mission_s: float = MISSION_S) -> np.ndarray:
+                               mission_s: float = MISSION_S,
+                               temperature_K: float | np.ndarray | None = None) -> np.ndarray:
     """Mission-average TDDB failure rate per unit gate-oxide area, 1/(s m^2), per variant x corner.
 
-    The one place the catalog's oxide-wear figure is computed: the corner's gate voltage and
-    temperature held for ``mission_s``.
+    The one place oxide wear is computed: the catalog's figure (the corner's gate voltage and
+    temperature held for ``mission_s``) and a fill's mission (``temperature_K``, K, replaces the
+    corners' temperatures; ``v_gate`` the mission's gate voltage), each corner's process values.
 
     Notes
     -----
@@ -115,7 +117,7 @@ def tddb_failure_rate_per_area(corners: CornerSet, oxides: np.ndarray, v_gate: n
     this x 1e9 h x 1 mm^2. Valid within the deck's acceleration model (JESD92/JEP122 chain).
     """
     eot = corners.oxide_table("eot_m", oxides)
-    temperature = corners.temperature_K[None, :]
+    temperature = corners.temperature_K[None, :] if temperature_K is None else np.asarray(temperature_K)
     v_use = np.maximum(np.abs(v_gate), 1e-3)
 
     def rel(attr: str) -> np.ndarray:

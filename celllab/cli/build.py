@@ -86,7 +86,7 @@ def cmd_build(args: argparse.Namespace) -> int:
     reports = []
     for deck, cells in pairs:
         run = characterize(deck, cells, corners=corners, sources=[*args.deck, *args.cells],
-                           progress=_progress_printer(not args.quiet and not args.json))
+                           progress=_progress_printer(not args.quiet and not args.json), esd=not args.no_esd)
         report = catalog.store_run(run)
         reports.append((deck.name, len(cells), report))
     if args.json:
@@ -103,7 +103,7 @@ def cmd_build(args: argparse.Namespace) -> int:
 def cmd_demo(args: argparse.Namespace) -> int:
     from celllab.demo import build_demo_catalog
 
-    path = build_demo_catalog(args.catalog, progress=_progress_printer(not args.quiet))
+    path = build_demo_catalog(args.catalog, progress=_progress_printer(not args.quiet), esd=not args.no_esd)
     if not args.no_ui:
         try:
             from celllab.tui.app import run_app
@@ -138,6 +138,8 @@ def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
     p.add_argument("--cells", action="append", required=True, metavar="FILE", help="cell file (TOML); repeatable")
     p.add_argument("--catalog", default=str(DEFAULT_CATALOG), metavar="PATH", help="catalog file (default: %(default)s)")
     p.add_argument("--corners", metavar="A,B", help="only these corners (default: all the deck defines)")
+    p.add_argument("--no-esd", action="store_true", help="leave the HBM/CDM and broken-oxide columns empty "
+                   "(skips their transients, most of the run time)")
     p.add_argument("--json", action="store_true", help="print a JSON summary")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
     p.set_defaults(func=cmd_build)
@@ -149,4 +151,6 @@ def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
     p.add_argument("--no-ui", action="store_true", help="print a ranked table instead of opening the UI")
     p.add_argument("--limit", type=int, default=15, help="rows to print with --no-ui (default: %(default)s)")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
+    p.add_argument("--no-esd", action="store_true", help="leave the HBM/CDM and broken-oxide columns empty "
+                   "(skips their transients, most of the run time)")
     p.set_defaults(func=cmd_demo)

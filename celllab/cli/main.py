@@ -22,6 +22,7 @@ VERB_MODULES: tuple[str, ...] = (
     "celllab.cli.query",
     "celllab.cli.export",
     "celllab.cli.plan",
+    "celllab.cli.afford",
     "celllab.cli.ui",
 )
 

@@ -194,7 +194,7 @@ def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
         "kinds. Prints per region and gap class the cells, counts, capacitance, leakage and "
         "what stays empty and why, the budgets and which of them bind, and the block's "
         "lumped PDN figures. The block file (TOML) has tables [block], [candidates] (where, "
-        "corner), [budgets] (leakage_uA, max_kinds, thin_oxide_area_mm2, [budgets.wearout]), "
+        "corner), [budgets] (leakage_uA, max_kinds, thin_oxide_area_mm2, [budgets.wearout], esd_survive, broken_oxide_ok), "
         "[objective] (goal, mip_rel_gap, time_limit_s), [[region]] with "
         "[[region.row_gaps]] and [[region.open_slots]], and an optional [network] table "
         "kept for the supply-network model. See README, 'Planning a block'.",

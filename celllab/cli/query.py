@@ -100,6 +100,7 @@ def render_cell(cell: Any, deck: str) -> str:
     flagged = [(c.corner, c.flags) for c in cell.corners if c.flags]
     lines.append("")
     lines += [f"flags {corner}: {'; '.join(flags)}" for corner, flags in flagged] or ["flags: none"]
+    lines += ["", CAUTION_SHORT]  # ESD, wear-out and fault figures are estimates, not sign-off
     return "\n".join(lines)
 
 
@@ -323,7 +324,7 @@ def describe_language() -> str:
 
 def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
     raw = argparse.RawDescriptionHelpFormatter
-    metric_list = ", ".join(f"{m.name} [{m.unit}]" for m in METRIC_BY_NAME.values())
+    metric_list = ", ".join(f"{m.name} [{m.unit}]" for m in METRIC_BY_NAME.values()).replace("%", "%%")
 
     p = sub.add_parser(
         "rank",

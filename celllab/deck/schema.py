@@ -132,6 +132,12 @@ class ReliabilityParams(StrictModel):
     acceleration_exponent: float = _f(0, 200, "power-law n (t ~ V^-n), E-model gamma (cm/MV) or "
                                       "1/E-model G (MV/cm), per the chosen model")
     activation_energy_eV: float = _f(0, 2.0, "Arrhenius activation energy, eV")
+    breakdown_spot_ohm: float = _f(1, 1e9, "resistance of a hard-breakdown spot through this oxide "
+                                   "(gate to channel), ohm", default=2000.0)
+
+    @model_serializer(mode="wrap")
+    def _canonical(self, handler: SerializerFunctionWrapHandler, info: SerializationInfo) -> dict[str, Any]:
+        return _without_defaults(dict(handler(self)), {"breakdown_spot_ohm": 2000.0}, info)
 
 
 class OxideFlavour(StrictModel):
@@ -405,6 +411,48 @@ class Supplies(StrictModel):
         return self.named[rail].voltage_V
 
 
+class RailDomain(StrictModel):
+    """Protection and supply of one rail domain (the core or I/O VDD-VSS pair)."""
+
+    clamp_on_V: float | None = _f(0.2, 50, "turn-on voltage of the domain's VDD-VSS ESD clamp, V; "
+                                  "omitted: 1.5 x the domain's nominal supply", default=None)
+    clamp_on_ohm: float = _f(0.01, 1000, "on-resistance of the clamp once triggered, ohm",
+                             default=1.0, gt=True)
+    clamp_response_ns: float = _f(0, 100, "time constant of the clamp's trigger (0: instantaneous), "
+                                  "ns", default=0.5)
+    clamp_diode_V: float = _f(0.1, 5, "turn-on of the clamp's reverse (VSS-to-VDD) diode, V",
+                              default=0.7)
+    clamp_diode_ohm: float | None = _f(0.01, 1000, "on-resistance of the clamp's reverse diode, ohm; "
+                                       "omitted: clamp_on_ohm", default=None, gt=True)
+    rail_capacitance_pF: float = _f(0, 1e6, "capacitance between the domain's rails besides the "
+                                    "decap fill (wells, junctions, wiring, circuits), pF", default=100.0)
+    supply_source_ohm: float = _f(0, 1e3, "resistance from the supply through package and grid to a "
+                                  "cell, ohm", default=0.2)
+    fault_current_limit_mA: float = _f(0, 1e6, "largest extra DC current one broken oxide may draw "
+                                       "(supply current limit, standby budget or local rail "
+                                       "electromigration limit, the tightest), mA", default=10.0, gt=True)
+
+
+class Mission(StrictModel):
+    """The life the gate oxides of a fill must survive."""
+
+    life_years: float = _f(0, 100, "operating life, years", default=10.0, gt=True)
+    temperature_C: float = _f(-55, 200, "junction temperature over the life, degC", default=105.0)
+    supply_scale: float | None = _f(0.5, 1.5, "supply over the life as a multiple of nominal; "
+                                    "omitted: the largest corner supply_scale", default=None)
+    target_ppm: float = _f(0, 1e6, "cumulative oxide failure fraction allowed over the life, ppm "
+                           "(sets the affordable gate area)", default=10.0, gt=True)
+
+
+class EsdTargets(StrictModel):
+    """The rail events every cell is characterized under (unpowered part, positive zap)."""
+
+    hbm_V: float = _f(0, 30000, "human-body-model precharge (JS-001 network: 100 pF, 1.5 kohm), V",
+                      default=2000.0, gt=True)
+    cdm_V: float = _f(0, 5000, "charged-device-model charge voltage (the package-capacitance "
+                      "stand-in of physics/esd.py), V", default=250.0, gt=True)
+
+
 class ResistanceTempco(StrictModel):
     """First-order temperature coefficients of the deck's resistances, one per kind.
 
@@ -463,15 +511,23 @@ class Deck(StrictModel):
     supplies: Supplies
     analysis: AnalysisBand = AnalysisBand()
     corners: dict[str, Corner] = Field(min_length=1)
+    rails: dict[str, RailDomain] = Field(default_factory=dict, description="ESD clamp and supply of "
+                                         "each rail (core, io or a named rail); a rail not listed takes "
+                                         "the defaults")
+    mission: Mission = Field(default_factory=Mission, description="oxide life profile")
+    esd: EsdTargets = Field(default_factory=EsdTargets, description="rail events of the catalog's "
+                            "ESD columns")
     resistance_tempco: ResistanceTempco = ResistanceTempco()
 
     @model_serializer(mode="wrap")
     def _canonical(self, handler: SerializerFunctionWrapHandler, info: SerializationInfo) -> dict[str, Any]:
         # left out of the dump (and the content hash) while at their defaults: no temperature
-        # coefficients, no well junctions modelled, the default analysis band
+        # coefficients, no well junctions modelled, the default analysis band, rail clamps,
+        # mission and ESD events
         return _without_defaults(dict(handler(self)), {
             "resistance_tempco": ResistanceTempco().model_dump(), "junctions": Junctions().model_dump(),
-            "analysis": AnalysisBand().model_dump()}, info)
+            "analysis": AnalysisBand().model_dump(), "rails": {}, "mission": Mission().model_dump(),
+            "esd": EsdTargets().model_dump()}, info)
 
     def full_dump(self) -> dict[str, Any]:
         """Every field as JSON data, defaults included (the paths corners and what-ifs may name)."""
@@ -523,6 +579,17 @@ class Deck(StrictModel):
         if s.core_power_net == s.io_power_net and s.core_V != s.io_V:
             problems.append(("supplies.io_power_net", s.io_power_net,
                              f"same net as core_power_net but io_V ({s.io_V:g} V) differs from core_V ({s.core_V:g} V)"))
+        for domain in self.rails:
+            if domain not in self.supplies.rail_names():
+                problems.append((f"rails.{domain}", domain, "not a rail of this deck; allowed: "
+                                 + ", ".join(self.supplies.rail_names())))
+                continue
+            # corner decks carry their scaled supply, so every corner is checked at its own
+            v_supply = self.supply_for(domain)
+            if self.clamp_on_V(domain) <= v_supply:
+                problems.append((f"rails.{domain}.clamp_on_V", self.clamp_on_V(domain),
+                                 f"must exceed the domain's supply ({v_supply:g} V), or the clamp "
+                                 "conducts in operation"))
         for corner_name in self.corners:
             if not corner_name.replace("_", "").replace("-", "").isalnum():
                 problems.append((f"corners.{corner_name}", corner_name, "corner names use letters, digits, _ and -"))
@@ -595,6 +662,21 @@ class Deck(StrictModel):
     def supply_for(self, rail: str) -> float:
         """Nominal voltage of a rail ("core", "io" or a named rail), V; KeyError if unknown."""
         return self.supplies.voltage(rail)
+
+    def rail(self, domain: str) -> RailDomain:
+        """Clamp and supply parameters of a rail domain ("core" or "io"), defaults if not given."""
+        return self.rails.get(domain, RailDomain())  # type: ignore[call-overload]
+
+    def clamp_on_V(self, domain: str) -> float:
+        """Clamp turn-on voltage of a domain, V (1.5 x its nominal supply unless given)."""
+        given = self.rail(domain).clamp_on_V
+        return given if given is not None else 1.5 * self.supply_for(domain)
+
+    def mission_supply_scale(self) -> float:
+        """Supply multiplier over the mission (the largest corner's unless given)."""
+        if self.mission.supply_scale is not None:
+            return self.mission.supply_scale
+        return max(c.supply_scale for c in self.corners.values())
 
     # --- conveniences implemented in celllab.deck.load ----------------------------------
     @property

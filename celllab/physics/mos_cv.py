@@ -142,6 +142,64 @@ def max_depletion_width(
     )
 
 
+def depletion_capacitance_per_area(
+    body_doping: ArrayLike,
+    temperature: ArrayLike,
+    *,
+    n_i: ArrayLike | None = None,
+    eps_r_si: ArrayLike = EPS_R_SI,
+) -> FloatArray:
+    """Channel-to-body depletion capacitance at the onset of strong inversion, F/m^2.
+
+    Notes
+    -----
+    C_dep = eps_si / W_max (depletion approximation, Sze & Ng 2007 §4.2; W_max from
+    `max_depletion_width`). N_A = 1e17 cm^-3, n_i = 1e10 cm^-3 -> 9.98e-4 F/m^2. The smallest
+    body capacitance of a depleted channel; valid while the body is not accumulated.
+    """
+    eps_s = epsilon_0 * np.asarray(eps_r_si, dtype=float)
+    return np.asarray(
+        eps_s / max_depletion_width(body_doping, temperature, n_i=n_i, eps_r_si=eps_r_si),
+        dtype=np.float64,
+    )
+
+
+def junction_capacitance_per_area(
+    light_doping: ArrayLike,
+    temperature: ArrayLike,
+    heavy_doping: ArrayLike = 1e26,
+    v_reverse: ArrayLike = 0.0,
+    *,
+    n_i: ArrayLike | None = None,
+    eps_r_si: ArrayLike = EPS_R_SI,
+) -> FloatArray:
+    """Depletion capacitance of a one-sided abrupt p-n junction (diffusion in a well), F/m^2.
+
+    Parameters
+    ----------
+    light_doping : array_like   well doping, m^-3
+    temperature : array_like    K
+    heavy_doping : array_like   source/drain diffusion doping, m^-3 (default 1e20 cm^-3)
+    v_reverse : array_like      reverse bias, V (> -V_bi)
+
+    Notes
+    -----
+    C_j = sqrt(q eps_si N / (2 (V_bi + V_R - 2 kT/q))), V_bi = (kT/q) ln(N N_heavy / n_i^2)
+    (one-sided abrupt junction, Sze & Ng 2007 §2.3, eqs. 2.10-2.26 with the majority-carrier
+    correction 2 kT/q). N = 1e17, N_heavy = 1e20 cm^-3, n_i = 1e10 cm^-3, 300 K: V_bi = 1.012 V,
+    9.30e-4 F/m^2 at 0 V. Valid in the depletion approximation, below forward bias.
+    """
+    vt = thermal_voltage(temperature)
+    ni = _n_i(temperature, n_i)
+    light = np.asarray(light_doping, dtype=float)
+    v_bi = vt * np.log(light * np.asarray(heavy_doping, dtype=float) / (ni * ni))
+    eps_s = epsilon_0 * np.asarray(eps_r_si, dtype=float)
+    return np.asarray(
+        np.sqrt(e * eps_s * light / (2.0 * (v_bi + np.asarray(v_reverse, dtype=float) - 2.0 * vt))),
+        dtype=np.float64,
+    )
+
+
 def threshold_voltage(
     vfb: ArrayLike,
     cox: ArrayLike,

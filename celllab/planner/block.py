@@ -178,6 +178,11 @@ class Budgets(_Strict):
                                               description="thin-oxide gate area of the fill, "
                                               "mm^2; omitted: no limit")
     wearout: Wearout | None = None
+    esd_survive: bool = Field(False, description="leave out cells whose stored HBM or CDM margin "
+                              "(hbm_margin_V, cdm_margin_V at the planning corner) is negative: the "
+                              "deck's [esd] zap breaks their oxide; cells without ESD figures stay in")
+    broken_oxide_ok: bool = Field(False, description="leave out cells whose broken oxide draws more "
+                                  "than the rail's fault current limit (broken_oxide_ok = 0)")
 
 
 class Objective(_Strict):

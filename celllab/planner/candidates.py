@@ -182,11 +182,18 @@ def load_candidates(block: BlockFile, catalog: Catalog, ctx: CatalogContext
     except CelllabError as exc:
         raise PlanError([block.problem("candidates.where", p.message or str(p), where)
                          for p in exc.problems]) from None
-    excluded = {"no usable cap_fF or leakage_nA": 0}
+    excluded = {"no usable cap_fF or leakage_nA": 0, "broken by the ESD zap (esd_survive)": 0,
+                "broken oxide over the fault limit (broken_oxide_ok)": 0}
     out: list[Candidate] = []
     for row in rows:
         if not _usable(row):
             excluded["no usable cap_fF or leakage_nA"] += 1
+            continue
+        if block.budgets.esd_survive and any(_number(row.get(k)) < 0 for k in ("hbm_margin_V", "cdm_margin_V")):
+            excluded["broken by the ESD zap (esd_survive)"] += 1
+            continue
+        if block.budgets.broken_oxide_ok and _number(row.get("broken_oxide_ok")) == 0:
+            excluded["broken oxide over the fault limit (broken_oxide_ok)"] += 1
             continue
         record = catalog.cell(row["name"], deck=block.block.deck)
         caps = np.array([_metric(record, c, "cap_fF") for c in ctx.corners]) * femto

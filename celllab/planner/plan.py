@@ -54,13 +54,7 @@ from celllab.planner.result import (
     WidthFill,
 )
 from celllab.planner.sizing import RegionNeed, region_need
-from celllab.planner.wearout import (
-    MissionPhase,
-    OxideReliability,
-    affordable_oxide_area,
-    oxide_failure_fraction,
-    reliability_from_deck,
-)
+from celllab.planner.wearout import MissionPhase, affordable_oxide_area, oxide_failure_fraction
 
 if TYPE_CHECKING:
     from celllab.catalog import Catalog
@@ -155,11 +149,6 @@ def _mission(block: BlockFile, supply: float) -> list[MissionPhase]:
             for p in w.mission]
 
 
-def _oxide(ctx: CatalogContext) -> OxideReliability:
-    flavour = ctx.deck.oxides[ctx.thin_oxide]  # type: ignore[index]
-    return reliability_from_deck(flavour.reliability.model_dump(), flavour.eot_m)
-
-
 def _oxide_limit(block: BlockFile, ctx: CatalogContext, mission: list[MissionPhase]
                  ) -> tuple[float, str]:
     """Thin-oxide area limit, m^2, and where it comes from."""
@@ -168,7 +157,7 @@ def _oxide_limit(block: BlockFile, ctx: CatalogContext, mission: list[MissionPha
     if b.thin_oxide_area_mm2 is not None:
         limits.append((b.thin_oxide_area_mm2 * milli**2, "thin_oxide_area_mm2"))
     if b.wearout is not None:
-        area = affordable_oxide_area(_oxide(ctx), mission, b.wearout.failure_ppm * micro)
+        area = affordable_oxide_area(ctx.deck, ctx.thin_oxide, mission, b.wearout.failure_ppm * micro)
         limits.append((area, f"{b.wearout.failure_ppm:g} ppm over the mission"))
     if not limits:
         return float("inf"), ""
@@ -516,7 +505,7 @@ def _assemble(block: BlockFile, prep: PreparedFill, solution: FillSolution,
     oxide_limit, oxide_source, excluded = prep.oxide_limit, prep.oxide_source, prep.excluded
     b = block.block
     supply = ctx.supply
-    oxide = _oxide(ctx) if mission else None
+    oxide = ctx.thin_oxide if mission else None
     useful = problem.useful_cap
     regions: list[RegionFill] = []
     for r, spec in enumerate(block.region):
@@ -538,11 +527,11 @@ def _assemble(block: BlockFile, prep: PreparedFill, solution: FillSolution,
             weight=spec.weight, need=needs[r], cells=uses,
             classes=_class_fills(block, layout, cells, problem, solution, bindings, r, useful),
             shortfall=float(solution.shortfall[r]),
-            failure_fraction=(oxide_failure_fraction(oxide, mission, area)
+            failure_fraction=(oxide_failure_fraction(ctx.deck, oxide, mission, area)
                               if oxide is not None else None)))
     total = solution.copies.sum(axis=0)
     total_area = float(total @ problem.oxide_area)
-    failure = oxide_failure_fraction(oxide, mission, total_area) if oxide is not None else None
+    failure = oxide_failure_fraction(ctx.deck, oxide, mission, total_area) if oxide is not None else None
     budgets = _budget_checks(block, problem, solution, bindings, oxide_source, failure)
     corner_totals = [CornerTotals(name, float(np.nansum(total * [c.corner_cap[k] for c in cells])),
                                   float(np.nansum(total * [c.corner_leakage[k] for c in cells])))

@@ -25,7 +25,8 @@ DEMO = ("lumen130", "tarn40lp", "quill28hk")
 DECK_MODELS = [
     schema.ProcessInfo, schema.DeviceParams, schema.LeakageParams, schema.Tunnelling, schema.ReliabilityParams,
     schema.OxideFlavour, schema.Wells, schema.Junctions, schema.JunctionLeakage, schema.Resistances,
-    schema.MetalLayer, schema.Layout, schema.Supplies, schema.AnalysisBand, schema.Corner, schema.Deck,
+    schema.MetalLayer, schema.Layout, schema.Supplies, schema.AnalysisBand, schema.Corner, schema.RailDomain, schema.Mission,
+    schema.EsdTargets, schema.Deck,
 ]
 
 

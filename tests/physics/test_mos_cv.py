@@ -605,3 +605,29 @@ def test_capacitance_falls_as_oxide_thickens(
         cox=c_thin,
         **kw,  # type: ignore[arg-type]
     )
+
+
+def test_depletion_capacitance_at_strong_inversion() -> None:
+    # Source: eps_si / W_max with W_max = 0.1038 um at N_A = 1e17 cm^-3, n_i = 1e10 cm^-3, 300 K
+    # (Sze & Ng 2007 eq. 4.31, computed value) -> 9.98e-4 F/m^2; rel 2e-3
+    from celllab.physics.mos_cv import depletion_capacitance_per_area
+
+    assert depletion_capacitance_per_area(1e23, 300.0, n_i=1e16) == pytest.approx(9.98e-4, rel=2e-3)
+
+
+def test_junction_capacitance_one_sided_abrupt() -> None:
+    # Source: C_j = sqrt(q eps_si N / (2 (V_bi + V_R - 2kT/q))), V_bi = kT/q ln(N N_D / n_i^2)
+    # (Sze & Ng 2007 §2.3), evaluated by hand here for N = 1e17, N_D = 1e20 cm^-3, n_i = 1e10
+    # cm^-3, 300 K: V_bi = 1.0119 V -> 9.296e-4 F/m^2 at 0 V, 5.295e-4 F/m^2 at 2 V; rel 1e-3
+    from scipy.constants import e, epsilon_0, k
+
+    from celllab.physics.mos_cv import junction_capacitance_per_area
+
+    vt = k * 300.0 / e
+    v_bi = vt * np.log(1e23 * 1e26 / 1e32)
+    assert v_bi == pytest.approx(1.0119, rel=1e-3)
+    for v_r in (0.0, 2.0):
+        hand = np.sqrt(e * 11.7 * epsilon_0 * 1e23 / (2 * (v_bi + v_r - 2 * vt)))
+        assert junction_capacitance_per_area(1e23, 300.0, 1e26, v_r, n_i=1e16) == pytest.approx(hand, rel=1e-9)
+    assert junction_capacitance_per_area(1e23, 300.0, 1e26, n_i=1e16) == pytest.approx(9.296e-4, rel=1e-3)
+    assert junction_capacitance_per_area(1e23, 300.0, 1e26, 2.0, n_i=1e16) == pytest.approx(5.295e-4, rel=1e-3)

@@ -41,7 +41,7 @@ def build_lumen_catalog(folder: Path) -> Catalog:
     (folder / "cells").mkdir(parents=True, exist_ok=True)
     shutil.copy(REPO / "process_decks" / "lumen130.toml", folder)
     shutil.copy(REPO / "process_decks" / "cells" / "lumen130_cells.toml", folder / "cells")
-    return open_catalog(build_demo_catalog(folder / "demo.sqlite", folder=folder))
+    return open_catalog(build_demo_catalog(folder / "demo.sqlite", folder=folder, esd=False))
 
 
 def fill_entries(catalog: Catalog, choice: Mapping[str, Sequence[tuple[str, int]]]
