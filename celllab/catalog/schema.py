@@ -15,6 +15,7 @@ from __future__ import annotations
 import contextlib
 import sqlite3
 import struct
+import time
 from collections.abc import Callable, Iterator
 from pathlib import Path
 
@@ -250,6 +251,10 @@ def migrate(db: sqlite_utils.Database, target: int = SCHEMA_VERSION) -> int:
     version = user_version(db)
     while version < target:
         with write_transaction(db):
+            # another process may have migrated (or created) the file while this one waited
+            version = user_version(db)
+            if version >= target:
+                break
             MIGRATIONS[version](db)
             version += 1
             db.execute(f"PRAGMA user_version = {version}")
@@ -284,32 +289,64 @@ def _fail(path: Path, message: str) -> CatalogError:
     return CatalogError.single(str(path), "", message)  # type: ignore[return-value]
 
 
-def check_file_header(path: Path) -> None:
-    """Refuse a file that is not SQLite or is shorter than its header says, before SQLite opens it."""
+def _header_problem(path: Path) -> tuple[str, bool] | None:
+    """(message, whether a writer at work could explain it) for a file that is not a readable
+    SQLite file, or None when the header and the file size agree."""
     size = path.stat().st_size
     if size == 0:
-        return  # SQLite treats an empty file as an empty database
+        return None  # SQLite treats an empty file as an empty database
     with path.open("rb") as fh:
         header = fh.read(100)
     if not header.startswith(SQLITE_MAGIC[: min(len(header), 16)]) or len(header) < 16:
-        raise _fail(path, "not an SQLite database (a celllab catalog is an SQLite file)")
+        return "not an SQLite database (a celllab catalog is an SQLite file)", False
     if len(header) < 100:
-        raise _fail(path, f"truncated SQLite file ({size} bytes, shorter than its 100-byte header)")
+        return f"truncated SQLite file ({size} bytes, shorter than its 100-byte header)", False
     (page_size,) = struct.unpack(">H", header[16:18])
     page_size = 65536 if page_size == 1 else page_size
     if page_size < 512 or page_size & (page_size - 1):
-        raise _fail(path, f"damaged SQLite header (page size {page_size})")
+        return f"damaged SQLite header (page size {page_size})", False
     change_counter, page_count = struct.unpack(">II", header[24:32])
     (valid_for,) = struct.unpack(">I", header[92:96])
     if size % page_size:
-        raise _fail(
-            path,
+        return (
             f"truncated SQLite file ({size} bytes, not a whole number of {page_size}-byte pages)",
+            True,
         )
     if valid_for == change_counter and page_count * page_size > size:
-        raise _fail(
-            path, f"truncated SQLite file ({size} bytes; its header says {page_count * page_size})"
-        )
+        return f"truncated SQLite file ({size} bytes; its header says {page_count * page_size})", True
+    return None
+
+
+#: Pauses between looks at a file whose size and header disagree (a checkpoint copies pages
+#: from the write-ahead log in page order, so page 1 - the header - is rewritten before the
+#: file has grown to the size it announces).
+HEADER_RETRY_PAUSES_S = (0.01, 0.02, 0.05, 0.1, 0.2)
+
+
+def check_file_header(path: Path) -> None:
+    """Refuse a file that is not SQLite or is shorter than its header says, before SQLite opens it.
+
+    A size that disagrees with the header is only a fault when no other process is writing:
+    while a write-ahead log sits beside the file (``-wal``), a checkpoint may be growing it and
+    SQLite reads the pages still missing from the log, so the check leaves the file to SQLite.
+    Without a log the check looks again after short pauses before it refuses, so a checkpoint
+    that finished (and removed its log) between two looks is not mistaken for damage. The
+    header layout is SQLite's file format, docs/references.md [126].
+    """
+    for pause in (*HEADER_RETRY_PAUSES_S, None):
+        found = _header_problem(path)
+        if found is None:
+            return
+        message, transient = found
+        if not transient or pause is None:
+            raise _fail(path, message)
+        if _write_ahead_log(path).exists():
+            return
+        time.sleep(pause)
+
+
+def _write_ahead_log(path: Path) -> Path:
+    return path.with_name(path.name + "-wal")
 
 
 def connect(path: Path) -> sqlite_utils.Database:

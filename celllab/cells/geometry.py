@@ -92,7 +92,11 @@ def _resolve_mos(spec: CellSpec, deck: Any, geo: Geometry) -> None:
     if max_w_row <= 0:
         raise GeometryProblem("height_rows", spec.height_rows,
                               "row too short for a device after rails, clearances and end caps")
+    w_min = deck.oxides[spec.oxide].min_width_um
     if spec.gate_width_um is not None:
+        if spec.gate_width_um < w_min - 1e-12:
+            raise GeometryProblem("gate_width_um", spec.gate_width_um,
+                                  f"below the oxide's minimum gate width {w_min:g} um")
         if spec.gate_width_um > max_w_row + 1e-9:
             raise GeometryProblem("gate_width_um", spec.gate_width_um,
                                   f"devices taller than the row allows; at most {max_w_row:.4g} um per row")

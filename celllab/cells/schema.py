@@ -41,7 +41,8 @@ class CellSpec(BaseModel):
     model_config = ConfigDict(extra="forbid", frozen=True)
 
     name: str = Field(pattern=r"^[A-Za-z][A-Za-z0-9_\-\.]{0,79}$", description="variant name")
-    family: str = Field("", description="family this variant came from")
+    family: str = Field("", pattern=r"^([A-Za-z][A-Za-z0-9_\-\.]{0,79})?$",
+                        description="family this variant came from")
     topology: Topology = Field(description="decap topology")
     oxide: OxideChoice = Field("core", description="gate-oxide flavour: core (thin) or io (thick)")
     width_sites: int = Field(ge=1, le=4096, description="cell width, placement sites")

@@ -35,6 +35,7 @@ def _progress_printer(enabled: bool):  # type: ignore[no-untyped-def]
 def _load(deck_paths: list[str], cell_paths: list[str]):  # type: ignore[no-untyped-def]
     """Load decks and cells; every problem of every file is collected before raising."""
     from celllab.cells import load_cells
+    from celllab.cells.expand import VariantRegistry
     from celllab.deck import load_deck
 
     problems: list[Problem] = []
@@ -48,9 +49,10 @@ def _load(deck_paths: list[str], cell_paths: list[str]):  # type: ignore[no-unty
     if decks or not deck_paths:
         for deck in decks or [None]:
             cells = []
+            seen = VariantRegistry()  # a variant repeated in another file is refused, as build would
             for c in cell_paths:
                 try:
-                    cells.extend(load_cells(c, deck))
+                    cells.extend(load_cells(c, deck, seen=seen))
                 except CelllabError as exc:
                     problems.extend(exc.problems)
             pairs.append((deck, cells))

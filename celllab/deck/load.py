@@ -7,6 +7,7 @@ import difflib
 import hashlib
 import json
 import re
+import stat
 import tomllib
 from collections.abc import Iterable
 from pathlib import Path
@@ -24,15 +25,51 @@ def content_hash(model: BaseModel) -> str:
     return hashlib.sha256(text.encode()).hexdigest()[:16]
 
 
-def read_toml(path: str | Path, error: type[CelllabError]) -> tuple[dict[str, Any], str]:
-    """Read a TOML file; syntax errors become a located ``error``."""
+#: Largest TOML file celllab reads (deck, cell or block file); documented in
+#: process_decks/README.md ("Limits"). Real decks and cell files are a few kB.
+MAX_FILE_BYTES = 4 * 1024 * 1024
+
+
+def read_text_file(path: str | Path, error: type[CelllabError], limit: int = MAX_FILE_BYTES) -> str:
+    """UTF-8 text of a regular file of at most ``limit`` bytes (a leading byte order mark is
+    dropped); anything else becomes a located ``error`` naming the file."""
     p = Path(path)
     try:
-        text = p.read_text(encoding="utf-8")
+        info = p.stat()
     except FileNotFoundError:
         raise error.single(str(path), "", "file not found") from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise error.single(str(path), "", f"cannot read file: {exc}") from None
+    except (OSError, ValueError) as exc:
+        raise error.single(str(path), "", f"cannot read file: {_os_reason(exc)}") from None
+    if not stat.S_ISREG(info.st_mode):
+        kind = "a folder" if stat.S_ISDIR(info.st_mode) else "a device, pipe or socket"
+        raise error.single(str(path), "", f"not a regular file ({kind}); give a TOML file")
+    if info.st_size > limit:
+        raise error.single(str(path), "", f"file of {info.st_size} bytes is larger than the "
+                           f"{limit} bytes celllab reads")
+    try:
+        with p.open("rb") as fh:
+            data = fh.read(limit + 1)
+    except OSError as exc:
+        raise error.single(str(path), "", f"cannot read file: {_os_reason(exc)}") from None
+    if len(data) > limit:  # grew since the stat
+        raise error.single(str(path), "", f"file is larger than the {limit} bytes celllab reads")
+    try:
+        return data.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        line = data[: exc.start].count(b"\n") + 1
+        raise error([Problem(str(path), "", f"cannot read file: not utf-8 text (byte "
+                                            f"0x{data[exc.start]:02x} at offset {exc.start}); "
+                                            "save the file as UTF-8",
+                             line=line, has_value=False)]) from None
+
+
+def _os_reason(exc: BaseException) -> str:
+    return getattr(exc, "strerror", None) or str(exc)
+
+
+def read_toml(path: str | Path, error: type[CelllabError]) -> tuple[dict[str, Any], str]:
+    """Read a TOML file; syntax errors become a located ``error``."""
+    text = read_text_file(path, error)
     try:
         return tomllib.loads(text), text
     except tomllib.TOMLDecodeError as exc:
@@ -41,18 +78,45 @@ def read_toml(path: str | Path, error: type[CelllabError]) -> tuple[dict[str, An
         line = int(m.group(1)) if m else None
         msg = re.sub(r"\s*\(at line \d+, column \d+\)", "", msg)
         raise error([Problem(str(path), "", f"TOML syntax error: {msg}", line=line, has_value=False)]) from None
+    except RecursionError:  # arrays or inline tables nested thousands deep
+        raise error([Problem(str(path), "", "TOML nested too deeply to read", has_value=False)]) from None
 
 
 def find_line(text: str | None, path: Iterable[str | int]) -> int | None:
-    """Best-effort line number of a dotted key path in TOML source (None when not found)."""
+    """Best-effort line number of a dotted key path in TOML source (None when not found).
+
+    The line of the key itself when the text has it, else the first line of a table or key
+    that the path lies in. The text is indexed once (one pass), so locating every problem of a
+    large file costs no more than reading it.
+    """
     if not text:
         return None
-    parts = [str(p) for p in path]
+    parts = tuple(str(p) for p in path)
     if not parts:
         return None
+    keys, tables = _line_index(text)
+    if parts in keys:
+        return keys[parts]
+    found = [line for line in (tables.get(parts), *(keys.get(parts[:n]) for n in range(1, len(parts))))
+             if line is not None]
+    return min(found) if found else None
+
+
+_LineIndex = tuple[dict[tuple[str, ...], int], dict[tuple[str, ...], int]]
+_last_index: tuple[str, _LineIndex] | None = None
+
+
+def _line_index(text: str) -> _LineIndex:
+    """(first line of each dotted key, first line of each table header) of TOML text; the
+    index of the last text asked about is kept, since problems of one file come in a row."""
+    global _last_index
+    cached = _last_index
+    if cached is not None and cached[0] is text:
+        return cached[1]
+    keys: dict[tuple[str, ...], int] = {}
+    tables: dict[tuple[str, ...], int] = {}
     table: list[str] = []
     array_index: dict[str, int] = {}
-    best: int | None = None
     for lineno, raw in enumerate(text.splitlines(), start=1):
         line = raw.split("#", 1)[0].strip()
         if not line:
@@ -62,23 +126,18 @@ def find_line(text: str | None, path: Iterable[str | int]) -> int | None:
             name = m.group(1)
             array_index[name] = array_index.get(name, -1) + 1
             table = name.split(".") + [str(array_index[name])]
-            if table == parts[: len(table)] and best is None and len(table) == len(parts):
-                best = lineno
+            tables.setdefault(tuple(table), lineno)
             continue
         m = re.match(r"^\[\s*([^\]]+?)\s*\]$", line)
         if m:
             table = [t.strip().strip('"') for t in m.group(1).split(".")]
-            if table == parts[: len(table)] and len(table) == len(parts):
-                best = best or lineno
+            tables.setdefault(tuple(table), lineno)
             continue
         m = re.match(r'^("?)([A-Za-z0-9_\-\.]+)\1\s*=', line)
         if m:
-            key = table + [k.strip('"') for k in m.group(2).split(".")]
-            if key == parts:
-                return lineno
-            if key == parts[: len(key)] and best is None:
-                best = lineno
-    return best
+            keys.setdefault(tuple(table + [k.strip('"') for k in m.group(2).split(".")]), lineno)
+    _last_index = (text, (keys, tables))
+    return keys, tables
 
 
 def _allowed_from_error(err: dict[str, Any]) -> str:
@@ -269,8 +328,11 @@ def numeric_paths(deck: Deck) -> list[str]:
 
 
 def _check_path(deck_data: dict[str, Any], path: str) -> str | None:
+    parts = _split(path)
+    if parts and parts[0] == "corners":
+        return "not a deck parameter: a corner changes the deck, never other corners"
     try:
-        value = _get_path(deck_data, _split(path))
+        value = _get_path(deck_data, parts)
     except (KeyError, IndexError, ValueError, TypeError):
         return "not a deck parameter"
     if isinstance(value, bool) or not isinstance(value, (int, float)):
@@ -281,13 +343,12 @@ def _check_path(deck_data: dict[str, Any], path: str) -> str | None:
 def _corner_problems(deck: Deck, raw: dict[str, Any], file: str, text: str | None) -> list[Problem]:
     problems: list[Problem] = []
     data = deck.model_dump(mode="json")
-    allowed = numeric_paths(deck)
     for cname, corner in deck.corners.items():
         for kind, table in (("set", corner.set), ("scale", corner.scale)):
             for path in table:
                 why = _check_path(data, path)
                 if why:
-                    guess = difflib.get_close_matches(path, allowed, n=1)
+                    guess = _close_path(path, deck)
                     msg = why + (f"; did you mean {guess[0]!r}?" if guess else "")
                     problems.append(Problem(file, f"corners.{cname}.{kind}", msg, path,
                                             find_line(text, ["corners", cname, kind])))
@@ -312,12 +373,11 @@ def apply_changes(deck: Deck, changes: dict[str, Any], source: str = "<what-if>"
     """
     data = copy.deepcopy(deck.model_dump(mode="json"))
     problems: list[Problem] = []
-    allowed = numeric_paths(deck)
     for table, op in ((changes, "set"), (scale or {}, "scale")):
         for path, value in table.items():
             why = _check_path(data, path)
             if why:
-                guess = difflib.get_close_matches(path, allowed, n=1)
+                guess = _close_path(path, deck)
                 problems.append(Problem(source, field_prefix + path,
                                         why + (f"; did you mean {guess[0]!r}?" if guess else ""), value))
                 continue
@@ -346,7 +406,12 @@ def apply_changes(deck: Deck, changes: dict[str, Any], source: str = "<what-if>"
 
 
 def corner_deck(deck: Deck, corner: str, file: str | None = None) -> Deck:
-    """The deck with one corner's ``set``/``scale`` changes and supply scaling applied."""
+    """The deck with one corner's ``set``/``scale`` changes and supply scaling applied.
+
+    The changes are applied to and validated on a copy holding that one corner, so building
+    it costs the same for a deck of three corners as for one of a hundred and checking every
+    corner grows linearly with their count; the result keeps the deck's corners.
+    """
     if corner not in deck.corners:
         allowed = ", ".join(deck.corners)
         raise DeckError.single(file or deck.name, "corner", f"unknown corner; allowed: {allowed}", corner)
@@ -355,5 +420,12 @@ def corner_deck(deck: Deck, corner: str, file: str | None = None) -> Deck:
     if c.supply_scale != 1.0:
         for key in ("supplies.core_V", "supplies.io_V"):
             scale[key] = scale.get(key, 1.0) * c.supply_scale
-    return apply_changes(deck, dict(c.set), file or deck.name, scale,
-                         field_prefix=f"corners.{corner} -> ", check_corners=False)
+    alone = deck.model_copy(update={"corners": {corner: c}})
+    changed = apply_changes(alone, dict(c.set), file or deck.name, scale,
+                            field_prefix=f"corners.{corner} -> ", check_corners=False)
+    return changed.model_copy(update={"corners": deck.corners})  # the corners are not changed
+
+
+def _close_path(path: str, deck: Deck) -> list[str]:
+    """The numeric deck path closest to a misspelt one (for 'did you mean')."""
+    return difflib.get_close_matches(path, numeric_paths(deck), n=1)

@@ -7,6 +7,7 @@ range check; descriptions say what the field means. Values are stored as the use
 
 from __future__ import annotations
 
+import re
 from typing import Literal
 
 from pydantic import BaseModel, ConfigDict, Field, model_validator
@@ -15,6 +16,15 @@ GateMaterial = Literal["n_poly", "p_poly", "metal"]
 AccelerationModel = Literal["power_law", "e_model", "inverse_e"]
 LeakageModel = Literal["direct_tunnel", "reference"]
 OxideName = Literal["core", "io"]
+
+#: Documented input limits (process_decks/README.md, "Limits"): enough for any process and
+#: small enough that checking a deck stays quick.
+MAX_CORNERS = 100
+MAX_METALS = 32
+#: Words the catalog and the CLI use for a cell's aggregate over its corners (``--corner worst``);
+#: a corner of that name would be hidden by the aggregate.
+RESERVED_CORNER_NAMES: tuple[str, ...] = ("worst", "best", "all")
+CORNER_NAME = re.compile(r"[A-Za-z0-9_-]{1,40}")
 
 
 class _Strict(BaseModel):
@@ -102,6 +112,9 @@ class OxideFlavour(_Strict):
     overlap_cap_fF_per_um: float = _f(0, 2, "gate-to-diffusion overlap plus fringe capacitance per "
                                       "um of gate width per side, fF/um")
     min_gate_length_um: float = _f(0.01, 10, "minimum drawn gate length, um")
+    min_gate_width_um: float | None = _f(0.01, 10, "minimum drawn gate (diffusion) width per "
+                                         "finger and row, um; omitted: min_gate_length_um",
+                                         default=None)
     breakdown_field_dc_MV_per_cm: float = _f(1, 40, "DC ramp breakdown field, MV/cm")
     breakdown_field_pulse_MV_per_cm: float = _f(1, 60, "short-pulse (~100 ns) breakdown field, MV/cm")
     nmos: DeviceParams
@@ -122,6 +135,11 @@ class OxideFlavour(_Strict):
         if self.breakdown_field_pulse_MV_per_cm < self.breakdown_field_dc_MV_per_cm:
             raise ValueError("breakdown_field_pulse_MV_per_cm must not be below breakdown_field_dc_MV_per_cm")
         return self
+
+    @property
+    def min_width_um(self) -> float:
+        """Smallest gate width a cell may draw on this oxide, um."""
+        return self.min_gate_width_um if self.min_gate_width_um is not None else self.min_gate_length_um
 
     @property
     def eot_m(self) -> float:
@@ -196,10 +214,10 @@ class Deck(_Strict):
     oxides: dict[OxideName, OxideFlavour]
     wells: Wells
     resistances: Resistances
-    metals: list[MetalLayer] = Field(min_length=1)
+    metals: list[MetalLayer] = Field(min_length=1, max_length=MAX_METALS)
     layout: Layout
     supplies: Supplies
-    corners: dict[str, Corner] = Field(min_length=1)
+    corners: dict[str, Corner] = Field(min_length=1, max_length=MAX_CORNERS)
 
     @model_validator(mode="after")
     def _core_required(self) -> "Deck":
@@ -211,8 +229,9 @@ class Deck(_Strict):
         """Cross-field rules, one (dotted field, value, message) per broken rule."""
         problems: list[tuple[str, object, str]] = []
         names = [m.name for m in self.metals]
+        first: dict[str, int] = {}
         for i, name in enumerate(names):
-            if names.index(name) != i:
+            if first.setdefault(name, i) != i:
                 problems.append((f"metals[{i}].name", name, "layer names must be unique"))
         for i in range(1, len(self.metals)):
             lower, upper = self.metals[i - 1], self.metals[i]
@@ -233,8 +252,13 @@ class Deck(_Strict):
             problems.append(("supplies.io_V", self.supplies.io_V,
                              f"must be at least core_V ({self.supplies.core_V:g} V)"))
         for corner_name in self.corners:
-            if not corner_name.replace("_", "").replace("-", "").isalnum():
-                problems.append((f"corners.{corner_name}", corner_name, "corner names use letters, digits, _ and -"))
+            if not CORNER_NAME.fullmatch(corner_name):
+                problems.append((f"corners.{corner_name}", corner_name,
+                                 "corner names use letters, digits, _ and - (1 to 40 of them)"))
+            elif corner_name.lower() in RESERVED_CORNER_NAMES:
+                problems.append((f"corners.{corner_name}", corner_name,
+                                 "a reserved word (the aggregate over all corners); choose another "
+                                 "name; reserved: " + ", ".join(RESERVED_CORNER_NAMES)))
         return problems
 
     @property
