@@ -7,6 +7,7 @@ frequency in one call. Python loops run over topologies, corners and result reco
 
 from __future__ import annotations
 
+import re
 from collections.abc import Callable, Sequence
 from typing import Any
 
@@ -41,6 +42,12 @@ def characterize(deck: Deck, cells: Sequence[CellSpec], corners: Sequence[str] |
     """Characterize every cell at every corner of ``deck`` (or the named ``corners``)."""
     corner_set = CornerSet.from_deck(deck, list(corners) if corners else None)
     geometries = [resolve(c, deck) for c in cells]
+    with np.errstate(all="ignore"):  # out-of-range values become flagged empty metrics, not warnings
+        return _characterize(deck, cells, corner_set, geometries, progress, sources)
+
+
+def _characterize(deck: Deck, cells: Sequence[CellSpec], corner_set: CornerSet, geometries: list[Any],
+                  progress: Progress | None, sources: Sequence[str]) -> CharacterizationRun:
     results: list[CellResult | None] = [None] * len(cells)
     groups: dict[str, list[int]] = {}
     for i, c in enumerate(cells):
@@ -76,6 +83,25 @@ def _finite(x: float) -> float:
     return float(x) if np.isfinite(x) else float("nan")
 
 
+def _names(metric: str, flags: list[str]) -> bool:
+    word = re.compile(rf"(?<![A-Za-z0-9_]){re.escape(metric)}(?![A-Za-z0-9_])")
+    return any(word.search(f) for f in flags)
+
+
+def _empty_metric_flags(metrics: dict[str, float], flags: list[str]) -> list[str]:
+    """A flag for the metrics that came out empty or infinite and no flag explains yet."""
+    overflow = [k for k, v in metrics.items() if np.isinf(v) and not _names(k, flags)]
+    missing = [k for k, v in metrics.items() if np.isnan(v) and not _names(k, flags)]
+    out = []
+    if overflow:
+        out.append(f"out_of_range: {', '.join(overflow)} stored empty: the model overflows the float "
+                   "range here (an input far outside the model's validity range)")
+    if missing:
+        out.append(f"no_value: {', '.join(missing)} stored empty: the model gives no number here "
+                   "(an input outside the model's validity range)")
+    return out
+
+
 def _record(spec: CellSpec, geo: Any, corners: CornerSet, group: Any, index: int) -> CellResult:
     out, k = group.row(index)
     corner_results = []
@@ -106,6 +132,7 @@ def _record(spec: CellSpec, geo: Any, corners: CornerSet, group: Any, index: int
         if not np.isfinite(srf):
             flags.append("srf_beyond_sweep: no self-resonance below 1 THz; value is a lower bound")
             m["srf_GHz"] = FREQ_HZ[-1] / giga
+        flags += _empty_metric_flags(m, flags)
         m = {key: _finite(v) for key, v in m.items()}
         cv = None
         if out.cv_bias is not None:

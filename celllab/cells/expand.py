@@ -108,7 +108,7 @@ def _expand_value(value: Any, where: str, file: str, text: str | None, path: lis
             step = value.get("step", 1)
             if not isinstance(step, (int, float)) or isinstance(step, bool) or not step > 0 \
                     or not math.isfinite(step):
-                raise CellError([Problem(file, where + ".step", "must be a finite number > 0", step,
+                raise CellError([Problem(file, where + ".step", "must be a number > 0 (and finite)", step,
                                          find_line(text, path))])
             span = (stop - start) / step  # finite operands; the quotient may still overflow
             if not math.isfinite(span) or span + 1 > MAX_RANGE_VALUES:

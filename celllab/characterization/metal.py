@@ -106,4 +106,4 @@ def evaluate_metal(topology: str, deck: Any, corners: CornerSet, cells: list[Any
 
 
 def _mom_flags(cell: Any) -> list[str]:
-    return []
+    return ["no_gate_oxide: tddb_life_years and pulse_vbd_V are empty (a mom cell has no gate oxide)"]

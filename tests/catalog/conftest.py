@@ -137,6 +137,8 @@ def make_cell(
             else CVCurve(bias, c_F * (0.6 + 0.4 * np.tanh(2 * bias)), CORNERS[corner][1], c_F)
         )
         flags = ["outside model range: gate_length_um"] if (index + k) % 7 == 0 else []
+        if topology == "mom":  # an empty metric carries a flag naming it
+            flags.append("no_gate_oxide: pulse_vbd_V is empty (no gate oxide in a mom cell)")
         result_corners.append(
             CornerResult(
                 corner,
