@@ -10,6 +10,17 @@ from dataclasses import dataclass, field
 from typing import Any
 
 
+#: Longest value quoted in a message (a 10 MB name is cut, not printed).
+MAX_SHOWN_VALUE = 200
+
+
+def _shown(value: Any) -> str:
+    text = repr(value)
+    if len(text) <= MAX_SHOWN_VALUE:
+        return text
+    return f"{text[: MAX_SHOWN_VALUE - 3]}... ({len(text)} characters)"
+
+
 @dataclass(frozen=True)
 class Problem:
     """One located input problem."""
@@ -26,7 +37,7 @@ class Problem:
         if self.line is not None:
             where += f":{self.line}"
         if self.field and self.has_value:
-            return f"{where}: {self.field} = {self.value!r} -> {self.message}"
+            return f"{where}: {self.field} = {_shown(self.value)} -> {self.message}"
         if self.field:
             return f"{where}: {self.field} -> {self.message}"
         return f"{where}: {self.message}"

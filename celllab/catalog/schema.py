@@ -411,30 +411,3 @@ def open_database(path: Path, create: bool = True) -> sqlite_utils.Database:
         db.close()
         raise
     return db
-
-
-def open_source_copy(path: Path) -> sqlite_utils.Database:
-    """Open another catalog for reading without changing it: an in-memory copy, migrated if older."""
-    if not path.is_file():
-        raise _fail(path, "no catalog file here")
-    check_file_header(path)
-    src = connect(path)
-    try:
-        inspect(src, path)
-        mem = sqlite3.connect(":memory:", check_same_thread=False)
-        src.conn.backup(mem)
-    except sqlite3.DatabaseError as exc:
-        raise _fail(path, f"unreadable SQLite file: {exc}") from None
-    finally:
-        src.close()
-    copy = sqlite_utils.Database(mem, execute_plugins=False)
-    try:
-        if inspect(copy, path) == 0:
-            raise _fail(path, "empty file, not a celllab catalog")
-        migrate(copy)
-        check_tables(copy, path)
-        sync_metric_columns(copy)
-    except sqlite3.DatabaseError as exc:
-        copy.close()
-        raise _fail(path, f"cannot read the catalog: {exc}") from None
-    return copy

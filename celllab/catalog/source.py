@@ -255,11 +255,11 @@ def _read_runs(src: sqlite_utils.Database, out: SourceContent, bad: _Problems, n
         out.runs[int(run_id)] = {**r, "corners": corners}
 
 
-def _real(value: Any) -> float:
+def _real(value: Any, what: str) -> float:
     if value is None:
         return math.nan
     if isinstance(value, bool) or not isinstance(value, (int, float)):
-        raise ValueError(f"{shown(value)} is not a number")
+        raise ValueError(f"{what} = {shown(value)} is not a number")
     return float(value)
 
 
@@ -272,7 +272,10 @@ def _blob(value: Any, n: int, itemsize: int, what: str) -> bytes:
 
 
 def _text_list(value: Any, what: str) -> list[str]:
-    data = _json(value, list)
+    try:
+        data = _json(value, list)
+    except ValueError as exc:
+        raise ValueError(f"{what}: {exc}") from None
     if not all(isinstance(v, str) for v in data):
         raise ValueError(f"{what} must list texts")
     return data
@@ -284,7 +287,10 @@ def _cell_result(src: sqlite_utils.Database, c: dict[str, Any]) -> CellResult:
     for col in ("name", "family", "topology", "oxide"):
         if not _text(c.get(col), 80):
             raise ValueError(f"{col} = {shown(c.get(col))} is not a short text")
-    geometry = _json(c.get("geometry_json"), dict)
+    try:
+        geometry = _json(c.get("geometry_json"), dict)
+    except ValueError as exc:
+        raise ValueError(f"geometry_json: {exc}") from None
     notes = _text_list(c.get("notes_json"), "notes_json")
     responses = {r["corner"]: r for r in src.query("SELECT * FROM responses WHERE cell_id = ?", [cell_id])}
     cvs = {r["corner"]: r for r in src.query("SELECT * FROM cv_curves WHERE cell_id = ?", [cell_id])}
@@ -301,7 +307,10 @@ def _cell_result(src: sqlite_utils.Database, c: dict[str, Any]) -> CellResult:
         response = FrequencyResponse(decode_f64(_blob(resp["freq_Hz"], n, 8, "freq_Hz")),
                                      decode_c128(_blob(resp["z_ohm"], n, 16, "z_ohm")))
         if resp.get("circuit_json") is not None:
-            data = _json(resp["circuit_json"], dict)
+            try:
+                data = _json(resp["circuit_json"], dict)
+            except ValueError as exc:
+                raise ValueError(f"corner {corner}: circuit_json: {exc}") from None
             try:
                 circuits[corner] = netlist_from_dict(data)
             except (KeyError, TypeError, ValueError, IndexError) as exc:
@@ -316,11 +325,13 @@ def _cell_result(src: sqlite_utils.Database, c: dict[str, Any]) -> CellResult:
             k = cv_row["n_bias"]
             cv = CVCurve(decode_f64(_blob(cv_row["bias_V"], k, 8, "bias_V")),
                          decode_f64(_blob(cv_row["cap_F"], k, 8, "cap_F")),
-                         _real(cv_row["operating_bias_V"]), _real(cv_row["operating_cap_F"]))
+                         _real(cv_row["operating_bias_V"], "operating_bias_V"),
+                         _real(cv_row["operating_cap_F"], "operating_cap_F"))
         corners.append(CornerResult(
-            corner=corner, temperature_C=_real(m["temperature_C"]), supply_V=_real(m["supply_V"]),
-            metrics={k: _real(m.get(k)) for k in METRIC_NAMES}, response=response, cv=cv,
-            flags=_text_list(m.get("flags_json"), "flags_json")))
+            corner=corner, temperature_C=_real(m["temperature_C"], f"corner {corner}: temperature_C"),
+            supply_V=_real(m["supply_V"], f"corner {corner}: supply_V"),
+            metrics={k: _real(m.get(k), f"corner {corner}: {k}") for k in METRIC_NAMES},
+            response=response, cv=cv, flags=_text_list(m.get("flags_json"), f"corner {corner}: flags_json")))
     if extra := set(responses) - {c.corner for c in corners}:
         raise ValueError(f"responses of corners without metrics: {', '.join(map(shown, sorted(extra)))}")
     for col in ("width_sites", "height_rows", "esd_safe"):
@@ -330,9 +341,9 @@ def _cell_result(src: sqlite_utils.Database, c: dict[str, Any]) -> CellResult:
         raise ValueError(f"esd_safe = {c['esd_safe']} is not 0 or 1")
     return CellResult(
         name=c["name"], cell_hash=c["cell_hash"], family=c["family"], topology=c["topology"],
-        oxide=c["oxide"], geometry=geometry, area_um2=_real(c["area_um2"]),
+        oxide=c["oxide"], geometry=geometry, area_um2=_real(c["area_um2"], "area_um2"),
         width_sites=c["width_sites"], height_rows=c["height_rows"],
-        gate_area_um2=_real(c["gate_area_um2"]), esd_safe=bool(c["esd_safe"]), corners=corners,
+        gate_area_um2=_real(c["gate_area_um2"], "gate_area_um2"), esd_safe=bool(c["esd_safe"]), corners=corners,
         netlist={k.corner: circuits[k.corner] for k in corners if k.corner in circuits} or None,
         notes=notes)
 

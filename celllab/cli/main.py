@@ -11,9 +11,11 @@ from __future__ import annotations
 import argparse
 import importlib
 import sys
+import warnings
 from collections.abc import Sequence
 
 from celllab import __version__
+from celllab.cli.text import printable
 from celllab.errors import CelllabError
 
 #: Verb modules, in the order their verbs appear in ``--help``.
@@ -51,23 +53,64 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+#: Problems printed for one error before the rest are summed up in one line.
+MAX_PRINTED_PROBLEMS = 100
+
+
+def _undecodable(argv: Sequence[str]) -> list[str]:
+    """Lines about arguments that are not UTF-8 text (bytes Python could only carry as
+    surrogate escapes); celllab reads its arguments, file names included, as UTF-8."""
+    out = []
+    for i, arg in enumerate(argv, start=1):
+        try:
+            arg.encode("utf-8")
+        except UnicodeEncodeError:
+            out.append(f"command line: argument {i} = '{printable(arg)}' -> not valid UTF-8 text; "
+                       "give names and paths in UTF-8")
+    return out
+
+
+def _report(problems: Sequence[object]) -> None:
+    for problem in problems[:MAX_PRINTED_PROBLEMS]:
+        print(printable(problem, keep_newlines=True), file=sys.stderr)
+    if len(problems) > MAX_PRINTED_PROBLEMS:
+        print(f"... and {len(problems) - MAX_PRINTED_PROBLEMS} more problems", file=sys.stderr)
+
+
+def _os_problem(exc: OSError) -> str:
+    where = exc.filename if exc.filename is not None else "celllab"
+    return f"{printable(where)}: {exc.strerror or exc}"
+
+
 def main(argv: Sequence[str] | None = None) -> int:
+    for stream in (sys.stdout, sys.stderr):  # never fail on a character the terminal lacks
+        if hasattr(stream, "reconfigure"):
+            stream.reconfigure(errors="backslashreplace")
+    argv = list(sys.argv[1:] if argv is None else argv)
+    if bad := _undecodable(argv):
+        _report(bad)
+        return 2
     parser = build_parser()
     args = parser.parse_args(argv)
     if not getattr(args, "func", None):
         parser.print_help()
         return 0
     try:
-        return int(args.func(args) or 0)
+        with warnings.catch_warnings():
+            # a model outside its range is a flag stored with the row, not a console warning
+            warnings.simplefilter("ignore", RuntimeWarning)
+            return int(args.func(args) or 0)
     except CelllabError as exc:
-        for problem in exc.problems:
-            print(str(problem), file=sys.stderr)
+        _report(exc.problems)
         return 2
     except KeyboardInterrupt:
         print("interrupted", file=sys.stderr)
         return 130
     except BrokenPipeError:
         return 0
+    except OSError as exc:  # a file the OS refused (permissions, a full disk, a path under /proc)
+        _report([_os_problem(exc)])
+        return 2
 
 
 if __name__ == "__main__":  # pragma: no cover
