@@ -79,3 +79,8 @@ class FilterError(CelllabError):
 
 class PlanError(CelllabError):
     """A block fill plan is inconsistent."""
+
+
+class OutputError(CelllabError):
+    """An output file could not be written (it exists, is a link, pipe or read-only file, or
+    the OS refused the folder)."""

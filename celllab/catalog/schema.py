@@ -393,8 +393,16 @@ def open_database(path: Path, create: bool = True) -> sqlite_utils.Database:
     elif not create:
         raise _fail(path, "no catalog here (store a characterization run first)")
     else:
-        path.parent.mkdir(parents=True, exist_ok=True)
-    db = connect(path)
+        try:
+            path.parent.mkdir(parents=True, exist_ok=True)
+        except FileExistsError:
+            raise _fail(path, f"cannot create the catalog: {path.parent} is not a folder") from None
+        except OSError as exc:
+            raise _fail(path, f"cannot create the catalog: {exc.strerror or exc}") from None
+    try:
+        db = connect(path)
+    except (sqlite3.Error, OSError, ValueError) as exc:
+        raise _fail(path, f"cannot open or create the catalog here: {exc}") from None
     try:
         version = inspect(db, path)
         db.execute("PRAGMA foreign_keys = ON")

@@ -6,6 +6,7 @@ import argparse
 import json
 import sys
 
+from celllab.cli.args import MAX_ROWS, whole_number
 from celllab.errors import CelllabError, Problem
 
 CAUTION = ("Estimates from analytic models, not sign-off: defer to the foundry's design rules, "
@@ -164,6 +165,7 @@ def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
                        "then open the terminal UI (or print the densest cells with --no-ui).")
     p.add_argument("--catalog", default=str(DEFAULT_CATALOG), metavar="PATH", help="catalog file (default: %(default)s)")
     p.add_argument("--no-ui", action="store_true", help="print a ranked table instead of opening the UI")
-    p.add_argument("--limit", type=int, default=15, help="rows to print with --no-ui (default: %(default)s)")
+    p.add_argument("--limit", type=whole_number(0, MAX_ROWS), default=15,
+                   help="rows to print with --no-ui (default: %(default)s)")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
     p.set_defaults(func=cmd_demo)

@@ -21,6 +21,8 @@ from collections.abc import Callable, Sequence
 from pathlib import Path
 from typing import Any
 
+from celllab.cli.args import MAX_ROWS, positive_number, whole_number
+from celllab.cli.text import printable
 from celllab.errors import CatalogError, CelllabError, Problem
 
 FORMATS = ("csv", "json", "schema", "spice", "touchstone", "datasheet")
@@ -34,6 +36,8 @@ DEFAULT_FILES = {
     "datasheet": "index.html",
 }
 AGGREGATE_CORNERS = ("worst", "best", "all")
+#: Most R-C ladder sections per distributed line a SPICE export writes.
+MAX_SEGMENTS = 10000
 
 
 def _problem(field: str, message: str, value: Any = None, has_value: bool = True) -> CelllabError:
@@ -48,26 +52,41 @@ def _is_folder(out: str | None) -> bool:
 
 def _emit(args: argparse.Namespace, text: str, default_name: str) -> None:
     """Write one text to --out (file or folder) or stdout."""
-    from celllab.export import atomic_write_text
+    from celllab.export.files import make_folder, write_text_atomic
 
     if not args.out or args.out == "-":
         sys.stdout.write(text)
         return
-    target = Path(args.out) / default_name if _is_folder(args.out) else Path(args.out)
-    target.parent.mkdir(parents=True, exist_ok=True)
-    atomic_write_text(target, text)
-    print(f"wrote {target}", file=sys.stderr)
+    if _is_folder(args.out):
+        target = make_folder(args.out) / default_name
+    else:
+        target = Path(args.out)
+        make_folder(target.parent if str(target.parent) else ".")
+    write_text_atomic(target, text, force=args.force)
+    print(f"wrote {printable(target)}", file=sys.stderr)
 
 
 def _emit_many(args: argparse.Namespace, files: dict[str, str]) -> None:
-    """Write several files into the --out folder (created if missing)."""
-    from celllab.export import atomic_write_text
+    """Write several files into the --out folder (created if missing); every target is checked
+    before the first is written."""
+    from celllab.export.files import write_files_atomic
 
-    folder = Path(args.out)
-    folder.mkdir(parents=True, exist_ok=True)
-    for name, text in files.items():
-        atomic_write_text(folder / name, text)
-    print(f"wrote {len(files)} files to {folder}", file=sys.stderr)
+    written = write_files_atomic(args.out, files, force=args.force)
+    print(f"wrote {len(written)} files to {printable(args.out)}", file=sys.stderr)
+
+
+def _add_file(files: dict[str, str], owners: dict[str, str], name: str, text: str, owner: str) -> None:
+    """Add one output file; two different cells (or corners) may not share a file name."""
+    if name in files:
+        raise _problem(
+            "--out",
+            f"{owner} and {owners[name]} would both be written to {name}; export them "
+            "separately (--cells) or into separate folders",
+            None,
+            has_value=False,
+        )
+    files[name] = text
+    owners[name] = owner
 
 
 # --------------------------------------------------------------------------- catalog access
@@ -168,7 +187,8 @@ def _export_json(args: argparse.Namespace, cat: Any) -> None:
 
 
 def _export_spice(args: argparse.Namespace, cat: Any) -> None:
-    from celllab.export.spice import render_spice_library, render_spice_subckt, spice_name
+    from celllab.export.files import file_stem
+    from celllab.export.spice import _Names, render_spice_library, render_spice_subckt, spice_name
 
     cells, deck = _load_cells(cat, _select_rows(cat, args))
     _need_cells(cells)
@@ -181,13 +201,14 @@ def _export_spice(args: argparse.Namespace, cat: Any) -> None:
             file=sys.stderr,
         )
     if _is_folder(args.out):
-        _emit_many(
-            args,
-            {
-                f"{spice_name(c.name)}.sp": render_spice_subckt(c, corner, args.segments, deck)
-                for c in cells
-            },
-        )
+        files: dict[str, str] = {}
+        owners: dict[str, str] = {}
+        names = _Names()  # subcircuit names unique across the files, as in one library
+        for c in cells:
+            unique = names.get(c.name, spice_name(c.name))
+            text = render_spice_subckt(c, corner, args.segments, deck, subckt_name=unique)
+            _add_file(files, owners, f"{file_stem(c.name)}.sp", text, f"cell {c.name}")
+        _emit_many(args, files)
     else:
         _emit(
             args, render_spice_library(cells, deck, corner, args.segments), DEFAULT_FILES["spice"]
@@ -201,12 +222,13 @@ def _export_touchstone(args: argparse.Namespace, cat: Any) -> None:
     _need_cells(cells)
     corner = _render_corner(args)
     files: dict[str, str] = {}
+    owners: dict[str, str] = {}
     for cell in cells:
         corners = [corner] if corner else [c.corner for c in cell.corners]
         for name in corners:
-            files[touchstone_filename(cell.name, name)] = render_touchstone(
-                cell, name, deck, reference_ohm=args.reference_ohm
-            )
+            text = render_touchstone(cell, name, deck, reference_ohm=args.reference_ohm)
+            _add_file(files, owners, touchstone_filename(cell.name, name), text,
+                      f"cell {cell.name} at corner {name}")
     if _is_folder(args.out):
         _emit_many(args, files)
     elif len(files) == 1:
@@ -223,31 +245,31 @@ def _export_touchstone(args: argparse.Namespace, cat: Any) -> None:
 
 def _export_datasheet(args: argparse.Namespace, cat: Any) -> None:
     from celllab.export.datasheet import render_datasheet_html, render_library_html
+    from celllab.export.files import file_stem
 
     cells, deck = _load_cells(cat, _select_rows(cat, args))
     _need_cells(cells)
     corner = _render_corner(args)
     plots = not args.no_plots
     if _is_folder(args.out):
-        files = {
-            f"{_file_stem(c.name)}.html": render_datasheet_html(c, deck, plots=plots) for c in cells
-        }
-        files[DEFAULT_FILES["datasheet"]] = render_library_html(cells, deck, corner, plots=plots)
+        files: dict[str, str] = {}
+        owners: dict[str, str] = {}
+        for c in cells:
+            _add_file(files, owners, f"{file_stem(c.name)}.html",
+                      render_datasheet_html(c, deck, plots=plots), f"cell {c.name}")
+        _add_file(files, owners, DEFAULT_FILES["datasheet"],
+                  render_library_html(cells, deck, corner, plots=plots), "the library index")
         _emit_many(args, files)
     elif len(cells) == 1:
         _emit(
             args,
             render_datasheet_html(cells[0], deck, plots=plots),
-            f"{_file_stem(cells[0].name)}.html",
+            f"{file_stem(cells[0].name)}.html",
         )
     else:
         _emit(
             args, render_library_html(cells, deck, corner, plots=plots), DEFAULT_FILES["datasheet"]
         )
-
-
-def _file_stem(name: str) -> str:
-    return "".join(ch if ch.isalnum() or ch in "-_." else "_" for ch in name)
 
 
 EXPORTERS: dict[str, Callable[[argparse.Namespace, Any], None]] = {
@@ -267,10 +289,6 @@ def cmd_export(args: argparse.Namespace) -> int:
 
         _emit(args, json.dumps(export_json_schema(), indent=2) + "\n", DEFAULT_FILES["schema"])
         return 0
-    if args.reference_ohm is not None and not args.reference_ohm > 0:
-        raise _problem("--reference-ohm", "must be > 0 (ohm)", args.reference_ohm)
-    if args.segments is not None and args.segments < 1:
-        raise _problem("--segments", "must be >= 1", args.segments)
     from celllab.catalog import open_catalog
 
     if not Path(args.catalog).exists():
@@ -341,7 +359,7 @@ def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
     )
     p.add_argument(
         "--limit",
-        type=int,
+        type=whole_number(0, MAX_ROWS),
         default=0,
         metavar="N",
         help="only the first N cells in that order (default: all)",
@@ -362,18 +380,23 @@ def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
     )
     p.add_argument(
         "--segments",
-        type=int,
+        type=whole_number(1, MAX_SEGMENTS),
         metavar="N",
-        help="spice: R-C ladder segments per distributed line (default: from the "
-        "highest swept frequency)",
+        help="spice: R-C ladder segments per distributed line, 1 to "
+        f"{MAX_SEGMENTS} (default: from the highest swept frequency)",
     )
     p.add_argument(
         "--reference-ohm",
-        type=float,
+        type=positive_number(1e6),
         default=1.0,
         metavar="R",
         help="touchstone: reference resistance of the option line; data are Z/R "
         "(default: %(default)s)",
     )
     p.add_argument("--no-plots", action="store_true", help="datasheet: tables only")
+    p.add_argument(
+        "--force",
+        action="store_true",
+        help="replace existing output files (never links, pipes or read-only files)",
+    )
     p.set_defaults(func=cmd_export)

@@ -91,7 +91,12 @@ def main(argv: Sequence[str] | None = None) -> int:
         _report(bad)
         return 2
     parser = build_parser()
-    args = parser.parse_args(argv)
+    try:
+        args = parser.parse_args(argv)
+    except SystemExit as exc:  # --help and --version end here with 0; a usage error with 2
+        if exc.code in (0, None):
+            raise
+        return int(exc.code) if isinstance(exc.code, int) else 2
     if not getattr(args, "func", None):
         parser.print_help()
         return 0

@@ -14,6 +14,7 @@ from collections.abc import Sequence
 from pathlib import Path
 from typing import Any
 
+from celllab.cli.args import MAX_ROWS, whole_number
 from celllab.cli.text import printable
 from celllab.records import CELL_COLUMNS, METRIC_BY_NAME, METRIC_NAMES
 
@@ -398,9 +399,14 @@ def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
     order.add_argument("--asc", action="store_true", help="smallest first")
     order.add_argument("--desc", action="store_true", help="largest first")
     p.add_argument(
-        "--limit", type=int, default=20, help="rows to print, 0 for all (default: %(default)s)"
+        "--limit",
+        type=whole_number(0, MAX_ROWS),
+        default=20,
+        help="rows to print, 0 for all (default: %(default)s)",
     )
-    p.add_argument("--offset", type=int, default=0, help="rows to skip first (paging)")
+    p.add_argument(
+        "--offset", type=whole_number(0, MAX_ROWS), default=0, help="rows to skip first (paging)"
+    )
     p.set_defaults(func=cmd_rank)
 
     p = sub.add_parser(

@@ -414,9 +414,13 @@ def write_spice(
     deck_name: str | None = None,
     corner: str | None = None,
     n_segments: int | None = None,
+    force: bool = False,
 ) -> Path:
-    """Write :func:`render_spice_library` output to ``path`` atomically."""
-    return atomic_write_text(path, render_spice_library(cells, deck_name, corner, n_segments))
+    """Write :func:`render_spice_library` output to ``path`` atomically (``force``: replace a
+    file)."""
+    return atomic_write_text(
+        path, render_spice_library(cells, deck_name, corner, n_segments), force
+    )
 
 
 def element_values(el: Element) -> dict[str, float]:
