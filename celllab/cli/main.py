@@ -13,6 +13,7 @@ import importlib
 import sys
 import warnings
 from collections.abc import Sequence
+from typing import Any
 
 from celllab import __version__
 from celllab.cli.text import printable
@@ -33,8 +34,16 @@ EPILOG = (
 )
 
 
+class _Parser(argparse.ArgumentParser):
+    """argparse with its messages escaped: a usage error quotes the argument given, and that
+    text must not reach the terminal raw (an escape sequence, a bidirectional override)."""
+
+    def _print_message(self, message: str, file: Any = None) -> None:
+        super()._print_message(printable(message, keep_newlines=True), file)
+
+
 def build_parser() -> argparse.ArgumentParser:
-    parser = argparse.ArgumentParser(
+    parser = _Parser(
         prog="celllab",
         description="Characterize on-chip decoupling cells from a process deck and keep the "
         "results in a searchable catalog.",

@@ -21,27 +21,36 @@ EDGE_TEXTS = ["", " ", "worst", "best", "all", "core", "io", "metal", "n_poly", 
               "\u0000nul"]
 
 
+_SCALARS = st.one_of(
+    st.sampled_from(EDGE_FLOATS),
+    st.floats(allow_nan=True, allow_infinity=True),
+    st.integers(min_value=-(2**70), max_value=2**70),
+    st.sampled_from([0, 1, 2, -1, 4096, 4097, 10**9, 2**63]),
+    st.booleans(),
+    st.sampled_from(EDGE_TEXTS),
+    st.text(max_size=12),
+)
+_VALUES = st.one_of(
+    _SCALARS,
+    st.lists(_SCALARS, max_size=4),
+    st.dictionaries(st.sampled_from(["start", "stop", "step", "count", "spacing", "x"]), _SCALARS,
+                    max_size=4),
+)
+
+
 def scalars() -> st.SearchStrategy[Any]:
-    """Any TOML-representable scalar, biased to the edges."""
-    return st.one_of(
-        st.sampled_from(EDGE_FLOATS),
-        st.floats(allow_nan=True, allow_infinity=True),
-        st.integers(min_value=-(2**70), max_value=2**70),
-        st.sampled_from([0, 1, 2, -1, 4096, 4097, 10**9, 2**63]),
-        st.booleans(),
-        st.sampled_from(EDGE_TEXTS),
-        st.text(max_size=12),
-    )
+    """Any TOML-representable scalar, biased to the edges (one shared strategy object)."""
+    return _SCALARS
 
 
 def values() -> st.SearchStrategy[Any]:
-    """Scalars, short lists and small tables of them."""
-    return st.one_of(
-        scalars(),
-        st.lists(scalars(), max_size=4),
-        st.dictionaries(st.sampled_from(["start", "stop", "step", "count", "spacing", "x"]),
-                        scalars(), max_size=4),
-    )
+    """Scalars, short lists and small tables of them (one shared strategy object)."""
+    return _VALUES
+
+
+def pick(draw: st.DrawFn, options: list[Any]) -> Any:
+    """One of ``options`` (cheaper than building a sampled_from strategy per draw)."""
+    return options[draw(st.integers(0, len(options) - 1))]
 
 
 def paths(data: Any, prefix: tuple[Any, ...] = ()) -> list[tuple[Any, ...]]:

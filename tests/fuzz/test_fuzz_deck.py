@@ -20,7 +20,7 @@ from celllab.deck import Deck, load_deck, numeric_paths, parse_deck
 from celllab.errors import DeckError
 
 from .conftest import fuzz_settings
-from .strategies import assert_located, edit, paths, scalars, values
+from .strategies import assert_located, edit, paths, pick, scalars, values
 
 BASE_PATH = Path(__file__).resolve().parents[2] / "process_decks" / "lumen130.toml"
 BASE_TEXT = BASE_PATH.read_text(encoding="utf-8")
@@ -67,7 +67,7 @@ def edited_decks(draw: st.DrawFn) -> dict[str, Any]:
                                                         for i in range(extra)]}
         else:
             options = paths(data) if data is not BASE else PATHS
-            path = draw(st.sampled_from(options))
+            path = pick(draw, options)
             data = edit(data, kind, path, draw(values()))
     return data
 
@@ -100,7 +100,7 @@ def edited_texts(draw: st.DrawFn) -> bytes:
             # replace the value of one "key = value" line by an edge literal
             lines = text.splitlines()
             candidates = [i for i, line in enumerate(lines) if " = " in line and not line.startswith("#")]
-            i = draw(st.sampled_from(candidates))
+            i = pick(draw, candidates)
             key = lines[i].split(" = ", 1)[0]
             lines[i] = f"{key} = {draw(st.sampled_from(NUMBER_LITERALS))}"
             text = "\n".join(lines) + "\n"
