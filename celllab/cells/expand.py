@@ -44,6 +44,8 @@ from celllab.errors import CellError, Problem
 MAX_VARIANTS_PER_FAMILY = 20000
 MAX_VARIANTS_PER_FILE = 100000
 MAX_RANGE_VALUES = 10000
+#: Largest magnitude of a range's start, stop or step (every swept field is far smaller).
+MAX_RANGE_MAGNITUDE = 1e12
 _FAMILY_ONLY = {"name", "topology", "oxide", "description", "skip_unfit"}
 _RANGE_KEYS = {"start", "stop", "step", "count", "spacing"}
 
@@ -85,9 +87,9 @@ def _expand_value(value: Any, where: str, file: str, text: str | None, path: lis
         start, stop = value["start"], value["stop"]
         if not all(isinstance(v, (int, float)) and not isinstance(v, bool) for v in (start, stop)):
             raise CellError([Problem(file, where, "range start and stop must be numbers", value, find_line(text, path))])
-        if not all(math.isfinite(v) for v in (start, stop)):
-            raise CellError([Problem(file, where, "range start and stop must be finite numbers", value,
-                                     find_line(text, path))])
+        if not all(math.isfinite(v) and abs(v) <= MAX_RANGE_MAGNITUDE for v in (start, stop)):
+            raise CellError([Problem(file, where, "range start and stop must be finite numbers within "
+                                     f"+-{MAX_RANGE_MAGNITUDE:g}", value, find_line(text, path))])
         spacing = value.get("spacing", "linear")
         if spacing not in ("linear", "log"):
             raise CellError([Problem(file, where + ".spacing", "allowed: linear, log", spacing, find_line(text, path))])
@@ -107,7 +109,7 @@ def _expand_value(value: Any, where: str, file: str, text: str | None, path: lis
         else:
             step = value.get("step", 1)
             if not isinstance(step, (int, float)) or isinstance(step, bool) or not step > 0 \
-                    or not math.isfinite(step):
+                    or not step <= MAX_RANGE_MAGNITUDE:
                 raise CellError([Problem(file, where + ".step", "must be a number > 0 (and finite)", step,
                                          find_line(text, path))])
             span = (stop - start) / step  # finite operands; the quotient may still overflow

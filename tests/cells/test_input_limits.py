@@ -160,3 +160,13 @@ def test_expansion_stays_lazy_for_accepted_sweeps() -> None:
     specs = parse_cells(family(width_sites=list(range(20, 27)), fingers=list(range(1, 12)),
                                height_rows=[1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11, 12, 13]))
     assert len(specs) == math.prod(sizes) == len(list(itertools.product(*map(range, sizes))))
+
+
+@pytest.mark.parametrize("bad", [
+    {"start": 2**63, "stop": 2**63},
+    {"start": -(2**70), "stop": 4},
+    {"start": 1, "stop": 4, "step": 2**64},
+])
+def test_range_bounds_beyond_any_field_are_refused(bad: dict[str, int]) -> None:
+    (message,) = _problems(family(width_sites=bad))
+    assert "family[0].width_sites" in message

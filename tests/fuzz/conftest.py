@@ -16,15 +16,15 @@ from hypothesis import HealthCheck, settings
 
 #: Examples per fuzz test (the suite's total is their sum; see test_budget.py).
 EXAMPLES: dict[str, int] = {
-    "deck_data": 1500,
-    "deck_text": 500,
-    "cell_data": 3000,
-    "cells_built": 80,
-    "block_data": 1500,
-    "filter_text": 3000,
-    "filter_run": 1000,
-    "catalog_merge": 300,
-    "cli_args": 1200,
+    "deck_data": 1000,
+    "deck_text": 400,
+    "cell_data": 2000,
+    "cells_built": 60,
+    "block_data": 1600,
+    "filter_text": 3400,
+    "filter_run": 800,
+    "catalog_merge": 200,
+    "cli_args": 600,
 }
 
 

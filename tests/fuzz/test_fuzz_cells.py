@@ -30,14 +30,15 @@ from celllab.engine import characterize
 from celllab.errors import CellError, DeckError
 
 from .conftest import fuzz_settings
-from .strategies import assert_located, scalars
+from .strategies import assert_located, pick, scalars
 
 DECKS = Path(__file__).resolve().parents[2] / "process_decks"
 LUMEN = load_deck(DECKS / "lumen130.toml")
+DEMO = {name: load_deck(DECKS / f"{name}.toml") for name in ("lumen130", "tarn40lp", "quill28hk")}
 FILE = "fuzz_cells.toml"
 
 PLAUSIBLE: dict[str, st.SearchStrategy[Any]] = {
-    "width_sites": st.sampled_from([2, 4, 8, 12, 16, 24, 40, 64]),
+    "width_sites": st.sampled_from([2, 8, 12, 16, 24, 40, 64]),
     "height_rows": st.sampled_from([1, 1, 2, 3]),
     "fingers": st.sampled_from([1, 2, 3, 4, 8]),
     "gate_length_um": st.sampled_from([0.05, 0.12, 0.2, 0.35, 0.5, 1.0, 3.0]),
@@ -54,15 +55,29 @@ PLAUSIBLE: dict[str, st.SearchStrategy[Any]] = {
 }
 
 
-def field_value(name: str, hostile: bool) -> st.SearchStrategy[Any]:
-    plain = PLAUSIBLE[name]
-    if not hostile:
-        return plain
+def _rough(plain: st.SearchStrategy[Any]) -> st.SearchStrategy[Any]:
     sweep = st.one_of(st.lists(plain, min_size=1, max_size=3),
                       st.fixed_dictionaries({"start": scalars(), "stop": scalars()},
                                             optional={"step": scalars(), "count": scalars(),
                                                       "spacing": st.sampled_from(["log", "linear", "x"])}))
-    return st.one_of(plain, plain, sweep, scalars())
+    return st.one_of(plain, sweep, scalars())
+
+
+#: Field values built once: plausible ones, and rough ones (sweeps, edge values, wrong types).
+ROUGH = {name: _rough(plain) for name, plain in PLAUSIBLE.items()}
+NAMES_PLAIN = st.sampled_from(["fa", "fb", "fc"])
+NAMES_ROUGH = st.one_of(st.sampled_from(["fa", "x1", "9bad", "a" * 90, "b\x1bc"]), st.text(max_size=6))
+TOPOLOGY_ROUGH = st.one_of(st.sampled_from(["nmos_inv", "", "MOM"]), st.text(max_size=5))
+OXIDES = ["core", "io"]
+_COMMON = ["width_sites", "height_rows", "contacted_ends"]
+_GATE = ["fingers", "gate_length_um", "gate_width_um", "gate_contacted_ends"]
+_FINGERS = ["mom_bottom", "mom_top", "finger_width_um", "finger_space_um", "mom_alternate"]
+FIELDS_OF = {
+    "nmos_inversion": _COMMON + _GATE, "pmos_inversion": _COMMON + _GATE,
+    "accumulation": [*_COMMON, *_GATE, "accumulation_well"], "cross_coupled": _COMMON + _GATE,
+    "mom": _COMMON + _FINGERS, "mos_mom": [*_COMMON, *_GATE, *_FINGERS, "mos_device"],
+}
+EXTRA_KEYS = ["skip_unfit", "family", "description", "colour"]
 
 
 @st.composite
@@ -74,28 +89,40 @@ def cell_entries(draw: st.DrawFn, hostile: bool = True) -> dict[str, Any]:
         return hostile and draw(st.integers(0, 5)) == 0
 
     entry: dict[str, Any] = {
-        "name": draw(st.one_of(st.sampled_from(["fa", "x1", "9bad", "a" * 90, "b\x1bc"]), st.text(max_size=6))
-                     if rough() else st.sampled_from(["fa", "fb", "fc"])),
-        "topology": draw(st.one_of(st.sampled_from(["nmos_inv", "", "MOM"]), st.text(max_size=5))
-                         if rough() else st.sampled_from(TOPOLOGIES)),
+        "name": draw(NAMES_ROUGH) if rough() else pick(draw, ["fa", "fb", "fc"]),
+        "topology": draw(TOPOLOGY_ROUGH) if rough() else pick(draw, list(TOPOLOGIES)),
     }
     if draw(st.booleans()):
-        entry["oxide"] = draw(st.sampled_from(["thick", "", "IO"]) if rough() else st.sampled_from(["core", "io"]))
-    for name in draw(st.lists(st.sampled_from(GEOMETRY_FIELDS), max_size=4, unique=True)):
-        entry[name] = draw(field_value(name, rough()))
-    entry.setdefault("width_sites", draw(field_value("width_sites", rough())))
+        entry["oxide"] = pick(draw, ["thick", "", "IO"]) if rough() else pick(draw, OXIDES)
+    for _ in range(draw(st.integers(0, 4))):
+        if rough():
+            name = pick(draw, list(GEOMETRY_FIELDS))
+            entry[name] = draw(ROUGH[name])
+        else:  # a field the topology takes
+            name = pick(draw, FIELDS_OF.get(entry["topology"], list(GEOMETRY_FIELDS)))
+            entry[name] = draw(PLAUSIBLE[name])
+    if "width_sites" not in entry:
+        entry["width_sites"] = draw(ROUGH["width_sites"] if rough() else PLAUSIBLE["width_sites"])
     if rough() and draw(st.booleans()):
-        entry[draw(st.sampled_from(["skip_unfit", "family", "description", "colour"]))] = draw(scalars())
+        entry[pick(draw, EXTRA_KEYS)] = draw(scalars())
     return entry
+
+
+ENTRIES = cell_entries()
+PLAIN_ENTRIES = cell_entries(hostile=False)
+ENTRY_LISTS = st.lists(ENTRIES, min_size=1, max_size=3)
 
 
 @st.composite
 def cell_files(draw: st.DrawFn) -> dict[str, Any]:
     data: dict[str, Any] = {}
-    for kind in draw(st.lists(st.sampled_from(["family", "cell"]), min_size=1, max_size=2)):
-        data.setdefault(kind, []).extend(draw(st.lists(cell_entries(), min_size=1, max_size=3)))
+    for _ in range(draw(st.integers(1, 2))):
+        data.setdefault(pick(draw, ["family", "cell"]), []).extend(draw(ENTRY_LISTS))
+    for i, entry in enumerate(e for entries in data.values() for e in entries):
+        if entry.get("name") in ("fa", "fb", "fc") and draw(st.integers(0, 4)):
+            entry["name"] += str(i)  # mostly distinct names; sometimes a repeat
     if draw(st.integers(0, 19)) == 0:
-        data[draw(st.sampled_from(["family", "cell", "invented", "extra"]))] = draw(scalars())
+        data[pick(draw, ["family", "cell", "invented", "extra"])] = draw(scalars())
     return data
 
 
@@ -146,22 +173,24 @@ def _bounds(path: str) -> tuple[float | None, float | None]:
 def _limit_changes(deck: Deck, draw: st.DrawFn) -> dict[str, float]:
     """One to four parameters set to a documented bound (just inside an open one)."""
     changes = {}
-    for path in draw(st.lists(st.sampled_from(numeric_paths(deck)), min_size=1, max_size=4, unique=True)):
+    options = numeric_paths(deck)
+    for _ in range(draw(st.integers(1, 4))):
+        path = pick(draw, options)
         lo, hi = _bounds(path)
         choices = [v for v in (lo, hi) if v is not None]
         if choices:
-            changes[path] = draw(st.sampled_from(choices))
+            changes[path] = pick(draw, choices)
     return changes
 
 
 @st.composite
 def limit_cases(draw: st.DrawFn) -> tuple[Deck, list[dict[str, Any]]]:
-    deck = load_deck(DECKS / f"{draw(st.sampled_from(['lumen130', 'tarn40lp', 'quill28hk']))}.toml")
+    deck = DEMO[pick(draw, list(DEMO))]
     try:
         deck = deck.with_changes(_limit_changes(deck, draw))
     except DeckError:
         pass  # limits that break a cross-field rule: keep the demo deck (the deck fuzzer covers it)
-    entries = draw(st.lists(cell_entries(hostile=False), min_size=1, max_size=2))
+    entries = draw(st.lists(PLAIN_ENTRIES, min_size=1, max_size=2))
     return deck, [{**e, "name": f"{e['name']}{i}"} for i, e in enumerate(entries)]
 
 

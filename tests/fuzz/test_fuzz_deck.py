@@ -57,16 +57,19 @@ corner_tables = st.fixed_dictionaries(
 def edited_decks(draw: st.DrawFn) -> dict[str, Any]:
     data = BASE
     for _ in range(draw(st.integers(1, 3))):
-        kind = draw(st.sampled_from(["set", "set", "delete", "extra", "corner", "metals"]))
-        if kind == "corner":
+        kind = pick(draw, ["set", "set", "delete", "extra", "corner", "metals"])
+        metals = data.get("metals")
+        if kind == "corner" and isinstance(data.get("corners"), dict):
             data = {**data, "corners": {**data["corners"], draw(corner_names): draw(corner_tables)}}
-        elif kind == "metals":
+        elif kind == "metals" and isinstance(metals, list) and metals and isinstance(metals[-1], dict):
             extra = draw(st.integers(0, 40))
             data = {**data, "metals": data["metals"] + [dict(data["metals"][-1], name=f"X{i}",
                                                              height_nm=9000 + 500 * i)
                                                         for i in range(extra)]}
-        else:
+        elif kind in ("set", "delete", "extra"):
             options = paths(data) if data is not BASE else PATHS
+            if not options:
+                break
             path = pick(draw, options)
             data = edit(data, kind, path, draw(values()))
     return data
@@ -86,6 +89,8 @@ def test_parsed_decks_are_accepted_or_located(data: dict[str, Any], outcomes: Co
     outcomes["deck_data.accepted"] += 1
 
 
+SHORT_TEXT = st.text(max_size=8)
+STRAY_BYTES = st.binary(min_size=1, max_size=3)
 NUMBER_LITERALS = ["nan", "inf", "-inf", "1e999", "-0.0", "0x10", "1_000", "5e-324", "+1", "1e-300",
                    "9223372036854775808", '"1.2"', "true", "[]", "{}"]
 
@@ -94,7 +99,7 @@ NUMBER_LITERALS = ["nan", "inf", "-inf", "1e999", "-0.0", "0x10", "1_000", "5e-3
 def edited_texts(draw: st.DrawFn) -> bytes:
     text = BASE_TEXT
     for _ in range(draw(st.integers(1, 3))):
-        kind = draw(st.sampled_from(["number", "insert", "delete", "line", "table", "bom", "bytes"]))
+        kind = pick(draw, ["number", "insert", "delete", "line", "table", "bom", "bytes"])
         at = draw(st.integers(0, len(text)))
         if kind == "number":
             # replace the value of one "key = value" line by an edge literal
@@ -102,10 +107,10 @@ def edited_texts(draw: st.DrawFn) -> bytes:
             candidates = [i for i, line in enumerate(lines) if " = " in line and not line.startswith("#")]
             i = pick(draw, candidates)
             key = lines[i].split(" = ", 1)[0]
-            lines[i] = f"{key} = {draw(st.sampled_from(NUMBER_LITERALS))}"
+            lines[i] = f"{key} = {pick(draw, NUMBER_LITERALS)}"
             text = "\n".join(lines) + "\n"
         elif kind == "insert":
-            text = text[:at] + draw(st.text(max_size=8)) + text[at:]
+            text = text[:at] + draw(SHORT_TEXT) + text[at:]
         elif kind == "delete":
             text = text[:at] + text[at + draw(st.integers(1, 40)):]
         elif kind == "line":
@@ -114,16 +119,16 @@ def edited_texts(draw: st.DrawFn) -> bytes:
             lines.insert(i, lines[draw(st.integers(0, len(lines) - 1))])
             text = "\n".join(lines) + "\n"
         elif kind == "table":
-            text += draw(st.sampled_from(["\n[corners.worst]\ntemperature_C = 1\n",
+            text += pick(draw, ["\n[corners.worst]\ntemperature_C = 1\n",
                                           '\n[corners.c2]\ntemperature_C = 1\nset = { "corners.typ_25C.temperature_C" = 3 }\n',
                                           "\n[[metals]]\nname = \"M1\"\n", "\n[process]\n", "\n[[corners]]\n",
-                                          "\n" + "[" * 500 + "\n", "\nx = " + "[" * 2000 + "]" * 2000 + "\n"]))
+                                          "\n" + "[" * 500 + "\n", "\nx = " + "[" * 2000 + "]" * 2000 + "\n"])
         elif kind == "bom":
             text = "\ufeff" + text
     raw = text.encode("utf-8", "surrogatepass")
     if draw(st.booleans()) and draw(st.booleans()):  # a quarter: stray bytes that are not UTF-8
         at = draw(st.integers(0, len(raw)))
-        raw = raw[:at] + draw(st.binary(min_size=1, max_size=3)) + raw[at:]
+        raw = raw[:at] + draw(STRAY_BYTES) + raw[at:]
     return raw
 
 
