@@ -9,7 +9,6 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import Any
 
-
 #: Longest value quoted in a message (a 10 MB name is cut, not printed).
 MAX_SHOWN_VALUE = 200
 

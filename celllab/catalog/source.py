@@ -35,7 +35,13 @@ from typing import Any
 import sqlite_utils
 from pydantic import ValidationError
 
-from celllab.catalog.schema import check_file_header, check_tables, inspect, migrate, sync_metric_columns
+from celllab.catalog.schema import (
+    check_file_header,
+    check_tables,
+    inspect,
+    migrate,
+    sync_metric_columns,
+)
 from celllab.catalog.store import PreparedCell, decode_c128, decode_f64, prepare_cell
 from celllab.catalog.validate import DECK_NAME, cell_problems, shown
 from celllab.cells.expand import cell_hash

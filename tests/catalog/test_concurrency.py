@@ -14,7 +14,6 @@ from __future__ import annotations
 
 import contextlib
 import io
-import json
 import subprocess
 import sys
 import textwrap
