@@ -37,8 +37,9 @@ from celllab.records import (  # noqa: E402
     CVCurve,
     FrequencyResponse,
 )
+from celllab.topologies import REGISTRY  # noqa: E402
 
-TOPOLOGIES = ("nmos_inversion", "pmos_inversion", "accumulation", "cross_coupled", "mom", "mos_mom")
+TOPOLOGIES = REGISTRY.names()
 ESD_SAFE = {"cross_coupled", "mom"}
 CORNERS = (("typ_25C", 25.0, 1.2), ("slow_125C", 125.0, 1.08), ("fast_m40C", -40.0, 1.32))
 

@@ -9,9 +9,8 @@ from __future__ import annotations
 from collections.abc import Callable
 from pathlib import Path
 
+from celllab import DEFAULT_CATALOG
 from celllab.errors import CelllabError, Problem
-
-DEFAULT_CATALOG = Path("db") / "celllab.sqlite"
 
 
 def demo_dir() -> Path:

@@ -12,27 +12,25 @@ from collections.abc import Callable, Sequence
 from typing import Any
 
 import numpy as np
-from scipy.constants import femto, giga, nano, pico, zero_Celsius
 
-from celllab import MODEL_VERSION
+from celllab import MODEL_VERSION, topologies
 from celllab.cells.expand import resolve
 from celllab.cells.schema import CellSpec
-from celllab.characterization import topologies
 from celllab.characterization.params import CornerSet
 from celllab.deck.schema import Deck
 from celllab.records import (
-    METRIC_NAMES,
+    METRICS,
     CellResult,
     CharacterizationRun,
+    CornerFigures,
     CornerResult,
     CVCurve,
     FrequencyResponse,
 )
+from celllab.units import from_si
 
 #: Frequency sweep of every response: 100 kHz .. 1 THz, 20 points per decade.
 FREQ_HZ = np.logspace(5, 12, 141)
-ESR_PROBE_HZ = 1.0e9
-SECONDS_PER_YEAR = 365.25 * 24 * 3600
 
 Progress = Callable[[str, int, int], None]
 
@@ -106,32 +104,22 @@ def _record(spec: CellSpec, geo: Any, corners: CornerSet, group: Any, index: int
     out, k = group.row(index)
     corner_results = []
     for j, cname in enumerate(corners.names):
-        m = {name: float("nan") for name in METRIC_NAMES}
-        c_lf = out.summary["c_lf_F"][k, j]
-        m["cap_fF"] = c_lf / femto
-        m["cap_density_fF_per_um2"] = c_lf / femto / geo.area_um2
-        m["cap_ox_fF"] = out.cap_ox_F[k, j] / femto
-        m["esr_ohm"] = out.summary["esr_lf_ohm"][k, j]
-        m["esr_1GHz_ohm"] = out.summary["esr_at_ohm"][k, j, 0]
-        bw = out.summary["bandwidth_Hz"][k, j]
-        m["bandwidth_GHz"] = bw / giga
-        m["esl_pH"] = _series_inductance(out, k, j) / pico
-        srf = out.summary["srf_Hz"][k, j]
-        m["srf_GHz"] = srf / giga
-        m["tau_ps"] = out.summary["tau_s"][k, j] / pico
-        leak = out.leakage_A[k, j]
-        m["leakage_nA"] = leak / nano
-        m["leakage_nA_per_nF"] = (leak / nano) / (c_lf / nano) if c_lf > 0 else float("nan")
-        m["oxide_field_MV_per_cm"] = out.e_ox_V_per_m[k, j] / 1e8
-        m["tddb_life_years"] = out.ttf_s[k, j] / SECONDS_PER_YEAR
-        m["pulse_vbd_V"] = out.vbd_pulse_V[k, j]
         flags = list(out.flags[k][j])
+        bw = float(out.summary["bandwidth_Hz"][k, j])
         if not np.isfinite(bw):
             flags.append("bandwidth_beyond_sweep: C_eff stays above C/sqrt(2) up to 1 THz; value is a lower bound")
-            m["bandwidth_GHz"] = FREQ_HZ[-1] / giga
+            bw = float(FREQ_HZ[-1])
+        srf = float(out.summary["srf_Hz"][k, j])
         if not np.isfinite(srf):
             flags.append("srf_beyond_sweep: no self-resonance below 1 THz; value is a lower bound")
-            m["srf_GHz"] = FREQ_HZ[-1] / giga
+            srf = float(FREQ_HZ[-1])
+        figures = CornerFigures(
+            area_um2=geo.area_um2, c_lf_F=float(out.summary["c_lf_F"][k, j]), cap_ox_F=float(out.cap_ox_F[k, j]),
+            esr_lf_ohm=float(out.summary["esr_lf_ohm"][k, j]), esr_probe_ohm=float(out.summary["esr_at_ohm"][k, j, 0]),
+            bandwidth_Hz=bw, esl_H=_series_inductance(out, k, j), srf_Hz=srf, tau_s=float(out.summary["tau_s"][k, j]),
+            leakage_A=float(out.leakage_A[k, j]), e_ox_V_per_m=float(out.e_ox_V_per_m[k, j]),
+            ttf_s=float(out.ttf_s[k, j]), vbd_pulse_V=float(out.vbd_pulse_V[k, j]))
+        m = {metric.name: float(metric.compute(figures)) for metric in METRICS}  # type: ignore[misc]
         flags += _empty_metric_flags(m, flags)
         m = {key: _finite(v) for key, v in m.items()}
         cv = None
@@ -139,7 +127,7 @@ def _record(spec: CellSpec, geo: Any, corners: CornerSet, group: Any, index: int
             cv = CVCurve(bias_V=np.asarray(out.cv_bias[k, j], dtype=float), cap_F=np.asarray(out.cv_cap[k, j], dtype=float),
                          operating_bias_V=float(out.cv_operating_V[k, j]), operating_cap_F=float(out.cv_operating_F[k, j]))
         corner_results.append(CornerResult(
-            corner=cname, temperature_C=float(corners.temperature_K[j] - zero_Celsius),
+            corner=cname, temperature_C=float(from_si(corners.temperature_K[j], "degC")),
             supply_V=float(out.supply_V[k, j]), metrics=m,
             response=FrequencyResponse(freq_Hz=FREQ_HZ.copy(), z_ohm=out.z_ohm[k, j].copy()), cv=cv, flags=flags))
     geometry = {**spec.geometry, **{f"resolved_{key}": v for key, v in geo.as_dict().items() if key != "mom_layers"}}
@@ -149,4 +137,5 @@ def _record(spec: CellSpec, geo: Any, corners: CornerSet, group: Any, index: int
         name=spec.name, cell_hash=spec.content_hash, family=spec.family, topology=spec.topology, oxide=spec.oxide,
         geometry=geometry, area_um2=geo.area_um2, width_sites=spec.width_sites, height_rows=spec.height_rows,
         gate_area_um2=gate_area, esd_safe=spec.esd_safe, corners=corner_results,
-        netlist={cname: out.netlist_for(k, j) for j, cname in enumerate(corners.names)}, notes=list(out.notes))
+        netlist={cname: out.netlist_for(k, j) for j, cname in enumerate(corners.names)}, notes=list(out.notes),
+        placement=spec.placement, rail=spec.rail)

@@ -10,56 +10,52 @@ responses are stored in SI (Hz, ohm) as numpy arrays.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Any, Literal
+from typing import Any
 
 import numpy as np
 
-Better = Literal["higher", "lower"]
+from celllab.columns import (
+    AGGREGATE_CORNERS,
+    CELL_COLUMNS,
+    METRIC_BY_NAME,
+    METRIC_NAMES,
+    METRICS,
+    Better,
+    Column,
+)
+
+#: Column facts (units, better direction, worst/best) live in ``celllab.columns``; the names are
+#: re-exported here because ``CornerResult.metrics`` is keyed by ``METRIC_NAMES``.
+MetricInfo = Column
+
+__all__ = [
+    "CELL_COLUMNS", "METRICS", "METRIC_BY_NAME", "METRIC_NAMES", "Better", "CVCurve", "CellResult",
+    "CharacterizationRun", "CornerFigures", "CornerResult", "FrequencyResponse", "MetricInfo", "corner_metrics",
+    "netlist_from_dict", "netlist_to_dict",
+]
 
 
 @dataclass(frozen=True)
-class MetricInfo:
-    """Description of one per-corner metric column."""
+class CornerFigures:
+    """SI figures of one cell at one corner: what each metric (``columns.METRICS``) is computed from.
 
-    name: str
-    unit: str
-    description: str
-    better: Better
+    The engine fills them from a topology's group result; values outside the sweep are already
+    clamped to its end (with a flag), undefined ones are NaN.
+    """
 
-
-#: Per cell x corner metrics, in display order. Catalog columns, filter names, CSV headers and
-#: TUI column headers are exactly these names.
-METRICS: tuple[MetricInfo, ...] = (
-    MetricInfo("cap_fF", "fF", "low-frequency capacitance at the operating bias", "higher"),
-    MetricInfo("cap_density_fF_per_um2", "fF/um^2", "capacitance per cell footprint area", "higher"),
-    MetricInfo("cap_ox_fF", "fF", "plain Cox x gate area (no depletion, centroid or overlap)", "higher"),
-    MetricInfo("esr_ohm", "ohm", "low-frequency equivalent series resistance", "lower"),
-    MetricInfo("esr_1GHz_ohm", "ohm", "series resistance Re Z at 1 GHz", "lower"),
-    MetricInfo("bandwidth_GHz", "GHz", "usable bandwidth: where C_eff falls to C/sqrt(2)", "higher"),
-    MetricInfo("esl_pH", "pH", "equivalent series inductance", "lower"),
-    MetricInfo("srf_GHz", "GHz", "self-resonance frequency", "higher"),
-    MetricInfo("tau_ps", "ps", "RC time constant ESR x C", "lower"),
-    MetricInfo("leakage_nA", "nA", "gate tunnelling leakage at the supply", "lower"),
-    MetricInfo("leakage_nA_per_nF", "nA/nF", "leakage per nF of capacitance", "lower"),
-    MetricInfo("oxide_field_MV_per_cm", "MV/cm", "oxide field at the supply", "lower"),
-    MetricInfo("tddb_life_years", "years", "time to 0.01 % oxide breakdown of this cell at the supply", "higher"),
-    MetricInfo("pulse_vbd_V", "V", "gate-oxide breakdown voltage under a ~100 ns ESD-like pulse (rail clamps must hold the rails below it; empty for MOM)", "higher"),
-)
-
-METRIC_NAMES: tuple[str, ...] = tuple(m.name for m in METRICS)
-METRIC_BY_NAME: dict[str, MetricInfo] = {m.name: m for m in METRICS}
-
-#: Per-cell (corner-independent) columns that can be filtered and ranked too.
-CELL_COLUMNS: dict[str, MetricInfo] = {
-    m.name: m
-    for m in (
-        MetricInfo("area_um2", "um^2", "cell footprint area", "lower"),
-        MetricInfo("width_sites", "sites", "cell width in placement sites", "lower"),
-        MetricInfo("height_rows", "rows", "cell height in placement rows", "lower"),
-        MetricInfo("gate_area_um2", "um^2", "total gate (or plate) area", "higher"),
-        MetricInfo("esd_safe", "bool", "1 when no gate is tied directly to a rail", "higher"),
-    )
-}
+    area_um2: float          # cell footprint, um^2 (the one non-SI figure: densities are per um^2)
+    c_lf_F: float            # low-frequency capacitance, F
+    cap_ox_F: float          # plain Cox x area (+ metal), F
+    esr_lf_ohm: float        # low-frequency Re Z, ohm
+    esr_probe_ohm: float     # Re Z at the ESR probe frequency (1 GHz), ohm
+    bandwidth_Hz: float      # C_eff = C / sqrt(2), Hz
+    esl_H: float             # series inductance, H
+    srf_Hz: float            # self-resonance, Hz
+    tau_s: float             # ESR x C, s
+    leakage_A: float         # gate leakage at the supply, A
+    e_ox_V_per_m: float      # SiO2-equivalent oxide field, V/m
+    ttf_s: float             # time to the quoted oxide failure fraction, s
+    vbd_pulse_V: float       # pulse breakdown voltage, V
 
 
 @dataclass
@@ -107,7 +103,9 @@ class CellResult:
 
     ``geometry`` is the resolved geometry (all derived values filled in), in the cell file's
     units (um, sites, rows). ``netlist`` maps corner name -> the one-variant
-    ``physics.netlist.Netlist`` equivalent circuit at that corner.
+    ``physics.netlist.Netlist`` equivalent circuit at that corner. ``placement`` is where the
+    cell sits (``core_row`` / ``open_region``) and ``rail`` the supply rail it decouples and was
+    characterized at (results stored before rails existed follow their oxide).
     """
 
     name: str
@@ -124,6 +122,12 @@ class CellResult:
     corners: list[CornerResult]
     netlist: Any = None
     notes: list[str] = field(default_factory=list)
+    placement: str = "core_row"
+    rail: str = ""
+
+    def __post_init__(self) -> None:
+        if not self.rail:
+            self.rail = self.oxide
 
     def corner(self, name: str) -> CornerResult:
         for c in self.corners:
@@ -143,6 +147,18 @@ class CharacterizationRun:
     corners: list[str]
     cells: list[CellResult]
     source_files: list[str] = field(default_factory=list)
+
+
+def corner_metrics(cell: CellResult, corner: str) -> dict[str, float]:
+    """Metrics of ``cell`` at a corner name, or per metric its "worst" / "best" over the corners.
+
+    The Python twin of the catalog's worst/best rows (``columns.Column.over_corners``); a corner
+    the cell lacks raises ``KeyError``.
+    """
+    if corner in AGGREGATE_CORNERS:
+        return {m.name: m.over_corners((c.metrics.get(m.name) for c in cell.corners), corner)  # type: ignore[arg-type]
+                for m in METRICS}
+    return dict(cell.corner(corner).metrics)
 
 
 def netlist_to_dict(netlist: Any) -> dict[str, Any]:

@@ -58,6 +58,35 @@ def lumen130(lumen130_path: Path) -> Deck:
     return load_deck(lumen130_path)
 
 
+@pytest.fixture(scope="session")
+def demo_view_runs(demo_deck_paths: dict[str, tuple[Path, Path]]) -> dict[str, object]:
+    """Each demo deck characterized on a few of its cells: the first of every (topology, oxide,
+    one row or several) combination. Demo deck name -> CharacterizationRun."""
+    from celllab.cells import load_cells
+    from celllab.engine import characterize
+
+    runs: dict[str, object] = {}
+    for name, (deck_file, cell_file) in demo_deck_paths.items():
+        deck = load_deck(deck_file)
+        picked: dict[tuple[str, str, bool], object] = {}
+        for spec in load_cells(cell_file, deck):
+            picked.setdefault((spec.topology, spec.oxide, spec.height_rows > 1), spec)
+        runs[name] = characterize(deck, list(picked.values()))  # type: ignore[arg-type]
+    return runs
+
+
+@pytest.fixture(scope="session")
+def demo_view_catalog(demo_view_runs: dict[str, object], tmp_path_factory: pytest.TempPathFactory) -> Path:
+    """A catalog file holding ``demo_view_runs`` (tests only read it)."""
+    from celllab.catalog import open_catalog
+
+    path = tmp_path_factory.mktemp("views") / "views.sqlite"
+    with open_catalog(path) as catalog:
+        for run in demo_view_runs.values():
+            catalog.store_run(run)  # type: ignore[arg-type]
+    return path
+
+
 # --------------------------------------------------------------------------- hardening tally
 
 _TALLY: dict[str, object] = {}

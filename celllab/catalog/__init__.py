@@ -19,6 +19,7 @@ from collections.abc import Iterator
 from pathlib import Path
 from typing import Any, Self
 
+from celllab import DEFAULT_CATALOG
 from celllab.catalog import merge as _merge
 from celllab.catalog import pareto as _pareto
 from celllab.catalog import query as _query
@@ -30,10 +31,8 @@ from celllab.catalog.store import StoreReport
 from celllab.errors import CatalogError
 from celllab.records import CellResult, CharacterizationRun
 
-__all__ = ["DEFAULT_PATH", "Catalog", "DeckInfo", "MergeReport", "StoreReport", "open_catalog"]
+__all__ = ["Catalog", "DeckInfo", "MergeReport", "StoreReport", "open_catalog"]
 
-#: Where the catalog lives unless told otherwise (relative to the working directory).
-DEFAULT_PATH = Path("db") / "celllab.sqlite"
 
 
 class Catalog:
@@ -142,6 +141,16 @@ class Catalog:
         with self._access() as db:
             return _query.compare(db, names, deck, corner)
 
+    def name_taken(self, name: str, deck: str) -> bool:
+        """Whether ``deck`` (a current deck's name or a hash) already holds a cell called ``name``."""
+        with self._access() as db:
+            return _query.name_taken(db, name, deck)
+
+    def identical_cell(self, cell_hash: str, deck: str) -> str | None:
+        """Name of the current cell of ``deck`` with this content hash (same definition), if any."""
+        with self._access() as db:
+            return _query.identical_cell(db, cell_hash, deck)
+
     def cell(self, name: str, deck: str | None = None) -> CellResult:
         """The full current record of ``name`` (responses, C-V curves, flags)."""
         with self._access() as db:
@@ -150,4 +159,4 @@ class Catalog:
 
 def open_catalog(path: str | Path | None = None, create: bool = True) -> Catalog:
     """Open the catalog at ``path`` (default ``db/celllab.sqlite``), creating it if ``create``."""
-    return Catalog(Path(path) if path is not None else DEFAULT_PATH, create=create)
+    return Catalog(Path(path) if path is not None else DEFAULT_CATALOG, create=create)

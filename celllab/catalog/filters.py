@@ -21,33 +21,35 @@ under the offending place, what was expected and, for unknown names, the closest
 
 from __future__ import annotations
 
-import difflib
 import re
 import textwrap
 from dataclasses import dataclass
 from typing import Literal, get_args
 
-from celllab.cells.schema import OxideChoice, Topology
-from celllab.errors import FilterError, Problem
-from celllab.records import CELL_COLUMNS, METRIC_BY_NAME, METRIC_NAMES
+from celllab.cells.schema import OxideChoice
+from celllab.columns import CELL_COLUMNS, CORNER_COLUMNS, METRICS, TEXT_COLUMNS
+from celllab.errors import FilterError, Problem, did_you_mean
+from celllab.topologies import REGISTRY
+from celllab.topologies.geometry import PLACEMENTS
 
 FieldKind = Literal["number", "text", "bool"]
 
 #: Closed sets of the cell model; filter values are checked against them.
-TOPOLOGIES: tuple[str, ...] = tuple(get_args(Topology))
 OXIDES: tuple[str, ...] = tuple(get_args(OxideChoice))
-CLOSED_VALUES: dict[str, tuple[str, ...]] = {"topology": TOPOLOGIES, "oxide": OXIDES}
 
-TEXT_FIELDS = ("name", "deck", "family", "topology", "oxide", "corner")
+
+def closed_values() -> dict[str, tuple[str, ...]]:
+    """Text columns with a closed set of values (topologies read from the registry now)."""
+    return {"topology": REGISTRY.names(), "oxide": OXIDES, "placement": PLACEMENTS}
+
+TEXT_FIELDS: tuple[str, ...] = tuple(TEXT_COLUMNS)
 #: Corner conditions (NULL in worst/best rows, where no single corner applies).
-CORNER_FIELDS: dict[str, str] = {"temperature_C": "degC", "supply_V": "V"}
+CORNER_FIELDS: dict[str, str] = {n: c.unit for n, c in CORNER_COLUMNS.items()}
 
 #: Every name a filter or a ranking may use, with its kind.
 FIELDS: dict[str, FieldKind] = {
-    **{n: "text" for n in TEXT_FIELDS},
-    **{n: "number" for n in METRIC_NAMES},
-    **{n: ("bool" if info.unit == "bool" else "number") for n, info in CELL_COLUMNS.items()},
-    **{n: "number" for n in CORNER_FIELDS},
+    **{c.name: c.kind for c in (*TEXT_COLUMNS.values(), *METRICS, *CELL_COLUMNS.values(),
+                                *CORNER_COLUMNS.values())},
 }
 
 #: Limits of one filter (in ``describe_language``). They keep parsing iterative enough for
@@ -284,13 +286,7 @@ def unknown_name_error(
 ) -> FilterSyntaxError:
     """FilterSyntaxError for an unknown column, with difflib suggestions and the allowed list."""
     allowed = [f for f, k in FIELDS.items() if kinds is None or k in kinds]
-    close = difflib.get_close_matches(name, allowed, n=3, cutoff=0.6)
-    if not close:
-        close = difflib.get_close_matches(
-            name.lower(), [a.lower() for a in allowed], n=3, cutoff=0.6
-        )
-        close = [a for a in allowed if a.lower() in close]
-    hint = f"; did you mean {' or '.join(repr(c) for c in close)}?" if close else ""
+    hint = did_you_mean(name, allowed, n=3, fold_case=True)
     return _error(text, pos, len(name), f"unknown {what} '{name}'{hint}", _allowed_lines(allowed))
 
 
@@ -477,10 +473,10 @@ class _Parser:
             )
         else:
             raise self.fail(f"a word or quoted text for '{field}'")
-        if not glob and field in CLOSED_VALUES and value not in CLOSED_VALUES[field]:
-            allowed = list(CLOSED_VALUES[field])
-            close = difflib.get_close_matches(value, allowed, n=2, cutoff=0.5)
-            hint = f"; did you mean {' or '.join(repr(c) for c in close)}?" if close else ""
+        closed = closed_values()
+        if not glob and field in closed and value not in closed[field]:
+            allowed = list(closed[field])
+            hint = did_you_mean(value, allowed, n=2, cutoff=0.5)
             raise _error(
                 self.text,
                 tok.pos,
@@ -605,13 +601,15 @@ def describe_language() -> str:
         "Metrics (per corner; better = direction of ranking by default):",
     ]
     width = max(len(n) for n in FIELDS)
-    for m in METRIC_BY_NAME.values():
+    for m in METRICS:
         lines.append(f"  {m.name:<{width}}  [{m.unit}] {m.better} is better; {m.description}")
     lines.append("Cell columns:")
     for c in CELL_COLUMNS.values():
-        lines.append(f"  {c.name:<{width}}  [{c.unit}] {c.description}")
-    for n, unit in CORNER_FIELDS.items():
-        lines.append(f"  {n:<{width}}  [{unit}] corner condition")
+        unit = f"[{c.unit}]" if c.kind != "text" else "[text]"
+        lines.append(f"  {c.name:<{width}}  {unit} {c.description}")
+    for c in CORNER_COLUMNS.values():
+        lines.append(f"  {c.name:<{width}}  [{c.unit}] corner condition")
     lines.append(f"Text columns: {', '.join(TEXT_FIELDS)}")
-    lines.append(f"  topology: {', '.join(TOPOLOGIES)};  oxide: {', '.join(OXIDES)}")
+    lines.append(f"  topology: {', '.join(REGISTRY.names())};  oxide: {', '.join(OXIDES)}")
+    lines.append(f"  placement: {', '.join(PLACEMENTS)};  rail: core, io or a deck's named rail")
     return "\n".join(lines)

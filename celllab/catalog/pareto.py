@@ -21,8 +21,8 @@ import sqlite_utils
 
 from celllab.catalog import query as q
 from celllab.catalog.filters import FIELDS, unknown_name_error
+from celllab.columns import RANKED
 from celllab.errors import FilterError, Problem
-from celllab.records import CELL_COLUMNS, METRIC_BY_NAME
 
 #: Elements per block comparison (bounds the temporary arrays of the 3-D sweep).
 _BLOCK_ELEMENTS = 2_000_000
@@ -105,14 +105,9 @@ def check_pareto_metrics(metrics: Sequence[str]) -> list[str]:
     if not 2 <= len(metrics) <= 3 or len(set(metrics)) != len(metrics):
         raise FilterError([Problem("pareto", "metrics", "give 2 or 3 different metrics", metrics)])
     for m in metrics:
-        if FIELDS.get(m) != "number" or (m not in METRIC_BY_NAME and m not in CELL_COLUMNS):
+        if FIELDS.get(m) != "number" or m not in RANKED:
             raise unknown_name_error(m, 0, m, ("number",), "metric")
     return metrics
-
-
-def better_of(metric: str) -> str:
-    info = METRIC_BY_NAME.get(metric) or CELL_COLUMNS[metric]
-    return info.better
 
 
 def pareto_front(rows: Sequence[dict[str, Any]], metrics: Sequence[str]) -> list[dict[str, Any]]:
@@ -125,7 +120,7 @@ def pareto_front(rows: Sequence[dict[str, Any]], metrics: Sequence[str]) -> list
     ]
     if not usable:
         return []
-    sign = np.array([-1.0 if better_of(m) == "higher" else 1.0 for m in metrics])
+    sign = np.array([RANKED[m].minimize_sign for m in metrics])
     values = np.array([[float(r[m]) for m in metrics] for r in usable]) * sign
     mask = pareto_mask(values)
     idx = np.flatnonzero(mask)
@@ -150,7 +145,7 @@ def catalog_pareto(
         raw = [r for r in db.execute(sql, params).fetchall() if None not in r[2:]]
     if not raw:
         return []
-    sign = np.array([-1.0 if better_of(m) == "higher" else 1.0 for m in metrics])
+    sign = np.array([RANKED[m].minimize_sign for m in metrics])
     values = np.array([r[2:] for r in raw], dtype=float) * sign
     keep = ~np.isnan(values).any(axis=1)
     idx = np.flatnonzero(keep)

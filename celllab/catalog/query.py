@@ -2,8 +2,7 @@
 
 Every query starts from ``base_rows_sql``: one row per cell x corner with the columns of
 ``filters.FIELDS``. With ``corner="worst"`` / ``"best"`` each metric is aggregated over the
-cell's corners first (worst = least favourable by ``METRICS.better``: MIN of a higher-is-better
-metric, MAX of a lower-is-better one; best the opposite), so a filter such as
+cell's corners first (worst / best as defined once in ``celllab.columns``), so a filter such as
 ``leakage_nA_per_nF <= 5`` then means "at the worst corner". The aggregates are computed when
 results are written (table ``corner_extremes``, ``schema.fill_extremes``); SQL ``MIN``/``MAX``
 skip empty values, so a metric missing at one corner is aggregated over the corners that have it.
@@ -13,7 +12,6 @@ By default only current results (current deck of each name, current result of ea
 from __future__ import annotations
 
 import contextlib
-import difflib
 import json
 import sqlite3
 from collections.abc import Iterator
@@ -23,10 +21,14 @@ from typing import Any
 import sqlite_utils
 
 from celllab.catalog.filters import FIELDS, compile_filter, quote_column, unknown_name_error
-from celllab.errors import CatalogError, FilterError, Problem
-from celllab.records import CELL_COLUMNS, METRIC_BY_NAME, METRIC_NAMES
-
-AGGREGATE_CORNERS = ("worst", "best")
+from celllab.columns import (
+    AGGREGATE_CORNERS,
+    CELL_COLUMNS,
+    CORNER_COLUMNS,
+    METRIC_NAMES,
+    best_first_descending,
+)
+from celllab.errors import CatalogError, FilterError, Problem, did_you_mean
 
 #: Keys of every row ``run_query`` returns, in display order.
 ROW_KEYS: tuple[str, ...] = (
@@ -39,8 +41,7 @@ ROW_KEYS: tuple[str, ...] = (
     "topology",
     "oxide",
     "corner",
-    "temperature_C",
-    "supply_V",
+    *CORNER_COLUMNS,
     *CELL_COLUMNS,
     *METRIC_NAMES,
     "flags",
@@ -82,7 +83,7 @@ def base_rows_sql(
     cell_cols = ", ".join(f"c.{quote_column(k)} AS {quote_column(k)}" for k in CELL_COLUMNS)
     metric_cols = ", ".join(f"m.{quote_column(k)} AS {quote_column(k)}" for k in METRIC_NAMES)
     if corner in AGGREGATE_CORNERS:
-        # precomputed per cell at store time (schema.fill_extremes, aggregate_function)
+        # precomputed per cell at store time (schema.fill_extremes, Column.sql_aggregate)
         source = "JOIN corner_extremes m ON m.cell_id = c.cell_id AND m.kind = ?"
         corner_cols = (
             "m.kind AS corner, NULL AS temperature_C, NULL AS supply_V, NULL AS flags_json"
@@ -110,12 +111,6 @@ def base_rows_sql(
     return sql, params
 
 
-def default_descending(column: str) -> bool:
-    """Ranking direction when none is given: best first (by ``better``); text ascending."""
-    info = METRIC_BY_NAME.get(column) or CELL_COLUMNS.get(column)
-    return info is not None and info.better == "higher"
-
-
 def check_order_column(column: str) -> str:
     if column not in FIELDS:
         raise unknown_name_error(column, 0, column, what="column to order by")
@@ -138,7 +133,7 @@ def ranked_query_sql(
         raise FilterError([Problem("query", "limit/offset", "must be >= 0", (limit, offset))])
     base, params = base_rows_sql(corner, deck, current_only)
     cond, cond_params = compile_filter(where)
-    desc = default_descending(order_by) if descending is None else descending
+    desc = best_first_descending(order_by) if descending is None else descending
     sql = (
         f"SELECT * FROM ({base}) AS r WHERE {cond} "
         f"ORDER BY r.{quote_column(order_by)} {'DESC' if desc else 'ASC'} NULLS LAST, "
@@ -199,8 +194,7 @@ def names_query_sql(
 
 
 def _suggest(value: str, choices: list[str]) -> str:
-    close = difflib.get_close_matches(value, choices, n=3, cutoff=0.5)
-    return f"; did you mean {' or '.join(repr(c) for c in close)}?" if close else ""
+    return did_you_mean(value, choices, n=3, cutoff=0.5)
 
 
 def check_deck(db: sqlite_utils.Database, deck: str | None) -> None:
@@ -398,16 +392,34 @@ def compare(
     return sorted(rows, key=lambda r: order[r["name"]])
 
 
+def _current_cells(
+    db: sqlite_utils.Database, deck: str | None, columns: str, condition: str, values: list[object]
+) -> list[tuple[Any, ...]]:
+    """``columns`` of the current cells (of the current deck ``deck``) meeting ``condition``."""
+    params: list[object] = []
+    scope = _scope_sql("c", "d", deck, True, params)
+    return db.execute(
+        f"SELECT {columns} FROM cells c JOIN decks d ON d.deck_hash = c.deck_hash "
+        f"WHERE {scope} AND {condition}",
+        [*params, *values],
+    ).fetchall()
+
+
+def name_taken(db: sqlite_utils.Database, name: str, deck: str) -> bool:
+    """Whether a current cell called ``name`` exists under the current deck ``deck`` (name or hash)."""
+    return bool(_current_cells(db, deck, "1", "c.name = ? LIMIT 1", [name]))
+
+
+def identical_cell(db: sqlite_utils.Database, cell_hash: str, deck: str) -> str | None:
+    """Name of a current cell of deck ``deck`` with this content hash (same definition), if any."""
+    rows = _current_cells(db, deck, "c.name", "c.cell_hash = ? ORDER BY c.name LIMIT 1", [cell_hash])
+    return str(rows[0][0]) if rows else None
+
+
 def find_cell_id(db: sqlite_utils.Database, name: str, deck: str | None = None) -> int:
     """cell_id of the current result of ``name`` (in ``deck``); CatalogError if absent or ambiguous."""
     check_deck(db, deck)
-    params: list[object] = []
-    scope = _scope_sql("c", "d", deck, True, params)
-    rows = db.execute(
-        f"SELECT c.cell_id, d.name FROM cells c JOIN decks d "
-        f"ON d.deck_hash = c.deck_hash WHERE {scope} AND c.name = ?",
-        [*params, name],
-    ).fetchall()
+    rows = _current_cells(db, deck, "c.cell_id, d.name", "c.name = ?", [name])
     if not rows:
         raise _missing_names_error(db, [name], deck)
     if len(rows) > 1:

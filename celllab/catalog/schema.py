@@ -21,8 +21,8 @@ from pathlib import Path
 
 import sqlite_utils
 
+from celllab.columns import AGGREGATE_CORNERS, CELL_COLUMNS, METRIC_BY_NAME, METRIC_NAMES
 from celllab.errors import CatalogError
-from celllab.records import CELL_COLUMNS, METRIC_BY_NAME, METRIC_NAMES
 
 #: Layout version written by this code.
 SCHEMA_VERSION = 3
@@ -34,7 +34,7 @@ SQLITE_MAGIC = b"SQLite format 3\x00"
 #: Tables every catalog has.
 TABLES = ("decks", "runs", "cells", "corner_metrics", "corner_extremes", "responses", "cv_curves")
 
-#: SQL types of the per-cell columns (the rest of CELL_COLUMNS are REAL).
+#: SQL types of the per-cell columns (text columns are TEXT, the rest of CELL_COLUMNS REAL).
 _CELL_COLUMN_TYPES = {"width_sites": "INTEGER", "height_rows": "INTEGER", "esd_safe": "INTEGER"}
 
 #: Metrics indexed for ranking and filtering.
@@ -48,6 +48,9 @@ INDEXED_METRICS = (
 
 
 def cell_column_type(name: str) -> str:
+    column = CELL_COLUMNS.get(name)
+    if column is not None and column.kind == "text":
+        return "TEXT"
     return _CELL_COLUMN_TYPES.get(name, "REAL")
 
 
@@ -176,25 +179,11 @@ CREATE INDEX corner_extremes_by_kind ON corner_extremes(kind);
     }"""
 
 
-def aggregate_function(metric: str, kind: str) -> str:
-    """``MIN`` or ``MAX``: the SQL aggregate giving the worst/best value of ``metric`` over corners.
-
-    worst = least favourable by ``METRICS.better`` (MIN of a higher-is-better metric, MAX of a
-    lower-is-better one); best the opposite. SQL MIN/MAX skip empty values.
-    """
-    higher = METRIC_BY_NAME[metric].better == "higher"
-    if kind == "worst":
-        return "MIN" if higher else "MAX"
-    if kind == "best":
-        return "MAX" if higher else "MIN"
-    raise ValueError(kind)
-
-
 def fill_extremes(db: sqlite_utils.Database, after_cell_id: int = 0) -> None:
     """Compute ``corner_extremes`` of every cell with ``cell_id > after_cell_id`` from its corners."""
     cols = ", ".join(f'"{m}"' for m in METRIC_NAMES)
-    for kind in ("worst", "best"):
-        aggs = ", ".join(f'{aggregate_function(m, kind)}("{m}")' for m in METRIC_NAMES)
+    for kind in AGGREGATE_CORNERS:  # worst / best as defined in celllab.columns; MIN/MAX skip NULLs
+        aggs = ", ".join(f'{METRIC_BY_NAME[m].sql_aggregate(kind)}("{m}")' for m in METRIC_NAMES)
         db.execute(
             f"INSERT INTO corner_extremes (cell_id, kind, {cols}) "
             f"SELECT cell_id, '{kind}', {aggs} FROM corner_metrics "

@@ -345,13 +345,16 @@ def _cell_result(src: sqlite_utils.Database, c: dict[str, Any]) -> CellResult:
             raise ValueError(f"{col} = {shown(c.get(col))} is not a whole number")
     if c["esd_safe"] not in (0, 1):
         raise ValueError(f"esd_safe = {c['esd_safe']} is not 0 or 1")
+    for col in ("placement", "rail"):  # absent or empty in catalogs stored before these columns
+        if c.get(col) is not None and not _text(c[col], 40):
+            raise ValueError(f"{col} = {shown(c.get(col))} is not a short text")
     return CellResult(
         name=c["name"], cell_hash=c["cell_hash"], family=c["family"], topology=c["topology"],
         oxide=c["oxide"], geometry=geometry, area_um2=_real(c["area_um2"], "area_um2"),
         width_sites=c["width_sites"], height_rows=c["height_rows"],
         gate_area_um2=_real(c["gate_area_um2"], "gate_area_um2"), esd_safe=bool(c["esd_safe"]), corners=corners,
         netlist={k.corner: circuits[k.corner] for k in corners if k.corner in circuits} or None,
-        notes=notes)
+        notes=notes, placement=c.get("placement") or "core_row", rail=c.get("rail") or c["oxide"])
 
 
 def _close(a: float, b: float) -> bool:
@@ -361,7 +364,8 @@ def _close(a: float, b: float) -> bool:
 def _provenance_problems(cell: CellResult, deck: Deck) -> list[str]:
     """The cell against its definition and its deck: hash, geometry, derived metrics."""
     definition = {"name": cell.name, "family": cell.family, "topology": cell.topology,
-                  "oxide": cell.oxide, **{f: cell.geometry.get(f) for f in GEOMETRY_FIELDS}}
+                  "oxide": cell.oxide, "rail": cell.rail,
+                  **{f: cell.geometry[f] for f in GEOMETRY_FIELDS if f in cell.geometry}}
     try:
         spec = CellSpec.model_validate(definition)
     except ValidationError as exc:
@@ -382,6 +386,8 @@ def _provenance_problems(cell: CellResult, deck: Deck) -> list[str]:
             out.append(f"{what} = {stored:g} but the deck's layout rules give {expected:g}")
     if (cell.width_sites, cell.height_rows, cell.esd_safe) != (spec.width_sites, spec.height_rows, spec.esd_safe):
         out.append("width_sites, height_rows or esd_safe differ from the cell's definition")
+    if cell.placement != spec.placement:
+        out.append(f"placement = {cell.placement} but the cell's definition says {spec.placement}")
     for c in cell.corners:
         m = c.metrics
         if math.isfinite(m["cap_fF"]) and math.isfinite(m["cap_density_fF_per_um2"]) \

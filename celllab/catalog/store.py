@@ -29,6 +29,7 @@ import sqlite_utils
 
 from celllab.catalog.schema import cell_column_type, fill_extremes, write_transaction
 from celllab.catalog.validate import DECK_NAME, cell_problems, shown
+from celllab.display import nan_to_none, none_to_nan  # SQLite stores NaN as NULL
 from celllab.errors import CatalogError, Problem
 from celllab.records import (
     CELL_COLUMNS,
@@ -97,17 +98,18 @@ def canonical_json(value: Any) -> str:
     )
 
 
-def _real(value: Any) -> float | None:
-    if value is None:
-        return None
-    x = float(value)
-    return None if math.isnan(x) else x  # SQLite stores NaN as NULL
-
-
 def _column_value(name: str, value: Any) -> Any:
-    if cell_column_type(name) == "INTEGER":
+    kind = cell_column_type(name)
+    if kind == "INTEGER":
         return None if value is None else int(value)
-    return _real(value)
+    if kind == "TEXT":
+        return None if value is None else str(value)
+    return nan_to_none(value)
+
+
+#: Cell columns held as numbers / as text (``columns.CELL_COLUMNS`` kinds).
+_NUMBER_CELL_COLUMNS = tuple(k for k in CELL_COLUMNS if cell_column_type(k) != "TEXT")
+_TEXT_CELL_COLUMNS = tuple(k for k in CELL_COLUMNS if cell_column_type(k) == "TEXT")
 
 
 def encode_f64(values: Any) -> bytes:
@@ -165,7 +167,10 @@ def result_digest(
     """
     h = hashlib.sha256()
     _feed(h, json.dumps([cell_row[k] for k in _DIGEST_TEXT_KEYS]).encode())
-    _feed(h, _f64(_column_value(k, cell_row.get(k)) for k in CELL_COLUMNS))
+    _feed(h, _f64(_column_value(k, cell_row.get(k)) for k in _NUMBER_CELL_COLUMNS))
+    text_cells = [cell_row.get(k) for k in _TEXT_CELL_COLUMNS]
+    if any(v is not None for v in text_cells):  # results stored before these columns keep their digest
+        _feed(h, json.dumps(text_cells).encode())
     parts: dict[str, list[bytes]] = {}
     for row in corner_rows:
         parts[row["corner"]] = [
@@ -179,7 +184,7 @@ def result_digest(
             b"cv",
             bytes(row["bias_V"]),
             bytes(row["cap_F"]),
-            _f64([_real(row["operating_bias_V"]), _real(row["operating_cap_F"])]),
+            _f64([nan_to_none(row["operating_bias_V"]), nan_to_none(row["operating_cap_F"])]),
         ]
     for corner in sorted(parts):
         for part in parts[corner]:
@@ -280,9 +285,9 @@ def prepare_cell(cell: CellResult) -> PreparedCell:
         corner_rows.append(
             {
                 "corner": c.corner,
-                "temperature_C": _real(c.temperature_C),
-                "supply_V": _real(c.supply_V),
-                **{m: _real(c.metrics[m]) for m in METRIC_NAMES},
+                "temperature_C": nan_to_none(c.temperature_C),
+                "supply_V": nan_to_none(c.supply_V),
+                **{m: nan_to_none(c.metrics[m]) for m in METRIC_NAMES},
                 "flags_json": flags_json,
             }
         )
@@ -529,10 +534,6 @@ def _retire_name(db: sqlite_utils.Database, deck_hash: str, name: str) -> int:
     return int(cur.rowcount)
 
 
-def _nan(value: Any) -> float:
-    return math.nan if value is None else float(value)
-
-
 def _circuit_json(netlist: Any, corner: str) -> str | None:
     """The corner's equivalent circuit as canonical JSON (None when the result carries none)."""
     if isinstance(netlist, Mapping):
@@ -581,7 +582,7 @@ def load_cell(db: sqlite_utils.Database, cell_id: int) -> CellResult:
                 corner=m["corner"],
                 temperature_C=float(m["temperature_C"]),
                 supply_V=float(m["supply_V"]),
-                metrics={k: _nan(m.get(k)) for k in METRIC_NAMES},
+                metrics={k: none_to_nan(m.get(k)) for k in METRIC_NAMES},
                 response=response,
                 cv=cv,
                 flags=list(json.loads(m["flags_json"])),
@@ -594,13 +595,16 @@ def load_cell(db: sqlite_utils.Database, cell_id: int) -> CellResult:
         topology=c["topology"],
         oxide=c["oxide"],
         geometry=json.loads(c["geometry_json"]),
-        area_um2=_nan(c["area_um2"]),
+        area_um2=none_to_nan(c["area_um2"]),
         width_sites=int(c["width_sites"] or 0),
         height_rows=int(c["height_rows"] or 0),
-        gate_area_um2=_nan(c["gate_area_um2"]),
+        gate_area_um2=none_to_nan(c["gate_area_um2"]),
         esd_safe=bool(c["esd_safe"]),
         corners=corners,
         # in the run's corner order, so "the first circuit" is the first (typical) corner
         netlist={c.corner: circuits[c.corner] for c in corners if c.corner in circuits} or None,
         notes=list(json.loads(c["notes_json"])),
+        # results stored before these columns: core-row cells on the rail named like their oxide
+        placement=c.get("placement") or "core_row",
+        rail=c.get("rail") or c["oxide"],
     )

@@ -25,14 +25,17 @@ from typing import Any
 
 import numpy as np
 
-from celllab.cells.schema import TOPOLOGIES
 from celllab.deck.schema import CORNER_NAME
 from celllab.records import METRIC_NAMES, CellResult, CornerResult
+from celllab.topologies import REGISTRY
+from celllab.topologies.geometry import PLACEMENTS
 
 #: The name rules of cell files (``cells.schema.CellSpec``) and decks (``deck.schema``).
 CELL_NAME = re.compile(r"[A-Za-z][A-Za-z0-9_\-.]{0,79}")
 FAMILY_NAME = re.compile(r"([A-Za-z][A-Za-z0-9_\-.]{0,79})?")
 DECK_NAME = re.compile(r"[A-Za-z][A-Za-z0-9_\-]{0,39}")
+#: Supply rail names (``cells.schema.CellSpec.rail`` once resolved: core, io or a named rail).
+RAIL_NAME = re.compile(r"[a-z][a-z0-9_]{0,23}")
 OXIDES = ("core", "io")
 #: Longest flag or note kept with a result (characters).
 MAX_TEXT = 2000
@@ -154,8 +157,13 @@ def cell_problems(where: str, cell: CellResult) -> list[str]:
     for attr, value, rule, allowed in rules:
         if not isinstance(value, str) or not rule.fullmatch(value):
             out.append(f"{where}.{attr} = {shown(value)} -> not a valid {attr}; allowed: {allowed}")
-    if cell.topology not in TOPOLOGIES:
-        out.append(f"{where}.topology = {shown(cell.topology)} -> allowed: {', '.join(TOPOLOGIES)}")
+    if cell.topology not in REGISTRY.names():
+        out.append(f"{where}.topology = {shown(cell.topology)} -> allowed: {', '.join(REGISTRY.names())}")
+    if cell.placement not in PLACEMENTS:
+        out.append(f"{where}.placement = {shown(cell.placement)} -> allowed: {', '.join(PLACEMENTS)}")
+    if not isinstance(cell.rail, str) or not RAIL_NAME.fullmatch(cell.rail):
+        out.append(f"{where}.rail = {shown(cell.rail)} -> rail names use lower-case letters, digits and _, "
+                   "starting with a letter, at most 24 (core, io or a rail the deck names)")
     if cell.oxide not in OXIDES:
         out.append(f"{where}.oxide = {shown(cell.oxide)} -> allowed: {', '.join(OXIDES)}")
     if not _is_number(cell.area_um2) or not 0 < float(cell.area_um2) < math.inf:

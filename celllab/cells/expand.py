@@ -6,6 +6,8 @@ File layout (TOML)::
     name = "lx_ndcap"             # variants are named lx_ndcap-w4-h1-f2 ...
     topology = "nmos_inversion"
     oxide = "core"
+    rail = "core"                  # optional: the rail it decouples (default: named like the oxide)
+    placement = "core_row"         # or "open_region"; may be swept like a geometry field
     width_sites = [2, 4, 8]        # a list sweeps
     fingers = { start = 1, stop = 4 }                   # an integer range (inclusive)
     gate_length_um = { start = 0.2, stop = 1.0, count = 3, spacing = "log" }
@@ -22,7 +24,6 @@ that do not fit the outline instead of reporting them as errors.
 
 from __future__ import annotations
 
-import difflib
 import hashlib
 import itertools
 import json
@@ -35,9 +36,10 @@ import numpy as np
 from pydantic import ValidationError
 
 from celllab.cells.geometry import Geometry, GeometryProblem, resolve_geometry
-from celllab.cells.schema import GEOMETRY_FIELDS, NAME_TAGS, TOPOLOGIES, CellSpec
+from celllab.cells.schema import GEOMETRY_FIELDS, NAME_TAGS, CellSpec
 from celllab.deck.load import find_line, read_toml, validation_problems
-from celllab.errors import CellError, Problem
+from celllab.errors import CellError, Problem, allowed_hint
+from celllab.topologies import REGISTRY
 
 #: Documented limits (process_decks/README.md, "Limits"), checked with exact integers before
 #: anything is expanded.
@@ -46,13 +48,16 @@ MAX_VARIANTS_PER_FILE = 100000
 MAX_RANGE_VALUES = 10000
 #: Largest magnitude of a range's start, stop or step (every swept field is far smaller).
 MAX_RANGE_MAGNITUDE = 1e12
-_FAMILY_ONLY = {"name", "topology", "oxide", "description", "skip_unfit"}
+_FAMILY_ONLY = {"name", "topology", "oxide", "rail", "description", "skip_unfit"}
+#: Family fields that take one value (not swept).
+_FIXED = ("name", "topology", "oxide", "rail")
 _RANGE_KEYS = {"start", "stop", "step", "count", "spacing"}
 
 
 def cell_hash(spec: CellSpec) -> str:
-    """First 16 hex digits of SHA-256 over topology, oxide and geometry (not the name)."""
-    body = {"topology": spec.topology, "oxide": spec.oxide, **spec.geometry}
+    """First 16 hex digits of SHA-256 over topology, oxide, rail and geometry with the placement
+    (not the name)."""
+    body = {"topology": spec.topology, "oxide": spec.oxide, "rail": spec.rail, **spec.geometry}
     text = json.dumps(body, sort_keys=True, separators=(",", ":"))
     return hashlib.sha256(text.encode()).hexdigest()[:16]
 
@@ -65,12 +70,18 @@ def _fmt(value: Any) -> str:
     return str(value)
 
 
+#: Short forms of swept values in variant names.
+_VALUE_TAGS: dict[str, dict[Any, str]] = {"placement": {"core_row": "row", "open_region": "open"}}
+
+
 def variant_name(family: str, values: dict[str, Any], swept: list[str]) -> str:
     parts = [family, f"w{_fmt(values['width_sites'])}", f"h{_fmt(values.get('height_rows', 1))}"]
     for f in swept:
         if f in ("width_sites", "height_rows"):
             continue
-        parts.append(f"{NAME_TAGS[f]}{_fmt(values[f])}")
+        value = values[f]
+        short = _VALUE_TAGS.get(f, {}).get(value) if isinstance(value, str) else None
+        parts.append(f"{NAME_TAGS[f]}{short or _fmt(value)}")
     return "-".join(parts)
 
 
@@ -138,24 +149,22 @@ def expand_family(entry: dict[str, Any], index: int, file: str, text: str | None
     problems = []
     for key in entry:
         if key not in allowed:
-            guess = difflib.get_close_matches(key, sorted(allowed), n=1)
-            problems.append(Problem(file, f"{where}.{key}", "unknown field" + (f"; did you mean {guess[0]!r}?" if guess
-                                    else "; allowed: " + ", ".join(sorted(allowed))), entry[key],
-                                    find_line(text, [kind, index, key]), has_value=False))
+            problems.append(Problem(file, f"{where}.{key}", "unknown field" + allowed_hint(key, sorted(allowed)),
+                                    entry[key], find_line(text, [kind, index, key]), has_value=False))
     if "name" not in entry:
         problems.append(Problem(file, f"{where}.name", "required field is missing", None,
                                 find_line(text, [kind, index]), has_value=False))
     if "topology" not in entry:
         problems.append(Problem(file, f"{where}.topology", "required field is missing; allowed: "
-                                + ", ".join(TOPOLOGIES), None, find_line(text, [kind, index]), has_value=False))
+                                + ", ".join(REGISTRY.names()), None, find_line(text, [kind, index]), has_value=False))
     if problems:
         raise CellError(problems)
-    fixed = {k: entry[k] for k in ("name", "topology", "oxide") if k in entry}
+    fixed = {k: entry[k] for k in _FIXED if k in entry}
     skip_unfit = entry.get("skip_unfit", False)
     if not isinstance(skip_unfit, bool):
         raise CellError([Problem(file, f"{where}.skip_unfit", "must be true or false", skip_unfit,
                                  find_line(text, [kind, index, "skip_unfit"]))])
-    for k in ("name", "topology", "oxide"):
+    for k in _FIXED:
         if isinstance(entry.get(k), (list, dict)):
             raise CellError([Problem(file, f"{where}.{k}", "cannot be swept; give one value", entry[k],
                                      find_line(text, [kind, index, k]))])
@@ -312,10 +321,9 @@ def apply_cell_changes(spec: CellSpec, changes: dict[str, Any], deck: Any = None
     """Validated copy of ``spec`` with geometry fields changed."""
     problems = []
     for key in changes:
-        if key not in GEOMETRY_FIELDS and key not in ("topology", "oxide"):
-            guess = difflib.get_close_matches(key, GEOMETRY_FIELDS, n=1)
-            problems.append(Problem(source, key, "not an editable cell field" + (f"; did you mean {guess[0]!r}?"
-                                    if guess else "; allowed: " + ", ".join(GEOMETRY_FIELDS)), changes[key]))
+        if key not in GEOMETRY_FIELDS and key not in ("topology", "oxide", "rail"):
+            problems.append(Problem(source, key, "not an editable cell field" + allowed_hint(key, GEOMETRY_FIELDS),
+                                    changes[key]))
     if problems:
         raise CellError(problems)
     raw = spec.model_dump()
@@ -331,3 +339,24 @@ def resolve(spec: CellSpec, deck: Any) -> Geometry:
         return resolve_geometry(spec, deck)
     except GeometryProblem as gp:
         raise CellError([Problem(spec.name, gp.field, gp.message, gp.value)]) from None
+
+
+def spec_from_record(cell: Any) -> CellSpec:
+    """Rebuild the CellSpec behind a characterized cell record (``records.CellResult``).
+
+    The record keeps its definition in ``geometry``: a ``spec`` table when present, else the
+    geometry fields next to the ``resolved_*`` values. Raises pydantic's ``ValidationError``
+    when the stored fields do not define a valid cell.
+    """
+    geometry = dict(cell.geometry or {})
+    spec_fields = geometry.get("spec") if isinstance(geometry.get("spec"), dict) else None
+    if spec_fields:
+        data = dict(spec_fields)
+    else:
+        data = {f: geometry[f] for f in GEOMETRY_FIELDS if f in geometry}
+        data.setdefault("width_sites", cell.width_sites)
+        data.setdefault("height_rows", cell.height_rows)
+    data.update(name=cell.name, family=cell.family, topology=cell.topology, oxide=cell.oxide,
+                rail=getattr(cell, "rail", "") or cell.oxide)
+    allowed = set(CellSpec.model_fields)
+    return CellSpec.model_validate({k: v for k, v in data.items() if k in allowed})

@@ -1,50 +1,53 @@
 """Cell definitions: one decap variant (``CellSpec``) and the family that sweeps into variants.
 
 Geometry fields use um, sites and rows (units in the names). Fields left out are derived from
-the cell outline by the rules in ``celllab.cells.geometry``.
+the cell outline by the rules of the cell's topology (``celllab.topologies``); which topologies
+exist, which fields apply to each and which are ESD-safe come from ``topologies.REGISTRY``.
 """
 
 from __future__ import annotations
 
 from typing import Any, Literal
 
-from pydantic import BaseModel, ConfigDict, Field, model_validator
+from pydantic import Field, field_validator, model_validator
+from pydantic_core import PydanticCustomError
 
-Topology = Literal["nmos_inversion", "pmos_inversion", "accumulation", "cross_coupled", "mom", "mos_mom"]
-TOPOLOGIES: tuple[str, ...] = Topology.__args__  # type: ignore[attr-defined]
+from celllab.strict import StrictModel
+from celllab.topologies import REGISTRY
+from celllab.topologies.geometry import Placement
+
 OxideChoice = Literal["core", "io"]
-
-#: Topologies with a MOS gate, and with metal fingers.
-MOS_TOPOLOGIES = frozenset({"nmos_inversion", "pmos_inversion", "accumulation", "cross_coupled", "mos_mom"})
-MOM_TOPOLOGIES = frozenset({"mom", "mos_mom"})
-#: No gate tied directly to a supply rail.
-ESD_SAFE_TOPOLOGIES = frozenset({"cross_coupled", "mom"})
 
 #: Fields a family may sweep (scalar, list or range), in the order they appear in variant names.
 GEOMETRY_FIELDS: tuple[str, ...] = (
-    "width_sites", "height_rows", "fingers", "gate_length_um", "gate_width_um", "contacted_ends",
+    "width_sites", "height_rows", "placement", "fingers", "gate_length_um", "gate_width_um", "contacted_ends",
     "gate_contacted_ends", "accumulation_well", "mos_device", "mom_bottom", "mom_top",
     "finger_width_um", "finger_space_um", "mom_alternate",
 )
 #: Short tags for variant names.
 NAME_TAGS: dict[str, str] = {
-    "width_sites": "w", "height_rows": "h", "fingers": "f", "gate_length_um": "L",
+    "width_sites": "w", "height_rows": "h", "placement": "", "fingers": "f", "gate_length_um": "L",
     "gate_width_um": "W", "contacted_ends": "e", "gate_contacted_ends": "g",
     "accumulation_well": "well", "mos_device": "", "mom_bottom": "", "mom_top": "to",
     "finger_width_um": "fw", "finger_space_um": "fs", "mom_alternate": "alt",
 }
 
 
-class CellSpec(BaseModel):
+class CellSpec(StrictModel):
     """One cell variant as the user defined it (before geometry derivation)."""
-
-    model_config = ConfigDict(extra="forbid", frozen=True)
 
     name: str = Field(pattern=r"^[A-Za-z][A-Za-z0-9_\-\.]{0,79}$", description="variant name")
     family: str = Field("", pattern=r"^([A-Za-z][A-Za-z0-9_\-\.]{0,79})?$",
                         description="family this variant came from")
-    topology: Topology = Field(description="decap topology")
+    topology: str = Field(description="decap topology (see celllab.topologies.REGISTRY)")
     oxide: OxideChoice = Field("core", description="gate-oxide flavour: core (thin) or io (thick)")
+    rail: str = Field("", pattern=r"^$|^[a-z][a-z0-9_]{0,23}$",
+                      description="supply rail the cell decouples and is characterized at: core, io or a "
+                      "rail named in the deck's [supplies.named]; omitted: the rail of the same name as "
+                      "the oxide (independent of it when given)")
+    placement: Placement = Field("core_row", description="where the cell sits: core_row (a standard-cell "
+                                 "row, NMOS on the p-well half, PMOS on the n-well half) or open_region "
+                                 "(no row structure: I/O-ring spacers, corner cells, pad-ring gaps)")
     width_sites: int = Field(ge=1, le=4096, description="cell width, placement sites")
     height_rows: int = Field(1, ge=1, le=64, description="cell height, placement rows")
     fingers: int = Field(1, ge=1, le=1024, description="gate fingers per device")
@@ -65,16 +68,41 @@ class CellSpec(BaseModel):
                                           "each layer's minimum")
     mom_alternate: bool = Field(False, description="alternate finger polarity between layers (adds vertical plates)")
 
+    @field_validator("topology")
+    @classmethod
+    def _known_topology(cls, value: str) -> str:
+        if value not in REGISTRY:
+            names = REGISTRY.names()
+            expected = ", ".join(repr(n) for n in names[:-1]) + f" or {names[-1]!r}" if len(names) > 1 \
+                else repr(names[0])
+            raise PydanticCustomError("literal_error", "Input should be {expected}", {"expected": expected})
+        return value
+
+    @model_validator(mode="before")
+    @classmethod
+    def _rail_follows_oxide_unless_given(cls, data: Any) -> Any:
+        if isinstance(data, dict) and not data.get("rail"):
+            oxide = data.get("oxide", "core")
+            return {**data, "rail": oxide if isinstance(oxide, str) else ""}
+        return data
+
+    @model_validator(mode="after")
+    def _placement_allowed(self) -> "CellSpec":
+        allowed = REGISTRY.placements_of(self.topology)
+        if self.placement not in allowed:
+            raise ValueError(f"placement {self.placement!r} is not allowed for {self.topology} cells; "
+                             "allowed: " + ", ".join(allowed))
+        return self
+
     @model_validator(mode="after")
     def _topology_fields(self) -> "CellSpec":
-        if self.topology not in MOM_TOPOLOGIES:
-            for f in ("mom_bottom", "mom_top", "finger_width_um", "finger_space_um"):
-                if getattr(self, f) is not None:
-                    raise ValueError(f"{f} applies to mom and mos_mom cells only, not {self.topology}")
-        if self.topology == "mom":
-            for f in ("gate_length_um", "gate_width_um"):
-                if getattr(self, f) is not None:
-                    raise ValueError(f"{f} does not apply to a mom cell (no gate)")
+        applies = REGISTRY[self.topology].fields
+        for f in GEOMETRY_FIELDS:
+            derived = type(self).model_fields[f].default is None  # a field left out is derived
+            if derived and f not in applies and getattr(self, f) is not None:
+                users = REGISTRY.users_of(f)
+                listed = ", ".join(users[:-1]) + f" and {users[-1]}" if len(users) > 1 else "".join(users)
+                raise ValueError(f"{f} applies to {listed} cells only, not {self.topology}")
         return self
 
     @property
@@ -84,7 +112,8 @@ class CellSpec(BaseModel):
 
     @property
     def esd_safe(self) -> bool:
-        return self.topology in ESD_SAFE_TOPOLOGIES
+        """True when no gate of this cell is tied directly to a supply rail."""
+        return REGISTRY[self.topology].esd_safe
 
     @property
     def content_hash(self) -> str:

@@ -26,9 +26,10 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.constants import epsilon_0
 
-from celllab.characterization.params import CornerSet, cm2_per_Vs, cm3
+from celllab.characterization.params import CornerSet
 from celllab.physics import channel, distributed_rc, mobility, mos_cv, oxide
 from celllab.physics.constants import EPS_R_SIO2
+from celllab.units import to_si
 
 ROLES = ("nmos", "pmos", "acc_n", "acc_p")
 _BODY = {"nmos": "p", "pmos": "n", "acc_n": "n", "acc_p": "p"}
@@ -38,6 +39,9 @@ _BIAS_SIGN = {"nmos": 1.0, "pmos": -1.0, "acc_n": 1.0, "acc_p": -1.0}
 N_BIAS = 61
 CV_SPAN = 1.5          # C-V sweep spans +/- 1.5 x the supply
 STRONG_INVERSION_V = 0.2
+#: Validity flags: a dielectric thinner than this (m), a body doped above this (m^-3).
+THIN_DIELECTRIC_M = to_si(1.0, "nm")
+DEGENERATE_DOPING_M3 = to_si(1e19, "cm^-3")
 
 
 @dataclass
@@ -156,9 +160,9 @@ def _per_area(corners: CornerSet, oxides: np.ndarray, roles: np.ndarray, supply:
     gate_type = _per_role(roles, _GATE)
     doping_p = corners.deck_value(lambda d: d.wells.pwell_doping_cm3)
     doping_n = corners.deck_value(lambda d: d.wells.nwell_doping_cm3)
-    body_doping = cm3(np.where(body == "p", doping_p, doping_n))
+    body_doping = to_si(np.where(body == "p", doping_p, doping_n), "cm^-3")
     gate_doping_cm3 = corners.oxide_table("gate_doping_cm3", oxides)
-    gate_doping = np.where(np.isnan(gate_doping_cm3), np.inf, cm3(np.nan_to_num(gate_doping_cm3, nan=1.0)))
+    gate_doping = np.where(np.isnan(gate_doping_cm3), np.inf, to_si(np.nan_to_num(gate_doping_cm3, nan=1.0), "cm^-3"))
     centroid = corners.oxide_table("centroid_model", oxides) > 0.5   # per oxide flavour
     cet_adder = corners.oxide_table("cet_adder_nm", oxides)
     use_adder = ~np.isnan(cet_adder)
@@ -171,7 +175,7 @@ def _per_area(corners: CornerSet, oxides: np.ndarray, roles: np.ndarray, supply:
     op = _operating_point(v_gb, kwargs, centroid & ~use_adder)
     c_area = op.capacitance
     if np.any(use_adder):  # a fixed CET adder (SiO2-equivalent nm) replaces the centroid model
-        c_adder = EPS_R_SIO2 * epsilon_0 / np.where(use_adder, cet_adder * 1e-9, 1.0)
+        c_adder = EPS_R_SIO2 * epsilon_0 / np.where(use_adder, to_si(cet_adder, "nm"), 1.0)
         c_area = np.where(use_adder, 1.0 / (1.0 / op.capacitance + 1.0 / c_adder), c_area)
 
     frac = np.linspace(-CV_SPAN, CV_SPAN, N_BIAS)
@@ -182,7 +186,7 @@ def _per_area(corners: CornerSet, oxides: np.ndarray, roles: np.ndarray, supply:
     if np.any(use_adder):
         cv_area = np.where(use_adder[..., None], 1.0 / (1.0 / cv_area + 1.0 / c_adder[..., None]), cv_area)
     v_ov = op.q_mobile / cox
-    mu0 = cm2_per_Vs(_role_table(corners, oxides, roles, "mu0_cm2_per_Vs"))
+    mu0 = to_si(_role_table(corners, oxides, roles, "mu0_cm2_per_Vs"), "cm^2/(V s)")
     theta = _role_table(corners, oxides, roles, "theta_per_V")
     ute = _role_table(corners, oxides, roles, "mobility_temp_exponent")
     mu_eff = mobility.effective_mobility(mu0, theta, v_ov, temperature, corners.reference_temperature_K, ute)
@@ -201,7 +205,7 @@ def _assemble(corners: CornerSet, oxides: np.ndarray, roles: np.ndarray, geo: Mo
     t_phys, body_doping = pa["t_phys"], pa["body_doping"]
     area = geo.gate_area
     c_gate = c_area * area
-    c_overlap = (corners.oxide_table("overlap_cap_fF_per_um", oxides) * 1e-15 / 1e-6) \
+    c_overlap = to_si(corners.oxide_table("overlap_cap_fF_per_um", oxides), "fF/um") \
         * 2 * geo.gate_width_row * geo.rows * geo.fingers
     c_ox_plain = oxide.oxide_capacitance_per_area(corners.oxide_table("eps_r", oxides),
                                                   corners.oxide_table("physical_thickness_m", oxides)) * area
@@ -215,7 +219,7 @@ def _assemble(corners: CornerSet, oxides: np.ndarray, roles: np.ndarray, geo: Mo
         distributed_rc.gate_resistance(r_gate_sheet, geo.gate_width_row, geo.gate_length, geo.fingers * geo.rows, ends=1),
     )
     contact = corners.deck_value(lambda d: d.resistances.contact_ohm)
-    pitch = corners.deck_value(lambda d: d.resistances.contact_pitch_um) * 1e-6
+    pitch = to_si(corners.deck_value(lambda d: d.resistances.contact_pitch_um), "um")
     per_strip = np.maximum(1.0, np.floor(geo.gate_width_row / pitch))
     r_sd = contact / (per_strip * geo.strips * geo.rows)
     r_gc = contact / (geo.fingers * geo.rows * geo.gate_contacted_ends)
@@ -233,8 +237,8 @@ def _flags(roles: np.ndarray, v_ov: np.ndarray, v_ox: np.ndarray, t_phys: np.nda
            body_doping: np.ndarray) -> list[list[list[str]]]:
     n_v, n_c = v_ov.shape
     weak = ~channel.strong_inversion_mask(v_ov, STRONG_INVERSION_V)
-    thin = np.broadcast_to(t_phys < 1.0e-9, (n_v, n_c))
-    degenerate = np.broadcast_to(body_doping > 1e25, (n_v, n_c))  # 1e19 cm^-3
+    thin = np.broadcast_to(t_phys < THIN_DIELECTRIC_M, (n_v, n_c))
+    degenerate = np.broadcast_to(body_doping > DEGENERATE_DOPING_M3, (n_v, n_c))
     out: list[list[list[str]]] = [[[] for _ in range(n_c)] for _ in range(n_v)]
     for (i, j) in zip(*np.nonzero(weak)):
         out[i][j].append("weak_channel: overdrive below 0.2 V, channel resistance formulas outside "

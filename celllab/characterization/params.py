@@ -10,9 +10,9 @@ from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
-from scipy.constants import centi, micro, nano, zero_Celsius
 
-from celllab.deck.schema import Deck, OxideFlavour
+from celllab.deck.schema import Deck
+from celllab.units import to_si
 
 
 @dataclass
@@ -34,8 +34,8 @@ class CornerSet:
             raise DeckError([Problem(deck.name, "corners", "unknown corner; allowed: " + ", ".join(deck.corners), c)
                              for c in unknown])
         decks = [deck.at_corner(c) for c in names]
-        temps = np.array([deck.corners[c].temperature_C + zero_Celsius for c in names])
-        return cls(names, decks, temps, deck.reference_temperature_C + zero_Celsius)
+        temps = to_si(np.array([deck.corners[c].temperature_C for c in names]), "degC")
+        return cls(names, decks, temps, to_si(deck.reference_temperature_C, "degC"))
 
     def oxide_table(self, attr: str, oxides: np.ndarray) -> np.ndarray:
         """(n_variant, n_corner) array of an OxideFlavour attribute, chosen per variant's oxide."""
@@ -71,22 +71,3 @@ def _table(decks: list[Deck], oxides: np.ndarray, getter: Any, dtype: Any = floa
     return np.array(values, dtype=dtype)[index.reshape(-1)]
 
 
-def eot_m(ox: OxideFlavour) -> float:
-    return ox.eot_m
-
-
-def physical_thickness_m(ox: OxideFlavour) -> float:
-    return ox.physical_thickness_m
-
-
-def cm3(value: np.ndarray | float) -> np.ndarray:
-    """cm^-3 -> m^-3."""
-    return np.asarray(value, dtype=float) / centi**3
-
-
-def cm2_per_Vs(value: np.ndarray | float) -> np.ndarray:
-    return np.asarray(value, dtype=float) * centi**2
-
-
-UM = micro
-NM = nano

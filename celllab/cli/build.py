@@ -6,11 +6,10 @@ import argparse
 import json
 import sys
 
+from celllab import CAUTION, DEFAULT_CATALOG
 from celllab.cli.args import MAX_ROWS, whole_number
+from celllab.display import text_table
 from celllab.errors import CelllabError, Problem
-
-CAUTION = ("Estimates from analytic models, not sign-off: defer to the foundry's design rules, "
-           "qualified models and ESD/reliability qualification.")
 
 
 def _progress_printer(enabled: bool):  # type: ignore[no-untyped-def]
@@ -68,19 +67,6 @@ def _load(deck_paths: list[str], cell_paths: list[str]):  # type: ignore[no-unty
     return pairs
 
 
-def format_table(rows: list[dict], cols: list[str]) -> str:  # type: ignore[type-arg]
-    """Plain aligned text table: text left, numbers right (4 significant digits)."""
-    def text(v: object) -> str:
-        return f"{v:.4g}" if isinstance(v, float) else str(v)
-
-    cells = [[text(r.get(c)) for c in cols] for r in rows]
-    widths = [max([len(c)] + [len(row[i]) for row in cells]) for i, c in enumerate(cols)]
-    numeric = [all(isinstance(r.get(c), (int, float)) for r in rows) for c in cols]
-    def line(values: list[str]) -> str:
-        return "  ".join(v.rjust(w) if num else v.ljust(w) for v, w, num in zip(values, widths, numeric)).rstrip()
-    return "\n".join([line(cols), line(["-" * w for w in widths])] + [line(r) for r in cells])
-
-
 def cmd_check(args: argparse.Namespace) -> int:
     pairs = _load(args.deck, args.cells or [])
     for deck, cells in pairs:
@@ -135,13 +121,12 @@ def cmd_demo(args: argparse.Namespace) -> int:
     cols = ["name", "deck", "topology", "cap_fF", "cap_density_fF_per_um2", "esr_ohm", "bandwidth_GHz",
             "leakage_nA_per_nF"]
     print(f"Densest demo cells (each metric at its worst corner) in {path}:")
-    print(format_table(rows, cols))
+    print(text_table(rows, cols))
     print(CAUTION)
     return 0
 
 
 def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
-    from celllab.demo import DEFAULT_CATALOG
 
     p = sub.add_parser("check", help="validate decks and cell files without writing anything",
                        description="Validate process decks and cell files; print one line per problem.")

@@ -4,29 +4,31 @@
     celllab export spice --deck lumen130 --cells DC_XCP_4 DC_MOM_2 --out decaps.lib
     celllab export touchstone --corner typ_25C --out sparams/
     celllab export datasheet --out datasheets/
+    celllab export liberty --deck lumen130 --where "esd_safe" --out views/
+    celllab export lef --deck lumen130 --out views/lumen130_decaps.lef
 
 Each format is a few lines over ``celllab.export``. Without ``--out`` a single-file export
 goes to stdout; an ``--out`` that is an existing folder (or ends with a path separator)
-receives one file per cell where the format has one (spice, touchstone, datasheet), else a
-file with a default name.
+receives one file per cell where the format has one (spice, touchstone, datasheet), one
+library per corner for liberty (``<deck>_<corner>.lib``), else a file with a default name.
 """
 
 from __future__ import annotations
 
 import argparse
-import difflib
 import os
 import sys
 from collections.abc import Callable, Sequence
 from pathlib import Path
 from typing import Any
 
+from celllab import DEFAULT_CATALOG
 from celllab.cli.args import MAX_ROWS, positive_number, whole_number
 from celllab.cli.text import printable
-from celllab.errors import CatalogError, CelllabError, Problem
+from celllab.columns import AGGREGATE_CORNERS
+from celllab.errors import CatalogError, CelllabError, Problem, did_you_mean
 
-FORMATS = ("csv", "json", "schema", "spice", "touchstone", "datasheet")
-DEFAULT_CATALOG = str(Path("db") / "celllab.sqlite")
+FORMATS = ("csv", "json", "schema", "spice", "touchstone", "datasheet", "liberty", "lef")
 #: File written into an --out folder for the single-file formats.
 DEFAULT_FILES = {
     "csv": "cells.csv",
@@ -35,9 +37,10 @@ DEFAULT_FILES = {
     "spice": "cells.lib",
     "datasheet": "index.html",
 }
-AGGREGATE_CORNERS = ("worst", "best", "all")
 #: Most R-C ladder sections per distributed line a SPICE export writes.
 MAX_SEGMENTS = 10000
+#: --corner words besides corner names: the per-metric extremes, and "all" (no corner singled out).
+CORNER_WORDS = (*AGGREGATE_CORNERS, "all")
 
 
 def _problem(field: str, message: str, value: Any = None, has_value: bool = True) -> CelllabError:
@@ -93,6 +96,7 @@ def _add_file(files: dict[str, str], owners: dict[str, str], name: str, text: st
 
 
 def _query_corner(corner: str) -> str | None:
+    """--corner as the library reads it: a name, "worst"/"best", or None for every corner."""
     return None if corner == "all" else corner
 
 
@@ -114,12 +118,7 @@ def _select_rows(cat: Any, args: argparse.Namespace) -> list[dict[str, Any]]:
                     Problem(
                         str(cat.path),
                         "--cells",
-                        "no such cell in the catalog"
-                        + (
-                            f"; did you mean {', '.join(close)}?"
-                            if (close := difflib.get_close_matches(name, sorted(known), n=3))
-                            else ""
-                        ),
+                        "no such cell in the catalog" + did_you_mean(name, sorted(known), n=3),
                         name,
                     )
                     for name in missing
@@ -160,8 +159,9 @@ def _load_cells(cat: Any, rows: Sequence[dict[str, Any]]) -> tuple[list[Any], st
 
 
 def _render_corner(args: argparse.Namespace) -> str | None:
-    """A named corner for rendering, or None for the aggregate choices."""
-    return None if args.corner in AGGREGATE_CORNERS else args.corner
+    """The corner of a one-corner view (SPICE, Touchstone): a named corner, else None (see
+    ``celllab.columns``: each cell's first corner, or every corner where files are per corner)."""
+    return None if args.corner in CORNER_WORDS else args.corner
 
 
 def _need_cells(cells: Sequence[Any]) -> None:
@@ -249,7 +249,7 @@ def _export_datasheet(args: argparse.Namespace, cat: Any) -> None:
 
     cells, deck = _load_cells(cat, _select_rows(cat, args))
     _need_cells(cells)
-    corner = _render_corner(args)
+    summary = _query_corner(args.corner)  # the summary table reads worst/best like a query
     plots = not args.no_plots
     if _is_folder(args.out):
         files: dict[str, str] = {}
@@ -258,7 +258,7 @@ def _export_datasheet(args: argparse.Namespace, cat: Any) -> None:
             _add_file(files, owners, f"{file_stem(c.name)}.html",
                       render_datasheet_html(c, deck, plots=plots), f"cell {c.name}")
         _add_file(files, owners, DEFAULT_FILES["datasheet"],
-                  render_library_html(cells, deck, corner, plots=plots), "the library index")
+                  render_library_html(cells, deck, summary, plots=plots), "the library index")
         _emit_many(args, files)
     elif len(cells) == 1:
         _emit(
@@ -268,8 +268,49 @@ def _export_datasheet(args: argparse.Namespace, cat: Any) -> None:
         )
     else:
         _emit(
-            args, render_library_html(cells, deck, corner, plots=plots), DEFAULT_FILES["datasheet"]
+            args, render_library_html(cells, deck, summary, plots=plots), DEFAULT_FILES["datasheet"]
         )
+
+
+def _export_liberty(args: argparse.Namespace, cat: Any) -> None:
+    from celllab.export.catalog_deck import stored_deck
+    from celllab.export.liberty import liberty_filename, render_liberty
+
+    cells, deck_name = _load_cells(cat, _select_rows(cat, args))
+    _need_cells(cells)
+    deck = stored_deck(cat, str(deck_name))
+    # every corner in the run's order (the catalog keeps it; the stored deck's keys are sorted)
+    corners = [args.corner] if args.corner not in AGGREGATE_CORNERS else cat.corners(deck_name)
+    files: dict[str, str] = {}
+    owners: dict[str, str] = {}
+    for c in corners:
+        _add_file(files, owners, liberty_filename(deck.name, c), render_liberty(cells, deck, c), f"corner {c}")
+    if _is_folder(args.out):
+        _emit_many(args, files)
+    elif len(files) == 1:
+        _emit(args, next(iter(files.values())), next(iter(files)))
+    else:
+        raise _problem(
+            "--out",
+            f"{len(files)} Liberty libraries (one per corner: {', '.join(corners)}) need an "
+            "output folder; give --out DIR/ or name one corner with --corner",
+            args.out,
+            has_value=args.out is not None,
+        )
+
+
+def _export_lef(args: argparse.Namespace, cat: Any) -> None:
+    from celllab.export.catalog_deck import stored_deck
+    from celllab.export.files import file_stem
+    from celllab.export.lef import render_lef
+
+    cells, deck_name = _load_cells(cat, _select_rows(cat, args))
+    _need_cells(cells)
+    deck = stored_deck(cat, str(deck_name))
+    grid_um = args.grid_nm / 1000 if args.grid_nm is not None else None
+    _emit(
+        args, render_lef(cells, deck, manufacturing_grid_um=grid_um), f"{file_stem(deck.name)}.lef"
+    )
 
 
 EXPORTERS: dict[str, Callable[[argparse.Namespace, Any], None]] = {
@@ -278,6 +319,8 @@ EXPORTERS: dict[str, Callable[[argparse.Namespace, Any], None]] = {
     "spice": _export_spice,
     "touchstone": _export_touchstone,
     "datasheet": _export_datasheet,
+    "liberty": _export_liberty,
+    "lef": _export_lef,
 }
 
 
@@ -298,13 +341,13 @@ def cmd_export(args: argparse.Namespace) -> int:
             "no catalog file here; build one first (celllab build) or pass --catalog PATH",
         )
     with open_catalog(args.catalog, create=False) as cat:
-        if args.corner not in AGGREGATE_CORNERS:
+        if args.corner not in CORNER_WORDS:
             known = cat.corners(args.deck)
             if args.corner not in known:
                 raise _problem(
                     "--corner",
                     "not a corner of the catalog; allowed: "
-                    + ", ".join([*known, *AGGREGATE_CORNERS]),
+                    + ", ".join([*known, *CORNER_WORDS]),
                     args.corner,
                 )
         try:
@@ -312,17 +355,25 @@ def cmd_export(args: argparse.Namespace) -> int:
         except (ValueError, KeyError) as exc:  # a record this format cannot hold
             message = exc.args[0] if exc.args else repr(exc)
             raise _problem(args.format, str(message), None, has_value=False) from None
+        except OSError as exc:  # --out not writable: a missing parent we may not create, ...
+            where = exc.filename or args.out
+            raise _problem(
+                "--out", f"cannot write {where}: {exc.strerror or exc}", args.out
+            ) from None
     return 0
 
 
 def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
     p = sub.add_parser(
         "export",
-        help="write catalog results as CSV, JSON, SPICE, Touchstone or HTML datasheets",
+        help="write catalog results as CSV, JSON, SPICE, Touchstone, HTML datasheets or "
+        "Liberty/LEF library views",
         description="Export catalog results for other planning tools: csv (one row per cell "
         "and corner), json (full records; validate with the 'schema' export), spice "
         "(.subckt NAME vdd vss per cell), touchstone (one-port Z, v1.1, per cell and corner), "
-        "datasheet (HTML with plots). Every export carries the caution that the numbers are "
+        "datasheet (HTML with plots), liberty (one .lib library per corner: area, leakage power, "
+        "power/ground pins, decap marker, capacitance and ESR), lef (technology section from the "
+        "deck and one macro per cell). Every export carries the caution that the numbers are "
         "estimates, not sign-off.",
     )
     p.add_argument(
@@ -330,7 +381,7 @@ def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
     )
     p.add_argument(
         "--catalog",
-        default=DEFAULT_CATALOG,
+        default=str(DEFAULT_CATALOG),
         metavar="PATH",
         help="catalog file (default: %(default)s)",
     )
@@ -340,8 +391,8 @@ def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
         default="worst",
         metavar="CORNER",
         help="a corner name, or 'worst' / 'best' (each metric at its least / most "
-        "favourable corner) or 'all'; filters and csv rows use it, touchstone writes "
-        "every corner unless one is named (default: %(default)s)",
+        "favourable corner) or 'all'; filters and csv rows use it, touchstone and liberty "
+        "write every corner unless one is named (default: %(default)s)",
     )
     p.add_argument(
         "--where",
@@ -368,7 +419,7 @@ def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
         "--out",
         metavar="PATH",
         help="output file, or folder (existing or ending "
-        "in '/') for one file per cell; default: stdout",
+        "in '/') for one file per cell (liberty: per corner); default: stdout",
     )
     p.add_argument(
         "--no-comments",
@@ -398,5 +449,11 @@ def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
         "--force",
         action="store_true",
         help="replace existing output files (never links, pipes or read-only files)",
+    )
+    p.add_argument(
+        "--grid-nm",
+        type=positive_number(1e6),
+        metavar="NM",
+        help="lef: manufacturing grid, nm, > 0 (default: the coarsest grid every deck length lies on)",
     )
     p.set_defaults(func=cmd_export)

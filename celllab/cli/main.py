@@ -15,7 +15,7 @@ import warnings
 from collections.abc import Sequence
 from typing import Any
 
-from celllab import __version__
+from celllab import CAUTION, __version__
 from celllab.cli.text import printable
 from celllab.errors import CelllabError
 
@@ -28,10 +28,6 @@ VERB_MODULES: tuple[str, ...] = (
     "celllab.cli.ui",
 )
 
-EPILOG = (
-    "Numbers are engineering estimates from analytic models, not sign-off: defer to the "
-    "foundry's design rules, qualified models and ESD/reliability qualification."
-)
 
 
 class _Parser(argparse.ArgumentParser):
@@ -47,7 +43,7 @@ def build_parser() -> argparse.ArgumentParser:
         prog="celllab",
         description="Characterize on-chip decoupling cells from a process deck and keep the "
         "results in a searchable catalog.",
-        epilog=EPILOG,
+        epilog=CAUTION,
     )
     parser.add_argument("--version", action="version", version=f"celllab {__version__}")
     sub = parser.add_subparsers(dest="verb", metavar="VERB")

@@ -9,16 +9,15 @@ from __future__ import annotations
 
 import argparse
 import json
-import math
 from collections.abc import Sequence
-from pathlib import Path
 from typing import Any
 
+from celllab import CAUTION_SHORT, DEFAULT_CATALOG
 from celllab.cli.args import MAX_ROWS, whole_number
 from celllab.cli.text import printable
-from celllab.records import CELL_COLUMNS, METRIC_BY_NAME, METRIC_NAMES
+from celllab.columns import CELL_COLUMNS, COLUMNS, METRIC_BY_NAME, METRIC_NAMES, RANKED, unit_of
+from celllab.display import format_value, jsonable, text_table
 
-DEFAULT_CATALOG = str(Path("db") / "celllab.sqlite")
 #: Columns of ``rank`` and ``pareto`` tables unless --columns says otherwise.
 DEFAULT_COLUMNS = (
     "name",
@@ -31,63 +30,15 @@ DEFAULT_COLUMNS = (
     "leakage_nA_per_nF",
     "tddb_life_years",
 )
-CAUTION = "Estimates from analytic models, not sign-off."
 
 
 # --------------------------------------------------------------------------- rendering (pure)
 
 
-def unit_of(column: str) -> str:
-    info = METRIC_BY_NAME.get(column) or CELL_COLUMNS.get(column)
-    if info is not None:
-        return info.unit
-    return {"temperature_C": "degC", "supply_V": "V"}.get(column, "")
-
-
-def format_value(value: Any) -> str:
-    """Four significant digits for numbers, yes/no for booleans, '-' for empty."""
-    if value is None:
-        return "-"
-    if isinstance(value, bool):
-        return "yes" if value else "no"
-    if isinstance(value, float):
-        if math.isnan(value):
-            return "-"
-        return f"{value:.4g}"
-    if isinstance(value, (list, tuple)):
-        return "; ".join(str(v) for v in value) or "-"
-    return str(value)
-
-
 def render_table(rows: Sequence[dict[str, Any]], columns: Sequence[str]) -> str:
-    """Plain-text table: a header of column names, then one line per row (numbers right-aligned)."""
-    cells = [[format_value(r.get(c)) for c in columns] for r in rows]
-    widths = [max([len(c)] + [len(line[i]) for line in cells]) for i, c in enumerate(columns)]
-    numeric = [
-        c in METRIC_BY_NAME or c in CELL_COLUMNS or c in ("temperature_C", "supply_V")
-        for c in columns
-    ]
-
-    def line(values: Sequence[str]) -> str:
-        return "  ".join(
-            v.rjust(w) if num else v.ljust(w)
-            for v, w, num in zip(values, widths, numeric, strict=True)
-        ).rstrip()
-
-    out = [line(list(columns)), line(["-" * w for w in widths])]
-    out += [line(c) for c in cells]
-    return "\n".join(out)
-
-
-def jsonable(value: Any) -> Any:
-    """``value`` with NaN/infinity replaced by None, so the output is standard JSON."""
-    if isinstance(value, float) and not math.isfinite(value):
-        return None
-    if isinstance(value, dict):
-        return {k: jsonable(v) for k, v in value.items()}
-    if isinstance(value, (list, tuple)):
-        return [jsonable(v) for v in value]
-    return value
+    """Plain-text table: a header of column names, then one line per row (catalog numbers right-aligned)."""
+    numeric = {c for c in columns if c in COLUMNS and COLUMNS[c].kind != "text"}
+    return text_table(rows, columns, numeric)
 
 
 def dump_json(value: Any) -> str:
@@ -124,10 +75,10 @@ def render_cell(cell: Any, deck: str) -> str:
     table = [
         {
             "metric": "temperature_C",
-            "unit": "degC",
+            "unit": unit_of("temperature_C"),
             **{c.corner: c.temperature_C for c in cell.corners},
         },
-        {"metric": "supply_V", "unit": "V", **{c.corner: c.supply_V for c in cell.corners}},
+        {"metric": "supply_V", "unit": unit_of("supply_V"), **{c.corner: c.supply_V for c in cell.corners}},
     ]
     table += [
         {
@@ -229,7 +180,7 @@ def cmd_rank(args: argparse.Namespace) -> int:
     first = args.offset + 1 if rows else 0
     print(
         f"\nrows {first}-{args.offset + len(rows)} of {total} (corner {args.corner}, "
-        f"by {args.by}). {CAUTION}"
+        f"by {args.by}). {CAUTION_SHORT}"
     )
     return 0
 
@@ -243,12 +194,9 @@ def cmd_pareto(args: argparse.Namespace) -> int:
         print(dump_json([{c: r.get(c) for c in cols} if args.columns else r for r in rows]))
         return 0
     print(render_table(rows, cols))
-    directions = ", ".join(
-        f"{m} {METRIC_BY_NAME[m].better if m in METRIC_BY_NAME else CELL_COLUMNS[m].better}"
-        for m in metrics
-    )
+    directions = ", ".join(f"{m} {RANKED[m].better}" for m in metrics)
     print(
-        f"\n{len(rows)} non-dominated rows ({directions} is better; corner {args.corner}). {CAUTION}"
+        f"\n{len(rows)} non-dominated rows ({directions} is better; corner {args.corner}). {CAUTION_SHORT}"
     )
     return 0
 
@@ -346,7 +294,7 @@ def cmd_merge(args: argparse.Namespace) -> int:
 def _common(p: argparse.ArgumentParser, deck: bool = True, corner: bool = True) -> None:
     p.add_argument(
         "--catalog",
-        default=DEFAULT_CATALOG,
+        default=str(DEFAULT_CATALOG),
         metavar="PATH",
         help="catalog file (default: %(default)s)",
     )

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import argparse
 
+from celllab import DEFAULT_CATALOG
+
 
 def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
     parser = subparsers.add_parser(
@@ -13,7 +15,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
         "editor, ranking with a Pareto scatter, deck view. Press ? inside for every key.",
     )
     parser.add_argument("--catalog", metavar="PATH", default=None,
-                        help="catalog file (default db/celllab.sqlite; created when missing)")
+                        help=f"catalog file (default {DEFAULT_CATALOG}; created when missing)")
     parser.add_argument("--deck", metavar="PATH", nargs="+", action="extend", default=[],
                         help="process deck file(s) for the deck view and what-ifs; a deck that "
                         "does not validate is shown with its problems")

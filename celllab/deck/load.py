@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import copy
-import difflib
 import hashlib
 import json
 import re
@@ -16,7 +15,9 @@ from typing import Any
 from pydantic import BaseModel, ValidationError
 
 from celllab.deck.schema import Deck
-from celllab.errors import CelllabError, DeckError, Problem
+from celllab.errors import CelllabError, DeckError, Problem, allowed_hint, close_names, did_you_mean
+from celllab.physics.resistance import linear_tcr_factor
+from celllab.units import to_si
 
 
 def content_hash(model: BaseModel) -> str:
@@ -82,12 +83,26 @@ def read_toml(path: str | Path, error: type[CelllabError]) -> tuple[dict[str, An
         raise error([Problem(str(path), "", "TOML nested too deeply to read", has_value=False)]) from None
 
 
+def _resolve_table(name: str, arrays: dict[tuple[str, ...], int]) -> list[str]:
+    """Key path of a table header, with the current element index after every array of
+    tables it lies in (``[[region.row_gaps]]`` inside the second ``[[region]]`` ->
+    region, 1, row_gaps)."""
+    resolved: list[str] = []
+    for part in (t.strip().strip('"') for t in name.split(".")):
+        resolved.append(part)
+        key = tuple(resolved)
+        if key in arrays:
+            resolved.append(str(arrays[key]))
+    return resolved
+
+
 def find_line(text: str | None, path: Iterable[str | int]) -> int | None:
     """Best-effort line number of a dotted key path in TOML source (None when not found).
 
     The line of the key itself when the text has it, else the first line of a table or key
-    that the path lies in. The text is indexed once (one pass), so locating every problem of a
-    large file costs no more than reading it.
+    that the path lies in. Arrays of tables are indexed (``["metals", 4, "name"]``), nested ones
+    too (``["region", 1, "row_gaps", 0, "count"]``). The text is indexed once (one pass), so
+    locating every problem of a large file costs no more than reading it.
     """
     if not text:
         return None
@@ -116,21 +131,27 @@ def _line_index(text: str) -> _LineIndex:
     keys: dict[tuple[str, ...], int] = {}
     tables: dict[tuple[str, ...], int] = {}
     table: list[str] = []
-    array_index: dict[str, int] = {}
+    arrays: dict[tuple[str, ...], int] = {}  # array-of-tables path -> index of its last element
     for lineno, raw in enumerate(text.splitlines(), start=1):
         line = raw.split("#", 1)[0].strip()
         if not line:
             continue
         m = re.match(r"^\[\[\s*([^\]]+?)\s*\]\]$", line)
         if m:
-            name = m.group(1)
-            array_index[name] = array_index.get(name, -1) + 1
-            table = name.split(".") + [str(array_index[name])]
+            owner = _resolve_table(m.group(1), {})
+            # the array's own path runs through the current elements of enclosing arrays
+            base = _resolve_table(".".join(owner[:-1]), arrays) if len(owner) > 1 else []
+            key = (*base, owner[-1])
+            arrays[key] = arrays.get(key, -1) + 1
+            # a new element forgets the elements of arrays nested in the previous one
+            for nested in [k for k in arrays if len(k) > len(key) and k[:len(key)] == key]:
+                del arrays[nested]
+            table = [*key, str(arrays[key])]
             tables.setdefault(tuple(table), lineno)
             continue
         m = re.match(r"^\[\s*([^\]]+?)\s*\]$", line)
         if m:
-            table = [t.strip().strip('"') for t in m.group(1).split(".")]
+            table = _resolve_table(m.group(1), arrays)
             tables.setdefault(tuple(table), lineno)
             continue
         m = re.match(r'^("?)([A-Za-z0-9_\-\.]+)\1\s*=', line)
@@ -214,19 +235,14 @@ def validation_problems(exc: ValidationError, file: str, text: str | None,
             has_value = False
         elif etype == "extra_forbidden":
             allowed = _model_fields(model, loc[len(prefix):]) if not prefix else []
-            guess = difflib.get_close_matches(str(loc[-1]), allowed, n=1)
-            message = "unknown field"
-            if guess:
-                message += f"; did you mean {guess[0]!r}?"
-            elif allowed:
-                message += "; allowed: " + ", ".join(allowed)
+            message = "unknown field" + (allowed_hint(loc[-1], allowed) if allowed else "")
             has_value = False
         else:
             message = msg.removeprefix("Value error, ")
             allowed = _allowed_from_error(err)
             if etype == "literal_error" and isinstance(value, str):
                 options = [o.strip().strip("'") for o in str((err.get("ctx") or {}).get("expected", "")).replace(" or ", ",").split(",")]
-                guess = difflib.get_close_matches(value, options, n=1)
+                guess = close_names(value, options)
                 message = f"not an allowed value; {allowed}" + (f". Did you mean {guess[0]!r}?" if guess else "")
             elif allowed and allowed not in message:
                 message = f"{message} ({allowed})"
@@ -323,7 +339,7 @@ def numeric_paths(deck: Deck) -> list[str]:
         elif isinstance(node, (int, float)) and not isinstance(node, bool):
             out.append(prefix)
 
-    walk(deck.model_dump(mode="json"), "")
+    walk(deck.full_dump(), "")
     return out
 
 
@@ -342,14 +358,13 @@ def _check_path(deck_data: dict[str, Any], path: str) -> str | None:
 
 def _corner_problems(deck: Deck, raw: dict[str, Any], file: str, text: str | None) -> list[Problem]:
     problems: list[Problem] = []
-    data = deck.model_dump(mode="json")
+    data = deck.full_dump()
     for cname, corner in deck.corners.items():
         for kind, table in (("set", corner.set), ("scale", corner.scale)):
             for path in table:
                 why = _check_path(data, path)
                 if why:
-                    guess = _close_path(path, deck)
-                    msg = why + (f"; did you mean {guess[0]!r}?" if guess else "")
+                    msg = why + did_you_mean(path, numeric_paths(deck))
                     problems.append(Problem(file, f"corners.{cname}.{kind}", msg, path,
                                             find_line(text, ["corners", cname, kind])))
         if not problems:
@@ -371,15 +386,13 @@ def apply_changes(deck: Deck, changes: dict[str, Any], source: str = "<what-if>"
     what-if cannot leave a corner that fails later. ``field_prefix`` labels problems (e.g. the
     corner whose changes these are).
     """
-    data = copy.deepcopy(deck.model_dump(mode="json"))
+    data = copy.deepcopy(deck.full_dump())
     problems: list[Problem] = []
     for table, op in ((changes, "set"), (scale or {}, "scale")):
         for path, value in table.items():
             why = _check_path(data, path)
             if why:
-                guess = _close_path(path, deck)
-                problems.append(Problem(source, field_prefix + path,
-                                        why + (f"; did you mean {guess[0]!r}?" if guess else ""), value))
+                problems.append(Problem(source, field_prefix + path, why + did_you_mean(path, numeric_paths(deck)), value))
                 continue
             parts = _split(path)
             try:
@@ -406,7 +419,12 @@ def apply_changes(deck: Deck, changes: dict[str, Any], source: str = "<what-if>"
 
 
 def corner_deck(deck: Deck, corner: str, file: str | None = None) -> Deck:
-    """The deck with one corner's ``set``/``scale`` changes and supply scaling applied.
+    """The deck with one corner's changes applied: ``set`` values, then ``scale`` factors, the
+    supply scaling (every rail, named ones included) and the resistances taken to the corner's
+    temperature by their coefficients (``resistance_tempco``, first-order law of
+    ``physics.resistance.linear_tcr_factor``). ``set`` and ``scale`` act on resistances as given
+    at the reference temperature. Device temperature laws (mobility, threshold) are applied by
+    the engine.
 
     The changes are applied to and validated on a copy holding that one corner, so building
     it costs the same for a deck of three corners as for one of a hundred and checking every
@@ -418,14 +436,35 @@ def corner_deck(deck: Deck, corner: str, file: str | None = None) -> Deck:
     c = deck.corners[corner]
     scale = dict(c.scale)
     if c.supply_scale != 1.0:
-        for key in ("supplies.core_V", "supplies.io_V"):
+        rails = ["supplies.core_V", "supplies.io_V", *(f"supplies.named.{n}.voltage_V" for n in deck.supplies.named)]
+        for key in rails:
             scale[key] = scale.get(key, 1.0) * c.supply_scale
     alone = deck.model_copy(update={"corners": {corner: c}})
     changed = apply_changes(alone, dict(c.set), file or deck.name, scale,
                             field_prefix=f"corners.{corner} -> ", check_corners=False)
-    return changed.model_copy(update={"corners": deck.corners})  # the corners are not changed
+    changed = changed.model_copy(update={"corners": deck.corners})  # the corners are not changed
+    return _resistances_at(changed, c.temperature_C)
 
 
-def _close_path(path: str, deck: Deck) -> list[str]:
-    """The numeric deck path closest to a misspelt one (for 'did you mean')."""
-    return difflib.get_close_matches(path, numeric_paths(deck), n=1)
+def _resistances_at(deck: Deck, temperature_C: float) -> Deck:
+    """The deck with every resistance that has a temperature coefficient taken to ``temperature_C``.
+
+    The result is derived from a validated deck, so it is not checked against the input ranges
+    again (a cold corner may take a sheet resistance below the smallest value a person may type);
+    the deck's rules keep every factor positive.
+    """
+    t, t0 = to_si(temperature_C, "degC"), to_si(deck.resistance_reference_C, "degC")
+    factors = {path: float(linear_tcr_factor(alpha, t, t0)) for path, alpha in deck.resistance_tempco.paths(deck).items()}
+    if all(f == 1.0 for f in factors.values()):
+        return deck
+
+    def scaled(model: Any, prefix: str) -> Any:
+        update = {name: getattr(model, name) * factors[f"{prefix}{name}"]
+                  for name in type(model).model_fields if f"{prefix}{name}" in factors}
+        return model.model_copy(update=update) if update else model
+
+    return deck.model_copy(update={
+        "resistances": scaled(deck.resistances, "resistances."),
+        "wells": scaled(deck.wells, "wells."),
+        "metals": [scaled(m, f"metals[{i}].") for i, m in enumerate(deck.metals)],
+    })

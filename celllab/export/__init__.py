@@ -14,7 +14,17 @@ schema      ``export_json_schema()``                     ``write_json_schema(pat
 SPICE       ``render_spice_subckt(cell, corner)``        ``write_spice(path, cells)``
 Touchstone  ``render_touchstone(cell, corner)``          ``write_touchstone(path, ...)``
 datasheet   ``render_datasheet_html(cell, deck_name)``   ``write_datasheet(path, ...)``
+Liberty     ``render_liberty(cells, deck, corner)``      ``write_liberty(path, ...)``
+LEF         ``render_lef(cells, deck)``                  ``write_lef(path, ...)``
+block plan  ``render_fill_csv(plan)``, ``render_fill_    ``write_plan_files(plan,
+            json``, ``render_plan_html``, ``render_      folder)``
+            impedance_csv``, ``render_impedance_
+            touchstone`` (``export.plan``)
 ==========  ===========================================  ============================
+
+The library views (Liberty: one library per corner, ``write_liberty_set``; LEF: technology
+section and cell abstracts) need the ``Deck`` the cells were characterized under;
+``stored_deck(catalog, name)`` rebuilds it from the catalog.
 
 Every export carries :data:`CAUTION`: the numbers are estimates, not sign-off.
 """
@@ -26,12 +36,7 @@ import os
 from pathlib import Path
 from typing import Any
 
-#: Printed in every export whose numbers could drive tape-out decisions.
-CAUTION = (
-    "These are engineering estimates from analytic models, not sign-off; defer to the "
-    "foundry's design rules, qualified device models, ESD/reliability qualification "
-    "standards and licensed practice."
-)
+from celllab import CAUTION  # printed in every export (numbers could drive tape-out decisions)
 
 #: Public name -> submodule that defines it (loaded on first use, so that exporting CSV
 #: never imports matplotlib or pydantic).
@@ -57,6 +62,24 @@ _LAZY: dict[str, str] = {
     "render_library_html": "datasheet",
     "write_datasheet": "datasheet",
     "write_library_datasheet": "datasheet",
+    "render_liberty": "liberty",
+    "write_liberty": "liberty",
+    "write_liberty_set": "liberty",
+    "liberty_filename": "liberty",
+    "leakage_parts": "liberty",
+    "cell_leakage_power_nW": "liberty",
+    "render_lef": "lef",
+    "write_lef": "lef",
+    "macro_view": "lef",
+    "lef_grid": "lef",
+    "placement_class": "lef",
+    "stored_deck": "catalog_deck",
+    "render_fill_csv": "plan",
+    "render_fill_json": "plan",
+    "render_plan_html": "plan",
+    "render_impedance_csv": "plan",
+    "render_impedance_touchstone": "plan",
+    "write_plan_files": "plan",
 }
 
 __all__ = [  # noqa: PLE0604 - the lazily loaded names are listed in _LAZY

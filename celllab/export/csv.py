@@ -1,7 +1,7 @@
 """CSV export of catalog rows (one row per cell x corner).
 
 Column names are the catalog's names, which carry their unit (``cap_fF``, ``esr_ohm``,
-``area_um2``; see ``celllab.records.METRICS``). Numbers are written with Python's shortest
+``area_um2``; see ``celllab.columns``). Numbers are written with Python's shortest
 round-trip representation, so ``float(text)`` gives back exactly the stored value; booleans
 are ``1``/``0``; a missing value is an empty field; undefined values are ``nan``/``inf``.
 
@@ -24,15 +24,15 @@ from typing import Any
 import numpy as np
 
 from celllab import MODEL_VERSION, __version__
+from celllab.columns import CELL_COLUMNS, CORNER_COLUMNS, METRIC_NAMES, unit_of
 from celllab.export import CAUTION, atomic_write_text
-from celllab.records import CELL_COLUMNS, METRIC_BY_NAME, METRIC_NAMES, CellResult
+from celllab.records import CellResult
 
 #: Identity columns first, then per-cell columns, then metrics, then the hash.
 ID_COLUMNS: tuple[str, ...] = ("name", "deck", "corner", "family", "topology", "oxide")
 DEFAULT_COLUMNS: tuple[str, ...] = (
     *ID_COLUMNS,
-    "temperature_C",
-    "supply_V",
+    *CORNER_COLUMNS,
     *CELL_COLUMNS,
     *METRIC_NAMES,
     "flags",
@@ -40,8 +40,6 @@ DEFAULT_COLUMNS: tuple[str, ...] = (
     "cell_hash",
     "deck_hash",
 )
-#: Units of the corner-condition columns (the others come from records.METRICS/CELL_COLUMNS).
-CONDITION_UNITS = {"temperature_C": "degC", "supply_V": "V"}
 
 __all__ = ["DEFAULT_COLUMNS", "format_value", "render_csv", "rows_from_cells", "write_csv"]
 
@@ -76,11 +74,6 @@ def _columns(rows: Sequence[Mapping[str, Any]], columns: Sequence[str] | None) -
     return ordered or list(DEFAULT_COLUMNS)
 
 
-def _unit(column: str) -> str:
-    info = METRIC_BY_NAME.get(column) or CELL_COLUMNS.get(column)
-    return info.unit if info else CONDITION_UNITS.get(column, "")
-
-
 def render_csv(
     rows: Iterable[Mapping[str, Any]],
     columns: Sequence[str] | None = None,
@@ -105,7 +98,7 @@ def render_csv(
     if comments:
         out.write(f"# celllab {__version__} catalog export; models {MODEL_VERSION}\r\n")
         out.write(f"# CAUTION: {CAUTION}\r\n")
-        legend = ", ".join(f"{c} [{_unit(c)}]" for c in names if _unit(c))
+        legend = ", ".join(f"{c} [{unit_of(c)}]" for c in names if unit_of(c))
         if legend:
             out.write(f"# units: {legend}\r\n")
     writer = csv.writer(out, lineterminator="\r\n")
@@ -135,11 +128,7 @@ def rows_from_cells(
                 "family": cell.family,
                 "topology": cell.topology,
                 "oxide": cell.oxide,
-                "area_um2": cell.area_um2,
-                "width_sites": cell.width_sites,
-                "height_rows": cell.height_rows,
-                "gate_area_um2": cell.gate_area_um2,
-                "esd_safe": cell.esd_safe,
+                **{c: getattr(cell, c) for c in CELL_COLUMNS},
             }
             row.update({m: result.metrics.get(m) for m in METRIC_NAMES})
             row["flags"] = list(result.flags)

@@ -23,13 +23,15 @@ from matplotlib.figure import Figure
 from matplotlib.ticker import FuncFormatter, NullLocator
 
 from celllab import MODEL_VERSION, __version__
+from celllab.columns import CELL_COLUMNS, METRICS, unit_of
+from celllab.display import format_value
 from celllab.export import CAUTION, atomic_write_text
-from celllab.records import CELL_COLUMNS, METRICS, CellResult, CornerResult
+from celllab.records import CellResult, CornerResult, corner_metrics
+from celllab.units import from_si
 
 __all__ = [
     "render_datasheet_html",
     "render_library_html",
-    "worst_metrics",
     "write_datasheet",
     "write_library_datasheet",
 ]
@@ -85,34 +87,7 @@ def _anchor(name: str) -> str:
 
 def _fmt(value: Any) -> str:
     """A table number: 4 significant digits, 'n/a' when missing or undefined."""
-    if value is None:
-        return "n/a"
-    if isinstance(value, (bool, np.bool_)):
-        return "yes" if value else "no"
-    if isinstance(value, (int, np.integer)):
-        return str(int(value))
-    number = float(value)
-    if math.isnan(number):
-        return "n/a"
-    if math.isinf(number):
-        return "inf" if number > 0 else "-inf"
-    return f"{number:.4g}"
-
-
-def worst_metrics(cell: CellResult) -> dict[str, float]:
-    """Per metric, the worst value over the cell's corners (direction from METRICS.better).
-
-    NaN values are ignored; a metric undefined at every corner is NaN.
-    """
-    worst: dict[str, float] = {}
-    for info in METRICS:
-        values = np.array([c.metrics.get(info.name, np.nan) for c in cell.corners], dtype=float)
-        values = values[~np.isnan(values)]
-        if values.size == 0:
-            worst[info.name] = math.nan
-        else:
-            worst[info.name] = float(values.min() if info.better == "higher" else values.max())
-    return worst
+    return format_value(value, empty="n/a")
 
 
 # ----------------------------------------------------------------------------- plots
@@ -183,7 +158,7 @@ def _plot_ceff_esr(cell: CellResult, key: str) -> str:
         with np.errstate(divide="ignore", invalid="ignore"):
             c_eff = -1.0 / (2 * np.pi * freq * z.imag)
         c_eff = np.where(np.isfinite(c_eff) & (c_eff > 0), c_eff, np.nan)
-        ax_c.semilogx(freq, c_eff * 1e15, color=colour, label=result.corner)
+        ax_c.semilogx(freq, from_si(c_eff, "fF"), color=colour, label=result.corner)
         resistance = np.where(z.real > 0, z.real, np.nan)
         ax_r.semilogx(freq, resistance, color=colour, label=result.corner)
         spans.append(resistance)
@@ -216,9 +191,9 @@ def _plot_cv(cell: CellResult, key: str) -> str | None:
         assert cv is not None
         colour = _PALETTE[index % len(_PALETTE)]
         ax.plot(
-            np.asarray(cv.bias_V), np.asarray(cv.cap_F) * 1e15, color=colour, label=result.corner
+            np.asarray(cv.bias_V), from_si(np.asarray(cv.cap_F), "fF"), color=colour, label=result.corner
         )
-        ax.plot([cv.operating_bias_V], [cv.operating_cap_F * 1e15], "o", color=colour)
+        ax.plot([cv.operating_bias_V], [from_si(cv.operating_cap_F, "fF")], "o", color=colour)
     ax.set_xlabel("gate-to-body bias (V)")
     ax.set_ylabel("C (fF)")
     ax.set_title("quasi-static C-V (dots: operating point)")
@@ -229,7 +204,7 @@ def _plot_cv(cell: CellResult, key: str) -> str | None:
 
 def _plot_library(cells: Sequence[CellResult], key: str) -> str:
     fig, ax = _figure()
-    worst = [worst_metrics(c) for c in cells]
+    worst = [corner_metrics(c, "worst") for c in cells]
     x = np.array([w["cap_density_fF_per_um2"] for w in worst], dtype=float)
     y = np.array([w["leakage_nA_per_nF"] for w in worst], dtype=float)
     safe = np.array([c.esd_safe for c in cells], dtype=bool)
@@ -261,7 +236,7 @@ def _cell_table(cell: CellResult) -> str:
         ("ESD safe (no gate tied to a rail)", "yes" if cell.esd_safe else "no"),
     ]
     rows += [
-        (f"{name} ({info.unit})", _fmt(getattr(cell, name)))
+        (f"{name} ({info.unit})" if info.unit else name, _fmt(getattr(cell, name)))
         for name, info in CELL_COLUMNS.items()
         if name != "esd_safe"
     ]
@@ -277,7 +252,8 @@ def _cell_table(cell: CellResult) -> str:
 def _metrics_table(corners: Sequence[CornerResult]) -> str:
     head = "".join(f'<th scope="col">{_text(c.corner)}</th>' for c in corners)
     conditions = "".join(
-        f"<td>{_fmt(c.temperature_C)} degC, {_fmt(c.supply_V)} V</td>" for c in corners
+        f"<td>{_fmt(c.temperature_C)} {unit_of('temperature_C')}, {_fmt(c.supply_V)} {unit_of('supply_V')}</td>"
+        for c in corners
     )
     rows = [f'<tr><th scope="row">conditions</th><td></td><td></td>{conditions}</tr>']
     for info in METRICS:
@@ -403,18 +379,23 @@ def _summary_table(cells: Sequence[CellResult], corner: str | None) -> str:
     units = {m.name: m.unit for m in METRICS}
     shown = [m for m in _SUMMARY_METRICS if m in units]
     head = "".join(f'<th scope="col">{_text(m)} ({_text(units[m])})</th>' for m in shown)
+    every = corner is None  # no corner singled out: a row per cell and corner
     rows = []
     for cell in cells:
-        values = worst_metrics(cell) if corner is None else cell.corner(corner).metrics
-        tds = "".join(f"<td>{_fmt(values.get(m))}</td>" for m in shown)
-        rows.append(
-            f'<tr><td><a href="#{_anchor(cell.name)}">{_text(cell.name)}</a></td>'
-            f"<td>{_text(cell.topology)}</td><td>{_fmt(cell.area_um2)}</td>"
-            f"<td>{'yes' if cell.esd_safe else 'no'}</td>{tds}</tr>"
-        )
+        picks = [c.corner for c in cell.corners] if every else [corner]
+        for pick in picks:
+            values = corner_metrics(cell, pick)
+            tds = "".join(f"<td>{_fmt(values.get(m))}</td>" for m in shown)
+            rows.append(
+                f'<tr><td><a href="#{_anchor(cell.name)}">{_text(cell.name)}</a></td>'
+                + (f"<td>{_text(pick)}</td>" if every else "")
+                + f"<td>{_text(cell.topology)}</td><td>{_fmt(cell.area_um2)}</td>"
+                f"<td>{'yes' if cell.esd_safe else 'no'}</td>{tds}</tr>"
+            )
     return (
-        '<table><thead><tr><th scope="col">cell</th><th scope="col">topology</th>'
-        '<th scope="col">area_um2 (um^2)</th><th scope="col">ESD safe</th>'
+        '<table><thead><tr><th scope="col">cell</th>'
+        + ('<th scope="col">corner</th>' if every else "")
+        + '<th scope="col">topology</th><th scope="col">area_um2 (um^2)</th><th scope="col">ESD safe</th>'
         f"{head}</tr></thead><tbody>{''.join(rows)}</tbody></table>"
     )
 
@@ -422,7 +403,7 @@ def _summary_table(cells: Sequence[CellResult], corner: str | None) -> str:
 def render_library_html(
     cells: Sequence[CellResult],
     deck_name: str | None,
-    corner: str | None = None,
+    corner: str | None = "worst",
     model_version: str = MODEL_VERSION,
     plots: bool = True,
     title: str | None = None,
@@ -431,11 +412,13 @@ def render_library_html(
     """Render one HTML page for a library of cells: summary table, overview plot, a section
     per cell (the datasheet body).
 
-    ``corner`` selects the corner of the summary table; ``None`` shows, per metric, the worst
-    value over corners.
+    ``corner`` selects the values of the summary table (``celllab.columns`` corner
+    selectors): a corner name, "worst" / "best" per metric over the corners (default worst),
+    or None for a row per corner.
     """
     heading = title or f"celllab cell library: {deck_name or 'unknown deck'}"
-    which = f"corner {corner}" if corner else "worst over corners, per metric"
+    which = {"worst": "worst over corners, per metric", "best": "best over corners, per metric",
+             None: "every corner"}.get(corner, f"corner {corner}")
     parts = [
         f"<h1>{_text(heading)}</h1>",
         _meta_line(deck_name, model_version, generated_utc),

@@ -7,7 +7,6 @@ the document through those pydantic models, so its output always validates again
 
 from __future__ import annotations
 
-import math
 import os
 from collections.abc import Iterable, Sequence
 from pathlib import Path
@@ -16,18 +15,12 @@ from typing import Any
 import numpy as np
 
 from celllab import MODEL_VERSION, __version__
+from celllab.display import finite_or_none
 from celllab.export import CAUTION, atomic_write_text
 from celllab.export.schema import CellsDocument
 from celllab.records import METRIC_NAMES, METRICS, CellResult, CornerResult
 
 __all__ = ["cells_document", "render_json", "write_json"]
-
-
-def _number(value: Any) -> float | None:
-    if value is None:
-        return None
-    number = float(value)
-    return number if math.isfinite(number) else None
 
 
 def _numbers(values: Any) -> list[float | None]:
@@ -53,7 +46,7 @@ def _plain(value: Any) -> Any:
     if isinstance(value, (int, np.integer)):
         return int(value)
     if isinstance(value, (float, np.floating)):
-        return _number(value)
+        return finite_or_none(value)
     return value
 
 
@@ -69,7 +62,7 @@ def _circuit(netlist: Any) -> list[dict[str, Any]] | None:
             "name": el.name,
             "kind": el.kind,
             "nodes": [ports.get(n, n) for n in el.nodes],
-            "values": {k: _number(v) for k, v in element_values(el).items()},
+            "values": {k: finite_or_none(v) for k, v in element_values(el).items()},
         }
         for el in netlist.elements
     ]
@@ -89,14 +82,14 @@ def _corner(result: CornerResult, include_curves: bool, netlist: Any) -> dict[st
             cv = {
                 "bias_V": _numbers(result.cv.bias_V),
                 "cap_F": _numbers(result.cv.cap_F),
-                "operating_bias_V": _number(result.cv.operating_bias_V),
-                "operating_cap_F": _number(result.cv.operating_cap_F),
+                "operating_bias_V": finite_or_none(result.cv.operating_bias_V),
+                "operating_cap_F": finite_or_none(result.cv.operating_cap_F),
             }
     return {
         "corner": result.corner,
-        "temperature_C": _number(result.temperature_C),
-        "supply_V": _number(result.supply_V),
-        "metrics": {m: _number(result.metrics.get(m)) for m in METRIC_NAMES},
+        "temperature_C": finite_or_none(result.temperature_C),
+        "supply_V": finite_or_none(result.supply_V),
+        "metrics": {m: finite_or_none(result.metrics.get(m)) for m in METRIC_NAMES},
         "flags": [str(f) for f in result.flags],
         "response": response,
         "cv": cv,
@@ -116,11 +109,13 @@ def _cell(cell: CellResult, include_curves: bool) -> dict[str, Any]:
         "family": cell.family,
         "topology": cell.topology,
         "oxide": cell.oxide,
+        "placement": cell.placement,
+        "rail": cell.rail,
         "geometry": _plain(cell.geometry),
-        "area_um2": _number(cell.area_um2),
+        "area_um2": finite_or_none(cell.area_um2),
         "width_sites": int(cell.width_sites),
         "height_rows": int(cell.height_rows),
-        "gate_area_um2": _number(cell.gate_area_um2),
+        "gate_area_um2": finite_or_none(cell.gate_area_um2),
         "esd_safe": bool(cell.esd_safe),
         "notes": [str(n) for n in cell.notes],
         "corners": [_corner(c, include_curves, circuits.get(c.corner)) for c in cell.corners],

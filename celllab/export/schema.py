@@ -18,17 +18,27 @@ import os
 from pathlib import Path
 from typing import Any, Literal
 
-from pydantic import BaseModel, ConfigDict, Field, create_model
+from pydantic import BaseModel, Field, create_model
 
+from celllab.columns import CORNER_COLUMNS, METRICS
 from celllab.export import CAUTION, atomic_write_text
-from celllab.records import METRICS
+from celllab.strict import StrictModel
 
 FORMAT_NAME: Literal["celllab.cells"] = "celllab.cells"
 FORMAT_VERSION: Literal[1] = 1
 SCHEMA_DIALECT = "https://json-schema.org/draft/2020-12/schema"
 
 from celllab.cells.schema import OxideChoice as Oxide  # noqa: E402  (one closed set, defined once)
-from celllab.cells.schema import Topology  # noqa: E402
+from celllab.topologies import REGISTRY  # noqa: E402
+from celllab.topologies.geometry import Placement  # noqa: E402
+
+#: The topologies known when the export format was loaded (an enum in the JSON Schema).
+Topology = Literal[REGISTRY.names()]  # type: ignore[valid-type]
+
+def _described(name: str) -> str:
+    column = CORNER_COLUMNS[name]
+    return f"{column.description} [{column.unit}]"
+
 
 #: JSON has no NaN/inf; those are written as null.
 Number = float | None
@@ -46,11 +56,7 @@ __all__ = [
 ]
 
 
-class _Strict(BaseModel):
-    model_config = ConfigDict(extra="forbid")
-
-
-class ResponseExport(_Strict):
+class ResponseExport(StrictModel):
     """Small-signal impedance between the rails, Z = z_real_ohm + j z_imag_ohm."""
 
     freq_Hz: list[Number] = Field(description="frequency points [Hz], increasing")
@@ -58,7 +64,7 @@ class ResponseExport(_Strict):
     z_imag_ohm: list[Number] = Field(description="Im Z at each frequency [ohm]")
 
 
-class CVExport(_Strict):
+class CVExport(StrictModel):
     """Quasi-static capacitance versus gate-to-body bias, and the operating point."""
 
     bias_V: list[Number] = Field(description="gate-to-body bias [V]")
@@ -69,7 +75,7 @@ class CVExport(_Strict):
 
 MetricsExport: type[BaseModel] = create_model(  # type: ignore[call-overload]
     "MetricsExport",
-    __config__=ConfigDict(extra="forbid"),
+    __base__=StrictModel,
     __doc__="Per-corner metrics; null when undefined or not finite.",
     **{
         m.name: (Number, Field(description=f"{m.description} [{m.unit}]; {m.better} is better"))
@@ -78,7 +84,7 @@ MetricsExport: type[BaseModel] = create_model(  # type: ignore[call-overload]
 )
 
 
-class CircuitElementExport(_Strict):
+class CircuitElementExport(StrictModel):
     """One element of a corner's equivalent circuit between the ports vdd and vss."""
 
     name: str = Field(description="element name, unique in the circuit")
@@ -92,12 +98,12 @@ class CircuitElementExport(_Strict):
     )
 
 
-class CornerExport(_Strict):
+class CornerExport(StrictModel):
     """Metrics and curves of one cell at one corner."""
 
     corner: str = Field(description="deck-defined corner name")
-    temperature_C: Number = Field(description="corner temperature [degC]")
-    supply_V: Number = Field(description="supply voltage at this corner [V]")
+    temperature_C: Number = Field(description=_described("temperature_C"))
+    supply_V: Number = Field(description=_described("supply_V"))
     metrics: MetricsExport  # type: ignore[valid-type]
     flags: list[str] = Field(description="warnings, e.g. a model used outside its range")
     response: ResponseExport | None = Field(description="Z(f), or null when omitted")
@@ -107,7 +113,7 @@ class CornerExport(_Strict):
     )
 
 
-class CellExport(_Strict):
+class CellExport(StrictModel):
     """One characterized cell variant under one deck."""
 
     name: str
@@ -115,6 +121,8 @@ class CellExport(_Strict):
     family: str
     topology: Topology
     oxide: Oxide
+    placement: Placement = Field(description="where the cell sits: core_row or open_region")
+    rail: str = Field(description="supply rail the cell decouples and was characterized at")
     geometry: dict[str, Any] = Field(description="resolved geometry in um, sites, rows")
     area_um2: Number = Field(description="cell footprint area [um^2]")
     width_sites: int = Field(description="cell width [placement sites]")
@@ -125,7 +133,7 @@ class CellExport(_Strict):
     corners: list[CornerExport] = Field(min_length=1)
 
 
-class CellsDocument(_Strict):
+class CellsDocument(StrictModel):
     """A celllab JSON export: cells characterized under one process deck."""
 
     format: Literal["celllab.cells"] = FORMAT_NAME

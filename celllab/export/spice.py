@@ -26,9 +26,12 @@ from typing import Any
 import numpy as np
 
 from celllab import MODEL_VERSION, __version__
+from celllab.columns import unit_of
+from celllab.display import corner_conditions, format_value
 from celllab.export import CAUTION, atomic_write_text
 from celllab.physics.netlist import Element, Netlist, ladder_expansion, solve_impedance
-from celllab.records import METRIC_BY_NAME, CellResult, CornerResult
+from celllab.records import CellResult, CornerResult
+from celllab.units import to_si
 
 __all__ = [
     "DEFAULT_N_SEGMENTS",
@@ -118,19 +121,19 @@ def metric_model_netlist(cell: CellResult, corner: str | None = None) -> Netlist
     result = cell.corner(corner) if corner is not None else cell.corners[0]
     m = result.metrics
 
-    def positive(key: str, scale: float) -> float | None:
+    def positive(key: str, unit: str) -> float | None:
         value = m.get(key)
         if value is None or not math.isfinite(value) or value <= 0:
             return None
-        return float(value) * scale
+        return float(to_si(float(value), unit))
 
-    cap = positive("cap_fF", 1e-15)
+    cap = positive("cap_fF", "fF")
     if cap is None:
         raise ValueError(f"cell {cell.name!r}: no circuit stored and no usable cap_fF")
     esl, esr, leak = (
-        positive("esl_pH", 1e-12),
-        positive("esr_ohm", 1.0),
-        positive("leakage_nA", 1e-9),
+        positive("esl_pH", "pH"),
+        positive("esr_ohm", "ohm"),
+        positive("leakage_nA", "nA"),
     )
     elements: list[Element] = []
     node = "vdd"
@@ -224,9 +227,8 @@ def _comment_lines(text: str) -> list[str]:
 
 
 def _metric_text(value: float, unit: str) -> str:
-    if math.isnan(value):
-        return "n/a"
-    return f"{value:.4g} {unit}"
+    text = format_value(value, empty="n/a")
+    return text if text == "n/a" else f"{text} {unit}"
 
 
 def _max_freq(cell: CellResult) -> float | None:
@@ -351,13 +353,12 @@ def render_spice_subckt(
     ]
     if result is not None:
         header.append(
-            f"corner {result.corner} (T = {result.temperature_C:g} degC, supply = "
-            f"{result.supply_V:g} V):"
+            f"corner {result.corner} ({corner_conditions(result.temperature_C, result.supply_V)}):"
         )
         header += [
-            f"  {m} = {_metric_text(result.metrics[m], METRIC_BY_NAME[m].unit)}"
+            f"  {m} = {_metric_text(result.metrics[m], unit_of(m))}"
             for m in _HEADLINE_METRICS
-            if m in result.metrics and m in METRIC_BY_NAME
+            if m in result.metrics
         ]
         deviation = _deviation(netlist, result)
         if deviation is not None:

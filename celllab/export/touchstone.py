@@ -18,6 +18,7 @@ from pathlib import Path
 import numpy as np
 
 from celllab import MODEL_VERSION, __version__
+from celllab.display import corner_conditions
 from celllab.export import CAUTION, atomic_write_text
 from celllab.export.files import file_stem
 from celllab.records import CellResult, CornerResult
@@ -84,7 +85,7 @@ def render_touchstone(
         _comment(f"celllab {__version__}: rail impedance Z(vdd, vss) of cell {cell.name}"),
         _comment(
             f"deck: {deck_name or 'unknown'}; corner: {result.corner} "
-            f"(T = {result.temperature_C:g} degC, supply = {result.supply_V:g} V)"
+            f"({corner_conditions(result.temperature_C, result.supply_V)})"
         ),
         _comment(f"topology: {cell.topology}; oxide: {cell.oxide}; cell hash: {cell.cell_hash}"),
         _comment(f"models: {model_version}"),

@@ -11,7 +11,7 @@ from typing import Final
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
-from scipy.constants import e, k
+from scipy.constants import centi, e, k
 
 FloatArray = NDArray[np.float64]
 
@@ -23,7 +23,7 @@ EPS_R_SI: Final[float] = 11.7
 manual (EPSRSUB default) and by Taur & Ning 2009; Sze & Ng 2007 tabulates 11.9. Pass
 ``eps_r_si=11.9`` where a textbook example uses it."""
 
-N_I_300K: Final[float] = 9.65e15
+N_I_300K: Final[float] = 9.65e9 * (1 / centi) ** 3
 """Intrinsic carrier density of Si at 300 K, m^-3 (9.65e9 cm^-3; Altermatt et al., J. Appl.
 Phys. 93, 1598, 2003; also used by Sze & Ng 2007)."""
 

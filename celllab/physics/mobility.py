@@ -6,7 +6,7 @@ from typing import Literal
 
 import numpy as np
 from numpy.typing import ArrayLike
-from scipy.constants import epsilon_0
+from scipy.constants import centi, epsilon_0
 
 from celllab.physics.constants import EPS_R_SI, FloatArray
 
@@ -20,8 +20,8 @@ KT1_DEFAULT: float = -0.11
 # Universal-mobility fit (Chen, Wann, ..., Hu, Solid-State Electron. 39(10):1515, 1996), SI.
 # Coefficients recalled from the paper / Hu 2010 text, not re-checked against the source.
 _UNIVERSAL = {
-    "electron": (540e-4, 0.9e8, 1.85),  # mu_max m^2/Vs, E_crit V/m, exponent
-    "hole": (185e-4, 0.45e8, 1.0),
+    "electron": (540 * centi**2, 0.9e8, 1.85),  # mu_max 540 cm^2/Vs in m^2/Vs, E_crit V/m, exponent
+    "hole": (185 * centi**2, 0.45e8, 1.0),
 }
 _TAKAGI_ETA = {"electron": 0.5, "hole": 1.0 / 3.0}
 

@@ -5,11 +5,11 @@ from __future__ import annotations
 
 import numpy as np
 from numpy.typing import ArrayLike
-from scipy.constants import e, epsilon_0
+from scipy.constants import e, epsilon_0, nano
 
 from celllab.physics.constants import EPS_R_POLY, EPS_R_SI, EPS_R_SIO2, FloatArray
 
-CENTROID_MAX: float = 1.9e-9
+CENTROID_MAX: float = 1.9 * nano
 """Zero-field inversion charge thickness of the BSIM4 charge-thickness model, m."""
 CENTROID_FIELD_SCALE: float = 2.0e8
 """Denominator scale of the BSIM4 X_DC argument, V/m (the 2e8*TOXP in the manual)."""

@@ -23,7 +23,13 @@ from celllab.tui.messages import ExportFinished
 from celllab.tui.screens.about import AboutPanel
 from celllab.tui.screens.catalog import CatalogScreen
 from celllab.tui.screens.deck import DeckScreen
-from celllab.tui.screens.export import ExportContext, ExportDialog, ExportRequest, perform_export
+from celllab.tui.screens.export import (
+    FORMAT_BY_KEY,
+    ExportContext,
+    ExportDialog,
+    ExportRequest,
+    perform_export,
+)
 from celllab.tui.screens.keys import KeysOverlay
 from celllab.tui.screens.ranking import RankingScreen
 
@@ -183,7 +189,7 @@ class CelllabApp(App[None]):
     @work(thread=True, exclusive=True, group="export")
     def _export(self, request: ExportRequest, context: ExportContext) -> None:
         try:
-            if request.format == "csv":
+            if FORMAT_BY_KEY[request.format].needs_catalog:
                 with self.using_catalog() as catalog:
                     path = perform_export(request, context, catalog)
             else:

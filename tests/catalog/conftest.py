@@ -32,18 +32,20 @@ from celllab.records import (
     CVCurve,
     FrequencyResponse,
 )
+from celllab.topologies import REGISTRY
 
 BASE_DECK = Path(__file__).resolve().parents[2] / "process_decks" / "lumen130.toml"
 
-TOPOLOGIES = ("nmos_inversion", "pmos_inversion", "accumulation", "cross_coupled", "mom", "mos_mom")
-ESD_SAFE = {"cross_coupled", "mom"}
+TOPOLOGIES = REGISTRY.names()
+ESD_SAFE = REGISTRY.esd_safe_names()
 #: corner name -> (temperature_C, supply_V, speed factor on resistance, leakage factor)
 CORNERS = {
     "typ_25C": (25.0, 1.20, 1.00, 1.0),
     "slow_125C": (125.0, 1.08, 1.35, 6.0),
     "fast_m40C": (-40.0, 1.32, 0.80, 0.4),
 }
-#: fF/um^2 at the typical corner, per topology (invented, order of magnitude of thin-oxide decaps)
+#: fF/um^2 at the typical corner, per topology (invented, order of magnitude of thin-oxide decaps;
+#: a topology added later gets 5)
 DENSITY = {
     "nmos_inversion": 12.0,
     "pmos_inversion": 11.0,
@@ -93,7 +95,7 @@ def make_metrics(
 ) -> dict[str, float]:
     _temp, vdd, r_factor, leak_factor = CORNERS[corner]
     cap_fF = (
-        DENSITY[topology] * area_um2 * (0.9 if oxide == "io" else 1.0) * rng.uniform(0.97, 1.03)
+        DENSITY.get(topology, 5.0) * area_um2 * (0.9 if oxide == "io" else 1.0) * rng.uniform(0.97, 1.03)
     )
     esr = rng.uniform(2.0, 60.0) * r_factor
     esl_pH = rng.uniform(5.0, 50.0)
@@ -138,7 +140,7 @@ def make_cell(
     deck = deck or _deck(json.dumps(deck_params("invented_n7x", 1)))
     topology = TOPOLOGIES[index % len(TOPOLOGIES)]
     oxide = "io" if index % 5 == 4 else "core"
-    name = f"{SHORT[topology]}_{oxide}_{index:04d}"
+    name = f"{SHORT.get(topology, topology[:6])}_{oxide}_{index:04d}"
     spec = CellSpec.model_validate({
         "name": name, "family": family or f"fam_{'abc'[index % 3]}", "topology": topology,
         "oxide": oxide, "width_sites": int(12 + index + rng.integers(0, 2)),  # unique per index

@@ -94,16 +94,17 @@ def test_block_filter_nesting_is_a_located_block_problem(filled: Catalog, tmp_pa
     block_file = tmp_path / "block.toml"
     block_file.write_text(
         "[block]\n"
-        f'name = "b1"\ndeck = "{deck}"\nempty_sites = 1000\nrow_sites = 100\nsupply_V = 1.2\n'
+        f'name = "b1"\ndeck = "{deck}"\nsupply_V = 1.2\n'
         "switching_power_W = 0.1\nclock_GHz = 1.0\nactivity = 0.1\ncurrent_step_A = 0.1\n"
-        "ripple_fraction = 0.05\npackage_inductance_nH = 0.5\npackage_resistance_mohm = 10\n"
-        "leakage_budget_uA = 100\n\n[fill]\n"
-        f'where = "{where}"\n'
+        "ripple_fraction = 0.05\npackage_inductance_nH = 0.5\npackage_resistance_mohm = 10\n\n"
+        f'[candidates]\nwhere = "{where}"\n\n'
+        '[[region]]\nname = "r1"\nclock_MHz = 100\n\n'
+        '[[region.row_gaps]]\nname = "g"\nheight_rows = 1\nwidth_sites = [40]\ncount = [10]\n'
     )
     with pytest.raises(PlanError) as info:
         plan_block(load_block(block_file), filled)
     messages = [str(p) for p in info.value.problems]
-    assert any("fill.where" in m and f"at most {MAX_NESTING}" in m for m in messages)
+    assert any("candidates.where" in m and f"at most {MAX_NESTING}" in m for m in messages)
 
 
 def test_sqlite_limits_are_reported_as_a_filter_problem(

@@ -15,7 +15,6 @@ from celllab.catalog import Catalog
 from celllab.catalog.filters import (
     FIELDS,
     OXIDES,
-    TOPOLOGIES,
     And,
     Compare,
     Everything,
@@ -33,6 +32,7 @@ from celllab.catalog.filters import (
 )
 from celllab.errors import CatalogError, FilterError
 from celllab.records import METRIC_NAMES
+from celllab.topologies import REGISTRY
 
 
 @pytest.mark.parametrize(
@@ -194,7 +194,7 @@ def test_order_by_and_deck_are_not_injectable(filled: Catalog) -> None:
 # ---------------------------------------------------------------- SQL = Python on random filters
 
 NUMERIC = [f for f, k in FIELDS.items() if k == "number"]
-TEXT_POOL = {"topology": list(TOPOLOGIES), "oxide": list(OXIDES)}
+TEXT_POOL = {"topology": list(REGISTRY), "oxide": list(OXIDES)}
 OTHER_TEXT = ["a", "b", "ab", "ba", "x_1", "mom", "fam_a"]
 NUMBERS = [0.0, 1.0, 2.5, -3.0, 1000.0, 0.1, 7.0, 1e-05]
 

@@ -216,3 +216,14 @@ def test_sql_builder_is_parameterized() -> None:
     assert "d'x" not in sql and "q'" not in sql and "slow_125C" not in sql
     assert params[-2:] == [3, 6] and "d'x" in params and "q'" in params
     assert 'ORDER BY r."esr_ohm" ASC NULLS LAST' in sql  # lower is better -> ascending
+
+
+def test_name_taken_and_identical_cell(two_deck_catalog: Any) -> None:
+    cat, runs = two_deck_catalog
+    cell, deck = runs[0].cells[3], runs[0].deck_name
+    assert cat.name_taken(cell.name, deck) and cat.name_taken(cell.name, runs[0].deck_hash)
+    assert cat.name_taken(cell.name, runs[1].deck_name) == (cell.name in {c.name for c in runs[1].cells})
+    assert not cat.name_taken("no_such_cell", deck) and not cat.name_taken(cell.name, "no_such_deck")
+    assert cat.identical_cell(cell.cell_hash, deck) == cell.name
+    assert cat.identical_cell("0" * 16, deck) is None
+    assert cat.identical_cell(cell.cell_hash, "no_such_deck") is None

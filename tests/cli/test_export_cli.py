@@ -134,7 +134,7 @@ def test_cells_option_and_suggestions(catalog_path, tmp_path, capsys):
     bad = tmp_path / "bad.csv"
     assert export(catalog_path, "csv", "--cells", "DC_MOM3", "--out", str(bad)) == 2
     err = capsys.readouterr().err
-    assert "DC_MOM3" in err and "did you mean DC_MOM_3" in err
+    assert "DC_MOM3" in err and "did you mean 'DC_MOM_3'" in err
     assert "Traceback" not in err
     assert not bad.exists()
 

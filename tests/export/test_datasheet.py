@@ -2,21 +2,20 @@
 
 from __future__ import annotations
 
-import math
 import xml.etree.ElementTree as ET
 from html.parser import HTMLParser
 
 import pytest
 
+from celllab.display import format_value
 from celllab.export import CAUTION
 from celllab.export.datasheet import (
     render_datasheet_html,
     render_library_html,
-    worst_metrics,
     write_datasheet,
     write_library_datasheet,
 )
-from celllab.records import METRICS
+from celllab.records import METRICS, corner_metrics
 
 #: HTML5 void elements (WHATWG HTML, "Void elements"): never closed.
 VOID = {
@@ -105,7 +104,7 @@ def test_cell_datasheet_parses_and_carries_the_caution(library, deck_name):
     assert checker.doctype.lower() == "doctype html"
     text = checker.plain_text
     assert " ".join(CAUTION.split()) in text
-    assert text.count("These are engineering estimates") >= 2  # top and bottom
+    assert text.count(" ".join(CAUTION.split())) >= 2  # top and bottom
     assert cell.name in text and deck_name in text
 
 
@@ -166,19 +165,18 @@ def test_library_summary_uses_the_chosen_corner(library, deck_name):
     assert StrictChecker().check(page).problems == []
 
 
-def test_worst_metrics_picks_the_worse_direction(library):
-    # Common practice, no source: 'worst' = min of a higher-is-better metric, max otherwise.
-    cell = library[0]
-    worst = worst_metrics(cell)
-    for info in METRICS:
-        values = [
-            c.metrics[info.name] for c in cell.corners if not math.isnan(c.metrics[info.name])
-        ]
-        if not values:
-            assert math.isnan(worst[info.name])
-            continue
-        expected = min(values) if info.better == "higher" else max(values)
-        assert worst[info.name] == expected
+def test_library_summary_defaults_to_the_worst_values(library, deck_name):
+    page = render_library_html(library, deck_name, plots=False)
+    assert "worst over corners, per metric" in page
+    worst = corner_metrics(library[0], "worst")["cap_fF"]
+    assert f"<td>{format_value(worst, empty='n/a')}</td>" in page
+
+
+def test_library_summary_without_a_corner_lists_every_corner(library, deck_name):
+    page = render_library_html(library, deck_name, corner=None, plots=False)
+    assert "every corner" in page and StrictChecker().check(page).problems == []
+    for corner in library[0].corners:
+        assert f"<td>{corner.corner}</td>" in page
 
 
 def test_output_is_reproducible(library, deck_name):

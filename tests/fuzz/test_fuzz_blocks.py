@@ -33,15 +33,21 @@ def edited_blocks(draw: st.DrawFn) -> dict[str, Any]:
         data = edit(data, draw(st.sampled_from(["set", "set", "delete", "extra"])), path, draw(values()))
     if draw(st.integers(0, 9)) == 0:
         depth = draw(st.sampled_from([10, 60, 400]))
-        fill = data.get("fill") if isinstance(data.get("fill"), dict) else {}
-        data = {**data, "fill": {**fill, "where": "(" * depth + "esd_safe" + ")" * depth}}
+        candidates = data.get("candidates") if isinstance(data.get("candidates"), dict) else {}
+        data = {**data, "candidates": {**candidates, "where": "(" * depth + "esd_safe" + ")" * depth}}
     return data
 
 
-def _finite_numbers(block: Any) -> bool:
-    dumped = block.model_dump()
-    return all(math.isfinite(v) for table in dumped.values() for v in table.values()
-               if isinstance(v, float))
+def _numbers(node: Any) -> list[float]:
+    if isinstance(node, dict):
+        return [x for v in node.values() for x in _numbers(v)]
+    if isinstance(node, (list, tuple)):
+        return [x for v in node for x in _numbers(v)]
+    return [float(node)] if isinstance(node, (int, float)) and not isinstance(node, bool) else []
+
+
+def _finite_numbers(model: Any) -> bool:
+    return all(math.isfinite(v) for v in _numbers(model.model_dump()))
 
 
 @fuzz_settings("block_data")

@@ -24,10 +24,12 @@ from pydantic import BaseModel
 from celllab.catalog.store import prepare_cell, validate_run
 from celllab.catalog.validate import metric_problem
 from celllab.cells import parse_cells, resolve
-from celllab.cells.schema import GEOMETRY_FIELDS, TOPOLOGIES
+from celllab.cells.schema import GEOMETRY_FIELDS
 from celllab.deck import Deck, load_deck, numeric_paths
 from celllab.engine import characterize
 from celllab.errors import CellError, DeckError
+from celllab.topologies import REGISTRY
+from celllab.topologies.geometry import PLACEMENTS
 
 from .conftest import fuzz_settings
 from .strategies import assert_located, pick, scalars
@@ -40,6 +42,7 @@ FILE = "fuzz_cells.toml"
 PLAUSIBLE: dict[str, st.SearchStrategy[Any]] = {
     "width_sites": st.sampled_from([2, 8, 12, 16, 24, 40, 64]),
     "height_rows": st.sampled_from([1, 1, 2, 3]),
+    "placement": st.sampled_from(PLACEMENTS),
     "fingers": st.sampled_from([1, 2, 3, 4, 8]),
     "gate_length_um": st.sampled_from([0.05, 0.12, 0.2, 0.35, 0.5, 1.0, 3.0]),
     "gate_width_um": st.sampled_from([0.1, 0.12, 0.3, 0.8, 1.5, 5.0]),
@@ -69,14 +72,13 @@ NAMES_PLAIN = st.sampled_from(["fa", "fb", "fc"])
 NAMES_ROUGH = st.one_of(st.sampled_from(["fa", "x1", "9bad", "a" * 90, "b\x1bc"]), st.text(max_size=6))
 TOPOLOGY_ROUGH = st.one_of(st.sampled_from(["nmos_inv", "", "MOM"]), st.text(max_size=5))
 OXIDES = ["core", "io"]
-_COMMON = ["width_sites", "height_rows", "contacted_ends"]
-_GATE = ["fingers", "gate_length_um", "gate_width_um", "gate_contacted_ends"]
-_FINGERS = ["mom_bottom", "mom_top", "finger_width_um", "finger_space_um", "mom_alternate"]
-FIELDS_OF = {
-    "nmos_inversion": _COMMON + _GATE, "pmos_inversion": _COMMON + _GATE,
-    "accumulation": [*_COMMON, *_GATE, "accumulation_well"], "cross_coupled": _COMMON + _GATE,
-    "mom": _COMMON + _FINGERS, "mos_mom": [*_COMMON, *_GATE, *_FINGERS, "mos_device"],
-}
+#: The fields each topology takes (from the registry, so a topology added later is fuzzed too).
+TOPOLOGIES = REGISTRY.names()
+FIELDS_OF = {name: sorted(REGISTRY[name].fields) for name in TOPOLOGIES}
+#: Rails: the built-in ones, tarn40lp's named rail (unknown on lumen130), and names no deck has.
+RAILS_PLAIN = ["core", "io"]
+RAILS_ROUGH = st.one_of(st.sampled_from(["", "vaux", "CORE", "io ", "r" * 30, "1v8", "core\n"]),
+                        st.text(max_size=6), scalars())
 EXTRA_KEYS = ["skip_unfit", "family", "description", "colour"]
 
 
@@ -94,6 +96,8 @@ def cell_entries(draw: st.DrawFn, hostile: bool = True) -> dict[str, Any]:
     }
     if draw(st.booleans()):
         entry["oxide"] = pick(draw, ["thick", "", "IO"]) if rough() else pick(draw, OXIDES)
+    if draw(st.integers(0, 3)) == 0:
+        entry["rail"] = draw(RAILS_ROUGH) if rough() else pick(draw, RAILS_PLAIN)
     for _ in range(draw(st.integers(0, 4))):
         if rough():
             name = pick(draw, list(GEOMETRY_FIELDS))

@@ -31,7 +31,7 @@ FILE = "fuzz_deck.toml"
 
 
 def _check_accepted(deck: Deck) -> None:
-    data = deck.model_dump(mode="json")
+    data = deck.full_dump()
     for path in numeric_paths(deck):
         node: Any = data
         for part in path.replace("[", ".").replace("]", "").split("."):

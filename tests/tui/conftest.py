@@ -29,12 +29,13 @@ from celllab.records import (
     CVCurve,
     FrequencyResponse,
 )
+from celllab.topologies import REGISTRY
 
 REPO_ROOT = Path(__file__).resolve().parents[2]
 DECK_DIR = REPO_ROOT / "process_decks"
 
-TOPOLOGIES = ("nmos_inversion", "pmos_inversion", "accumulation", "cross_coupled", "mom", "mos_mom")
-ESD_SAFE = {"cross_coupled", "mom"}
+TOPOLOGIES = REGISTRY.names()
+ESD_SAFE = REGISTRY.esd_safe_names()
 CORNERS = (("typ_25C", 25.0, 1.2), ("slow_125C", 125.0, 1.08), ("fast_m40C", -40.0, 1.32))
 SYNTHETIC_DECK = "synproc"
 N_SYNTHETIC = 240

@@ -107,6 +107,50 @@ async def test_circuit_text_and_cell_exports_from_the_cell_view(
     assert any(line.startswith("#") for line in (tmp_path / "out.s1p").read_text().splitlines())
 
 
+async def test_library_views_from_the_table_and_the_cell_view(
+        demo_catalog: Any, ui: Any, tmp_path: Path) -> None:
+    liberty_parser = pytest.importorskip("liberty.parser")
+    kdb = pytest.importorskip("klayout.db")
+    app = CelllabApp(catalog=demo_catalog, export_folder=tmp_path)
+    async with app.run_test(size=(120, 40)) as pilot:
+        await ui.settle(pilot)
+        await pilot.press("slash")
+        await ui.type_text(pilot, "topology = mom")
+        await pilot.press("enter")
+        await ui.settle(pilot)
+        await pilot.press("x")
+        await pilot.pause()
+        dialog = app.screen
+        assert isinstance(dialog, ExportDialog)
+        for fmt, suffix in (("liberty", ".lib"), ("lef", ".lef")):
+            dialog.query_one(f"#fmt-{fmt}", RadioButton).value = True
+            await pilot.pause()
+            assert dialog.query_one("#export-path", Input).value.endswith(suffix)
+        await pilot.press("escape")
+        await ui.settle(pilot)
+        # no cell open: the views hold every row of the table
+        await _export(app, pilot, ui, "liberty", tmp_path / "table.lib")
+        await _export(app, pilot, ui, "lef", tmp_path / "table.lef")
+        await pilot.press("enter")  # open the first row's cell
+        await ui.settle(pilot)
+        name = app.screen.cell.name  # type: ignore[attr-defined]
+        await _export(app, pilot, ui, "liberty", tmp_path / "cell.lib")
+        await _export(app, pilot, ui, "lef", tmp_path / "cell.lef")
+    moms = {r["name"] for r in demo_catalog.query(where="topology = mom")}
+    assert len(moms) > 1
+    plain = lambda v: getattr(v, "value", v)  # noqa: E731
+    for path, cells in ((tmp_path / "table.lib", moms), (tmp_path / "cell.lib", {name})):
+        lib = liberty_parser.parse_liberty(path.read_text(encoding="utf-8"))
+        # Source: liberty-parser (PyPI); the table ranks worst corners, so the deck's first corner
+        assert {plain(c.args[0]) for c in lib.get_groups("cell")} == cells
+        assert lib.get_group("operating_conditions").args == ["typ_25C"]
+    for path, cells in ((tmp_path / "table.lef", moms), (tmp_path / "cell.lef", {name})):
+        layout = kdb.Layout()
+        layout.read(str(path))
+        # Source: KLayout LEF reader
+        assert {c.name for c in layout.each_cell()} == cells
+
+
 def test_ui_verb_is_registered_and_builds_the_app(monkeypatch: pytest.MonkeyPatch, tmp_path: Path) -> None:
     from celllab.cli import ui as ui_verb
 

@@ -8,13 +8,7 @@ from textual.containers import Horizontal, VerticalScroll
 from textual.screen import ModalScreen
 from textual.widgets import Button, Markdown
 
-from celllab import MODEL_VERSION, __version__
-
-CAUTION = (
-    "Engineering estimates from analytic models, not sign-off; defer to the foundry's design "
-    "rules, qualified device models, ESD/reliability qualification standards and licensed "
-    "practice."
-)
+from celllab import CAUTION, MODEL_VERSION, __version__
 
 ABOUT_TEXT = f"""\
 ## celllab {__version__}

@@ -15,8 +15,8 @@ from textual.timer import Timer
 from textual.widgets import Footer, Label, Select, Static
 from textual.worker import get_current_worker
 
+from celllab.columns import CELL_COLUMNS, METRIC_NAMES, best_first_descending
 from celllab.errors import CelllabError, FilterError
-from celllab.records import CELL_COLUMNS, METRIC_BY_NAME, METRIC_NAMES
 from celllab.tui.messages import (
     CellChosen,
     DecksLoaded,
@@ -44,12 +44,6 @@ DEFAULT_COLUMNS: tuple[str, ...] = (
 )
 SORTABLE: tuple[str, ...] = ("name", *CELL_COLUMNS, *METRIC_NAMES)
 EXAMPLE_FILTER = "esd_safe and leakage_nA_per_nF <= 50"
-
-
-def better_descending(column: str) -> bool:
-    """Sort direction that puts the best values first."""
-    info = METRIC_BY_NAME.get(column) or CELL_COLUMNS.get(column)
-    return bool(info and info.better == "higher")
 
 
 def check_filter(text: str) -> str | None:
@@ -89,7 +83,7 @@ class CatalogScreen(TaskScreen):
         super().__init__()
         self.columns: tuple[str, ...] = DEFAULT_COLUMNS
         self.order_by = "cap_density_fF_per_um2"
-        self.descending = better_descending(self.order_by)
+        self.descending = best_first_descending(self.order_by)
         self.where = ""
         self.total: int | None = 0
         self.row_offset = 0
@@ -358,7 +352,7 @@ class CatalogScreen(TaskScreen):
 
     def sort_by(self, column: str, descending: bool | None = None) -> None:
         if descending is None:
-            descending = (not self.descending) if column == self.order_by else better_descending(column)
+            descending = (not self.descending) if column == self.order_by else best_first_descending(column)
         self.order_by, self.descending = column, descending
         self.request_page(0, count=False)
 
@@ -377,7 +371,7 @@ class CatalogScreen(TaskScreen):
 
         def picked(column: str | None) -> None:
             if column:
-                self.sort_by(column, better_descending(column))
+                self.sort_by(column, best_first_descending(column))
 
         self.app.push_screen(ChoicePicker("Sort by (best first; r reverses)", choices,
                                           self.order_by), picked)

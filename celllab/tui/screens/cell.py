@@ -15,6 +15,7 @@ from textual.binding import Binding
 from textual.containers import VerticalScroll
 from textual.widgets import DataTable, Footer, Static, TabbedContent, TabPane, TextArea
 
+from celllab import CAUTION_SHORT
 from celllab.errors import CelllabError
 from celllab.records import METRICS, CellResult
 from celllab.tui.messages import CellLoaded, QueryFailed
@@ -22,6 +23,7 @@ from celllab.tui.screens.base import TaskScreen
 from celllab.tui.widgets.plot import Marker, PlotSpec, PlotView, Series
 from celllab.tui.widgets.task_bar import TaskBar
 from celllab.tui.widgets.values import format_number, value_text
+from celllab.units import from_si, to_si
 
 #: Tab ids in display order ([ and ] step through them).
 TABS: tuple[tuple[str, str], ...] = (
@@ -48,11 +50,12 @@ def cv_plot(cells: Sequence[tuple[str, CellResult]], corner: str | None = None) 
         for c in chosen:
             if c.cv is None:
                 continue
-            series.append(Series(np.asarray(c.cv.bias_V), np.asarray(c.cv.cap_F) * 1e15,
+            cap_fF = from_si(float(c.cv.operating_cap_F), "fF")
+            series.append(Series(np.asarray(c.cv.bias_V), from_si(np.asarray(c.cv.cap_F), "fF"),
                                  f"{label} {c.corner}" if label else c.corner))
-            markers.append(Marker(float(c.cv.operating_bias_V), float(c.cv.operating_cap_F) * 1e15,
+            markers.append(Marker(float(c.cv.operating_bias_V), cap_fF,
                                   f"operating point ({format_number(c.cv.operating_bias_V)} V, "
-                                  f"{format_number(c.cv.operating_cap_F * 1e15)} fF)"
+                                  f"{format_number(cap_fF)} fF)"
                                   if len(cells) == 1 else "operating point"))
     return PlotSpec(title="C-V", x_label="V_gb [V]", y_label="C [fF]", series=tuple(series),
                     markers=tuple(markers),
@@ -71,8 +74,9 @@ def impedance_plot(cells: Sequence[tuple[str, CellResult]], corners: Sequence[st
             z = np.abs(np.asarray(c.response.z_ohm))
             series.append(Series(f, z, f"{label} {c.corner}".strip()))
             srf = c.metrics.get("srf_GHz")
-            if srf is not None and math.isfinite(srf) and f.size and f[0] <= srf * 1e9 <= f[-1]:
-                markers.append(Marker(srf * 1e9, float(np.interp(srf * 1e9, f, z)), "self-resonance"))
+            srf_Hz = to_si(srf, "GHz") if srf is not None else math.nan
+            if math.isfinite(srf_Hz) and f.size and f[0] <= srf_Hz <= f[-1]:
+                markers.append(Marker(srf_Hz, float(np.interp(srf_Hz, f, z)), "self-resonance"))
     return PlotSpec(title="|Z|(f)", x_label="f [Hz]", y_label="|Z| [ohm]", x_log=True, y_log=True,
                     series=tuple(series[:4]), markers=tuple(markers[:4]))
 
@@ -86,12 +90,13 @@ def ceff_plot(cells: Sequence[tuple[str, CellResult]], corners: Sequence[str] | 
                 continue
             f = np.asarray(c.response.freq_Hz)
             with np.errstate(divide="ignore", invalid="ignore"):
-                ceff = c.response.c_eff_F() * 1e15
+                ceff = from_si(c.response.c_eff_F(), "fF")
             series.append(Series(f, np.where(ceff > 0, ceff, np.nan), f"{label} {c.corner}".strip()))
             bw = c.metrics.get("bandwidth_GHz")
             cap = c.metrics.get("cap_fF")
-            if bw is not None and cap is not None and math.isfinite(bw) and f.size and f[0] <= bw * 1e9 <= f[-1]:
-                markers.append(Marker(bw * 1e9, cap / math.sqrt(2), "bandwidth (C/√2)"))
+            bw_Hz = to_si(bw, "GHz") if bw is not None else math.nan
+            if cap is not None and math.isfinite(bw_Hz) and f.size and f[0] <= bw_Hz <= f[-1]:
+                markers.append(Marker(bw_Hz, cap / math.sqrt(2), "bandwidth (C/√2)"))
     return PlotSpec(title="C_eff(f)", x_label="f [Hz]", y_label="C_eff [fF]", x_log=True,
                     y_log=True, series=tuple(series[:4]), markers=tuple(markers[:4]))
 
@@ -184,7 +189,7 @@ def flags_table(cell: CellResult) -> Table | Text:
             where.setdefault(flag, []).append(c.corner)
     if not where and not cell.notes:
         return Text("No validity flags: every model was used inside its stated range at every "
-                    "corner.\n\nThe numbers remain engineering estimates, not sign-off.",
+                    "corner.\n\n" + CAUTION_SHORT,
                     style="green")
     table = Table(expand=True, box=None, padding=(0, 1), show_lines=True)
     table.add_column("flag", no_wrap=True, style="yellow")
@@ -291,7 +296,7 @@ class CellScreen(TaskScreen):
         for info in METRICS:
             values = [c.metrics.get(info.name) for c in cell.corners]
             name = Text(info.name)
-            name.append(" ↑" if info.better == "higher" else " ↓", style="dim")
+            name.append(f" {info.arrow}", style="dim")
             table.add_row(name, *[value_text(v) for v in values], key=info.name)
 
     # --- actions ------------------------------------------------------------------------

@@ -16,19 +16,14 @@ from textual.containers import Horizontal, Vertical
 from textual.widgets import DataTable, Footer, OptionList, Static, TabbedContent, TabPane
 from textual.widgets.option_list import Option
 
+from celllab.columns import CORNER_COLUMNS
 from celllab.errors import CelllabError, Problem
 from celllab.tui.messages import CatalogDecksLoaded
 from celllab.tui.screens.base import TaskScreen
 from celllab.tui.widgets.problems_view import ProblemsView
 from celllab.tui.widgets.task_bar import TaskBar
+from celllab.units import unit_from_name
 
-#: Unit suffixes of deck parameter names (longest first), for names without a described unit.
-_SUFFIX_UNITS: tuple[tuple[str, str], ...] = (
-    ("_cm2_per_Vs", "cm^2/(V s)"), ("_fF_per_um", "fF/um"), ("_MV_per_cm", "MV/cm"),
-    ("_A_per_cm2", "A/cm^2"), ("_ohm_per_sq", "ohm/sq"), ("_per_V", "1/V"), ("_um2", "um^2"),
-    ("_cm3", "cm^-3"), ("_ohm", "ohm"), ("_nm", "nm"), ("_um", "um"), ("_eV", "eV"),
-    ("_V", "V"), ("_C", "degC"), ("_s", "s"),
-)
 _PART = re.compile(r"\.|\[|\]")
 
 
@@ -84,11 +79,7 @@ def unit_of(path: str, description: str = "") -> str:
         tail = description.rsplit(", ", 1)[1].strip()
         if tail == "unitless" or (0 < len(tail) <= 14 and " " not in tail.replace("(V s)", "(Vs)")):
             return tail
-    name = _split(path)[-1] if path else ""
-    for suffix, unit in _SUFFIX_UNITS:
-        if name.endswith(suffix):
-            return unit
-    return ""
+    return unit_from_name(_split(path)[-1]) if path else ""
 
 
 def flatten(data: Any, prefix: str = "") -> list[tuple[str, Any]]:
@@ -253,7 +244,7 @@ class DeckScreen(TaskScreen):
     def _fill_corners(self, entry: DeckEntry) -> None:
         table = self.query_one("#deck-corners", DataTable)
         table.clear(columns=True)
-        table.add_columns("corner", Text("T [degC]", justify="right"),
+        table.add_columns("corner", Text(f"T [{CORNER_COLUMNS['temperature_C'].unit}]", justify="right"),
                           Text("supply ×", justify="right"), "changes")
         corners = (entry.params or {}).get("corners") or {}
         for name, corner in corners.items():

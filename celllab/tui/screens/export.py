@@ -23,11 +23,12 @@ class ExportFormat:
     extension: str
     needs_cell: bool
     writer: str
+    needs_catalog: bool = False        # reads the catalog (rows, or the deck of a library view)
 
 
 FORMATS: tuple[ExportFormat, ...] = (
     ExportFormat("csv", "CSV: every row of the table (current filter and corner)", "csv", False,
-                 "write_csv"),
+                 "write_csv", needs_catalog=True),
     ExportFormat("json", "JSON: the open cell, every corner, with curves", "json", True, "write_json"),
     ExportFormat("spice", "SPICE: equivalent-circuit subcircuit of the open cell", "sp", True,
                  "write_spice"),
@@ -35,6 +36,10 @@ FORMATS: tuple[ExportFormat, ...] = (
                  "write_touchstone"),
     ExportFormat("datasheet", "Datasheet: HTML page of the open cell", "html", True,
                  "write_datasheet"),
+    ExportFormat("liberty", "Liberty: .lib view at the current corner (open cell or table rows)",
+                 "lib", False, "write_liberty", needs_catalog=True),
+    ExportFormat("lef", "LEF: technology and cell abstracts (open cell or table rows)", "lef",
+                 False, "write_lef", needs_catalog=True),
 )
 FORMAT_BY_KEY = {f.key: f for f in FORMATS}
 
@@ -73,6 +78,40 @@ def _call(writer: Any, path: Path, *args: Any, **options: Any) -> Any:
     return writer(path, *args, **{k: v for k, v in options.items() if k in accepted})
 
 
+def _view_cells(context: ExportContext, catalog: Any, path: Path) -> tuple[list[Any], str]:
+    """Cells of a library view and their deck: the open cell, else every row of the table."""
+    if context.cell is not None:
+        if not context.deck:
+            raise CelllabError([Problem(str(path), "", "the open cell has no deck to take the "
+                                        "layout and supplies from", has_value=False)])
+        return [context.cell], context.deck
+    rows = catalog.query(**{**context.query, "limit": None, "offset": 0})
+    decks = sorted({r["deck"] for r in rows})
+    if not rows:
+        raise CelllabError([Problem(str(path), "", "no cell in the table", has_value=False)])
+    if len(decks) > 1:
+        raise CelllabError([Problem(str(path), "", "the table holds cells of several decks ("
+                                    + ", ".join(decks) + "); pick one deck first", has_value=False)])
+    names = list(dict.fromkeys(r["name"] for r in rows))
+    return [catalog.cell(name, decks[0]) for name in names], decks[0]
+
+
+def _export_view(fmt: ExportFormat, path: Path, context: ExportContext, catalog: Any) -> None:
+    """Liberty (at the current corner; the first characterized one when ranking worst/best) or
+    LEF."""
+    from celllab.export import stored_deck, write_lef, write_liberty
+
+    cells, deck_name = _view_cells(context, catalog, path)
+    deck = stored_deck(catalog, deck_name)
+    if fmt.key == "liberty":
+        # the catalog keeps the run's corner order (the stored deck's keys are sorted)
+        corners = [c for c in catalog.corners(deck_name) if c in deck.corners] or list(deck.corners)
+        corner = context.corner if context.corner in deck.corners else corners[0]
+        write_liberty(path, cells, deck, corner)
+    else:
+        write_lef(path, cells, deck)
+
+
 def perform_export(request: ExportRequest, context: ExportContext, catalog: Any) -> Path:
     """Write one export with the matching ``celllab.export.write_*`` function."""
     import celllab.export as export
@@ -87,9 +126,11 @@ def perform_export(request: ExportRequest, context: ExportContext, catalog: Any)
         raise CelllabError([Problem(str(path), "", f"{fmt.key} export is not available in this "
                                     "installation", has_value=False)]) from None
     corner = context.corner if context.corner not in (None, "worst", "best") else None
-    if fmt.key == "csv":
-        if catalog is None:
-            raise CelllabError([Problem(str(path), "", "no catalog open", has_value=False)])
+    if fmt.needs_catalog and catalog is None:
+        raise CelllabError([Problem(str(path), "", "no catalog open", has_value=False)])
+    if fmt.key in ("liberty", "lef"):
+        _export_view(fmt, path, context, catalog)
+    elif fmt.key == "csv":
         query = {**context.query, "limit": None, "offset": 0}
         rows = catalog.query(**query)
         _call(writer, path, rows)
@@ -148,7 +189,9 @@ class ExportDialog(ModalScreen[ExportRequest | None]):
                 path_input.value = self._default_path(self._chosen())
 
     def on_input_changed(self, event: Input.Changed) -> None:
-        self._path_edited = True
+        # the input reports its first value too: only a path other than the default is an edit
+        if event.value != self._default_path(self._chosen()):
+            self._path_edited = True
 
     def _submit(self) -> None:
         path = self.query_one("#export-path", Input).value.strip()

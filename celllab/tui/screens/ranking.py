@@ -12,8 +12,8 @@ from textual.containers import Container, Horizontal
 from textual.widgets import Footer, Label, Select, Static
 from textual.worker import get_current_worker
 
+from celllab.columns import METRIC_NAMES, best_first_descending, unit_of
 from celllab.errors import CelllabError, FilterError
-from celllab.records import METRIC_BY_NAME, METRIC_NAMES
 from celllab.tui.messages import (
     CellChosen,
     FilterChanged,
@@ -23,7 +23,7 @@ from celllab.tui.messages import (
     SortRequested,
 )
 from celllab.tui.screens.base import TaskScreen
-from celllab.tui.screens.catalog import EXAMPLE_FILTER, better_descending, check_filter
+from celllab.tui.screens.catalog import EXAMPLE_FILTER, check_filter
 from celllab.tui.widgets.catalog_table import CatalogTable
 from celllab.tui.widgets.filter_bar import FilterBar
 from celllab.tui.widgets.plot import Marker, PlotSpec, PlotView, Series
@@ -35,8 +35,7 @@ RANKABLE: tuple[str, ...] = (*METRIC_NAMES, "area_um2", "gate_area_um2")
 
 
 def _axis_label(metric: str) -> str:
-    info = METRIC_BY_NAME.get(metric)
-    unit = info.unit if info else ("um^2" if metric.endswith("um2") else "")
+    unit = unit_of(metric)
     return f"{metric} [{unit}]" if unit else metric
 
 
@@ -77,7 +76,7 @@ class RankingScreen(TaskScreen):
     def __init__(self) -> None:
         super().__init__()
         self.rank_by = "cap_density_fF_per_um2"
-        self.descending = better_descending(self.rank_by)
+        self.descending = best_first_descending(self.rank_by)
         self.x_metric = "cap_density_fF_per_um2"
         self.y_metric = "leakage_nA_per_nF"
         self.where = ""
@@ -182,7 +181,7 @@ class RankingScreen(TaskScreen):
             return
         value = str(event.value)
         if event.select.id == "rank-by" and value != self.rank_by:
-            self.rank_by, self.descending = value, better_descending(value)
+            self.rank_by, self.descending = value, best_first_descending(value)
         elif event.select.id == "rank-x" and value != self.x_metric:
             self.x_metric = value
         elif event.select.id == "rank-y" and value != self.y_metric:

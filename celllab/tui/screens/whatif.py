@@ -25,8 +25,10 @@ from textual.timer import Timer
 from textual.widgets import Footer, Input, Select, Static, TabbedContent, TabPane
 from textual.worker import get_current_worker
 
+from celllab.columns import METRICS, Column
 from celllab.errors import CelllabError, Problem
-from celllab.records import METRICS, CellResult
+from celllab.records import CellResult, corner_metrics
+from celllab.topologies import REGISTRY
 from celllab.tui.messages import (
     CellLoaded,
     QueryFailed,
@@ -42,29 +44,15 @@ from celllab.tui.widgets.problems_view import ProblemsView
 from celllab.tui.widgets.task_bar import TaskBar
 from celllab.tui.widgets.values import value_text
 from celllab.tui.widgets.whatif_form import WhatIfForm, geometry_help
+from celllab.units import from_si
 
 _INT = re.compile(r"^[+-]?\d+$")
 _FLOAT = re.compile(r"^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
 
-#: Geometry fields that mean something for each kind of topology.
-_MOS_ONLY = {"gate_length_um", "gate_width_um", "contacted_ends", "gate_contacted_ends"}
-_MOM_ONLY = {"mom_bottom", "mom_top", "finger_width_um", "finger_space_um", "mom_alternate"}
-
-
 def relevant_fields(topology: str, fields: list[str]) -> list[str]:
-    """The geometry fields a cell of this topology uses."""
-    out = []
-    for name in fields:
-        if name in _MOM_ONLY and topology not in ("mom", "mos_mom"):
-            continue
-        if name in _MOS_ONLY and topology == "mom":
-            continue
-        if name == "accumulation_well" and topology != "accumulation":
-            continue
-        if name == "mos_device" and topology != "mos_mom":
-            continue
-        out.append(name)
-    return out
+    """The geometry fields a cell of this topology uses (``Topology.fields`` of the registry)."""
+    applies = REGISTRY[topology].fields
+    return [name for name in fields if name in applies]
 
 
 def parse_field_text(text: str, annotation: Any = None) -> Any:
@@ -106,29 +94,9 @@ def deck_changes(texts: Mapping[str, str]) -> dict[str, Any]:
 
 def spec_from_result(cell: CellResult) -> Any:
     """Rebuild the CellSpec of a catalog cell from its stored geometry."""
-    from celllab.cells import GEOMETRY_FIELDS, CellSpec
+    from celllab.cells import spec_from_record
 
-    geometry = dict(cell.geometry or {})
-    spec_fields = geometry.get("spec") if isinstance(geometry.get("spec"), dict) else None
-    if spec_fields:
-        data = dict(spec_fields)
-    else:
-        data = {f: geometry[f] for f in GEOMETRY_FIELDS if f in geometry}
-        data.setdefault("width_sites", cell.width_sites)
-        data.setdefault("height_rows", cell.height_rows)
-    data.update(name=cell.name, family=cell.family, topology=cell.topology, oxide=cell.oxide)
-    allowed = set(CellSpec.model_fields)
-    return CellSpec.model_validate({k: v for k, v in data.items() if k in allowed})
-
-
-def same_cell(catalog: Any, deck: str, cell: CellResult) -> str | None:
-    """Name of a current catalog cell with the same content hash, if any."""
-    where = (f"topology = {cell.topology} and width_sites = {cell.width_sites} "
-             f"and height_rows = {cell.height_rows}")
-    for row in catalog.query(deck=deck, where=where, order_by="name"):
-        if row.get("cell_hash") == cell.cell_hash:
-            return str(row["name"])
-    return None
+    return spec_from_record(cell)
 
 
 def renamed_deck(deck: Any, name: str) -> Any:
@@ -140,26 +108,15 @@ def renamed_deck(deck: Any, name: str) -> Any:
     return parse_deck(data, f"<what-if deck {name}>")
 
 
-def worst_metrics(cell: CellResult) -> dict[str, float]:
-    """Per metric, the least favourable value over the corners (as the catalog's worst)."""
-    out: dict[str, float] = {}
-    for info in METRICS:
-        values = [c.metrics[info.name] for c in cell.corners if c.metrics.get(info.name) is not None]
-        if values:
-            out[info.name] = min(values) if info.better == "higher" else max(values)
-    return out
-
-
 def metrics_at(cell: CellResult, corner: str) -> dict[str, float]:
-    if corner == "worst":
-        return worst_metrics(cell)
+    """The cell's metrics at a corner name or "worst" (as the catalog's worst rows); {} if absent."""
     try:
-        return dict(cell.corner(corner).metrics)
+        return corner_metrics(cell, corner)
     except KeyError:
         return {}
 
 
-def change_text(before: float | None, after: float | None, better: str) -> Text:
+def change_text(before: float | None, after: float | None, column: Column) -> Text:
     """Relative change, green when it moves the better way."""
     if before is None or after is None or math.isnan(before) or math.isnan(after):
         return Text("")
@@ -168,7 +125,7 @@ def change_text(before: float | None, after: float | None, better: str) -> Text:
     if before == 0:
         return Text("new", justify="right")
     rel = (after - before) / abs(before) * 100
-    good = (rel > 0) == (better == "higher")
+    good = column.improved(before, after)
     return Text(f"{rel:+.1f} %", style="green" if good else "red", justify="right")
 
 
@@ -183,9 +140,9 @@ def compare_table(before: Mapping[str, float], after: Mapping[str, float] | None
         b = before.get(info.name)
         a = after.get(info.name) if after is not None else None
         name = Text(info.name)
-        name.append(" ↑" if info.better == "higher" else " ↓", style="dim")
+        name.append(f" {info.arrow}", style="dim")
         table.add_row(name, value_text(b), value_text(a) if after is not None else Text("–", style="dim"),
-                      change_text(b, a, info.better) if after is not None else Text(""))
+                      change_text(b, a, info) if after is not None else Text(""))
     return table
 
 
@@ -289,7 +246,7 @@ class WhatIfScreen(TaskScreen):
         self.query_one("#wi-summary", Static).update(cell_summary(cell, self.deck_name))
         names = relevant_fields(cell.topology, list(self.spec.geometry))
         geometry = {n: getattr(self.spec, n) for n in names}
-        data = self.deck.model_dump(mode="json")
+        data = self.deck.full_dump()
         deck_values = {p: deck_value(data, p) for p in numeric_paths(self.deck)}
         form = WhatIfForm(geometry, geometry_help(type(self.spec).model_fields, names),
                           deck_values, describe_deck_path, id="wi-form")
@@ -376,7 +333,7 @@ class WhatIfScreen(TaskScreen):
         self.query_one(ProblemsView).problems = ()
         self.query_one(WhatIfForm).invalid = frozenset()
         self.query_one("#wi-status", Static).update(
-            Text(f"updated in {message.seconds * 1000:.0f} ms · not saved (ctrl+s)", style="green"))
+            Text(f"updated in {from_si(message.seconds, 'ms'):.0f} ms · not saved (ctrl+s)", style="green"))
         self._refresh_views()
 
     def on_what_if_rejected(self, message: WhatIfRejected) -> None:
@@ -500,19 +457,16 @@ class WhatIfScreen(TaskScreen):
             spec = self.spec.with_changes(geometry, deck, name=cell_name)
             run = characterize(deck, [spec])
             with self.lab.using_catalog() as catalog:
-                known = {d.name for d in catalog.decks()}
-                if deck.name in known:
-                    taken = catalog.count(deck=deck.name, where=f'name = "{cell_name}"')
-                    if taken:
-                        raise CelllabError([Problem("<what-if>", "name", "already in the catalog "
-                                                    f"for deck {deck.name}; pick another name",
-                                                    cell_name)])
-                    twin = same_cell(catalog, deck.name, run.cells[0])
-                    if twin:
-                        raise CelllabError([Problem(
-                            "<what-if>", "geometry", f"this variant is cell {twin!r} of the "
-                            "catalog (same geometry and deck); nothing new to store",
-                            has_value=False)])
+                if catalog.name_taken(cell_name, deck.name):
+                    raise CelllabError([Problem("<what-if>", "name", "already in the catalog "
+                                                f"for deck {deck.name}; pick another name",
+                                                cell_name)])
+                twin = catalog.identical_cell(run.cells[0].cell_hash, deck.name)
+                if twin:
+                    raise CelllabError([Problem(
+                        "<what-if>", "geometry", f"this variant is cell {twin!r} of the "
+                        "catalog (same geometry and deck); nothing new to store",
+                        has_value=False)])
                 report = catalog.store_run(run)
         except CelllabError as exc:
             self.post_message(WhatIfRejected(self._serial, exc.problems, saving=True))

@@ -10,17 +10,11 @@ from typing import Any
 
 from rich.text import Text
 
-from celllab.records import CELL_COLUMNS, METRIC_BY_NAME
+from celllab import display
+from celllab.columns import COLUMNS, TEXT_COLUMNS, unit_of
 
 #: Identity columns of a catalog row, with how they read in a header.
-ID_COLUMNS: dict[str, str] = {
-    "name": "cell name",
-    "deck": "process deck",
-    "corner": "corner (or the worst/best one per metric)",
-    "family": "cell family",
-    "topology": "decap topology",
-    "oxide": "gate-oxide flavour",
-}
+ID_COLUMNS: dict[str, str] = {name: column.description for name, column in TEXT_COLUMNS.items()}
 
 __all__ = ["ID_COLUMNS", "column_description", "column_header", "column_unit", "format_number",
            "value_text"]
@@ -28,14 +22,13 @@ __all__ = ["ID_COLUMNS", "column_description", "column_header", "column_unit", "
 
 def column_unit(column: str) -> str:
     """Unit of a catalog column ('' for identity columns)."""
-    info = METRIC_BY_NAME.get(column) or CELL_COLUMNS.get(column)
-    return info.unit if info else ""
+    return unit_of(column)
 
 
 def column_description(column: str) -> str:
     """One-line meaning of a catalog column."""
-    info = METRIC_BY_NAME.get(column) or CELL_COLUMNS.get(column)
-    return info.description if info else ID_COLUMNS.get(column, column)
+    info = COLUMNS.get(column)
+    return info.description if info else column
 
 
 def column_header(column: str, sort_mark: str = "") -> Text:
@@ -47,17 +40,10 @@ def column_header(column: str, sort_mark: str = "") -> Text:
     return head
 
 
-def format_number(value: float) -> str:
-    """Four significant digits; exponent form outside 1e-3..1e6."""
-    if not math.isfinite(value):
-        return "nan" if math.isnan(value) else ("inf" if value > 0 else "-inf")
-    if value == 0:
-        return "0"
-    mag = abs(value)
-    if 1e-3 <= mag < 1e6:
-        text = f"{value:.4g}"
-        return text
-    return f"{value:.3e}"
+def format_number(value: float, digits: int = 4) -> str:
+    """Significant digits as everywhere (``display.format_number``); exponent form outside the
+    plain range keeps table columns narrow."""
+    return display.format_number(value, digits, plain_range=display.PLAIN_RANGE)
 
 
 def value_text(value: Any, column: str = "") -> Text:
