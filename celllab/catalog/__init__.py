@@ -49,6 +49,12 @@ class Catalog:
             try:
                 yield self._db
             except sqlite3.DatabaseError as exc:
+                if "readonly database" in str(exc):
+                    raise CatalogError.single(str(self.path), "", "read-only for this user (the file or "
+                                              "its folder); nothing was written") from None
+                if "disk is full" in str(exc):
+                    raise CatalogError.single(str(self.path), "", "the disk is full; nothing of this "
+                                              "write was stored (free space and run it again)") from None
                 raise CatalogError.single(str(self.path), "", f"SQLite error: {exc}") from None
 
     def close(self) -> None:
@@ -81,6 +87,9 @@ class Catalog:
             try:
                 return _merge.merge_from(self._db, self.path, other_path, make_current)
             except sqlite3.DatabaseError as exc:  # the source's own errors name the source
+                if "disk is full" in str(exc):
+                    raise CatalogError.single(str(self.path), "", "the disk is full; nothing of this "
+                                              "write was stored (free space and run it again)") from None
                 raise CatalogError.single(str(self.path), "", f"SQLite error: {exc}") from None
 
     # reading

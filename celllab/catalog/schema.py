@@ -250,17 +250,20 @@ def migrate(db: sqlite_utils.Database, target: int = SCHEMA_VERSION) -> int:
     return version
 
 
-def sync_metric_columns(db: sqlite_utils.Database) -> list[str]:
-    """Add REAL columns for metrics this version knows and the file lacks; return their names."""
+def missing_metric_columns(db: sqlite_utils.Database) -> dict[str, list[tuple[str, str]]]:
+    """Table -> (column, type) of the metric and cell columns this version knows and the file lacks."""
     wanted = {
         "corner_metrics": {m: "REAL" for m in METRIC_NAMES},
         "corner_extremes": {m: "REAL" for m in METRIC_NAMES},
         "cells": {c: cell_column_type(c) for c in CELL_COLUMNS},
     }
-    missing = {
-        t: [(c, typ) for c, typ in cols.items() if c not in db[t].columns_dict]
-        for t, cols in wanted.items()
-    }
+    return {t: [(c, typ) for c, typ in cols.items() if c not in db[t].columns_dict]
+            for t, cols in wanted.items() if t in db.table_names()}
+
+
+def sync_metric_columns(db: sqlite_utils.Database) -> list[str]:
+    """Add REAL columns for metrics this version knows and the file lacks; return their names."""
+    missing = missing_metric_columns(db)
     added = sorted({c for cols in missing.values() for c, _ in cols})
     if added:  # new columns hold no values yet, so the stored extremes stay consistent
         with write_transaction(db):
@@ -344,6 +347,53 @@ def connect(path: Path) -> sqlite_utils.Database:
     return sqlite_utils.Database(conn, execute_plugins=False)
 
 
+def _cannot_write(exc: sqlite3.Error) -> bool:
+    text = str(exc).lower()
+    return "readonly database" in text or "unable to open database" in text
+
+
+def connect_read_only(path: Path) -> sqlite3.Connection:
+    """A read-only connection to an existing file, which never writes to it.
+
+    A catalog in write-ahead-log mode needs its ``-shm`` index beside it; where this user may
+    not create one (a read-only folder) and no log is there - so nothing awaits a checkpoint -
+    the file is opened immutable (SQLite's ``immutable`` URI parameter, docs/references.md
+    [126]): it is read as it stands. Raises ``sqlite3.Error`` when neither way works.
+    """
+    base = path.resolve().as_uri()
+    conn = sqlite3.connect(f"{base}?mode=ro", uri=True, check_same_thread=False, timeout=10.0)
+    try:
+        conn.execute("PRAGMA schema_version").fetchone()  # the first read opens the log index
+        return conn
+    except sqlite3.OperationalError as exc:
+        conn.close()
+        if not _cannot_write(exc) or _write_ahead_log(path).exists():
+            raise
+    return sqlite3.connect(f"{base}?mode=ro&immutable=1", uri=True, check_same_thread=False, timeout=10.0)
+
+
+def _open_read_only(path: Path) -> sqlite_utils.Database:
+    """The catalog at ``path`` opened for reading only (this user may not write it or its
+    folder); it must already have this version's layout, since migrating would write."""
+    try:
+        db = sqlite_utils.Database(connect_read_only(path), execute_plugins=False)
+    except sqlite3.Error as exc:
+        raise _fail(path, f"cannot open the catalog read-only: {exc}") from None
+    try:
+        version = inspect(db, path)
+        if version < SCHEMA_VERSION or any(missing_metric_columns(db).values()):
+            raise _fail(path, f"catalog schema version {version} needs an upgrade this user cannot "
+                        "write (the file or its folder is read-only); open it once with write access")
+        check_tables(db, path)
+    except sqlite3.DatabaseError as exc:
+        db.close()
+        raise _fail(path, f"cannot open the catalog: {exc}") from None
+    except BaseException:
+        db.close()
+        raise
+    return db
+
+
 def inspect(db: sqlite_utils.Database, path: Path) -> int:
     """Return the file's schema version; raise CatalogError when it is not a catalog we can read."""
     try:
@@ -394,6 +444,12 @@ def open_database(path: Path, create: bool = True) -> sqlite_utils.Database:
         raise _fail(path, f"cannot open or create the catalog here: {exc}") from None
     try:
         version = inspect(db, path)
+    except CatalogError as exc:
+        db.close()
+        if path.stat().st_size and "readonly database" in str(exc):
+            return _open_read_only(path)  # a reader without write access to the file or folder
+        raise
+    try:
         db.execute("PRAGMA foreign_keys = ON")
         db.execute("PRAGMA busy_timeout = 10000")
         db.enable_wal()

@@ -38,6 +38,7 @@ from pydantic import ValidationError
 from celllab.catalog.schema import (
     check_file_header,
     check_tables,
+    connect_read_only,
     inspect,
     migrate,
     sync_metric_columns,
@@ -81,9 +82,8 @@ def open_source(path: Path) -> sqlite_utils.Database:
     if not path.is_file():
         raise _fail(path, "no catalog file here" if not path.exists() else "not a regular file")
     check_file_header(path)
-    uri = f"{path.resolve().as_uri()}?mode=ro"
     try:
-        conn = sqlite3.connect(uri, uri=True, check_same_thread=False, timeout=10.0)
+        conn = connect_read_only(path)
     except sqlite3.Error as exc:
         raise _fail(path, f"cannot open the catalog read-only: {exc}") from None
     src = sqlite_utils.Database(conn, execute_plugins=False)

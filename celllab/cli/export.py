@@ -280,7 +280,7 @@ def _export_liberty(args: argparse.Namespace, cat: Any) -> None:
     _need_cells(cells)
     deck = stored_deck(cat, str(deck_name))
     # every corner in the run's order (the catalog keeps it; the stored deck's keys are sorted)
-    corners = [args.corner] if args.corner not in AGGREGATE_CORNERS else cat.corners(deck_name)
+    corners = [args.corner] if args.corner not in CORNER_WORDS else cat.corners(deck_name)
     files: dict[str, str] = {}
     owners: dict[str, str] = {}
     for c in corners:
@@ -355,10 +355,13 @@ def cmd_export(args: argparse.Namespace) -> int:
         except (ValueError, KeyError) as exc:  # a record this format cannot hold
             message = exc.args[0] if exc.args else repr(exc)
             raise _problem(args.format, str(message), None, has_value=False) from None
-        except OSError as exc:  # --out not writable: a missing parent we may not create, ...
+        except OSError as exc:  # standard output refused (a full disk, a closed pipe, ...)
+            if not args.out or args.out == "-":
+                raise CelllabError([Problem("standard output", "", f"cannot write: {exc.strerror or exc}",
+                                            has_value=False)]) from None
             where = exc.filename or args.out
             raise _problem(
-                "--out", f"cannot write {where}: {exc.strerror or exc}", args.out
+                "--out", f"cannot write {printable(where)}: {exc.strerror or exc}", args.out
             ) from None
     return 0
 

@@ -83,11 +83,23 @@ def _report(problems: Sequence[object]) -> None:
 
 
 def _os_problem(exc: OSError) -> str:
-    where = exc.filename if exc.filename is not None else "celllab"
+    # an OS error without a file name comes from writing the report (a full disk under stdout)
+    where = exc.filename if exc.filename is not None else "standard output"
     return f"{printable(where)}: {exc.strerror or exc}"
 
 
 def main(argv: Sequence[str] | None = None) -> int:
+    """Run one command line; the exit status: 0 done, 2 bad input (problems on stderr), 130
+    interrupted (Ctrl-C at any point, loading included: a catalog write in progress is rolled
+    back whole by SQLite)."""
+    try:
+        return _main(argv)
+    except KeyboardInterrupt:
+        print("interrupted", file=sys.stderr)
+        return 130
+
+
+def _main(argv: Sequence[str] | None) -> int:
     for stream in (sys.stdout, sys.stderr):  # never fail on a character the terminal lacks
         if hasattr(stream, "reconfigure"):
             stream.reconfigure(errors="backslashreplace")
@@ -113,9 +125,6 @@ def main(argv: Sequence[str] | None = None) -> int:
     except CelllabError as exc:
         _report(exc.problems)
         return 2
-    except KeyboardInterrupt:
-        print("interrupted", file=sys.stderr)
-        return 130
     except BrokenPipeError:
         return 0
     except OSError as exc:  # a file the OS refused (permissions, a full disk, a path under /proc)

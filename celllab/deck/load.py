@@ -5,6 +5,7 @@ from __future__ import annotations
 import copy
 import hashlib
 import json
+import math
 import re
 import stat
 import tomllib
@@ -31,9 +32,11 @@ def content_hash(model: BaseModel) -> str:
 MAX_FILE_BYTES = 4 * 1024 * 1024
 
 
-def read_text_file(path: str | Path, error: type[CelllabError], limit: int = MAX_FILE_BYTES) -> str:
+def read_text_file(path: str | Path, error: type[CelllabError], limit: int = MAX_FILE_BYTES,
+                   kind: str = "TOML") -> str:
     """UTF-8 text of a regular file of at most ``limit`` bytes (a leading byte order mark is
-    dropped); anything else becomes a located ``error`` naming the file."""
+    dropped); anything else becomes a located ``error`` naming the file (``kind``: what the
+    file should hold, for the message)."""
     p = Path(path)
     try:
         info = p.stat()
@@ -42,8 +45,8 @@ def read_text_file(path: str | Path, error: type[CelllabError], limit: int = MAX
     except (OSError, ValueError) as exc:
         raise error.single(str(path), "", f"cannot read file: {_os_reason(exc)}") from None
     if not stat.S_ISREG(info.st_mode):
-        kind = "a folder" if stat.S_ISDIR(info.st_mode) else "a device, pipe or socket"
-        raise error.single(str(path), "", f"not a regular file ({kind}); give a TOML file")
+        what = "a folder" if stat.S_ISDIR(info.st_mode) else "a device, pipe or socket"
+        raise error.single(str(path), "", f"not a regular file ({what}); give a {kind} file")
     if info.st_size > limit:
         raise error.single(str(path), "", f"file of {info.st_size} bytes is larger than the "
                            f"{limit} bytes celllab reads")
@@ -244,6 +247,9 @@ def validation_problems(exc: ValidationError, file: str, text: str | None,
                 options = [o.strip().strip("'") for o in str((err.get("ctx") or {}).get("expected", "")).replace(" or ", ",").split(",")]
                 guess = close_names(value, options)
                 message = f"not an allowed value; {allowed}" + (f". Did you mean {guess[0]!r}?" if guess else "")
+            elif isinstance(value, float) and not math.isfinite(value):
+                # NaN fails whichever bound pydantic tries first; say what is really wrong
+                message = "not a finite number" + (f" ({allowed})" if allowed else "")
             elif allowed and allowed not in message:
                 message = f"{message} ({allowed})"
             if isinstance(value, dict):

@@ -31,6 +31,7 @@ OxideName = Literal["core", "io"]
 #: small enough that checking a deck stays quick.
 MAX_CORNERS = 100
 MAX_METALS = 32
+MAX_NAMED_RAILS = 32
 #: Words the catalog and the CLI use for a cell's aggregate over its corners (``--corner worst``);
 #: a corner of that name would be hidden by the aggregate.
 RESERVED_CORNER_NAMES: tuple[str, ...] = ("worst", "best", "all")
@@ -288,7 +289,7 @@ class Supplies(StrictModel):
                               description="net name of the I/O supply rail (cells on the io oxide)")
     io_ground_net: str = Field(NET_NAME_DEFAULTS["io_ground_net"], pattern=_NET,
                                description="net name of the ground rail of io-oxide cells")
-    named: dict[str, NamedSupply] = Field(default_factory=dict, description="further rails by name "
+    named: dict[str, NamedSupply] = Field(default_factory=dict, max_length=MAX_NAMED_RAILS, description="further rails by name "
                                           "(lower-case letters, digits, _), which cells may name as their rail")
 
     @model_serializer(mode="wrap")
@@ -467,13 +468,13 @@ class Deck(StrictModel):
         problems: list[tuple[str, object, str]] = []
         s = self.supplies
         powers = {s.core_power_net, s.io_power_net}
-        grounds = {s.core_ground_net, s.io_ground_net}
+        grounds = {s.core_ground_net, s.io_ground_net} | {r.ground_net for r in s.named.values()}
         for name, rail in s.named.items():
             where = f"supplies.named.{name}"
             if name in BUILT_IN_RAILS or not _RAIL_NAME.match(name):
                 problems.append((where, name, "rail names use lower-case letters, digits and _ (start "
                                  "with a letter, at most 24) and may not be " + " or ".join(BUILT_IN_RAILS)))
-            if rail.power_net in grounds | {r.ground_net for r in s.named.values()}:
+            if rail.power_net in grounds:
                 problems.append((f"{where}.power_net", rail.power_net, "a supply net cannot also be a ground net"))
             if rail.ground_net in powers:
                 problems.append((f"{where}.ground_net", rail.ground_net, "a ground net cannot also be a supply net"))

@@ -95,6 +95,23 @@ def make_folder(path: str | os.PathLike[str]) -> Path:
     return folder
 
 
+def check_files(folder: str | os.PathLike[str], names: list[str], force: bool = False) -> None:
+    """Raise ``OutputError`` unless ``write_files_atomic(folder, ...)`` could write ``names``
+    there now - without creating anything (a check before a long computation)."""
+    base = Path(folder)
+    if base.is_dir():
+        for name in names:
+            check_target(base / name, force)
+        return
+    existing = base
+    while not os.path.lexists(existing) and existing != existing.parent:
+        existing = existing.parent
+    if not existing.is_dir():
+        raise _fail(base, "is a file, not a folder (or lies under a file)")
+    if not os.access(existing, os.W_OK | os.X_OK):
+        raise _fail(base, f"cannot create this folder: {existing} is not writable")
+
+
 def _current_umask() -> int:
     mask = os.umask(0o022)
     os.umask(mask)
@@ -174,10 +191,16 @@ def write_files_atomic(folder: str | os.PathLike[str], files: Mapping[str, str],
                        force: bool = False) -> list[Path]:
     """Write several files into ``folder`` (created if missing): every target is checked before
     the first is written, and if one write fails the files this call created are removed."""
+    new_folder = not os.path.lexists(folder)
     base = make_folder(folder)
-    targets = [base / name for name in files]
-    for target in targets:
-        check_target(target, force)
+    try:
+        targets = [base / name for name in files]
+        for target in targets:
+            check_target(target, force)
+    except BaseException:
+        if new_folder:
+            _remove_folder(base)
+        raise
     created: list[Path] = []
     written: list[Path] = []
     try:
@@ -190,5 +213,15 @@ def write_files_atomic(folder: str | os.PathLike[str], files: Mapping[str, str],
     except BaseException:
         for path in created:
             _remove(path)
+        if new_folder:
+            _remove_folder(base)
         raise
     return written
+
+
+def _remove_folder(folder: Path) -> None:
+    """Remove a folder this call created, if it is still empty (what a failed write leaves)."""
+    try:
+        folder.rmdir()
+    except OSError:
+        pass

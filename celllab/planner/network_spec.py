@@ -57,7 +57,7 @@ import numpy as np
 from pydantic import BaseModel, ConfigDict, Field, PrivateAttr, ValidationError
 from scipy.constants import giga, mega, milli, nano, pico
 
-from celllab.deck.load import find_line, read_toml, validation_problems
+from celllab.deck.load import find_line, read_text_file, read_toml, validation_problems
 from celllab.errors import PlanError, Problem
 from celllab.planner.network import (
     FillEntry,
@@ -88,6 +88,10 @@ __all__ = [
 ]
 
 _NAME = r"^[A-Za-z][A-Za-z0-9_]{0,39}$"
+#: Documented limits (process_decks/README.md, "Limits"): the network is solved as a dense
+#: matrix over its regions at every frequency, so its size is bounded before any work.
+MAX_NETWORK_REGIONS = 200
+MAX_NETWORK_LINKS = 1000
 
 
 class _Strict(BaseModel):
@@ -164,8 +168,9 @@ class NetworkSpec(_Strict):
     board_resistance_mohm: float = Field(0.0, ge=0, le=1e6, description="board path, mohm")
     board_inductance_nH: float = Field(0.0, ge=0, le=1e3, description="board path, nH")
     offchip_decap: OffChipSpec | None = None
-    regions: dict[str, RegionSpec] = Field(min_length=1, description="region name -> region")
-    links: list[LinkSpec] = Field(default_factory=list)
+    regions: dict[str, RegionSpec] = Field(min_length=1, max_length=MAX_NETWORK_REGIONS,
+                                           description="region name -> region")
+    links: list[LinkSpec] = Field(default_factory=list, max_length=MAX_NETWORK_LINKS)
     size_entrance_resistors: bool = Field(
         False, description="size a damping resistor at each region entrance")
     f_min_MHz: float = Field(0.1, gt=0, le=1e5, description="analysis from, MHz")
@@ -346,13 +351,7 @@ def read_waveform_csv(path: str | Path) -> tuple[np.ndarray, np.ndarray]:
     ``#`` lines are comments. Raises ``PlanError`` naming the file, the row and the column for
     a missing header, a non-number, times that do not increase, or fewer than two rows.
     """
-    p = Path(path)
-    try:
-        text = p.read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise PlanError.single(str(path), "", "waveform file not found") from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise PlanError.single(str(path), "", f"cannot read waveform file: {exc}") from None
+    text = read_text_file(path, PlanError, kind="CSV (t_ns,i_mA)")
     rows = [(n, line) for n, line in enumerate(text.splitlines(), start=1)
             if line.strip() and not line.lstrip().startswith("#")]
     if not rows:

@@ -48,7 +48,15 @@ def places(tmp_path_factory: pytest.TempPathFactory) -> dict[str, str]:
     (folder / "cells.toml").write_text('[[cell]]\nname = "c1"\ntopology = "mom"\nwidth_sites = 16\n')
     (folder / "junk.sqlite").write_text("not a catalog")
     (folder / "file").write_text("x")
-    return {"catalog": str(catalog), "cells": str(folder / "cells.toml"), "junk": str(folder / "junk.sqlite"),
+    (folder / "block.toml").write_text(
+        '[block]\nname = "b1"\ndeck = "invented_n7x"\nswitching_power_W = 0.1\nclock_GHz = 0.5\n'
+        "activity = 0.1\ncurrent_step_A = 0.05\nripple_fraction = 0.05\npackage_inductance_nH = 0.5\n"
+        'package_resistance_mohm = 10\n\n[[region]]\nname = "r1"\nclock_MHz = 100\n\n'
+        '[[region.row_gaps]]\nname = "g"\nheight_rows = 1\nwidth_sites = [12, 40]\ncount = [30, 10]\n'
+        "\n[network]\nir_drop_limit_mV = 10\npackage_resistance_mohm = 10\npackage_inductance_nH = 0.5\n"
+        "[network.regions.r1]\ngrid_resistance_mohm = 1\ngrid_inductance_pH = 10\n"
+        "intrinsic_capacitance_nF = 1\n")
+    return {"block": str(folder / "block.toml"), "catalog": str(catalog), "cells": str(folder / "cells.toml"), "junk": str(folder / "junk.sqlite"),
             "out": str(folder / "out"), "file": str(folder / "file"), "folder": str(folder)}
 
 
@@ -61,10 +69,10 @@ OPTIONS: dict[str, list[str]] = {
     "--catalog": ["path"], "--deck": ["path", "name"], "--cells": ["path", "name"], "--where": ["where"],
     "--corner": ["corner"], "--by": ["column"], "--limit": ["number"], "--offset": ["number"],
     "--columns": ["column"], "--metrics": ["column"], "--out": ["path"], "--segments": ["number"],
-    "--reference-ohm": ["number"], "--corners": ["corner"],
+    "--reference-ohm": ["number"], "--corners": ["corner"], "--grid-nm": ["number"],
 }
 FLAGS = ["--json", "--asc", "--desc", "--force", "--no-plots", "--no-curves", "--no-comments",
-         "--make-current", "--quiet", "--bogus"]
+         "--make-current", "--quiet", "--no-explain", "--bogus"]
 VERBS = ["check", "build", "rank", "pareto", "compare", "decks", "show", "merge", "export", "plan", "nope"]
 #: The options each verb takes (drawn most of the time; any option otherwise).
 VERB_OPTIONS: dict[str, list[str]] = {
@@ -73,8 +81,8 @@ VERB_OPTIONS: dict[str, list[str]] = {
     "pareto": ["--where", "--corner", "--metrics", "--deck", "--columns"],
     "compare": ["--corner", "--deck"], "decks": [], "show": ["--deck"], "merge": [],
     "export": ["--where", "--corner", "--by", "--limit", "--out", "--segments", "--reference-ohm",
-               "--deck", "--cells"],
-    "plan": ["--out"], "nope": [],
+               "--deck", "--cells", "--grid-nm"],
+    "plan": ["--out", "--catalog"], "nope": [],
 }
 WORDS = {
     "corner": ["worst", "best", "all", "typ_25C", "slow_125C", "nope", "", "\u202e"],
@@ -95,8 +103,12 @@ def argument_lists(draw: st.DrawFn, places: dict[str, str]) -> list[str]:
     verb = pick(draw, VERBS)
     argv = [verb]
     if verb == "export":
-        argv.append(pick(draw, ["csv", "json", "schema", "spice", "touchstone", "datasheet", "xml"]))
-    if verb in ("compare", "show", "merge", "plan"):
+        argv.append(pick(draw, ["csv", "json", "schema", "spice", "touchstone", "datasheet", "liberty",
+                                "lef", "xml"]))
+    if verb == "plan":
+        argv += [pick(draw, [places["block"], places["block"], places["cells"], places["junk"], str(DECK),
+                             "/dev/null", places["folder"]]), "--no-explain"]
+    elif verb in ("compare", "show", "merge"):
         argv.append(pick(draw, [places["catalog"], places["junk"], "ninv_core_0000", "nope",
                                 places["cells"], "\x1b]0;x\x07"]))
     for _ in range(draw(st.integers(0, 4))):
