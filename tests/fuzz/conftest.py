@@ -21,6 +21,7 @@ EXAMPLES: dict[str, int] = {
     "cell_data": 2000,
     "cells_built": 60,
     "block_data": 1600,
+    "network_data": 800,
     "filter_text": 3400,
     "filter_run": 800,
     "catalog_merge": 200,

@@ -14,6 +14,7 @@ from hypothesis import strategies as st
 
 from celllab.errors import PlanError
 from celllab.planner import load_block, parse_block
+from celllab.planner.network_spec import parse_network_spec, supply_network
 
 from .conftest import fuzz_settings
 from .strategies import assert_located, edit, paths, pick, values
@@ -62,6 +63,35 @@ def test_block_files_are_accepted_or_located(data: dict[str, Any], outcomes: Cou
         return
     assert _finite_numbers(block)
     outcomes["block_data.accepted"] += 1
+
+
+NETWORK_BASES = [data for data in BASES if "network" in data]
+
+
+@st.composite
+def edited_networks(draw: st.DrawFn) -> dict[str, Any]:
+    data = {"network": draw(st.sampled_from(NETWORK_BASES))["network"]}
+    for _ in range(draw(st.integers(1, 3))):
+        if not (options := paths(data)):
+            break
+        path = pick(draw, options)
+        data = edit(data, draw(st.sampled_from(["set", "set", "delete", "extra"])), path, draw(values()))
+    return data
+
+
+@fuzz_settings("network_data")
+@given(data=edited_networks())
+def test_network_tables_are_accepted_or_located(data: dict[str, Any], outcomes: Counter[str]) -> None:
+    outcomes["network_data.cases"] += 1
+    try:
+        spec = parse_network_spec(data, FILE)
+    except PlanError as exc:
+        assert_located(exc, FILE)
+        outcomes["network_data.rejected"] += 1
+        return
+    assert _finite_numbers(spec)
+    supply_network(spec.network, supply_V=1.2)  # an accepted table builds its network
+    outcomes["network_data.accepted"] += 1
 
 
 def test_block_file_text_problems_are_located(tmp_path: Path) -> None:
