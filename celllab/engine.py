@@ -7,6 +7,7 @@ frequency in one call. Python loops run over topologies, corners and result reco
 
 from __future__ import annotations
 
+import re
 from collections.abc import Callable, Sequence
 from typing import Any
 
@@ -55,6 +56,12 @@ def characterize(deck: Deck, cells: Sequence[CellSpec], corners: Sequence[str] |
     """
     corner_set = CornerSet.from_deck(deck, list(corners) if corners else None)
     geometries = [resolve(c, deck) for c in cells]
+    with np.errstate(all="ignore"):  # out-of-range values become flagged empty metrics, not warnings
+        return _characterize(deck, cells, corner_set, geometries, progress, sources, esd)
+
+
+def _characterize(deck: Deck, cells: Sequence[CellSpec], corner_set: CornerSet, geometries: list[Any],
+                  progress: Progress | None, sources: Sequence[str], esd: bool) -> CharacterizationRun:
     results: list[CellResult | None] = [None] * len(cells)
     groups: dict[str, list[int]] = {}
     for i, c in enumerate(cells):
@@ -123,6 +130,25 @@ def _finite(x: float) -> float:
     return float(x) if np.isfinite(x) else float("nan")
 
 
+def _names(metric: str, flags: list[str]) -> bool:
+    word = re.compile(rf"(?<![A-Za-z0-9_]){re.escape(metric)}(?![A-Za-z0-9_])")
+    return any(word.search(f) for f in flags)
+
+
+def _empty_metric_flags(metrics: dict[str, float], flags: list[str]) -> list[str]:
+    """A flag for the metrics that came out empty or infinite and no flag explains yet."""
+    overflow = [k for k, v in metrics.items() if np.isinf(v) and not _names(k, flags)]
+    missing = [k for k, v in metrics.items() if np.isnan(v) and not _names(k, flags)]
+    out = []
+    if overflow:
+        out.append(f"out_of_range: {', '.join(overflow)} stored empty: the model overflows the float "
+                   "range here (an input far outside the model's validity range)")
+    if missing:
+        out.append(f"no_value: {', '.join(missing)} stored empty: the model gives no number here "
+                   "(an input outside the model's validity range)")
+    return out
+
+
 def _band_flags(out: Any, k: int, j: int, top_Hz: float) -> list[str]:
     """Flags of SRF and bandwidth values above the analysed band (computed) or bounds."""
     top = f"{from_si(top_Hz, 'GHz'):g} GHz"
@@ -160,7 +186,9 @@ def _record(spec: CellSpec, geo: Any, corners: CornerSet, group: Any, index: int
             e_ox_V_per_m=float(out.e_ox_V_per_m[k, j]), tddb_rate_per_s_m2=float(out.tddb_rate_per_s_m2[k, j]),
             vbd_pulse_V=float(out.vbd_pulse_V[k, j]),
             **_risk_figures(risk, len(corners.names), j))
-        m = {metric.name: _finite(metric.compute(figures)) for metric in METRICS}  # type: ignore[misc]
+        m = {metric.name: float(metric.compute(figures)) for metric in METRICS}  # type: ignore[misc]
+        flags += _empty_metric_flags(m, flags)
+        m = {key: _finite(v) for key, v in m.items()}
         cv = None
         if out.cv_bias is not None:
             cv = CVCurve(bias_V=np.asarray(out.cv_bias[k, j], dtype=float), cap_F=np.asarray(out.cv_cap[k, j], dtype=float),

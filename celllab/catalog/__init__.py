@@ -65,6 +65,12 @@ class Catalog:
             try:
                 yield self._db
             except sqlite3.DatabaseError as exc:
+                if "readonly database" in str(exc):
+                    raise CatalogError.single(str(self.path), "", "read-only for this user (the file or "
+                                              "its folder); nothing was written") from None
+                if "disk is full" in str(exc):
+                    raise CatalogError.single(str(self.path), "", "the disk is full; nothing of this "
+                                              "write was stored (free space and run it again)") from None
                 raise CatalogError.single(str(self.path), "", f"SQLite error: {exc}") from None
 
     def close(self) -> None:
@@ -86,10 +92,21 @@ class Catalog:
         with self._access() as db:
             return _store.store_run(db, run)
 
-    def merge_from(self, other_path: str | Path) -> MergeReport:
-        """Import another catalog file by content hash; conflicts are reported, never overwritten."""
-        with self._access() as db:
-            return _merge.merge_from(db, self.path, other_path)
+    def merge_from(self, other_path: str | Path, make_current: bool = False) -> MergeReport:
+        """Import another catalog file by content hash; conflicts are reported, never overwritten.
+
+        Every row of the other file is checked first (a bad file is refused whole, naming it).
+        Imported decks stay not current unless ``make_current`` asks to adopt, per deck name, the
+        deck made current most recently in either catalog.
+        """
+        with self._lock:
+            try:
+                return _merge.merge_from(self._db, self.path, other_path, make_current)
+            except sqlite3.DatabaseError as exc:  # the source's own errors name the source
+                if "disk is full" in str(exc):
+                    raise CatalogError.single(str(self.path), "", "the disk is full; nothing of this "
+                                              "write was stored (free space and run it again)") from None
+                raise CatalogError.single(str(self.path), "", f"SQLite error: {exc}") from None
 
     # reading
     def decks(self) -> list[DeckInfo]:

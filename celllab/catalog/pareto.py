@@ -153,7 +153,8 @@ def catalog_pareto(
     q.check_deck(db, deck)
     q.check_corner(db, corner, deck)
     sql, params = q.metric_values_sql(metrics, corner, deck, where)
-    raw = [r for r in db.execute(sql, params).fetchall() if None not in r[2:]]
+    with q.filter_limits(where):
+        raw = [r for r in db.execute(sql, params).fetchall() if None not in r[2:]]
     if not raw:
         return []
     sign = np.array([RANKED[m].minimize_sign for m in metrics])

@@ -11,7 +11,10 @@ By default only current results (current deck of each name, current result of ea
 
 from __future__ import annotations
 
+import contextlib
 import json
+import sqlite3
+from collections.abc import Iterator
 from dataclasses import dataclass
 from typing import Any
 
@@ -326,6 +329,26 @@ def fetch_rows(db: sqlite_utils.Database, sql: str, params: list[object]) -> lis
     return out
 
 
+#: Words of SQLite's messages when a statement exceeds one of its limits.
+_SQLITE_LIMIT_WORDS = ("too many", "too large", "too big", "stack overflow", "too complex")
+
+
+@contextlib.contextmanager
+def filter_limits(where: str) -> Iterator[None]:
+    """Report SQLite refusing a filtered statement for its size as a problem of the filter
+    (the parser's own limits normally refuse such a filter first)."""
+    try:
+        yield
+    except sqlite3.OperationalError as exc:
+        if not where or not any(w in str(exc).lower() for w in _SQLITE_LIMIT_WORDS):
+            raise
+        shown = where if len(where) <= 80 else where[:77] + "..."
+        raise FilterError(
+            [Problem("filter", "", f"too large for SQLite to run ({exc}); use fewer conditions "
+                     "or values", shown)]
+        ) from None
+
+
 def run_query(
     db: sqlite_utils.Database,
     deck: str | None = None,
@@ -342,13 +365,14 @@ def run_query(
     )
     check_deck(db, deck)
     check_corner(db, corner, deck)
-    if limit:
-        early = _early_stop_sql(
-            db, corner, deck, where, order_by, descending, limit, offset, current_only
-        )
-        if early is not None:
-            sql, params = early
-    return fetch_rows(db, sql, params)
+    with filter_limits(where):
+        if limit:
+            early = _early_stop_sql(
+                db, corner, deck, where, order_by, descending, limit, offset, current_only
+            )
+            if early is not None:
+                sql, params = early
+        return fetch_rows(db, sql, params)
 
 
 def _has_index(db: sqlite_utils.Database, name: str) -> bool:
@@ -411,7 +435,8 @@ def run_count(
     sql, params = count_query_sql(corner, deck, where, current_only)
     check_deck(db, deck)
     check_corner(db, corner, deck)
-    return int(db.execute(sql, params).fetchone()[0])
+    with filter_limits(where):
+        return int(db.execute(sql, params).fetchone()[0])
 
 
 def current_names(db: sqlite_utils.Database, deck: str | None = None) -> list[str]:

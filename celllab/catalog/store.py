@@ -28,6 +28,7 @@ import numpy as np
 import sqlite_utils
 
 from celllab.catalog.schema import cell_column_type, fill_extremes, write_transaction
+from celllab.catalog.validate import DECK_NAME, cell_problems, shown
 from celllab.display import nan_to_none, none_to_nan  # SQLite stores NaN as NULL
 from celllab.errors import CatalogError, Problem
 from celllab.records import (
@@ -233,15 +234,18 @@ def _corner_problems(where: str, c: CornerResult, run_corners: set[str]) -> list
 
 def validate_run(run: CharacterizationRun) -> None:
     """Raise CatalogError listing every structural problem of ``run`` (nothing is written)."""
-    label = f"run of deck {run.deck_name!r}"
+    label = f"run of deck {shown(run.deck_name)}"
     msgs: list[str] = []
     if not run.deck_hash or not run.deck_name or not run.model_version:
         msgs.append("deck_name, deck_hash and model_version must be non-empty")
+    elif not isinstance(run.deck_name, str) or not DECK_NAME.fullmatch(run.deck_name):
+        msgs.append(f"deck_name = {shown(run.deck_name)} -> deck names use letters, digits, _ and -, "
+                    "starting with a letter, at most 40")
     seen_names: dict[str, int] = {}
     seen_hashes: dict[str, int] = {}
     run_corners = set(run.corners)
     for i, cell in enumerate(run.cells):
-        where = f"cells[{i}] ({cell.name})"
+        where = f"cells[{i}] ({shown(cell.name, 40)})"
         if cell.name in seen_names:
             msgs.append(f"{where} -> name repeats cells[{seen_names[cell.name]}]")
         if cell.cell_hash in seen_hashes:
@@ -253,6 +257,7 @@ def validate_run(run: CharacterizationRun) -> None:
             msgs.append(f"{where}.corners -> repeated corner names {corner_names}")
         for j, c in enumerate(cell.corners):
             msgs += _corner_problems(f"{where}.corners[{j}]", c, run_corners)
+        msgs += cell_problems(where, cell)
     if msgs:
         raise CatalogError([Problem(label, "", m) for m in msgs])
 

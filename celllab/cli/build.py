@@ -7,6 +7,7 @@ import json
 import sys
 
 from celllab import CAUTION, DEFAULT_CATALOG
+from celllab.cli.args import MAX_ROWS, whole_number
 from celllab.display import text_table
 from celllab.errors import CelllabError, Problem
 
@@ -34,6 +35,7 @@ def _progress_printer(enabled: bool):  # type: ignore[no-untyped-def]
 def _load(deck_paths: list[str], cell_paths: list[str]):  # type: ignore[no-untyped-def]
     """Load decks and cells; every problem of every file is collected before raising."""
     from celllab.cells import load_cells
+    from celllab.cells.expand import VariantRegistry
     from celllab.deck import load_deck
 
     problems: list[Problem] = []
@@ -47,9 +49,10 @@ def _load(deck_paths: list[str], cell_paths: list[str]):  # type: ignore[no-unty
     if decks or not deck_paths:
         for deck in decks or [None]:
             cells = []
+            seen = VariantRegistry()  # a variant repeated in another file is refused, as build would
             for c in cell_paths:
                 try:
-                    cells.extend(load_cells(c, deck))
+                    cells.extend(load_cells(c, deck, seen=seen))
                 except CelllabError as exc:
                     problems.extend(exc.problems)
             pairs.append((deck, cells))
@@ -149,7 +152,8 @@ def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
                        "then open the terminal UI (or print the densest cells with --no-ui).")
     p.add_argument("--catalog", default=str(DEFAULT_CATALOG), metavar="PATH", help="catalog file (default: %(default)s)")
     p.add_argument("--no-ui", action="store_true", help="print a ranked table instead of opening the UI")
-    p.add_argument("--limit", type=int, default=15, help="rows to print with --no-ui (default: %(default)s)")
+    p.add_argument("--limit", type=whole_number(0, MAX_ROWS), default=15,
+                   help="rows to print with --no-ui (default: %(default)s)")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
     p.add_argument("--no-esd", action="store_true", help="leave the HBM/CDM and broken-oxide columns empty "
                    "(skips their transients, most of the run time)")

@@ -16,6 +16,7 @@ from collections.abc import Iterator
 from typing import Any
 
 from celllab import CAUTION, DEFAULT_CATALOG
+from celllab.cli.text import printable
 
 _WIDTH = 132
 
@@ -161,18 +162,25 @@ def cmd_plan(args: argparse.Namespace) -> int:
     from rich.console import Console
 
     from celllab.catalog import open_catalog
-    from celllab.export.plan import write_plan_files
+    from celllab.export.files import check_files
+    from celllab.export.plan import plan_file_names, write_plan_files
     from celllab.planner import load_block, plan_block
 
     block = load_block(args.block)
+    if block.network is not None:  # not read by the fill, but a mistake in it is reported now
+        from celllab.planner.network_spec import load_network_spec
+
+        load_network_spec(args.block)
+    if args.out:  # refuse an unusable --out before the solve, not after it
+        check_files(args.out, plan_file_names(block.block.name), args.force)
     with open_catalog(args.catalog, create=False) as catalog, \
             _progress(sys.stderr.isatty()) as say:
         plan = plan_block(block, catalog, explain=not args.no_explain, progress=say)
     summary = plan.to_dict()
     if args.out:
-        written = write_plan_files(plan, args.out)
+        written = write_plan_files(plan, args.out, force=args.force)
         summary["files"] = [str(p) for p in written]
-        print("wrote " + ", ".join(str(p) for p in written), file=sys.stderr)
+        print("wrote " + ", ".join(printable(p) for p in written), file=sys.stderr)
     if args.json:
         summary["caution"] = CAUTION
         print(json.dumps(summary, indent=2, allow_nan=False))
@@ -208,6 +216,8 @@ def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
                    help="also write <block>_fill.csv and <block>_fill.json (fill list for "
                    "place-and-route scripts), <block>_plan.html, and <block>_z.csv / "
                    "<block>_z.s1p (block impedance) into DIR")
+    p.add_argument("--force", action="store_true",
+                   help="with --out: replace existing files (never links, pipes or read-only files)")
     p.add_argument("--no-explain", action="store_true",
                    help="skip the re-solves that price the kind limit and ESD-safe-only "
                    "regions (faster; shadow prices are still given)")

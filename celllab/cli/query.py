@@ -13,6 +13,8 @@ from collections.abc import Sequence
 from typing import Any
 
 from celllab import CAUTION_SHORT, DEFAULT_CATALOG
+from celllab.cli.args import MAX_ROWS, whole_number
+from celllab.cli.text import printable
 from celllab.columns import CELL_COLUMNS, COLUMNS, METRIC_BY_NAME, METRIC_NAMES, RANKED, unit_of
 from celllab.display import LOWER_BOUND, format_value, jsonable, mark_bounds, text_table
 from celllab.units import from_si
@@ -258,7 +260,7 @@ def cmd_merge(args: argparse.Namespace) -> int:
     from celllab.catalog import open_catalog
 
     with open_catalog(args.catalog) as cat:
-        report = cat.merge_from(args.file)
+        report = cat.merge_from(args.file, make_current=args.make_current)
     if args.json:
         print(
             dump_json(
@@ -267,18 +269,32 @@ def cmd_merge(args: argparse.Namespace) -> int:
                     "identical": report.identical,
                     "decks_added": report.decks_added,
                     "runs_added": report.runs_added,
+                    "decks_not_current": report.decks_not_current,
+                    "decks_made_current": report.decks_made_current,
                     "conflicts": report.conflicts,
                 }
             )
         )
     else:
         print(
-            f"merged {args.file} into {args.catalog}: {report.added} results added "
-            f"({report.decks_added} decks, {report.runs_added} runs), {report.identical} identical, "
-            f"{len(report.conflicts)} conflicts"
+            printable(
+                f"merged {args.file} into {args.catalog}: {report.added} results added "
+                f"({report.decks_added} decks, {report.runs_added} runs), {report.identical} "
+                f"identical, {len(report.conflicts)} conflicts"
+            )
         )
+        for line in report.decks_made_current:
+            print(printable(f"  now current (--make-current): deck {line}"))
+        if report.decks_not_current:
+            print(
+                printable(
+                    f"  not current: deck {', '.join(report.decks_not_current)} - stored, but "
+                    "queries show a deck only while it is current; a merge makes no deck "
+                    "current unless given --make-current"
+                )
+            )
         for line in report.conflicts:
-            print(f"  conflict: {line}")
+            print(printable(f"  conflict: {line}"))
     return 1 if report.conflicts else 0
 
 
@@ -346,9 +362,14 @@ def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
     order.add_argument("--asc", action="store_true", help="smallest first")
     order.add_argument("--desc", action="store_true", help="largest first")
     p.add_argument(
-        "--limit", type=int, default=20, help="rows to print, 0 for all (default: %(default)s)"
+        "--limit",
+        type=whole_number(0, MAX_ROWS),
+        default=20,
+        help="rows to print, 0 for all (default: %(default)s)",
     )
-    p.add_argument("--offset", type=int, default=0, help="rows to skip first (paging)")
+    p.add_argument(
+        "--offset", type=whole_number(0, MAX_ROWS), default=0, help="rows to skip first (paging)"
+    )
     p.set_defaults(func=cmd_rank)
 
     p = sub.add_parser(
@@ -407,10 +428,18 @@ def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
         description="Import decks, runs and results of another catalog file in one "
         "transaction. Identical results are skipped; conflicting ones (same deck, "
         "cell and model version with other numbers, or a cell name with another "
-        "hash under the same deck) are listed and not imported. The other file is "
-        "not changed. Exit status 1 when there were conflicts.",
+        "hash under the same deck) are listed and not imported. Every row of the other "
+        "file is checked as a fresh run is (hashes recomputed); a file that fails is refused "
+        "whole, naming it. The other file is read only, never changed. Imported decks stay "
+        "not current unless --make-current is given. Exit status 1 when there were conflicts.",
     )
     _common(p, deck=False, corner=False)
     p.add_argument("file", metavar="FILE", help="catalog file to import from")
+    p.add_argument(
+        "--make-current",
+        action="store_true",
+        help="per deck name, make current the deck made current most recently in either "
+        "catalog (without it no deck's current state changes)",
+    )
     p.add_argument("--json", action="store_true", help="print a JSON report")
     p.set_defaults(func=cmd_merge)

@@ -28,6 +28,16 @@ AccelerationModel = Literal["power_law", "e_model", "inverse_e"]
 LeakageModel = Literal["direct_tunnel", "reference"]
 OxideName = Literal["core", "io"]
 
+#: Documented input limits (process_decks/README.md, "Limits"): enough for any process and
+#: small enough that checking a deck stays quick.
+MAX_CORNERS = 100
+MAX_METALS = 32
+MAX_NAMED_RAILS = 32
+#: Words the catalog and the CLI use for a cell's aggregate over its corners (``--corner worst``);
+#: a corner of that name would be hidden by the aggregate.
+RESERVED_CORNER_NAMES: tuple[str, ...] = ("worst", "best", "all")
+CORNER_NAME = re.compile(r"[A-Za-z0-9_-]{1,40}")
+
 
 #: ``model_dump(context=FULL_DUMP)`` keeps every field (dotted paths of corners and what-ifs
 #: reach fields at their defaults too); the plain dump is the canonical one.
@@ -158,6 +168,9 @@ class OxideFlavour(StrictModel):
     overlap_cap_fF_per_um: float = _f(0, 2, "gate-to-diffusion overlap plus fringe capacitance per "
                                       "um of gate width per side, fF/um")
     min_gate_length_um: float = _f(0.01, 10, "minimum drawn gate length, um")
+    min_gate_width_um: float | None = _f(0.01, 10, "minimum drawn gate (diffusion) width per "
+                                         "finger and row, um; omitted: min_gate_length_um",
+                                         default=None)
     breakdown_field_dc_MV_per_cm: float = _f(1, 40, "DC ramp breakdown field, MV/cm")
     breakdown_field_pulse_MV_per_cm: float = _f(1, 60, "short-pulse (~100 ns) breakdown field, MV/cm")
     nmos: DeviceParams
@@ -207,6 +220,16 @@ class OxideFlavour(StrictModel):
         if self.breakdown_field_pulse_MV_per_cm < self.breakdown_field_dc_MV_per_cm:
             raise ValueError("breakdown_field_pulse_MV_per_cm must not be below breakdown_field_dc_MV_per_cm")
         return self
+
+    @model_serializer(mode="wrap")
+    def _canonical(self, handler: SerializerFunctionWrapHandler, info: SerializationInfo) -> dict[str, Any]:
+        # left out of the dump (and the content hash) while omitted
+        return _without_defaults(dict(handler(self)), {"min_gate_width_um": None}, info)
+
+    @property
+    def min_width_um(self) -> float:
+        """Smallest gate width a cell may draw on this oxide, um."""
+        return self.min_gate_width_um if self.min_gate_width_um is not None else self.min_gate_length_um
 
     @property
     def eot_m(self) -> float:
@@ -380,7 +403,7 @@ class Supplies(StrictModel):
                               description="net name of the I/O supply rail (cells on the io oxide)")
     io_ground_net: str = Field(NET_NAME_DEFAULTS["io_ground_net"], pattern=_NET,
                                description="net name of the ground rail of io-oxide cells")
-    named: dict[str, NamedSupply] = Field(default_factory=dict, description="further rails by name "
+    named: dict[str, NamedSupply] = Field(default_factory=dict, max_length=MAX_NAMED_RAILS, description="further rails by name "
                                           "(lower-case letters, digits, _), which cells may name as their rail")
 
     @model_serializer(mode="wrap")
@@ -506,11 +529,11 @@ class Deck(StrictModel):
     wells: Wells
     junctions: Junctions = Junctions()
     resistances: Resistances
-    metals: list[MetalLayer] = Field(min_length=1)
+    metals: list[MetalLayer] = Field(min_length=1, max_length=MAX_METALS)
     layout: Layout
     supplies: Supplies
     analysis: AnalysisBand = AnalysisBand()
-    corners: dict[str, Corner] = Field(min_length=1)
+    corners: dict[str, Corner] = Field(min_length=1, max_length=MAX_CORNERS)
     rails: dict[str, RailDomain] = Field(default_factory=dict, description="ESD clamp and supply of "
                                          "each rail (core, io or a named rail); a rail not listed takes "
                                          "the defaults")
@@ -549,8 +572,9 @@ class Deck(StrictModel):
         """Cross-field rules, one (dotted field, value, message) per broken rule."""
         problems: list[tuple[str, object, str]] = []
         names = [m.name for m in self.metals]
+        first: dict[str, int] = {}
         for i, name in enumerate(names):
-            if names.index(name) != i:
+            if first.setdefault(name, i) != i:
                 problems.append((f"metals[{i}].name", name, "layer names must be unique"))
         for i in range(1, len(self.metals)):
             lower, upper = self.metals[i - 1], self.metals[i]
@@ -591,8 +615,13 @@ class Deck(StrictModel):
                                  f"must exceed the domain's supply ({v_supply:g} V), or the clamp "
                                  "conducts in operation"))
         for corner_name in self.corners:
-            if not corner_name.replace("_", "").replace("-", "").isalnum():
-                problems.append((f"corners.{corner_name}", corner_name, "corner names use letters, digits, _ and -"))
+            if not CORNER_NAME.fullmatch(corner_name):
+                problems.append((f"corners.{corner_name}", corner_name,
+                                 "corner names use letters, digits, _ and - (1 to 40 of them)"))
+            elif corner_name.lower() in RESERVED_CORNER_NAMES:
+                problems.append((f"corners.{corner_name}", corner_name,
+                                 "a reserved word (the aggregate over all corners); choose another "
+                                 "name; reserved: " + ", ".join(RESERVED_CORNER_NAMES)))
         problems += self._row_structure_problems()
         problems += self._named_supply_problems()
         problems += self._tempco_problems()
@@ -619,13 +648,13 @@ class Deck(StrictModel):
         problems: list[tuple[str, object, str]] = []
         s = self.supplies
         powers = {s.core_power_net, s.io_power_net}
-        grounds = {s.core_ground_net, s.io_ground_net}
+        grounds = {s.core_ground_net, s.io_ground_net} | {r.ground_net for r in s.named.values()}
         for name, rail in s.named.items():
             where = f"supplies.named.{name}"
             if name in BUILT_IN_RAILS or not _RAIL_NAME.match(name):
                 problems.append((where, name, "rail names use lower-case letters, digits and _ (start "
                                  "with a letter, at most 24) and may not be " + " or ".join(BUILT_IN_RAILS)))
-            if rail.power_net in grounds | {r.ground_net for r in s.named.values()}:
+            if rail.power_net in grounds:
                 problems.append((f"{where}.power_net", rail.power_net, "a supply net cannot also be a ground net"))
             if rail.ground_net in powers:
                 problems.append((f"{where}.ground_net", rail.ground_net, "a ground net cannot also be a supply net"))

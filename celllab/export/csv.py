@@ -147,6 +147,7 @@ def write_csv(
     rows: Iterable[Mapping[str, Any]],
     columns: Sequence[str] | None = None,
     comments: bool = True,
+    force: bool = False,
 ) -> Path:
-    """Write :func:`render_csv` output to ``path`` atomically."""
-    return atomic_write_text(path, render_csv(rows, columns=columns, comments=comments))
+    """Write :func:`render_csv` output to ``path`` atomically (``force``: replace a file)."""
+    return atomic_write_text(path, render_csv(rows, columns=columns, comments=comments), force)

@@ -442,17 +442,24 @@ def render_library_html(
 
 
 def write_datasheet(
-    path: str | os.PathLike[str], cell: CellResult, deck_name: str | None, **options: Any
+    path: str | os.PathLike[str],
+    cell: CellResult,
+    deck_name: str | None,
+    force: bool = False,
+    **options: Any,
 ) -> Path:
-    """Write :func:`render_datasheet_html` output to ``path`` atomically."""
-    return atomic_write_text(path, render_datasheet_html(cell, deck_name, **options))
+    """Write :func:`render_datasheet_html` output to ``path`` atomically (``force``: replace a
+    file)."""
+    return atomic_write_text(path, render_datasheet_html(cell, deck_name, **options), force)
 
 
 def write_library_datasheet(
     path: str | os.PathLike[str],
     cells: Sequence[CellResult],
     deck_name: str | None,
+    force: bool = False,
     **options: Any,
 ) -> Path:
-    """Write :func:`render_library_html` output to ``path`` atomically."""
-    return atomic_write_text(path, render_library_html(cells, deck_name, **options))
+    """Write :func:`render_library_html` output to ``path`` atomically (``force``: replace a
+    file)."""
+    return atomic_write_text(path, render_library_html(cells, deck_name, **options), force)

@@ -28,8 +28,9 @@ from matplotlib.figure import Figure
 from matplotlib.ticker import FuncFormatter, NullLocator
 
 from celllab import __version__
-from celllab.export import CAUTION, atomic_write_text
+from celllab.export import CAUTION
 from celllab.export.csv import format_value
+from celllab.export.files import file_stem, write_files_atomic
 from celllab.planner.network_figures import NetworkFigures, RegionFigures
 
 __all__ = [
@@ -438,18 +439,17 @@ def render_network_html(figures: NetworkFigures, title: str = "Supply network") 
 
 
 def write_network_files(figures: NetworkFigures, folder: str | os.PathLike[str],
-                        stem: str = "network") -> list[Path]:
+                        stem: str = "network", force: bool = False) -> list[Path]:
     """Write ``<stem>_z.csv``, ``<stem>_<corner>.sNp``, ``<stem>_droop.csv`` (with a droop
-    run) and ``<stem>.html`` into ``folder`` (created), each atomically."""
-    out = Path(folder)
-    out.mkdir(parents=True, exist_ok=True)
+    run) and ``<stem>.html`` into ``folder`` (created): everything rendered and every target
+    checked first, each file atomic, an existing file replaced only with ``force``
+    (``export.files.write_files_atomic``)."""
     n = len(figures.region_names)
-    written = [atomic_write_text(out / f"{stem}_z.csv", render_z_csv(figures))]
+    stem = file_stem(stem)
+    texts = {f"{stem}_z.csv": render_z_csv(figures)}
     for corner in figures.corners:
-        safe = re.sub(r"[^A-Za-z0-9_-]", "_", corner)
-        written.append(atomic_write_text(out / f"{stem}_{safe}.s{n}p",
-                                         render_z_touchstone(figures, corner)))
+        texts[f"{stem}_{file_stem(corner)}.s{n}p"] = render_z_touchstone(figures, corner)
     if figures.droop_run is not None:
-        written.append(atomic_write_text(out / f"{stem}_droop.csv", render_droop_csv(figures)))
-    written.append(atomic_write_text(out / f"{stem}.html", render_network_html(figures)))
-    return written
+        texts[f"{stem}_droop.csv"] = render_droop_csv(figures)
+    texts[f"{stem}.html"] = render_network_html(figures)
+    return write_files_atomic(folder, texts, force=force)

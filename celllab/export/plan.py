@@ -28,7 +28,8 @@ import numpy as np
 from scipy.constants import femto, micro, milli, nano
 
 from celllab import __version__
-from celllab.export import CAUTION, atomic_write_text
+from celllab.export import CAUTION
+from celllab.export.files import write_files_atomic
 from celllab.planner.result import BlockPlan
 
 __all__ = [
@@ -294,11 +295,16 @@ def render_impedance_touchstone(plan: BlockPlan, reference_ohm: float = 1.0) -> 
     return "\n".join(lines) + "\n"
 
 
-def write_plan_files(plan: BlockPlan, folder: str | os.PathLike[str]) -> list[Path]:
+def plan_file_names(block_name: str) -> list[str]:
+    """Every file ``write_plan_files`` may write for a block of this name."""
+    return [f"{block_name}_{part}" for part in ("fill.csv", "fill.json", "plan.html", "z.csv", "z.s1p")]
+
+
+def write_plan_files(plan: BlockPlan, folder: str | os.PathLike[str], force: bool = False) -> list[Path]:
     """Write the fill list (CSV, JSON), the HTML report and, when the block has a PDN, its
-    impedance (CSV, Touchstone) into ``folder`` (created); every file rendered before any is
-    written, each written atomically. Returns the paths written."""
-    out = Path(folder)
+    impedance (CSV, Touchstone) into ``folder`` (created); every file rendered and every target
+    checked before any is written, each written atomically (``export.files.write_files_atomic``:
+    an existing file is replaced only with ``force``). Returns the paths written."""
     name = plan.block_name
     texts = {f"{name}_fill.csv": render_fill_csv(plan),
              f"{name}_fill.json": render_fill_json(plan),
@@ -306,5 +312,4 @@ def write_plan_files(plan: BlockPlan, folder: str | os.PathLike[str]) -> list[Pa
     if plan.pdn is not None and plan.die is not None:
         texts[f"{name}_z.csv"] = render_impedance_csv(plan)
         texts[f"{name}_z.s1p"] = render_impedance_touchstone(plan)
-    out.mkdir(parents=True, exist_ok=True)
-    return [atomic_write_text(out / file, text) for file, text in texts.items()]
+    return write_files_atomic(folder, texts, force=force)

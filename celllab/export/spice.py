@@ -493,13 +493,16 @@ def write_spice(
     n_segments: int | None = None,
     accuracy: float | None = None,
     max_segments: int = MAX_SEGMENTS,
+    force: bool = False,
 ) -> Path:
-    """Write :func:`render_spice_library` output to ``path`` atomically."""
+    """Write :func:`render_spice_library` output to ``path`` atomically (``force``: replace a
+    file)."""
     return atomic_write_text(
         path,
         render_spice_library(
             cells, deck_name, corner, n_segments, accuracy=accuracy, max_segments=max_segments
         ),
+        force,
     )
 
 

@@ -57,7 +57,7 @@ import numpy as np
 from pydantic import BaseModel, ConfigDict, Field, PrivateAttr, ValidationError
 from scipy.constants import giga, mega, milli, nano, pico
 
-from celllab.deck.load import find_line, read_toml, validation_problems
+from celllab.deck.load import find_line, read_text_file, read_toml, validation_problems
 from celllab.errors import PlanError, Problem
 from celllab.planner.network import (
     FillEntry,
@@ -88,6 +88,13 @@ __all__ = [
 ]
 
 _NAME = r"^[A-Za-z][A-Za-z0-9_]{0,39}$"
+#: Documented limits (process_decks/README.md, "Limits"): the network is solved as a dense
+#: matrix over its regions at every frequency, so its size is bounded before any work.
+MAX_NETWORK_REGIONS = 200
+MAX_NETWORK_LINKS = 1000
+#: Smallest value a "> 0" field takes, in its own unit: a positive number far below any real
+#: network (5e-324 nF would become 0 F in SI, and divisions by it overflow).
+MIN_POSITIVE = 1e-6
 
 
 class _Strict(BaseModel):
@@ -97,7 +104,7 @@ class _Strict(BaseModel):
 class OffChipSpec(_Strict):
     """Decoupling at the package pins (board or package capacitor)."""
 
-    capacitance_nF: float = Field(gt=0, le=1e9, description="capacitance, nF")
+    capacitance_nF: float = Field(ge=MIN_POSITIVE, le=1e9, description="capacitance, nF")
     esr_mohm: float = Field(0.0, ge=0, le=1e6, description="equivalent series resistance, mohm")
     esl_nH: float = Field(0.0, ge=0, le=1e3, description="equivalent series inductance, nH")
 
@@ -107,18 +114,18 @@ class ActivitySpec(_Strict):
 
     stimulus: Literal["step", "clock", "samples"] = Field(
         "clock", description="waveform for droop in time: step, clock or samples")
-    peak_current_mA: float = Field(gt=0, le=1e6, description="step / pulse height, mA")
-    rise_time_ps: float = Field(gt=0, le=1e9, description="0-100 % rise of the edge, ps")
-    fall_time_ps: float | None = Field(None, gt=0, le=1e9,
+    peak_current_mA: float = Field(ge=MIN_POSITIVE, le=1e6, description="step / pulse height, mA")
+    rise_time_ps: float = Field(ge=MIN_POSITIVE, le=1e9, description="0-100 % rise of the edge, ps")
+    fall_time_ps: float | None = Field(None, ge=MIN_POSITIVE, le=1e9,
                                        description="pulse fall, ps (default: rise_time_ps)")
-    clock_MHz: float | None = Field(None, gt=0, le=1e5, description="clock frequency, MHz")
-    charge_per_cycle_pC: float | None = Field(None, gt=0, le=1e9,
+    clock_MHz: float | None = Field(None, ge=MIN_POSITIVE, le=1e5, description="clock frequency, MHz")
+    charge_per_cycle_pC: float | None = Field(None, ge=MIN_POSITIVE, le=1e9,
                                               description="charge of one clock pulse, pC")
     base_current_mA: float = Field(0.0, ge=0, le=1e6,
                                    description="current before the step / between pulses, mA")
     step_delay_ns: float = Field(1.0, ge=0, le=1e6, description="when the step starts, ns")
     average_current_mA: float | None = Field(
-        None, gt=0, le=1e6, description="average current for the IR drop, mA (default: "
+        None, ge=MIN_POSITIVE, le=1e6, description="average current for the IR drop, mA (default: "
         "from the waveform)")
     waveform_csv: str | None = Field(None, min_length=1,
                                      description="t_ns,i_mA samples (stimulus 'samples'), "
@@ -135,9 +142,9 @@ class RegionSpec(_Strict):
     intrinsic_capacitance_nF: float = Field(ge=0, le=1e6,
                                             description="non-switching capacitance, nF")
     intrinsic_esr_mohm: float = Field(0.0, ge=0, le=1e9, description="its series R, mohm")
-    ripple_fraction: float | None = Field(None, gt=0, lt=1,
+    ripple_fraction: float | None = Field(None, ge=MIN_POSITIVE, lt=1,
                                           description="allowed ripple / V_DD for this region")
-    ir_drop_limit_mV: float | None = Field(None, gt=0, le=1e4,
+    ir_drop_limit_mV: float | None = Field(None, ge=MIN_POSITIVE, le=1e4,
                                            description="DC drop allowed at this region, mV")
     activity: ActivitySpec | None = Field(
         None, description="the switching current; absent: a quiet region (no current of its own)")
@@ -154,26 +161,27 @@ class LinkSpec(_Strict):
 class NetworkSpec(_Strict):
     """The ``[network]`` table."""
 
-    supply_V: float | None = Field(None, gt=0, le=10,
+    supply_V: float | None = Field(None, ge=MIN_POSITIVE, le=10,
                                    description="supply, V (default: the block's supply)")
-    ripple_fraction: float = Field(0.05, gt=0, lt=1, description="allowed ripple / V_DD")
-    ir_drop_limit_mV: float = Field(gt=0, le=1e4,
+    ripple_fraction: float = Field(0.05, ge=MIN_POSITIVE, lt=1, description="allowed ripple / V_DD")
+    ir_drop_limit_mV: float = Field(ge=MIN_POSITIVE, le=1e4,
                                     description="DC drop allowed at a region node, mV")
     package_resistance_mohm: float = Field(ge=0, le=1e6, description="package loop, mohm")
     package_inductance_nH: float = Field(ge=0, le=1e3, description="package loop, nH")
     board_resistance_mohm: float = Field(0.0, ge=0, le=1e6, description="board path, mohm")
     board_inductance_nH: float = Field(0.0, ge=0, le=1e3, description="board path, nH")
     offchip_decap: OffChipSpec | None = None
-    regions: dict[str, RegionSpec] = Field(min_length=1, description="region name -> region")
-    links: list[LinkSpec] = Field(default_factory=list)
+    regions: dict[str, RegionSpec] = Field(min_length=1, max_length=MAX_NETWORK_REGIONS,
+                                           description="region name -> region")
+    links: list[LinkSpec] = Field(default_factory=list, max_length=MAX_NETWORK_LINKS)
     size_entrance_resistors: bool = Field(
         False, description="size a damping resistor at each region entrance")
-    f_min_MHz: float = Field(0.1, gt=0, le=1e5, description="analysis from, MHz")
-    f_max_GHz: float = Field(10.0, gt=0, le=1e3, description="analysis up to, GHz")
+    f_min_MHz: float = Field(0.1, ge=MIN_POSITIVE, le=1e5, description="analysis from, MHz")
+    f_max_GHz: float = Field(10.0, ge=MIN_POSITIVE, le=1e3, description="analysis up to, GHz")
     points_per_decade: int = Field(40, ge=5, le=400, description="analysis grid density")
-    emission_f_max_MHz: float = Field(1000.0, gt=0, le=1e5,
+    emission_f_max_MHz: float = Field(1000.0, ge=MIN_POSITIVE, le=1e5,
                                       description="highest clock harmonic for emission, MHz")
-    probe_ohm: float = Field(1.0, gt=0, le=1e3,
+    probe_ohm: float = Field(1.0, ge=MIN_POSITIVE, le=1e3,
                              description="ground-return probe resistance, ohm")
 
     def frequencies(self) -> np.ndarray:
@@ -346,13 +354,7 @@ def read_waveform_csv(path: str | Path) -> tuple[np.ndarray, np.ndarray]:
     ``#`` lines are comments. Raises ``PlanError`` naming the file, the row and the column for
     a missing header, a non-number, times that do not increase, or fewer than two rows.
     """
-    p = Path(path)
-    try:
-        text = p.read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise PlanError.single(str(path), "", "waveform file not found") from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise PlanError.single(str(path), "", f"cannot read waveform file: {exc}") from None
+    text = read_text_file(path, PlanError, kind="CSV (t_ns,i_mA)")
     rows = [(n, line) for n, line in enumerate(text.splitlines(), start=1)
             if line.strip() and not line.lstrip().startswith("#")]
     if not rows:

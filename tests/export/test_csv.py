@@ -11,6 +11,7 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
+from celllab.errors import OutputError
 from celllab.export import CAUTION, atomic_write_text
 from celllab.export.csv import DEFAULT_COLUMNS, format_value, render_csv, rows_from_cells, write_csv
 from celllab.records import CELL_COLUMNS, METRIC_NAMES, METRICS
@@ -139,7 +140,7 @@ def test_any_float_round_trips(value):
 def test_write_csv_replaces_the_file_whole(tmp_path, library, deck_name):
     target = tmp_path / "cells.csv"
     target.write_text("old contents")
-    write_csv(target, rows_from_cells(library, deck_name))
+    write_csv(target, rows_from_cells(library, deck_name), force=True)  # replacing is asked for
     assert len(read_back(target.read_text(encoding="utf-8"))) == sum(
         len(c.corners) for c in library
     )
@@ -154,7 +155,7 @@ def test_a_failed_write_leaves_the_old_file(tmp_path, monkeypatch):
         raise OSError("disk full")
 
     monkeypatch.setattr(os, "replace", broken_replace)
-    with pytest.raises(OSError, match="disk full"):
-        atomic_write_text(target, "new text")
+    with pytest.raises(OutputError, match="disk full"):  # located: names the file
+        atomic_write_text(target, "new text", force=True)
     assert target.read_text() == "previous"
     assert [p.name for p in tmp_path.iterdir()] == ["out.csv"]

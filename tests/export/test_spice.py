@@ -324,7 +324,7 @@ def test_ngspice_on_engine_cells(tmp_path, deck_dir, lumen130):
     assert {c.topology for c in run.cells} == set(first)
     for cell in run.cells:
         for corner, netlist in stored_circuits(cell).items():
-            library_file = write_spice(tmp_path / "engine.lib", [cell], run.deck_name, corner)
+            library_file = write_spice(tmp_path / "engine.lib", [cell], run.deck_name, corner, force=True)
             band = cell.corner(corner).response.freq_Hz  # the ladder is sized to the deck's band
             freq, z_spice = simulate_port_impedance(
                 tmp_path, library_file, spice_name(cell.name), f"dec 10 {band[0]:.6e} {band[-1]:.6e}"
