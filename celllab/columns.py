@@ -24,6 +24,9 @@ from collections.abc import Callable, Iterable
 from dataclasses import dataclass
 from typing import Any, Literal
 
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+
 from celllab.units import from_si
 
 Better = Literal["higher", "lower"]
@@ -88,6 +91,16 @@ class Column:
         if not kept:
             return math.nan
         return max(kept) if self.takes_max(extreme) else min(kept)
+
+    def corner_index(self, values: ArrayLike, extreme: Extreme, axis: int = -1
+                     ) -> NDArray[np.intp]:
+        """Index of the ``extreme`` corner along ``axis`` of an array of per-corner values:
+        the vectorized twin of ``over_corners`` (empty values, NaN, are skipped; where every
+        corner is empty the first is named)."""
+        v = np.asarray(values, dtype=float)
+        if self.takes_max(extreme):
+            return np.asarray(np.argmax(np.where(np.isnan(v), -np.inf, v), axis=axis))
+        return np.asarray(np.argmin(np.where(np.isnan(v), np.inf, v), axis=axis))
 
     def improved(self, before: float, after: float) -> bool:
         """Whether ``after`` is better than ``before`` in this column's direction."""

@@ -13,7 +13,7 @@ Where a region's fill lives (for tools that attach it to a supply-network model)
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 from numpy.typing import NDArray
@@ -24,6 +24,9 @@ from celllab.planner.corners import POLICIES
 from celllab.planner.impedance import DieNetwork, PdnFigures
 from celllab.planner.sizing import RegionNeed
 from celllab.records import CellResult
+
+if TYPE_CHECKING:
+    from celllab.planner.supply import SupplyAnalysis
 
 __all__ = [
     "RULE_DROOP_FRACTION",
@@ -206,7 +209,11 @@ class CornerTotals:
 
 @dataclass(frozen=True)
 class BlockPlan:
-    """A planned block (SI). ``to_dict`` gives display units."""
+    """A planned block (SI). ``to_dict`` gives display units.
+
+    ``network`` is what the fill does to the supply network (`planner.supply.SupplyAnalysis`),
+    None without a ``[network]`` table (or when not asked for).
+    """
 
     block_name: str
     deck: str
@@ -234,6 +241,7 @@ class BlockPlan:
     die: DieNetwork | None
     pdn: PdnFigures | None
     notes: list[str] = field(default_factory=list)
+    network: SupplyAnalysis | None = None
 
     def region(self, name: str) -> RegionFill:
         for r in self.regions:
