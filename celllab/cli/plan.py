@@ -1,9 +1,11 @@
 """The ``plan`` verb: fill a block's gaps region by region with catalog decaps and report the
-fill, its budgets, the constraints that bound it and the block's lumped PDN figures.
+fill, its budgets, the constraints that bound it and what the fill does to the supply (the
+block's ``[network]``: resonances, target check, damping trade, droop in time, emission).
 
     celllab plan process_decks/blocks/lumen130_dsp.toml --catalog db/celllab.sqlite
     celllab plan BLOCK.toml --json
-    celllab plan BLOCK.toml --out plans/    # fill list CSV/JSON, HTML report, Z(f) CSV/s1p
+    celllab plan BLOCK.toml --out plans/    # fill list, HTML report, Z(f) CSV/Touchstone
+    celllab plan BLOCK.toml --no-droop      # skip the slow parts: --no-damping, --no-network
 """
 
 from __future__ import annotations
@@ -126,7 +128,11 @@ def render_report(summary: dict[str, Any], console: Any) -> None:
                          [[c["corner"], c["cap_nF"], c["leakage_uA"]] for c in s["corners"]],
                          {1, 2}))
     pdn = s["pdn"]
-    if pdn and "f0_MHz" in pdn:
+    if s.get("network") is not None:
+        from celllab.cli.plan_network import render_network
+
+        render_network(s["network"], console, _table)
+    elif pdn and "f0_MHz" in pdn:
         rows = [
             ("die capacitance (fill + intrinsic) [nF]", f"{_n(pdn['die_cap_nF'])} = "
              f"{_n(pdn['fill_cap_nF'])} + {_n(pdn['intrinsic_cap_nF'])}"),
@@ -138,7 +144,8 @@ def render_report(summary: dict[str, Any], console: Any) -> None:
             ("first droop, undamped [mV]", _n(pdn["first_droop_mV"])),
             ("|Z| below target over the sweep", "yes" if pdn["below_target"] else "NO"),
         ]
-        console.print(_table("lumped PDN of the block", ["figure", "value"],
+        console.print(_table("lumped PDN of the block (one package L, one die C; a [network] "
+                             "table gives the supply network instead)", ["figure", "value"],
                              [list(r) for r in rows], set()))
     for note in s["notes"]:
         console.print(f"note: {note}", soft_wrap=True)
@@ -157,6 +164,16 @@ def _progress(enabled: bool) -> Iterator[Any]:
         yield lambda text: status.update(text)
 
 
+def network_options(args: argparse.Namespace) -> Any:
+    """The supply-network analysis the flags ask for (None: none)."""
+    from celllab.planner.supply import NetworkOptions
+
+    if args.no_network:
+        return None
+    return NetworkOptions(droop=not args.no_droop, entrance=False if args.no_damping else None,
+                          fill_damping=not args.no_damping)
+
+
 def cmd_plan(args: argparse.Namespace) -> int:
     from rich.console import Console
 
@@ -167,7 +184,8 @@ def cmd_plan(args: argparse.Namespace) -> int:
     block = load_block(args.block)
     with open_catalog(args.catalog, create=False) as catalog, \
             _progress(sys.stderr.isatty()) as say:
-        plan = plan_block(block, catalog, explain=not args.no_explain, progress=say)
+        plan = plan_block(block, catalog, explain=not args.no_explain, progress=say,
+                          network=network_options(args))
     summary = plan.to_dict()
     if args.out:
         written = write_plan_files(plan, args.out)
@@ -192,12 +210,18 @@ def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
         "budget (at the leakiest corner), the thin-oxide area budget (direct, or from a "
         "failure target over a mission), ESD-safe-only regions and a limit on distinct "
         "kinds. Prints per region and gap class the cells, counts, capacitance, leakage and "
-        "what stays empty and why, the budgets and which of them bind, and the block's "
-        "lumped PDN figures. The block file (TOML) has tables [block], [candidates] (where, "
-        "corner), [budgets] (leakage_uA, max_kinds, thin_oxide_area_mm2, [budgets.wearout]), "
-        "[objective] (goal, mip_rel_gap, time_limit_s), [[region]] with "
-        "[[region.row_gaps]] and [[region.open_slots]], and an optional [network] table "
-        "kept for the supply-network model. See README, 'Planning a block'.",
+        "what stays empty and why, the budgets and which of them bind, and, when the block "
+        "file has a [network] table, what the fill does to the supply at every corner, each "
+        "figure at its own worst corner: per region every resonance (f, |Z|, Q), the target "
+        "check over its band, the damping trade (entrance resistors: peak |Z|, droop, IR "
+        "drop, power lost), droop in time (first droop, ringing, settling) and the emission "
+        "change per band against no on-die decap and a naive densest-cell fill (1 ohm probe, "
+        "dBuV); without one, the block's lumped PDN figures. The block file (TOML) has "
+        "tables [block], [candidates] (where, corner), [budgets] (leakage_uA, max_kinds, "
+        "thin_oxide_area_mm2, [budgets.wearout]), [objective] (goal, mip_rel_gap, "
+        "time_limit_s), [[region]] with [[region.row_gaps]] and [[region.open_slots]], and "
+        "an optional [network] (board, off-chip decap, [network.regions.NAME] paths, links, "
+        "size_entrance_resistors, fill_damping_weight). See README, 'Planning a block'.",
         epilog="Estimates from analytic models, not sign-off: defer to the foundry's rules, "
         "qualified models, reliability and ESD qualification and licensed practice.")
     p.add_argument("block", metavar="BLOCKFILE", help="block file (TOML)")
@@ -206,9 +230,20 @@ def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
     p.add_argument("--json", action="store_true", help="print the plan as JSON")
     p.add_argument("--out", metavar="DIR",
                    help="also write <block>_fill.csv and <block>_fill.json (fill list for "
-                   "place-and-route scripts), <block>_plan.html, and <block>_z.csv / "
-                   "<block>_z.s1p (block impedance) into DIR")
+                   "place-and-route scripts) and <block>_plan.html into DIR; with a "
+                   "[network]: <block>_z_<region>.csv (|Z| per region and corner), "
+                   "<block>_<corner>.sNp (region Z-matrix, Touchstone) and "
+                   "<block>_droop.csv; without: <block>_z.csv / <block>_z.s1p (lumped PDN)")
     p.add_argument("--no-explain", action="store_true",
                    help="skip the re-solves that price the kind limit and ESD-safe-only "
                    "regions (faster; shadow prices are still given)")
+    p.add_argument("--no-droop", action="store_true",
+                   help="skip the droop runs in time (the slowest part of the network "
+                   "analysis); impedance, resonances, damping and emission are still given")
+    p.add_argument("--no-damping", action="store_true",
+                   help="skip sizing entrance resistors and damping through the fill, even "
+                   "when the block file asks for them")
+    p.add_argument("--no-network", action="store_true",
+                   help="skip the supply-network analysis (the lumped PDN figures are "
+                   "printed instead)")
     p.set_defaults(func=cmd_plan)

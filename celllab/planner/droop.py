@@ -67,9 +67,9 @@ MAX_STEPS = 6000
 LADDER_X = 0.03
 LADDER_BOUNDS = (2, 64)
 #: Time steps per fastest edge in a clock run (the whole run is stepped this finely, since
-#: every pulse has edges); a pulse's corners then fall within a quarter of an edge, which
-#: moves its droop by well under 1 % (against a tenth of an edge).
-CLOCK_STEPS_PER_EDGE = 4
+#: every pulse has edges); a pulse's corners then fall within a third of an edge, which moved
+#: the first and worst droop of the demo blocks by under 0.5 % against a tenth of an edge.
+CLOCK_STEPS_PER_EDGE = 3
 
 
 @dataclass(frozen=True)
@@ -99,7 +99,7 @@ def droop_grid(activities: Sequence[Activity | None], f_ring: float, settle_time
 
     Step and samples: steps of a tenth of the fastest edge over the edges, then 1/60 of the
     ringing period over three ring periods, then a coarser step (at most 400 more) to
-    ``settle_time`` after the edges. Clocks: a quarter of the fastest edge throughout
+    ``settle_time`` after the edges. Clocks: a third of the fastest edge throughout
     (``CLOCK_STEPS_PER_EDGE``; every pulse has edges), or 1/60 of the ringing period if
     finer, over ``settle_time`` and at least three clock periods.
 

@@ -14,7 +14,7 @@ corners by kind and frequency (within a factor ``TRACK_RATIO``).
 
 from __future__ import annotations
 
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field, replace
 
 import numpy as np
@@ -282,13 +282,15 @@ def region_targets(network: BlockNetwork, goals: NetworkGoals
     return targets, bands, notes
 
 
-def evaluate_network(network: BlockNetwork, goals: NetworkGoals) -> NetworkFigures:
+def evaluate_network(network: BlockNetwork, goals: NetworkGoals,
+                     progress: Callable[[str], None] | None = None) -> NetworkFigures:
     """Impedance, resonances, target check, damping, droop and emission of a block network.
 
     Parameters
     ----------
     network : BlockNetwork   (`planner.network.build_network`)
     goals : NetworkGoals
+    progress : callable, optional   called with a short stage text before each step
 
     Returns
     -------
@@ -300,6 +302,8 @@ def evaluate_network(network: BlockNetwork, goals: NetworkGoals) -> NetworkFigur
     (`resonance.activity_band_edge`: common practice, from memory). Target impedance
     Z_t = V_DD x ripple / I_peak (Smith et al. 1999, `physics.pdn.target_impedance`).
     """
+    say = progress or (lambda _text: None)
+    say("supply network: impedance and resonances")
     f = np.asarray(goals.freq, dtype=float)
     names, corners = network.region_names, network.corners
     n_r = len(names)
@@ -373,13 +377,17 @@ def evaluate_network(network: BlockNetwork, goals: NetworkGoals) -> NetworkFigur
                          "settling may lie beyond it")
         activities = network.activities
         if goals.droop:
+            say(f"supply network: droop in time ({grid.size - 1} steps)")
             run = simulate_droop(network, grid, f_ring, n_segments=goals.droop_segments)
             droop_fig = droop_figures(run, activities)
         if goals.size_entrance:
+            say("supply network: sizing entrance resistors")
             limit = goals.per_region(goals.ir_drop_limit, names)
             trade = size_entrance_resistors(network, f, targets, bands, limit)
             ac_power = _entrance_ac_power(network, trade.resistance, goals.emission_f_max)
             if goals.droop:
+                say(f"supply network: droop with the entrance resistors ({grid.size - 1} "
+                    "steps)")
                 run_after = simulate_droop(network, grid, f_ring, trade.resistance,
                                            n_segments=goals.droop_segments)
                 droop_after = droop_figures(run_after, activities)
@@ -390,6 +398,7 @@ def evaluate_network(network: BlockNetwork, goals: NetworkGoals) -> NetworkFigur
     emission: dict[str, EmissionSpectrum] = {}
     bands_out: list[BandLevels] = []
     if any(a is not None and a.period is not None for a in network.activities):
+        say("supply network: emission")
         emission["plan"] = emission_spectrum(network, goals.emission_f_max, "plan", goals.probe)
         emission["no on-die decap"] = emission_spectrum(network.with_fill({}),
                                                         goals.emission_f_max, "no on-die decap",

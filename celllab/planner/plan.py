@@ -361,7 +361,7 @@ def plan_block(block: BlockFile, catalog: Catalog, *, explain: bool = True,
             "objective.time_limit_s", "the solver found no fill within the time limit: "
             "raise it, or loosen mip_rel_gap", obj.time_limit_s)]) from None
     say("lumped PDN")
-    plan = _assemble(block, prep, solution, bindings)
+    plan = _assemble(block, prep, solution, bindings, lumped_notes=not analyse)
     if analyse and network is not None:
         fills = {r.name: cell_entries([(c, c.count) for c in r.cells]) for r in plan.regions}
         naive = (densest_fill(block, prep.cells, prep.problem.allowed) if network.naive
@@ -591,7 +591,9 @@ def _budget_checks(block: BlockFile, cells_problem: FillProblem, solution: FillS
 
 
 def _assemble(block: BlockFile, prep: PreparedFill, solution: FillSolution,
-              bindings: list[Binding]) -> BlockPlan:
+              bindings: list[Binding], lumped_notes: bool = True) -> BlockPlan:
+    """The plan's results; ``lumped_notes`` adds the notes on the lumped PDN figures (left
+    out when the supply network stands in for them)."""
     ctx, cells, problem, layout = prep.ctx, prep.cells, prep.problem, prep.layout
     needs, useful_corner, mission = prep.needs, prep.useful_corner, prep.mission
     oxide_limit, oxide_source, excluded = prep.oxide_limit, prep.oxide_source, prep.excluded
@@ -653,18 +655,19 @@ def _assemble(block: BlockFile, prep: PreparedFill, solution: FillSolution,
         die = die_network(responses, total[total > 0], intrinsic)
         figures = pdn_figures(die, fill_cap + intrinsic, l_pkg, r_pkg, supply,
                               b.ripple_fraction, b.current_step_A)
-        for c in chosen:
+        for c in chosen if lumped_notes else []:
             if np.isfinite(c.bandwidth) and c.bandwidth < figures.f0:
                 notes.append(f"{c.name}: bandwidth {c.bandwidth / 1e6:.3g} MHz is below the "
                              f"package resonance {figures.f0 / 1e6:.3g} MHz, so it decouples "
                              "less there than its cap_fF says (the swept |Z| includes this)")
-        if intrinsic > 0:
+        if intrinsic > 0 and lumped_notes:
             notes.append("the intrinsic decap is an ideal capacitor (its series resistance "
                          "through the logic is not modelled), so the peak |Z| leans "
                          "pessimistic")
-        notes.append("|Z| below the target at every swept frequency does not bound the "
-                     "worst-case supply noise when Z(f) has peaks (use the full profile)")
-    else:
+        if lumped_notes:
+            notes.append("|Z| below the target at every swept frequency does not bound the "
+                         "worst-case supply noise when Z(f) has peaks (use the full profile)")
+    elif lumped_notes:
         notes.append("no fill and activity = 1 (no intrinsic decap): the die has no "
                      "capacitance, so there are no PDN figures")
     for r in regions:

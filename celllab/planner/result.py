@@ -20,7 +20,7 @@ from numpy.typing import NDArray
 from scipy.constants import femto, giga, mega, micro, milli, nano, pico
 
 from celllab.physics import pdn
-from celllab.planner.corners import POLICIES
+from celllab.planner.corners import NETWORK_FIGURES, POLICIES
 from celllab.planner.impedance import DieNetwork, PdnFigures
 from celllab.planner.sizing import RegionNeed
 from celllab.records import CellResult
@@ -412,7 +412,8 @@ def _summary(plan: BlockPlan) -> dict[str, Any]:
         "excluded": dict(plan.excluded), "optimal": plan.optimal, "mip_gap": plan.mip_gap,
         "solve_s": plan.solve_seconds,
         "policies": [{"name": p.name, "metric": p.metric, "purpose": p.purpose}
-                     for p in POLICIES],
+                     for p in POLICIES]
+        + [{"name": NETWORK_FIGURES.name, "metric": None, "purpose": NETWORK_FIGURES.rule}],
         "regions": [_region_dict(r, plan.supply) for r in plan.regions],
         "roles": roles,
         "totals": {
@@ -435,8 +436,13 @@ def _summary(plan: BlockPlan) -> dict[str, Any]:
              "esr_ohm": c.esr, "bandwidth_GHz": c.bandwidth / giga, "z_corner": c.z_corner}
             for c in plan.cells],
         "pdn": _pdn_dict(plan),
+        "network": None,
         "notes": list(plan.notes),
     }
+    if plan.network is not None:
+        from celllab.planner.network_summary import network_dict
+
+        out["network"] = network_dict(plan.network)
     return out
 
 

@@ -281,20 +281,14 @@ def analyse_supply(block: BlockFile, needs: Sequence[RegionNeed], supply: float,
     Raises ``PlanError`` for a waveform file that cannot be read or does not fit its region.
     """
     say = progress or (lambda _text: None)
+    say("supply network: building it with the fill")
     t0 = time.perf_counter()
     samples = read_waveforms(block) if samples is None else samples
     network = block_network(block, needs, supply, fills, samples, corners)
     naive_entries = None
     if options.naive and naive:
-        naive_entries = {n.region: cell_entries([(n.cell, n.count)]) if n.cell else []
-                         for n in naive}
+        naive_entries = {n.region: cell_entries(n.cells) for n in naive}
     goals = network_goals(block, options, naive_entries)
-    parts = ["impedance, resonances, emission"]
-    if goals.size_entrance:
-        parts.append("entrance resistors")
-    if goals.droop:
-        parts.append("droop in time")
-    say("supply network: " + ", ".join(parts))
-    figures = evaluate_network(network, goals)
+    figures = evaluate_network(network, goals, say)
     return SupplyAnalysis(network, figures, naive if options.naive else [], fill_damping,
                           options, time.perf_counter() - t0)

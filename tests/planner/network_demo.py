@@ -59,7 +59,7 @@ def demo_network(catalog: Catalog) -> tuple[BlockNetwork, NetworkGoals]:
     prep = prepare_fill(block, catalog)
     network = block_network(block, prep.needs, prep.ctx.supply, fill_entries(catalog, DEMO_FILL),
                             {}, network_corners(prep.ctx))
-    naive = {n.region: cell_entries([(n.cell, n.count)]) if n.cell else []
+    naive = {n.region: cell_entries(n.cells)
              for n in densest_fill(block, prep.cells, prep.problem.allowed)}
     return network, network_goals(block, naive=naive)
 
