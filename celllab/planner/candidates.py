@@ -39,9 +39,12 @@ __all__ = [
     "useful_capacitance",
 ]
 
-#: Where a cell may stand: in-row gaps ("row") and/or open-region slots ("open").
+#: Where a cell may stand: in-row gaps ("row") and/or open-region slots ("open"). A core-row
+#: cell carries both well halves and its rails, so an open slot may be tiled with it as a small
+#: grid of rows (``packing.grid_copies``); an open-region cell (full-height single-type device,
+#: no row structure) never enters a row gap. Common practice, no source.
 PLACEMENTS: dict[str, frozenset[str]] = {
-    "core_row": frozenset({"row"}),
+    "core_row": frozenset({"row", "open"}),
     "open_region": frozenset({"open"}),
     "any": frozenset({"row", "open"}),
 }
@@ -51,8 +54,8 @@ def cell_placement(row: Mapping[str, Any]) -> frozenset[str]:
     """Where a catalog cell may be placed: a subset of {"row", "open"}.
 
     Reads a ``placement`` column ("core_row", "open_region" or "any") when the catalog has
-    one; without it every cell is a row cell that may also stand in an open slot it fits
-    (its outline in um decides, ``packing.grid_copies``).
+    one; without it a cell is taken as a core-row cell. Core-row cells may also stand in an
+    open slot they fit (its outline in um decides, ``packing.grid_copies``).
     """
     value = row.get("placement")
     if value is None:

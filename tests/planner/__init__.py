@@ -34,8 +34,9 @@ DECK = "invented_pdn"
 SUPPLY_V = 1.0
 #: Dense sweep so that interpolation between stored points is negligible (200 / decade).
 FREQ_HZ = np.logspace(5.0, 10.0, 1001)
-#: The deck stored with the synthetic cells (layout: 0.41 um sites, 3.69 um rows).
-SITE_UM, ROW_UM = 0.41, 3.69
+#: The layout of the deck stored with the synthetic cells (the demo lumen130 deck's).
+_LAYOUT = load_deck(REPO / "process_decks" / "lumen130.toml").layout
+SITE_UM, ROW_UM = _LAYOUT.site_width_um, _LAYOUT.row_height_um
 
 
 @dataclass(frozen=True)

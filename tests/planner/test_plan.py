@@ -11,11 +11,11 @@ from celllab.catalog import Catalog
 from celllab.planner import BlockPlan, load_block, plan_block
 from celllab.planner.block import parse_block
 
-from . import IdealCell, block_data, block_text, synthetic_catalog, toml_text
+from . import ROW_UM, SITE_UM, IdealCell, block_data, block_text, synthetic_catalog, toml_text
 
 REPO = Path(__file__).resolve().parents[2]
 BLOCKS = REPO / "process_decks" / "blocks"
-SITE_UM2 = 0.41 * 3.69
+SITE_UM2 = SITE_UM * ROW_UM
 
 CELLS = [
     # dense but leaky thin-oxide cell, 4 sites
@@ -99,15 +99,16 @@ def test_leakage_budget_binds_at_the_leakiest_corner(tmp_path: Path, catalog: Ca
 
 
 def test_esd_safe_only_region_and_open_slots(tmp_path: Path, catalog: Catalog) -> None:
-    # Source: worked by hand. A 5 x 8 um corner slot holds floor(5/1.64) x floor(8/3.69) = 6
-    # copies of a 4-site cell or floor(5/0.82) x 2 = 12 of a 2-site cell; the ESD-safe-only
-    # ring may not take thin4 (no ESD-safe flag).
+    # Source: worked by hand. With 0.425 um sites and 3.825 um rows a 5 x 8 um corner slot holds
+    # floor(5/1.7) x floor(8/3.825) = 2 x 2 = 4 copies of a 4-site cell or floor(5/0.85) x 2 = 10
+    # of a 2-site cell; the ESD-safe-only ring may not take thin4 (no ESD-safe flag).
+    assert (SITE_UM, ROW_UM) == (0.425, 3.825)
     p = plan(tmp_path, catalog, region=TWO_REGIONS, budgets__leakage_uA=None)
     ring = p.region("ring")
     assert "thin4" not in ring.counts()
     corner = next(c for c in ring.classes if c.name == "corner")
     assert corner.kind == "open" and corner.filled_gaps == 4
-    assert sum(corner.cells.values()) in (4 * 6, 4 * 12)
+    assert sum(corner.cells.values()) in (4 * 4, 4 * 10)
     esd = next(b for b in p.budgets if b.name.startswith("ESD-safe-only"))
     assert esd.binding and esd.gain and esd.gain > 0  # thin4 would add capacitance there
     check_accounting(p)

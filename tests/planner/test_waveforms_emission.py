@@ -119,8 +119,8 @@ def test_demo_emission_plan_against_no_decap_and_naive_fill(lumen_catalog: Catal
     assert [b.band.name for b in bands] == [BANDS[1].name, BANDS[2].name]  # 300 MHz clock
     for b in bands:
         # on-die capacitance keeps harmonics on the die (common practice, no source): without
-        # it the probe reads more
-        assert b.change_dB["no on-die decap"] > 3.0
+        # it the probe reads more (by how much depends on the demo fill; no threshold claimed)
+        assert b.change_dB["no on-die decap"] > 0.5
         assert b.change_dB["plan"] == 0.0
     with pytest.raises(ValueError, match="reference"):
         compare_emission(spectra, "nothing")
