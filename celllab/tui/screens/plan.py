@@ -107,10 +107,13 @@ def render_text(plan: Any, width: int) -> str:
     console = Console(file=out, width=max(width, REPORT_MIN_WIDTH), color_system=None,
                       highlight=False, emoji=False)
     render_report(plan.to_dict(), console)
-    # free-text lines (headings, notes) come out unwrapped: wrap them at the width
+    # free-text lines (headings, notes) come out unwrapped: wrap them at the width; table
+    # rows (one leading space) are left whole, the view scrolls sideways
     lines: list[str] = []
     for line in out.getvalue().splitlines():
-        lines += textwrap.wrap(line, width, subsequent_indent="  ") if len(line) > width else [line]
+        table_row = line.startswith(" ") and not line.startswith("  ")
+        lines += (textwrap.wrap(line, width, subsequent_indent="  ")
+                  if len(line) > width and not table_row else [line])
     return "\n".join(lines)
 
 
