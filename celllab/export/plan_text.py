@@ -6,6 +6,7 @@ terminal UI's planning view, so both show the same."""
 
 from __future__ import annotations
 
+from dataclasses import dataclass
 from typing import Any
 
 from celllab import CAUTION
@@ -31,20 +32,65 @@ def _pct(part: float | None, whole: float | None) -> str:
     return f"{100 * part / whole:.1f}"
 
 
-def _table(title: str, columns: list[str], rows: list[list[Any]], numeric: set[int]) -> Any:
-    """A rich table; every cell is plain text (no markup: units such as [nF] stay as typed)."""
-    from rich import box
-    from rich.table import Table
-    from rich.text import Text
+#: Width a free-text column (notes, reasons) may be squeezed to before a table is split.
+_TEXT_MIN = 16
 
-    table = Table(title=Text(title), title_justify="left", box=box.SIMPLE_HEAD, pad_edge=False)
-    for k, column in enumerate(columns):
-        # names and numbers never wrap; free text (notes, reasons) takes what is left
-        table.add_column(Text(column), justify="right" if k in numeric else "left",
-                         no_wrap=k < 2 or k in numeric)
-    for row in rows:
-        table.add_row(*[Text(v if isinstance(v, str) else _n(v)) for v in row])
-    return table
+
+@dataclass(frozen=True)
+class _Tables:
+    """A table that fits the width it is printed at: when its columns do not fit side by side
+    it is printed as several tables, each repeating the first column (the row's name), so no
+    number is ever cut short."""
+
+    title: str
+    columns: list[str]
+    rows: list[list[str]]
+    numeric: set[int]
+
+    def _natural(self, k: int) -> int:
+        widest = max([len(self.columns[k])] + [len(r[k]) for r in self.rows])
+        if k >= 2 and k not in self.numeric:  # free text wraps
+            widest = min(widest, _TEXT_MIN)
+        return widest + 3  # a cell of padding each side and the column separator
+
+    def groups(self, width: int) -> list[list[int]]:
+        """Column indices of each printed part (the first column in every part)."""
+        parts: list[list[int]] = [[0]]
+        used = self._natural(0)
+        for k in range(1, len(self.columns)):
+            need = self._natural(k)
+            if used + need > width and len(parts[-1]) > 1:
+                parts.append([0])
+                used = self._natural(0)
+            parts[-1].append(k)
+            used += need
+        return parts
+
+    def __rich_console__(self, console: Any, options: Any) -> Any:
+        from rich import box
+        from rich.table import Table
+        from rich.text import Text
+
+        parts = self.groups(options.max_width)
+        for p, part in enumerate(parts):
+            title = self.title if p == 0 else f"{self.title} (continued)"
+            table = Table(title=Text(title), title_justify="left", box=box.SIMPLE_HEAD,
+                          pad_edge=False)
+            for k in part:
+                # names and numbers never wrap; free text (notes, reasons) takes what is left
+                table.add_column(Text(self.columns[k]),
+                                 justify="right" if k in self.numeric else "left",
+                                 no_wrap=k < 2 or k in self.numeric)
+            for row in self.rows:
+                table.add_row(*[Text(row[k]) for k in part])
+            yield table
+
+
+def _table(title: str, columns: list[str], rows: list[list[Any]], numeric: set[int]) -> Any:
+    """A rich table (split to fit the width when needed); every cell is plain text (no
+    markup: units such as [nF] stay as typed)."""
+    text = [[v if isinstance(v, str) else _n(v) for v in row] for row in rows]
+    return _Tables(title, list(columns), text, set(numeric))
 
 
 def render_report(summary: dict[str, Any], console: Any) -> None:
