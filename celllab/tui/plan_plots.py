@@ -42,14 +42,15 @@ def impedance_plot(plan: Any, region: int) -> PlotSpec:
                                              f"worst peak {top.frequency / mega:.4g} MHz "
                                              f"({top.corner})", glyph="▲"),)
     more = len(figures.corners) - 3
-    title = f"|Z| at {figures.region_names[k]}" + (f" (first 3 of {len(figures.corners)} "
-                                                     "corners)" if more > 0 else "")
+    title = f"|Z| at {figures.region_names[k]}" + (f" ({len(figures.corners)} corners, 3 shown)"
+                                                     if more > 0 else "")
     return PlotSpec(title=title, x_label="f [MHz]", y_label="|Z| [mohm]", x_log=True,
                     y_log=True, series=tuple(series[:4]), markers=markers)
 
 
 def droop_plot(plan: Any) -> PlotSpec:
-    """Each region's droop [mV] against time [ns] at the corner of its largest droop."""
+    """Each region's droop [mV] against time [ns] at the corner of its largest droop (named in
+    the legend)."""
     figures = _figures(plan)
     run = None if figures is None else figures.droop_run
     if run is None:
@@ -61,13 +62,13 @@ def droop_plot(plan: Any) -> PlotSpec:
         c = int(np.argmax(np.max(run.droop[:, :, k], axis=1)))
         series.append(Series(run.t / nano, run.droop[c, :, k] / milli,
                              f"{name} ({run.corners[c]})"))
-    return PlotSpec(title="droop in time (largest droop corner per region)", x_label="t [ns]",
+    return PlotSpec(title="droop", x_label="t [ns]",
                     y_label="droop [mV]", series=tuple(series))
 
 
 def emission_plot(plan: Any) -> PlotSpec:
-    """Probe voltage [dBuV] per clock harmonic [MHz], loudest corner, for the plan and the
-    networks it is compared with."""
+    """Probe voltage [dBuV] per clock harmonic [MHz] at the loudest corner of each harmonic, for
+    the plan and the networks it is compared with (no on-die decap, naive fill)."""
     figures = _figures(plan)
     if figures is None or not figures.emission:
         return PlotSpec(title="emission", empty_text=_NO_NETWORK if figures is None else
@@ -77,6 +78,6 @@ def emission_plot(plan: Any) -> PlotSpec:
         level = np.max(spectrum.level_dBuV(), axis=0)
         keep = np.isfinite(level)
         series.append(Series(spectrum.freq[keep] / mega, level[keep], label))
-    return PlotSpec(title="conducted emission across the 1 ohm probe (loudest corner)",
+    return PlotSpec(title="emission, 1 ohm probe",
                     x_label="f [MHz]", y_label="level [dBuV]", x_log=True,
                     series=tuple(series))

@@ -150,9 +150,12 @@ class PlanScreen(TaskScreen):
         options = [(self._label(p), str(p)) for p in paths]
         with Horizontal(classes="pickers"):
             yield Label("block", classes="picker-label")
-            yield Select(options, value=str(paths[0]) if paths else Select.BLANK,
-                         prompt="no block files found: type a path below", compact=True,
-                         id="plan-block")
+            if paths:
+                yield Select(options, value=str(paths[0]), allow_blank=False, compact=True,
+                             id="plan-block")
+            else:
+                yield Select([], prompt="none found: type a path below", compact=True,
+                             id="plan-block")
             yield Label("leakage uA", classes="picker-label")
             yield Input(placeholder="as file", compact=True, id="plan-leakage")
             yield Label("kinds", classes="picker-label")
