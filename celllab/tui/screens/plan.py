@@ -327,6 +327,9 @@ class PlanScreen(TaskScreen):
             return
         self.query_one("#plan-spinner").display = False
         if message.problems is not None:
+            self.plan = None  # nothing stale to write or plot
+            for plot in self.query(PlotView):
+                plot.spec = None
             self._say(f"{len(message.problems)} problem(s); see the report tab")
             self.query_one("#plan-report", Static).update(
                 "The block could not be planned:\n\n"
