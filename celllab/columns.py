@@ -25,7 +25,11 @@ from __future__ import annotations
 import math
 from collections.abc import Callable, Iterable
 from dataclasses import dataclass
-from typing import Any, Literal
+from typing import TYPE_CHECKING, Any, Literal
+
+if TYPE_CHECKING:
+    import numpy as np
+    from numpy.typing import ArrayLike, NDArray
 
 _convert: Callable[[Any, str], Any] | None = None
 
@@ -106,6 +110,18 @@ class Column:
         if not kept:
             return math.nan
         return max(kept) if self.takes_max(extreme) else min(kept)
+
+    def corner_index(self, values: ArrayLike, extreme: Extreme, axis: int = -1
+                     ) -> NDArray[np.intp]:
+        """Index of the ``extreme`` corner along ``axis`` of an array of per-corner values:
+        the vectorized twin of ``over_corners`` (empty values, NaN, are skipped; where every
+        corner is empty the first is named)."""
+        import numpy as np  # here, not at the top: the command line's start-up reads this table
+
+        v = np.asarray(values, dtype=float)
+        if self.takes_max(extreme):
+            return np.asarray(np.argmax(np.where(np.isnan(v), -np.inf, v), axis=axis))
+        return np.asarray(np.argmin(np.where(np.isnan(v), np.inf, v), axis=axis))
 
     def improved(self, before: float, after: float) -> bool:
         """Whether ``after`` is better than ``before`` in this column's direction."""

@@ -5,6 +5,7 @@ Render functions are pure and return text; ``write_network_files`` stores them a
 
 =====================================  ===============================================
 ``render_z_csv(figures)``              every region pair's Z(f) at every corner (long form)
+``render_region_z_csv(figures, r)``    the Z(f) region ``r`` sees, a column per corner
 ``render_z_touchstone(figures, c)``    the N-port Z-matrix of corner ``c``, Touchstone v1.1
 ``render_droop_csv(figures)``          droop waveforms of every corner and region
 ``render_network_html(figures)``       ``<section>`` with tables and inline SVG plots
@@ -37,6 +38,7 @@ __all__ = [
     "NETWORK_CAUTION",
     "render_droop_csv",
     "render_network_html",
+    "render_region_z_csv",
     "render_z_csv",
     "render_z_touchstone",
     "write_network_files",
@@ -87,6 +89,35 @@ def render_z_csv(figures: NetworkFigures) -> str:
                 for f, zk in zip(figures.freq.tolist(), z.tolist()):
                     values = (obs, drv, corner, f, zk.real, zk.imag, abs(zk), target)
                     lines.append(",".join(format_value(v) for v in values))
+    return "\r\n".join(lines) + "\r\n"
+
+
+def render_region_z_csv(figures: NetworkFigures, region: str) -> str:
+    """The impedance one region sees at its node, Z_rr(f), at every corner: freq_Hz, then per
+    corner ``z_real_ohm_<corner>``, ``z_imag_ohm_<corner>``, ``z_mag_ohm_<corner>``, then
+    ``target_ohm`` (empty for a region without a target). ``#`` header lines naming the
+    region's resonances (each at its worst corner); ``\r\n`` line ends; round-trip numbers.
+    """
+    if region not in figures.region_names:
+        raise ValueError(f"region {region!r} not among {list(figures.region_names)}")
+    k = figures.region_names.index(region)
+    reg = figures.regions[k]
+    lines = _header(figures, "#", f"impedance at the node of region {region} per corner")
+    for t in reg.resonances:
+        lines.append(f"# {t.kind} at {t.frequency:.6g} Hz: |Z| {t.magnitude:.6g} ohm, Q "
+                     f"{t.q:.3g} ({t.corner})")
+    target = reg.target if math.isfinite(reg.target) else None
+    columns = ["freq_Hz"]
+    for corner in figures.corners:
+        columns += [f"z_real_ohm_{corner}", f"z_imag_ohm_{corner}", f"z_mag_ohm_{corner}"]
+    lines.append(",".join(columns + ["target_ohm"]))
+    z = figures.z[:, :, k, k]
+    for i, f in enumerate(figures.freq.tolist()):
+        values: list[object] = [f]
+        for c in range(len(figures.corners)):
+            zk = complex(z[c, i])
+            values += [zk.real, zk.imag, abs(zk)]
+        lines.append(",".join(format_value(v) for v in values + [target]))
     return "\r\n".join(lines) + "\r\n"
 
 
