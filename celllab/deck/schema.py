@@ -181,8 +181,10 @@ class OxideFlavour(StrictModel):
 
     @model_serializer(mode="wrap")
     def _canonical(self, handler: SerializerFunctionWrapHandler, info: SerializationInfo) -> dict[str, Any]:
-        # the per-carrier tunnelling table stays out of the dump (and hash) at its published defaults
-        return _without_defaults(dict(handler(self)), {"tunnelling": Tunnelling().model_dump()}, info)
+        # left out of the dump (and the content hash) while omitted or at their defaults: the
+        # minimum gate width, and the per-carrier tunnelling table at its published values
+        return _without_defaults(dict(handler(self)), {"min_gate_width_um": None,
+                                                        "tunnelling": Tunnelling().model_dump()}, info)
 
     @model_validator(mode="before")
     @classmethod
@@ -220,11 +222,6 @@ class OxideFlavour(StrictModel):
         if self.breakdown_field_pulse_MV_per_cm < self.breakdown_field_dc_MV_per_cm:
             raise ValueError("breakdown_field_pulse_MV_per_cm must not be below breakdown_field_dc_MV_per_cm")
         return self
-
-    @model_serializer(mode="wrap")
-    def _canonical(self, handler: SerializerFunctionWrapHandler, info: SerializationInfo) -> dict[str, Any]:
-        # left out of the dump (and the content hash) while omitted
-        return _without_defaults(dict(handler(self)), {"min_gate_width_um": None}, info)
 
     @property
     def min_width_um(self) -> float:
