@@ -24,7 +24,8 @@ from celllab.physics.netlist import Element, Netlist
 from celllab.physics.transient import DistributedChannel
 from celllab.units import to_si
 
-#: Lines of each topology's equivalent circuit that are gate oxides (label -> RCLINE name).
+#: Lines of each topology's equivalent circuit that are gate oxides (label -> RCLINE name); a
+#: topology not listed here gets empty ESD and broken-oxide figures.
 OXIDE_LINES: dict[str, dict[str, str]] = {
     "nmos_inversion": {"gate": "channel"},
     "pmos_inversion": {"gate": "channel"},
@@ -193,7 +194,7 @@ def _series_rc(topology: str, net: Netlist) -> np.ndarray:
         assert r_n is not None and r_p is not None and c_n is not None and c_p is not None
         return np.maximum(r_p * c_n, r_n * c_p)
     rcs = []
-    for line_name in OXIDE_LINES[topology].values():
+    for line_name in OXIDE_LINES.get(topology, {}).values():
         prefix = line_name[: -len("channel")]
         line = net.element(line_name)
         r_line = np.asarray(line.value, dtype=float) / (12.0 if line.contacted_ends == 2 else 3.0)
@@ -214,7 +215,7 @@ def inputs_from_group(deck: Any, corners: CornerSet, topology: str, out: Any, po
     flavour = np.array([c.oxide for c in cells])
     rails = np.array([c.rail for c in cells])
     supply = _rows(out.supply_V, n_v, n_c)
-    oxides = OXIDE_LINES[topology]
+    oxides = OXIDE_LINES.get(topology, {})  # a topology not listed: no ESD/fault figures
     gate_um2 = np.array([g.gate_area_um2 for g in geos])[:, None]
     # two-device cells: each device's gate area from its own width (fingers x length x width)
     per_um = np.array([c.fingers * g.gate_length_um for c, g in zip(cells, geos)])[:, None]

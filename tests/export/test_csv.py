@@ -73,7 +73,8 @@ def test_header_is_the_catalog_names_and_units_are_listed(library, deck_name):
     for metric in METRICS:
         assert f"{metric.name} [{metric.unit}]" in legend
     assert "temperature_C [degC]" in legend and "supply_V [V]" in legend
-    units_in_names = {"fF", "ohm", "GHz", "pH", "ps", "nA", "MV_per_cm", "fit_per_mm2", "V", "um2"}
+    units_in_names = {"fF", "ohm", "GHz", "pH", "ps", "nA", "MV_per_cm", "fit_per_mm2", "V", "um2", "ns", "mA", "mW",
+                      "pct"}
     for metric in METRICS:
         if metric.kind == "number":
             assert any(token in metric.name for token in units_in_names), metric.name
