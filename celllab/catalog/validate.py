@@ -25,10 +25,7 @@ from typing import Any
 
 import numpy as np
 
-from celllab.deck.schema import CORNER_NAME
 from celllab.records import METRIC_NAMES, CellResult, CornerResult
-from celllab.topologies import REGISTRY
-from celllab.topologies.geometry import PLACEMENTS
 
 #: The name rules of cell files (``cells.schema.CellSpec``) and decks (``deck.schema``).
 CELL_NAME = re.compile(r"[A-Za-z][A-Za-z0-9_\-.]{0,79}")
@@ -37,6 +34,9 @@ DECK_NAME = re.compile(r"[A-Za-z][A-Za-z0-9_\-]{0,39}")
 #: Supply rail names (``cells.schema.CellSpec.rail`` once resolved: core, io or a named rail).
 RAIL_NAME = re.compile(r"[a-z][a-z0-9_]{0,23}")
 OXIDES = ("core", "io")
+#: The corner-name rule of decks (``deck.schema.CORNER_NAME``, not imported: reading a catalog
+#: loads neither pydantic nor the topologies).
+CORNER_NAME = re.compile(r"[A-Za-z0-9_-]{1,40}")
 #: Longest flag or note kept with a result (characters).
 MAX_TEXT = 2000
 
@@ -159,6 +159,9 @@ def cell_problems(where: str, cell: CellResult) -> list[str]:
     for attr, value, rule, allowed in rules:
         if not isinstance(value, str) or not rule.fullmatch(value):
             out.append(f"{where}.{attr} = {shown(value)} -> not a valid {attr}; allowed: {allowed}")
+    from celllab.topologies import REGISTRY  # here: only storing and merging need the registry
+    from celllab.topologies.geometry import PLACEMENTS
+
     if cell.topology not in REGISTRY.names():
         out.append(f"{where}.topology = {shown(cell.topology)} -> allowed: {', '.join(REGISTRY.names())}")
     if cell.placement not in PLACEMENTS:

@@ -15,9 +15,16 @@ from typing import Any
 from celllab import CAUTION_SHORT, DEFAULT_CATALOG
 from celllab.cli.args import MAX_ROWS, whole_number
 from celllab.cli.text import printable
-from celllab.columns import CELL_COLUMNS, COLUMNS, METRIC_BY_NAME, METRIC_NAMES, RANKED, unit_of
+from celllab.columns import (
+    CELL_COLUMNS,
+    COLUMNS,
+    METRIC_BY_NAME,
+    METRIC_NAMES,
+    RANKED,
+    from_si,  # converts through celllab.units on first use (start-up)
+    unit_of,
+)
 from celllab.display import LOWER_BOUND, format_value, jsonable, mark_bounds, text_table
-from celllab.units import from_si
 
 #: Columns of ``rank`` and ``pareto`` tables unless --columns says otherwise.
 DEFAULT_COLUMNS = (

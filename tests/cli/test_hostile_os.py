@@ -9,6 +9,7 @@ import contextlib
 import errno
 import io
 import os
+import re
 import shutil
 import sqlite3
 import subprocess
@@ -233,15 +234,16 @@ def test_plan_refuses_an_unusable_out_before_solving(tmp_path: Path, monkeypatch
 
 
 def test_plan_checks_a_network_table(tmp_path: Path) -> None:
+    # the demo block's own [network] table with a NaN drop limit and a negative capacitance
+    text = (BLOCKS / "lumen130_dsp.toml").read_text()
+    text = re.sub(r"(?m)^ir_drop_limit_mV = [0-9.]+", "ir_drop_limit_mV = nan", text, count=1)
+    text = re.sub(r"(?m)^(wells_wiring_capacitance_nF) = [0-9.]+", r"\1 = -1", text, count=1)
     block = tmp_path / "b.toml"
-    block.write_text((BLOCKS / "lumen130_dsp.toml").read_text()
-                     + "\n[network]\nir_drop_limit_mV = nan\npackage_resistance_mohm = 10\n"
-                     "package_inductance_nH = 0.5\n[network.regions.mac_array]\ngrid_resistance_mohm = 1\n"
-                     "grid_inductance_pH = 10\nintrinsic_capacitance_nF = -1\n")
+    block.write_text(text)
     code, _, err = run_cli("plan", str(block), "--catalog", str(tmp_path / "none.sqlite"))
     assert code == 2
     assert "network.ir_drop_limit_mV = nan -> not a finite number" in err
-    assert "network.regions.mac_array.intrinsic_capacitance_nF" in err and str(block) in err
+    assert "wells_wiring_capacitance_nF" in err and str(block) in err
 
 
 def test_waveform_file_that_is_a_device_is_a_located_error() -> None:

@@ -33,6 +33,8 @@ def _catalog(path: Path):  # type: ignore[no-untyped-def]
                 m["broken_oxide_ok"] = 0.0
             if r.name == "unknown":
                 m.update(hbm_margin_V=math.nan, cdm_margin_V=math.nan, broken_oxide_ok=math.nan)
+                corner.flags.append("no_value: hbm_margin_V, cdm_margin_V, broken_oxide_ok not "
+                                    "computed for this cell")  # an empty metric is stored with its reason
     run = CharacterizationRun(deck_name=DECK, deck_hash=hashlib.sha256(b"esd").hexdigest()[:16],
                               deck_params=deck_params(), model_version="test", corners=list(CORNERS),
                               cells=records)
