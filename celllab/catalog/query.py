@@ -160,7 +160,8 @@ def ranked_query_sql(
     offset: int = 0,
     current_only: bool = True,
 ) -> tuple[str, list[object]]:
-    """SQL of the filtered, ordered, paged rows. Ties: name, deck, corner ascending."""
+    """SQL of the filtered, ordered, paged rows. Ties: name, deck, corner ascending, then the
+    result stored first (a name kept with its history)."""
     check_order_column(order_by)
     if limit is not None and limit < 0 or offset < 0:
         raise FilterError([Problem("query", "limit/offset", "must be >= 0", (limit, offset))])
@@ -170,7 +171,7 @@ def ranked_query_sql(
     sql = (
         f"SELECT * FROM ({base}) AS r WHERE {cond} "
         f"ORDER BY r.{quote_column(order_by)} {'DESC' if desc else 'ASC'} NULLS LAST, "
-        f"r.name, r.deck, r.corner LIMIT ? OFFSET ?"
+        f"r.name, r.deck, r.corner, r.cell_id LIMIT ? OFFSET ?"
     )
     return sql, [*params, *cond_params, -1 if limit is None else int(limit), int(offset)]
 
@@ -420,7 +421,7 @@ def _early_stop_sql(
     sql = (
         f"SELECT * FROM ({base}) AS r WHERE ({cond}) AND {col} {'>=' if desc else '<='} ? "
         f"ORDER BY {col} {'DESC' if desc else 'ASC'} NULLS LAST, "
-        f"r.name, r.deck, r.corner LIMIT ? OFFSET ?"
+        f"r.name, r.deck, r.corner, r.cell_id LIMIT ? OFFSET ?"
     )
     return sql, [*params, *cond_params, row[0], int(limit), int(offset)]
 
