@@ -8,6 +8,8 @@ catalog's SQLite connection may be used from any thread, one at a time).
 from __future__ import annotations
 
 import contextlib
+import os
+import sys
 import threading
 from collections.abc import Iterator, Mapping, Sequence
 from dataclasses import dataclass, field
@@ -18,6 +20,7 @@ from textual import work
 from textual.app import App
 from textual.binding import Binding
 
+from celllab import __version__
 from celllab.errors import CelllabError, Problem
 from celllab.tui.messages import ExportFinished
 from celllab.tui.screens.about import AboutPanel
@@ -102,6 +105,8 @@ class CelllabApp(App[None]):
         self.current_deck: str | None = next(iter(self.decks), None)
         self.current_corner: str = "worst"
         self._deck_cache: dict[str, Any] = {}
+        #: the unexpected error that stopped the app (``run_app`` logs it), if any
+        self.crash: BaseException | None = None
 
     # --- services for screens -----------------------------------------------------------
     @contextlib.contextmanager
@@ -207,6 +212,18 @@ class CelllabApp(App[None]):
         else:
             self.notify(f"written: {message.path}", title="Export")
 
+    # --- unexpected errors: one line on the terminal, the traceback in a log (run_app) ----
+    def _handle_exception(self, error: Exception) -> None:
+        if self.crash is None:
+            self.crash = error
+        super()._handle_exception(error)
+
+    def _fatal_error(self) -> None:
+        # Textual would print a full-screen traceback at exit; run_app writes it to a log file
+        # (Pilot tests still see the error: run_test raises it)
+        self.bell()
+        self._close_messages_no_wait()
+
     def on_mount(self) -> None:
         if self.deck_failures:
             names = ", ".join(Path(f.path).name for f in self.deck_failures)
@@ -230,14 +247,42 @@ def load_decks_for_ui(paths: Sequence[str | Path]) -> tuple[list[Any], list[Deck
     return decks, failures
 
 
-def run_app(catalog_path: str | Path | None = None, deck_paths: Sequence[str | Path] = ()) -> int:
-    """Open the catalog (created when missing) and the deck files, run the UI; returns 0."""
+def write_crash_log(error: BaseException, folder: str | Path | None = None) -> Path:
+    """Write the full traceback of ``error`` to a new log file; returns its path."""
+    import tempfile
+    import time
+    import traceback
+
+    base = Path(folder) if folder is not None else Path(tempfile.gettempdir())
+    base.mkdir(parents=True, exist_ok=True)
+    path = base / f"celllab-ui-{time.strftime('%Y%m%d-%H%M%S')}-{os.getpid()}.log"
+    text = "".join(traceback.format_exception(type(error), error, error.__traceback__))
+    path.write_text(f"celllab {__version__} terminal UI stopped on an unexpected error\n\n{text}",
+                    encoding="utf-8")
+    return path
+
+
+def run_app(catalog_path: str | Path | None = None, deck_paths: Sequence[str | Path] = (),
+            *, log_folder: str | Path | None = None) -> int:
+    """Open the catalog (created when missing) and the deck files, run the UI.
+
+    Returns 0; 1 after an unexpected error, which is summed up in one line on stderr with the
+    path of the log file that holds its full traceback (in ``log_folder``, default the
+    system's temporary folder).
+    """
     from celllab.catalog import open_catalog
 
     catalog = open_catalog(catalog_path)
     decks, failures = load_decks_for_ui(deck_paths)
+    app = CelllabApp(catalog=catalog, deck=decks, deck_failures=failures)
     try:
-        CelllabApp(catalog=catalog, deck=decks, deck_failures=failures).run()
+        app.run()
     finally:
         catalog.close()
-    return 0
+    if app.crash is not None:
+        log = write_crash_log(app.crash, log_folder)
+        summary = f"{type(app.crash).__name__}: {app.crash}".splitlines()[0]
+        print(f"celllab ui stopped on an unexpected error ({summary}); full traceback in {log}",
+              file=sys.stderr)
+        return 1
+    return int(app.return_code or 0)

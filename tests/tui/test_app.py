@@ -173,3 +173,27 @@ def test_ui_verb_is_registered_and_builds_the_app(monkeypatch: pytest.MonkeyPatc
     assert [Path(f.path).name for f in app.deck_failures] == ["bad.toml"]
     assert all(isinstance(f, DeckFailure) for f in app.deck_failures)
     assert str(app.catalog.path) == str(tmp_path / "c.sqlite")
+
+
+def test_an_unexpected_error_exits_non_zero_with_one_line_and_a_log(
+        monkeypatch: pytest.MonkeyPatch, tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    from textual.app import App
+
+    from celllab.tui import app as app_module
+
+    def boom(self: CelllabApp) -> None:
+        raise RuntimeError("wires crossed in the test")
+
+    real_run = App.run
+    monkeypatch.setattr(CelllabApp, "on_mount", boom)
+    monkeypatch.setattr(CelllabApp, "run", lambda self: real_run(self, headless=True))
+    status = app_module.run_app(tmp_path / "c.sqlite", log_folder=tmp_path)
+    err = capsys.readouterr().err
+    assert status != 0
+    lines = [ln for ln in err.splitlines() if ln.strip()]
+    assert len(lines) == 1, err  # one line, no traceback on the terminal
+    assert "RuntimeError: wires crossed in the test" in lines[0]
+    logs = list(tmp_path.glob("celllab-ui-*.log"))
+    assert len(logs) == 1 and str(logs[0]) in lines[0]
+    text = logs[0].read_text()
+    assert "Traceback" in text and "in boom" in text

@@ -117,3 +117,22 @@ async def test_ranking_orders_by_the_metric_and_marks_the_pareto_front(
         await pilot.press("escape", "1")  # back to the ranking, then the catalog task
         await ui.settle(pilot)
         assert type(app.screen).__name__ == "CatalogScreen"
+
+
+async def test_decks_view_shows_a_deck_taken_from_the_catalog(demo_catalog: Any, ui: Any) -> None:
+    # a stored deck repeats a group after a nested one (oxides.core, oxides.core.nmos, oxides.core)
+    app = CelllabApp(catalog=demo_catalog)
+    async with app.run_test(size=(120, 40)) as pilot:
+        await ui.settle(pilot)
+        await pilot.press("3")
+        await ui.settle(pilot)
+        screen = app.screen
+        assert isinstance(screen, DeckScreen)
+        params = screen.query_one("#deck-params", DataTable)
+        row = params.get_row("oxides.core.t_ox_nm")
+        assert str(row[1]) == "2.2"
+        heads = [str(params.get_row_at(i)[0]) for i in range(params.row_count)
+                 if str(params.get_row_at(i)[0]).strip() == "oxides.core"]
+        assert len(heads) == 1  # every parameter of a group under its one heading
+        words = " ".join(ui.screen_text(app).split())
+        assert "lumen130" in words

@@ -226,20 +226,27 @@ class DeckScreen(TaskScreen):
         table.add_column("meaning", key="meaning")
         if entry.params is None:
             return
-        group = None
+        # one heading per group, its parameters under it: a nested table (oxides.core.nmos)
+        # sits between two runs of its parent's leaves, so group before adding rows
+        groups: dict[str, list[tuple[str, str, Any]]] = {}
         for path, value in flatten(entry.params):
             head, _, leaf = path.rpartition(".")
-            if head != group:
-                group = head
-                if head:
-                    table.add_row(Text(head, style="bold"), "", "", "", key=f"group:{head}")
-            description = describe_deck_path(path)
-            shown = f"{value:g}" if isinstance(value, float) else ("–" if value is None else str(value))
-            if len(shown) > 10:
-                shown = shown[:9] + "…"
-            text = Text(shown, justify="right" if isinstance(value, (int, float)) else "left")
-            label = f"  {leaf}" if head else leaf
-            table.add_row(label, text, unit_of(path, description), description, key=path)
+            groups.setdefault(head, []).append((path, leaf, value))
+        for head, members in groups.items():
+            if head:
+                table.add_row(Text(head, style="bold"), "", "", "", key=f"group:{head}")
+            for path, leaf, value in members:
+                self._add_param(table, head, path, leaf, value)
+
+    @staticmethod
+    def _add_param(table: DataTable[Any], head: str, path: str, leaf: str, value: Any) -> None:
+        description = describe_deck_path(path)
+        shown = f"{value:g}" if isinstance(value, float) else ("–" if value is None else str(value))
+        if len(shown) > 10:
+            shown = shown[:9] + "…"
+        text = Text(shown, justify="right" if isinstance(value, (int, float)) else "left")
+        label = f"  {leaf}" if head else leaf
+        table.add_row(label, text, unit_of(path, description), description, key=path)
 
     def _fill_corners(self, entry: DeckEntry) -> None:
         table = self.query_one("#deck-corners", DataTable)
