@@ -51,6 +51,13 @@ class DeckFailure:
         return cls(str(path), list(error.problems))
 
 
+def default_export_folder(catalog: Any) -> Path:
+    """``exports`` beside the catalog file (the working folder's when there is no file)."""
+    path = getattr(catalog, "path", None)
+    base = Path(path).resolve().parent if path else Path.cwd()
+    return base / "exports"
+
+
 class CelllabApp(App[None]):
     """Catalog browser, cell views, what-if editor, ranking and deck views."""
 
@@ -66,7 +73,8 @@ class CelllabApp(App[None]):
         Binding("question_mark,f1", "show_keys", "Keys"),
         Binding("a", "about", "About"),
         Binding("x", "export", "Export"),
-        Binding("ctrl+q", "quit", "Quit"),
+        # priority: quits from dialogs and overlays too, before any widget sees the key
+        Binding("ctrl+q", "quit", "Quit", priority=True),
         Binding("1", "switch_mode('catalog')", "Catalog", show=False),
         Binding("2", "switch_mode('ranking')", "Ranking", show=False),
         Binding("3", "switch_mode('decks')", "Decks", show=False),
@@ -99,7 +107,9 @@ class CelllabApp(App[None]):
                 self._specs[(None, spec.name)] = spec
         self.page_size = page_size
         self.debounce_s = debounce_s
-        self.export_folder = Path(export_folder) if export_folder else Path.cwd()
+        #: where exports go unless the user types another path: an "exports" folder beside
+        #: the catalog file (made on the first export)
+        self.export_folder = Path(export_folder) if export_folder else default_export_folder(catalog)
         self.catalog_lock = threading.Lock()
         #: shared choices of the catalog screen, read by the ranking screen
         self.current_deck: str | None = next(iter(self.decks), None)

@@ -197,3 +197,61 @@ def test_an_unexpected_error_exits_non_zero_with_one_line_and_a_log(
     assert len(logs) == 1 and str(logs[0]) in lines[0]
     text = logs[0].read_text()
     assert "Traceback" in text and "in boom" in text
+
+
+@pytest.mark.parametrize("opener", ["question_mark", "a", "x", "c"])
+async def test_ctrl_q_quits_with_an_overlay_open(synthetic_catalog: Any, ui: Any, opener: str) -> None:
+    app = CelllabApp(catalog=synthetic_catalog)
+    async with app.run_test(size=(100, 30)) as pilot:
+        await ui.settle(pilot)
+        await pilot.press(opener)
+        await pilot.pause()
+        assert app.screen is not app.screen_stack[0] and len(app.screen_stack) > 1
+        await pilot.press("ctrl+q")
+        await pilot.pause()
+        assert app._exit  # the app is on its way out
+    assert app.return_code == 0
+
+
+async def test_export_dialog_extension_follows_the_format_and_enter_exports(
+        demo_catalog: Any, ui: Any, tmp_path: Path) -> None:
+    app = CelllabApp(catalog=demo_catalog, export_folder=tmp_path)
+    async with app.run_test(size=(120, 40)) as pilot:
+        await ui.settle(pilot)
+        await pilot.press("enter")  # open a cell: every format is offered
+        await ui.settle(pilot)
+        name = app.screen.cell.name  # type: ignore[attr-defined]
+        await pilot.press("x")
+        await pilot.pause()
+        dialog = app.screen
+        assert isinstance(dialog, ExportDialog)
+        path = dialog.query_one("#export-path", Input)
+        assert path.value.endswith(".json")  # the first format of a cell
+        # keys alone: down the format list to the datasheet, space picks it
+        order = [b.id for b in dialog.query(RadioButton)]
+        for _ in range(order.index("fmt-datasheet")):
+            await pilot.press("down")
+        await pilot.press("space")
+        await pilot.pause()
+        assert path.value.endswith(".html") and Path(path.value).parent == tmp_path
+        await pilot.press("enter")  # enter on the format list exports, as the dialog says
+        await ui.settle(pilot)
+        assert not isinstance(app.screen, ExportDialog)
+    written = tmp_path / f"{name}.html"
+    assert written.exists() and "<html" in written.read_text().lower()
+    assert not list(tmp_path.glob("*.csv")) and not list(tmp_path.glob("*.json"))
+
+
+async def test_export_folder_defaults_to_an_exports_folder_beside_the_catalog(
+        demo_catalog: Any, ui: Any) -> None:
+    app = CelllabApp(catalog=demo_catalog)
+    async with app.run_test(size=(120, 40)) as pilot:
+        await ui.settle(pilot)
+        await pilot.press("x")
+        await pilot.pause()
+        path = Path(app.screen.query_one("#export-path", Input).value)
+        assert path.parent == Path(demo_catalog.path).parent / "exports"
+        assert "exports" in ui.screen_text(app)
+        await pilot.press("enter")
+        await ui.settle(pilot)
+    assert path.exists()  # the folder is made on the first export

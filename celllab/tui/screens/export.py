@@ -65,11 +65,16 @@ class ExportContext:
 class ExportRequest:
     format: str
     path: str
+    #: a folder the export may create (the app's default exports folder)
+    may_create: str | None = None
 
 
 def available_formats(context: ExportContext) -> list[ExportFormat]:
-    """Formats that make sense here (a cell is needed for all but CSV)."""
-    return [f for f in FORMATS if context.cell is not None or not f.needs_cell]
+    """Formats that make sense here (a cell is needed for all but CSV and the library views);
+    with a cell open its own formats come first."""
+    if context.cell is None:
+        return [f for f in FORMATS if not f.needs_cell]
+    return [f for f in FORMATS if f.needs_cell] + [f for f in FORMATS if not f.needs_cell]
 
 
 def _call(writer: Any, path: Path, *args: Any, **options: Any) -> Any:
@@ -118,6 +123,8 @@ def perform_export(request: ExportRequest, context: ExportContext, catalog: Any)
 
     fmt = FORMAT_BY_KEY[request.format]
     path = Path(request.path).expanduser()
+    if request.may_create and path.parent == Path(request.may_create):
+        path.parent.mkdir(parents=True, exist_ok=True)
     if not path.parent.exists():
         raise CelllabError([Problem(str(path), "", "folder does not exist", has_value=False)])
     try:
@@ -142,15 +149,20 @@ def perform_export(request: ExportRequest, context: ExportContext, catalog: Any)
 
 
 class ExportDialog(ModalScreen[ExportRequest | None]):
-    """Pick a format (radio buttons) and a destination path."""
+    """Pick a format (radio buttons) and a destination path; enter exports from anywhere in it."""
 
-    BINDINGS = [Binding("escape", "dismiss(None)", "Cancel", show=False)]
+    BINDINGS = [
+        Binding("escape", "dismiss(None)", "Cancel", show=False),
+        # priority: the format list would take enter as "press this button" otherwise
+        Binding("enter", "submit", "Export", show=False, priority=True),
+    ]
 
     def __init__(self, context: ExportContext, folder: Path | None = None) -> None:
         super().__init__()
         self._export_context = context
         self._formats = available_formats(context)
         self._folder = folder or Path.cwd()
+        self._shown_default = self._default_path(self._formats[0])
         self._path_edited = False
 
     def _default_path(self, fmt: ExportFormat) -> str:
@@ -166,8 +178,10 @@ class ExportDialog(ModalScreen[ExportRequest | None]):
             if self._export_context.cell is None:
                 yield Label("open a cell (enter on a row) to export SPICE, Touchstone, JSON or a "
                             "datasheet", classes="dialog-hint")
-            yield Label("path")
-            yield Input(self._default_path(self._formats[0]), id="export-path")
+            yield Label("path (the extension follows the format until you edit it)")
+            yield Input(self._shown_default, id="export-path")
+            yield Label(f"default folder: {self._folder}", classes="dialog-hint",
+                        id="export-folder", markup=False)
             yield Label("", id="export-error", classes="dialog-error")
             with Horizontal(classes="dialog-buttons"):
                 yield Button("Export (enter)", id="export-ok", variant="primary")
@@ -183,26 +197,30 @@ class ExportDialog(ModalScreen[ExportRequest | None]):
 
     def on_radio_set_changed(self, event: RadioSet.Changed) -> None:
         event.stop()
-        if not self._path_edited:
-            path_input = self.query_one("#export-path", Input)
-            with path_input.prevent(Input.Changed):
-                path_input.value = self._default_path(self._chosen())
+        path_input = self.query_one("#export-path", Input)
+        if self._path_edited:
+            return
+        self._shown_default = self._default_path(self._chosen())
+        path_input.value = self._shown_default
 
     def on_input_changed(self, event: Input.Changed) -> None:
-        # the input reports its first value too: only a path other than the default is an edit
-        if event.value != self._default_path(self._chosen()):
-            self._path_edited = True
+        # only a path other than the one the dialog put there is the user's own
+        if event.input.id == "export-path":
+            self._path_edited = event.value != self._shown_default
+
+    def action_submit(self) -> None:
+        focused = self.focused
+        if isinstance(focused, Button):
+            focused.press()
+            return
+        self._submit()
 
     def _submit(self) -> None:
         path = self.query_one("#export-path", Input).value.strip()
         if not path:
             self.query_one("#export-error", Label).update("✗ give a path")
             return
-        self.dismiss(ExportRequest(self._chosen().key, path))
-
-    def on_input_submitted(self, event: Input.Submitted) -> None:
-        event.stop()
-        self._submit()
+        self.dismiss(ExportRequest(self._chosen().key, path, may_create=str(self._folder)))
 
     def on_button_pressed(self, event: Button.Pressed) -> None:
         if event.button.id == "export-ok":
