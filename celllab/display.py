@@ -16,7 +16,7 @@ import numpy as np
 
 from celllab.columns import unit_of
 
-__all__ = ["corner_conditions", "finite_or_none", "format_number", "format_value", "jsonable", "nan_to_none", "none_to_nan",
+__all__ = ["corner_conditions", "count_text", "finite_or_none", "format_number", "format_value", "jsonable", "nan_to_none", "none_to_nan",
            "text_table"]
 
 #: Magnitudes shown in plain notation by ``format_number(..., plain_range=PLAIN_RANGE)``;
@@ -54,6 +54,12 @@ def format_value(value: Any, empty: str = "-", digits: int = 4) -> str:
     if isinstance(value, Real):
         return empty if math.isnan(float(value)) else format_number(float(value), digits)
     return str(value)
+
+
+def count_text(n: int, singular: str, plural: str | None = None) -> str:
+    """``1 row``, ``2 rows``, ``1,024 cells``: a count with its noun in the right number."""
+    word = singular if n == 1 else (plural or singular + "s")
+    return f"{n:,} {word}"
 
 
 def corner_conditions(temperature_C: float, supply_V: float) -> str:

@@ -33,7 +33,7 @@ async def test_first_page_units_filter_and_filter_errors(synthetic_catalog: Any,
         expected = synthetic_catalog.query(deck=SYNTHETIC_DECK, corner="worst", limit=50)
         assert [r["name"] for r in rows] == [r["name"] for r in expected]
         text = ui.screen_text(app)
-        assert "cap_density_fF_per_um2 ▼" in text and "[fF/um^2]" in text and "[nA/nF]" in text
+        assert "cap_density_fF_per_um2 ▼" in text and "[fF/µm²]" in text and "[nA/nF]" in text
         assert f"rows 1–50 of {N_SYNTHETIC}" in text
 
         # a bad filter is explained under the input; the table stays as it was
@@ -160,3 +160,68 @@ async def test_empty_catalog_says_how_to_fill_it(tmp_path: Any, ui: Any) -> None
     async with app.run_test(size=(100, 30)) as pilot:
         await ui.settle(pilot)
         assert "catalog is empty" in ui.screen_text(app)
+
+
+async def test_slash_again_selects_the_filter_so_typing_replaces_it(synthetic_catalog: Any, ui: Any) -> None:
+    app = CelllabApp(catalog=synthetic_catalog)
+    async with app.run_test(size=(100, 30)) as pilot:
+        await ui.settle(pilot)
+        await pilot.press("slash", *"oxide = io", "enter")
+        await ui.settle(pilot)
+        await pilot.press("slash", *"esd_safe", "enter")  # replaces, does not append
+        await ui.settle(pilot)
+        bar = _screen(app).query_one(FilterBar)
+        assert bar.text == "esd_safe" and bar.error == ""
+        assert all(r["esd_safe"] for r in _screen(app).visible_rows())
+        # while typing in the filter, / selects it all again (the language has no /)
+        await pilot.press("slash", *"oxide", "slash", *"topology = mom", "enter")
+        await ui.settle(pilot)
+        assert bar.text == "topology = mom" and bar.error == ""
+        assert {r["topology"] for r in _screen(app).visible_rows()} == {"mom"}
+
+
+async def test_sorting_by_a_hidden_column_shows_it(synthetic_catalog: Any, ui: Any) -> None:
+    app = CelllabApp(catalog=synthetic_catalog)
+    async with app.run_test(size=(120, 40)) as pilot:
+        await ui.settle(pilot)
+        screen = _screen(app)
+        assert "esl_pH" not in screen.columns
+        screen.sort_by("esl_pH")
+        await ui.settle(pilot)
+        assert "esl_pH" in screen.query_one(CatalogTable).columns_shown
+        assert "esl_pH ▲" in ui.screen_text(app)  # lower is better: smallest first
+
+
+async def test_column_checklist_reads_without_colour(synthetic_catalog: Any, ui: Any) -> None:
+    app = CelllabApp(catalog=synthetic_catalog)
+    async with app.run_test(size=(120, 40)) as pilot:
+        await ui.settle(pilot)
+        await pilot.press("c")
+        await ui.settle(pilot)
+        lines = ui.screen_text(app).splitlines()
+        shown = [ln for ln in lines if "cap_density_fF_per_um2 " in ln][0]
+        hidden = [ln for ln in lines if "esl_pH " in ln][0]
+        assert "✓" in shown and "✓" not in hidden  # a glyph, not only a colour, tells them apart
+
+
+async def test_units_read_as_symbols_and_counts_as_words(synthetic_catalog: Any, ui: Any) -> None:
+    app = CelllabApp(catalog=synthetic_catalog)
+    async with app.run_test(size=(120, 40)) as pilot:
+        await ui.settle(pilot)
+        name = _screen(app).visible_rows()[0]["name"]
+        text = ui.screen_text(app)
+        assert "[fF/µm²]" in text and "[Ω]" in text and "um^2" not in text
+        await pilot.press("slash", *f'name = "{name}"', "enter")
+        await ui.settle(pilot)
+        text = ui.screen_text(app)
+        assert "row 1 of 1" in text and "1 rows" not in text
+        await pilot.press("enter")  # the cell view: area in µm²
+        await ui.settle(pilot)
+        text = ui.screen_text(app)
+        assert "µm²" in text and "um^2" not in text and "°C" in text
+        await pilot.press("escape", "2")
+        await ui.settle(pilot)
+        await pilot.press("slash", *f'name = "{name}"', "enter")
+        await ui.settle(pilot)
+        text = ui.screen_text(app)
+        assert "1 cell meets" in text and "1 cells" not in text

@@ -136,3 +136,20 @@ async def test_decks_view_shows_a_deck_taken_from_the_catalog(demo_catalog: Any,
         assert len(heads) == 1  # every parameter of a group under its one heading
         words = " ".join(ui.screen_text(app).split())
         assert "lumen130" in words
+
+
+async def test_corner_names_and_changes_fit_at_80_columns(lumen130_deck: Any, synthetic_catalog: Any,
+                                                         ui: Any) -> None:
+    app = CelllabApp(catalog=synthetic_catalog, deck=lumen130_deck)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await ui.settle(pilot)
+        await pilot.press("3")
+        await ui.settle(pilot)
+        await pilot.press("right_square_bracket")  # the Corners tab
+        await ui.settle(pilot)
+        text = ui.screen_text(app)
+        for name, corner in lumen130_deck.corners.items():
+            assert name in text
+            for path in {**(corner.scale or {}), **(corner.set or {})}:
+                assert path in text, path
+        assert "°C" in text

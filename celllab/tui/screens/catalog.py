@@ -314,7 +314,9 @@ class CatalogScreen(TaskScreen):
         if self.total == 0 or (self.total is None and shown == 0 and self.row_offset == 0):
             rows = "no cell matches" if self.where else "no cells"
         else:
-            rows = f"rows {self.row_offset + 1}–{self.row_offset + shown} of {of}"
+            last = self.row_offset + shown
+            rows = (f"row {last} of {of}" if shown == 1 else
+                    f"rows {self.row_offset + 1}–{last} of {of}")
         sort = f"{arrow} {self.order_by}"
         self.query_one("#catalog-status", Static).update(
             f"{rows} · {sort} · corner {self.lab.current_corner}")
@@ -354,6 +356,9 @@ class CatalogScreen(TaskScreen):
         if descending is None:
             descending = (not self.descending) if column == self.order_by else best_first_descending(column)
         self.order_by, self.descending = column, descending
+        if column not in self.columns:  # the values being sorted are shown, after the name
+            at = 1 if self.columns and self.columns[0] == "name" else 0
+            self.columns = (*self.columns[:at], column, *self.columns[at:])
         self.request_page(0, count=False)
 
     def action_reverse_sort(self) -> None:

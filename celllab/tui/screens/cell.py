@@ -77,7 +77,7 @@ def impedance_plot(cells: Sequence[tuple[str, CellResult]], corners: Sequence[st
             srf_Hz = to_si(srf, "GHz") if srf is not None else math.nan
             if math.isfinite(srf_Hz) and f.size and f[0] <= srf_Hz <= f[-1]:
                 markers.append(Marker(srf_Hz, float(np.interp(srf_Hz, f, z)), "self-resonance"))
-    return PlotSpec(title="|Z|(f)", x_label="f [Hz]", y_label="|Z| [ohm]", x_log=True, y_log=True,
+    return PlotSpec(title="|Z|(f)", x_label="f [Hz]", y_label="|Z| [Ω]", x_log=True, y_log=True,
                     series=tuple(series[:4]), markers=tuple(markers[:4]))
 
 
@@ -110,13 +110,13 @@ def cell_summary(cell: CellResult, deck: str | None) -> Text:
     text.append(f"  {cell.topology} · {cell.oxide} oxide · ")
     text.append("ESD-safe" if cell.esd_safe else "not ESD-safe (gate on a rail)",
                 style="green" if cell.esd_safe else "yellow")
-    text.append(f"\ndeck {deck or '?'} · area {format_number(cell.area_um2)} um^2 "
+    text.append(f"\ndeck {deck or '?'} · area {format_number(cell.area_um2)} µm² "
                 f"({cell.width_sites} sites × {cell.height_rows} rows) · gate area "
-                f"{format_number(cell.gate_area_um2)} um^2", style="dim")
+                f"{format_number(cell.gate_area_um2)} µm²", style="dim")
     return text
 
 
-_UNITS = {"R": "ohm", "C": "F", "L": "H"}
+_UNITS = {"R": "Ω", "C": "F", "L": "H"}
 
 
 def _si(value: float, unit: str) -> str:
@@ -136,7 +136,7 @@ def element_list(netlist: Any) -> str:
             c_total = float(np.asarray(e.c_total, dtype=float).ravel()[0])
             far = e.node_far or ("open" if e.contacted_ends == 1 else e.node_a)
             lines.append(f"RCLINE {e.name:<12} {e.node_a} {e.node_b} far={far}  "
-                         f"R={_si(value, 'ohm')} C={_si(c_total, 'F')} (distributed)")
+                         f"R={_si(value, 'Ω')} C={_si(c_total, 'F')} (distributed)")
         else:
             lines.append(f"{e.kind:<6} {e.name:<12} {e.node_a} {e.node_b}  {_si(value, _UNITS[e.kind])}")
     return "\n".join(lines)

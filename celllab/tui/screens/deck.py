@@ -17,12 +17,13 @@ from textual.widgets import DataTable, Footer, OptionList, Static, TabbedContent
 from textual.widgets.option_list import Option
 
 from celllab.columns import CORNER_COLUMNS
+from celllab.display import count_text
 from celllab.errors import CelllabError, Problem
 from celllab.tui.messages import CatalogDecksLoaded
 from celllab.tui.screens.base import TaskScreen
 from celllab.tui.widgets.problems_view import ProblemsView
 from celllab.tui.widgets.task_bar import TaskBar
-from celllab.units import unit_from_name
+from celllab.units import pretty_unit, unit_from_name
 
 _PART = re.compile(r"\.|\[|\]")
 
@@ -173,7 +174,8 @@ class DeckScreen(TaskScreen):
             if f"file:{info.name}" in self.entries:
                 continue
             key = f"catalog:{info.name}"
-            label = f"✓ {info.name} ({getattr(info, 'n_cells', '?')} cells)"
+            n_cells = getattr(info, "n_cells", None)
+            label = f"✓ {info.name} ({count_text(int(n_cells), 'cell') if n_cells is not None else '?'})"
             self.entries[key] = DeckEntry(key, label, params, source="catalog")
         self._refresh_list()
 
@@ -251,15 +253,17 @@ class DeckScreen(TaskScreen):
     def _fill_corners(self, entry: DeckEntry) -> None:
         table = self.query_one("#deck-corners", DataTable)
         table.clear(columns=True)
-        table.add_columns("corner", Text(f"T [{CORNER_COLUMNS['temperature_C'].unit}]", justify="right"),
+        unit = pretty_unit(CORNER_COLUMNS["temperature_C"].unit)
+        table.add_columns("corner", Text(f"T [{unit}]", justify="right"),
                           Text("supply ×", justify="right"), "changes")
         corners = (entry.params or {}).get("corners") or {}
         for name, corner in corners.items():
+            # one change per line: a long list stays readable in a narrow terminal
             changes = [f"{k} = {v:g}" for k, v in (corner.get("set") or {}).items()]
             changes += [f"{k} × {v:g}" for k, v in (corner.get("scale") or {}).items()]
             table.add_row(name, Text(f"{corner.get('temperature_C', float('nan')):g}", justify="right"),
                           Text(f"{corner.get('supply_scale', 1.0):g}", justify="right"),
-                          "; ".join(changes) or "–", key=name)
+                          "\n".join(changes) or "–", key=name, height=max(1, len(changes)))
 
     def action_tab(self, step: int) -> None:
         tabs = self.query_one("#deck-tabs", TabbedContent)

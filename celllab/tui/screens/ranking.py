@@ -13,6 +13,7 @@ from textual.widgets import Footer, Label, Select, Static
 from textual.worker import get_current_worker
 
 from celllab.columns import METRIC_NAMES, best_first_descending, unit_of
+from celllab.display import count_text
 from celllab.errors import CelllabError, FilterError
 from celllab.tui.messages import (
     CellChosen,
@@ -28,6 +29,7 @@ from celllab.tui.widgets.catalog_table import CatalogTable
 from celllab.tui.widgets.filter_bar import FilterBar
 from celllab.tui.widgets.plot import Marker, PlotSpec, PlotView, Series
 from celllab.tui.widgets.task_bar import TaskBar
+from celllab.units import pretty_unit
 
 RANK_LIMIT = 50
 CLOUD_LIMIT = 4000
@@ -35,7 +37,7 @@ RANKABLE: tuple[str, ...] = (*METRIC_NAMES, "area_um2", "gate_area_um2")
 
 
 def _axis_label(metric: str) -> str:
-    unit = unit_of(metric)
+    unit = pretty_unit(unit_of(metric))
     return f"{metric} [{unit}]" if unit else metric
 
 
@@ -151,7 +153,8 @@ class RankingScreen(TaskScreen):
         shown = len(message.cloud)
         sample = f" (plot: first {shown:,})" if shown < message.total else ""
         self.query_one("#rank-status", Static).update(
-            f"{message.total:,} cells meet the constraints{sample} · Pareto front "
+            f"{count_text(message.total, 'cell')} {'meets' if message.total == 1 else 'meet'} "
+            f"the constraints{sample} · Pareto front "
             f"{len(message.front)} · deck {self.lab.current_deck} · {self.lab.current_corner}")
 
     def on_query_failed(self, message: QueryFailed) -> None:

@@ -12,6 +12,7 @@ from rich.text import Text
 
 from celllab import display
 from celllab.columns import COLUMNS, TEXT_COLUMNS, unit_of
+from celllab.units import pretty_unit
 
 #: Identity columns of a catalog row, with how they read in a header.
 ID_COLUMNS: dict[str, str] = {name: column.description for name, column in TEXT_COLUMNS.items()}
@@ -21,8 +22,8 @@ __all__ = ["ID_COLUMNS", "column_description", "column_header", "column_unit", "
 
 
 def column_unit(column: str) -> str:
-    """Unit of a catalog column ('' for identity columns)."""
-    return unit_of(column)
+    """Unit of a catalog column as it reads on screen (``fF/µm²``; '' for identity columns)."""
+    return pretty_unit(unit_of(column))
 
 
 def column_description(column: str) -> str:
