@@ -181,3 +181,38 @@ def best_first_descending(name: str) -> bool:
     """Sort direction that puts the best values first (text and unknown columns ascending)."""
     column = RANKED.get(name)
     return column is not None and column.higher_is_better
+
+
+# --- values that are bounds, not results -------------------------------------------------------
+
+#: Flag codes (the text before the colon of a stored flag) that mark a metric's value as a
+#: lower bound: the quantity lies beyond the analysed frequency sweep.
+LOWER_BOUND_FLAGS: dict[str, str] = {
+    "bandwidth_beyond_sweep": "bandwidth_GHz",
+    "srf_beyond_sweep": "srf_GHz",
+}
+
+#: How a bound reads in front of its value, everywhere values are shown to people.
+BOUND_MARK = "≥"
+
+
+def bound_metrics(flags: Iterable[str] | None) -> frozenset[str]:
+    """Metrics whose stored value is a lower bound, read from a row's (or corner's) flags."""
+    found = set()
+    for flag in flags or ():
+        metric = LOWER_BOUND_FLAGS.get(str(flag).partition(":")[0].strip())
+        if metric is not None:
+            found.add(metric)
+    return frozenset(found)
+
+
+def is_lower_bound(row: Any, metric: str) -> bool:
+    """Whether ``row[metric]`` is a lower bound rather than a result: the one place that decides.
+
+    ``row`` is a catalog row (a mapping with ``flags``) or anything with a ``flags`` attribute
+    (a ``records.CornerResult``). A worst/best catalog row carries the union of its corners'
+    flags, so there the mark means "at least one corner only has a bound", which never hides
+    a bound.
+    """
+    flags = row.get("flags") if isinstance(row, dict) else getattr(row, "flags", None)
+    return metric in bound_metrics(flags)

@@ -22,6 +22,7 @@ from celllab.columns import (
     METRICS,
     Better,
     Column,
+    bound_metrics,
 )
 
 #: Column facts (units, better direction, worst/best) live in ``celllab.columns``; the names are
@@ -30,7 +31,7 @@ MetricInfo = Column
 
 __all__ = [
     "CELL_COLUMNS", "METRICS", "METRIC_BY_NAME", "METRIC_NAMES", "Better", "CVCurve", "CellResult",
-    "CharacterizationRun", "CornerFigures", "CornerResult", "FrequencyResponse", "MetricInfo", "corner_metrics",
+    "CharacterizationRun", "CornerFigures", "CornerResult", "FrequencyResponse", "MetricInfo", "corner_bounds", "corner_metrics",
     "netlist_from_dict", "netlist_to_dict",
 ]
 
@@ -151,6 +152,23 @@ def corner_metrics(cell: CellResult, corner: str) -> dict[str, float]:
         return {m.name: m.over_corners((c.metrics.get(m.name) for c in cell.corners), corner)  # type: ignore[arg-type]
                 for m in METRICS}
     return dict(cell.corner(corner).metrics)
+
+
+def corner_bounds(cell: CellResult, corner: str) -> frozenset[str]:
+    """Metrics whose value ``corner_metrics(cell, corner)`` gives is a lower bound.
+
+    At a named corner, that corner's bound flags (``columns.bound_metrics``); for "worst" /
+    "best", the metrics whose chosen value comes from a corner where it is a bound.
+    """
+    if corner not in AGGREGATE_CORNERS:
+        return bound_metrics(cell.corner(corner).flags)
+    chosen = corner_metrics(cell, corner)
+    found = set()
+    for c in cell.corners:
+        for name in bound_metrics(c.flags):
+            if c.metrics.get(name) == chosen.get(name):
+                found.add(name)
+    return frozenset(found)
 
 
 def netlist_to_dict(netlist: Any) -> dict[str, Any]:

@@ -100,3 +100,34 @@ def test_explain_flag_keeps_the_engine_sentence_and_adds_the_consequence() -> No
     assert words.startswith("No self-resonance below 1 THz")
     assert "'at least'" in words
     assert explain_flag("odd_code") == "Odd code."
+
+
+async def test_lower_bounds_carry_their_mark_in_table_cell_view_and_what_if(
+        demo_catalog: Any, ui: Any) -> None:
+    from celllab.columns import is_lower_bound
+
+    rows = demo_catalog.query(corner="typ_25C", where="topology = mom")
+    row = next(r for r in rows if is_lower_bound(r, "srf_GHz"))
+    app = CelllabApp(catalog=demo_catalog, debounce_s=0.05)
+    async with app.run_test(size=(120, 40)) as pilot:
+        await ui.settle(pilot)
+        screen = app.screen
+        screen.columns = ("name", "srf_GHz", "bandwidth_GHz")  # type: ignore[attr-defined]
+        await pilot.press("slash", *f'name = "{row["name"]}"', "enter")
+        await ui.settle(pilot)
+        assert "≥1000" in ui.screen_text(app)  # the table
+        await pilot.press("enter")
+        await ui.settle(pilot)
+        cell_screen = app.screen
+        assert isinstance(cell_screen, CellScreen)
+        metrics = cell_screen.query_one("#cell-metrics", DataTable)
+        assert str(metrics.get_row("srf_GHz")[1]).startswith("≥")
+        assert not str(metrics.get_row("cap_fF")[1]).startswith("≥")
+        z = cell_screen.query_one("#plot-z", PlotView).spec
+        assert any("≥" in m.label for m in z.markers)  # no "self-resonance" at the sweep end
+        assert not any(m.label == "self-resonance" for m in z.markers)
+        await pilot.press("w")
+        await ui.settle(pilot)
+        whatif = app.screen
+        assert isinstance(whatif, WhatIfScreen)
+        assert "≥1000" in ui.screen_text(app)  # the what-if's metric table

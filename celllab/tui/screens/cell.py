@@ -16,6 +16,7 @@ from textual.containers import VerticalScroll
 from textual.widgets import DataTable, Footer, Static, TabbedContent, TabPane, TextArea
 
 from celllab import CAUTION_SHORT
+from celllab.columns import BOUND_MARK, is_lower_bound
 from celllab.errors import CelllabError
 from celllab.records import METRICS, CellResult
 from celllab.tui.messages import CellLoaded, QueryFailed
@@ -76,7 +77,11 @@ def impedance_plot(cells: Sequence[tuple[str, CellResult]], corners: Sequence[st
             srf = c.metrics.get("srf_GHz")
             srf_Hz = to_si(srf, "GHz") if srf is not None else math.nan
             if math.isfinite(srf_Hz) and f.size and f[0] <= srf_Hz <= f[-1]:
-                markers.append(Marker(srf_Hz, float(np.interp(srf_Hz, f, z)), "self-resonance"))
+                if is_lower_bound(c, "srf_GHz"):
+                    markers.append(Marker(srf_Hz, float(np.interp(srf_Hz, f, z)),
+                                          f"SRF {BOUND_MARK} sweep end", glyph="▶"))
+                else:
+                    markers.append(Marker(srf_Hz, float(np.interp(srf_Hz, f, z)), "self-resonance"))
     return PlotSpec(title="|Z|(f)", x_label="f [Hz]", y_label="|Z| [Ω]", x_log=True, y_log=True,
                     series=tuple(series[:4]), markers=tuple(markers[:4]))
 
@@ -96,7 +101,11 @@ def ceff_plot(cells: Sequence[tuple[str, CellResult]], corners: Sequence[str] | 
             cap = c.metrics.get("cap_fF")
             bw_Hz = to_si(bw, "GHz") if bw is not None else math.nan
             if cap is not None and math.isfinite(bw_Hz) and f.size and f[0] <= bw_Hz <= f[-1]:
-                markers.append(Marker(bw_Hz, cap / math.sqrt(2), "bandwidth (C/√2)"))
+                if is_lower_bound(c, "bandwidth_GHz"):
+                    markers.append(Marker(bw_Hz, float(np.interp(bw_Hz, f, ceff)),
+                                          f"bandwidth {BOUND_MARK} sweep end", glyph="▶"))
+                else:
+                    markers.append(Marker(bw_Hz, cap / math.sqrt(2), "bandwidth (C/√2)"))
     return PlotSpec(title="C_eff(f)", x_label="f [Hz]", y_label="C_eff [fF]", x_log=True,
                     y_log=True, series=tuple(series[:4]), markers=tuple(markers[:4]))
 
@@ -294,10 +303,11 @@ class CellScreen(TaskScreen):
                                   f"{format_number(c.supply_V)}V", justify="right"), key=c.corner)
         table.header_height = 2
         for info in METRICS:
-            values = [c.metrics.get(info.name) for c in cell.corners]
             name = Text(info.name)
             name.append(f" {info.arrow}", style="dim")
-            table.add_row(name, *[value_text(v) for v in values], key=info.name)
+            table.add_row(name, *[value_text(c.metrics.get(info.name), info.name,
+                                             is_lower_bound(c, info.name)) for c in cell.corners],
+                          key=info.name)
 
     # --- actions ------------------------------------------------------------------------
     def action_tab(self, step: int) -> None:

@@ -25,9 +25,9 @@ from textual.timer import Timer
 from textual.widgets import Footer, Input, Select, Static, TabbedContent, TabPane
 from textual.worker import get_current_worker
 
-from celllab.columns import METRICS, Column
+from celllab.columns import BOUND_MARK, METRICS, Column
 from celllab.errors import CelllabError, Problem
-from celllab.records import CellResult, corner_metrics
+from celllab.records import CellResult, corner_bounds, corner_metrics
 from celllab.topologies import REGISTRY
 from celllab.tui.messages import (
     CellLoaded,
@@ -116,20 +116,38 @@ def metrics_at(cell: CellResult, corner: str) -> dict[str, float]:
         return {}
 
 
-def change_text(before: float | None, after: float | None, column: Column) -> Text:
-    """Relative change, green when it moves the better way."""
+def bounds_at(cell: CellResult, corner: str) -> frozenset[str]:
+    """Metrics whose value at ``corner`` (a name, "worst" or "best") is only a lower bound."""
+    try:
+        return corner_bounds(cell, corner)
+    except KeyError:
+        return frozenset()
+
+
+def change_text(before: float | None, after: float | None, column: Column,
+                before_bound: bool = False, after_bound: bool = False) -> Text:
+    """Relative change, green when it moves the better way.
+
+    A value that is only a lower bound makes the change a bound too: ``≥`` when the new value
+    is one (the change is at least this), ``≤`` when the old one is, ``?`` when both are.
+    """
     if before is None or after is None or math.isnan(before) or math.isnan(after):
         return Text("")
-    if before == after:
+    if before_bound and after_bound:
+        return Text("?", style="dim", justify="right")
+    if before == after and not (before_bound or after_bound):
         return Text("=", style="dim", justify="right")
     if before == 0:
         return Text("new", justify="right")
     rel = (after - before) / abs(before) * 100
     good = column.improved(before, after)
-    return Text(f"{rel:+.1f} %", style="green" if good else "red", justify="right")
+    mark = BOUND_MARK if after_bound else ("≤" if before_bound else "")
+    return Text(f"{mark}{rel:+.1f} %", style="green" if good else "red", justify="right")
 
 
-def compare_table(before: Mapping[str, float], after: Mapping[str, float] | None) -> Table:
+def compare_table(before: Mapping[str, float], after: Mapping[str, float] | None,
+                  before_bounds: frozenset[str] = frozenset(),
+                  after_bounds: frozenset[str] = frozenset()) -> Table:
     """metric | cell | what-if | change, compact enough for an 80-column terminal."""
     table = Table(box=None, padding=(0, 1, 0, 0), expand=True, show_edge=False)
     table.add_column("metric", ratio=1, no_wrap=True, overflow="ellipsis")
@@ -141,8 +159,11 @@ def compare_table(before: Mapping[str, float], after: Mapping[str, float] | None
         a = after.get(info.name) if after is not None else None
         name = Text(info.name)
         name.append(f" {info.arrow}", style="dim")
-        table.add_row(name, value_text(b), value_text(a) if after is not None else Text("–", style="dim"),
-                      change_text(b, a, info) if after is not None else Text(""))
+        b_bound, a_bound = info.name in before_bounds, info.name in after_bounds
+        table.add_row(name, value_text(b, info.name, b_bound),
+                      value_text(a, info.name, a_bound) if after is not None
+                      else Text("–", style="dim"),
+                      change_text(b, a, info, b_bound, a_bound) if after is not None else Text(""))
     return table
 
 
@@ -369,7 +390,9 @@ class WhatIfScreen(TaskScreen):
             return
         before = metrics_at(self.original, self.corner)
         after = metrics_at(self.variant, self.corner) if self.variant is not None else None
-        self.query_one("#wi-table", Static).update(compare_table(before, after))
+        self.query_one("#wi-table", Static).update(compare_table(
+            before, after, bounds_at(self.original, self.corner),
+            bounds_at(self.variant, self.corner) if self.variant is not None else frozenset()))
         plot_corner = None if self.corner == "worst" else self.corner
         typical = plot_corner or self._typical(self.original)
         pairs: list[tuple[str, CellResult]] = [("cell", self.original)]

@@ -13,6 +13,7 @@ from typing import Any
 from textual.binding import Binding
 from textual.widgets import DataTable
 
+from celllab.columns import is_lower_bound
 from celllab.tui.messages import CellChosen, PageRequested, SortRequested
 from celllab.tui.widgets.values import column_header, value_text
 
@@ -67,7 +68,8 @@ class CatalogTable(DataTable[Any]):
         self.row_offset = offset
         self.total = total
         self.add_rows(
-            [[value_text(row.get(c), c) for c in columns] for row in self.rows_shown]
+            [[value_text(row.get(c), c, is_lower_bound(row, c)) for c in columns]
+             for row in self.rows_shown]
         )
         if self.rows_shown:
             target = self._pending_cursor if self._pending_cursor is not None else keep_cursor
