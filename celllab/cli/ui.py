@@ -19,10 +19,17 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
     parser.add_argument("--deck", metavar="PATH", nargs="+", action="extend", default=[],
                         help="process deck file(s) for the deck view and what-ifs; a deck that "
                         "does not validate is shown with its problems")
+    parser.add_argument("--z-target-ohm", type=float, metavar="OHM", default=None,
+                        help="target impedance drawn on every |Z|(f) plot (t sets it inside)")
     parser.set_defaults(func=run)
 
 
 def run(args: argparse.Namespace) -> int:
     from celllab.tui.app import run_app
 
-    return run_app(args.catalog, list(args.deck))
+    from celllab.errors import CelllabError, Problem
+
+    target = args.z_target_ohm
+    if target is not None and not target > 0:
+        raise CelllabError([Problem("ui", "--z-target-ohm", "must be > 0 (ohm)", target)])
+    return run_app(args.catalog, list(args.deck), z_target_ohm=target)

@@ -90,6 +90,7 @@ class CelllabApp(App[None]):
         page_size: int = 100,
         debounce_s: float = 0.15,
         export_folder: str | Path | None = None,
+        z_target_ohm: float | None = None,
     ) -> None:
         super().__init__()
         self.catalog = catalog
@@ -115,6 +116,8 @@ class CelllabApp(App[None]):
         self.current_deck: str | None = next(iter(self.decks), None)
         self.current_corner: str = "worst"
         self._deck_cache: dict[str, Any] = {}
+        #: the |Z| a block needs of its decaps, drawn on every |Z|(f) plot (None: not known)
+        self.z_target_ohm: float | None = z_target_ohm
         #: the unexpected error that stopped the app (``run_app`` logs it), if any
         self.crash: BaseException | None = None
 
@@ -168,6 +171,23 @@ class CelllabApp(App[None]):
     def remember_spec(self, deck_name: str, spec: Any) -> None:
         """Keep a saved variant's spec so a later what-if starts from exactly it."""
         self._specs[(deck_name, spec.name)] = spec
+
+    def ask_target(self, then: Any = None) -> None:
+        """Ask for the target |Z| (empty clears it); ``then(value)`` runs after a change."""
+        import math
+
+        from celllab.tui.screens.value_prompt import NumberPrompt
+
+        def chosen(value: float | None) -> None:
+            if value is not None and math.isnan(value):
+                return  # cancelled
+            self.z_target_ohm = value
+            if callable(then):
+                then(value)
+
+        self.push_screen(NumberPrompt(
+            "Target |Z|", "The impedance the decaps must stay under (a block's target): drawn "
+            "as a line on every |Z|(f) plot.", "Ω", self.z_target_ohm), chosen)
 
     # --- global actions -----------------------------------------------------------------
     def action_show_keys(self) -> None:
@@ -273,7 +293,7 @@ def write_crash_log(error: BaseException, folder: str | Path | None = None) -> P
 
 
 def run_app(catalog_path: str | Path | None = None, deck_paths: Sequence[str | Path] = (),
-            *, log_folder: str | Path | None = None) -> int:
+            *, log_folder: str | Path | None = None, z_target_ohm: float | None = None) -> int:
     """Open the catalog (created when missing) and the deck files, run the UI.
 
     Returns 0; 1 after an unexpected error, which is summed up in one line on stderr with the
@@ -284,7 +304,7 @@ def run_app(catalog_path: str | Path | None = None, deck_paths: Sequence[str | P
 
     catalog = open_catalog(catalog_path)
     decks, failures = load_decks_for_ui(deck_paths)
-    app = CelllabApp(catalog=catalog, deck=decks, deck_failures=failures)
+    app = CelllabApp(catalog=catalog, deck=decks, deck_failures=failures, z_target_ohm=z_target_ohm)
     try:
         app.run()
     finally:

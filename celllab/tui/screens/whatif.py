@@ -38,7 +38,8 @@ from celllab.tui.messages import (
     WhatIfRejected,
 )
 from celllab.tui.screens.base import TaskScreen
-from celllab.tui.screens.cell import ceff_plot, cell_summary, cv_plot, impedance_plot
+from celllab.tui.curves import ceff_plot, cv_plot, esr_plot, impedance_plot
+from celllab.tui.screens.cell import cell_summary
 from celllab.tui.widgets.plot import PlotView
 from celllab.tui.widgets.problems_view import ProblemsView
 from celllab.tui.widgets.task_bar import TaskBar
@@ -180,7 +181,7 @@ class WhatIfScreen(TaskScreen):
         Binding("escape", "back", "Back"),
     ]
 
-    TABS = ("wi-metrics", "wi-cv", "wi-z", "wi-ceff")
+    TABS = ("wi-metrics", "wi-cv", "wi-z", "wi-esr", "wi-ceff")
 
     def __init__(self, name: str, deck: str | None, cell: CellResult | None = None) -> None:
         super().__init__()
@@ -223,6 +224,8 @@ class WhatIfScreen(TaskScreen):
                         yield PlotView(id="wi-plot-cv")
                     with TabPane("|Z|(f)", id="wi-z"):
                         yield PlotView(id="wi-plot-z")
+                    with TabPane("ESR(f)", id="wi-esr"):
+                        yield PlotView(id="wi-plot-esr")
                     with TabPane("C_eff(f)", id="wi-ceff"):
                         yield PlotView(id="wi-plot-ceff")
         yield Footer()
@@ -398,9 +401,11 @@ class WhatIfScreen(TaskScreen):
         pairs: list[tuple[str, CellResult]] = [("cell", self.original)]
         if self.variant is not None:
             pairs.append(("what-if", self.variant))
-        self.query_one("#wi-plot-cv", PlotView).spec = cv_plot(pairs, typical)
-        self.query_one("#wi-plot-z", PlotView).spec = impedance_plot(pairs, [typical] if typical else None)
-        self.query_one("#wi-plot-ceff", PlotView).spec = ceff_plot(pairs, [typical] if typical else None)
+        at = [typical] if typical else None
+        self.query_one("#wi-plot-cv", PlotView).spec = cv_plot(pairs, at)
+        self.query_one("#wi-plot-z", PlotView).spec = impedance_plot(pairs, at, self.lab.z_target_ohm)
+        self.query_one("#wi-plot-esr", PlotView).spec = esr_plot(pairs, at)
+        self.query_one("#wi-plot-ceff", PlotView).spec = ceff_plot(pairs, at)
         if self.variant is None and not self.computing:
             self.query_one("#wi-status", Static).update(
                 Text("no changes yet: edit a field on the left", style="dim"))
