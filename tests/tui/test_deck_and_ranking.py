@@ -153,3 +153,58 @@ async def test_corner_names_and_changes_fit_at_80_columns(lumen130_deck: Any, sy
             for path in {**(corner.scale or {}), **(corner.set or {})}:
                 assert path in text, path
         assert "°C" in text
+
+
+@pytest.mark.parametrize("size", [(120, 40), (80, 24)])
+async def test_ranking_shows_the_ranked_values_and_the_whole_plot_title(
+        synthetic_catalog: Any, ui: Any, size: tuple[int, int]) -> None:
+    app = CelllabApp(catalog=synthetic_catalog)
+    async with app.run_test(size=size) as pilot:
+        await ui.settle(pilot)
+        await pilot.press("2")
+        await ui.settle(pilot)
+        screen = app.screen
+        assert isinstance(screen, RankingScreen)
+        best = screen.ranked_rows()[0]
+        text = ui.screen_text(app)
+        from celllab.tui.widgets.values import format_number
+
+        assert "cap_density_fF_per_um2" in text  # the ranked column's header ...
+        first_line = next(ln for ln in text.splitlines() if best["name"] in ln)
+        assert format_number(best["cap_density_fF_per_um2"]) in first_line  # ... and its values
+        assert "Pareto" in text and "front cell" in text  # the plot's title line is whole
+
+
+async def test_a_pareto_point_opens_its_cell(synthetic_catalog: Any, ui: Any) -> None:
+    from celllab.tui.screens.cell import CellScreen
+
+    app = CelllabApp(catalog=synthetic_catalog)
+    async with app.run_test(size=(120, 40)) as pilot:
+        await ui.settle(pilot)
+        await pilot.press("2")
+        await ui.settle(pilot)
+        screen = app.screen
+        assert isinstance(screen, RankingScreen)
+        front = sorted(screen.front, key=lambda r: r["cap_density_fF_per_um2"])
+        await pilot.press("period")  # first point of the front (lowest x)
+        await ui.settle(pilot)
+        assert screen.pointed is not None and screen.pointed["name"] == front[0]["name"]
+        await pilot.press("period")
+        await ui.settle(pilot)
+        assert screen.pointed["name"] == front[1]["name"]
+        assert front[1]["name"] in ui.screen_text(app)  # the status line names it
+        spec = screen.query_one(PlotView).spec
+        assert any(m.glyph == "◎" for m in spec.markers)  # and the plot rings it
+        await pilot.press("o")
+        await ui.settle(pilot)
+        assert isinstance(app.screen, CellScreen) and app.screen.cell.name == front[1]["name"]
+        await pilot.press("escape")
+        await ui.settle(pilot)
+        # a click on the plot picks the nearest front point
+        plot = screen.query_one(PlotView)
+        lines = plot._rendered.split("\n")
+        row = next(i for i, ln in enumerate(lines) if i > 0 and "●" in ln)
+        await pilot.click(PlotView, offset=(lines[row].index("●"), row))
+        await ui.settle(pilot)
+        assert screen.pointed is not None
+        assert screen.pointed["name"] in {r["name"] for r in front}

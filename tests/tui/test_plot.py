@@ -126,3 +126,19 @@ def test_too_small_area_says_so() -> None:
 
 def test_empty_plot_says_why() -> None:
     assert render_plot(PlotSpec(empty_text="no C-V curve"), 60, 12).plain == "no C-V curve"
+
+
+def test_a_character_cell_maps_back_to_the_data_it_shows() -> None:
+    from celllab.tui.widgets.plot import point_at
+
+    f = np.logspace(6, 10, 50)
+    spec = PlotSpec(x_log=True, y_log=True, series=(Series(f, 1e12 / f, "1/f"),),
+                    markers=(Marker(1e8, 1e4, "mid"),))
+    text = render_plot(spec, 80, 20).plain
+    lines = text.split("\n")
+    row = next(i for i, ln in enumerate(lines) if i > 0 and "◆" in ln)
+    col = lines[row].index("◆")
+    x, y = point_at(spec, text, col, row)
+    # one character is 1/70 of four decades across, 1/16 of four decades up
+    assert abs(np.log10(x) - 8) < 0.1 and abs(np.log10(y) - 4) < 0.3
+    assert point_at(spec, text, 0, 0) is None  # the legend line is outside the frame

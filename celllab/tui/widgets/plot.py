@@ -12,16 +12,18 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import Literal
+from typing import Any, Literal
 
 import numpy as np
 from rich.style import Style
 from rich.text import Text
+from textual import events
+from textual.message import Message
 from textual.reactive import reactive
 from textual.widget import Widget
 
-__all__ = ["Level", "Marker", "PlotSpec", "PlotView", "Series", "format_tick", "render_plot",
-           "ticks_for"]
+__all__ = ["Level", "Marker", "PlotPointed", "PlotSpec", "PlotView", "Series", "axis_limits",
+           "format_tick", "point_at", "render_plot", "ticks_for"]
 
 #: Fallback colours when a style map is not given (the widget passes theme-derived ones).
 DEFAULT_STYLES: dict[str, Style] = {
@@ -192,6 +194,51 @@ def _legend(spec: PlotSpec, st: dict[str, Style], width: int) -> Text:
     return out
 
 
+def _data(spec: PlotSpec) -> tuple[Any, ...]:
+    xs = [np.asarray(s.x, dtype=float) for s in spec.series]
+    ys = [np.asarray(s.y, dtype=float) for s in spec.series]
+    masks = [_finite(x, spec.x_log) & _finite(y, spec.y_log) for x, y in zip(xs, ys)]
+    mx = np.array([m.x for m in spec.markers], dtype=float)
+    my = np.array([m.y for m in spec.markers], dtype=float)
+    mmask = _finite(mx, spec.x_log) & _finite(my, spec.y_log) if mx.size else np.array([], bool)
+    ly = np.array([lv.y for lv in spec.levels], dtype=float)
+    lmask = _finite(ly, spec.y_log) if ly.size else np.array([], bool)
+    return xs, ys, masks, (mx, my, mmask), (ly, lmask)
+
+
+def axis_limits(spec: PlotSpec) -> tuple[tuple[float, float], tuple[float, float]]:
+    """((x_lo, x_hi), (y_lo, y_hi)): the data ranges the axes span (padded on linear axes)."""
+    xs, ys, masks, (mx, my, mmask), (ly, lmask) = _data(spec)
+    return (_range([x[m] for x, m in zip(xs, masks)] + [mx[mmask]], spec.x_log),
+            _range([y[m] for y, m in zip(ys, masks)] + [my[mmask], ly[lmask]], spec.y_log))
+
+
+def point_at(spec: PlotSpec, rendered: str, column: int, row: int) -> tuple[float, float] | None:
+    """The data point under a character cell of a rendered plot (None outside the frame).
+
+    The frame's inner cells span the axis limits from edge to edge (plotext's layout).
+    """
+    lines = rendered.split("\n")
+    try:
+        top = next(i for i, ln in enumerate(lines) if "┌" in ln)
+        bottom = next(i for i, ln in enumerate(lines) if "└" in ln)
+    except StopIteration:
+        return None
+    left, right = lines[top].index("┌"), lines[top].index("┐")
+    if not (left < column < right and top < row < bottom) or right - left < 3 or bottom - top < 3:
+        return None
+    fx = (column - left - 1) / (right - left - 2)
+    fy = (bottom - 1 - row) / (bottom - top - 2)
+    (x_lo, x_hi), (y_lo, y_hi) = axis_limits(spec)
+
+    def along(lo: float, hi: float, frac: float, log: bool) -> float:
+        if log:
+            return float(10 ** (math.log10(lo) + frac * (math.log10(hi) - math.log10(lo))))
+        return lo + frac * (hi - lo)
+
+    return along(x_lo, x_hi, fx, spec.x_log), along(y_lo, y_hi, fy, spec.y_log)
+
+
 def render_plot(spec: PlotSpec, width: int, height: int,
                 styles: dict[str, Style] | None = None) -> Text:
     """Render ``spec`` into at most ``height`` lines of at most ``width`` cells.
@@ -206,21 +253,16 @@ def render_plot(spec: PlotSpec, width: int, height: int,
         return Text("(plot area too small)"[:max(width, 0)], style=st["label"])
     if not any(np.asarray(s.x).size for s in spec.series) and not spec.markers:
         return Text(spec.empty_text[:width], style=st["label"])
-    xs = [np.asarray(s.x, dtype=float) for s in spec.series]
-    ys = [np.asarray(s.y, dtype=float) for s in spec.series]
-    masks = [_finite(x, spec.x_log) & _finite(y, spec.y_log) for x, y in zip(xs, ys)]
-    mx = np.array([m.x for m in spec.markers], dtype=float)
-    my = np.array([m.y for m in spec.markers], dtype=float)
-    mmask = _finite(mx, spec.x_log) & _finite(my, spec.y_log) if mx.size else np.array([], bool)
-    ly = np.array([lv.y for lv in spec.levels], dtype=float)
-    lmask = _finite(ly, spec.y_log) if ly.size else np.array([], bool)
-    x_lo, x_hi = _range([x[m] for x, m in zip(xs, masks)] + [mx[mmask]], spec.x_log)
-    y_lo, y_hi = _range([y[m] for y, m in zip(ys, masks)] + [my[mmask], ly[lmask]], spec.y_log)
+    xs, ys, masks, (mx, my, mmask), (ly, lmask) = _data(spec)
+    (x_lo, x_hi), (y_lo, y_hi) = axis_limits(spec)
 
     plt = Plot()
     plt.theme("clear")
     plot_h = height - 1
     plt.plotsize(width, plot_h)
+    # plotext caps plotsize at the size of the terminal it runs in; the widget's size is what
+    # counts here (textual-plotext sets it the same way)
+    plt._set_size(width, plot_h)
     for index, (series, x, y, m) in enumerate(zip(spec.series, xs, ys, masks)):
         color = _rgb(st[f"series-{index % N_SERIES_STYLES}"])
         if series.kind == "dots":
@@ -289,4 +331,23 @@ class PlotView(Widget):
             return Text("no data to plot", style="dim")
         styles = {name.removeprefix("plot--"): self.get_component_rich_style(name, partial=True)
                   for name in self.COMPONENT_CLASSES}
-        return render_plot(self.spec, self.size.width, self.size.height, styles)
+        text = render_plot(self.spec, self.size.width, self.size.height, styles)
+        self._rendered = text.plain
+        return text
+
+    def on_click(self, event: events.Click) -> None:
+        if self.spec is None or not getattr(self, "_rendered", ""):
+            return
+        point = point_at(self.spec, self._rendered, event.x, event.y)
+        if point is not None:
+            self.post_message(PlotPointed(self, *point))
+
+
+class PlotPointed(Message):
+    """The user clicked inside a plot's frame, at data coordinates (x, y)."""
+
+    def __init__(self, plot: PlotView, x: float, y: float) -> None:
+        super().__init__()
+        self.plot = plot
+        self.x = x
+        self.y = y
