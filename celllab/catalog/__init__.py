@@ -70,6 +70,11 @@ class Catalog:
         with self._access() as db:
             return _store.store_run(db, run)
 
+    def remove_run(self, run_id: int) -> int:
+        """Take back the latest run of a deck (see ``store.remove_run``); cells removed."""
+        with self._access() as db:
+            return _store.remove_run(db, run_id)
+
     def merge_from(self, other_path: str | Path) -> MergeReport:
         """Import another catalog file by content hash; conflicts are reported, never overwritten."""
         with self._access() as db:

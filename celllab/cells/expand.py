@@ -66,6 +66,24 @@ def variant_name(family: str, values: dict[str, Any], swept: list[str]) -> str:
     return "-".join(parts)
 
 
+def renamed_variant(name: str, before: dict[str, Any], after: dict[str, Any]) -> str:
+    """``name`` with the tags of changed geometry fields rewritten (``x-w8-h1-f2`` with
+    ``fingers`` 2 -> 4 gives ``x-w8-h1-f4``); a changed field without its tag in the name gets
+    one appended. Fields without a tag (or with an empty one) leave the name as it is."""
+    parts = name.split("-")
+    for field, value in after.items():
+        tag = NAME_TAGS.get(field)
+        if not tag or before.get(field) == value or value is None:
+            continue
+        old = f"{tag}{_fmt(before[field])}" if before.get(field) is not None else None
+        new = f"{tag}{_fmt(value)}"
+        if old is not None and old in parts[1:]:
+            parts[parts.index(old, 1)] = new
+        else:
+            parts.append(new)
+    return "-".join(parts)
+
+
 def _expand_value(value: Any, where: str, file: str, text: str | None, path: list[Any]) -> list[Any]:
     if isinstance(value, list):
         if not value:

@@ -162,6 +162,14 @@ class VariantSaved(Message):
         self.report = report
 
 
+class VariantRemoved(Message):
+    """A saved what-if variant was taken back out of the catalog (its run removed)."""
+
+    def __init__(self, run_id: int) -> None:
+        super().__init__()
+        self.run_id = run_id
+
+
 class RankingLoaded(Message):
     """A worker computed the ranked rows, the scatter cloud and the Pareto front."""
 

@@ -32,6 +32,7 @@ from celllab.topologies import REGISTRY
 from celllab.tui.messages import (
     CellLoaded,
     QueryFailed,
+    VariantRemoved,
     VariantSaved,
     WhatIfComputed,
     WhatIfEdited,
@@ -44,7 +45,7 @@ from celllab.tui.widgets.plot import PlotView
 from celllab.tui.widgets.problems_view import ProblemsView
 from celllab.tui.widgets.task_bar import TaskBar
 from celllab.tui.widgets.values import value_text
-from celllab.tui.widgets.whatif_form import WhatIfForm, geometry_help
+from celllab.tui.widgets.whatif_form import WhatIfForm, geometry_help, value_to_text
 from celllab.units import from_si
 
 _INT = re.compile(r"^[+-]?\d+$")
@@ -71,13 +72,42 @@ def parse_field_text(text: str, annotation: Any = None) -> Any:
     return value
 
 
+def input_kind(annotation: Any) -> str:
+    """The Input type of a geometry field: "integer", "number" or "text"."""
+    args = set(typing.get_args(annotation)) - {type(None)} or {annotation}
+    if args == {int}:
+        return "integer"
+    if args <= {int, float}:
+        return "number"
+    return "text"
+
+
+def field_placeholder(info: Any) -> str:
+    """What an empty geometry input means: required, derived (None default) or the default."""
+    if info.is_required():
+        return "required"
+    if info.default is None:
+        return "auto (derived)"
+    return f"default {value_to_text(info.default)}"
+
+
+def required_missing(spec: Any, texts: Mapping[str, str]) -> list[str]:
+    """Geometry fields left empty that have no default."""
+    fields = type(spec).model_fields
+    return [name for name, text in texts.items()
+            if not text.strip() and name in fields and fields[name].is_required()]
+
+
 def geometry_changes(spec: Any, texts: Mapping[str, str]) -> dict[str, Any]:
-    """Fields whose typed value differs from the spec's own value."""
+    """Fields whose typed value differs from the spec's own value; an empty field is its
+    default (None for a derived one)."""
     fields = type(spec).model_fields
     changes: dict[str, Any] = {}
     for name, text in texts.items():
         annotation = fields[name].annotation if name in fields else None
         value = parse_field_text(text, annotation)
+        if value is None and name in fields and not fields[name].is_required():
+            value = fields[name].default
         current = getattr(spec, name, None)
         if value != current:
             changes[name] = value
@@ -173,7 +203,9 @@ class WhatIfScreen(TaskScreen):
 
     TASK_TITLE = "What-if"
     BINDINGS = [
+        Binding("e", "edit", "Edit fields"),
         Binding("ctrl+s", "save", "Save variant"),
+        Binding("ctrl+z", "undo_save", "Undo save"),
         Binding("ctrl+r", "reset", "Reset"),
         Binding("right_square_bracket", "tab(1)", "Next tab", show=False),
         Binding("left_square_bracket", "tab(-1)", "Prev tab", show=False),
@@ -272,8 +304,12 @@ class WhatIfScreen(TaskScreen):
         geometry = {n: getattr(self.spec, n) for n in names}
         data = self.deck.model_dump(mode="json")
         deck_values = {p: deck_value(data, p) for p in numeric_paths(self.deck)}
-        form = WhatIfForm(geometry, geometry_help(type(self.spec).model_fields, names),
-                          deck_values, describe_deck_path, id="wi-form")
+        model_fields = type(self.spec).model_fields
+        form = WhatIfForm(geometry, geometry_help(model_fields, names), deck_values,
+                          describe_deck_path, kinds={n: input_kind(model_fields[n].annotation)
+                                                     for n in names},
+                          placeholders={n: field_placeholder(model_fields[n]) for n in names},
+                          id="wi-form")
         slot = self.query_one("#wi-form-slot")
         self.query_one("#wi-left").mount(form, before=slot)
         slot.remove()
@@ -284,18 +320,33 @@ class WhatIfScreen(TaskScreen):
             select.value = "worst"
         self.variant = None
         self._refresh_views()
-        self.call_after_refresh(self._focus_first, form)
+        # no field takes focus by itself: keys typed while the view loaded must not land in
+        # one; e (or tab) starts editing
+        self.query_one("#wi-status", Static).update(Text("e or tab: edit the fields",
+                                                         style="dim"))
 
-    def _focus_first(self, form: WhatIfForm) -> None:
-        inputs = form.query(Input)
-        if inputs:
-            inputs.first().focus()
+    def action_edit(self) -> None:
+        forms = self.query(WhatIfForm)
+        if forms:
+            inputs = forms.first().query(Input)
+            if inputs:
+                inputs.first().focus()
 
     # --- edits --------------------------------------------------------------------------
     @on(WhatIfEdited)
     def _edited(self, message: WhatIfEdited) -> None:
         message.stop()
         if self.spec is None:
+            return
+        missing = required_missing(self.spec, message.geometry)
+        if missing:
+            if self._debounce is not None:
+                self._debounce.stop()
+                self._debounce = None
+            self._serial += 1
+            self.post_message(WhatIfRejected(self._serial, [Problem(
+                "<what-if>", name, "required: this field has no default to fall back on; "
+                "type a value", has_value=False) for name in missing]))
             return
         self.geometry_edits = geometry_changes(self.spec, message.geometry)
         self.deck_edits = deck_changes(message.deck)
@@ -466,12 +517,16 @@ class WhatIfScreen(TaskScreen):
                                                summary="changes: " + ", ".join(changes)), chosen)
 
     def _default_name(self) -> str:
-        base = self.cell_name
-        for index in range(1, 100):
-            name = f"{base}_wi{index}"
-            if len(name) <= 80:
-                return name
-        return base[:70] + "_wi"
+        """The cell's name with the changed geometry's tags rewritten (``-f2`` -> ``-f4``);
+        ``_wi1`` appended when only deck parameters changed."""
+        from celllab.cells.expand import renamed_variant
+
+        fields = list(self.geometry_edits)
+        name = renamed_variant(self.cell_name, {f: getattr(self.spec, f, None) for f in fields},
+                               dict(self.geometry_edits))
+        if name == self.cell_name:
+            name = f"{name}_wi1"
+        return name if len(name) <= 80 else name[:77] + "_wi"
 
     @work(thread=True, exclusive=True, group="whatif-save")
     def _save(self, cell_name: str, deck_name: str | None, geometry: dict[str, Any],
@@ -508,10 +563,51 @@ class WhatIfScreen(TaskScreen):
 
     def on_variant_saved(self, message: VariantSaved) -> None:
         self.saved_as = (message.name, message.deck)
-        self.notify(f"{message.name} stored in the catalog (deck {message.deck})",
-                    title="Saved variant", timeout=5)
+        self._saved_report = message.report
+        self._deck_before_save = self.lab.current_deck
+        if message.deck != self.deck_name:
+            # a changed deck is a new deck: the catalog follows it, so the variant is in view
+            self.lab.current_deck = message.deck
+            where = (f"the new deck {message.deck}; the catalog now shows that deck "
+                     f"(d there picks {self.deck_name} again)")
+        else:
+            where = f"deck {message.deck}"
+        self.notify(f"{message.name} stored in {where} · ctrl+z takes it back",
+                    title="Saved variant", timeout=8)
         self.query_one("#wi-status", Static).update(
-            Text(f"saved as {message.name} (deck {message.deck})", style="green"))
+            Text(f"saved as {message.name} (deck {message.deck}) · ctrl+z undoes", style="green"))
+
+    def action_undo_save(self) -> None:
+        report = getattr(self, "_saved_report", None)
+        if self.saved_as is None or report is None:
+            self.notify("nothing saved here to take back", severity="warning")
+            return
+        if report.superseded or report.run_id is None:
+            self.notify("this save replaced earlier results; it cannot be taken back here",
+                        severity="warning")
+            return
+        self._undo(report.run_id)
+
+    @work(thread=True, exclusive=True, group="whatif-save")
+    def _undo(self, run_id: int) -> None:
+        try:
+            with self.lab.using_catalog() as catalog:
+                catalog.remove_run(run_id)
+        except CelllabError as exc:
+            self.post_message(WhatIfRejected(self._serial, exc.problems, saving=True))
+            return
+        self.post_message(VariantRemoved(run_id))
+
+    def on_variant_removed(self, message: VariantRemoved) -> None:
+        name, deck = self.saved_as or ("", "")
+        self.saved_as = None
+        self._saved_report = None
+        if self.lab.current_deck == deck and deck != self.deck_name:
+            self.lab.current_deck = getattr(self, "_deck_before_save", self.deck_name)
+        self.notify(f"{name} taken out of the catalog (deck {deck})", title="Save undone",
+                    timeout=5)
+        self.query_one("#wi-status", Static).update(
+            Text(f"{name} removed · not saved (ctrl+s)", style="yellow"))
 
     def export_context(self) -> Any:
         from celllab.tui.screens.export import ExportContext
