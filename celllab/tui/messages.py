@@ -128,6 +128,14 @@ class CellLoaded(Message):
         self.deck = deck
 
 
+class CellsLoaded(Message):
+    """A worker read the full records of several cells: (label, CellResult) pairs."""
+
+    def __init__(self, cells: list[tuple[str, Any]]) -> None:
+        super().__init__()
+        self.cells = cells
+
+
 class WhatIfComputed(Message):
     """A what-if characterization finished (``seconds`` of compute)."""
 

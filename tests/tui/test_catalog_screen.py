@@ -225,3 +225,40 @@ async def test_units_read_as_symbols_and_counts_as_words(synthetic_catalog: Any,
         await ui.settle(pilot)
         text = ui.screen_text(app)
         assert "1 cell meets" in text and "1 cells" not in text
+
+
+async def test_three_marked_cells_compare_side_by_side(synthetic_catalog: Any, ui: Any) -> None:
+    from textual.widgets import DataTable
+
+    from celllab.tui.screens.compare import CompareScreen
+    from celllab.tui.widgets.plot import PlotView
+
+    app = CelllabApp(catalog=synthetic_catalog)
+    async with app.run_test(size=(120, 40)) as pilot:
+        await ui.settle(pilot)
+        rows = _screen(app).visible_rows()[:3]
+        await pilot.press("v")  # nothing marked: said so
+        await ui.settle(pilot)
+        assert any("mark 2 to 5" in n.message for n in app._notifications)
+        await pilot.press("space", "space", "space")
+        await ui.settle(pilot)
+        assert "3 marked" in ui.screen_text(app) and "✓ " + rows[0]["name"] in ui.screen_text(app)
+        await pilot.press("v")
+        await ui.settle(pilot)
+        screen = app.screen
+        assert isinstance(screen, CompareScreen)
+        table = screen.query_one("#cmp-table", DataTable)
+        names = sorted(r["name"] for r in rows)
+        assert [str(c.label) for c in table.ordered_columns[1:]] == names
+        # side by side: each cell's worst value, as the catalog ranks it; the best one starred
+        for row in rows:
+            shown = str(table.get_cell("cap_fF", row["name"]))
+            assert shown.startswith(f"{row['cap_fF']:.4g}")
+        assert sum("★" in str(table.get_cell("cap_fF", n)) for n in names) == 1
+        for plot_id in ("#cmp-plot-cv", "#cmp-plot-z", "#cmp-plot-esr", "#cmp-plot-ceff"):
+            spec = screen.query_one(plot_id, PlotView).spec
+            assert [s.label for s in spec.series] == names  # one curve per cell
+        await pilot.press("right_square_bracket", "right_square_bracket")
+        await ui.settle(pilot)
+        text = ui.screen_text(app)
+        assert all(n in text for n in names) and "|Z|(f)" in text

@@ -10,7 +10,9 @@ from __future__ import annotations
 from collections.abc import Sequence
 from typing import Any
 
+from rich.text import Text
 from textual.binding import Binding
+from textual.coordinate import Coordinate
 from textual.widgets import DataTable
 
 from celllab.columns import is_lower_bound
@@ -47,6 +49,8 @@ class CatalogTable(DataTable[Any]):
         self.page_size = 100
         self._pending_cursor: int | None = None
         self._header_state: tuple[Any, ...] = ()
+        #: (name, deck) of rows marked for a comparison; a tick before their name
+        self.marked: set[tuple[str, str | None]] = set()
 
     # --- attributes down ---------------------------------------------------------------
     def show_page(self, rows: Sequence[dict[str, Any]], columns: Sequence[str], offset: int,
@@ -67,16 +71,34 @@ class CatalogTable(DataTable[Any]):
         self.rows_shown = list(rows)
         self.row_offset = offset
         self.total = total
-        self.add_rows(
-            [[value_text(row.get(c), c, is_lower_bound(row, c)) for c in columns]
-             for row in self.rows_shown]
-        )
+        self.add_rows([[self._cell(row, c) for c in columns] for row in self.rows_shown])
         if self.rows_shown:
             target = self._pending_cursor if self._pending_cursor is not None else keep_cursor
             target = max(0, min(target, len(self.rows_shown) - 1))
             self.move_cursor(row=target, animate=False)
         self._pending_cursor = None
         self.refresh()
+
+    def _cell(self, row: dict[str, Any], column: str) -> Text:
+        if column == "name":
+            mark = "✓ " if (row.get("name"), row.get("deck")) in self.marked else ""
+            return Text(mark + str(row.get("name")), style="bold" if mark else "")
+        return value_text(row.get(column), column, is_lower_bound(row, column))
+
+    def toggle_mark(self) -> tuple[str, str | None] | None:
+        """Mark or unmark the row under the cursor; returns its (name, deck)."""
+        row = self.highlighted_row()
+        if row is None:
+            return None
+        key = (str(row["name"]), row.get("deck"))
+        if key in self.marked:
+            self.marked.discard(key)
+        else:
+            self.marked.add(key)
+        if "name" in self.columns_shown:
+            self.update_cell_at(Coordinate(self.cursor_row, self.columns_shown.index("name")),
+                                self._cell(row, "name"), update_width=True)
+        return key
 
     def highlighted_row(self) -> dict[str, Any] | None:
         """The row under the cursor, or None when the page is empty."""
