@@ -118,7 +118,7 @@ class CompareScreen(TaskScreen):
             finite = [x for x in row if x is not None and x == x]
             best = (max(finite) if info.higher_is_better else min(finite)) if finite else None
             cells = []
-            for (metrics, bounds), value in zip(values, row):
+            for (_metrics, bounds), value in zip(values, row):
                 text = value_text(value, info.name, info.name in bounds)
                 if best is not None and value == best and len(finite) > 1:
                     text.stylize("bold")

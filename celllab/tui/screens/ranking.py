@@ -28,8 +28,8 @@ from celllab.tui.screens.catalog import EXAMPLE_FILTER, check_filter
 from celllab.tui.widgets.catalog_table import CatalogTable
 from celllab.tui.widgets.filter_bar import FilterBar
 from celllab.tui.widgets.plot import Marker, PlotPointed, PlotSpec, PlotView, Series, axis_limits
-from celllab.tui.widgets.values import format_number
 from celllab.tui.widgets.task_bar import TaskBar
+from celllab.tui.widgets.values import format_number
 from celllab.units import pretty_unit
 
 RANK_LIMIT = 50

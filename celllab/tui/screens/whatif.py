@@ -29,6 +29,7 @@ from celllab.columns import BOUND_MARK, METRICS, Column
 from celllab.errors import CelllabError, Problem
 from celllab.records import CellResult, corner_bounds, corner_metrics
 from celllab.topologies import REGISTRY
+from celllab.tui.curves import ceff_plot, cv_plot, esr_plot, impedance_plot
 from celllab.tui.messages import (
     CellLoaded,
     QueryFailed,
@@ -39,7 +40,6 @@ from celllab.tui.messages import (
     WhatIfRejected,
 )
 from celllab.tui.screens.base import TaskScreen
-from celllab.tui.curves import ceff_plot, cv_plot, esr_plot, impedance_plot
 from celllab.tui.screens.cell import cell_summary
 from celllab.tui.widgets.plot import PlotView
 from celllab.tui.widgets.problems_view import ProblemsView
