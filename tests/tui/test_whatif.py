@@ -270,3 +270,43 @@ async def test_a_variant_saved_to_a_new_deck_is_shown_and_can_be_undone(demo_cat
         await ui.settle(pilot)
         assert isinstance(app.screen, CatalogScreen)
     assert demo_catalog.count(deck=DECK) == before
+
+
+@pytest.mark.parametrize("size", [(120, 40), (80, 24)])
+async def test_sweep_oxide_thickness_and_read_leakage_against_density(
+        demo_catalog: Any, ui: Any, size: tuple[int, int]) -> None:
+    from textual.widgets import DataTable, Select
+
+    from celllab.records import corner_metrics
+    from celllab.tui.screens.sweep import SweepScreen
+    from celllab.tui.widgets.plot import PlotView
+
+    app = CelllabApp(catalog=demo_catalog, debounce_s=0.05)
+    async with app.run_test(size=size) as pilot:
+        screen = await _open_whatif(app, pilot, ui)
+        await pilot.press("ctrl+w")
+        await ui.settle(pilot)
+        sweep = app.screen
+        assert isinstance(sweep, SweepScreen)
+        assert app.focused is sweep.query_one("#sweep-parameter", Input)
+        await pilot.press(*"oxides.core.t_ox_nm", "tab", *"1.8", "tab", *"2.6", "tab",
+                          "ctrl+a", "ctrl+k", *"5", "enter")
+        await ui.settle(pilot)
+        assert sweep.result is not None and len(sweep.result.ok()) == 5
+        sweep.query_one("#sweep-x", Select).value = "cap_density_fF_per_um2"
+        await ui.settle(pilot)
+        spec = sweep.query_one("#sweep-plot", PlotView).spec
+        deck = screen.deck
+        for (t_ox, cell), x, y in zip(sweep.result.ok(), spec.series[0].x, spec.series[0].y):
+            changed = deck.with_changes({"oxides.core.t_ox_nm": t_ox})
+            direct = characterize(changed, [screen.spec.with_changes({}, changed)]).cells[0]
+            worst = corner_metrics(direct, "worst")
+            assert x == pytest.approx(worst["cap_density_fF_per_um2"])
+            assert y == pytest.approx(worst["leakage_nA_per_nF"])
+        table = sweep.query_one("#sweep-table", DataTable)
+        assert table.row_count == 5
+        text = ui.screen_text(app)
+        assert "leakage_nA_per_nF" in text and "cap_density" in text
+        await pilot.press("escape", "escape")
+        await ui.settle(pilot)
+        assert app.screen is screen

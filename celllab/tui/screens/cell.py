@@ -149,6 +149,7 @@ class CellScreen(TaskScreen):
         Binding("left_square_bracket", "tab(-1)", "Prev tab"),
         Binding("w", "what_if", "What-if"),
         Binding("t", "set_target", "Target |Z|"),
+        Binding("s", "sweep", "Sweep"),
         Binding("escape,backspace", "back", "Back"),
     ]
 
@@ -260,6 +261,11 @@ class CellScreen(TaskScreen):
 
     def action_back(self) -> None:
         self.app.pop_screen()
+
+    def action_sweep(self) -> None:
+        from celllab.tui.screens.sweep import SweepScreen
+
+        self.app.push_screen(SweepScreen(self.cell_name, self.deck_name))
 
     def action_what_if(self) -> None:
         from celllab.tui.screens.whatif import WhatIfScreen

@@ -206,6 +206,7 @@ class WhatIfScreen(TaskScreen):
         Binding("e", "edit", "Edit fields"),
         Binding("ctrl+s", "save", "Save variant"),
         Binding("ctrl+z", "undo_save", "Undo save"),
+        Binding("ctrl+w", "sweep", "Sweep"),
         Binding("ctrl+r", "reset", "Reset"),
         Binding("right_square_bracket", "tab(1)", "Next tab", show=False),
         Binding("left_square_bracket", "tab(-1)", "Prev tab", show=False),
@@ -576,6 +577,17 @@ class WhatIfScreen(TaskScreen):
                     title="Saved variant", timeout=8)
         self.query_one("#wi-status", Static).update(
             Text(f"saved as {message.name} (deck {message.deck}) · ctrl+z undoes", style="green"))
+
+    def action_sweep(self) -> None:
+        """Sweep one parameter from this what-if (its current edits included)."""
+        if self.spec is None:
+            return
+        from celllab.tui.screens.sweep import SweepScreen
+
+        spec = self.variant_spec if self.variant is not None else self.spec
+        deck = self.variant_deck if self.variant is not None else self.deck
+        self.app.push_screen(SweepScreen(self.cell_name, self.deck_name, spec=spec,
+                                         deck_model=deck))
 
     def action_undo_save(self) -> None:
         report = getattr(self, "_saved_report", None)
