@@ -68,7 +68,6 @@ def sweep_cell(deck: Any, spec: Any, parameter: str, values: Sequence[float],
     """
     from celllab.deck import numeric_paths
     from celllab.engine import characterize
-
     from celllab.topologies import REGISTRY
 
     geometry = parameter in spec.geometry and parameter in REGISTRY[spec.topology].fields

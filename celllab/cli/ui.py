@@ -25,9 +25,8 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
 
 
 def run(args: argparse.Namespace) -> int:
-    from celllab.tui.app import run_app
-
     from celllab.errors import CelllabError, Problem
+    from celllab.tui.app import run_app
 
     target = args.z_target_ohm
     if target is not None and not target > 0:

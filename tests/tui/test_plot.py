@@ -7,7 +7,15 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from celllab.tui.widgets.plot import Level, Marker, PlotSpec, Series, format_tick, render_plot, ticks_for
+from celllab.tui.widgets.plot import (
+    Level,
+    Marker,
+    PlotSpec,
+    Series,
+    format_tick,
+    render_plot,
+    ticks_for,
+)
 
 BRAILLE = range(0x2801, 0x2900)  # Unicode Braille Patterns block, blank (U+2800) excluded
 

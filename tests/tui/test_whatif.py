@@ -297,7 +297,7 @@ async def test_sweep_oxide_thickness_and_read_leakage_against_density(
         await ui.settle(pilot)
         spec = sweep.query_one("#sweep-plot", PlotView).spec
         deck = screen.deck
-        for (t_ox, cell), x, y in zip(sweep.result.ok(), spec.series[0].x, spec.series[0].y):
+        for (t_ox, _cell), x, y in zip(sweep.result.ok(), spec.series[0].x, spec.series[0].y):
             changed = deck.with_changes({"oxides.core.t_ox_nm": t_ox})
             direct = characterize(changed, [screen.spec.with_changes({}, changed)]).cells[0]
             worst = corner_metrics(direct, "worst")
