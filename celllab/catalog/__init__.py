@@ -70,6 +70,14 @@ class Catalog:
         with self._access() as db:
             return _store.store_run(db, run)
 
+    def stored_cells(self, deck_hash: str, model_version: str) -> set[tuple[str, str]]:
+        """(cell_hash, name) of the current results stored for this deck version and model
+        version: what a build of the same input need not characterize again."""
+        with self._access() as db:
+            return {(str(h), str(n)) for h, n in db.execute(
+                "SELECT cell_hash, name FROM cells WHERE deck_hash = ? AND model_version = ? "
+                "AND current = 1", [deck_hash, model_version]).fetchall()}
+
     def remove_run(self, run_id: int) -> int:
         """Take back the latest run of a deck (see ``store.remove_run``); cells removed."""
         with self._access() as db:
