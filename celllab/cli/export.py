@@ -157,7 +157,21 @@ def _export_csv(args: argparse.Namespace, cat: Any) -> None:
     from celllab.export.csv import render_csv
 
     rows = _select_rows(cat, args)
-    _emit(args, render_csv(rows, comments=not args.no_comments), DEFAULT_FILES["csv"])
+    _emit(args, render_csv(rows, comments=not args.no_comments, precision=_precision(args)),
+          DEFAULT_FILES["csv"])
+
+
+def _precision(args: argparse.Namespace) -> int | None:
+    """--precision: significant digits, or None for "exact" (shortest round-trip text)."""
+    from celllab.export.csv import MAX_PRECISION
+
+    text = str(args.precision).strip().lower()
+    if text == "exact":
+        return None
+    if not text.isdigit() or not 1 <= int(text) <= MAX_PRECISION:
+        raise _problem("--precision", f"allowed: 1 to {MAX_PRECISION} significant digits, or "
+                       "'exact'", args.precision)
+    return int(text)
 
 
 def _export_json(args: argparse.Namespace, cat: Any) -> None:
@@ -405,6 +419,13 @@ def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
         "--no-comments",
         action="store_true",
         help="csv: no leading '#' lines (caution, units legend)",
+    )
+    p.add_argument(
+        "--precision",
+        default="6",
+        metavar="N",
+        help="csv: significant digits of numbers, 1-17, or 'exact' for the shortest text that "
+        "reads back as the stored value (default: %(default)s)",
     )
     p.add_argument(
         "--no-curves", action="store_true", help="json: metrics only, without Z(f) and C-V arrays"

@@ -254,3 +254,19 @@ def test_help_mentions_every_format(capsys):
     out = capsys.readouterr().out
     for name in ("csv", "json", "schema", "spice", "touchstone", "datasheet"):
         assert name in out
+
+
+def test_csv_precision_option(catalog_path, capsys):
+    assert main(["export", "csv", "--catalog", str(catalog_path), "--corner", "all"]) == 0
+    default = capsys.readouterr().out
+    assert "# numbers: 6 significant digits" in default
+    assert main(["export", "csv", "--catalog", str(catalog_path), "--precision", "3"]) == 0
+    three = capsys.readouterr().out
+    assert "# numbers: 3 significant digits" in three
+    rows = [ln.split(",") for ln in three.splitlines() if not ln.startswith("#")][1:]
+    assert rows
+    assert main(["export", "csv", "--catalog", str(catalog_path), "--precision", "exact"]) == 0
+    assert "exact" in capsys.readouterr().out
+    assert main(["export", "csv", "--catalog", str(catalog_path), "--precision", "40"]) == 2
+    err = capsys.readouterr().err
+    assert "--precision" in err and "1 to 17" in err and "Traceback" not in err
