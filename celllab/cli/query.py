@@ -13,7 +13,16 @@ from collections.abc import Sequence
 from typing import Any
 
 from celllab import CAUTION_SHORT, DEFAULT_CATALOG
-from celllab.columns import CELL_COLUMNS, COLUMNS, METRIC_BY_NAME, METRIC_NAMES, RANKED, unit_of
+from celllab.columns import (
+    BOUND_MARK,
+    CELL_COLUMNS,
+    COLUMNS,
+    METRIC_BY_NAME,
+    METRIC_NAMES,
+    RANKED,
+    is_lower_bound,
+    unit_of,
+)
 from celllab.display import format_value, jsonable, text_table
 
 #: Columns of ``rank`` and ``pareto`` tables unless --columns says otherwise.
@@ -43,18 +52,53 @@ def dump_json(value: Any) -> str:
     return json.dumps(jsonable(value), indent=2, allow_nan=False)
 
 
-def render_compare(rows: Sequence[dict[str, Any]]) -> str:
-    """Side by side: one column per cell, one line per attribute and metric (with its unit)."""
-    keys = ["deck", "family", "topology", "oxide", "corner", *CELL_COLUMNS, *METRIC_NAMES, "flags"]
+def _shown(row: Any, key: str) -> Any:
+    """A value for a text table: numbers to 4 significant digits, ``≥`` before a lower bound."""
+    value = row.get(key) if isinstance(row, dict) else row.metrics.get(key)
+    if isinstance(value, float) and is_lower_bound(row, key) and value == value:
+        return BOUND_MARK + format_value(value)
+    return value
+
+
+def _wrapped(prefix: str, items: Sequence[str], width: int) -> list[str]:
+    import textwrap
+
+    lines = []
+    for item in items:
+        lines += textwrap.wrap(item, width, initial_indent=f"{prefix}- ",
+                               subsequent_indent=" " * (len(prefix) + 2))
+    return lines
+
+
+def _width() -> int:
+    import shutil
+
+    return max(60, min(shutil.get_terminal_size((100, 24)).columns, 120))
+
+
+def render_compare(rows: Sequence[dict[str, Any]], width: int | None = None) -> str:
+    """Side by side: one column per cell, one line per attribute and metric (with its unit);
+    each cell's flags below the table, wrapped to ``width`` (the terminal's by default)."""
+    keys = ["deck", "family", "topology", "oxide", "corner", *CELL_COLUMNS, *METRIC_NAMES]
     names = [str(r["name"]) for r in rows]
     labels = (
         names if len(set(names)) == len(names) else [f"{r['name']} ({r['deck']})" for r in rows]
     )
     table = [
-        {"column": k, "unit": unit_of(k), **{lab: r.get(k) for lab, r in zip(labels, rows)}}
+        {"column": k, "unit": unit_of(k), **{lab: _shown(r, k) for lab, r in zip(labels, rows)}}
         for k in keys
     ]
-    return render_table(table, ["column", "unit", *labels])
+    numeric = {*labels}
+    lines = [text_table(table, ["column", "unit", *labels], numeric)]
+    width = width or _width()
+    for label, row in zip(labels, rows):
+        flags = list(row.get("flags") or [])
+        lines += ["", f"flags of {label}:" if flags else f"flags of {label}: none"]
+        if flags:
+            lines += _wrapped("  ", flags, width)
+    if any(BOUND_MARK in str(v) for r in table for v in r.values()):
+        lines += ["", f"{BOUND_MARK}: a lower bound (the quantity lies beyond the analysed sweep)"]
+    return "\n".join(lines)
 
 
 def render_cell(cell: Any, deck: str) -> str:
@@ -65,8 +109,11 @@ def render_cell(cell: Any, deck: str) -> str:
         f"  cell_hash {cell.cell_hash}",
     ]
     lines.append("  " + "   ".join(f"{c} {format_value(getattr(cell, c))}" for c in CELL_COLUMNS))
-    if cell.geometry:
-        lines.append("  geometry: " + ", ".join(f"{k}={v}" for k, v in cell.geometry.items()))
+    given, derived = applicable_geometry(cell)
+    if given:
+        lines.append("  geometry: " + ", ".join(f"{k}={format_value(v)}" for k, v in given.items()))
+    if derived:
+        lines.append("  derived: " + ", ".join(f"{k}={format_value(v)}" for k, v in derived.items()))
     if cell.notes:
         lines.append("  notes: " + "; ".join(cell.notes))
     corners = [c.corner for c in cell.corners]
@@ -83,15 +130,36 @@ def render_cell(cell: Any, deck: str) -> str:
             "metric": m,
             "unit": METRIC_BY_NAME[m].unit,
             "better": METRIC_BY_NAME[m].better,
-            **{c.corner: c.metrics.get(m) for c in cell.corners},
+            **{c.corner: _shown(c, m) for c in cell.corners},
         }
         for m in METRIC_NAMES
+        if any(c.metrics.get(m) == c.metrics.get(m) for c in cell.corners)  # applies somewhere
     ]
-    lines += ["", render_table(table, ["metric", "unit", *corners, "better"])]
+    lines += ["", text_table(table, ["metric", "unit", *corners, "better"], {*corners})]
+    if any(BOUND_MARK in str(v) for r in table for v in r.values()):
+        lines.append(f"{BOUND_MARK}: a lower bound (the quantity lies beyond the analysed sweep)")
     flagged = [(c.corner, c.flags) for c in cell.corners if c.flags]
     lines.append("")
-    lines += [f"flags {corner}: {'; '.join(flags)}" for corner, flags in flagged] or ["flags: none"]
+    width = _width()
+    for corner, flags in flagged:
+        lines += [f"flags {corner}:"] + _wrapped("  ", flags, width)
+    if not flagged:
+        lines.append("flags: none")
     return "\n".join(lines)
+
+
+def applicable_geometry(cell: Any) -> tuple[dict[str, Any], dict[str, Any]]:
+    """(the geometry fields that apply to the cell's topology, the derived values that apply):
+    a field another topology uses, or a derived count of zero, is left out."""
+    from celllab.topologies import REGISTRY
+
+    applies = set(REGISTRY[cell.topology].fields) if cell.topology in REGISTRY.names() else None
+    given = {k: v for k, v in cell.geometry.items()
+             if not k.startswith("resolved_") and (applies is None or k in applies)
+             and v is not None}
+    derived = {k.removeprefix("resolved_"): v for k, v in cell.geometry.items()
+               if k.startswith("resolved_") and v not in (None, 0, 0.0, [], "")}
+    return given, derived
 
 
 def cell_to_dict(cell: Any, deck: str) -> dict[str, Any]:
