@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import argparse
 import json
-import sys
 
 from celllab import CAUTION, DEFAULT_CATALOG
 from celllab.display import text_table
