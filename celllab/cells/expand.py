@@ -302,3 +302,17 @@ def spec_from_record(cell: Any) -> CellSpec:
     data.update(name=cell.name, family=cell.family, topology=cell.topology, oxide=cell.oxide)
     allowed = set(CellSpec.model_fields)
     return CellSpec.model_validate({k: v for k, v in data.items() if k in allowed})
+
+
+def applicable_geometry(cell: Any) -> tuple[dict[str, Any], dict[str, Any]]:
+    """(the geometry fields that apply to the cell's topology, the derived values that apply):
+    a field another topology uses, or a derived count of zero, is left out."""
+    from celllab.topologies import REGISTRY
+
+    applies = set(REGISTRY[cell.topology].fields) if cell.topology in REGISTRY.names() else None
+    given = {k: v for k, v in cell.geometry.items()
+             if not k.startswith("resolved_") and (applies is None or k in applies)
+             and v is not None}
+    derived = {k.removeprefix("resolved_"): v for k, v in cell.geometry.items()
+               if k.startswith("resolved_") and v not in (None, 0, 0.0, [], "")}
+    return given, derived

@@ -236,17 +236,25 @@ def _export_touchstone(args: argparse.Namespace, cat: Any) -> None:
 
 
 def _export_datasheet(args: argparse.Namespace, cat: Any) -> None:
+    from celllab.cli.progress import steps
     from celllab.export.datasheet import render_datasheet_html, render_library_html
 
     cells, deck = _load_cells(cat, _select_rows(cat, args))
     _need_cells(cells)
+    if args.pdf:
+        _export_datasheet_pdf(args, cells, deck)
+        return
     summary = _query_corner(args.corner)  # the summary table reads worst/best like a query
     plots = not args.no_plots
     if _is_folder(args.out):
-        files = {
-            f"{_file_stem(c.name)}.html": render_datasheet_html(c, deck, plots=plots) for c in cells
-        }
-        files[DEFAULT_FILES["datasheet"]] = render_library_html(cells, deck, summary, plots=plots)
+        files = {}
+        with steps("datasheets", len(cells)) as advance:
+            for c in cells:
+                files[f"{_file_stem(c.name)}.html"] = render_datasheet_html(c, deck, plots=plots)
+                advance(1)
+        # the index links to the cell pages instead of repeating them (a page, not megabytes)
+        files[DEFAULT_FILES["datasheet"]] = render_library_html(
+            cells, deck, summary, plots=plots, link=lambda c: f"{_file_stem(c.name)}.html")
         _emit_many(args, files)
     elif len(cells) == 1:
         _emit(
@@ -258,6 +266,30 @@ def _export_datasheet(args: argparse.Namespace, cat: Any) -> None:
         _emit(
             args, render_library_html(cells, deck, summary, plots=plots), DEFAULT_FILES["datasheet"]
         )
+
+
+def _export_datasheet_pdf(args: argparse.Namespace, cells: Sequence[Any], deck: str | None) -> None:
+    """One PDF per cell: into the --out folder, or one cell's PDF to --out (never stdout)."""
+    from celllab.cli.progress import steps
+    from celllab.export.datasheet import write_datasheet_pdf
+
+    if _is_folder(args.out):
+        folder = Path(args.out)
+        folder.mkdir(parents=True, exist_ok=True)
+        with steps("PDF datasheets", len(cells)) as advance:
+            for cell in cells:
+                write_datasheet_pdf(folder / f"{_file_stem(cell.name)}.pdf", cell, deck)
+                advance(1)
+        print(f"wrote {len(cells)} files to {folder}", file=sys.stderr)
+        return
+    if not args.out or args.out == "-":
+        raise _problem("--out", "a PDF is written to a file: give --out FILE.pdf (one cell) or "
+                       "--out DIR/", args.out, has_value=args.out is not None)
+    if len(cells) > 1:
+        raise _problem("--out", f"{len(cells)} cells make {len(cells)} PDFs: give an output "
+                       "folder (--out DIR/) or narrow with --cells", args.out)
+    write_datasheet_pdf(Path(args.out), cells[0], deck)
+    print(f"wrote {args.out}", file=sys.stderr)
 
 
 def _export_liberty(args: argparse.Namespace, cat: Any) -> None:
@@ -446,6 +478,8 @@ def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
         "(default: %(default)s)",
     )
     p.add_argument("--no-plots", action="store_true", help="datasheet: tables only")
+    p.add_argument("--pdf", action="store_true",
+                   help="datasheet: one PDF per cell instead of HTML (--out FILE.pdf or DIR/)")
     p.add_argument(
         "--grid-nm",
         type=float,

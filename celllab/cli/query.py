@@ -109,6 +109,8 @@ def render_cell(cell: Any, deck: str) -> str:
         f"  cell_hash {cell.cell_hash}",
     ]
     lines.append("  " + "   ".join(f"{c} {format_value(getattr(cell, c))}" for c in CELL_COLUMNS))
+    from celllab.cells.expand import applicable_geometry
+
     given, derived = applicable_geometry(cell)
     if given:
         lines.append("  geometry: " + ", ".join(f"{k}={format_value(v)}" for k, v in given.items()))
@@ -147,19 +149,6 @@ def render_cell(cell: Any, deck: str) -> str:
         lines.append("flags: none")
     return "\n".join(lines)
 
-
-def applicable_geometry(cell: Any) -> tuple[dict[str, Any], dict[str, Any]]:
-    """(the geometry fields that apply to the cell's topology, the derived values that apply):
-    a field another topology uses, or a derived count of zero, is left out."""
-    from celllab.topologies import REGISTRY
-
-    applies = set(REGISTRY[cell.topology].fields) if cell.topology in REGISTRY.names() else None
-    given = {k: v for k, v in cell.geometry.items()
-             if not k.startswith("resolved_") and (applies is None or k in applies)
-             and v is not None}
-    derived = {k.removeprefix("resolved_"): v for k, v in cell.geometry.items()
-               if k.startswith("resolved_") and v not in (None, 0, 0.0, [], "")}
-    return given, derived
 
 
 def cell_to_dict(cell: Any, deck: str) -> dict[str, Any]:

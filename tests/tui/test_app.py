@@ -87,7 +87,8 @@ async def test_csv_export_writes_every_filtered_row(synthetic_catalog: Any, ui: 
 async def test_circuit_text_and_cell_exports_from_the_cell_view(
         demo_catalog: Any, ui: Any, tmp_path: Path) -> None:
     app = CelllabApp(catalog=demo_catalog, export_folder=tmp_path)
-    formats = {"json": "json", "touchstone": "s1p", "spice": "sp", "datasheet": "html"}
+    formats = {"json": "json", "touchstone": "s1p", "spice": "sp", "datasheet": "html",
+               "datasheet-pdf": "pdf"}
     async with app.run_test(size=(120, 40)) as pilot:
         await ui.settle(pilot)
         await pilot.press("enter")
@@ -101,6 +102,9 @@ async def test_circuit_text_and_cell_exports_from_the_cell_view(
         for fmt, suffix in formats.items():
             await _export(app, pilot, ui, fmt, tmp_path / f"out.{suffix}")
     for fmt, suffix in formats.items():
+        if suffix == "pdf":
+            assert (tmp_path / "out.pdf").read_bytes().startswith(b"%PDF")
+            continue
         text = (tmp_path / f"out.{suffix}").read_text()
         assert name in text, fmt
     assert json.loads((tmp_path / "out.json").read_text())

@@ -36,6 +36,8 @@ FORMATS: tuple[ExportFormat, ...] = (
                  "write_touchstone"),
     ExportFormat("datasheet", "Datasheet: HTML page of the open cell", "html", True,
                  "write_datasheet"),
+    ExportFormat("datasheet-pdf", "Datasheet (PDF): the open cell, every corner's plots", "pdf",
+                 True, "write_datasheet_pdf"),
     ExportFormat("liberty", "Liberty: .lib view at the current corner (open cell or table rows)",
                  "lib", False, "write_liberty", needs_catalog=True),
     ExportFormat("lef", "LEF: technology and cell abstracts (open cell or table rows)", "lef",
