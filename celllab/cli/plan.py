@@ -81,7 +81,9 @@ def cmd_plan(args: argparse.Namespace) -> int:
     from celllab.planner import load_block, plan_block, write_plan_files
 
     block = load_block(args.block)
-    with open_catalog(args.catalog, create=False) as catalog:
+    from celllab.cli.progress import working
+
+    with open_catalog(args.catalog, create=False) as catalog, working(f"planning {args.block}…"):
         plan = plan_block(block, catalog)
     summary = plan.to_dict()
     if args.out:

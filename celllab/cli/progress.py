@@ -63,3 +63,15 @@ def steps(description: str, total: int) -> Iterator[Callable[[int], None]]:
                   TimeElapsedColumn(), console=Console(stderr=True), transient=True) as progress:
         task = progress.add_task(description, total=total)
         yield lambda n=1: progress.advance(task, n)
+
+
+@contextmanager
+def working(description: str) -> Iterator[None]:
+    """A spinner with elapsed time while one long call runs (a terminal only)."""
+    if not on_terminal():
+        yield
+        return
+    from rich.console import Console
+
+    with Console(stderr=True).status(description):
+        yield
