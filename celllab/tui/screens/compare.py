@@ -115,12 +115,17 @@ class CompareScreen(TaskScreen):
                 values.append(({}, frozenset()))
         for info in METRICS:
             row = [v.get(info.name) for v, _ in values]
-            finite = [x for x in row if x is not None and x == x]
+            # the best value is starred when it stands out: not a tie of every cell, and not
+            # a lower bound (a bound is not known to beat anything)
+            finite = [x for (_m, b), x in zip(values, row)
+                      if x is not None and x == x and info.name not in b]
             best = (max(finite) if info.higher_is_better else min(finite)) if finite else None
+            if best is not None and all(x == best for x in finite):
+                best = None
             cells = []
             for (_metrics, bounds), value in zip(values, row):
                 text = value_text(value, info.name, info.name in bounds)
-                if best is not None and value == best and len(finite) > 1:
+                if best is not None and value == best and info.name not in bounds:
                     text.stylize("bold")
                     text.append(" ★")
                 cells.append(text)

@@ -127,6 +127,8 @@ class SweepScreen(TaskScreen):
 
     def on_mount(self) -> None:
         self.TASK = self.app.current_mode
+        # focus now, not when loading ends: typing ahead must not be moved to another field
+        self.query_one("#sweep-parameter", Input).focus()
         self._prepare()
 
     @work(thread=True, exclusive=True, group="sweep-prepare")
@@ -161,9 +163,8 @@ class SweepScreen(TaskScreen):
             select.set_options([(c, c) for c in ("worst", "best", *corners)])
             select.value = "worst"
         self.query_one("#sweep-status", Static).update(Text(
-            "parameter: a geometry field (" + ", ".join(geometry) + ") or a deck path; "
-            "enter runs the sweep", style="dim"))
-        self.query_one("#sweep-parameter", Input).focus()
+            "enter runs · parameter: a deck path or a geometry field (" + ", ".join(geometry)
+            + "); → accepts a suggestion", style="dim", no_wrap=True, overflow="ellipsis"))
         if all(self._initial):
             self.action_run()
 
@@ -174,6 +175,7 @@ class SweepScreen(TaskScreen):
 
     def action_run(self) -> None:
         if self.spec is None:
+            self.notify("still loading the cell and its deck", severity="warning")
             return
         from celllab.sweep import sweep_values
 
