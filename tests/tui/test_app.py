@@ -259,3 +259,15 @@ async def test_export_folder_defaults_to_an_exports_folder_beside_the_catalog(
         await pilot.press("enter")
         await ui.settle(pilot)
     assert path.exists()  # the folder is made on the first export
+
+
+async def test_export_formats_read_without_colour(demo_catalog: Any, ui: Any) -> None:
+    app = CelllabApp(catalog=demo_catalog)
+    async with app.run_test(size=(100, 30)) as pilot:
+        await ui.settle(pilot)
+        await pilot.press("x")
+        await ui.settle(pilot)
+        lines = ui.screen_text(app).splitlines()
+        chosen = [ln for ln in lines if "CSV:" in ln][0]
+        other = [ln for ln in lines if "Liberty:" in ln][0]
+        assert "●" in chosen and "●" not in other and "○" in other

@@ -255,7 +255,7 @@ class DeckScreen(TaskScreen):
         table.clear(columns=True)
         unit = pretty_unit(CORNER_COLUMNS["temperature_C"].unit)
         table.add_columns("corner", Text(f"T [{unit}]", justify="right"),
-                          Text("supply ×", justify="right"), "changes")
+                          Text("Vdd ×", justify="right"), "changes")
         corners = (entry.params or {}).get("corners") or {}
         for name, corner in corners.items():
             # one change per line: a long list stays readable in a narrow terminal

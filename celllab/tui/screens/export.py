@@ -11,9 +11,10 @@ from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal, Vertical
 from textual.screen import ModalScreen
-from textual.widgets import Button, Input, Label, RadioButton, RadioSet
+from textual.widgets import Button, Input, Label, RadioSet
 
 from celllab.errors import CelllabError, Problem
+from celllab.tui.widgets.check_list import ChoiceButton
 
 
 @dataclass(frozen=True)
@@ -176,7 +177,7 @@ class ExportDialog(ModalScreen[ExportRequest | None]):
             box.border_subtitle = "↑↓ space: format · tab: path · enter exports · esc cancels"
             with RadioSet(id="export-format"):
                 for index, fmt in enumerate(self._formats):
-                    yield RadioButton(fmt.label, value=index == 0, id=f"fmt-{fmt.key}")
+                    yield ChoiceButton(fmt.label, value=index == 0, id=f"fmt-{fmt.key}")
             if self._export_context.cell is None:
                 yield Label("open a cell (enter on a row) to export SPICE, Touchstone, JSON or a "
                             "datasheet", classes="dialog-hint")

@@ -276,8 +276,8 @@ class SweepScreen(TaskScreen):
         table.clear(columns=True)
         columns = list(dict.fromkeys([parameter, *( [self.x_axis] if self.x_axis != PARAMETER
                                                     else []), self.y_axis]))
-        for c in columns:
-            table.add_column(Text(c, justify="right"), key=c)
+        for c in columns:  # a deck path's last part is enough for a header
+            table.add_column(Text(c.rsplit(".", 1)[-1], justify="right"), key=c)
         for value, metrics, bounds in points:
             row = [value_text(value, parameter)]
             row += [value_text(metrics.get(c), c, c in bounds) for c in columns[1:]]

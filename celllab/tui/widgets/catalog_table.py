@@ -23,10 +23,12 @@ from celllab.tui.widgets.values import column_header, value_text
 _TEXT_COLUMNS = frozenset({"name", "deck", "family", "corner", "topology", "oxide"})
 
 
-def _width(column: str) -> int | None:
-    """Fixed width for numeric columns (stable from page to page), auto for names."""
+def _width(column: str, rows: Sequence[dict[str, Any]] = ()) -> int:
+    """Fixed width for numeric columns (stable from page to page); text columns as wide as
+    their longest value on the page (room for the mark of a marked name), at most 48."""
     if column in _TEXT_COLUMNS:
-        return None
+        longest = max((len(str(r.get(column) or "")) for r in rows), default=0)
+        return min(48, max(len(column) + 2, longest + (2 if column == "name" else 0)))
     return max(len(column) + 2, 10)
 
 
@@ -59,15 +61,14 @@ class CatalogTable(DataTable[Any]):
         columns = tuple(columns)
         header_state = (columns, sort_column, descending)
         keep_cursor = self.cursor_row if columns == self.columns_shown else 0
-        if header_state != self._header_state:
-            self.clear(columns=True)
-            for column in columns:
-                mark = ("▼" if descending else "▲") if column == sort_column else ""
-                self.add_column(column_header(column, mark), key=column, width=_width(column))
-            self.columns_shown = columns
-            self._header_state = header_state
-        else:
-            self.clear()
+        # columns are rebuilt with every page: a cleared table keeps the auto-width text
+        # columns (names) at their header's width, cutting every name to four letters
+        self.clear(columns=True)
+        for column in columns:
+            mark = ("▼" if descending else "▲") if column == sort_column else ""
+            self.add_column(column_header(column, mark), key=column, width=_width(column, rows))
+        self.columns_shown = columns
+        self._header_state = header_state
         self.rows_shown = list(rows)
         self.row_offset = offset
         self.total = total

@@ -1,4 +1,4 @@
-"""A selection list whose boxes read without colour: ✓ when chosen, blank when not."""
+"""Choices that read without colour: ✓ in a chosen box of a list, ● / ○ on radio buttons."""
 
 from __future__ import annotations
 
@@ -6,7 +6,7 @@ from typing import Any
 
 from rich.segment import Segment
 from textual.strip import Strip
-from textual.widgets import SelectionList
+from textual.widgets import RadioButton, SelectionList
 from textual.widgets.option_list import OptionDoesNotExist
 
 #: Glyphs inside the box: chosen / not chosen.
@@ -29,3 +29,11 @@ class CheckList(SelectionList[Any]):
         glyph = CHECKED if selection.value in self._selected else UNCHECKED
         segments[1] = Segment(glyph, box.style, box.control)
         return Strip(segments, strip.cell_length)
+
+
+class ChoiceButton(RadioButton):
+    """A radio button whose dot is filled only when chosen (● / ○), so it reads without colour."""
+
+    @property  # type: ignore[override]
+    def BUTTON_INNER(self) -> str:  # noqa: N802  (Textual's attribute name)
+        return "●" if self.value else "○"

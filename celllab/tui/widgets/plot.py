@@ -258,7 +258,7 @@ def render_plot(spec: PlotSpec, width: int, height: int,
 
     plt = Plot()
     plt.theme("clear")
-    plot_h = height - 1
+    plot_h = height - 2  # our legend line above, our axis-label line below
     plt.plotsize(width, plot_h)
     # plotext caps plotsize at the size of the terminal it runs in; the widget's size is what
     # counts here (textual-plotext sets it the same way)
@@ -288,13 +288,22 @@ def render_plot(spec: PlotSpec, width: int, height: int,
     y_ticks = ticks_for(y_lo, y_hi, spec.y_log, max(2, plot_h // 4))
     plt.xticks(x_ticks, [format_tick(v, spec.x_log) for v in x_ticks])
     plt.yticks(y_ticks, [format_tick(v, spec.y_log) for v in y_ticks])
-    plt.xlabel(spec.x_label)
-    plt.ylabel(spec.y_label)
     body = Text.from_ansi(plt.build(), no_wrap=True)
     body.rstrip()
     out = _legend(spec, st, width)
     out.append("\n")
     out.append_text(body)
+    # both axis names on one line of our own (plotext drops one when they would touch)
+    labels = Text(no_wrap=True, overflow="ellipsis")
+    if spec.y_label:
+        labels.append("↑ ", st["axis"])
+        labels.append(spec.y_label, st["label"])
+    if spec.x_label:
+        labels.append("   → " if spec.y_label else "→ ", st["axis"])
+        labels.append(spec.x_label, st["label"])
+    labels.truncate(width, overflow="ellipsis")
+    out.append("\n")
+    out.append_text(labels)
     return out
 
 
