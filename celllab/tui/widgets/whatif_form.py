@@ -54,7 +54,7 @@ class WhatIfForm(VerticalScroll):
         self.pinned: dict[str, str] = {}
 
     def compose(self) -> ComposeResult:
-        yield Label("Cell geometry (empty = derived or default)", classes="form-section")
+        yield Label("Geometry · empty = default", classes="form-section")
         for name, value in self._geometry.items():
             with Horizontal(classes="form-row"):
                 yield Label(name, classes="form-label")
