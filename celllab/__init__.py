@@ -8,6 +8,7 @@ Public API (no UI imports here)::
     run = characterize(deck, cells)
     catalog = open_catalog("db/celllab.sqlite")
     catalog.store_run(run)
+    plan = plan("process_decks/blocks/lumen130_dsp.toml", "db/celllab.sqlite")  # BlockPlan
 
 Results are engineering estimates from analytic models, not sign-off.
 """
@@ -32,8 +33,8 @@ CAUTION_SHORT = "Engineering estimates from analytic models, not sign-off."
 #: Where the catalog lives unless told otherwise (relative to the working directory).
 DEFAULT_CATALOG = Path("db") / "celllab.sqlite"
 
-__all__ = ["load_deck", "load_cells", "characterize", "open_catalog", "__version__", "MODEL_VERSION",
-           "CAUTION", "CAUTION_SHORT", "DEFAULT_CATALOG"]
+__all__ = ["load_deck", "load_cells", "characterize", "open_catalog", "plan", "__version__",
+           "MODEL_VERSION", "CAUTION", "CAUTION_SHORT", "DEFAULT_CATALOG"]
 
 
 def __getattr__(name: str) -> Any:
@@ -54,4 +55,8 @@ def __getattr__(name: str) -> Any:
         from celllab.catalog import open_catalog
 
         return open_catalog
+    if name == "plan":
+        from celllab.planner.plan import plan_file
+
+        return plan_file
     raise AttributeError(name)

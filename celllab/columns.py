@@ -138,6 +138,10 @@ CELL_COLUMNS: dict[str, Column] = {
         Column("height_rows", "rows", "cell height in placement rows", "lower"),
         Column("gate_area_um2", "um^2", "total gate (or plate) area", "higher"),
         Column("esd_safe", "bool", "1 when no gate is tied directly to a rail", "higher", kind="bool"),
+        Column("placement", "", "where the cell sits: core_row (standard-cell row, NMOS on the p-well "
+               "half, PMOS on the n-well half) or open_region (no row structure)", kind="text"),
+        Column("rail", "", "supply rail the cell decouples and was characterized at (core, io or a "
+               "named rail)", kind="text"),
     )
 }
 
@@ -167,8 +171,8 @@ METRIC_NAMES: tuple[str, ...] = tuple(m.name for m in METRICS)
 METRIC_BY_NAME: dict[str, Column] = {m.name: m for m in METRICS}
 #: Every column above by name: text, metrics, cell columns, corner conditions.
 COLUMNS: dict[str, Column] = {**TEXT_COLUMNS, **METRIC_BY_NAME, **CELL_COLUMNS, **CORNER_COLUMNS}
-#: Columns with a ranking direction (metrics and cell columns).
-RANKED: dict[str, Column] = {**METRIC_BY_NAME, **CELL_COLUMNS}
+#: Columns with a ranking direction (metrics and the cell columns that have one).
+RANKED: dict[str, Column] = {**METRIC_BY_NAME, **{n: c for n, c in CELL_COLUMNS.items() if c.better}}
 
 
 def unit_of(name: str) -> str:

@@ -109,4 +109,5 @@ def _record(spec: CellSpec, geo: Any, corners: CornerSet, group: Any, index: int
         name=spec.name, cell_hash=spec.content_hash, family=spec.family, topology=spec.topology, oxide=spec.oxide,
         geometry=geometry, area_um2=geo.area_um2, width_sites=spec.width_sites, height_rows=spec.height_rows,
         gate_area_um2=gate_area, esd_safe=spec.esd_safe, corners=corner_results,
-        netlist={cname: out.netlist_for(k, j) for j, cname in enumerate(corners.names)}, notes=list(out.notes))
+        netlist={cname: out.netlist_for(k, j) for j, cname in enumerate(corners.names)}, notes=list(out.notes),
+        placement=spec.placement, rail=spec.rail)

@@ -104,7 +104,9 @@ class CellResult:
 
     ``geometry`` is the resolved geometry (all derived values filled in), in the cell file's
     units (um, sites, rows). ``netlist`` maps corner name -> the one-variant
-    ``physics.netlist.Netlist`` equivalent circuit at that corner.
+    ``physics.netlist.Netlist`` equivalent circuit at that corner. ``placement`` is where the
+    cell sits (``core_row`` / ``open_region``) and ``rail`` the supply rail it decouples and was
+    characterized at (results stored before rails existed follow their oxide).
     """
 
     name: str
@@ -121,6 +123,12 @@ class CellResult:
     corners: list[CornerResult]
     netlist: Any = None
     notes: list[str] = field(default_factory=list)
+    placement: str = "core_row"
+    rail: str = ""
+
+    def __post_init__(self) -> None:
+        if not self.rail:
+            self.rail = self.oxide
 
     def corner(self, name: str) -> CornerResult:
         for c in self.corners:

@@ -93,6 +93,7 @@ UNITS: dict[str, Unit] = {
         # temperature
         Unit("degC", "K", 1.0, zero_Celsius, suffixes=("_C",)),
         Unit("K", "K", 1.0, suffixes=("_K",)),
+        Unit("ppm/K", "1/K", micro, suffixes=("_ppm_per_K",)),
     )
 }
 

@@ -29,7 +29,7 @@ width_sites = [4, 8]
 fingers = [1, 2]
 """
 
-TOPOLOGY_LIST = "nmos_inversion, pmos_inversion, accumulation, cross_coupled, mom"
+TOPOLOGY_LIST = "nmos_inversion, pmos_inversion, accumulation, tied_cmos, cross_coupled, mom"
 
 
 def sub(old: str, new: str) -> Callable[[str], str]:
@@ -53,6 +53,7 @@ def without_io(text: str) -> str:
     """The deck with its io oxide (and the corner entries that change it) removed."""
     text = cut("[oxides.io]", "[wells]")(text)
     text = re.sub(r', "oxides\.io\.t_ox_nm" = [0-9.]+', "", text)
+    text = re.sub(r'^"oxides\.io\.[^\n]*\n', "", text, flags=re.MULTILINE)
     assert "oxides.io" not in text
     return text
 
@@ -88,7 +89,7 @@ CASES: list[Bad] = [
         deck=sub('name = "M3"\nthickness_nm = 350', 'name = "M3"\nthickness_nm = -350'),
         line_of="thickness_nm = -350"),
     Bad("deck-unknown-field", "deck", "layout.site_widht_um", ("unknown field", "did you mean 'site_width_um'"),
-        deck=sub("site_width_um = 0.41", "site_widht_um = 0.41"), line_of="site_widht_um = 0.41"),
+        deck=sub("site_width_um = 0.425", "site_widht_um = 0.425"), line_of="site_widht_um = 0.425"),
     Bad("deck-unknown-table", "deck", "suplies", ("did you mean 'supplies'",),
         deck=sub("[supplies]", "[suplies]")),
     Bad("deck-bad-literal", "deck", "oxides.core.gate", ("'npoly'", "allowed: n_poly, p_poly", "metal",
@@ -117,7 +118,18 @@ CASES: list[Bad] = [
     Bad("deck-rail-layer-not-in-stack", "deck", "layout.rail_layer", ("not a metal layer", "allowed: M1, M2, M3, M4, M5"),
         deck=sub('rail_layer = "M1"', 'rail_layer = "M0"')),
     Bad("deck-rails-fill-the-row", "deck", "layout.row_height_um", ("rails plus clearances", "leave no room"),
-        deck=sub("rail_width_um = 0.41", "rail_width_um = 3.5")),
+        deck=sub("rail_width_um = 0.38", "rail_width_um = 3.5")),
+    Bad("deck-nwell-half-fills-the-row", "deck", "layout.nwell_height_um", ("must be less than row_height_um",),
+        deck=sub("nwell_height_um = 1.98", "nwell_height_um = 4.0"), line_of="nwell_height_um = 4.0"),
+    Bad("deck-width-bias-closes-the-space", "deck", "metals[1].width_bias_nm", ("closes the space", "210"),
+        deck=sub('name = "M2"\nthickness_nm = 350', 'name = "M2"\nwidth_bias_nm = 300\nthickness_nm = 350'),
+        line_of="width_bias_nm = 300"),
+    Bad("deck-named-rail-called-core", "deck", "supplies.named.core", ("may not be core or io",),
+        deck=sub("io_V = 3.3\n", 'io_V = 3.3\n\n[supplies.named.core]\nvoltage_V = 1.5\npower_net = "AVDD"\n')),
+    Bad("deck-tempco-turns-a-resistance-negative", "deck", "resistance_tempco.well_sheet_ppm_per_K",
+        ("not be positive at corner fast_m40C",),
+        deck=sub("well_sheet_ppm_per_K = 6500", "well_sheet_ppm_per_K = 20000"),
+        line_of="well_sheet_ppm_per_K = 20000"),
     Bad("deck-io-below-core", "deck", "supplies.io_V", ("must be at least core_V",),
         deck=sub("io_V = 3.3", "io_V = 1.0")),
     Bad("deck-supply-out-of-range", "deck", "supplies.core_V", ("0.1", "must be > 0.3",),
@@ -131,8 +143,8 @@ CASES: list[Bad] = [
         deck=sub('"oxides.core.nmos.vth_V" = 0.28', '"process.name" = 0.28')),
     # the corner's own table is fine; the deck it produces is not
     Bad("deck-corner-value-out-of-range", "deck", "corners.fast_m40C -> oxides.core.t_ox_nm", ("must be >= 0.3",),
-        deck=sub('scale = { "oxides.core.t_ox_nm" = 0.96, "oxides.io.t_ox_nm" = 0.97 }\nset',
-                 'scale = { "oxides.core.t_ox_nm" = 0.1, "oxides.io.t_ox_nm" = 0.97 }\nset'),
+        deck=sub('[corners.fast_m40C.scale]\n"oxides.core.t_ox_nm" = 0.96',
+                 '[corners.fast_m40C.scale]\n"oxides.core.t_ox_nm" = 0.1'),
 ),
     Bad("deck-corner-supply-scale", "deck", "corners.slow_125C.supply_scale", ("2.0", "must be <= 1.5",),
         deck=sub("supply_scale = 0.90", "supply_scale = 2.0"), line_of="supply_scale = 2.0"),
@@ -191,15 +203,25 @@ CASES: list[Bad] = [
     Bad("cells-duplicate-variant", "cells", "cell[1].name", ("duplicate variant name", "cell[0]"),
         cells=mom("") + "\n" + mom("", width=16)),
     Bad("cells-gate-wider-than-cell", "cells", "family[0].gate_length_um",
-        ("devices wider than the cell", "2.88 um", "1.64 um wide"),
+        ("devices wider than the cell", "2.94 um", "1.7 um wide"),
         cells=GOOD_CELLS.replace("fingers = [1, 2]", "gate_length_um = 2.0"), line_of="gate_length_um = 2.0"),
     Bad("cells-gate-below-minimum", "cells", "family[0].gate_length_um", ("minimum gate length 0.12 um",),
         cells=GOOD_CELLS + "gate_length_um = 0.05\n"),
     Bad("cells-gate-width-over-row", "cells", "family[0].gate_width_um",
-        ("taller than the row", "at most 2.52 um per row"),
+        ("taller than the row", "at most 0.885 um per row"),
         cells=GOOD_CELLS + "gate_width_um = 5.0\n", line_of="gate_width_um = 5.0"),
     Bad("cells-fingers-do-not-fit", "cells", "family[0].fingers", ("16 fingers do not fit in 4 sites", "0.12 um"),
         cells=GOOD_CELLS.replace("[1, 2]", "16"), line_of="fingers = 16"),
+    Bad("cells-unknown-placement", "cells", "family[0].placement", ("'pad_ring'", "allowed: core_row", "open_region"),
+        cells=GOOD_CELLS + 'placement = "pad_ring"\n', line_of='placement = "pad_ring"'),
+    Bad("cells-rail-not-in-deck", "cells", "family[0].rail", ("no such supply rail", "allowed: core, io"),
+        cells=GOOD_CELLS + 'rail = "analog"\n', line_of='rail = "analog"'),
+    Bad("cells-swept-rail", "cells", "family[0].rail", ("cannot be swept",),
+        cells=GOOD_CELLS + 'rail = ["core", "io"]\n'),
+    Bad("cells-accumulation-needs-a-spacing-the-deck-lacks", "cells", "family[0].placement",
+        ("nwell_to_nwell_space_um", "add it to the deck"),
+        deck=sub("nwell_to_nwell_space_um = 0.95\n", ""),
+        cells=GOOD_CELLS.replace('"nmos_inversion"', '"accumulation"').replace("[4, 8]", "16")),
     Bad("cells-mom-layer-unknown", "cells", "cell[0].mom_top", ("'M9'", "allowed: M1, M2, M3, M4, M5"),
         cells=mom('mom_top = "M9"\n'), line_of='mom_top = "M9"'),
     Bad("cells-mom-below-rails", "cells", "cell[0].mom_bottom",
@@ -213,8 +235,8 @@ CASES: list[Bad] = [
     Bad("cells-mom-field-on-mos", "cells", "family[0]", ("mom_top applies to mom and mos_mom cells only",
                                                           "not nmos_inversion"),
         cells=GOOD_CELLS + 'mom_top = "M3"\n'),
-    Bad("cells-gate-field-on-mom", "cells", "cell[0]", ("gate_length_um applies to nmos_inversion, pmos_inversion, accumulation, cross_coupled and "
-                                                         "mos_mom cells only", "not mom"),
+    Bad("cells-gate-field-on-mom", "cells", "cell[0]", ("gate_length_um applies to nmos_inversion, pmos_inversion, accumulation, tied_cmos, "
+                                                         "cross_coupled and mos_mom cells only", "not mom"),
         cells=mom("gate_length_um = 0.5\n")),
     Bad("cells-oxide-not-in-deck", "cells", "family[0].oxide", ("no such oxide flavour", "allowed: core"),
         deck=without_io, cells=GOOD_CELLS + 'oxide = "io"\n', line_of='oxide = "io"'),

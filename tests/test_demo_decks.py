@@ -59,6 +59,42 @@ def test_families_cover_every_topology(name: str, demo_deck_paths: dict[str, tup
     assert any(c.gate_length_um is not None for c in cells)        # an explicit gate-length sweep
 
 
+def test_families_cover_both_placements_and_rails(demo_deck_name: str,
+                                                 demo_deck_paths: dict[str, tuple[Path, Path]]) -> None:
+    deck, cells = _load(demo_deck_paths[demo_deck_name])
+    assert {c.topology for c in cells} == set(REGISTRY)
+    assert {c.placement for c in cells} == {"core_row", "open_region"}
+    # thick oxide on its own rail and on the core rail (characterized at the core supply)
+    assert {c.rail for c in cells if c.oxide == "io"} >= {"io", "core"}
+    assert {c.rail for c in cells} <= set(deck.supplies.rail_names())
+    assert any(c.topology == "tied_cmos" and c.oxide == "core" and c.placement == "core_row" for c in cells)
+
+
+def test_tarn40lp_decouples_its_named_rail(demo_deck_paths: dict[str, tuple[Path, Path]]) -> None:
+    deck, cells = _load(demo_deck_paths["tarn40lp"])
+    assert deck.supplies.rail_names() == ("core", "io", "pll")
+    assert deck.supplies.rail_nets("pll") == ("VDDPLL", "VSSPLL") and deck.supply_for("pll") == 1.8
+    assert any(c.rail == "pll" for c in cells)
+
+
+def test_back_end_corners_keep_the_metal_resistivity(demo_deck_name: str,
+                                                     demo_deck_paths: dict[str, tuple[Path, Path]]) -> None:
+    # rho = R_sq t is a property of the metal: a corner that thins the metal raises the sheet
+    # resistance by the same factor (docs/references.md [143] [CP]); the temperature coefficient
+    # then scales it (docs/references.md [140] [DF]). rel 1e-3 (factors rounded to 4 digits)
+    deck = load_deck(demo_deck_paths[demo_deck_name][0])
+    alpha = deck.resistance_tempco.metal_sheet_ppm_per_K * 1e-6
+    moved = 0
+    for name, corner in deck.corners.items():
+        at = deck.at_corner(name)
+        tcr = 1 + alpha * (corner.temperature_C - deck.resistance_reference_C)
+        for base, m in zip(deck.metals, at.metals):
+            rho_base = base.sheet_ohm_per_sq * base.thickness_nm
+            assert m.sheet_ohm_per_sq / tcr * m.thickness_nm == pytest.approx(rho_base, rel=1e-3), (name, m.name)
+            moved += m.thickness_nm != base.thickness_nm
+    assert moved >= 2 * len(deck.metals)            # slow and fast corners move every layer
+
+
 def test_every_cell_fits_at_every_corner(demo_deck_name: str, demo_deck_paths: dict[str, tuple[Path, Path]]) -> None:
     deck, cells = _load(demo_deck_paths[demo_deck_name])
     for corner in deck.corners:
@@ -136,7 +172,7 @@ def test_readme_documents_every_deck_field(deck_dir: Path, demo_deck_paths: dict
     readme = (deck_dir / "README.md").read_text(encoding="utf-8")
     models = [schema.Deck, schema.ProcessInfo, schema.OxideFlavour, schema.DeviceParams, schema.LeakageParams,
               schema.ReliabilityParams, schema.Wells, schema.Resistances, schema.MetalLayer, schema.Layout,
-              schema.Supplies, schema.Corner, CellSpec]
+              schema.Supplies, schema.NamedSupply, schema.ResistanceTempco, schema.Corner, CellSpec]
     def documented(model: type[BaseModel], name: str) -> bool:
         ann = model.model_fields[name].annotation
         if any(isinstance(a, type) and issubclass(a, BaseModel) for a in (ann, *typing.get_args(ann))):

@@ -31,6 +31,7 @@ from celllab.cells.schema import OxideChoice
 from celllab.columns import CELL_COLUMNS, CORNER_COLUMNS, METRICS, TEXT_COLUMNS
 from celllab.errors import FilterError, Problem, did_you_mean
 from celllab.topologies import REGISTRY
+from celllab.topologies.geometry import PLACEMENTS
 
 FieldKind = Literal["number", "text", "bool"]
 
@@ -40,7 +41,7 @@ OXIDES: tuple[str, ...] = tuple(get_args(OxideChoice))
 
 def closed_values() -> dict[str, tuple[str, ...]]:
     """Text columns with a closed set of values (topologies read from the registry now)."""
-    return {"topology": REGISTRY.names(), "oxide": OXIDES}
+    return {"topology": REGISTRY.names(), "oxide": OXIDES, "placement": PLACEMENTS}
 
 TEXT_FIELDS: tuple[str, ...] = tuple(TEXT_COLUMNS)
 #: Corner conditions (NULL in worst/best rows, where no single corner applies).
@@ -566,9 +567,11 @@ def describe_language() -> str:
         lines.append(f"  {m.name:<{width}}  [{m.unit}] {m.better} is better; {m.description}")
     lines.append("Cell columns:")
     for c in CELL_COLUMNS.values():
-        lines.append(f"  {c.name:<{width}}  [{c.unit}] {c.description}")
+        unit = f"[{c.unit}]" if c.kind != "text" else "[text]"
+        lines.append(f"  {c.name:<{width}}  {unit} {c.description}")
     for c in CORNER_COLUMNS.values():
         lines.append(f"  {c.name:<{width}}  [{c.unit}] corner condition")
     lines.append(f"Text columns: {', '.join(TEXT_FIELDS)}")
     lines.append(f"  topology: {', '.join(REGISTRY.names())};  oxide: {', '.join(OXIDES)}")
+    lines.append(f"  placement: {', '.join(PLACEMENTS)};  rail: core, io or a deck's named rail")
     return "\n".join(lines)

@@ -33,7 +33,7 @@ SQLITE_MAGIC = b"SQLite format 3\x00"
 #: Tables every catalog has.
 TABLES = ("decks", "runs", "cells", "corner_metrics", "corner_extremes", "responses", "cv_curves")
 
-#: SQL types of the per-cell columns (the rest of CELL_COLUMNS are REAL).
+#: SQL types of the per-cell columns (text columns are TEXT, the rest of CELL_COLUMNS REAL).
 _CELL_COLUMN_TYPES = {"width_sites": "INTEGER", "height_rows": "INTEGER", "esd_safe": "INTEGER"}
 
 #: Metrics indexed for ranking and filtering.
@@ -47,6 +47,9 @@ INDEXED_METRICS = (
 
 
 def cell_column_type(name: str) -> str:
+    column = CELL_COLUMNS.get(name)
+    if column is not None and column.kind == "text":
+        return "TEXT"
     return _CELL_COLUMN_TYPES.get(name, "REAL")
 
 

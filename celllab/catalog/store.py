@@ -98,9 +98,17 @@ def canonical_json(value: Any) -> str:
 
 
 def _column_value(name: str, value: Any) -> Any:
-    if cell_column_type(name) == "INTEGER":
+    kind = cell_column_type(name)
+    if kind == "INTEGER":
         return None if value is None else int(value)
+    if kind == "TEXT":
+        return None if value is None else str(value)
     return nan_to_none(value)
+
+
+#: Cell columns held as numbers / as text (``columns.CELL_COLUMNS`` kinds).
+_NUMBER_CELL_COLUMNS = tuple(k for k in CELL_COLUMNS if cell_column_type(k) != "TEXT")
+_TEXT_CELL_COLUMNS = tuple(k for k in CELL_COLUMNS if cell_column_type(k) == "TEXT")
 
 
 def encode_f64(values: Any) -> bytes:
@@ -158,7 +166,10 @@ def result_digest(
     """
     h = hashlib.sha256()
     _feed(h, json.dumps([cell_row[k] for k in _DIGEST_TEXT_KEYS]).encode())
-    _feed(h, _f64(_column_value(k, cell_row.get(k)) for k in CELL_COLUMNS))
+    _feed(h, _f64(_column_value(k, cell_row.get(k)) for k in _NUMBER_CELL_COLUMNS))
+    text_cells = [cell_row.get(k) for k in _TEXT_CELL_COLUMNS]
+    if any(v is not None for v in text_cells):  # results stored before these columns keep their digest
+        _feed(h, json.dumps(text_cells).encode())
     parts: dict[str, list[bytes]] = {}
     for row in corner_rows:
         parts[row["corner"]] = [
@@ -612,4 +623,7 @@ def load_cell(db: sqlite_utils.Database, cell_id: int) -> CellResult:
         # in the run's corner order, so "the first circuit" is the first (typical) corner
         netlist={c.corner: circuits[c.corner] for c in corners if c.corner in circuits} or None,
         notes=list(json.loads(c["notes_json"])),
+        # results stored before these columns: core-row cells on the rail named like their oxide
+        placement=c.get("placement") or "core_row",
+        rail=c.get("rail") or c["oxide"],
     )

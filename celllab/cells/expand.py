@@ -6,6 +6,8 @@ File layout (TOML)::
     name = "lx_ndcap"             # variants are named lx_ndcap-w4-h1-f2 ...
     topology = "nmos_inversion"
     oxide = "core"
+    rail = "core"                  # optional: the rail it decouples (default: named like the oxide)
+    placement = "core_row"         # or "open_region"; may be swept like a geometry field
     width_sites = [2, 4, 8]        # a list sweeps
     fingers = { start = 1, stop = 4 }                   # an integer range (inclusive)
     gate_length_um = { start = 0.2, stop = 1.0, count = 3, spacing = "log" }
@@ -38,13 +40,16 @@ from celllab.errors import CellError, Problem, allowed_hint
 from celllab.topologies import REGISTRY
 
 MAX_VARIANTS_PER_FAMILY = 20000
-_FAMILY_ONLY = {"name", "topology", "oxide", "description", "skip_unfit"}
+_FAMILY_ONLY = {"name", "topology", "oxide", "rail", "description", "skip_unfit"}
+#: Family fields that take one value (not swept).
+_FIXED = ("name", "topology", "oxide", "rail")
 _RANGE_KEYS = {"start", "stop", "step", "count", "spacing"}
 
 
 def cell_hash(spec: CellSpec) -> str:
-    """First 16 hex digits of SHA-256 over topology, oxide and geometry (not the name)."""
-    body = {"topology": spec.topology, "oxide": spec.oxide, **spec.geometry}
+    """First 16 hex digits of SHA-256 over topology, oxide, rail and geometry with the placement
+    (not the name)."""
+    body = {"topology": spec.topology, "oxide": spec.oxide, "rail": spec.rail, **spec.geometry}
     text = json.dumps(body, sort_keys=True, separators=(",", ":"))
     return hashlib.sha256(text.encode()).hexdigest()[:16]
 
@@ -57,12 +62,18 @@ def _fmt(value: Any) -> str:
     return str(value)
 
 
+#: Short forms of swept values in variant names.
+_VALUE_TAGS: dict[str, dict[Any, str]] = {"placement": {"core_row": "row", "open_region": "open"}}
+
+
 def variant_name(family: str, values: dict[str, Any], swept: list[str]) -> str:
     parts = [family, f"w{_fmt(values['width_sites'])}", f"h{_fmt(values.get('height_rows', 1))}"]
     for f in swept:
         if f in ("width_sites", "height_rows"):
             continue
-        parts.append(f"{NAME_TAGS[f]}{_fmt(values[f])}")
+        value = values[f]
+        short = _VALUE_TAGS.get(f, {}).get(value) if isinstance(value, str) else None
+        parts.append(f"{NAME_TAGS[f]}{short or _fmt(value)}")
     return "-".join(parts)
 
 
@@ -147,12 +158,12 @@ def expand_family(entry: dict[str, Any], index: int, file: str, text: str | None
                                 + ", ".join(REGISTRY.names()), None, find_line(text, [kind, index]), has_value=False))
     if problems:
         raise CellError(problems)
-    fixed = {k: entry[k] for k in ("name", "topology", "oxide") if k in entry}
+    fixed = {k: entry[k] for k in _FIXED if k in entry}
     skip_unfit = entry.get("skip_unfit", False)
     if not isinstance(skip_unfit, bool):
         raise CellError([Problem(file, f"{where}.skip_unfit", "must be true or false", skip_unfit,
                                  find_line(text, [kind, index, "skip_unfit"]))])
-    for k in ("name", "topology", "oxide"):
+    for k in _FIXED:
         if isinstance(entry.get(k), (list, dict)):
             raise CellError([Problem(file, f"{where}.{k}", "cannot be swept; give one value", entry[k],
                                      find_line(text, [kind, index, k]))])
@@ -264,7 +275,7 @@ def apply_cell_changes(spec: CellSpec, changes: dict[str, Any], deck: Any = None
     """Validated copy of ``spec`` with geometry fields changed."""
     problems = []
     for key in changes:
-        if key not in GEOMETRY_FIELDS and key not in ("topology", "oxide"):
+        if key not in GEOMETRY_FIELDS and key not in ("topology", "oxide", "rail"):
             problems.append(Problem(source, key, "not an editable cell field" + allowed_hint(key, GEOMETRY_FIELDS),
                                     changes[key]))
     if problems:
@@ -299,7 +310,8 @@ def spec_from_record(cell: Any) -> CellSpec:
         data = {f: geometry[f] for f in GEOMETRY_FIELDS if f in geometry}
         data.setdefault("width_sites", cell.width_sites)
         data.setdefault("height_rows", cell.height_rows)
-    data.update(name=cell.name, family=cell.family, topology=cell.topology, oxide=cell.oxide)
+    data.update(name=cell.name, family=cell.family, topology=cell.topology, oxide=cell.oxide,
+                rail=getattr(cell, "rail", "") or cell.oxide)
     allowed = set(CellSpec.model_fields)
     return CellSpec.model_validate({k: v for k, v in data.items() if k in allowed})
 

@@ -14,18 +14,19 @@ from pydantic_core import PydanticCustomError
 
 from celllab.strict import StrictModel
 from celllab.topologies import REGISTRY
+from celllab.topologies.geometry import Placement
 
 OxideChoice = Literal["core", "io"]
 
 #: Fields a family may sweep (scalar, list or range), in the order they appear in variant names.
 GEOMETRY_FIELDS: tuple[str, ...] = (
-    "width_sites", "height_rows", "fingers", "gate_length_um", "gate_width_um", "contacted_ends",
+    "width_sites", "height_rows", "placement", "fingers", "gate_length_um", "gate_width_um", "contacted_ends",
     "gate_contacted_ends", "accumulation_well", "mos_device", "mom_bottom", "mom_top",
     "finger_width_um", "finger_space_um", "mom_alternate",
 )
 #: Short tags for variant names.
 NAME_TAGS: dict[str, str] = {
-    "width_sites": "w", "height_rows": "h", "fingers": "f", "gate_length_um": "L",
+    "width_sites": "w", "height_rows": "h", "placement": "", "fingers": "f", "gate_length_um": "L",
     "gate_width_um": "W", "contacted_ends": "e", "gate_contacted_ends": "g",
     "accumulation_well": "well", "mos_device": "", "mom_bottom": "", "mom_top": "to",
     "finger_width_um": "fw", "finger_space_um": "fs", "mom_alternate": "alt",
@@ -39,6 +40,13 @@ class CellSpec(StrictModel):
     family: str = Field("", description="family this variant came from")
     topology: str = Field(description="decap topology (see celllab.topologies.REGISTRY)")
     oxide: OxideChoice = Field("core", description="gate-oxide flavour: core (thin) or io (thick)")
+    rail: str = Field("", pattern=r"^$|^[a-z][a-z0-9_]{0,23}$",
+                      description="supply rail the cell decouples and is characterized at: core, io or a "
+                      "rail named in the deck's [supplies.named]; omitted: the rail of the same name as "
+                      "the oxide (independent of it when given)")
+    placement: Placement = Field("core_row", description="where the cell sits: core_row (a standard-cell "
+                                 "row, NMOS on the p-well half, PMOS on the n-well half) or open_region "
+                                 "(no row structure: I/O-ring spacers, corner cells, pad-ring gaps)")
     width_sites: int = Field(ge=1, le=4096, description="cell width, placement sites")
     height_rows: int = Field(1, ge=1, le=64, description="cell height, placement rows")
     fingers: int = Field(1, ge=1, le=1024, description="gate fingers per device")
@@ -68,6 +76,22 @@ class CellSpec(StrictModel):
                 else repr(names[0])
             raise PydanticCustomError("literal_error", "Input should be {expected}", {"expected": expected})
         return value
+
+    @model_validator(mode="before")
+    @classmethod
+    def _rail_follows_oxide_unless_given(cls, data: Any) -> Any:
+        if isinstance(data, dict) and not data.get("rail"):
+            oxide = data.get("oxide", "core")
+            return {**data, "rail": oxide if isinstance(oxide, str) else ""}
+        return data
+
+    @model_validator(mode="after")
+    def _placement_allowed(self) -> "CellSpec":
+        allowed = REGISTRY.placements_of(self.topology)
+        if self.placement not in allowed:
+            raise ValueError(f"placement {self.placement!r} is not allowed for {self.topology} cells; "
+                             "allowed: " + ", ".join(allowed))
+        return self
 
     @model_validator(mode="after")
     def _topology_fields(self) -> "CellSpec":

@@ -1,90 +1,160 @@
-"""The ``plan`` verb: fill a block with catalog decaps and report its power-delivery impedance.
+"""The ``plan`` verb: fill a block's gaps region by region with catalog decaps and report the
+fill, its budgets, the constraints that bound it and the block's lumped PDN figures.
 
     celllab plan process_decks/blocks/lumen130_dsp.toml --catalog db/celllab.sqlite
     celllab plan BLOCK.toml --json
-    celllab plan BLOCK.toml --out plans/     # also writes <block>_z.csv and <block>_z.s1p
+    celllab plan BLOCK.toml --out plans/    # fill list CSV/JSON, HTML report, Z(f) CSV/s1p
 """
 
 from __future__ import annotations
 
 import argparse
 import json
-import math
 import sys
 from typing import Any
 
 from celllab import CAUTION, DEFAULT_CATALOG
-from celllab.display import text_table
+
+_WIDTH = 132
 
 
-def _num(value: float, digits: int = 4) -> str:
-    if value is None or (isinstance(value, float) and not math.isfinite(value)):
-        return "n/a"
+def _n(value: Any, digits: int = 4) -> str:
+    if value is None:
+        return "–"
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    if isinstance(value, int):
+        return f"{value:,}"
+    if 1e4 <= abs(value) < 1e12:
+        return f"{value:,.0f}"
     return f"{value:.{digits}g}"
 
 
-def render_report(summary: dict[str, Any]) -> str:
-    """The text report of ``BlockPlan.to_dict()``: cell table, totals, PDN figures, caution."""
+def _pct(part: float | None, whole: float | None) -> str:
+    if part is None or not whole:
+        return "–"
+    return f"{100 * part / whole:.1f}"
+
+
+def _table(title: str, columns: list[str], rows: list[list[Any]], numeric: set[int]) -> Any:
+    """A rich table; every cell is plain text (no markup: units such as [nF] stay as typed)."""
+    from rich import box
+    from rich.table import Table
+    from rich.text import Text
+
+    table = Table(title=Text(title), title_justify="left", box=box.SIMPLE_HEAD, pad_edge=False)
+    for k, column in enumerate(columns):
+        # names and numbers never wrap; free text (notes, reasons) takes what is left
+        table.add_column(Text(column), justify="right" if k in numeric else "left",
+                         no_wrap=k < 2 or k in numeric)
+    for row in rows:
+        table.add_row(*[Text(v if isinstance(v, str) else _n(v)) for v in row])
+    return table
+
+
+def render_report(summary: dict[str, Any], console: Any) -> None:
+    """Print ``BlockPlan.to_dict()`` as tables: regions, gap classes, roles, budgets, corners,
+    PDN figures, notes and the caution."""
     s = summary
-    lines = [(f"Block {s['block']} on deck {s['deck']} (corner {s['corner']}, supply "
-             f"{_num(s['supply_V'])} V): {s['candidates']} candidate cells")]
-    if s["excluded"]:
-        lines.append("  excluded: " + ", ".join(f"{n} {why}" for why, n in s["excluded"].items()))
-    lines.append("")
-    if s["cells"]:
-        cols = ["name", "topology", "count", "sites", "cap_fF", "total_cap_nF", "leakage_nA",
-                "total_leakage_uA", "bandwidth_GHz", "z_corner"]
-        lines.append(text_table(s["cells"], cols))
-    else:
-        lines.append("No cell fits the site and leakage budgets: the die has only its "
-                     "intrinsic decap.")
-    verdict = "yes" if s["below_target"] else "NO"
-    need_ok = "meets" if s["die_cap_nF"] >= s["charge_sharing_need_nF"] else "BELOW"
-    rows = [
-        ("sites used / empty", (f"{s['sites_used']} / {s['empty_sites']} "
-         f"({100 * s['sites_used'] / s['empty_sites']:.1f} %)")),
-        ("fill capacitance [nF]", _num(s["fill_cap_nF"])),
-        ("intrinsic decap, non-switching logic [nF]", _num(s["intrinsic_cap_nF"])),
-        ("die capacitance [nF]", _num(s["die_cap_nF"])),
-        ("switched capacitance P/(V^2 f) [nF]", _num(s["switched_cap_nF"])),
-        ("charge-sharing need at the ripple [nF]", (f"{_num(s['charge_sharing_need_nF'])} "
-         f"(die {need_ok}); rule of thumb 9 C_sw = {_num(s['rule_of_thumb_need_nF'])}")),
-        ("fill leakage / budget [uA]", (f"{_num(s['leakage_uA'])} / "
-         f"{_num(s['leakage_budget_uA'])}")),
-        ("fill leakage per nF [nA/nF]", _num(s["leakage_nA_per_nF"])),
-        ("target impedance [mohm]", _num(s["target_impedance_mohm"])),
-        ("package resonance f0 [MHz]", _num(s["f0_MHz"])),
-        ("characteristic impedance Z0 = sqrt(L/C) [mohm]", _num(s["z0_mohm"])),
-        ("peak |Z| swept [mohm] at [MHz]", (f"{_num(s['peak_z_mohm'])} at "
-         f"{_num(s['peak_f_MHz'])}")),
-        ("peak |Z| lumped tank [mohm] at [MHz]", (f"{_num(s['peak_z_tank_mohm'])} at "
-         f"{_num(s['peak_f_tank_MHz'])}")),
-        ("die ESR at f0 [mohm]", _num(s["die_esr_at_f0_mohm"])),
-        ("first droop, undamped [mV] at [ns]", (f"{_num(s['first_droop_mV'])} at "
-         f"{_num(s['first_droop_time_ns'])}")),
-        ("|Z| below target over the sweep", (f"{verdict} (worst |Z|/target "
-         f"{_num(s['worst_z_over_target'])} at {_num(s['worst_f_MHz'])} MHz)")),
-    ]
-    width = max(len(k) for k, _ in rows)
-    lines.append("")
-    lines += [f"{k.ljust(width)}  {v}" for k, v in rows]
-    if not s["optimal"]:
-        lines.append("(fill not proven optimal: solver time limit)")
-    lines.append("")
-    lines += [f"note: {n}" for n in s["notes"]]
-    lines.append(CAUTION)
-    return "\n".join(lines)
+    excluded = ", ".join(f"{n} {why}" for why, n in s["excluded"].items())
+    console.print(f"Block {s['block']} on deck {s['deck']}: corner {s['corner']}"
+                  + (" (each figure at its own worst corner)" if s["corner"] == "worst" else "")
+                  + f", supply {_n(s['supply_V'])} V, goal {s['goal']}; {s['candidates']} "
+                  f"candidate cells" + (f" (excluded: {excluded})" if excluded else ""),
+                  soft_wrap=True)
+    console.print(f"solver: {'proven' if s['optimal'] else 'NOT proven'} within "
+                  f"{s['mip_gap']:.2%} of the best bound in {s['solve_s']:.2f} s",
+                  soft_wrap=True)
+    for r in s["regions"]:
+        flags = [f for f, on in (("ESD-safe cells only", r["esd_safe_only"]),
+                                 ("quiet", r["quiet"])) if on]
+        head = (f"Region {r['name']}" + (f" ({', '.join(flags)})" if flags else "")
+                + f": useful cap at {_n(r['frequency_MHz'])} MHz ({r['frequency_source']}) "
+                f"{_n(r['useful_cap_nF'])} nF of target {_n(r['target_nF'])} nF "
+                f"({r['target_source']})"
+                + (f", SHORT by {_n(r['shortfall_nF'])} nF" if r["shortfall_nF"] else ""))
+        console.print()
+        console.print(head, soft_wrap=True)
+        console.print(_table(
+            "cells", ["cell", "count", "in rows", "in open", "cap fF", "useful fF",
+                      "leak nA", "useful nF", "leak uA"],
+            [[c["name"], c["count"], c["in_rows"], c["in_open"], c["cap_fF"],
+              c["useful_cap_fF"], c["leakage_nA"], c["total_useful_cap_nF"],
+              c["total_leakage_uA"]] for c in r["cells"]] or [["(none)"] + [""] * 8],
+            set(range(1, 9))))
+        console.print(_table(
+            "gap classes: where each class's area went [%]",
+            ["class", "role", "gaps", "filled", "useful nF", "area um^2", "filled", "geom",
+             "restr", "kinds", "open", "left open because"],
+            [[c["name"], c["role"], c["gaps"], c["filled_gaps"], c["useful_cap_nF"],
+              c["capacity_um2"], _pct(c["filled_um2"], c["capacity_um2"]),
+              _pct(c["lost_geometry_um2"], c["capacity_um2"]),
+              _pct(c["lost_restricted_um2"], c["capacity_um2"]),
+              _pct(c["lost_kinds_um2"], c["capacity_um2"]),
+              _pct(c["left_open_um2"], c["capacity_um2"]),
+              "; ".join(c["left_open_because"]) or "–"] for c in r["classes"]],
+            set(range(2, 11))))
+        console.print(_table(
+            "fill list", ["class", "cell", "count"],
+            [[c["name"], cell, n] for c in r["classes"] for cell, n in c["cells"].items()]
+            or [["(empty)", "", ""]], {2}))
+    console.print()
+    t = s["totals"]
+    console.print(_table(
+        "fill by gap role", ["role", "cap nF", "useful nF", "leak uA", "leak uW"],
+        [[role, v["cap_nF"], v["useful_cap_nF"], v["leakage_uA"], v["leakage_uW"]]
+         for role, v in s["roles"].items()]
+        + [["total", t["cap_nF"], t["useful_cap_nF"], t["leakage_uA"], t["leakage_uW"]]],
+        {1, 2, 3, 4}))
+    budgets = s["budgets"]
+    console.print(_table(
+        "budgets and binding constraints",
+        ["constraint", "corner policy", "used", "limit", "unit", "binds", "shadow price",
+         "gain if lifted"],
+        [[b["name"], b["policy"], "–" if b["limit"] is None else b["used"], b["limit"],
+          b["unit"] if b["limit"] is not None else "", "BINDS" if b["binding"] else "no",
+          "–" if b["shadow_price"] is None else f"{_n(b['shadow_price'])} "
+          f"{b['shadow_price_unit']}",
+          "–" if b["gain"] is None else f"{_n(b['gain'])} {b['gain_unit']}"]
+         for b in budgets], {2, 3}))
+    for b in budgets:
+        if b["note"]:
+            console.print(f"  {b['name']}: {b['note']}", soft_wrap=True, markup=False)
+    console.print(_table("the fill at every stored corner", ["corner", "cap nF", "leak uA"],
+                         [[c["corner"], c["cap_nF"], c["leakage_uA"]] for c in s["corners"]],
+                         {1, 2}))
+    pdn = s["pdn"]
+    if pdn and "f0_MHz" in pdn:
+        rows = [
+            ("die capacitance (fill + intrinsic) [nF]", f"{_n(pdn['die_cap_nF'])} = "
+             f"{_n(pdn['fill_cap_nF'])} + {_n(pdn['intrinsic_cap_nF'])}"),
+            ("charge-sharing need at the ripple [nF]", _n(pdn["charge_sharing_need_nF"])),
+            ("target impedance [mohm]", _n(pdn["target_impedance_mohm"])),
+            ("package resonance f0 [MHz]", _n(pdn["f0_MHz"])),
+            ("peak |Z| swept [mohm] at [MHz]", f"{_n(pdn['peak_z_mohm'])} at "
+             f"{_n(pdn['peak_f_MHz'])}"),
+            ("first droop, undamped [mV]", _n(pdn["first_droop_mV"])),
+            ("|Z| below target over the sweep", "yes" if pdn["below_target"] else "NO"),
+        ]
+        console.print(_table("lumped PDN of the block", ["figure", "value"],
+                             [list(r) for r in rows], set()))
+    for note in s["notes"]:
+        console.print(f"note: {note}", soft_wrap=True)
+    console.print(CAUTION, soft_wrap=True, markup=False)
 
 
 def cmd_plan(args: argparse.Namespace) -> int:
+    from rich.console import Console
+
     from celllab.catalog import open_catalog
-    from celllab.planner import load_block, plan_block, write_plan_files
+    from celllab.export.plan import write_plan_files
+    from celllab.planner import load_block, plan_block
 
     block = load_block(args.block)
     from celllab.cli.progress import working
 
-    with open_catalog(args.catalog, create=False) as catalog, working(f"planning {args.block}…"):
-        plan = plan_block(block, catalog)
+    with open_catalog(args.catalog, create=False) as catalog, working("planning") as say:
+        plan = plan_block(block, catalog, explain=not args.no_explain, progress=say)
     summary = plan.to_dict()
     if args.out:
         written = write_plan_files(plan, args.out)
@@ -92,32 +162,40 @@ def cmd_plan(args: argparse.Namespace) -> int:
         print("wrote " + ", ".join(str(p) for p in written), file=sys.stderr)
     if args.json:
         summary["caution"] = CAUTION
-        print(json.dumps(summary, indent=2, allow_nan=False, default=_json_default))
+        print(json.dumps(summary, indent=2, allow_nan=False))
     else:
-        print(render_report(summary))
+        console = Console(width=None if sys.stdout.isatty() else _WIDTH, highlight=False)
+        render_report(summary, console)
     return 0
-
-
-def _json_default(value: Any) -> Any:
-    raise TypeError(f"not JSON-able: {value!r}")
 
 
 def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
     p = sub.add_parser(
-        "plan", help="fill a block's empty sites with decaps and report its PDN impedance",
-        description="Choose integer counts of catalog decap cells that maximize the block's "
-        "capacitance within its free sites, leakage budget and kind limit, then report the "
-        "die capacitance, target impedance, package resonance, peak |Z|, first droop and "
-        "whether |Z| stays below the target. The block file (TOML) has a [block] table "
-        "(name, deck, empty_sites, row_sites, supply_V, switching_power_W, clock_GHz, "
-        "activity, current_step_A, ripple_fraction, package_inductance_nH, "
-        "package_resistance_mohm, leakage_budget_uA) and a [fill] table (where, corner, "
-        "max_kinds, require_esd_safe).")
+        "plan", help="fill a block's gaps region by region with decaps within its budgets",
+        description="Choose integer counts of catalog decap cells for every gap class of "
+        "every region of a block (in-row filler gaps by width, open slots such as corner "
+        "cells and pad-ring spacers) that maximize the useful capacitance at each region's "
+        "frequency, or meet each region's target at the least leakage, within the leakage "
+        "budget (at the leakiest corner), the thin-oxide area budget (direct, or from a "
+        "failure target over a mission), ESD-safe-only regions and a limit on distinct "
+        "kinds. Prints per region and gap class the cells, counts, capacitance, leakage and "
+        "what stays empty and why, the budgets and which of them bind, and the block's "
+        "lumped PDN figures. The block file (TOML) has tables [block], [candidates] (where, "
+        "corner), [budgets] (leakage_uA, max_kinds, thin_oxide_area_mm2, [budgets.wearout]), "
+        "[objective] (goal, mip_rel_gap, time_limit_s), [[region]] with "
+        "[[region.row_gaps]] and [[region.open_slots]], and an optional [network] table "
+        "kept for the supply-network model. See README, 'Planning a block'.",
+        epilog="Estimates from analytic models, not sign-off: defer to the foundry's rules, "
+        "qualified models, reliability and ESD qualification and licensed practice.")
     p.add_argument("block", metavar="BLOCKFILE", help="block file (TOML)")
     p.add_argument("--catalog", default=str(DEFAULT_CATALOG), metavar="PATH",
                    help="catalog file (default: %(default)s)")
     p.add_argument("--json", action="store_true", help="print the plan as JSON")
     p.add_argument("--out", metavar="DIR",
-                   help="also write <block>_z.csv (|Z|(f)) and <block>_z.s1p (Touchstone "
-                   "v1.1 one-port) into DIR")
+                   help="also write <block>_fill.csv and <block>_fill.json (fill list for "
+                   "place-and-route scripts), <block>_plan.html, and <block>_z.csv / "
+                   "<block>_z.s1p (block impedance) into DIR")
+    p.add_argument("--no-explain", action="store_true",
+                   help="skip the re-solves that price the kind limit and ESD-safe-only "
+                   "regions (faster; shadow prices are still given)")
     p.set_defaults(func=cmd_plan)

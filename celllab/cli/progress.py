@@ -66,12 +66,13 @@ def steps(description: str, total: int) -> Iterator[Callable[[int], None]]:
 
 
 @contextmanager
-def working(description: str) -> Iterator[None]:
-    """A spinner with elapsed time while one long call runs (a terminal only)."""
+def working(description: str) -> Iterator[Callable[[str], None] | None]:
+    """A spinner with the current stage while one long call runs (a terminal only): yields
+    ``say(text)`` that replaces the spinner's text, or None elsewhere."""
     if not on_terminal():
-        yield
+        yield None
         return
     from rich.console import Console
 
-    with Console(stderr=True).status(description):
-        yield
+    with Console(stderr=True).status(description) as status:
+        yield lambda text: status.update(text)

@@ -15,6 +15,8 @@ from pydantic import BaseModel, ValidationError
 
 from celllab.deck.schema import Deck
 from celllab.errors import CelllabError, DeckError, Problem, allowed_hint, close_names, did_you_mean
+from celllab.physics.resistance import linear_tcr_factor
+from celllab.units import to_si
 
 
 def content_hash(model: BaseModel) -> str:
@@ -42,15 +44,31 @@ def read_toml(path: str | Path, error: type[CelllabError]) -> tuple[dict[str, An
         raise error([Problem(str(path), "", f"TOML syntax error: {msg}", line=line, has_value=False)]) from None
 
 
+def _resolve_table(name: str, arrays: dict[tuple[str, ...], int]) -> list[str]:
+    """Key path of a table header, with the current element index after every array of
+    tables it lies in (``[[region.row_gaps]]`` inside the second ``[[region]]`` ->
+    region, 1, row_gaps)."""
+    resolved: list[str] = []
+    for part in (t.strip().strip('"') for t in name.split(".")):
+        resolved.append(part)
+        key = tuple(resolved)
+        if key in arrays:
+            resolved.append(str(arrays[key]))
+    return resolved
+
+
 def find_line(text: str | None, path: Iterable[str | int]) -> int | None:
-    """Best-effort line number of a dotted key path in TOML source (None when not found)."""
+    """Best-effort line number of a dotted key path in TOML source (None when not found).
+
+    Arrays of tables are indexed (``["metals", 4, "name"]``), nested ones too
+    (``["region", 1, "row_gaps", 0, "count"]``)."""
     if not text:
         return None
     parts = [str(p) for p in path]
     if not parts:
         return None
     table: list[str] = []
-    array_index: dict[str, int] = {}
+    arrays: dict[tuple[str, ...], int] = {}  # array-of-tables path -> index of its last element
     best: int | None = None
     for lineno, raw in enumerate(text.splitlines(), start=1):
         line = raw.split("#", 1)[0].strip()
@@ -58,24 +76,30 @@ def find_line(text: str | None, path: Iterable[str | int]) -> int | None:
             continue
         m = re.match(r"^\[\[\s*([^\]]+?)\s*\]\]$", line)
         if m:
-            name = m.group(1)
-            array_index[name] = array_index.get(name, -1) + 1
-            table = name.split(".") + [str(array_index[name])]
+            owner = _resolve_table(m.group(1), {})
+            # the array's own path runs through the current elements of enclosing arrays
+            base = _resolve_table(".".join(owner[:-1]), arrays) if len(owner) > 1 else []
+            key = (*base, owner[-1])
+            arrays[key] = arrays.get(key, -1) + 1
+            # a new element forgets the elements of arrays nested in the previous one
+            for nested in [k for k in arrays if len(k) > len(key) and k[:len(key)] == key]:
+                del arrays[nested]
+            table = [*key, str(arrays[key])]
             if table == parts[: len(table)] and best is None and len(table) == len(parts):
                 best = lineno
             continue
         m = re.match(r"^\[\s*([^\]]+?)\s*\]$", line)
         if m:
-            table = [t.strip().strip('"') for t in m.group(1).split(".")]
+            table = _resolve_table(m.group(1), arrays)
             if table == parts[: len(table)] and len(table) == len(parts):
                 best = best or lineno
             continue
         m = re.match(r'^("?)([A-Za-z0-9_\-\.]+)\1\s*=', line)
         if m:
-            key = table + [k.strip('"') for k in m.group(2).split(".")]
-            if key == parts:
+            key_path = table + [k.strip('"') for k in m.group(2).split(".")]
+            if key_path == parts:
                 return lineno
-            if key == parts[: len(key)] and best is None:
+            if key_path == parts[: len(key_path)] and best is None:
                 best = lineno
     return best
 
@@ -258,7 +282,7 @@ def numeric_paths(deck: Deck) -> list[str]:
         elif isinstance(node, (int, float)) and not isinstance(node, bool):
             out.append(prefix)
 
-    walk(deck.model_dump(mode="json"), "")
+    walk(deck.full_dump(), "")
     return out
 
 
@@ -274,7 +298,7 @@ def _check_path(deck_data: dict[str, Any], path: str) -> str | None:
 
 def _corner_problems(deck: Deck, raw: dict[str, Any], file: str, text: str | None) -> list[Problem]:
     problems: list[Problem] = []
-    data = deck.model_dump(mode="json")
+    data = deck.full_dump()
     allowed = numeric_paths(deck)
     for cname, corner in deck.corners.items():
         for kind, table in (("set", corner.set), ("scale", corner.scale)):
@@ -303,7 +327,7 @@ def apply_changes(deck: Deck, changes: dict[str, Any], source: str = "<what-if>"
     what-if cannot leave a corner that fails later. ``field_prefix`` labels problems (e.g. the
     corner whose changes these are).
     """
-    data = copy.deepcopy(deck.model_dump(mode="json"))
+    data = copy.deepcopy(deck.full_dump())
     problems: list[Problem] = []
     allowed = numeric_paths(deck)
     for table, op in ((changes, "set"), (scale or {}, "scale")):
@@ -337,14 +361,45 @@ def apply_changes(deck: Deck, changes: dict[str, Any], source: str = "<what-if>"
 
 
 def corner_deck(deck: Deck, corner: str, file: str | None = None) -> Deck:
-    """The deck with one corner's ``set``/``scale`` changes and supply scaling applied."""
+    """The deck with one corner's changes applied: ``set`` values, then ``scale`` factors, the
+    supply scaling (every rail, named ones included) and the resistances taken to the corner's
+    temperature by their coefficients (``resistance_tempco``, first-order law of
+    ``physics.resistance.linear_tcr_factor``). ``set`` and ``scale`` act on resistances as given
+    at the reference temperature. Device temperature laws (mobility, threshold) are applied by
+    the engine."""
     if corner not in deck.corners:
         allowed = ", ".join(deck.corners)
         raise DeckError.single(file or deck.name, "corner", f"unknown corner; allowed: {allowed}", corner)
     c = deck.corners[corner]
     scale = dict(c.scale)
     if c.supply_scale != 1.0:
-        for key in ("supplies.core_V", "supplies.io_V"):
+        rails = ["supplies.core_V", "supplies.io_V", *(f"supplies.named.{n}.voltage_V" for n in deck.supplies.named)]
+        for key in rails:
             scale[key] = scale.get(key, 1.0) * c.supply_scale
-    return apply_changes(deck, dict(c.set), file or deck.name, scale,
-                         field_prefix=f"corners.{corner} -> ", check_corners=False)
+    changed = apply_changes(deck, dict(c.set), file or deck.name, scale,
+                            field_prefix=f"corners.{corner} -> ", check_corners=False)
+    return _resistances_at(changed, c.temperature_C)
+
+
+def _resistances_at(deck: Deck, temperature_C: float) -> Deck:
+    """The deck with every resistance that has a temperature coefficient taken to ``temperature_C``.
+
+    The result is derived from a validated deck, so it is not checked against the input ranges
+    again (a cold corner may take a sheet resistance below the smallest value a person may type);
+    the deck's rules keep every factor positive.
+    """
+    t, t0 = to_si(temperature_C, "degC"), to_si(deck.resistance_reference_C, "degC")
+    factors = {path: float(linear_tcr_factor(alpha, t, t0)) for path, alpha in deck.resistance_tempco.paths(deck).items()}
+    if all(f == 1.0 for f in factors.values()):
+        return deck
+
+    def scaled(model: Any, prefix: str) -> Any:
+        update = {name: getattr(model, name) * factors[f"{prefix}{name}"]
+                  for name in type(model).model_fields if f"{prefix}{name}" in factors}
+        return model.model_copy(update=update) if update else model
+
+    return deck.model_copy(update={
+        "resistances": scaled(deck.resistances, "resistances."),
+        "wells": scaled(deck.wells, "wells."),
+        "metals": [scaled(m, f"metals[{i}].") for i, m in enumerate(deck.metals)],
+    })

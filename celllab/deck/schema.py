@@ -7,10 +7,12 @@ range check; descriptions say what the field means. Values are stored as the use
 
 from __future__ import annotations
 
+import re
 from typing import Any, Literal
 
 from pydantic import (
     Field,
+    SerializationInfo,
     SerializerFunctionWrapHandler,
     model_serializer,
     model_validator,
@@ -24,6 +26,22 @@ GateMaterial = Literal["n_poly", "p_poly", "metal"]
 AccelerationModel = Literal["power_law", "e_model", "inverse_e"]
 LeakageModel = Literal["direct_tunnel", "reference"]
 OxideName = Literal["core", "io"]
+
+
+#: ``model_dump(context=FULL_DUMP)`` keeps every field (dotted paths of corners and what-ifs
+#: reach fields at their defaults too); the plain dump is the canonical one.
+FULL_DUMP: dict[str, bool] = {"celllab_full_dump": True}
+
+
+def _without_defaults(data: dict[str, Any], defaults: dict[str, Any], info: SerializationInfo) -> dict[str, Any]:
+    """``data`` without the keys whose value equals the given default (unless ``FULL_DUMP``).
+
+    Fields added after decks were first written stay out of the canonical dump (and so out of the
+    deck's content hash) while they hold their default, so an older deck keeps its hash.
+    """
+    if isinstance(info.context, dict) and info.context.get("celllab_full_dump"):
+        return data
+    return {k: v for k, v in data.items() if not (k in defaults and v == defaults[k])}
 
 
 def _f(lo: float | None, hi: float | None, desc: str, *, gt: bool = False, default=...):  # type: ignore[no-untyped-def]
@@ -166,6 +184,13 @@ class MetalLayer(StrictModel):
     ild_eps_r: float = _f(1.0, 10, "relative permittivity of the dielectric around this layer")
     sheet_ohm_per_sq: float = _f(1e-4, 100, "sheet resistance, ohm/sq")
     via_below_ohm: float = _f(0, 1e3, "resistance of one via to the layer below, ohm")
+    # --- process variation of the printed line (corners move it with set/scale) -----------------
+    width_bias_nm: float = _f(-1000, 1000, "printed minus drawn line width; the space between lines "
+                              "changes by the opposite amount (pitch kept), nm", default=0.0)
+
+    @model_serializer(mode="wrap")
+    def _canonical(self, handler: SerializerFunctionWrapHandler, info: SerializationInfo) -> dict[str, Any]:
+        return _without_defaults(dict(handler(self)), {"width_bias_nm": 0.0}, info)
 
 
 class Layout(StrictModel):
@@ -178,6 +203,35 @@ class Layout(StrictModel):
     diffusion_strip_um: float = _f(0.01, 5, "width of a contacted source/drain strip between gates, um")
     well_spacing_um: float = _f(0, 10, "N-to-P active spacing in cells holding both device types, um")
     rail_clearance_um: float = _f(0, 5, "clearance from rail edge to active, um")
+    # --- row structure: the well halves of a core row and the well spacings charged to cells ----
+    # (geometry rules in celllab/topologies/geometry.py; omitted values are never invented: a cell
+    # that needs one is refused with a located message)
+    nwell_height_um: float | None = _f(0, 50, "core rows: height of the n-well half, from the power-rail "
+                                       "edge of the row to the well boundary (the p-well half is the "
+                                       "rest), um; omitted: half the row", gt=True, default=None)
+    nwell_to_nwell_space_um: float | None = _f(0, 20, "spacing between n-wells on different rails (the "
+                                               "ground-rail n-well of an n-well accumulation cell to a "
+                                               "core row's power-rail n-well), um; needed by such cells "
+                                               "in core rows", default=None)
+    deep_nwell_space_um: float | None = _f(0, 20, "from the active of an isolated p-well (inside a deep "
+                                           "n-well) to a cell edge a neighbour's p-well may reach: n-well "
+                                           "ring plus deep-n-well spacing, um; needed by p-well "
+                                           "accumulation cells", default=None)
+
+    @model_serializer(mode="wrap")
+    def _canonical(self, handler: SerializerFunctionWrapHandler, info: SerializationInfo) -> dict[str, Any]:
+        return _without_defaults(dict(handler(self)), {
+            "nwell_height_um": None, "nwell_to_nwell_space_um": None, "deep_nwell_space_um": None}, info)
+
+    @property
+    def nwell_half_um(self) -> float:
+        """Height of a core row's n-well half, um (half the row when the deck gives none)."""
+        return self.row_height_um / 2 if self.nwell_height_um is None else self.nwell_height_um
+
+    @property
+    def pwell_half_um(self) -> float:
+        """Height of a core row's p-well half, um."""
+        return self.row_height_um - self.nwell_half_um
 
 
 #: Supply net names: letters, digits and _ (safe in Liberty, LEF and SPICE without quoting).
@@ -186,6 +240,19 @@ _NET = r"^[A-Za-z][A-Za-z0-9_]{0,31}$"
 NET_NAME_DEFAULTS: dict[str, str] = {
     "core_power_net": "VDD", "core_ground_net": "VSS", "io_power_net": "VDDIO", "io_ground_net": "VSSIO",
 }
+
+
+#: Names of the built-in rails; further rails are named in ``[supplies.named.<name>]``.
+BUILT_IN_RAILS: tuple[str, ...] = ("core", "io")
+_RAIL_NAME = re.compile(r"^[a-z][a-z0-9_]{0,23}$")
+
+
+class NamedSupply(StrictModel):
+    """A supply rail beyond core and io that cells may decouple (``[supplies.named.<name>]``)."""
+
+    voltage_V: float = _f(0.3, 12, "rail voltage, V", gt=True)
+    power_net: str = Field(pattern=_NET, description="net name of the rail (Liberty pg_pin, LEF pin)")
+    ground_net: str = Field("VSS", pattern=_NET, description="net name of the rail's ground")
 
 
 class Supplies(StrictModel):
@@ -199,22 +266,71 @@ class Supplies(StrictModel):
                               description="net name of the I/O supply rail (cells on the io oxide)")
     io_ground_net: str = Field(NET_NAME_DEFAULTS["io_ground_net"], pattern=_NET,
                                description="net name of the ground rail of io-oxide cells")
+    named: dict[str, NamedSupply] = Field(default_factory=dict, description="further rails by name "
+                                          "(lower-case letters, digits, _), which cells may name as their rail")
 
     @model_serializer(mode="wrap")
-    def _canonical(self, handler: SerializerFunctionWrapHandler) -> dict[str, Any]:
+    def _canonical(self, handler: SerializerFunctionWrapHandler, info: SerializationInfo) -> dict[str, Any]:
         # Net names do not change any computed number: left out of the dump (and so of the deck's
         # content hash) while at their defaults, so decks written before they existed keep their hash.
-        data = dict(handler(self))
-        for name, default in NET_NAME_DEFAULTS.items():
-            if data.get(name) == default:
-                del data[name]
-        return data
+        return _without_defaults(dict(handler(self)), {**NET_NAME_DEFAULTS, "named": {}}, info)
 
-    def rail_nets(self, oxide: str) -> tuple[str, str]:
-        """(power, ground) net names of the rails a cell on ``oxide`` connects to."""
-        if oxide == "io":
+    def rail_names(self) -> tuple[str, ...]:
+        """Every rail a cell may name: core, io, then the named rails in file order."""
+        return (*BUILT_IN_RAILS, *self.named)
+
+    def rail_nets(self, rail: str) -> tuple[str, str]:
+        """(power, ground) net names of ``rail`` ("core", "io" or a named rail); KeyError if unknown."""
+        if rail == "io":
             return self.io_power_net, self.io_ground_net
-        return self.core_power_net, self.core_ground_net
+        if rail == "core":
+            return self.core_power_net, self.core_ground_net
+        named = self.named[rail]
+        return named.power_net, named.ground_net
+
+    def voltage(self, rail: str) -> float:
+        """Nominal voltage of ``rail``, V; KeyError if the deck has no such rail."""
+        if rail == "io":
+            return self.io_V
+        if rail == "core":
+            return self.core_V
+        return self.named[rail].voltage_V
+
+
+class ResistanceTempco(StrictModel):
+    """First-order temperature coefficients of the deck's resistances, one per kind.
+
+    R(T) = R(T0) (1 + alpha (T - T0)) at each corner's temperature T, with the resistances
+    given at T0 (``reference_temperature_C``). Channel resistance is not listed: it follows the
+    mobility's own temperature law.
+    """
+
+    reference_temperature_C: float | None = _f(-55, 200, "temperature at which the deck gives its "
+                                               "resistances, degC; omitted: the deck's "
+                                               "reference_temperature_C", default=None)
+    gate_sheet_ppm_per_K: float = _f(-5000, 10000, "resistances.gate_sheet_ohm_per_sq, ppm/K", default=0.0)
+    diffusion_sheet_ppm_per_K: float = _f(-5000, 10000, "resistances.diffusion_sheet_ohm_per_sq, ppm/K",
+                                          default=0.0)
+    contact_ppm_per_K: float = _f(-5000, 10000, "resistances.contact_ohm, ppm/K", default=0.0)
+    metal_sheet_ppm_per_K: float = _f(-5000, 10000, "sheet_ohm_per_sq of every [[metals]] layer, ppm/K",
+                                      default=0.0)
+    via_ppm_per_K: float = _f(-5000, 10000, "via_below_ohm of every [[metals]] layer, ppm/K", default=0.0)
+    well_sheet_ppm_per_K: float = _f(-5000, 20000, "wells.nwell_sheet_ohm_per_sq and "
+                                     "wells.pwell_sheet_ohm_per_sq, ppm/K", default=0.0)
+
+    def paths(self, deck: "Deck") -> dict[str, float]:
+        """Dotted deck path of every resistance -> its coefficient, 1/K (non-zero ones only)."""
+        per_kind = {
+            "resistances.gate_sheet_ohm_per_sq": self.gate_sheet_ppm_per_K,
+            "resistances.diffusion_sheet_ohm_per_sq": self.diffusion_sheet_ppm_per_K,
+            "resistances.contact_ohm": self.contact_ppm_per_K,
+            "wells.nwell_sheet_ohm_per_sq": self.well_sheet_ppm_per_K,
+            "wells.pwell_sheet_ohm_per_sq": self.well_sheet_ppm_per_K,
+        }
+        for i in range(len(deck.metals)):
+            per_kind[f"metals[{i}].sheet_ohm_per_sq"] = self.metal_sheet_ppm_per_K
+            per_kind[f"metals[{i}].via_below_ohm"] = self.via_ppm_per_K
+        return {path: to_si(ppm, "ppm/K") for path, ppm in per_kind.items() if ppm != 0.0}
 
 
 class Corner(StrictModel):
@@ -237,6 +353,22 @@ class Deck(StrictModel):
     layout: Layout
     supplies: Supplies
     corners: dict[str, Corner] = Field(min_length=1)
+    resistance_tempco: ResistanceTempco = ResistanceTempco()
+
+    @model_serializer(mode="wrap")
+    def _canonical(self, handler: SerializerFunctionWrapHandler, info: SerializationInfo) -> dict[str, Any]:
+        # left out of the dump (and the content hash) while every coefficient is zero
+        return _without_defaults(dict(handler(self)), {"resistance_tempco": ResistanceTempco().model_dump()}, info)
+
+    def full_dump(self) -> dict[str, Any]:
+        """Every field as JSON data, defaults included (the paths corners and what-ifs may name)."""
+        return self.model_dump(mode="json", context=FULL_DUMP)
+
+    @property
+    def resistance_reference_C(self) -> float:
+        """Temperature at which the deck's resistances are given, degC."""
+        t0 = self.resistance_tempco.reference_temperature_C
+        return self.reference_temperature_C if t0 is None else t0
 
     @model_validator(mode="after")
     def _core_required(self) -> "Deck":
@@ -281,6 +413,57 @@ class Deck(StrictModel):
         for corner_name in self.corners:
             if not corner_name.replace("_", "").replace("-", "").isalnum():
                 problems.append((f"corners.{corner_name}", corner_name, "corner names use letters, digits, _ and -"))
+        problems += self._row_structure_problems()
+        problems += self._named_supply_problems()
+        problems += self._tempco_problems()
+        return problems
+
+    # --- rules of the row structure, named rails and resistance temperature coefficients -------
+    def _row_structure_problems(self) -> list[tuple[str, object, str]]:
+        problems: list[tuple[str, object, str]] = []
+        lay = self.layout
+        if lay.nwell_height_um is not None and lay.nwell_height_um >= lay.row_height_um:
+            problems.append(("layout.nwell_height_um", lay.nwell_height_um,
+                             f"must be less than row_height_um ({lay.row_height_um:g} um): the p-well "
+                             "half needs room"))
+        for i, m in enumerate(self.metals):
+            if m.min_width_nm + m.width_bias_nm <= 0:
+                problems.append((f"metals[{i}].width_bias_nm", m.width_bias_nm,
+                                 f"leaves no line: must be > -{m.min_width_nm:g} nm (min_width_nm)"))
+            if m.min_space_nm - m.width_bias_nm <= 0:
+                problems.append((f"metals[{i}].width_bias_nm", m.width_bias_nm,
+                                 f"closes the space: must be < {m.min_space_nm:g} nm (min_space_nm)"))
+        return problems
+
+    def _named_supply_problems(self) -> list[tuple[str, object, str]]:
+        problems: list[tuple[str, object, str]] = []
+        s = self.supplies
+        powers = {s.core_power_net, s.io_power_net}
+        grounds = {s.core_ground_net, s.io_ground_net}
+        for name, rail in s.named.items():
+            where = f"supplies.named.{name}"
+            if name in BUILT_IN_RAILS or not _RAIL_NAME.match(name):
+                problems.append((where, name, "rail names use lower-case letters, digits and _ (start "
+                                 "with a letter, at most 24) and may not be " + " or ".join(BUILT_IN_RAILS)))
+            if rail.power_net in grounds | {r.ground_net for r in s.named.values()}:
+                problems.append((f"{where}.power_net", rail.power_net, "a supply net cannot also be a ground net"))
+            if rail.ground_net in powers:
+                problems.append((f"{where}.ground_net", rail.ground_net, "a ground net cannot also be a supply net"))
+        return problems
+
+    def _tempco_problems(self) -> list[tuple[str, object, str]]:
+        problems: list[tuple[str, object, str]] = []
+        tc = self.resistance_tempco
+        for field_name in ResistanceTempco.model_fields:
+            if not field_name.endswith("_ppm_per_K"):
+                continue
+            alpha = to_si(getattr(tc, field_name), "ppm/K")
+            for corner_name, corner in self.corners.items():
+                factor = 1.0 + alpha * (corner.temperature_C - self.resistance_reference_C)
+                if factor <= 0:
+                    problems.append((f"resistance_tempco.{field_name}", getattr(tc, field_name),
+                                     f"resistance would not be positive at corner {corner_name} "
+                                     f"({corner.temperature_C:g} degC): 1 + alpha (T - T0) = {factor:.3g}"))
         return problems
 
     @property
@@ -296,9 +479,9 @@ class Deck(StrictModel):
                 return m
         raise KeyError(name)
 
-    def supply_for(self, oxide: str) -> float:
-        """Nominal supply seen by a cell of that oxide flavour, V."""
-        return self.supplies.io_V if oxide == "io" else self.supplies.core_V
+    def supply_for(self, rail: str) -> float:
+        """Nominal voltage of a rail ("core", "io" or a named rail), V; KeyError if unknown."""
+        return self.supplies.voltage(rail)
 
     # --- conveniences implemented in celllab.deck.load ----------------------------------
     @property

@@ -16,6 +16,10 @@ datasheet   ``render_datasheet_html(cell, deck_name)``   ``write_datasheet(path,
             ``render_datasheet_pdf(cell, deck_name)``    ``write_datasheet_pdf(path, ...)``
 Liberty     ``render_liberty(cells, deck, corner)``      ``write_liberty(path, ...)``
 LEF         ``render_lef(cells, deck)``                  ``write_lef(path, ...)``
+block plan  ``render_fill_csv(plan)``, ``render_fill_    ``write_plan_files(plan,
+            json``, ``render_plan_html``, ``render_      folder)``
+            impedance_csv``, ``render_impedance_
+            touchstone`` (``export.plan``)
 ==========  ===========================================  ============================
 
 The library views (Liberty: one library per corner, ``write_liberty_set``; LEF: technology
@@ -73,6 +77,12 @@ _LAZY: dict[str, str] = {
     "lef_grid": "lef",
     "placement_class": "lef",
     "stored_deck": "catalog_deck",
+    "render_fill_csv": "plan",
+    "render_fill_json": "plan",
+    "render_plan_html": "plan",
+    "render_impedance_csv": "plan",
+    "render_impedance_touchstone": "plan",
+    "write_plan_files": "plan",
 }
 
 __all__ = [  # noqa: PLE0604 - the lazily loaded names are listed in _LAZY

@@ -145,11 +145,7 @@ def rows_from_cells(
                 "family": cell.family,
                 "topology": cell.topology,
                 "oxide": cell.oxide,
-                "area_um2": cell.area_um2,
-                "width_sites": cell.width_sites,
-                "height_rows": cell.height_rows,
-                "gate_area_um2": cell.gate_area_um2,
-                "esd_safe": cell.esd_safe,
+                **{c: getattr(cell, c) for c in CELL_COLUMNS},
             }
             row.update({m: result.metrics.get(m) for m in METRIC_NAMES})
             row["flags"] = list(result.flags)

@@ -255,7 +255,7 @@ def _cell_table(cell: CellResult) -> str:
         ("ESD safe (no gate tied to a rail)", "yes" if cell.esd_safe else "no"),
     ]
     rows += [
-        (f"{name} ({info.unit})", _fmt(getattr(cell, name)))
+        (f"{name} ({info.unit})" if info.unit else name, _fmt(getattr(cell, name)))
         for name, info in CELL_COLUMNS.items()
         if name != "esd_safe"
     ]

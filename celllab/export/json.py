@@ -109,6 +109,8 @@ def _cell(cell: CellResult, include_curves: bool) -> dict[str, Any]:
         "family": cell.family,
         "topology": cell.topology,
         "oxide": cell.oxide,
+        "placement": cell.placement,
+        "rail": cell.rail,
         "geometry": _plain(cell.geometry),
         "area_um2": finite_or_none(cell.area_um2),
         "width_sites": int(cell.width_sites),

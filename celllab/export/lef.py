@@ -304,7 +304,20 @@ def macro_view(cell: CellResult, deck: Any, grid: LefGrid) -> MacroView:
     site_w, row_h = grid.units(lay.site_width_um), grid.units(lay.row_height_um)
     width, height = spec.width_sites * site_w, spec.height_rows * row_h
     half_rail = grid.units(lay.rail_width_um / 2)
-    power, ground = deck.supplies.rail_nets(cell.oxide)
+    try:
+        power, ground = deck.supplies.rail_nets(cell.rail)
+    except KeyError:
+        raise ExportError(
+            [
+                Problem(
+                    f"cell {cell.name}",
+                    "rail",
+                    "the deck has no such supply rail; allowed: "
+                    + ", ".join(deck.supplies.rail_names()),
+                    cell.rail,
+                )
+            ]
+        ) from None
     rails: dict[str, list[Rect]] = {power: [], ground: []}
     for k in range(spec.height_rows + 1):
         y = k * row_h

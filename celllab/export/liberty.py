@@ -6,7 +6,8 @@ per corner (``<deck>_<corner>.lib``). Each file holds:
 
 * the library units (``time_unit``, ``voltage_unit``, ``current_unit``,
   ``pulling_resistance_unit``, ``leakage_power_unit``, ``capacitive_load_unit``),
-* ``voltage_map`` entries for the supply and ground nets named in the deck's ``[supplies]``,
+* ``voltage_map`` entries for the supply and ground nets of the rails the cells decouple
+  (each cell's ``rail``: core, io or a named rail of the deck's ``[supplies]``),
 * one ``operating_conditions`` group named after the corner (``process : 1`` - the corner's
   process is described by its name, not by a derating factor - and the corner's temperature
   and core supply) and ``default_operating_conditions``,
@@ -190,8 +191,20 @@ def _cell_corner(cell: CellResult, corner: str) -> CornerResult:
 def _cell_lines(
     cell: CellResult, result: CornerResult, deck_at_corner: Any, problems: list[Problem]
 ) -> list[str]:
-    power, ground = deck_at_corner.supplies.rail_nets(cell.oxide)
-    expected_V = deck_at_corner.supply_for(cell.oxide)
+    try:
+        power, ground = deck_at_corner.supplies.rail_nets(cell.rail)
+        expected_V = deck_at_corner.supply_for(cell.rail)
+    except KeyError:
+        problems.append(
+            Problem(
+                f"cell {cell.name}",
+                "rail",
+                "the deck has no such supply rail; allowed: "
+                + ", ".join(deck_at_corner.supplies.rail_names()),
+                cell.rail,
+            )
+        )
+        return []
     if not math.isclose(result.supply_V, expected_V, rel_tol=1e-9, abs_tol=1e-12):
         problems.append(
             Problem(
@@ -311,12 +324,12 @@ def render_liberty(
     results = [_cell_corner(c, corner) for c in cells]
     supplies = at_corner.supplies
     corner_def = deck.corners[corner]
-    oxides = {c.oxide for c in cells} | {"core"}
+    rails = {c.rail for c in cells} | {"core"}
     voltages: dict[str, float] = {}
-    for oxide in ("core", "io"):
-        if oxide in oxides and oxide in deck.oxides:
-            power, ground = supplies.rail_nets(oxide)
-            voltages.setdefault(power, at_corner.supply_for(oxide))
+    for rail in supplies.rail_names():  # the rails the cells sit on, in the deck's order
+        if rail in rails:
+            power, ground = supplies.rail_nets(rail)
+            voltages.setdefault(power, at_corner.supply_for(rail))
             voltages.setdefault(ground, 0.0)
     today = date or datetime.date.today().isoformat()
     lib = library_name(deck.name, corner)

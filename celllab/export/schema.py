@@ -30,6 +30,7 @@ SCHEMA_DIALECT = "https://json-schema.org/draft/2020-12/schema"
 
 from celllab.cells.schema import OxideChoice as Oxide  # noqa: E402  (one closed set, defined once)
 from celllab.topologies import REGISTRY  # noqa: E402
+from celllab.topologies.geometry import Placement  # noqa: E402
 
 #: The topologies known when the export format was loaded (an enum in the JSON Schema).
 Topology = Literal[REGISTRY.names()]  # type: ignore[valid-type]
@@ -120,6 +121,8 @@ class CellExport(StrictModel):
     family: str
     topology: Topology
     oxide: Oxide
+    placement: Placement = Field(description="where the cell sits: core_row or open_region")
+    rail: str = Field(description="supply rail the cell decouples and was characterized at")
     geometry: dict[str, Any] = Field(description="resolved geometry in um, sites, rows")
     area_um2: Number = Field(description="cell footprint area [um^2]")
     width_sites: int = Field(description="cell width [placement sites]")

@@ -258,3 +258,33 @@ def mos_mom_stack_circuit(
         (Element("L", "l_loop", "vdd", f"{name}_in", _values(l_loop)),) if _nonzero(l_loop) else ()
     )
     return parallel(name, (mos, mom), series)
+
+
+def tied_cmos_circuit(
+    nmos: Netlist,
+    pmos: Netlist,
+    l_loop: ArrayLike = 0.0,
+    name: str = "tied_cmos",
+) -> Netlist:
+    """Tied NMOS and PMOS decaps side by side in one cell, in parallel behind one loop inductance.
+
+    ::
+
+        vdd ──L_loop── tied_cmos_in ─┬─ [NMOS mos_decap_circuit without L] ─┐
+                                     └─ [PMOS mos_decap_circuit without L] ─┴─ vss
+
+    Parameters
+    ----------
+    nmos, pmos : Netlist   each device's `mos_decap_circuit` built with ``l_loop = 0`` and named
+                           ``nmos`` / ``pmos`` (element and node names get that prefix)
+    l_loop : array_like    loop inductance of the cell's rail pair, H
+
+    Notes
+    -----
+    Each device has the same two-port impedance whichever rail its gate is on (see
+    `mos_decap_circuit`), so the cell is the two one-device circuits in parallel.
+    """
+    series = (
+        (Element("L", "l_loop", "vdd", f"{name}_in", _values(l_loop)),) if _nonzero(l_loop) else ()
+    )
+    return parallel(name, (nmos, pmos), series)

@@ -240,29 +240,113 @@ class Netlist:
         return self.with_values(updates)
 
     def parallel_copies(self, count: ArrayLike) -> Netlist:
-        """``count`` identical copies in parallel: R and L divided, C multiplied by count."""
-        m = np.asarray(count, dtype=float)
-        new = []
-        for el in self.elements:
-            if el.kind == "C":
-                new.append(replace(el, value=_as_values(np.asarray(el.value) * m)))
-            elif el.kind == "RCLINE":
-                new.append(
-                    replace(
-                        el,
-                        value=_as_values(np.asarray(el.value) / m),
-                        c_total=_as_values(np.asarray(el.c_total) * m),
-                    )
-                )
-            else:
-                new.append(replace(el, value=_as_values(np.asarray(el.value) / m)))
-        return Netlist(self.name, tuple(new), self.ports)
+        """``count`` identical copies in parallel; see `scale_parallel`."""
+        return scale_parallel(self, count)
 
     def _check_names(self, names: Mapping[str, object]) -> None:
         known = {el.name for el in self.elements}
         unknown = sorted(set(names) - known)
         if unknown:
             raise KeyError(f"netlist {self.name}: no element(s) {unknown}; known: {sorted(known)}")
+
+
+def scale_parallel(netlist: Netlist, count: ArrayLike) -> Netlist:
+    """``count`` identical copies of a netlist in parallel between its ports, as one netlist.
+
+    Parameters
+    ----------
+    netlist : Netlist
+    count : array_like   copies, > 0 and finite: a scalar or (n_variant,) (need not be an
+                         integer: a mean count over variants is allowed)
+
+    Returns
+    -------
+    Netlist   same elements and nodes: R and L divided by ``count``, C multiplied; an RCLINE
+              gets R / count and C * count
+
+    Notes
+    -----
+    Exact for copies driven only at the shared ports: by symmetry every copy's internal node
+    k sits at the same voltage, so the copies' nodes k can be merged, and N equal elements in
+    parallel are one element of admittance N Y (an RC line of N R-values in parallel is a line
+    of R/N per length and N C per length, whose propagation constant sqrt(j w R C) is
+    unchanged). Each element's admittance is therefore multiplied by N and Z_out = Z_cell / N
+    at every frequency.
+    """
+    m = np.asarray(count, dtype=float)
+    if m.ndim > 1 or np.any(~np.isfinite(m)) or np.any(m <= 0):
+        raise ValueError(f"count = {count!r} -> must be finite and > 0 (scalar or (n_variant,))")
+    new = []
+    for el in netlist.elements:
+        if el.kind == "C":
+            new.append(replace(el, value=_as_values(np.asarray(el.value) * m)))
+        elif el.kind == "RCLINE":
+            new.append(
+                replace(
+                    el,
+                    value=_as_values(np.asarray(el.value) / m),
+                    c_total=_as_values(np.asarray(el.c_total) * m),
+                )
+            )
+        else:
+            new.append(replace(el, value=_as_values(np.asarray(el.value) / m)))
+    return Netlist(netlist.name, tuple(new), netlist.ports)
+
+
+def structure_key(netlist: Netlist) -> tuple[object, ...]:
+    """What must match for netlists to be stacked as variants: ports, element kinds, names,
+    nodes and line end conditions (not values)."""
+    return (
+        netlist.ports,
+        tuple(
+            (el.kind, el.name, el.node_a, el.node_b, el.node_far, el.contacted_ends)
+            for el in netlist.elements
+        ),
+    )
+
+
+def stack_variants(name: str, netlists: Sequence[Netlist]) -> Netlist:
+    """Netlists of one structure stacked into one netlist whose variants are theirs in order.
+
+    Parameters
+    ----------
+    name : str
+    netlists : sequence of Netlist   same `structure_key`; each with any variant count
+
+    Returns
+    -------
+    Netlist   n_variant = sum of the parts' variant counts; element values (n_variant,)
+
+    Raises
+    ------
+    ValueError   when the structures differ (names the first netlist that differs)
+    """
+    if not netlists:
+        raise ValueError("stack_variants needs at least one netlist")
+    key = structure_key(netlists[0])
+    for other in netlists[1:]:
+        if structure_key(other) != key:
+            raise ValueError(
+                f"netlist {other.name} differs in structure from {netlists[0].name}: "
+                "cannot stack them as variants"
+            )
+    counts = [nl.n_variant for nl in netlists]
+    single = all(n == 1 for n in counts)
+
+    def column(values: list[FloatArray | float | None]) -> FloatArray:
+        if single:  # the common case (one circuit per cell and corner): no broadcasting
+            return np.array([v if isinstance(v, float) else float(np.asarray(v).reshape(-1)[0])
+                             for v in values], dtype=float)
+        return np.concatenate(
+            [np.broadcast_to(np.asarray(v, dtype=float), (n,)) for v, n in zip(values, counts)]
+        )
+
+    elements = []
+    for k, el in enumerate(netlists[0].elements):
+        value = column([nl.elements[k].value for nl in netlists])
+        c_total = None if el.c_total is None else column([nl.elements[k].c_total for nl in netlists])
+        elements.append(replace(el, value=value, c_total=c_total))
+    return Netlist(name, tuple(elements), netlists[0].ports)
 
 
 def parallel(name: str, parts: Sequence[Netlist], series: Sequence[Element] = ()) -> Netlist:
@@ -380,6 +464,110 @@ def _dc_components(netlist: Netlist) -> dict[str, str]:
     return {n: find(n) for n in parent}
 
 
+@dataclass(frozen=True)
+class _Layout:
+    """Unknown ordering of one netlist's MNA system (see `solve_impedance`, Notes).
+
+    Node voltages are the potential of their DC-connected component plus a local offset;
+    offsets and branch currents come first, component potentials last.
+    """
+
+    root: dict[str, str]
+    index_offset: dict[str, int]
+    index_potential: dict[str, int]
+    branch_ids: dict[int, int]
+    n_off: int
+    size: int
+
+    def incidence(self, coeffs: Mapping[str, int]) -> dict[int, int]:
+        """Node-space coefficients -> unknown-space coefficients (exact integer arithmetic)."""
+        out: dict[int, int] = {}
+        for node, c in coeffs.items():
+            if node in self.index_offset:
+                k = self.index_offset[node]
+                out[k] = out.get(k, 0) + c
+            r = self.root[node]
+            if r in self.index_potential:
+                k = self.index_potential[r]
+                out[k] = out.get(k, 0) + c
+        return {k: v for k, v in out.items() if v != 0}
+
+
+def _layout(netlist: Netlist) -> _Layout:
+    root = _dc_components(netlist)
+    ground = netlist.ports[1]
+    nodes = netlist.node_names()
+    offsets = [n for n in nodes if root[n] != n]
+    branch_elements = [
+        el
+        for el in netlist.elements
+        if el.kind == "L" or (el.kind == "R" and np.any(np.asarray(el.value) < _BRANCH_OHM))
+    ]
+    potentials = [n for n in nodes if root[n] == n and root[n] != root[ground]]
+    n_off, n_br = len(offsets), len(branch_elements)
+    return _Layout(
+        root=root,
+        index_offset={n: k for k, n in enumerate(offsets)},
+        index_potential={n: n_off + n_br + k for k, n in enumerate(potentials)},
+        branch_ids={id(el): k for k, el in enumerate(branch_elements)},
+        n_off=n_off,
+        size=n_off + n_br + len(potentials),
+    )
+
+
+def _assemble(netlist: Netlist, layout: _Layout, omega: FloatArray) -> ComplexArray:
+    """MNA matrix of every element at angular frequencies ``omega`` (n_var, n_freq) rad/s."""
+    size = layout.size
+    y_mat = np.zeros(omega.shape + (size, size), dtype=complex)
+    for el in netlist.elements:
+        val = np.asarray(el.value, dtype=float).reshape(-1, 1)
+        pair = layout.incidence({el.node_a: 1, el.node_b: -1})
+        if id(el) in layout.branch_ids:
+            # V_a - V_b - Z_branch I = 0; I leaves node a and enters node b
+            k = layout.n_off + layout.branch_ids[id(el)]
+            for p, g in pair.items():
+                y_mat[..., p, k] += g
+                y_mat[..., k, p] += g
+            y_mat[..., k, k] -= val * (1j * omega if el.kind == "L" else 1.0)
+        elif el.kind == "R":
+            _stamp(y_mat, pair, 1.0 / val)
+        elif el.kind == "C":
+            _stamp(y_mat, pair, 1j * omega * val)
+        elif el.node_far is None:
+            c = np.asarray(el.c_total, dtype=float).reshape(-1, 1)
+            _stamp(y_mat, pair, 1.0 / rc_line_impedance(val, c, omega, el.contacted_ends))
+        else:
+            # 3-terminal line = odd mode between the ends + even mode ends-to-plate:
+            # Y = (y_o/2) (e_a - e_f)(..)^T + (y_e/2) (e_a + e_f - 2 e_b)(..)^T
+            c = np.asarray(el.c_total, dtype=float).reshape(-1, 1)
+            y_even, y_odd = rc_line_even_odd_admittances(val, c, omega)
+            _stamp(y_mat, layout.incidence({el.node_a: 1, el.node_far: -1}), 0.5 * y_odd)
+            _stamp(
+                y_mat,
+                layout.incidence({el.node_a: 1, el.node_far: 1, el.node_b: -2}),
+                0.5 * y_even,
+            )
+    return y_mat
+
+
+def _frequencies(freq_Hz: ArrayLike) -> FloatArray:
+    f = np.asarray(freq_Hz, dtype=float)
+    if f.ndim == 1:
+        f = f[None, :]
+    if f.ndim != 2:
+        raise ValueError(f"freq_Hz has shape {f.shape} -> must be (n_freq,) or (n_variant, n_freq)")
+    if np.any(~(f > 0)):
+        raise ValueError("freq_Hz must be > 0 everywhere")
+    return f
+
+
+def _variant_count(*rows: int) -> int:
+    n_var = max(rows)
+    if any(r not in (1, n_var) for r in rows):
+        raise ValueError(f"variant counts {sorted(set(rows))} do not broadcast")
+    return n_var
+
+
 def solve_impedance(netlist: Netlist, freq_Hz: ArrayLike) -> ComplexArray:
     """Impedance between the two ports of every variant at every frequency.
 
@@ -405,85 +593,112 @@ def solve_impedance(netlist: Netlist, freq_Hz: ArrayLike) -> ComplexArray:
     relative precision. Every component other than the reference one must reach the network
     through some element at each frequency (a floating node makes the matrix singular).
     """
-    f = np.asarray(freq_Hz, dtype=float)
-    if f.ndim == 1:
-        f = f[None, :]
-    if f.ndim != 2:
-        raise ValueError(f"freq_Hz has shape {f.shape} -> must be (n_freq,) or (n_variant, n_freq)")
-    if np.any(~(f > 0)):
-        raise ValueError("freq_Hz must be > 0 everywhere")
-    n_var = max(netlist.n_variant, f.shape[0])
-    if f.shape[0] not in (1, n_var) or netlist.n_variant not in (1, n_var):
+    f = _frequencies(freq_Hz)
+    try:
+        n_var = _variant_count(netlist.n_variant, f.shape[0])
+    except ValueError:
         raise ValueError(
             f"freq_Hz rows {f.shape[0]} and netlist variants {netlist.n_variant} do not broadcast"
-        )
-    root = _dc_components(netlist)
+        ) from None
+    z = solve_transfer(netlist, f, [netlist.ports[0]])
+    return np.asarray(np.broadcast_to(z[..., 0, 0], (n_var, f.shape[1])), dtype=complex)
+
+
+def solve_transfer(
+    netlist: Netlist,
+    freq_Hz: ArrayLike,
+    drive_nodes: Sequence[str],
+    observe_nodes: Sequence[str] | None = None,
+    shunt_admittance: Mapping[str, ArrayLike] | None = None,
+) -> ComplexArray:
+    """Transfer impedances V(observe) / I(drive) between nodes, all variants and frequencies.
+
+    Parameters
+    ----------
+    netlist : Netlist
+    freq_Hz : array_like          Hz, > 0: (n_freq,) or (n_variant, n_freq)
+    drive_nodes : sequence of str   nodes receiving, one at a time, a 1 A current from the
+                                  reference node ``netlist.ports[1]``
+    observe_nodes : sequence of str, optional   nodes whose voltage to the reference is read;
+                                  default ``drive_nodes`` (then the result is the Z-matrix)
+    shunt_admittance : mapping node -> array_like, optional
+                                  extra admittance, S, from a node to the reference, of shape
+                                  (n_freq,) or (n_variant, n_freq): a one-port sub-network
+                                  already reduced to its admittance (exact: a two-terminal
+                                  sub-network acts on the rest only through its admittance)
+
+    Returns
+    -------
+    ndarray   complex ohm, shape (n_variant, n_freq, n_observe, n_drive);
+              ``[..., i, j]`` = V(observe_i) / I(drive_j)
+
+    Notes
+    -----
+    The same modified nodal analysis and unknown ordering as `solve_impedance` (which is the
+    1 x 1 case at the driven port), with one right-hand side per driven node. The Z-matrix is
+    symmetric (reciprocity of R, L, C and RC-line networks), which the tests check.
+    """
+    f = _frequencies(freq_Hz)
+    drives = list(drive_nodes)
+    observes = drives if observe_nodes is None else list(observe_nodes)
+    known = set(netlist.node_names())
+    shunts = {}
+    for node, adm in (shunt_admittance or {}).items():
+        a = np.asarray(adm, dtype=complex)
+        a = a[None, :] if a.ndim == 1 else a
+        if a.ndim != 2 or a.shape[1] != f.shape[1]:
+            raise ValueError(
+                f"shunt admittance at {node!r} has shape {np.shape(adm)} -> must be (n_freq,) "
+                f"or (n_variant, n_freq) with n_freq = {f.shape[1]}"
+            )
+        shunts[node] = a
+    unknown = sorted({*drives, *observes, *shunts} - known)
+    if unknown:
+        raise ValueError(f"netlist {netlist.name}: no node(s) {unknown}")
+    if not drives:
+        raise ValueError("drive_nodes is empty")
+    n_var = _variant_count(netlist.n_variant, f.shape[0], *(a.shape[0] for a in shunts.values()))
+    layout = _layout(netlist)
     ground = netlist.ports[1]
-    nodes = netlist.node_names()
-    offsets = [n for n in nodes if root[n] != n]
-    branch_elements = [
-        el
-        for el in netlist.elements
-        if el.kind == "L" or (el.kind == "R" and np.any(np.asarray(el.value) < _BRANCH_OHM))
-    ]
-    branch_ids = {id(el): k for k, el in enumerate(branch_elements)}
-    potentials = [n for n in nodes if root[n] == n and root[n] != root[ground]]
-    n_off, n_br = len(offsets), len(branch_elements)
-    index_offset = {n: k for k, n in enumerate(offsets)}
-    index_potential = {n: n_off + n_br + k for k, n in enumerate(potentials)}
-
-    def incidence(coeffs: dict[str, int]) -> dict[int, int]:
-        """Node-space coefficients -> unknown-space coefficients (exact integer arithmetic)."""
-        out: dict[int, int] = {}
-        for node, c in coeffs.items():
-            if node in index_offset:
-                out[index_offset[node]] = out.get(index_offset[node], 0) + c
-            r = root[node]
-            if r in index_potential:
-                out[index_potential[r]] = out.get(index_potential[r], 0) + c
-        return {k: v for k, v in out.items() if v != 0}
-
-    size = n_off + n_br + len(potentials)
-    drive = incidence({netlist.ports[0]: 1})
-    n_freq = f.shape[1]
+    drive_vectors = [layout.incidence({n: 1}) if n != ground else {} for n in drives]
+    observe_vectors = [layout.incidence({n: 1}) if n != ground else {} for n in observes]
+    shunt_vectors = [(layout.incidence({n: 1, ground: -1}), a) for n, a in shunts.items()]
+    size, n_freq = layout.size, f.shape[1]
+    out = np.zeros((n_var, n_freq, len(observes), len(drives)), dtype=complex)
+    if size == 0:
+        return out
     block = max(1, _MAX_BLOCK_ENTRIES // max(1, n_var * size * size))
-    z = np.empty((n_var, n_freq), dtype=complex)
     for start in range(0, n_freq, block):
         width = min(block, n_freq - start)
         omega = 2.0 * np.pi * np.broadcast_to(f[:, start : start + width], (n_var, width))
-        y_mat = np.zeros(omega.shape + (size, size), dtype=complex)
-        for el in netlist.elements:
-            val = np.asarray(el.value, dtype=float).reshape(-1, 1)
-            pair = incidence({el.node_a: 1, el.node_b: -1})
-            if id(el) in branch_ids:
-                # V_a - V_b - Z_branch I = 0; I leaves node a and enters node b
-                k = n_off + branch_ids[id(el)]
-                for p, g in pair.items():
-                    y_mat[..., p, k] += g
-                    y_mat[..., k, p] += g
-                y_mat[..., k, k] -= val * (1j * omega if el.kind == "L" else 1.0)
-            elif el.kind == "R":
-                _stamp(y_mat, pair, 1.0 / val)
-            elif el.kind == "C":
-                _stamp(y_mat, pair, 1j * omega * val)
-            elif el.node_far is None:
-                c = np.asarray(el.c_total, dtype=float).reshape(-1, 1)
-                _stamp(y_mat, pair, 1.0 / rc_line_impedance(val, c, omega, el.contacted_ends))
-            else:
-                # 3-terminal line = odd mode between the ends + even mode ends-to-plate:
-                # Y = (y_o/2) (e_a - e_f)(..)^T + (y_e/2) (e_a + e_f - 2 e_b)(..)^T
-                c = np.asarray(el.c_total, dtype=float).reshape(-1, 1)
-                y_even, y_odd = rc_line_even_odd_admittances(val, c, omega)
-                _stamp(y_mat, incidence({el.node_a: 1, el.node_far: -1}), 0.5 * y_odd)
-                _stamp(
-                    y_mat, incidence({el.node_a: 1, el.node_far: 1, el.node_b: -2}), 0.5 * y_even
-                )
-        rhs = np.zeros(omega.shape + (size, 1), dtype=complex)
-        for p, g in drive.items():
-            rhs[..., p, 0] = g
+        y_mat = _assemble(netlist, layout, omega)
+        for pair, adm in shunt_vectors:
+            _stamp(y_mat, pair, np.broadcast_to(adm[:, start : start + width], (n_var, width)))
+        rhs = np.zeros(omega.shape + (size, len(drives)), dtype=complex)
+        for j, vec in enumerate(drive_vectors):
+            for p, g in vec.items():
+                rhs[..., p, j] = g
         sol = np.linalg.solve(y_mat, rhs)
-        z[:, start : start + width] = sum(g * sol[..., p, 0] for p, g in drive.items())
-    return z
+        for i, vec in enumerate(observe_vectors):
+            for p, g in vec.items():
+                out[:, start : start + width, i, :] += g * sol[..., p, :]
+    return out
+
+
+def solve_z_matrix(
+    netlist: Netlist,
+    freq_Hz: ArrayLike,
+    nodes: Sequence[str],
+    shunt_admittance: Mapping[str, ArrayLike] | None = None,
+) -> ComplexArray:
+    """Z-matrix between ``nodes`` and the reference ``netlist.ports[1]``.
+
+    Returns
+    -------
+    ndarray   complex ohm, (n_variant, n_freq, k, k): diagonal = impedance each node sees,
+              off-diagonal = transfer impedance; see `solve_transfer`
+    """
+    return solve_transfer(netlist, freq_Hz, nodes, None, shunt_admittance)
 
 
 def _stamp(y_mat: ComplexArray, coeffs: dict[int, int], adm: NDArray[np.inexact[Any]]) -> None:

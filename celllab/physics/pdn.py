@@ -235,3 +235,39 @@ def exceeds_target(
     ratio = mag / np.asarray(z_target, dtype=float)[..., None]
     k = np.argmax(ratio, axis=-1)
     return np.take_along_axis(ratio, k[..., None], -1)[..., 0], np.asarray(freq, dtype=float)[k]
+
+
+def triangular_pulse_charge(
+    peak_current: ArrayLike, rise_time: ArrayLike, fall_time: ArrayLike
+) -> FloatArray:
+    """Charge of a triangular current pulse Q = I_peak (t_r + t_f) / 2, C.
+
+    Notes
+    -----
+    The area of a triangle; the switching load of a block modelled as a triangular current
+    pulse as in M. Popovich, A. V. Mezhiba, E. G. Friedman, *Power Distribution Networks with
+    On-Chip Decoupling Capacitors*, Springer 2008 (from memory). 1 A, 100 ps + 300 ps -> 200 pC.
+    """
+    return (
+        np.asarray(peak_current, dtype=float)
+        * (np.asarray(rise_time, dtype=float) + np.asarray(fall_time, dtype=float))
+        / 2.0
+    )
+
+
+def rise_time_bandwidth(rise_time: ArrayLike) -> FloatArray:
+    """Bandwidth of an edge, f = ln(9) / (2 pi t_r) ~ 0.35 / t_r, Hz.
+
+    Notes
+    -----
+    Exact for the 10-90 % rise of a single-pole response (t_r = ln(9) tau, f_3dB = 1/(2 pi tau));
+    the trade's 0.35 / t_r rule. 1 ns -> 349.7 MHz.
+    """
+    return np.log(9.0) / (2.0 * np.pi * np.asarray(rise_time, dtype=float))
+
+
+def capacitance_for_impedance(target_impedance: ArrayLike, frequency: ArrayLike) -> FloatArray:
+    """C with |1/(j omega C)| = Z at f: C = 1 / (2 pi f Z), F (1 ohm at 159.15 MHz -> 1 nF)."""
+    return 1.0 / (
+        2.0 * np.pi * np.asarray(frequency, dtype=float) * np.asarray(target_impedance, dtype=float)
+    )

@@ -1,184 +1,457 @@
-"""Choosing the fill: integer counts of decap cells that maximize capacitance in a block
-(SI: F, A; sites are counts).
+"""Choosing the fill: integer counts of decap cells per gap class and region, as a mixed-integer
+linear program solved by ``scipy.optimize.milp`` (HiGHS) (SI: F, A, m^2; counts are integers).
 
-The problem (a bounded integer knapsack with two resources and a cardinality limit)::
+Data: regions r, cells i, footprint types t (width x height; ``packing``), in-row gap classes
+g of region r(g) with N_g gaps and patterns p (a_{p,t} cells of type t per gap), open-slot
+classes o of region r(o) with N_o slots holding k_{o,i} copies of cell i each (one kind per
+slot). Per cell: leakage I_i (at the leakage corner), thin-oxide gate area A_i; per region
+and cell: useful capacitance C_{r,i} (C_eff at the region's frequency of interest).
 
-    maximize   sum_i n_i C_i
-    subject to sum_i n_i s_i <= S          (placement sites; s_i = width_sites x height_rows)
-               sum_i n_i I_i <= I_budget   (leakage current)
-               #{i : n_i > 0} <= K         (distinct cell kinds)
-               n_i >= 0 integer
+Variables (all integer except the shortfalls)::
 
-is solved as a mixed-integer linear program with ``scipy.optimize.milp`` (HiGHS branch and
-bound): one binary y_i per kind, linked by n_i <= U_i y_i with U_i = floor(S / s_i) (the most
-copies of kind i the sites allow, a valid "big M"), and sum y_i <= K.
+    x_{g,p} in [0, N_g]     gaps of class g packed with pattern p
+    n_{r,i} in [0, U_ri]    copies of cell i in the row gaps of region r
+    s_{o,i} in [0, N_o]     slots of class o filled with cell i
+    y_i in {0, 1}           cell i is used somewhere
+    copies_{r,i} = n_{r,i} + sum_{o in r} k_{o,i} s_{o,i}
 
-Dominated candidates are dropped first, which keeps the optimum: if cell a needs no more sites
-and no more leakage than cell b and gives at least its capacitance, replacing every copy of b
-by a copy of a keeps the fill feasible (no more sites, leakage or kinds) and loses no
-capacitance, so some optimum uses no b. Of identical cells the first is kept.
+Constraints::
+
+    sum_p x_{g,p} <= N_g                                 (gaps of each class)
+    sum_i s_{o,i} <= N_o                                 (slots of each class)
+    sum_{i of type t} n_{r,i} <= sum_{g in r, p} a_{p,t} x_{g,p}   (room of type t in r)
+    n_{r,i} <= R_{r,t(i)} y_i,  s_{o,i} <= N_o y_i       (big M from exact bounds: R_{r,t} is
+                                                          the most cells of type t the row
+                                                          gaps of region r hold)
+    sum_i y_i <= K                                       (distinct kinds)
+    sum_{r,i} I_i copies_{r,i} <= I_max                  (leakage at the leakage corner)
+    sum_{r,i} A_i copies_{r,i} <= A_max                  (thin-oxide gate area)
+    sum_i C_{r,i} copies_{r,i} >= T_r                    (region targets)
+    copies_{r,i} = 0 for cells a region may not take (ESD-safe-only regions, no fit)
+
+Objective: ``max_useful_cap`` maximizes sum_r w_r sum_i C_{r,i} copies_{r,i};
+``min_leakage`` minimizes sum I_i copies_{r,i} (targets must then be met). When the targets
+cannot all be met within the budgets, a first solve minimizes the total relative shortfall
+sum_r (T_r - C_r)^+ / T_r; the targets are then lowered to what that solve reached and the
+chosen objective is solved under them (the shortfall is reported).
+
+Dominated cells are dropped first, which keeps the optimum: if cell j has the same footprint
+as cell i (same type in the rows, the same copies in every open slot), may go wherever i may,
+gives at least i's useful capacitance in every region and leaks and wears no more, then
+replacing every copy of i by a copy of j keeps every constraint (no more kinds, leakage or
+oxide area, no less capacitance toward any target) and does not worsen either goal. Of
+identical cells the first is kept.
+
+Rows are scaled (HiGHS checks rows to an absolute tolerance and ignores tiny coefficients):
+gap, slot and link rows by their counts, budget and target rows by their largest coefficient
+(``fill_model``). The rounded solution is re-checked exactly and, if a rounded count
+overshoots a budget (possible only within the tolerance), re-solved with that budget
+tightened.
+
+Solving: a model of at most ``DIRECT_LIMIT`` variables, or one whose kind limit cannot bind,
+goes to HiGHS branch and bound as it is. A larger one first gets its LP relaxation (a bound
+on every fill) and K kinds from the LP-guided search of ``kinds``; the fill restricted to
+those kinds (patterns projected onto their footprints) is solved, by rounding its LP down (and
+topping up a target the rounding just missed) when that already lies within the requested gap
+of the bound, else by HiGHS. While the certified
+gap to the bound is above the requested one and time remains, the full model goes to HiGHS
+as well and the better fill is kept. ``FillSolution.mip_gap`` is the certified gap.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+import time
+from dataclasses import dataclass, field
+from typing import Literal
 
 import numpy as np
-from numpy.typing import ArrayLike, NDArray
-from scipy.optimize import Bounds, LinearConstraint, milp
+from numpy.typing import NDArray
 
-__all__ = ["LEAKAGE_TOLERANCE", "FillChoice", "choose_fill", "undominated"]
+from celllab.planner.fill_model import (
+    BUDGET_TOLERANCE,
+    Counts,
+    build_model,
+    extract,
+    round_down,
+    run_model,
+    top_up,
+    violations,
+)
+from celllab.planner.kinds import choose_kinds
+from celllab.planner.packing import undominated_patterns
 
-#: The leakage budget is met to this relative tolerance (HiGHS checks rows to ~1e-7; the
-#: solution is re-checked here and the budget tightened if a rounded count overshoots it).
-LEAKAGE_TOLERANCE = 1e-9
-_TIME_LIMIT_S = 60.0
+__all__ = [
+    "BUDGET_TOLERANCE",
+    "FillProblem",
+    "FillSolution",
+    "OpenClass",
+    "RowClass",
+    "DIRECT_LIMIT",
+    "FillTimeout",
+    "goal_value",
+    "relaxation_seconds",
+    "solve_fill",
+    "undominated_cells",
+]
+
+FloatArray = NDArray[np.float64]
+IntArray = NDArray[np.int64]
+BoolArray = NDArray[np.bool_]
+Goal = Literal["max_useful_cap", "min_leakage"]
+
+#: Models with more variables than this, and a kind limit that can bind, choose their kinds by
+#: the LP-guided search of ``kinds`` before the exact solve; smaller ones go to HiGHS directly.
+DIRECT_LIMIT = 2500
+#: A further HiGHS run is started only with at least this much of the time limit left, s.
+_MIN_RUN_S = 0.1
 
 
 @dataclass(frozen=True)
-class FillChoice:
-    """Counts of each candidate and what they add up to.
+class RowClass:
+    """In-row gaps of one width and height in one region: ``count`` gaps; ``patterns``
+    (n_patterns, n_types) cells of each footprint type one gap holds."""
 
-    counts : (n_candidates,) int      copies of each candidate cell
-    capacitance : float               sum n_i C_i, F
-    sites : int                       sum n_i s_i, placement sites
-    leakage : float                   sum n_i I_i, A
-    optimal : bool                    False when the solver stopped at its time limit with
-                                      the best fill found so far
+    region: int
+    count: int
+    patterns: IntArray
+
+
+@dataclass(frozen=True)
+class OpenClass:
+    """Open slots of one outline in one region: ``count`` slots; ``copies`` (n_cells,) copies
+    of each cell one slot holds (0: does not fit)."""
+
+    region: int
+    count: int
+    copies: IntArray
+
+
+@dataclass(frozen=True)
+class FillProblem:
+    """Everything the optimizer needs, in SI.
+
+    useful_cap : (n_regions, n_cells) F     C_eff of one copy at the region's frequency
+    allowed : (n_regions, n_cells) bool     the region may take the cell (ESD, placement)
+    weight : (n_regions,)                   objective weight of each region
+    target : (n_regions,) F                 useful capacitance each region must reach (0: none)
+    cell_type : (n_cells,) int              footprint type index for row gaps, -1: none
+    leakage : (n_cells,) A                  per copy, at the leakage corner
+    oxide_area : (n_cells,) m^2             thin-oxide gate area per copy
+    row_classes, open_classes               the gap classes
+    leakage_budget, oxide_budget            A, m^2 (inf: no limit)
+    max_kinds : int                         distinct cells, >= 1
+    goal : "max_useful_cap" | "min_leakage"
     """
 
-    counts: NDArray[np.int64]
-    capacitance: float
-    sites: int
-    leakage: float
+    useful_cap: FloatArray
+    allowed: BoolArray
+    weight: FloatArray
+    target: FloatArray
+    cell_type: IntArray
+    leakage: FloatArray
+    oxide_area: FloatArray
+    row_classes: list[RowClass]
+    open_classes: list[OpenClass]
+    leakage_budget: float = float("inf")
+    oxide_budget: float = float("inf")
+    max_kinds: int = 3
+    goal: Goal = "max_useful_cap"
+
+    @property
+    def n_regions(self) -> int:
+        return int(self.useful_cap.shape[0])
+
+    @property
+    def n_cells(self) -> int:
+        return int(self.useful_cap.shape[1])
+
+    @property
+    def n_types(self) -> int:
+        shapes = [c.patterns.shape[1] for c in self.row_classes]
+        return max([int(self.cell_type.max(initial=-1)) + 1, *shapes])
+
+    def usable(self) -> BoolArray:
+        """(n_regions, n_cells): allowed and worth placing (C_eff > 0 at the region)."""
+        return np.asarray(self.allowed & (self.useful_cap > 0))
+
+    def replace(self, **changes: object) -> FillProblem:
+        from dataclasses import replace
+
+        return replace(self, **changes)  # type: ignore[arg-type]
+
+
+@dataclass(frozen=True)
+class FillSolution:
+    """Integer fill and what it adds up to (SI).
+
+    pattern_counts : per row class, (n_patterns,) gaps packed with each pattern of
+                     ``row_patterns`` (the class's patterns, or their projection onto the
+                     chosen kinds' footprints when the kinds were searched first)
+    slot_counts : per open class, (n_cells,) slots filled with each cell
+    row_copies, copies : (n_regions, n_cells) copies in row gaps / in all gaps
+    shortfall : (n_regions,) F target not reached (0 where met or no target)
+    optimal : proven optimal within ``mip_gap``; ``status`` the solver's message
+    """
+
+    pattern_counts: list[IntArray]
+    slot_counts: list[IntArray]
+    row_copies: IntArray
+    copies: IntArray
+    shortfall: FloatArray
     optimal: bool
+    status: str
+    mip_gap: float
+    solve_seconds: float
+    lowered_targets: FloatArray = field(default_factory=lambda: np.zeros(0))
+    row_patterns: list[IntArray] = field(default_factory=list)
+
+    @property
+    def used(self) -> BoolArray:
+        return np.asarray(self.copies.sum(axis=0) > 0)
 
 
-def undominated(capacitance: ArrayLike, sites: ArrayLike, leakage: ArrayLike) -> NDArray[np.bool_]:
-    """Mask of candidates no other candidate dominates (fewer or equal sites and leakage, at
-    least the capacitance, better in one of them or an identical earlier one), (n,)."""
-    cap = np.asarray(capacitance, dtype=float).reshape(-1)
-    size = np.asarray(sites, dtype=float).reshape(-1)
-    leak = np.asarray(leakage, dtype=float).reshape(-1)
-    at_least = ((size[:, None] <= size[None, :]) & (leak[:, None] <= leak[None, :])
-                & (cap[:, None] >= cap[None, :]))
-    better = ((size[:, None] < size[None, :]) | (leak[:, None] < leak[None, :])
-              | (cap[:, None] > cap[None, :]))
-    earlier = np.arange(cap.size)[:, None] < np.arange(cap.size)[None, :]
-    dominated = (at_least & (better | earlier)).any(axis=0)
-    return np.asarray(~dominated)
+def undominated_cells(p: FillProblem) -> BoolArray:
+    """(n_cells,) mask of cells that no other cell of the same footprint dominates (see the
+    module docstring). Compared only within groups of one footprint."""
+    usable = p.usable()
+    copies = (np.stack([c.copies for c in p.open_classes], axis=0) if p.open_classes
+              else np.zeros((0, p.n_cells), dtype=np.int64))
+    keep = usable.any(axis=0)
+    groups: dict[tuple[int, ...], list[int]] = {}
+    for i in np.flatnonzero(keep).tolist():
+        groups.setdefault((int(p.cell_type[i]), *copies[:, i].tolist()), []).append(i)
+    cap = np.where(usable, p.useful_cap, 0.0)
+    for members in groups.values():
+        if len(members) < 2:
+            continue
+        m = np.array(members)
+        # a dominates b: allowed where b is, at least b's cap everywhere, no more leakage/area
+        at_least = (np.all(usable[:, m][:, :, None] >= usable[:, m][:, None, :], axis=0)
+                    & np.all(cap[:, m][:, :, None] >= cap[:, m][:, None, :], axis=0)
+                    & (p.leakage[m][:, None] <= p.leakage[m][None, :])
+                    & (p.oxide_area[m][:, None] <= p.oxide_area[m][None, :]))
+        better = (np.any(usable[:, m][:, :, None] > usable[:, m][:, None, :], axis=0)
+                  | np.any(cap[:, m][:, :, None] > cap[:, m][:, None, :], axis=0)
+                  | (p.leakage[m][:, None] < p.leakage[m][None, :])
+                  | (p.oxide_area[m][:, None] < p.oxide_area[m][None, :]))
+        earlier = np.arange(m.size)[:, None] < np.arange(m.size)[None, :]
+        dominated = (at_least & (better | earlier)).any(axis=0)
+        keep[m[dominated]] = False
+    return np.asarray(keep)
 
 
-def _totals(counts: NDArray[np.int64], cap: NDArray[np.float64], sites: NDArray[np.int64],
-            leak: NDArray[np.float64], optimal: bool) -> FillChoice:
-    return FillChoice(counts, float(counts @ cap), int(counts @ sites), float(counts @ leak),
-                      optimal)
 
 
-def choose_fill(
-    capacitance: ArrayLike,
-    sites: ArrayLike,
-    leakage: ArrayLike,
-    site_budget: int,
-    leakage_budget: float,
-    max_kinds: int,
-    mip_rel_gap: float = 1e-9,
-) -> FillChoice:
-    """Integer counts n_i maximizing sum n_i C_i under the site, leakage and kind limits.
+class FillTimeout(RuntimeError):
+    """The time limit passed before any fill meeting the constraints was found."""
+
+
+def _restrict(p: FillProblem, cells: set[int]) -> FillProblem:
+    """The problem with only ``cells`` available; patterns projected onto their footprints
+    (duplicates and dominated projections dropped)."""
+    mask = np.zeros(p.n_cells, dtype=bool)
+    mask[sorted(cells)] = True
+    types = np.zeros(p.n_types, dtype=bool)
+    types[p.cell_type[mask & (p.cell_type >= 0)]] = True
+    rows = [RowClass(c.region, c.count,
+                     undominated_patterns(c.patterns * types[None, :c.patterns.shape[1]]))
+            for c in p.row_classes]
+    return p.replace(allowed=p.allowed & mask[None, :], row_classes=rows)
+
+
+@dataclass(frozen=True)
+class _Found:
+    problem: FillProblem
+    counts: Counts
+    value: float          # natural units, minimized
+    bound: float          # a lower bound on the value of every fill (natural units)
+    status: int
+    message: str
+
+    @property
+    def gap(self) -> float:
+        return max(self.value - self.bound, 0.0) / max(abs(self.value), np.finfo(float).tiny)
+
+
+def _natural(p: FillProblem, counts: Counts, phase: str) -> float:
+    """The minimized figure of a fill in natural units: -sum w C (F), the leakage (A), or
+    the total relative target shortfall."""
+    if phase == "shortfall":
+        reached = np.sum(counts.copies * p.useful_cap, axis=1)
+        short = np.where(p.target > 0, np.maximum(p.target - reached, 0.0), 0.0)
+        return float(np.sum(short / np.where(p.target > 0, p.target, 1.0)))
+    return -goal_value(p, counts.copies) if p.goal == "max_useful_cap" else goal_value(
+        p, counts.copies)
+
+
+def _exact(p: FillProblem, targets: FloatArray, mode: Literal["hard", "elastic"],
+           phase: Literal["goal", "shortfall"], mip_rel_gap: float, deadline: float
+           ) -> _Found | None:
+    """HiGHS on the whole model; rounding re-checked, budgets tightened on an overshoot.
+    None when infeasible."""
+    leak_limit, oxide_limit = p.leakage_budget, p.oxide_budget
+    target_levels = targets.copy()
+    scale = np.where(targets > 0, targets, 1.0)
+    for _ in range(4):
+        model = build_model(p, target_levels, mode, phase, leak_limit, oxide_limit, scale)
+        raw = run_model(model, mip_rel_gap, deadline - time.perf_counter())
+        if raw.values is None:
+            if raw.status == 2:
+                return None
+            if raw.status == 1:
+                raise FillTimeout(raw.message)
+            raise RuntimeError(f"fill optimization failed: {raw.message}")
+        counts = extract(raw)
+        bad = violations(p, counts, _checked_targets(targets, target_levels, counts, mode))
+        if not bad:
+            value = _natural(p, counts, phase)
+            bound = value - raw.mip_gap * abs(value) if raw.status == 0 else (
+                value - max(raw.mip_gap, 0.0) * abs(value))
+            return _Found(p, counts, value, bound, raw.status, raw.message)
+        if "leakage" in bad:
+            leak_limit = p.leakage_budget * (1 - 2 * bad["leakage"] - BUDGET_TOLERANCE)
+        if "oxide" in bad:
+            oxide_limit = p.oxide_budget * (1 - 2 * bad["oxide"] - BUDGET_TOLERANCE)
+        if "target" in bad:
+            target_levels = target_levels * (1 + 1e-7)
+        if set(bad) - {"leakage", "oxide", "target"}:
+            raise RuntimeError(f"fill optimization returned an infeasible rounding: {bad}")
+    raise RuntimeError("fill optimization could not meet the budgets after rounding")
+
+
+def _checked_targets(targets: FloatArray, levels: FloatArray, counts: Counts,
+                     mode: str) -> FloatArray:
+    """Targets a fill must meet exactly: none in the elastic (shortfall) solve."""
+    if mode == "elastic":
+        return np.zeros_like(levels)
+    return levels
+
+
+def _solve_goal(p: FillProblem, targets: FloatArray, mode: Literal["hard", "elastic"],
+                phase: Literal["goal", "shortfall"], mip_rel_gap: float, deadline: float
+                ) -> _Found | None:
+    """One solve by the strategy of the module docstring. None when infeasible."""
+    scale = np.where(targets > 0, targets, 1.0)
+    model = build_model(p, targets, mode, phase, p.leakage_budget, p.oxide_budget, scale)
+    usable_cells = int(np.count_nonzero(p.usable().any(axis=0)))
+    if model.n_vars <= DIRECT_LIMIT or usable_cells <= p.max_kinds:
+        return _exact(p, targets, mode, phase, mip_rel_gap, deadline)
+    lp_start = time.perf_counter()
+    first = run_model(model, 0.0, deadline - lp_start, relax=True)
+    lp_seconds = time.perf_counter() - lp_start
+    if first.values is None:
+        return None if first.status == 2 else _exact(p, targets, mode, phase, mip_rel_gap,
+                                                     deadline)
+    bound = first.objective
+    search_end = time.perf_counter() + 0.5 * max(deadline - time.perf_counter(), 0.0)
+    cells, _ = choose_kinds(model, first, search_end)
+    sub = _restrict(p, cells)
+    sub_model = build_model(sub, targets, mode, phase, p.leakage_budget, p.oxide_budget, scale)
+    relaxed = run_model(sub_model, 0.0, deadline - time.perf_counter(), relax=True)
+    found: _Found | None = None
+    sub_bound = relaxed.objective if relaxed.values is not None else bound
+    if relaxed.values is not None:
+        counts = round_down(relaxed)
+        if np.any(targets > 0):
+            counts = top_up(sub, counts, targets)
+        if not violations(sub, counts, _checked_targets(targets, targets, counts, mode)):
+            found = _Found(sub, counts, _natural(p, counts, phase), bound, 0,
+                           "kinds from the LP search, LP rounded down")
+
+    def worth_a_run(best_possible: float) -> bool:
+        """Another HiGHS run may pay: no fill yet, or one that could still gain more than
+        the gap, with time left for at least a few LP solves."""
+        if found is None:
+            return True
+        gain = (found.value - best_possible) / max(abs(found.value), np.finfo(float).tiny)
+        left = deadline - time.perf_counter()
+        return gain > mip_rel_gap and left > max(_MIN_RUN_S, 3 * lp_seconds)
+
+    if worth_a_run(sub_bound):
+        try:
+            exact = _exact(sub, targets, mode, phase, mip_rel_gap, deadline)
+        except FillTimeout:
+            if found is None:
+                raise
+            exact = None
+        if exact is not None and (found is None or exact.value < found.value):
+            found = _Found(sub, exact.counts, exact.value, bound, exact.status,
+                           "kinds from the LP search; " + exact.message)
+    if worth_a_run(bound):
+        try:
+            full = _exact(p, targets, mode, phase, mip_rel_gap, deadline)
+        except FillTimeout:
+            if found is None:
+                raise
+            full = None
+        if full is not None and (found is None or full.value < found.value):
+            found = _Found(p, full.counts, full.value, max(bound, full.bound), full.status,
+                           full.message)
+        elif found is not None and full is not None:
+            found = _Found(found.problem, found.counts, found.value, max(bound, full.bound),
+                           found.status, found.message)
+    if found is None:  # the LP is feasible, so a fill exists: the time ran out first
+        raise FillTimeout("no fill found within the time limit")
+    return found
+
+
+def solve_fill(problem: FillProblem, mip_rel_gap: float = 5e-3,
+               time_limit: float = 60.0) -> FillSolution:
+    """Solve the fill MILP (see the module docstring).
 
     Parameters
     ----------
-    capacitance : array_like   (n,) capacitance per cell, F, >= 0
-    sites : array_like         (n,) placement sites per cell (width x height), int >= 1
-    leakage : array_like       (n,) leakage current per cell, A, >= 0
-    site_budget : int          free sites S, >= 0
-    leakage_budget : float     leakage allowed, A, >= 0
-    max_kinds : int            at most this many candidates with n_i > 0, >= 1
-    mip_rel_gap : float        relative optimality gap at which branch and bound stops
+    problem : FillProblem
+    mip_rel_gap : float   relative gap to the best bound at which the search stops
+    time_limit : float    seconds for the whole solve (each phase gets what is left)
 
     Returns
     -------
-    FillChoice   counts, totals, and whether optimality was proven
-
-    Notes
-    -----
-    Exact up to ``mip_rel_gap`` and to the leakage row's feasibility tolerance: a fill whose
-    leakage lies within about 1e-7 of the budget may be passed over; the returned fill always
-    meets the budget to ``LEAKAGE_TOLERANCE``. Candidates with C_i = 0 are never chosen.
+    FillSolution   integer counts meeting every budget; where the region targets cannot all
+                   be met, ``shortfall`` says by how much (the fill is then the least-shortfall
+                   one, best by the goal among those); ``optimal`` when the certified gap is
+                   within ``mip_rel_gap``
     """
-    cap = np.asarray(capacitance, dtype=float).reshape(-1)
-    size = np.asarray(sites).reshape(-1)
-    leak = np.asarray(leakage, dtype=float).reshape(-1)
-    n = cap.size
-    if size.shape != (n,) or leak.shape != (n,):
-        raise ValueError("capacitance, sites and leakage must have the same length")
-    if not (np.all(np.isfinite(cap)) and np.all(cap >= 0) and np.all(np.isfinite(leak))
-            and np.all(leak >= 0)):
-        raise ValueError("capacitance and leakage must be finite and >= 0")
-    if np.any(size < 1) or np.any(size != np.round(size)):
-        raise ValueError("sites must be integers >= 1")
-    if site_budget < 0 or not leakage_budget >= 0 or max_kinds < 1:
-        raise ValueError("budgets must be >= 0 and max_kinds >= 1")
-    size = size.astype(np.int64)
-    upper = np.where(cap > 0, site_budget // size, 0)
-    # a kind leaking more than the whole budget per copy cannot be used at all
-    upper = np.where(leak * (1 - LEAKAGE_TOLERANCE) > leakage_budget, 0, upper)
-    zeros = np.zeros(n, dtype=np.int64)
-    if n == 0 or not np.any(upper > 0):
-        return _totals(zeros, cap, size, leak, True)
-    keep = np.flatnonzero(undominated(cap, size, leak) & (upper > 0))
-    sub = _solve(cap[keep], size[keep], leak[keep], upper[keep], site_budget, leakage_budget,
-                 max_kinds, mip_rel_gap)
-    counts = zeros.copy()
-    counts[keep] = sub.counts
-    return _totals(counts, cap, size, leak, sub.optimal)
+    t0 = time.perf_counter()
+    deadline = t0 + time_limit
+    keep = undominated_cells(problem)
+    p = problem.replace(allowed=problem.allowed & keep[None, :])
+    targets = np.asarray(p.target, dtype=float)
+    lowered = targets.copy()
+    found = _solve_goal(p, targets, "hard", "goal", mip_rel_gap, deadline)
+    if found is None:  # the targets cannot all be met: least relative shortfall first
+        first = _solve_goal(p, targets, "elastic", "shortfall", mip_rel_gap, deadline)
+        assert first is not None  # the empty fill is always feasible here
+        reached = np.sum(first.counts.copies * p.useful_cap, axis=1)
+        # a region within the solver's tolerance of its target keeps the target
+        lowered = np.where(reached < targets * (1 - 1e-6), reached, targets)
+        found = _solve_goal(p, lowered, "hard", "goal", mip_rel_gap,
+                            max(deadline, time.perf_counter() + 1.0))
+        if found is None:  # numerically at the edge: keep the least-shortfall fill
+            found = first
+    counts = found.counts
+    reached = np.sum(counts.copies * p.useful_cap, axis=1)
+    shortfall = np.where(reached < targets * (1 - 1e-6), targets - reached, 0.0)
+    return FillSolution(
+        pattern_counts=counts.patterns, slot_counts=counts.slots, row_copies=counts.row_copies,
+        copies=counts.copies, shortfall=shortfall, optimal=found.gap <= mip_rel_gap * (1 + 1e-9),
+        status=found.message, mip_gap=found.gap, solve_seconds=time.perf_counter() - t0,
+        lowered_targets=lowered, row_patterns=[c.patterns for c in found.problem.row_classes])
 
 
-def _solve(cap: NDArray[np.float64], size: NDArray[np.int64], leak: NDArray[np.float64],
-           upper: NDArray[np.int64], site_budget: int, leakage_budget: float, max_kinds: int,
-           mip_rel_gap: float) -> FillChoice:
-    """The MILP over candidates that can all be used (upper > 0).
+def goal_value(problem: FillProblem, copies: IntArray) -> float:
+    """The goal's figure of a fill: sum_r w_r C_r (F) or the total leakage (A)."""
+    if problem.goal == "max_useful_cap":
+        return float(np.sum(problem.weight * np.sum(copies * problem.useful_cap, axis=1)))
+    return float(np.sum(copies @ problem.leakage))
 
-    Every row is scaled to order one (HiGHS checks rows to an absolute tolerance; unscaled
-    rows with large U_i also trip its postsolve): sites / S <= 1, leakage / scale <= limit,
-    n_i / U_i - y_i <= 0. The rounded solution is checked exactly; one that overshoots a
-    budget (possible only within the tolerance) is re-solved with that budget tightened, and
-    one with too many kinds is re-solved with the linking rows in counts.
-    """
-    n = cap.size
-    # x = [n_0 .. n_{n-1}, y_0 .. y_{n-1}]; objective scaled to order one
-    objective = np.concatenate([-cap / cap.max(), np.zeros(n)])
-    leak_scale = max(leakage_budget, float(leak.max()), np.finfo(float).tiny)
-    kinds = LinearConstraint(np.concatenate([np.zeros(n), np.ones(n)])[None, :], -np.inf,
-                             float(max_kinds))
-    scaled_link = True
-    bounds = Bounds(np.zeros(2 * n), np.concatenate([upper.astype(float), np.ones(n)]))
-    integrality = np.ones(2 * n)
-    site_limit, leak_limit = 1.0, leakage_budget / leak_scale
-    for _ in range(4):
-        budgets = [
-            LinearConstraint(np.concatenate([size / site_budget, np.zeros(n)])[None, :],
-                             -np.inf, site_limit),
-            LinearConstraint(np.concatenate([leak / leak_scale, np.zeros(n)])[None, :],
-                             -np.inf, leak_limit),
-        ]
-        link = (np.hstack([np.diag(1.0 / upper), -np.eye(n)]) if scaled_link
-                else np.hstack([np.eye(n), -np.diag(upper.astype(float))]))
-        result = milp(objective, integrality=integrality, bounds=bounds,
-                      constraints=[kinds, LinearConstraint(link, -np.inf, 0.0), *budgets],
-                      options={"mip_rel_gap": mip_rel_gap, "time_limit": _TIME_LIMIT_S})
-        if result.x is None:  # the empty fill is always feasible: a solver failure
-            raise RuntimeError(f"fill optimization failed: {result.message}")
-        counts = np.clip(np.round(result.x[:n]).astype(np.int64), 0, upper)
-        used_sites, used_leak = int(counts @ size), float(counts @ leak)
-        leak_ok = used_leak <= leakage_budget * (1 + LEAKAGE_TOLERANCE)
-        if used_sites <= site_budget and leak_ok and np.count_nonzero(counts) <= max_kinds:
-            return _totals(counts, cap, size, leak, bool(result.status == 0))
-        if np.count_nonzero(counts) > max_kinds:  # a copy slipped past a scaled link row
-            scaled_link = False
-        if used_sites > site_budget:
-            site_limit -= (used_sites - site_budget + 0.5) / site_budget
-        if not leak_ok:
-            leak_limit = max(leak_limit - 2 * (used_leak - leakage_budget) / leak_scale
-                             - LEAKAGE_TOLERANCE, 0.0)
-    raise RuntimeError("fill optimization could not meet the budgets after rounding")
+
+def relaxation_seconds(problem: FillProblem, time_limit: float = 60.0) -> float:
+    """Time to build and solve the LP relaxation of the whole fill model, s: the benchmark's
+    reference."""
+    targets = np.asarray(problem.target, dtype=float)
+    t0 = time.perf_counter()
+    model = build_model(problem, targets, "hard", "goal", problem.leakage_budget,
+                        problem.oxide_budget, np.where(targets > 0, targets, 1.0))
+    run_model(model, 0.0, time_limit, relax=True)
+    return time.perf_counter() - t0

@@ -6,7 +6,7 @@ Network (package seen from the die, ideal supply behind it)::
     Z_block(f) = (R_pkg + j w L_pkg) || Z_die(f),
     Y_die(f)   = sum_i n_i / Z_i(f) + j w C_intrinsic
 
-Each cell's Z_i(f) is its stored response at one corner. Between stored frequencies the
+Each cell's Z_i(f) is its stored response at one corner (``corners.PDN_RESPONSE``). Between stored frequencies the
 die is interpolated through its complex capacitance K(f) = Y_die / (j w), linearly in
 log f: K is constant for an ideal capacitor and smooth for distributed RC cells, so the
 interpolation is exact for the former and close for the latter. The package branch and the
@@ -22,13 +22,12 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from celllab.physics import pdn
-from celllab.records import CellResult, CornerResult, FrequencyResponse
+from celllab.records import FrequencyResponse
 
 __all__ = [
     "DEFAULT_FREQ_HZ",
     "DieNetwork",
     "PdnFigures",
-    "corner_for_plan",
     "die_network",
     "pdn_figures",
 ]
@@ -39,21 +38,6 @@ ComplexArray = NDArray[np.complex128]
 #: Sweep used when no cell is chosen (the die is then the intrinsic decap alone), Hz.
 DEFAULT_FREQ_HZ: FloatArray = np.logspace(5.0, 12.0, 141)
 _FINE_PER_DECADE = 200
-
-
-def corner_for_plan(cell: CellResult, corner: str) -> CornerResult:
-    """The corner whose Z(f) stands for ``cell`` in a plan at ``corner``.
-
-    ``"worst"`` picks, per cell, the corner with the lowest ``cap_fF`` (the least
-    decoupling); any other name is that corner (``KeyError`` if the cell lacks it).
-    """
-    if corner != "worst":
-        return cell.corner(corner)
-    if not cell.corners:
-        raise KeyError(f"cell {cell.name!r} has no corner results")
-    caps = np.array([c.metrics.get("cap_fF", np.nan) for c in cell.corners], dtype=float)
-    caps = np.where(np.isfinite(caps), caps, np.inf)
-    return cell.corners[int(np.argmin(caps))]
 
 
 def _positive_grid(response: FrequencyResponse) -> tuple[FloatArray, ComplexArray]:

@@ -97,19 +97,33 @@ def oxides_of(cells: Sequence[Any]) -> np.ndarray:
     return np.array([c.oxide for c in cells])
 
 
-def supply(corners: CornerSet, oxides: np.ndarray) -> np.ndarray:
-    """(n_variant, n_corner) rail voltage, V: the deck's io supply for io cells, else core."""
-    core = corners.deck_value(lambda d: d.supplies.core_V)
-    io = corners.deck_value(lambda d: d.supplies.io_V)
-    return np.where((oxides == "io")[:, None], io, core)
+def rails_of(cells: Sequence[Any]) -> np.ndarray:
+    """(n_variant,) names of the rail each cell decouples ("core", "io" or a named rail)."""
+    return np.array([c.rail for c in cells])
 
 
-def mos_geometry(cells: Sequence[Any], geos: Sequence[Any]) -> MosGeometry:
-    """Per-variant MOS geometry (n_variant, 1) in SI from the resolved geometries (um)."""
+def supply(corners: CornerSet, rails: np.ndarray) -> np.ndarray:
+    """(n_variant, n_corner) voltage of each variant's rail at each corner, V.
+
+    ``rails`` holds rail names ("core", "io" or a deck's named rail); the characterization supply
+    follows the rail a cell decouples, not its oxide.
+    """
+    names, index = np.unique(np.asarray(rails, dtype=str), return_inverse=True)
+    table = np.array([[d.supply_for(str(n)) for d in corners.decks] for n in names], dtype=float)
+    return table[index.reshape(-1)]
+
+
+def mos_geometry(cells: Sequence[Any], geos: Sequence[Any], device: str = "first") -> MosGeometry:
+    """Per-variant MOS geometry (n_variant, 1) in SI from the resolved geometries (um).
+
+    ``device``: "first" for the cell's device (the NMOS of a two-device cell), "pmos" for the
+    PMOS of a two-device cell (``Geometry.pmos_gate_width_um``).
+    """
     col = lambda values: np.asarray(values, dtype=float)[:, None]  # noqa: E731
+    width = [g.pmos_gate_width_um if device == "pmos" else g.gate_width_um for g in geos]
     return MosGeometry(
         gate_length=col([g.gate_length_um for g in geos]) * micro,
-        gate_width_row=col([g.gate_width_um / c.height_rows for g, c in zip(geos, cells)]) * micro,
+        gate_width_row=col([w / c.height_rows for w, c in zip(width, cells)]) * micro,
         rows=col([c.height_rows for c in cells]),
         fingers=col([c.fingers for c in cells]),
         strips=col([c.fingers + 1 for c in cells]),
@@ -118,12 +132,21 @@ def mos_geometry(cells: Sequence[Any], geos: Sequence[Any]) -> MosGeometry:
     )
 
 
-def loop_inductance(deck: Any, geos: Sequence[Any]) -> np.ndarray:
-    """Rail-pair loop inductance of each cell, H (n_v, 1)."""
-    rail = deck.metal(deck.layout.rail_layer)
+def loop_inductance(corners: CornerSet, geos: Sequence[Any]) -> np.ndarray:
+    """Rail-pair loop inductance of each cell at each corner, H (n_v, n_c).
+
+    The rail's printed width (drawn + the rail layer's ``width_bias_nm``) and thickness come from
+    each corner's deck.
+    """
+    def rail(d: Any) -> Any:
+        return d.metal(d.layout.rail_layer)
+
+    width = (corners.deck_value(lambda d: d.layout.rail_width_um) * micro
+             + corners.deck_value(lambda d: rail(d).width_bias_nm) * nano)
+    thickness = corners.deck_value(lambda d: rail(d).thickness_nm) * nano
     length = np.array([g.cell_width_um for g in geos])[:, None] * micro
     sep = np.array([g.cell_height_um for g in geos])[:, None] * micro
-    return inductance.loop_inductance(length, deck.layout.rail_width_um * micro, sep, rail.thickness_nm * nano)
+    return inductance.loop_inductance(length, width, sep, thickness)
 
 
 @dataclass(frozen=True)
@@ -139,7 +162,7 @@ class MosDevices:
 def mos_devices(corners: CornerSet, cells: Sequence[Any], geos: Sequence[Any], roles: np.ndarray) -> MosDevices:
     """Characterize one MOS device per cell in the given device ``roles`` (``mos.ROLES``)."""
     oxides = oxides_of(cells)
-    rail = supply(corners, oxides)
+    rail = supply(corners, rails_of(cells))
     geo = mos_geometry(cells, geos)
     return MosDevices(characterize_mos(corners, oxides, roles, geo, rail), oxides, rail, geo)
 

@@ -7,8 +7,9 @@ current x on-resistance of the rails; each device's capacitance is then evaluate
 bias the operating point gives it, and the channels enter the equivalent circuit as through RC
 lines (``circuits.cross_coupled_circuit``).
 
-Geometry rule: an NMOS and a PMOS per row, each (active row height - well_spacing) / 2 tall
-before end caps (``geometry.place_mos``).
+Geometry rule: an NMOS and a PMOS per row, as in the tied cell: in a core row the NMOS on the
+p-well half and the PMOS on the n-well half; in an open region each takes (active row height -
+well_spacing) / 2 before end caps (``geometry.device_band``; common practice, no source).
 """
 
 from __future__ import annotations
@@ -29,7 +30,7 @@ from celllab.topologies.geometry import (
     MOS_FIELDS,
     OUTLINE_FIELDS,
     Geometry,
-    active_row_height,
+    device_band,
     place_mos,
 )
 from celllab.topologies.registry import Topology
@@ -43,9 +44,9 @@ MIN_OVERDRIVE_V = 1.0 * milli
 
 
 def two_devices_per_row(spec: Any, deck: Any, geo: Geometry) -> None:
-    """An NMOS and a PMOS per row, split by the well spacing."""
-    lay = deck.layout
-    place_mos(spec, deck, geo, device_height_um=(active_row_height(deck) - lay.well_spacing_um) / 2, devices=2)
+    """An NMOS (p-well half) and a PMOS (n-well half) per row."""
+    place_mos(spec, deck, geo, [device_band(spec, deck, "nmos", both_types=True),
+                                device_band(spec, deck, "pmos", both_types=True)])
 
 
 def evaluate(deck: Any, corners: CornerSet, cells: Sequence[Any], geos: Sequence[Any],
@@ -53,12 +54,12 @@ def evaluate(deck: Any, corners: CornerSet, cells: Sequence[Any], geos: Sequence
     """Figures of a group of cross-coupled cells (arrays over variant x corner)."""
     n_v, n_c = len(cells), len(corners.names)
     oxides = common.oxides_of(cells)
-    vdd = common.supply(corners, oxides)
-    geo = common.mos_geometry(cells, geos)
+    vdd = common.supply(corners, common.rails_of(cells))
+    geo_n, geo_p = common.mos_geometry(cells, geos), common.mos_geometry(cells, geos, device="pmos")
     nmos_role, pmos_role = np.array(["nmos"] * n_v), np.array(["pmos"] * n_v)
     # First pass at the full rail bias gives each device's channel model and leakage density.
-    nmos0 = characterize_mos(corners, oxides, nmos_role, geo, vdd)
-    pmos0 = characterize_mos(corners, oxides, pmos_role, geo, vdd)
+    nmos0 = characterize_mos(corners, oxides, nmos_role, geo_n, vdd)
+    pmos0 = characterize_mos(corners, oxides, pmos_role, geo_p, vdd)
     vth_n = np.abs(corners.device_table(oxides, nmos_role, "vth_V"))
     vth_p = np.abs(corners.device_table(oxides, pmos_role, "vth_V"))
 
@@ -69,9 +70,9 @@ def evaluate(deck: Any, corners: CornerSet, cells: Sequence[Any], geos: Sequence
         v_op = np.maximum(first.v_ov, MIN_OVERDRIVE_V)
         return pair.ResistiveDevice(vth, lambda v: r_at_op * v_op / v)
 
-    area = geo.gate_area
-    lk_n = oxide_stress(corners, oxides, nmos0.v_ox, nmos0.v_gb, area).leakage_A
-    lk_p = oxide_stress(corners, oxides, pmos0.v_ox, pmos0.v_gb, area).leakage_A
+    area_n, area_p = geo_n.gate_area, geo_p.gate_area
+    lk_n = oxide_stress(corners, oxides, nmos0.v_ox, nmos0.v_gb, area_n).leakage_A
+    lk_p = oxide_stress(corners, oxides, pmos0.v_ox, pmos0.v_gb, area_p).leakage_A
     supply_abs = np.abs(vdd)
     op = pair.operating_point(
         vdd, resistive(nmos0, vth_n), resistive(pmos0, vth_p),
@@ -80,8 +81,8 @@ def evaluate(deck: Any, corners: CornerSet, cells: Sequence[Any], geos: Sequence
     ok = np.asarray(op.converged, dtype=bool)
     v_gn = np.where(ok, op.v_y, vdd)            # NMOS gate-to-body bias
     v_gp = np.where(ok, vdd - op.v_x, vdd)      # PMOS |gate-to-body| bias
-    nmos = characterize_mos(corners, oxides, nmos_role, geo, v_gn)
-    pmos = characterize_mos(corners, oxides, pmos_role, geo, v_gp)
+    nmos = characterize_mos(corners, oxides, nmos_role, geo_n, v_gn)
+    pmos = characterize_mos(corners, oxides, pmos_role, geo_p, v_gp)
     r_on_n = np.where(ok & np.isfinite(op.r_on_n), op.r_on_n, nmos.r_channel)
     r_on_p = np.where(ok & np.isfinite(op.r_on_p), op.r_on_p, pmos.r_channel)
 
@@ -90,11 +91,11 @@ def evaluate(deck: Any, corners: CornerSet, cells: Sequence[Any], geos: Sequence
         c_n=flat(nmos.c_gate, n_v, n_c), c_p=flat(pmos.c_gate, n_v, n_c),
         r_on_n=flat(r_on_n, n_v, n_c), r_on_p=flat(r_on_p, n_v, n_c),
         r_gate_n=flat(nmos.r_gate + nmos.r_access, n_v, n_c), r_gate_p=flat(pmos.r_gate + pmos.r_access, n_v, n_c),
-        l_loop=flat(common.loop_inductance(deck, geos), n_v, n_c), c_overlap_n=flat(nmos.c_overlap, n_v, n_c),
+        l_loop=flat(common.loop_inductance(corners, geos), n_v, n_c), c_overlap_n=flat(nmos.c_overlap, n_v, n_c),
         c_overlap_p=flat(pmos.c_overlap, n_v, n_c))
     sol = common.solve(net, freq, n_v, n_c)
-    sn = oxide_stress(corners, oxides, nmos.v_ox, nmos.v_gb, area)
-    sp = oxide_stress(corners, oxides, pmos.v_ox, pmos.v_gb, area)
+    sn = oxide_stress(corners, oxides, nmos.v_ox, nmos.v_gb, area_n)
+    sp = oxide_stress(corners, oxides, pmos.v_ox, pmos.v_gb, area_p)
     flags = [[nmos.flags[i][j] + [f for f in pmos.flags[i][j] if f not in nmos.flags[i][j]]
               + ([] if ok[i, j] else ["pair_no_operating_point: no both-on state found; devices "
                                       "evaluated at the full rail voltage"])

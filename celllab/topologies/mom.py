@@ -10,6 +10,11 @@ Geometry rule: fingers over the whole outline on the layers ``mom_bottom`` .. ``
 Vias: each comb of a layer reaches the rail layer through the via stack below it, one via stack
 at each finger's bus end; the two combs are in series around the loop, so a layer's lumped via
 resistance is 2 x (sum of via resistances down to the rails) / (fingers / 2).
+
+Corners: the process values of the metals (thickness, printed-width bias, heights and so the
+inter-layer dielectric, permittivities, sheet and via resistances at the corner temperature)
+come from each corner's deck; the drawn finger width and space, count and length are the cell's
+geometry. The printed finger is w + bias wide and the gap s - bias (pitch kept).
 """
 
 from __future__ import annotations
@@ -32,46 +37,61 @@ TOP_ILD_M = 0.5 * micro
 MIN_ILD_M = 1.0 * nano
 
 
-def _layer_arrays(deck: Any, geos: Sequence[Any], position: int) -> mom.MomLayer:
-    names = [m.name for m in deck.metals]
+def _layer_arrays(corners: CornerSet, geos: Sequence[Any], position: int) -> mom.MomLayer:
+    """One layer of a group's MOM stacks as (n_variant, n_corner) arrays, SI."""
     layers = [g.mom_layers[position] for g in geos]
-    idx = names.index(layers[0].name)
-    this = deck.metals[idx]
-    above = deck.metals[idx + 1] if idx + 1 < len(deck.metals) else None
-    ild = (above.height_nm - this.height_nm - this.thickness_nm) * nano if above else TOP_ILD_M
-    rail = names.index(deck.layout.rail_layer)
-    via_stack = sum(deck.metals[k].via_below_ohm for k in range(rail + 1, idx + 1))
-    col = lambda attr: np.array([getattr(la, attr) for la in layers], dtype=float)  # noqa: E731
+    name = layers[0].name
+
+    def at_corners(getter: Any) -> np.ndarray:
+        return corners.deck_value(lambda d: getter(d, [m.name for m in d.metals].index(name)))
+
+    def ild(d: Any, idx: int) -> float:
+        this = d.metals[idx]
+        if idx + 1 >= len(d.metals):
+            return TOP_ILD_M
+        return max((d.metals[idx + 1].height_nm - this.height_nm - this.thickness_nm) * nano, MIN_ILD_M)
+
+    def above(d: Any, idx: int) -> Any:
+        return d.metals[min(idx + 1, len(d.metals) - 1)]
+
+    def via_stack(d: Any, idx: int) -> float:
+        rail = [m.name for m in d.metals].index(d.layout.rail_layer)
+        return float(sum(d.metals[k].via_below_ohm for k in range(rail + 1, idx + 1)))
+
+    col = lambda attr: np.array([getattr(la, attr) for la in layers], dtype=float)[:, None]  # noqa: E731
     count = col("finger_count")
+    bias = at_corners(lambda d, i: d.metals[i].width_bias_nm) * nano
     return mom.MomLayer(
-        thickness=col("thickness_um") * micro, finger_width=col("finger_width_um") * micro,
-        spacing=col("finger_space_um") * micro, finger_length=col("finger_length_um") * micro,
-        finger_count=count, eps_r=this.ild_eps_r, ild_height=max(ild, MIN_ILD_M),
-        eps_r_ild=above.ild_eps_r if above else this.ild_eps_r, sheet_resistance=this.sheet_ohm_per_sq,
-        via_resistance=4.0 * via_stack / count)
+        thickness=at_corners(lambda d, i: d.metals[i].thickness_nm) * nano,
+        finger_width=col("finger_width_um") * micro + bias, spacing=col("finger_space_um") * micro - bias,
+        finger_length=col("finger_length_um") * micro, finger_count=count,
+        eps_r=at_corners(lambda d, i: d.metals[i].ild_eps_r), ild_height=at_corners(ild),
+        eps_r_ild=at_corners(lambda d, i: above(d, i).ild_eps_r),
+        sheet_resistance=at_corners(lambda d, i: d.metals[i].sheet_ohm_per_sq),
+        via_resistance=4.0 * at_corners(via_stack) / count)
 
 
-def mom_figures(deck: Any, cells: Sequence[Any], geos: Sequence[Any]) -> mom.MomResult:
-    """MOM capacitance and resistances for cells sharing one layer range (arrays over variants)."""
-    layers = [_layer_arrays(deck, geos, p) for p in range(len(geos[0].mom_layers))]
-    below = deck.metals[[m.name for m in deck.metals].index(geos[0].mom_layers[0].name) - 1].ild_eps_r
-    return mom.mom_capacitor(layers, alternate_polarity=np.array([c.mom_alternate for c in cells]),
+def mom_figures(corners: CornerSet, cells: Sequence[Any], geos: Sequence[Any]) -> mom.MomResult:
+    """MOM capacitance and resistances for cells sharing one layer range, arrays (n_variant, n_corner)."""
+    layers = [_layer_arrays(corners, geos, p) for p in range(len(geos[0].mom_layers))]
+    bottom = geos[0].mom_layers[0].name
+    below = corners.deck_value(lambda d: d.metals[[m.name for m in d.metals].index(bottom) - 1].ild_eps_r)
+    return mom.mom_capacitor(layers, alternate_polarity=np.array([c.mom_alternate for c in cells])[:, None],
                              eps_r_below=below)
 
 
 class LayerValues:
-    """A MOM group's per-layer C, finger R and via R, repeated over corners for the circuit."""
+    """A MOM group's per-layer C, finger R and via R over variant x corner, for the circuit."""
 
-    def __init__(self, fig: mom.MomResult, n_c: int) -> None:
-        shape = fig.layer_capacitance.shape      # (n_layer, n_v)
-        self.capacitance = _per_corner(fig.layer_capacitance, shape, n_c)
-        self.line_resistance = _per_corner(fig.layer_line_resistance, shape, n_c)
-        self.via_resistance = _per_corner(fig.layer_via_resistance, shape, n_c)
+    def __init__(self, fig: mom.MomResult, n_v: int, n_c: int) -> None:
+        self.capacitance = _flat_layers(fig.layer_capacitance, n_v, n_c)
+        self.line_resistance = _flat_layers(fig.layer_line_resistance, n_v, n_c)
+        self.via_resistance = _flat_layers(fig.layer_via_resistance, n_v, n_c)
 
 
-def _per_corner(a: np.ndarray, shape: tuple[int, ...], n_c: int) -> np.ndarray:
-    """(n_layer, n_v) -> (n_layer, n_v * n_c), variant-major like ``common.flat``."""
-    return np.repeat(np.broadcast_to(a, shape), n_c, axis=1)
+def _flat_layers(a: np.ndarray, n_v: int, n_c: int) -> np.ndarray:
+    """(n_layer, n_v, n_c) -> (n_layer, n_v * n_c), variant-major like ``common.flat``."""
+    return np.broadcast_to(a, (a.shape[0], n_v, n_c)).reshape(a.shape[0], n_v * n_c)
 
 
 def layers_between(cell: Any, geo: Geometry) -> tuple[Any, ...]:
@@ -83,17 +103,17 @@ def evaluate(deck: Any, corners: CornerSet, cells: Sequence[Any], geos: Sequence
              freq: np.ndarray) -> common.GroupResult:
     """Figures of a group of MOM cells sharing one layer range."""
     n_v, n_c = len(cells), len(corners.names)
-    fig = mom_figures(deck, cells, geos)
-    per = LayerValues(fig, n_c)
+    fig = mom_figures(corners, cells, geos)
+    per = LayerValues(fig, n_v, n_c)
     net = circuits.mom_circuit(per.capacitance, per.line_resistance, per.via_resistance,
-                               common.flat(common.loop_inductance(deck, geos), n_v, n_c))
+                               common.flat(common.loop_inductance(corners, geos), n_v, n_c))
     sol = common.solve(net, freq, n_v, n_c)
     nan = np.full((n_v, n_c), np.nan)
     zero = np.zeros((n_v, n_c))
     return common.GroupResult(
         n_variant=n_v, n_corner=n_c, z_ohm=sol.z_ohm, summary=sol.summary,
-        cap_ox_F=np.broadcast_to(fig.capacitance[:, None], (n_v, n_c)).copy(), leakage_A=zero,
-        e_ox_V_per_m=zero, ttf_s=nan, vbd_pulse_V=nan, supply_V=common.supply(corners, common.oxides_of(cells)),
+        cap_ox_F=np.broadcast_to(fig.capacitance, (n_v, n_c)).copy(), leakage_A=zero,
+        e_ox_V_per_m=zero, ttf_s=nan, vbd_pulse_V=nan, supply_V=common.supply(corners, common.rails_of(cells)),
         netlist=net, flags=[[[] for _ in range(n_c)] for _ in range(n_v)],
         notes=["MOM: lateral finger coupling with conformal-mapping face terms (a lower bound of the 2-D "
                "field solution); leakage through inter-metal dielectric not modelled (negligible)"])

@@ -38,8 +38,8 @@ def evaluate(deck: Any, corners: CornerSet, cells: Sequence[Any], geos: Sequence
              freq: np.ndarray) -> common.GroupResult:
     """Figures of a group of MOS+MOM cells sharing contacts and layer range."""
     n_v, n_c = len(cells), len(corners.names)
-    fig = mom_figures(deck, cells, geos)
-    per = LayerValues(fig, n_c)
+    fig = mom_figures(corners, cells, geos)
+    per = LayerValues(fig, n_v, n_c)
     dev = common.mos_devices(corners, cells, geos, np.array([c.mos_device for c in cells]))
     res = dev.result
     flat = common.flat
@@ -48,10 +48,10 @@ def evaluate(deck: Any, corners: CornerSet, cells: Sequence[Any], geos: Sequence
         c_mom=per.capacitance, r_fingers=per.line_resistance, r_gate=flat(res.r_gate, n_v, n_c),
         r_access=flat(res.r_access, n_v, n_c), c_overlap=flat(res.c_overlap, n_v, n_c),
         contacted_ends=int(cells[0].contacted_ends), r_vias=per.via_resistance,
-        l_loop=flat(common.loop_inductance(deck, geos), n_v, n_c))
+        l_loop=flat(common.loop_inductance(corners, geos), n_v, n_c))
     sol = common.solve(net, freq, n_v, n_c)
     stress = oxide_stress(corners, dev.oxides, res.v_ox, res.v_gb, dev.geometry.gate_area)
-    c_mom = fig.capacitance[:, None]
+    c_mom = np.broadcast_to(fig.capacitance, (n_v, n_c))
     return common.GroupResult(
         n_variant=n_v, n_corner=n_c, z_ohm=sol.z_ohm, summary=sol.summary, cap_ox_F=res.c_ox_plain + c_mom,
         leakage_A=stress.leakage_A, e_ox_V_per_m=stress.e_ox_V_per_m, ttf_s=stress.ttf_s,

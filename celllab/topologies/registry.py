@@ -13,6 +13,8 @@ from typing import Any
 
 import numpy as np
 
+from celllab.topologies.geometry import PLACEMENTS
+
 #: (cell spec, deck, geometry with the outline filled in) -> None; fills in the rest of the
 #: geometry or raises ``geometry.GeometryProblem`` naming the cell field at fault.
 GeometryRule = Callable[[Any, Any, Any], None]
@@ -41,6 +43,7 @@ class Topology:
     evaluate : Evaluate     the figures of a group of cells of this topology
     circuit_key : CircuitKey  splits a group by equivalent-circuit structure
     order : int             position in listings (allowed values, help); ties keep registration order
+    placements : frozenset  where cells of this topology may be placed (``geometry.PLACEMENTS``)
     """
 
     name: str
@@ -51,6 +54,7 @@ class Topology:
     evaluate: Evaluate
     circuit_key: CircuitKey = _one_structure
     order: int = 1000
+    placements: frozenset[str] = frozenset(PLACEMENTS)
 
 
 @dataclass
@@ -91,10 +95,13 @@ class Registry(Mapping[str, Topology]):
         """Topologies with no gate tied directly to a supply rail."""
         return frozenset(n for n, t in self._items.items() if t.esd_safe)
 
+    def placements_of(self, name: str) -> tuple[str, ...]:
+        """Placements a topology allows, in ``geometry.PLACEMENTS`` order."""
+        return tuple(p for p in PLACEMENTS if p in self._items[name].placements)
+
     def users_of(self, fieldname: str) -> tuple[str, ...]:
         """Topologies a geometry field applies to, in listing order."""
         return tuple(n for n, t in self._items.items() if fieldname in t.fields)
-
 
 
 REGISTRY = Registry()

@@ -4,10 +4,17 @@
 n-well in inversion; ``accumulation``: n+ gate in an n-well (or p+ in a p-well) in
 accumulation. None is ESD-safe: the gate oxide sits directly across the rails.
 
-Geometry rule: one device per row, as tall as the active row height
-(``geometry.place_mos``). Evaluation: the device model of ``characterization.mos`` at the rail
-voltage, the distributed-channel circuit of ``physics.circuits.mos_decap_circuit``, and the
-oxide stress of ``characterization.oxide_stress``.
+Geometry rule (``geometry.device_band``, stated in ``celllab.topologies.geometry``): one device
+per row. In a core row the NMOS sits on the p-well half and the PMOS on the n-well half, the
+other half left to its well. An accumulation device's well is on the other rail than the row's
+well of its type, so the cell is one well island over the row height: the n-well device keeps
+``nwell_to_nwell_space_um`` from the power-rail and side edges (the row's n-wells on the power
+rail), the p-well device (isolated p-well in a deep n-well) keeps ``deep_nwell_space_um`` from
+the ground-rail and side edges. In an open region the device fills the active row height (the
+p-well accumulation device keeps its deep-n-well spacing all round). Common practice, no source.
+Evaluation: the device model of ``characterization.mos`` at the cell's rail voltage, the
+distributed-channel circuit of ``physics.circuits.mos_decap_circuit``, and the oxide stress of
+``characterization.oxide_stress``.
 """
 
 from __future__ import annotations
@@ -24,15 +31,26 @@ from celllab.topologies.geometry import (
     MOS_FIELDS,
     OUTLINE_FIELDS,
     Geometry,
-    active_row_height,
+    device_band,
     place_mos,
 )
 from celllab.topologies.registry import Evaluate, Topology
 
 
+def device_role(spec: Any) -> str:
+    """The device role (``characterization.mos.ROLES``) of a one-device cell."""
+    if spec.topology == "pmos_inversion":
+        return "pmos"
+    if spec.topology == "accumulation":
+        return _accumulation_role(spec)
+    if spec.topology == "mos_mom":
+        return str(spec.mos_device)
+    return "nmos"
+
+
 def one_device_per_row(spec: Any, deck: Any, geo: Geometry) -> None:
-    """One MOS device per row, using the whole active row height."""
-    place_mos(spec, deck, geo, device_height_um=active_row_height(deck), devices=1)
+    """One MOS device per row, in the band its well and the cell's placement give it."""
+    place_mos(spec, deck, geo, [device_band(spec, deck, device_role(spec))])
 
 
 def evaluate_tied_gate(topology: str, deck: Any, corners: CornerSet, cells: Sequence[Any], geos: Sequence[Any],
@@ -41,7 +59,7 @@ def evaluate_tied_gate(topology: str, deck: Any, corners: CornerSet, cells: Sequ
     n_v, n_c = len(cells), len(corners.names)
     dev = common.mos_devices(corners, cells, geos, roles)
     res = dev.result
-    net = common.mos_circuit(res, dev.geometry, common.loop_inductance(deck, geos), n_v, n_c, topology)
+    net = common.mos_circuit(res, dev.geometry, common.loop_inductance(corners, geos), n_v, n_c, topology)
     sol = common.solve(net, freq, n_v, n_c)
     stress = oxide_stress(corners, dev.oxides, res.v_ox, res.v_gb, dev.geometry.gate_area)
     return common.GroupResult(

@@ -203,3 +203,47 @@ def test_catalog_missing_a_table_is_refused(catalog_path: Path) -> None:
     with pytest.raises(CatalogError) as err:
         open_catalog(catalog_path)
     assert "missing tables cv_curves" in str(err.value) and str(catalog_path) in str(err.value)
+
+
+def test_placement_and_rail_columns_reach_an_older_file(catalog_path: Path) -> None:
+    from dataclasses import replace
+
+    run = make_run(n_cells=6)
+    older = replace(run, cells=run.cells[:3])
+    with open_catalog(catalog_path) as cat:
+        cat.store_run(older)
+    # a file written before the placement and rail columns existed: drop them, empty as such a file
+    conn = sqlite3.connect(catalog_path)
+    for column in ("placement", "rail"):
+        conn.execute(f'ALTER TABLE cells DROP COLUMN "{column}"')
+    conn.commit()
+    conn.close()
+    with open_catalog(catalog_path) as cat:
+        columns = cat._db["cells"].columns_dict
+        assert columns["placement"] is str and columns["rail"] is str     # TEXT columns added back
+        # old rows: no value stored, read back as core-row cells on the rail named like their oxide
+        for stored in older.cells:
+            cell = cat.cell(stored.name, deck=older.deck_name)
+            assert cell.placement == "core_row" and cell.rail == cell.oxide
+        newer = replace(run, cells=[replace(c, placement="open_region", rail="io") if i == 4 else c
+                                    for i, c in enumerate(run.cells)])
+        cat.store_run(newer)
+        rows = cat.query(corner="worst", where="placement = open_region")
+        assert [r["name"] for r in rows] == [run.cells[4].name]
+        assert rows[0]["rail"] == "io"
+        assert {r["name"] for r in cat.query(corner="worst", where="rail = io")} == {run.cells[4].name}
+
+
+def test_rows_without_placement_and_rail_keep_their_digest() -> None:
+    from celllab.catalog.store import prepare_cell, result_digest
+
+    prepared = prepare_cell(make_run(n_cells=1).cells[0])
+    rest = (prepared.corner_rows, prepared.response_rows, prepared.cv_rows)
+    before_columns = {k: v for k, v in prepared.cell_row.items() if k not in ("placement", "rail")}
+    empty = {**prepared.cell_row, "placement": None, "rail": None}
+    # a row stored before these columns existed (empty) digests as it did then
+    assert result_digest(empty, *rest) == result_digest(before_columns, *rest)
+    # a stored placement or rail is part of the result
+    assert prepared.digest == result_digest(prepared.cell_row, *rest) != result_digest(empty, *rest)
+    moved = {**prepared.cell_row, "placement": "open_region"}
+    assert result_digest(moved, *rest) != prepared.digest

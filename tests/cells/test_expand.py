@@ -121,9 +121,11 @@ def _spec(**fields: Any) -> CellSpec:
     return CellSpec.model_validate({"name": "c", "topology": "nmos_inversion", "width_sites": 8, **fields})
 
 
-def test_hash_is_sha256_of_topology_oxide_and_geometry() -> None:
+def test_hash_is_sha256_of_topology_oxide_rail_and_geometry() -> None:
     spec = _spec(fingers=2)
-    body = {"topology": "nmos_inversion", "oxide": "core", **{f: getattr(spec, f) for f in GEOMETRY_FIELDS}}
+    body = {"topology": "nmos_inversion", "oxide": "core", "rail": "core",
+            **{f: getattr(spec, f) for f in GEOMETRY_FIELDS}}
+    assert body["placement"] == "core_row"
     expected = hashlib.sha256(json.dumps(body, sort_keys=True, separators=(",", ":")).encode()).hexdigest()[:16]
     assert cell_hash(spec) == spec.content_hash == expected
 
@@ -137,7 +139,8 @@ def test_hash_ignores_name_and_family() -> None:
 @pytest.mark.parametrize(("field", "value"), [
     ("width_sites", 9), ("height_rows", 2), ("fingers", 3), ("gate_length_um", 0.5), ("gate_width_um", 1.0),
     ("contacted_ends", 1), ("gate_contacted_ends", 2), ("accumulation_well", "p"), ("mos_device", "pmos"),
-    ("mom_alternate", True), ("topology", "pmos_inversion"), ("oxide", "io"),
+    ("mom_alternate", True), ("topology", "pmos_inversion"), ("oxide", "io"), ("rail", "io"),
+    ("placement", "open_region"),
 ])
 def test_hash_changes_with_each_geometry_field(field: str, value: Any) -> None:
     base = _spec()
@@ -154,8 +157,37 @@ def test_hash_changes_with_each_mom_field(field: str) -> None:
 
 def test_every_geometry_field_is_a_cell_field() -> None:
     assert set(GEOMETRY_FIELDS) <= set(CellSpec.model_fields)
-    assert set(REGISTRY) == {"nmos_inversion", "pmos_inversion", "accumulation", "cross_coupled", "mom",
-                               "mos_mom"}
+    assert set(REGISTRY) == {"nmos_inversion", "pmos_inversion", "accumulation", "tied_cmos", "cross_coupled",
+                               "mom", "mos_mom"}
+
+
+def test_rail_follows_the_oxide_unless_given() -> None:
+    assert _spec().rail == "core" and _spec(oxide="io").rail == "io"
+    thick_on_core = _spec(oxide="io", rail="core")
+    assert (thick_on_core.oxide, thick_on_core.rail) == ("io", "core")
+    assert thick_on_core.content_hash != _spec(oxide="io").content_hash
+    with pytest.raises(ValueError, match="rail"):
+        _spec(rail="Core Rail")
+
+
+def test_placement_sweeps_with_short_name_tags() -> None:
+    data = {"family": [{"name": "pl", "topology": "nmos_inversion", "width_sites": 8,
+                        "placement": ["core_row", "open_region"]}]}
+    specs = parse_cells(data)
+    assert [(s.name, s.placement) for s in specs] == [("pl-w8-h1-row", "core_row"), ("pl-w8-h1-open", "open_region")]
+    with pytest.raises(CellError) as info:
+        parse_cells({"cell": [{"name": "x", "topology": "mom", "width_sites": 4, "placement": "pad_ring"}]})
+    assert "core_row" in str(info.value) and "open_region" in str(info.value)
+
+
+def test_rail_is_one_value_per_family_and_checked_against_the_deck(lumen130: Deck) -> None:
+    with pytest.raises(CellError) as info:
+        parse_cells(family(width_sites=8, rail=["core", "io"]))
+    assert info.value.problems[0].field == "family[0].rail" and "cannot be swept" in info.value.problems[0].message
+    with pytest.raises(CellError) as info:
+        parse_cells(family(width_sites=8, rail="analog"), lumen130)
+    (problem,) = info.value.problems
+    assert "rail" in problem.field and "allowed: core, io" in problem.message
 
 
 def test_esd_safe_topologies() -> None:
@@ -167,7 +199,7 @@ def test_esd_safe_topologies() -> None:
 # --- skip_unfit ---------------------------------------------------------------------------------
 
 def test_skip_unfit_drops_only_what_does_not_fit(lumen130: Deck) -> None:
-    # lumen130: 4 sites = 1.64 um; 4 fingers need 5 strips x 0.34 um + 2 x 0.10 um = 1.9 um > 1.64 um
+    # lumen130: 4 sites = 1.7 um; 4 fingers need 5 strips x 0.36 um + 2 x 0.11 um = 2.02 um > 1.7 um
     data = family(width_sites=[4, 8], fingers=[1, 4], skip_unfit=True)
     names = [s.name for s in parse_cells(data, lumen130)]
     assert names == ["fx-w4-h1-f1", "fx-w8-h1-f1", "fx-w8-h1-f4"]

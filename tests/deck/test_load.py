@@ -104,26 +104,73 @@ def test_demo_decks_have_distinct_hashes(demo_deck_paths: dict[str, tuple[Path, 
 
 # --- corners ------------------------------------------------------------------------------------
 
-def test_corners_apply_set_scale_and_supply_scale(demo_deck_name: str,
-                                                  demo_deck_paths: dict[str, tuple[Path, Path]]) -> None:
+def _tcr_factor(raw: dict[str, Any], path: str, temperature_C: float) -> float:
+    """1 + alpha (T - T0) of the resistance at ``path``, read from the deck file itself.
+
+    Source: the first-order resistivity law, docs/references.md [140] [DF].
+    """
+    tc = raw.get("resistance_tempco", {})
+    kind = {"resistances.gate_sheet_ohm_per_sq": "gate_sheet", "resistances.diffusion_sheet_ohm_per_sq":
+            "diffusion_sheet", "resistances.contact_ohm": "contact", "wells.nwell_sheet_ohm_per_sq": "well_sheet",
+            "wells.pwell_sheet_ohm_per_sq": "well_sheet"}.get(path)
+    if path.startswith("metals["):
+        kind = {"sheet_ohm_per_sq": "metal_sheet", "via_below_ohm": "via"}.get(path.split(".")[-1])
+    ppm = tc.get(f"{kind}_ppm_per_K", 0.0) if kind else 0.0
+    t0 = tc.get("reference_temperature_C", raw.get("reference_temperature_C", 25.0))
+    return 1.0 + ppm * 1e-6 * (temperature_C - t0)
+
+
+def test_corners_apply_set_scale_supply_scale_and_resistance_tempco(
+        demo_deck_name: str, demo_deck_paths: dict[str, tuple[Path, Path]]) -> None:
     deck_file, _ = demo_deck_paths[demo_deck_name]
     raw = tomllib.loads(deck_file.read_text(encoding="utf-8"))   # expected values from the file itself
     deck = load_deck(deck_file)
-    base = deck.model_dump(mode="json")
+    base = deck.full_dump()
     for name, corner in raw["corners"].items():
-        at = deck.at_corner(name).model_dump(mode="json")
+        at = deck.at_corner(name).full_dump()
+        tcr = lambda path, t=corner["temperature_C"]: _tcr_factor(raw, path, t)  # noqa: E731
         touched = set(corner.get("set", {})) | set(corner.get("scale", {}))
         for path, value in corner.get("set", {}).items():
-            assert _value(at, path) == pytest.approx(value, rel=1e-12), (name, path)
+            assert _value(at, path) == pytest.approx(value * tcr(path), rel=1e-12), (name, path)
         for path, factor in corner.get("scale", {}).items():
-            assert _value(at, path) == pytest.approx(_value(base, path) * factor, rel=1e-12), (name, path)
+            assert _value(at, path) == pytest.approx(_value(base, path) * factor * tcr(path), rel=1e-12), (name, path)
         supply_scale = corner.get("supply_scale", 1.0)
-        for path in ("supplies.core_V", "supplies.io_V"):
+        rails = ["supplies.core_V", "supplies.io_V",
+                 *(f"supplies.named.{n}.voltage_V" for n in raw["supplies"].get("named", {}))]
+        for path in rails:
             assert _value(at, path) == pytest.approx(_value(base, path) * supply_scale, rel=1e-12)
             touched.add(path)
         for path in numeric_paths(deck):
             if path not in touched:
-                assert _value(at, path) == _value(base, path), (name, path)
+                assert _value(at, path) == pytest.approx(_value(base, path) * tcr(path), rel=1e-12), (name, path)
+
+
+def test_hot_corner_raises_every_resistance_by_its_coefficient(lumen130: Deck) -> None:
+    # lumen130 gives gate sheet 8 ohm/sq at 25 degC with 2800 ppm/K; the leaky corner at 125 degC
+    # sets nothing on it: 8 x (1 + 2800e-6 x 100) = 10.24 ohm/sq. Contacts: 12 ohm, 1500 ppm/K ->
+    # 12 x 1.15 = 13.8 ohm. Source: docs/references.md [140] [DF]; rel 1e-12
+    hot = lumen130.at_corner("leaky_125C")
+    assert hot.resistances.gate_sheet_ohm_per_sq == pytest.approx(10.24, rel=1e-12)
+    assert hot.resistances.contact_ohm == pytest.approx(13.8, rel=1e-12)
+    # a cold corner lowers them: -40 degC, M2 sheet 0.07 ohm/sq x 0.9434 (corner scale) x
+    # (1 - 3300e-6 x 65) = 0.07 x 0.9434 x 0.7855
+    cold = lumen130.at_corner("fast_m40C")
+    assert cold.metals[1].sheet_ohm_per_sq == pytest.approx(0.07 * 0.9434 * 0.7855, rel=1e-12)
+    # the deck at its reference temperature is unchanged
+    assert lumen130.at_corner("typ_25C").resistances == lumen130.resistances
+
+
+def test_tempco_that_would_make_a_resistance_negative_is_refused(lumen130: Deck) -> None:
+    data = lumen130.full_dump()
+    data["resistance_tempco"]["contact_ppm_per_K"] = -5000.0    # 1 - 5000e-6 x 100 = 0.5 at 125 degC: fine
+    parse_deck(data)
+    data["corners"]["fast_m40C"]["temperature_C"] = -55.0
+    data["resistance_tempco"]["well_sheet_ppm_per_K"] = 15000.0  # 1 + 15000e-6 x (-80) = -0.2 at -55 degC
+    with pytest.raises(DeckError) as info:
+        parse_deck(data)
+    (problem,) = info.value.problems
+    assert problem.field == "resistance_tempco.well_sheet_ppm_per_K"
+    assert "fast_m40C" in problem.message and "-0.2" in problem.message
 
 
 def test_lumen130_slow_corner_by_hand(lumen130: Deck) -> None:
@@ -266,7 +313,7 @@ def test_find_line_in_a_demo_deck(lumen130_path: Path) -> None:
 
 
 def test_problems_carry_the_line_of_the_bad_value(tmp_path: Path, lumen130_path: Path) -> None:
-    text = lumen130_path.read_text(encoding="utf-8").replace("rail_clearance_um = 0.20", "rail_clearance_um = -0.2")
+    text = lumen130_path.read_text(encoding="utf-8").replace("rail_clearance_um = 0.17", "rail_clearance_um = -0.2")
     bad = tmp_path / "bad.toml"
     bad.write_text(text, encoding="utf-8")
     with pytest.raises(DeckError) as info:

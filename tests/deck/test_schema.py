@@ -253,7 +253,7 @@ def numeric_change(draw: st.DrawFn) -> tuple[str, str, float]:
     name = draw(st.sampled_from(DEMO))
     deck = demo_deck(name)
     path = draw(st.sampled_from(numeric_paths(deck)))
-    old = float(_value(deck.model_dump(mode="json"), path))
+    old = float(_value(deck.full_dump(), path))
     lo, hi = _bounds(path)
     a, b = sorted((old * 0.9, old * 1.1))
     a, b = max(a, lo), min(b, hi)
@@ -277,10 +277,10 @@ def test_numeric_change_round_trips_through_json(change: tuple[str, str, float])
         assert exc.problems and all(p.field for p in exc.problems), str(exc)
         assume(False)
         return
-    dumped = changed.model_dump(mode="json")
+    dumped = changed.full_dump()
     assert _value(dumped, path) == new
     # nothing else moved
-    before = deck.model_dump(mode="json")
+    before = deck.full_dump()
     for other in numeric_paths(deck):
         if other != path:
             assert _value(dumped, other) == _value(before, other), other
@@ -301,3 +301,28 @@ def test_numeric_paths_cover_nested_tables_and_lists() -> None:
     assert "oxides.core.t_ox_nm" not in paths          # not given in an EOT deck (None)
     assert not any(p.startswith("corners") for p in paths)
     assert "process.invented" not in paths and "oxides.core.centroid_model" not in paths  # booleans
+
+
+def test_fields_at_their_defaults_stay_out_of_the_hash_but_not_out_of_reach() -> None:
+    deck = demo_deck("lumen130")
+    data = deck.full_dump()
+    # a deck written before the row structure, width bias, named rails and coefficients existed
+    for key in ("nwell_height_um", "nwell_to_nwell_space_um", "deep_nwell_space_um"):
+        del data["layout"][key]
+    for metal in data["metals"]:
+        del metal["width_bias_nm"]
+    del data["supplies"]["named"]
+    del data["resistance_tempco"]
+    for corner in data["corners"].values():
+        corner["set"] = {k: v for k, v in corner["set"].items() if "width_bias" not in k}
+    older = Deck.model_validate(data)
+    canonical = older.model_dump(mode="json")
+    assert "resistance_tempco" not in canonical and "named" not in canonical["supplies"]
+    assert "nwell_height_um" not in canonical["layout"] and "width_bias_nm" not in canonical["metals"][0]
+    # every default is still a path corners and what-ifs may name
+    assert {"metals[0].width_bias_nm", "resistance_tempco.via_ppm_per_K"} <= set(numeric_paths(older))
+    assert older.with_changes({"metals[1].width_bias_nm": 5.0}).metals[1].width_bias_nm == 5.0
+    # the canonical dump reads back to the same deck (and hash)
+    again = Deck.model_validate(canonical)
+    assert again == older and again.content_hash == older.content_hash
+    assert again.layout.nwell_half_um == again.layout.row_height_um / 2

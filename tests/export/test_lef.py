@@ -67,7 +67,7 @@ def expected_rails(
     width = um(cell.geometry["resolved_cell_width_um"])
     height = um(cell.geometry["resolved_cell_height_um"])
     half, row = um(deck.layout.rail_width_um / 2), um(deck.layout.row_height_um)
-    power, ground = deck.supplies.rail_nets(cell.oxide)
+    power, ground = deck.supplies.rail_nets(cell.rail)
     return {
         ((ground, power)[k % 2], (0, max(0, k * row - half), width, min(height, k * row + half)))
         for k in range(cell.height_rows + 1)
@@ -116,7 +116,7 @@ def test_macros_load_in_klayout_and_match_the_cell_geometry(
         }
         assert pins == expected_rails(cell, deck, layout.dbu)
         assert {s.text.string for s in found[f"{rail}.LABEL"]} == set(
-            deck.supplies.rail_nets(cell.oxide)
+            deck.supplies.rail_nets(cell.rail)
         )
         assert not [n for n in found if n.endswith(".PIN") and not n.startswith(f"{rail}.")]
         # blockages: the rail layer over MOS devices, every MOM finger layer, nothing else
@@ -190,7 +190,7 @@ def test_technology_section_restates_the_deck(
     site = re.search(
         r"^SITE lumen130_core\n(.*?)^END lumen130_core$", text, re.MULTILINE | re.DOTALL
     ).group(1)
-    assert "CLASS CORE ;" in site and "SYMMETRY Y ;" in site and "SIZE 0.410 BY 3.690 ;" in site
+    assert "CLASS CORE ;" in site and "SYMMETRY Y ;" in site and "SIZE 0.425 BY 3.825 ;" in site
     assert "MANUFACTURINGGRID 0.005 ;" in text and "DATABASE MICRONS 1000 ;" in text
     head = "\n".join(line for line in text.splitlines() if line.startswith("#"))
     assert " ".join(CAUTION.split()) in " ".join(head.split()) and lumen130.content_hash in head
@@ -206,8 +206,13 @@ def test_macro_statements_follow_the_reference_order(
         keys = [line.split()[0] for line in body.splitlines() if re.match(r"^  [A-Z]", line)]
         keys = [k for k in keys if k in rank]
         assert keys == sorted(keys, key=rank.__getitem__)
-        assert keys[:5] == ["CLASS", "ORIGIN", "SIZE", "SYMMETRY", "SITE"]
-    assert text.count("CLASS CORE SPACER ;") == len(demo_view_runs["lumen130"].cells)
+        if "CLASS CORE SPACER ;" in body:      # core-row cells sit on the site, open-region cells not
+            assert keys[:5] == ["CLASS", "ORIGIN", "SIZE", "SYMMETRY", "SITE"]
+        else:
+            assert keys[:5] == ["CLASS", "ORIGIN", "SIZE", "SYMMETRY", "PIN"]
+    cells = demo_view_runs["lumen130"].cells
+    assert text.count("CLASS CORE SPACER ;") == sum(c.placement == "core_row" for c in cells)
+    assert text.count("CLASS PAD SPACER ;") == sum(c.placement == "open_region" for c in cells) > 0
 
 
 # --- placement class ------------------------------------------------------------------------
@@ -234,6 +239,21 @@ def test_placement_defaults_to_core_row_and_open_region_cells_are_pad_spacers(
     layout = read_lef(path)  # keep the layout alive while its shapes are looked at
     # Source: KLayout LEF reader
     assert shapes(layout, "ring_spacer")["OUTLINE"][0].box.width() == view.width
+
+
+def test_characterized_cells_carry_their_placement_and_rail(lumen130: Deck) -> None:
+    from celllab.cells import CellSpec
+    from celllab.engine import characterize
+
+    specs = [CellSpec(name="ring", topology="nmos_inversion", width_sites=8, placement="open_region"),
+             CellSpec(name="thick_core", topology="tied_cmos", oxide="io", rail="core", width_sites=16)]
+    ring, thick = characterize(lumen130, specs, corners=["typ_25C"]).cells
+    assert ring.geometry["placement"] == "open_region" and placement_class(ring) == "open_region"
+    grid = lef_grid(lumen130)
+    assert macro_view(ring, lumen130, grid).macro_class == "PAD SPACER"
+    view = macro_view(thick, lumen130, grid)
+    # a thick-oxide cell on the core rail connects to the core nets, not the I/O ones
+    assert (view.macro_class, set(view.pins)) == ("CORE SPACER", {"VDD", "VSS"})
 
 
 def test_unknown_placement_lists_the_allowed_ones(demo_view_runs: dict[str, Any]) -> None:

@@ -50,6 +50,32 @@ def lumen130() -> Deck:
     return load_deck(Path(__file__).resolve().parents[2] / "process_decks" / "lumen130.toml")
 
 
+# --- rails: each cell on the nets of the rail it decouples -------------------------------------
+
+
+def test_cells_use_the_nets_and_voltage_of_their_rail(lumen130: Deck) -> None:
+    from celllab.cells import CellSpec
+    from celllab.deck import parse_deck
+    from celllab.engine import characterize
+
+    data = lumen130.full_dump()
+    data["supplies"]["named"] = {"analog": {"voltage_V": 1.5, "power_net": "AVDD", "ground_net": "AVSS"}}
+    deck = parse_deck(data)
+    specs = [CellSpec(name="thick_core", topology="nmos_inversion", oxide="io", rail="core", width_sites=16),
+             CellSpec(name="thick_io", topology="nmos_inversion", oxide="io", width_sites=16),
+             CellSpec(name="thick_analog", topology="nmos_inversion", oxide="io", rail="analog", width_sites=16)]
+    cells = characterize(deck, specs, corners=["slow_125C"]).cells
+    # Source: liberty-parser (docs/references.md [134]); the slow corner scales every rail by 0.9
+    lib = parse(render_liberty(cells, deck, "slow_125C", date=DATE))
+    voltages = {net: v for net, v in lib.get_attributes("voltage_map")}
+    assert voltages == pytest.approx({"VDD": 1.08, "VSS": 0.0, "VDDIO": 2.97, "VSSIO": 0.0, "AVDD": 1.35,
+                                      "AVSS": 0.0}, rel=1e-12)
+    pins = {plain(g.args[0]): {plain(p.args[0]) for p in g.get_groups("pg_pin")} for g in lib.get_groups("cell")}
+    assert pins == {"thick_core": {"VDD", "VSS"}, "thick_io": {"VDDIO", "VSSIO"}, "thick_analog": {"AVDD", "AVSS"}}
+    # the thick-oxide cell on the core rail was characterized at the core supply
+    assert cells[0].corners[0].supply_V == pytest.approx(1.08, rel=1e-12)
+
+
 # --- every demo process: CLI -> files -> outside parser -> equal to the catalog ---------------
 
 
@@ -103,7 +129,7 @@ def test_every_library_parses_and_reads_back_the_catalog(
         assert {plain(c.args[0]) for c in cells} == set(rows[corner])
         for group in cells:
             row = rows[corner][plain(group.args[0])]
-            power, ground = at.supplies.rail_nets(row["oxide"])
+            power, ground = at.supplies.rail_nets(row["rail"])
             assert group["area"] == row["area_um2"]
             assert group["is_decap_cell"] == "true"
             # P = V x I with the catalog's supply and leakage at this corner (no junction part yet)

@@ -120,3 +120,114 @@ def op_voltages(element_lines: list[str], nodes: list[str], workdir: Path) -> di
             raise RuntimeError(f"v({n}) not found in ngspice output:\n{out}")
         values[n] = float(match.group(1))
     return values
+
+
+# --- transient analyses ----------------------------------------------------------------------
+
+
+def _v(node: str, ground: str) -> str:
+    return "0" if node == ground else f"v({_spice_node(node, ground)})"
+
+
+def _pick(value: object, variant: int) -> float:
+    arr = np.asarray(value, dtype=float).reshape(-1)
+    return float(arr[0] if arr.size == 1 else arr[variant])
+
+
+def render_transient(expanded: object, variant: int, ground: str) -> list[str]:
+    """Element lines of an expanded transient circuit (`celllab.physics.transient.Expanded`).
+
+    Linear elements as R, C, L; every square-law channel and rail clamp as ngspice B-sources
+    written from the laws stated in their docstrings (a clamp's activation state on its own
+    node ``s_<name>`` with C = t_response, 1 ohm to ground and a current a(v) into it).
+    """
+    from celllab.physics import transient as tr
+
+    lines = []
+    for el in expanded.variant(variant):  # type: ignore[attr-defined]
+        a, b = _spice_node(el.node_a, ground), _spice_node(el.node_b, ground)
+        lines.append(f"{el.kind}{re.sub(r'[^A-Za-z0-9_]', '_', el.name)} {a} {b} {el.value:.12e}")
+    w = tr.SMOOTHING_V
+
+    def sp(x: str) -> str:
+        return f"{w:.6e}*(max(({x})/{w:.6e},0)+ln(1+exp(-abs(({x})/{w:.6e}))))"
+
+    for el in expanded.nonlinear:  # type: ignore[attr-defined]
+        name = re.sub(r"[^A-Za-z0-9_]", "_", el.name)
+        if isinstance(el, tr.SquareLawChannel):
+            s = 1.0 if el.polarity == "n" else -1.0
+            k, vt = _pick(el.beta, variant), _pick(el.v_threshold, variant)
+            g, va, vb = _v(el.gate, ground), _v(el.node_a, ground), _v(el.node_b, ground)
+            ua = f"max({s:g}*({g}-{va})-({vt:.12e}),0)"
+            ub = f"max({s:g}*({g}-{vb})-({vt:.12e}),0)"
+            lines.append(f"B{name} {_spice_node(el.node_a, ground)} {_spice_node(el.node_b, ground)}"
+                         f" I = {s * 0.5 * k:.12e}*({ub}*{ub}-{ua}*{ua})")
+        elif isinstance(el, tr.RailClamp):
+            p, n = _spice_node(el.node_pos, ground), _spice_node(el.node_neg, ground)
+            v = f"({_v(el.node_pos, ground)}-{_v(el.node_neg, ground)})"
+            von, ron = _pick(el.v_on, variant), _pick(el.r_on, variant)
+            vd = _pick(el.v_diode, variant)
+            rd = _pick(el.r_on if el.r_diode is None else el.r_diode, variant)
+            tau = _pick(el.t_response, variant)
+            lines.append(f"Rs_{name} s_{name} 0 1")
+            if tau > 0:
+                lines.append(f"Cs_{name} s_{name} 0 {tau:.12e}")
+            lines.append(f"Bs_{name} 0 s_{name} I = 0.5*(1+tanh(({v}-{von:.12e})/{w:.6e}))")
+            lines.append(f"B{name} {p} {n} I = v(s_{name})*{1 / ron:.12e}*{sp(f'{v}-{von:.12e}')}"
+                         f" - {1 / rd:.12e}*{sp(f'-{v}-{vd:.12e}')}")
+        else:
+            raise ValueError(f"{el.name}: no ngspice rendering for {type(el).__name__}")
+    return lines
+
+
+def transient(
+    element_lines: list[str],
+    expressions: list[str],
+    workdir: Path,
+    t_stop: float,
+    t_max_step: float,
+    initial: dict[str, float] | None = None,
+    options: str = "",
+) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
+    """``.tran`` with ``uic`` and ``.ic`` node voltages; returns (t, values (n_t, n_expr)).
+
+    Every node gets 1e12 ohm to ground (``rshunt``), as the celllab solver's gmin does.
+    """
+    ic = " ".join(f"v({n})={v:.12e}" for n, v in (initial or {}).items())
+    deck = "\n".join(
+        [
+            "transient",
+            f".options rshunt=1e12 {options}",
+            *element_lines,
+            *([f".ic {ic}"] if ic else []),
+            ".control",
+            f"tran {t_max_step:.6e} {t_stop:.6e} 0 {t_max_step:.6e} uic",
+            f"wrdata tran.txt {' '.join(expressions)}",
+            "quit",
+            ".endc",
+            ".end",
+            "",
+        ]
+    )
+    run_deck(deck, workdir, "tran")
+    data = np.atleast_2d(np.loadtxt(workdir / "tran.txt"))
+    return data[:, 0], data[:, 1::2]
+
+
+def dc_operating_point(element_lines: list[str], expressions: list[str], workdir: Path,
+                       nodeset: dict[str, float] | None = None) -> list[float]:
+    """``op`` with optional ``.nodeset``; returns the values of ``expressions`` (``let`` names)."""
+    ns = " ".join(f"v({n})={v:.12e}" for n, v in (nodeset or {}).items())
+    lets = [f"let probe{k} = {e}" for k, e in enumerate(expressions)]
+    prints = " ".join(f"probe{k}" for k in range(len(expressions)))
+    deck = "\n".join(["operating point", ".options rshunt=1e12", *element_lines,
+                      *([f".nodeset {ns}"] if ns else []), ".control", "op", *lets,
+                      f"print {prints}", "quit", ".endc", ".end", ""])
+    out = run_deck(deck, workdir, "op")
+    values = []
+    for k in range(len(expressions)):
+        match = re.search(rf"^probe{k}\s*=\s*(\S+)", out, re.MULTILINE)
+        if match is None:
+            raise RuntimeError(f"probe{k} not found in ngspice output:\n{out}")
+        values.append(float(match.group(1)))
+    return values

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from celllab.physics.distributed_rc import rc_line_impedance
 from celllab.physics.netlist import Element, Netlist, ladder_expansion, parallel, solve_impedance
@@ -191,3 +193,148 @@ def test_bad_netlists_rejected(build: object, message: str) -> None:
 def test_bad_frequencies_rejected() -> None:
     with pytest.raises(ValueError, match="> 0"):
         solve_impedance(_line(1.0, 1e-12), [0.0, 1.0])
+
+
+# ------------------------------------------------------------- transfer impedances, Z-matrix
+
+
+def _tee() -> Netlist:
+    """a -R1- m -R2- b, with C from m to ground and an L from b to ground."""
+    return Netlist(
+        "tee",
+        (
+            Element("R", "r1", "a", "m", 2.0),
+            Element("R", "r2", "m", "b", 3.0),
+            Element("C", "c", "m", "gnd", 1e-9),
+            Element("L", "l", "b", "gnd", 1e-9),
+        ),
+        ports=("a", "gnd"),
+    )
+
+
+def test_z_matrix_of_a_tee_is_the_closed_form() -> None:
+    # Source: two-port Z-parameters of a tee (circuit theory: Z11 = R1 + Zm, Z12 = Zm ...,
+    # Zm = Z_C || (R2 + Z_L) seen from m); rel 1e-9
+    from celllab.physics.netlist import solve_z_matrix
+
+    z = solve_z_matrix(_tee(), F, ["a", "b"])[0]
+    zc, zl = 1 / (1j * W * 1e-9), 1j * W * 1e-9
+    z_mm = zc * (3.0 + zl) / (zc + 3.0 + zl)  # impedance at m (a open)
+    z_bb = zl * (3.0 + zc) / (zl + 3.0 + zc)
+    np.testing.assert_allclose(z[:, 0, 0], 2.0 + z_mm, rtol=1e-9)
+    np.testing.assert_allclose(z[:, 1, 1], z_bb, rtol=1e-9)
+    # transfer: 1 A into a -> V_m = Z_mm, V_b = V_m Z_L / (R2 + Z_L)
+    np.testing.assert_allclose(z[:, 1, 0], z_mm * zl / (3.0 + zl), rtol=1e-9)
+    # reciprocity (Z12 = Z21) of a passive RLC network; rel 1e-9
+    np.testing.assert_allclose(z[:, 0, 1], z[:, 1, 0], rtol=1e-9)
+
+
+def test_transfer_agrees_with_solve_impedance_and_reads_the_ground_as_zero() -> None:
+    from celllab.physics.netlist import solve_transfer
+
+    nl = _tee()
+    t = solve_transfer(nl, F, ["a"], ["a", "m", "gnd"])
+    np.testing.assert_allclose(t[:, :, 0, 0], solve_impedance(nl, F), rtol=1e-12)
+    assert np.all(t[:, :, 2, 0] == 0)
+    with pytest.raises(ValueError, match="no node"):
+        solve_transfer(nl, F, ["nowhere"])
+
+
+def test_shunt_admittance_is_the_embedded_sub_network() -> None:
+    # Source: a two-terminal sub-network acts on the rest only through its admittance
+    # (Thevenin/Norton); rel 1e-9 against the same network with the elements in place
+    from celllab.physics.netlist import solve_z_matrix
+
+    base = _tee()
+    sub = Netlist("sub", (Element("R", "esr", "vdd", "x", 0.5), Element("C", "cx", "x", "vss", 2e-9)))
+    embedded = Netlist(
+        "tee_sub",
+        (*base.elements, Element("R", "esr", "m", "x", 0.5), Element("C", "cx", "x", "gnd", 2e-9)),
+        ports=("a", "gnd"),
+    )
+    y_sub = 1 / solve_impedance(sub, F)
+    reduced = solve_z_matrix(base, F, ["a", "b", "m"], {"m": y_sub[0]})
+    full = solve_z_matrix(embedded, F, ["a", "b", "m"])
+    np.testing.assert_allclose(reduced, full, rtol=1e-9)
+
+
+# ------------------------------------------------------------------- parallel copies, stacking
+
+
+def _mixed_cell() -> Netlist:
+    return Netlist(
+        "cell",
+        (
+            Element("L", "esl", "vdd", "g_in", 7e-12),
+            Element("R", "rg", "g_in", "g", 1.5),
+            Element("RCLINE", "ch", "sd", "g", 800.0, 2e-13, contacted_ends=2),
+            Element("RCLINE", "wire", "g", "vss", 40.0, 1e-15, node_far="t"),
+            Element("C", "cov", "t", "sd", 3e-15),
+            Element("R", "rsd", "sd", "vss", 6.0),
+        ),
+    )
+
+
+@pytest.mark.parametrize("count", [1, 3, 250])
+def test_scale_parallel_equals_explicit_copies(count: int) -> None:
+    # Source: N identical one-ports in parallel have Z / N (circuit theory); checked against
+    # the N copies joined explicitly by `parallel` (own internal nodes each); rel 1e-9
+    from celllab.physics.netlist import scale_parallel
+
+    cell = _mixed_cell()
+    explicit = parallel("many", [replace_name(cell, f"k{i}") for i in range(min(count, 12))])
+    scaled = scale_parallel(cell, count)
+    z_cell = solve_impedance(cell, F)
+    np.testing.assert_allclose(solve_impedance(scaled, F), z_cell / count, rtol=1e-9)
+    if count <= 12:
+        np.testing.assert_allclose(solve_impedance(explicit, F), z_cell / count, rtol=1e-9)
+    assert scaled.element("esl").value == pytest.approx(7e-12 / count)
+    assert scaled.element("ch").c_total == pytest.approx(2e-13 * count)
+    assert scaled.element("cov").value == pytest.approx(3e-15 * count)
+
+
+def replace_name(nl: Netlist, name: str) -> Netlist:
+    return Netlist(name, nl.elements, nl.ports)
+
+
+@pytest.mark.parametrize("bad", [0, -2, float("nan"), float("inf")])
+def test_scale_parallel_rejects_non_positive_counts(bad: float) -> None:
+    from celllab.physics.netlist import scale_parallel
+
+    with pytest.raises(ValueError, match="count"):
+        scale_parallel(_mixed_cell(), bad)
+
+
+def test_stack_variants_keeps_each_netlist_as_a_variant() -> None:
+    from celllab.physics.netlist import scale_parallel, stack_variants
+
+    a, b = _mixed_cell(), scale_parallel(_mixed_cell(), 4)
+    stacked = stack_variants("both", [a, b])
+    assert stacked.n_variant == 2
+    z = solve_impedance(stacked, F)
+    np.testing.assert_allclose(z[0], solve_impedance(a, F)[0], rtol=1e-12)
+    np.testing.assert_allclose(z[1], solve_impedance(b, F)[0], rtol=1e-12)
+    other = Netlist("other", (Element("C", "c", "vdd", "vss", 1e-12),))
+    with pytest.raises(ValueError, match="structure"):
+        stack_variants("bad", [a, other])
+
+
+@given(
+    values=st.lists(st.floats(0.01, 100.0), min_size=6, max_size=6),
+    freq=st.floats(1e3, 1e10),
+)
+@settings(max_examples=40, deadline=None)
+def test_z_matrix_is_reciprocal_and_passive(values: list[float], freq: float) -> None:
+    # Invariants of passive RLC networks (circuit theory): Z symmetric (reciprocity) and
+    # Re Z_ii >= 0 (passivity); rel 1e-9
+    from celllab.physics.netlist import solve_z_matrix
+
+    r1, r2, r3, c1, c2, l1 = values
+    nl = Netlist("mesh", (
+        Element("R", "r1", "a", "b", r1), Element("R", "r2", "b", "c", r2),
+        Element("R", "r3", "c", "gnd", r3), Element("C", "c1", "a", "gnd", c1 * 1e-12),
+        Element("C", "c2", "b", "gnd", c2 * 1e-12), Element("L", "l1", "a", "c", l1 * 1e-10),
+    ), ports=("a", "gnd"))
+    z = solve_z_matrix(nl, [freq], ["a", "b", "c"])[0, 0]
+    np.testing.assert_allclose(z, z.T, rtol=1e-9, atol=1e-12 * np.abs(z).max())
+    assert np.all(np.diag(z).real >= -1e-12 * np.abs(z).max())

@@ -1,12 +1,10 @@
-"""Block files: the demo blocks load; every bad input is a located PlanError, not a traceback.
-
-Each bad case is checked through the library (PlanError, field, line, message) and through
-``celllab plan`` (exit 2, the problem on stderr naming file:line and field, no traceback).
-"""
+"""Block files: the demo blocks load; every bad input is a located PlanError (file, line,
+field, value, what is allowed), never a traceback, and ``celllab plan`` exits 2 writing
+nothing."""
 
 from __future__ import annotations
 
-import json
+import tomllib
 from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
@@ -18,7 +16,7 @@ from celllab.cli.main import main
 from celllab.errors import PlanError
 from celllab.planner import load_block, plan_block
 
-from . import DECK, IdealCell, block_text, synthetic_catalog
+from . import DECK, IdealCell, block_text, synthetic_catalog, toml_text
 
 REPO = Path(__file__).resolve().parents[2]
 BLOCKS = REPO / "process_decks" / "blocks"
@@ -37,27 +35,49 @@ def test_demo_blocks_load_and_are_marked_invented(name: str) -> None:
     path = BLOCKS / f"{name}.toml"
     block = load_block(path)
     assert block.block.deck == name.split("_")[0]
-    assert block.fill.max_kinds >= 1 and block.block.empty_sites > 0
     assert path.read_text().startswith("# INVENTED DEMO DATA")
+    assert block.region and all(r.row_gaps or r.open_slots for r in block.region)
 
 
-def test_defaults_and_supply_from_deck(tmp_path: Path, catalog: Catalog) -> None:
+def test_demo_inventory_mixes_corners_spacers_and_a_filler_histogram() -> None:
+    # Source: the demo scenario: two regions, one ESD-safe-only; corner cells, two spacer
+    # widths and a histogram of filler widths
+    block = load_block(BLOCKS / "lumen130_dsp.toml")
+    assert len(block.region) == 2 and sum(r.esd_safe_only for r in block.region) == 1
+    slots = [s for r in block.region for s in r.open_slots]
+    assert any(s.role == "corner" for s in slots)
+    assert len({s.width_um for s in slots if s.role == "spacer"}) == 2
+    fillers = [g for r in block.region for g in r.row_gaps if g.role == "filler"]
+    assert max(len(g.width_sites) for g in fillers) >= 8
+
+
+def test_network_table_is_kept_as_given(tmp_path: Path) -> None:
+    # Source: the block-file contract: [network] belongs to the supply-network model
+    text = block_text() + "\n[network]\ngrid = { mesh_um = 50 }\n[[network.bump]]\nx_um = 1\n"
     path = tmp_path / "b.toml"
-    path.write_text(block_text(block_supply_V=None, fill_corner=None, fill_max_kinds=None,
-                               fill_where=None, fill_require_esd_safe=None))
+    path.write_text(text)
     block = load_block(path)
-    assert block.block.supply_V is None
-    assert (block.fill.corner, block.fill.max_kinds, block.fill.where) == ("worst", 3, "")
-    plan = plan_block(block, catalog)
-    assert plan.supply == 1.0  # the deck's supplies.core_V
+    assert block.network == {"grid": {"mesh_um": 50}, "bump": [{"x_um": 1}]}
 
 
-def test_require_esd_safe_excludes_cells(tmp_path: Path, catalog: Catalog) -> None:
-    path = tmp_path / "b.toml"
-    path.write_text(block_text(fill_require_esd_safe=True))
-    plan = plan_block(load_block(path), catalog)
-    assert [c.name for c in plan.cells] == ["ideal_a"]
-    assert plan.excluded == {"not esd_safe": 1}
+def test_earlier_layout_gets_a_migration_message(tmp_path: Path,
+                                                 capsys: pytest.CaptureFixture[str]) -> None:
+    old = ("[block]\nname = \"b\"\ndeck = \"d\"\nempty_sites = 400000\nrow_sites = 1400\n"
+           "leakage_budget_uA = 15\n\n[fill]\nwhere = \"\"\nmax_kinds = 3\n")
+    path = tmp_path / "old.toml"
+    path.write_text(old)
+    with pytest.raises(PlanError) as info:
+        load_block(path)
+    problems = {p.field: p for p in info.value.problems}
+    assert set(problems) == {"block.empty_sites", "block.row_sites", "block.leakage_budget_uA",
+                             "fill"}
+    assert problems["block.empty_sites"].line == 4
+    assert "[[region.row_gaps]]" in problems["block.empty_sites"].message
+    assert "leakage_uA under [budgets]" in problems["block.leakage_budget_uA"].message
+    assert problems["fill"].line == 8
+    assert main(["plan", str(path), "--catalog", str(tmp_path / "none.sqlite")]) == 2
+    err = capsys.readouterr().err
+    assert f"{path}:4: block.empty_sites = 400000" in err and "Traceback" not in err
 
 
 @dataclass(frozen=True)
@@ -65,52 +85,93 @@ class Bad:
     text: Callable[[], str]
     field: str
     message: str
-    line: int | None  # expected line in the file (None: not checked)
+    line_of: str | None       # text of the line the problem must point at
     needs_catalog: bool = False
 
 
-def _sub(old: str, new: str) -> Callable[[], str]:
+def _sub(old: str, new: str, **changes: object) -> Callable[[], str]:
     def make() -> str:
-        text = block_text()
+        text = block_text(**changes)
         assert text.count(old) == 1, old
         return text.replace(old, new)
     return make
 
 
-def _line_of(key: str) -> int:
-    return next(i for i, line in enumerate(block_text().splitlines(), 1) if line.startswith(key))
+def _two_regions(second: dict[str, object]) -> Callable[[], str]:
+    def make() -> str:
+        first = {"name": "core", "frequency_MHz": 100.0,
+                 "row_gaps": [{"name": "fill", "width_sites": [4], "count": [10]}]}
+        return block_text(region=[first, second])
+    return make
 
 
+GAPS = [{"name": "g", "width_sites": [4, 8], "count": [3, 1]}]
 BAD = {
     "toml_syntax": Bad(_sub("activity = 1.0", "activity = = 1.0"), "", "TOML syntax error",
-                       _line_of("activity")),
-    "missing_field": Bad(lambda: block_text(block_clock_GHz=None), "block.clock_GHz",
-                         "required field is missing", _line_of("[block]")),
+                       "activity = = 1.0"),
+    "missing_field": Bad(lambda: block_text(block__clock_GHz=None), "block.clock_GHz",
+                         "required field is missing", "[block]"),
     "typo_field": Bad(_sub("activity = 1.0", "activty = 1.0"), "block.activty",
-                      "did you mean 'activity'", _line_of("activity")),
-    "negative_sites": Bad(lambda: block_text(block_empty_sites=-5), "block.empty_sites",
-                          "greater than 0", _line_of("empty_sites")),
-    "activity_above_one": Bad(lambda: block_text(block_activity=1.5), "block.activity",
-                              "less than or equal to 1", _line_of("activity")),
-    "zero_ripple": Bad(lambda: block_text(block_ripple_fraction=0.0), "block.ripple_fraction",
-                       "greater than 0", _line_of("ripple_fraction")),
-    "text_for_number": Bad(lambda: block_text(block_ripple_fraction="5%"),
-                           "block.ripple_fraction", "valid number", _line_of("ripple_fraction")),
-    "float_for_count": Bad(lambda: block_text(block_row_sites=1000.5), "block.row_sites",
-                           "valid integer", _line_of("row_sites")),
-    "zero_kinds": Bad(lambda: block_text(fill_max_kinds=0), "fill.max_kinds",
-                      "greater than or equal to 1", _line_of("max_kinds")),
-    "unknown_table": Bad(_sub("[fill]", "[fil]"), "fil", "did you mean 'fill'", None),
-    "unknown_deck": Bad(lambda: block_text(block_deck="invented_pdm"), "block.deck",
-                        f"allowed: {DECK}. Did you mean '{DECK}'", _line_of("deck"), True),
-    "unknown_corner": Bad(lambda: block_text(fill_corner="slow_125"), "fill.corner",
-                          "Did you mean 'slow_125C'", _line_of("corner"), True),
-    "bad_filter": Bad(lambda: block_text(fill_where="cap_fd > 10"), "fill.where",
-                      "did you mean 'cap_fF'", _line_of("where"), True),
-    "no_candidates": Bad(lambda: block_text(fill_where="cap_fF > 1e6"), "fill.where",
-                         "no cell of deck", _line_of("where"), True),
-    "too_narrow_rows": Bad(lambda: block_text(block_row_sites=1), "fill.where",
-                           "2 wider than a row", _line_of("where"), True),
+                      "did you mean 'activity'", "activty = 1.0"),
+    "typo_table": Bad(_sub("[budgets]", "[budget]"), "budget", "did you mean 'budgets'",
+                      "[budget]"),
+    "unknown_goal": Bad(lambda: block_text(objective__goal="max_cap"), "objective.goal",
+                        "allowed: max_useful_cap or min_leakage", 'goal = "max_cap"'),
+    "count_length": Bad(_two_regions({"name": "ring", "frequency_MHz": 50.0, "row_gaps": [
+        {"name": "h", "width_sites": [4, 8], "count": [3]}]}), "region[1].row_gaps[0].count",
+        "one count per width", "count = [3]"),
+    "negative_width": Bad(_two_regions({"name": "ring", "row_gaps": [
+        {"name": "h", "width_sites": [4, -8], "count": [3, 1]}]}),
+        "region[1].row_gaps[0].width_sites[1]", "greater than or equal to 1",
+        "width_sites = [4, -8]"),
+    "repeated_width": Bad(_two_regions({"name": "ring", "row_gaps": [
+        {"name": "h", "width_sites": [4, 4], "count": [3, 1]}]}),
+        "region[1].row_gaps[0].width_sites", "distinct", "width_sites = [4, 4]"),
+    "zero_slot_width": Bad(_two_regions({"name": "ring", "open_slots": [
+        {"name": "c", "width_um": 0.0, "height_um": 5.0, "count": 2}]}),
+        "region[1].open_slots[0].width_um", "greater than 0", "width_um = 0.0"),
+    "bad_role": Bad(_two_regions({"name": "ring", "open_slots": [
+        {"name": "c", "role": "pad", "width_um": 3.0, "height_um": 5.0, "count": 2}]}),
+        "region[1].open_slots[0].role", "allowed: corner, spacer, filler or other",
+        'role = "pad"'),
+    "no_gaps": Bad(_two_regions({"name": "ring"}), "region[1]",
+                   "at least one [[region.open_slots]] or [[region.row_gaps]]", None),
+    "duplicate_region": Bad(_two_regions({"name": "core", "row_gaps": GAPS}),
+                            "region[1].name", "must be unique", None),
+    "quiet_with_activity": Bad(_two_regions({"name": "ring", "quiet": True,
+                                             "charge_per_cycle_pC": 5.0, "row_gaps": GAPS}),
+                               "region[1].charge_per_cycle_pC", "quiet region draws no",
+                               "charge_per_cycle_pC = 5.0"),
+    "two_activity_forms": Bad(_two_regions({"name": "ring", "charge_per_cycle_pC": 5.0,
+                                            "peak_current_mA": 3.0, "rise_time_ps": 10.0,
+                                            "row_gaps": GAPS}),
+                              "region[1].peak_current_mA", "one way only",
+                              "peak_current_mA = 3.0"),
+    "power_without_clock": Bad(_two_regions({"name": "ring", "switching_power_mW": 5.0,
+                                             "row_gaps": GAPS}),
+                               "region[1].clock_MHz", "required with switching_power_mW",
+                               None),
+    "min_leakage_without_targets": Bad(
+        lambda: block_text(objective__goal="min_leakage"), "objective.goal",
+        "needs a target in at least one region", 'goal = "min_leakage"'),
+    "negative_budget": Bad(lambda: block_text(budgets__leakage_uA=-1.0), "budgets.leakage_uA",
+                           "greater than or equal to 0", "leakage_uA = -1.0"),
+    "wearout_without_mission": Bad(
+        lambda: block_text(budgets__wearout={"failure_ppm": 10.0}),
+        "budgets.wearout.mission", "required field is missing", None),
+    "unknown_deck": Bad(lambda: block_text(block__deck="invented_pdm"), "block.deck",
+                        f"allowed: {DECK}. Did you mean '{DECK}'", 'deck = "invented_pdm"',
+                        True),
+    "unknown_corner": Bad(lambda: block_text(candidates__corner="slow_125"),
+                          "candidates.corner", "Did you mean 'slow_125C'",
+                          'corner = "slow_125"', True),
+    "bad_filter": Bad(lambda: block_text(candidates__where="cap_fd > 10"), "candidates.where",
+                      "did you mean 'cap_fF'", 'where = "cap_fd > 10"', True),
+    "no_candidates": Bad(lambda: block_text(candidates__where="cap_fF > 1e6"),
+                         "candidates.where", "no cell of deck", 'where = "cap_fF > 1e6"', True),
+    "frequency_outside_sweep": Bad(lambda: block_text(region__0__frequency_MHz=1e5),
+                                   "region[0].frequency_MHz", "outside the stored Z(f) sweeps",
+                                   "frequency_MHz = 100000.0", True),
 }
 
 
@@ -126,46 +187,45 @@ def _problems(path: Path, catalog: Catalog, needs_catalog: bool) -> PlanError:
 def test_bad_block_file_is_located(case: str, tmp_path: Path, catalog: Catalog,
                                    capsys: pytest.CaptureFixture[str]) -> None:
     bad = BAD[case]
+    text = bad.text()
     path = tmp_path / "bad.toml"
-    path.write_text(bad.text())
+    path.write_text(text)
     err = _problems(path, catalog, bad.needs_catalog)
     matching = [p for p in err.problems if p.field == bad.field]
     assert matching, [str(p) for p in err.problems]
     p = matching[0]
     assert p.file == str(path)
     assert bad.message in p.message, p.message
-    if bad.line is not None:
-        assert p.line == bad.line
+    line = None
+    if bad.line_of is not None:
+        line = text.splitlines().index(bad.line_of) + 1
+        assert p.line == line
     assert str(path) in str(err)
 
-    code = main(["plan", str(path), "--catalog", str(catalog.path)])
+    out_dir = tmp_path / "out"
+    code = main(["plan", str(path), "--catalog", str(catalog.path), "--out", str(out_dir)])
     out, errout = capsys.readouterr()
     assert code == 2 and out == ""
     assert "Traceback" not in errout
-    where = f"{path}:{bad.line}" if bad.line is not None else str(path)
+    where = f"{path}:{line}" if line is not None else str(path)
     assert where in errout and bad.field in errout
+    assert not out_dir.exists()  # nothing written
 
 
 def test_all_problems_reported_at_once(tmp_path: Path, catalog: Catalog) -> None:
     path = tmp_path / "bad.toml"
-    path.write_text(block_text(block_activity=0.0, block_clock_GHz=-1.0, fill_max_kinds=0))
+    path.write_text(block_text(block__activity=0.0, block__clock_GHz=-1.0,
+                               budgets__max_kinds=0))
     err = _problems(path, catalog, False)
     assert {p.field for p in err.problems} == {"block.activity", "block.clock_GHz",
-                                               "fill.max_kinds"}
+                                               "budgets.max_kinds"}
 
 
-def test_missing_file_and_missing_supply(tmp_path: Path) -> None:
-    err = _problems(tmp_path / "nope.toml", None, False)  # type: ignore[arg-type]
-    assert "file not found" in str(err)
-    cat = synthetic_catalog(tmp_path / "nosupply.sqlite", [IdealCell("ideal_a", 100.0)],
-                            supply_V=None)
-    path = tmp_path / "b.toml"
-    path.write_text(block_text(block_supply_V=None))
-    err = _problems(path, cat, True)
-    assert err.problems[0].field == "block.supply_V" and "stores no core supply" in str(err)
-
-
-def test_missing_catalog_exits_2(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+def test_missing_file_and_missing_catalog(tmp_path: Path,
+                                          capsys: pytest.CaptureFixture[str]) -> None:
+    with pytest.raises(PlanError) as info:
+        load_block(tmp_path / "nope.toml")
+    assert "file not found" in str(info.value)
     path = tmp_path / "b.toml"
     path.write_text(block_text())
     code = main(["plan", str(path), "--catalog", str(tmp_path / "absent.sqlite")])
@@ -174,26 +234,7 @@ def test_missing_catalog_exits_2(tmp_path: Path, capsys: pytest.CaptureFixture[s
     assert not (tmp_path / "absent.sqlite").exists()
 
 
-def test_no_cell_fits_leaves_intrinsic_decap(tmp_path: Path, catalog: Catalog,
-                                             capsys: pytest.CaptureFixture[str]) -> None:
-    # Source: the problem statement: every cell leaks, the budget is 0 -> an empty fill; the
-    # die keeps the intrinsic decap of the non-switching logic (activity 0.5)
-    path = tmp_path / "b.toml"
-    path.write_text(block_text(block_leakage_budget_uA=0.0, block_activity=0.5,
-                               fill_where="name = 'ideal_a'"))
-    plan = plan_block(load_block(path), catalog)
-    assert plan.cells == [] and plan.fill_capacitance == 0.0 and plan.intrinsic_capacitance > 0
-    assert plan.to_dict()["leakage_nA_per_nF"] is None
-    assert main(["plan", str(path), "--catalog", str(catalog.path), "--json"]) == 0
-    assert json.loads(capsys.readouterr().out)["cells"] == []
-    assert main(["plan", str(path), "--catalog", str(catalog.path)]) == 0
-    assert "No cell fits" in capsys.readouterr().out
-
-
-def test_no_capacitance_at_all_is_a_located_error(tmp_path: Path, catalog: Catalog) -> None:
-    path = tmp_path / "b.toml"
-    path.write_text(block_text(block_leakage_budget_uA=0.0, block_activity=1.0,
-                               fill_where="name = 'ideal_a'"))
-    err = _problems(path, catalog, True)
-    assert err.problems[0].field == "block.leakage_budget_uA"
-    assert "no capacitance" in err.problems[0].message
+def test_block_text_helper_round_trips() -> None:
+    # Source: Python's tomllib reads what the test helper writes
+    data = tomllib.loads(toml_text({"a": {"b": 1}, "r": [{"n": "x", "s": [{"k": 2}]}]}))
+    assert data == {"a": {"b": 1}, "r": [{"n": "x", "s": [{"k": 2}]}]}

@@ -7,6 +7,7 @@ language and the what-if field list to know it; nothing else is edited.
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from collections.abc import Iterator, Sequence
 from typing import Any
@@ -72,8 +73,8 @@ def toy() -> Iterator[Topology]:
 # --- the built-in declarations -------------------------------------------------------------------
 
 def test_built_in_topologies_in_listing_order() -> None:
-    assert REGISTRY.names() == ("nmos_inversion", "pmos_inversion", "accumulation", "cross_coupled", "mom",
-                                "mos_mom")
+    assert REGISTRY.names() == ("nmos_inversion", "pmos_inversion", "accumulation", "tied_cmos", "cross_coupled",
+                                "mom", "mos_mom")
     # contract: no gate tied directly to a rail in cross_coupled and mom cells
     assert REGISTRY.esd_safe_names() == {"cross_coupled", "mom"}
 
@@ -118,7 +119,24 @@ def test_toy_topology_is_validated_from_the_registry(toy: Topology) -> None:
     with pytest.raises(CellError) as err:
         parse_cells({"cell": [{"name": "x", "topology": "toy_plat", "width_sites": 4}]})
     assert "toy_plate" in str(err.value) and "did you mean 'toy_plate'" in str(err.value).lower()
-    assert relevant_fields("toy_plate", list(GEOMETRY_FIELDS)) == ["width_sites", "height_rows", "fingers"]
+    assert relevant_fields("toy_plate", list(GEOMETRY_FIELDS)) == ["width_sites", "height_rows", "placement",
+                                                                   "fingers"]
+
+
+def test_placements_are_declared_per_topology(toy: Topology) -> None:
+    # every built-in topology may sit in a core row or an open region
+    assert all(REGISTRY.placements_of(n) == ("core_row", "open_region") for n in REGISTRY if n != "toy_plate")
+    ring_only = dataclasses.replace(TOY, placements=frozenset({"open_region"}))
+    REGISTRY.register(ring_only, replace=True)
+    try:
+        assert CellSpec(name="t", topology="toy_plate", width_sites=8, placement="open_region").placement == \
+            "open_region"
+        with pytest.raises(CellError) as err:
+            parse_cells({"cell": [{"name": "t", "topology": "toy_plate", "width_sites": 8}]})
+        (problem,) = err.value.problems
+        assert "placement 'core_row' is not allowed for toy_plate cells; allowed: open_region" in problem.message
+    finally:
+        REGISTRY.register(TOY, replace=True)
 
 
 def test_toy_topology_unknown_once_removed(toy: Topology) -> None:

@@ -303,7 +303,7 @@ class WhatIfScreen(TaskScreen):
         self.query_one("#wi-summary", Static).update(cell_summary(cell, self.deck_name))
         names = relevant_fields(cell.topology, list(self.spec.geometry))
         geometry = {n: getattr(self.spec, n) for n in names}
-        data = self.deck.model_dump(mode="json")
+        data = self.deck.full_dump()
         deck_values = {p: deck_value(data, p) for p in numeric_paths(self.deck)}
         model_fields = type(self.spec).model_fields
         form = WhatIfForm(geometry, geometry_help(model_fields, names), deck_values,
