@@ -83,10 +83,11 @@ class Catalog:
         with self._access() as db:
             return _store.remove_run(db, run_id)
 
-    def merge_from(self, other_path: str | Path) -> MergeReport:
-        """Import another catalog file by content hash; conflicts are reported, never overwritten."""
+    def merge_from(self, other_path: str | Path, *, adopt_current: bool = False) -> MergeReport:
+        """Import another catalog file by content hash; conflicts are reported, never
+        overwritten. This catalog's current decks stay current unless ``adopt_current``."""
         with self._access() as db:
-            return _merge.merge_from(db, self.path, other_path)
+            return _merge.merge_from(db, self.path, other_path, adopt_current=adopt_current)
 
     # reading
     def decks(self) -> list[DeckInfo]:

@@ -8,8 +8,11 @@ of conflict are reported and never imported:
 * a cell name that has a different cell hash under the same deck here.
 
 A deck hash stored under another name or with other parameters is a conflict too (nothing of
-that deck is imported). Afterwards each deck name has one current deck (the one made current
-most recently in either catalog) and each cell name one current result per deck.
+that deck is imported). Afterwards each deck name has one current deck: a deck name this catalog
+already has keeps its current deck (the other catalog's current deck of that name is imported as
+history and named in the report) unless ``adopt_current`` asks for the one made current most
+recently in either catalog; a deck name new here takes the other catalog's current deck. Each
+cell name has one current result per deck.
 The other file is read through an in-memory copy, so it is never changed (not even migrated).
 """
 
@@ -36,6 +39,11 @@ class MergeReport:
     conflicts: list[str] = field(default_factory=list)
     decks_added: int = 0
     runs_added: int = 0
+    #: deck names whose current deck this merge changed, one line each
+    current_changed: list[str] = field(default_factory=list)
+    #: deck names whose current deck stayed although the other catalog made another one
+    #: current more recently (``adopt_current`` would have switched), one line each
+    current_kept: list[str] = field(default_factory=list)
 
 
 def _short(h: str) -> str:
@@ -74,27 +82,42 @@ def _import_decks(
 
 
 def _settle_current_decks(
-    db: sqlite_utils.Database, src: sqlite_utils.Database, names: set[str]
-) -> None:
-    """One current deck per name: the most recently made current in either catalog."""
+    db: sqlite_utils.Database, src: sqlite_utils.Database, names: set[str], adopt: bool
+) -> tuple[list[str], list[str]]:
+    """One current deck per name (see the module docstring); returns the lines for
+    ``MergeReport.current_changed`` and ``current_kept``."""
     src_current = {
         r["deck_hash"]: r["current_since_utc"]
         for r in src.query("SELECT deck_hash, current_since_utc FROM decks WHERE current = 1")
     }
-    for name in names:
+    changed: list[str] = []
+    kept: list[str] = []
+    for name in sorted(names):
         rows = db.execute(
             "SELECT deck_hash, current, current_since_utc FROM decks WHERE name = ?", [name]
         ).fetchall()
-        candidates = [(since, h) for h, cur, since in rows if cur]
-        candidates += [(src_current[h], h) for h, _, _ in rows if h in src_current]
-        if not candidates:
+        ours = [(since, h) for h, cur, since in rows if cur]
+        theirs = [(src_current[h], h) for h, _, _ in rows if h in src_current]
+        if not ours and not theirs:
             continue
-        since, winner = max(candidates)
+        since, winner = max(ours + theirs)
+        if ours and not adopt:
+            if winner != ours[0][1]:
+                kept.append(f"deck {name}: kept current deck {_short(ours[0][1])}; the other "
+                            f"catalog's current deck {_short(winner)} (current since {since}) "
+                            f"is stored as history")
+            since, winner = ours[0]
+        elif ours and winner != ours[0][1]:
+            changed.append(f"deck {name}: current deck is now {_short(winner)} from the other "
+                           f"catalog (was {_short(ours[0][1])})")
+        elif not ours:
+            changed.append(f"deck {name}: new here, current deck {_short(winner)}")
         db.execute("UPDATE decks SET current = (deck_hash = ?) WHERE name = ?", [winner, name])
         db.execute(
             "UPDATE decks SET current_since_utc = ? WHERE deck_hash = ? AND current_since_utc < ?",
             [since, winner, since],
         )
+    return changed, kept
 
 
 def _run_id_for(
@@ -131,8 +154,13 @@ def _child_rows(
     return [{k: v for k, v in r.items() if k in keep} for r in rows]
 
 
-def merge_from(db: sqlite_utils.Database, own_path: Path, other_path: str | Path) -> MergeReport:
-    """Import ``other_path`` into ``db`` (see the module docstring); one transaction."""
+def merge_from(db: sqlite_utils.Database, own_path: Path, other_path: str | Path, *,
+               adopt_current: bool = False) -> MergeReport:
+    """Import ``other_path`` into ``db`` (see the module docstring); one transaction.
+
+    ``adopt_current``: a deck name both catalogs have gets the deck made current most recently
+    in either; by default this catalog's current deck stays current.
+    """
     other = Path(other_path)
     if _same_file(other, own_path):
         raise CatalogError.single(str(other), "", "cannot merge a catalog into itself")
@@ -234,7 +262,7 @@ def merge_from(db: sqlite_utils.Database, own_path: Path, other_path: str | Path
                         [deck_hash, name],
                     )
                     db.execute("UPDATE cells SET current = 1 WHERE cell_id = ?", [new_id])
-            _settle_current_decks(db, src, deck_names)
+            changed, kept = _settle_current_decks(db, src, deck_names, adopt_current)
     finally:
         src.close()
-    return MergeReport(added, identical, conflicts, decks_added, runs_added[0])
+    return MergeReport(added, identical, conflicts, decks_added, runs_added[0], changed, kept)

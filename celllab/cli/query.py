@@ -305,7 +305,7 @@ def cmd_merge(args: argparse.Namespace) -> int:
     from celllab.catalog import open_catalog
 
     with open_catalog(args.catalog) as cat:
-        report = cat.merge_from(args.file)
+        report = cat.merge_from(args.file, adopt_current=args.adopt_current)
     if args.json:
         print(
             dump_json(
@@ -315,6 +315,8 @@ def cmd_merge(args: argparse.Namespace) -> int:
                     "decks_added": report.decks_added,
                     "runs_added": report.runs_added,
                     "conflicts": report.conflicts,
+                    "current_changed": report.current_changed,
+                    "current_kept": report.current_kept,
                 }
             )
         )
@@ -326,6 +328,12 @@ def cmd_merge(args: argparse.Namespace) -> int:
         )
         for line in report.conflicts:
             print(f"  conflict: {line}")
+        for line in report.current_changed:
+            print(f"  current: {line}")
+        for line in report.current_kept:
+            print(f"  kept: {line}")
+        if report.current_kept:
+            print("  (--adopt-current makes the other catalog's newer current decks current)")
     return 1 if report.conflicts else 0
 
 
@@ -450,9 +458,15 @@ def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
         "transaction. Identical results are skipped; conflicting ones (same deck, "
         "cell and model version with other numbers, or a cell name with another "
         "hash under the same deck) are listed and not imported. The other file is "
-        "not changed. Exit status 1 when there were conflicts.",
+        "not changed. A deck name this catalog already has keeps its current deck; the "
+        "other catalog's current deck is stored as history and named in the report "
+        "(--adopt-current takes whichever was made current last). Exit status 1 when "
+        "there were conflicts.",
     )
     _common(p, deck=False, corner=False)
     p.add_argument("file", metavar="FILE", help="catalog file to import from")
+    p.add_argument("--adopt-current", action="store_true",
+                   help="for a deck name both catalogs have, make current the deck made current "
+                   "last in either (default: this catalog's current deck stays)")
     p.add_argument("--json", action="store_true", help="print a JSON report")
     p.set_defaults(func=cmd_merge)

@@ -26,7 +26,7 @@ from typing import Any
 import numpy as np
 
 from celllab import MODEL_VERSION, __version__
-from celllab.columns import unit_of
+from celllab.columns import is_lower_bound, unit_of
 from celllab.display import corner_conditions, format_value
 from celllab.export import CAUTION, atomic_write_text
 from celllab.physics.netlist import Element, Netlist, ladder_expansion, solve_impedance
@@ -231,6 +231,13 @@ def _metric_text(value: float, unit: str) -> str:
     return text if text == "n/a" else f"{text} {unit}"
 
 
+def _finite(value: Any) -> bool:
+    try:
+        return math.isfinite(float(value))
+    except (TypeError, ValueError):
+        return False
+
+
 def _max_freq(cell: CellResult) -> float | None:
     tops = [float(np.max(c.response.freq_Hz)) for c in cell.corners if np.size(c.response.freq_Hz)]
     return max(tops) if tops else None
@@ -356,7 +363,10 @@ def render_spice_subckt(
             f"corner {result.corner} ({corner_conditions(result.temperature_C, result.supply_V)}):"
         )
         header += [
-            f"  {m} = {_metric_text(result.metrics[m], unit_of(m))}"
+            # a value at the sweep's end is a lower bound, and says so
+            f"  {m} >= {_metric_text(result.metrics[m], unit_of(m))} (lower bound: beyond "
+            f"the analysed band)" if is_lower_bound(result, m) and _finite(result.metrics[m])
+            else f"  {m} = {_metric_text(result.metrics[m], unit_of(m))}"
             for m in _HEADLINE_METRICS
             if m in result.metrics
         ]

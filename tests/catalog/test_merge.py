@@ -101,14 +101,28 @@ def test_name_with_other_hash_is_a_conflict(filled: Catalog, run, other_path: Pa
     assert filled.count() == len(run.cells)
 
 
-def test_newer_deck_from_other_becomes_current(filled: Catalog, run, other_path: Path) -> None:  # type: ignore[no-untyped-def]
+def test_our_current_deck_stays_unless_adopted(filled: Catalog, run, other_path: Path) -> None:  # type: ignore[no-untyped-def]
     newer = make_run(deck_version=2, n_cells=4)
-    _make_other(other_path, run, newer)  # stored after ours: more recent
+    _make_other(other_path, run, newer)  # stored after ours: made current more recently
     report = filled.merge_from(other_path)
+    assert report.added == 4
+    current = [d for d in filled.decks() if d.current]
+    assert [d.deck_hash for d in current] == [run.deck_hash]  # a teammate's deck is history
+    assert filled.count() == len(run.cells)
+    assert len(report.current_kept) == 1 and newer.deck_hash[:12] in report.current_kept[0]
+    assert report.current_changed == []
+
+
+def test_newer_deck_from_other_becomes_current_when_adopted(filled: Catalog, run,  # type: ignore[no-untyped-def]
+                                                            other_path: Path) -> None:
+    newer = make_run(deck_version=2, n_cells=4)
+    _make_other(other_path, run, newer)
+    report = filled.merge_from(other_path, adopt_current=True)
     assert report.added == 4
     current = [d for d in filled.decks() if d.current]
     assert [d.deck_hash for d in current] == [newer.deck_hash]
     assert filled.count() == 4
+    assert len(report.current_changed) == 1 and report.current_kept == []
 
 
 def test_merge_is_one_transaction(

@@ -184,6 +184,24 @@ def test_merge(cat_path: Path, tmp_path: Path, capsys: pytest.CaptureFixture[str
     assert code == 1 and report["added"] == 0 and len(report["conflicts"]) == 1
 
 
+def test_merge_says_when_a_teammates_deck_is_not_made_current(
+        cat_path: Path, tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    other = tmp_path / "teammate.sqlite"
+    newer = synthetic.make_run(deck_version=2, n_cells=3, seed=4)
+    with open_catalog(other) as cat:
+        cat.store_run(newer)  # stored after ours: the teammate's deck is the more recent
+    code, out, _ = _run(capsys, "merge", str(other), "--catalog", str(cat_path))
+    assert code == 0 and "kept: deck invented_n7x" in out and "--adopt-current" in out
+    with open_catalog(cat_path) as cat:
+        assert [d.deck_hash for d in cat.decks() if d.current] != [newer.deck_hash]
+    code, out, _ = _run(capsys, "merge", str(other), "--catalog", str(cat_path),
+                        "--adopt-current", "--json")
+    report = json.loads(out)
+    assert code == 0 and len(report["current_changed"]) == 1
+    with open_catalog(cat_path) as cat:
+        assert [d.deck_hash for d in cat.decks() if d.current] == [newer.deck_hash]
+
+
 def test_compare_puts_long_flags_below_the_table_wrapped() -> None:
     from celllab.cli.query import render_compare
 

@@ -331,3 +331,15 @@ def test_ngspice_on_engine_cells(tmp_path, deck_dir, lumen130):
             z_tool = solve_impedance(netlist, freq)[0]
             error = np.abs(z_spice / z_tool - 1.0)
             assert error.max() <= 0.01, (cell.topology, corner, float(error.max()))
+
+
+def test_a_bound_reads_as_a_bound_in_the_header(make_cell):
+    # an SRF beyond the analysed band is stored with a flag; the header says "at least"
+    cell = make_cell("mos")
+    typ = next(c for c in cell.corners if c.corner == "typ_25C")
+    typ.flags.append("srf_beyond_sweep: no self-resonance below 1 THz")
+    typ.metrics["srf_GHz"] = 1000.0
+    text = render_spice_subckt(cell, "typ_25C")
+    assert re.search(r"\*\s+srf_GHz >= \S+ GHz \(lower bound", text)
+    assert not re.search(r"\*\s+srf_GHz = ", text)
+    assert re.search(r"\*\s+cap_fF = ", text)  # a result stays a plain value

@@ -4,11 +4,13 @@ from __future__ import annotations
 
 from typing import Any
 
+import pytest
+
 from textual.widgets import OptionList, Select, SelectionList
 
 from celllab.records import METRIC_NAMES
 from celllab.tui.app import CelllabApp
-from celllab.tui.screens.catalog import DEFAULT_COLUMNS, CatalogScreen
+from celllab.tui.screens.catalog import DEFAULT_COLUMNS, SORTABLE, CatalogScreen
 from celllab.tui.widgets.catalog_table import CatalogTable
 from celllab.tui.widgets.filter_bar import FilterBar
 
@@ -192,6 +194,21 @@ async def test_sorting_by_a_hidden_column_shows_it(synthetic_catalog: Any, ui: A
         assert "esl_pH ▲" in ui.screen_text(app)  # lower is better: smallest first
 
 
+@pytest.mark.parametrize("size", [(80, 24), (120, 40)])
+async def test_sorting_by_a_column_off_the_right_edge_brings_it_next_to_the_name(
+        synthetic_catalog: Any, ui: Any, size: tuple[int, int]) -> None:
+    app = CelllabApp(catalog=synthetic_catalog)
+    async with app.run_test(size=size) as pilot:
+        await ui.settle(pilot)
+        screen = _screen(app)
+        table = screen.query_one(CatalogTable)
+        assert "area_um2" in table.columns_shown and not table.in_view("area_um2")
+        screen.sort_by("area_um2")
+        await ui.settle(pilot)
+        assert table.columns_shown[:2] == ("name", "area_um2") and table.in_view("area_um2")
+        assert "area_um2 ▲" in ui.screen_text(app)
+
+
 async def test_column_checklist_reads_without_colour(synthetic_catalog: Any, ui: Any) -> None:
     app = CelllabApp(catalog=synthetic_catalog)
     async with app.run_test(size=(120, 40)) as pilot:
@@ -200,7 +217,7 @@ async def test_column_checklist_reads_without_colour(synthetic_catalog: Any, ui:
         await ui.settle(pilot)
         lines = ui.screen_text(app).splitlines()
         shown = [ln for ln in lines if "cap_density_fF_per_um2 " in ln][0]
-        hidden = [ln for ln in lines if "esl_pH " in ln][0]
+        hidden = [ln for ln in lines if "cap_ox_fF " in ln][0]
         assert "✓" in shown and "✓" not in hidden  # a glyph, not only a colour, tells them apart
 
 
@@ -262,3 +279,31 @@ async def test_three_marked_cells_compare_side_by_side(synthetic_catalog: Any, u
         await ui.settle(pilot)
         text = ui.screen_text(app)
         assert all(n in text for n in names) and "|Z|(f)" in text
+
+
+async def test_sort_choices_keep_one_line_each(synthetic_catalog: Any, ui: Any) -> None:
+    # long descriptions (placement, rail) end in an ellipsis instead of wrapping under the names
+    app = CelllabApp(catalog=synthetic_catalog)
+    async with app.run_test(size=(120, 40)) as pilot:
+        await ui.settle(pilot)
+        await pilot.press("s")
+        await ui.settle(pilot)
+        lines = [ln.split("▊", 1)[1].split("▎")[0].strip() for ln in ui.screen_text(app).splitlines()
+                 if "▊ " in ln]
+        listed = [ln for ln in lines if ln.strip("▔▁ ")]
+        assert listed and all(ln.split()[0] in SORTABLE for ln in listed), listed
+        assert any(ln.startswith("placement") and ln.endswith("…") for ln in listed)
+
+
+async def test_the_sort_chooser_opens_on_the_current_column(synthetic_catalog: Any, ui: Any) -> None:
+    app = CelllabApp(catalog=synthetic_catalog)
+    async with app.run_test(size=(120, 40)) as pilot:
+        await ui.settle(pilot)
+        catalog = _screen(app)
+        await pilot.press("s")
+        await ui.settle(pilot)
+        options = app.screen.query_one(OptionList)
+        assert options.highlighted == SORTABLE.index(catalog.order_by)
+        await pilot.press("down", "enter")
+        await ui.settle(pilot)
+        assert catalog.order_by == SORTABLE[SORTABLE.index("cap_density_fF_per_um2") + 1]

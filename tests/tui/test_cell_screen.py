@@ -161,3 +161,17 @@ async def test_target_impedance_is_drawn_on_the_impedance_plot(synthetic_catalog
         await pilot.press("backspace", "enter")  # the value opens selected: empty clears it
         await ui.settle(pilot)
         assert app.z_target_ohm is None and not screen.query_one("#plot-z", PlotView).spec.levels
+
+
+def test_the_header_counts_in_words_and_names_placement_and_rail(synthetic_catalog: Any) -> None:
+    from dataclasses import replace
+
+    from celllab.tui.screens.cell import cell_summary
+
+    name = synthetic_catalog.query(deck=SYNTHETIC_DECK, limit=1)[0]["name"]
+    cell = synthetic_catalog.cell(name, deck=SYNTHETIC_DECK)
+    one = replace(cell, width_sites=1, height_rows=1, placement="open_region", rail="io")
+    text = cell_summary(one, SYNTHETIC_DECK).plain
+    assert "(1 site × 1 row)" in text and "open region, io rail" in text
+    two = replace(cell, width_sites=30, height_rows=2)
+    assert "(30 sites × 2 rows)" in cell_summary(two, SYNTHETIC_DECK).plain

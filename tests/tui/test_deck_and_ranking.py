@@ -11,7 +11,7 @@ from textual.widgets import DataTable, OptionList, Select
 from celllab.deck import load_deck
 from celllab.errors import DeckError
 from celllab.tui.app import CelllabApp, DeckFailure
-from celllab.tui.screens.deck import DeckScreen, describe_deck_path, unit_of
+from celllab.tui.screens.deck import DeckScreen, corner_changes, describe_deck_path, unit_of
 from celllab.tui.screens.ranking import RankingScreen
 from celllab.tui.widgets.catalog_table import CatalogTable
 from celllab.tui.widgets.plot import PlotView
@@ -147,12 +147,33 @@ async def test_corner_names_and_changes_fit_at_80_columns(lumen130_deck: Any, sy
         await ui.settle(pilot)
         await pilot.press("right_square_bracket")  # the Corners tab
         await ui.settle(pilot)
-        text = ui.screen_text(app)
+        table = app.screen.query_one("#deck-corners", DataTable)
+        # every change whole: the table is no wider than its place (nothing cut at the edge)
+        assert table.virtual_size.width <= table.scrollable_content_region.width
+        shown = {}
         for name, corner in lumen130_deck.corners.items():
-            assert name in text
+            head, changes = (str(cell) for cell in table.get_row(name))
+            assert name in head and "°C" in head
+            shown[name] = changes
             for path in {**(corner.scale or {}), **(corner.set or {})}:
-                assert path in text, path
-        assert "°C" in text
+                # a change to several metal layers reads once: metals[0–4].thickness_nm
+                leaf = path.rpartition("]")[2] or path
+                assert leaf in changes, path
+        # the first corners are on the screen, with the start of their changes
+        text = ui.screen_text(app)
+        first = next(iter(lumen130_deck.corners))
+        assert first in text
+
+
+def test_the_same_change_to_several_layers_reads_once() -> None:
+    corner = {"set": {"metals[0].width_bias_nm": 8, "metals[1].width_bias_nm": 8,
+                      "metals[2].width_bias_nm": 8, "metals[4].width_bias_nm": 8,
+                      "oxides.core.nmos.vth_V": 0.28},
+              "scale": {"metals[1].via_below_ohm": 0.9, "metals[3].via_below_ohm": 0.9,
+                        "metals[2].via_below_ohm": 1.1}}
+    assert corner_changes(corner) == [
+        "metals[0–2,4].width_bias_nm = 8", "oxides.core.nmos.vth_V = 0.28",
+        "metals[1,3].via_below_ohm × 0.9", "metals[2].via_below_ohm × 1.1"]
 
 
 @pytest.mark.parametrize("size", [(120, 40), (80, 24)])

@@ -360,9 +360,14 @@ class CatalogScreen(TaskScreen):
         if descending is None:
             descending = (not self.descending) if column == self.order_by else best_first_descending(column)
         self.order_by, self.descending = column, descending
-        if column not in self.columns:  # the values being sorted are shown, after the name
-            at = 1 if self.columns and self.columns[0] == "name" else 0
-            self.columns = (*self.columns[:at], column, *self.columns[at:])
+        table = self.query_one(CatalogTable)
+        if column not in self.columns or (column in table.columns_shown
+                                          and not table.in_view(column)):
+            # the values being sorted are shown: a hidden column, or one off the right edge,
+            # moves next to the name
+            rest = tuple(c for c in self.columns if c != column)
+            at = 1 if rest and rest[0] == "name" else 0
+            self.columns = (*rest[:at], column, *rest[at:])
         self.request_page(0, count=False)
 
     def action_reverse_sort(self) -> None:

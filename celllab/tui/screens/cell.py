@@ -15,6 +15,7 @@ from textual.widgets import DataTable, Footer, Static, TabbedContent, TabPane, T
 
 from celllab import CAUTION_SHORT
 from celllab.columns import is_lower_bound
+from celllab.display import count_text
 from celllab.errors import CelllabError
 from celllab.records import METRICS, CellResult
 from celllab.tui.curves import ceff_plot, cv_plot, esr_plot, impedance_plot
@@ -45,8 +46,10 @@ def cell_summary(cell: CellResult, deck: str | None) -> Text:
     text.append(f"  {cell.topology} · {cell.oxide} oxide · ")
     text.append("ESD-safe" if cell.esd_safe else "not ESD-safe (gate on a rail)",
                 style="green" if cell.esd_safe else "yellow")
-    text.append(f"\ndeck {deck or '?'} · area {format_number(cell.area_um2)} µm² "
-                f"({cell.width_sites} sites × {cell.height_rows} rows) · gate area "
+    place = "open region" if cell.placement == "open_region" else "core row"
+    text.append(f"\ndeck {deck or '?'} · {place}, {cell.rail} rail · area "
+                f"{format_number(cell.area_um2)} µm² ({count_text(cell.width_sites, 'site')} × "
+                f"{count_text(cell.height_rows, 'row')}) · gate area "
                 f"{format_number(cell.gate_area_um2)} µm²", style="dim")
     return text
 

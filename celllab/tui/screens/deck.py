@@ -32,6 +32,51 @@ def _split(path: str) -> list[str]:
     return [p for p in _PART.split(path) if p]
 
 
+#: widest change line in the Corners tab: what is left of 80 columns beside the deck list
+CHANGE_WIDTH = 40
+_INDEXED = re.compile(r"^(?P<head>[^\[]*)\[(?P<index>\d+)\](?P<tail>.*)$")
+
+
+def corner_changes(corner: dict[str, Any]) -> list[str]:
+    """A corner's ``set`` and ``scale`` changes, one per line; the same change to several
+    entries of a list reads once with their indices (``metals[0–4].thickness_nm × 1.06``)."""
+    grouped: dict[tuple[str, str, str, str], list[int]] = {}
+    for op, table in (("=", corner.get("set") or {}), ("×", corner.get("scale") or {})):
+        for path, value in table.items():
+            match = _INDEXED.match(path)
+            head, index, tail = ((match["head"], int(match["index"]), match["tail"]) if match
+                                 else (path, -1, ""))
+            grouped.setdefault((head, tail, op, f"{value:g}"), []).append(index)
+    lines = []
+    for (head, tail, op, value), indices in grouped.items():
+        if indices == [-1]:
+            lines.append(f"{head} {op} {value}")
+        else:
+            lines.append(f"{head}[{_index_ranges(sorted(indices))}]{tail} {op} {value}")
+    return lines
+
+
+def _fold(line: str, width: int = CHANGE_WIDTH) -> list[str]:
+    """A change longer than ``width`` broken after a dot, the rest indented."""
+    pieces = []
+    while len(line) > width and "." in line[1:width]:
+        cut = line.rindex(".", 1, width) + 1
+        pieces.append(line[:cut])
+        line = "  " + line[cut:]
+    return pieces + [line]
+
+
+def _index_ranges(indices: list[int]) -> str:
+    """``[0, 1, 2, 4]`` -> ``0–2,4``."""
+    runs: list[list[int]] = []
+    for i in indices:
+        if runs and i == runs[-1][-1] + 1:
+            runs[-1].append(i)
+        else:
+            runs.append([i])
+    return ",".join(f"{r[0]}–{r[-1]}" if len(r) > 2 else ",".join(map(str, r)) for r in runs)
+
+
 def deck_value(data: Any, path: str) -> Any:
     """Value at a dotted path (``metals[0].thickness_nm``) of a dumped deck."""
     cur = data
@@ -254,16 +299,17 @@ class DeckScreen(TaskScreen):
         table = self.query_one("#deck-corners", DataTable)
         table.clear(columns=True)
         unit = pretty_unit(CORNER_COLUMNS["temperature_C"].unit)
-        table.add_columns("corner", Text(f"T [{unit}]", justify="right"),
-                          Text("Vdd ×", justify="right"), "changes")
+        # the corner's name, temperature and supply stacked in one column leave the width to
+        # its changes, one per line (an 80-column terminal shows every change whole)
+        table.add_columns("corner", "changes (set =, scale ×)")
         corners = (entry.params or {}).get("corners") or {}
         for name, corner in corners.items():
-            # one change per line: a long list stays readable in a narrow terminal
-            changes = [f"{k} = {v:g}" for k, v in (corner.get("set") or {}).items()]
-            changes += [f"{k} × {v:g}" for k, v in (corner.get("scale") or {}).items()]
-            table.add_row(name, Text(f"{corner.get('temperature_C', float('nan')):g}", justify="right"),
-                          Text(f"{corner.get('supply_scale', 1.0):g}", justify="right"),
-                          "\n".join(changes) or "–", key=name, height=max(1, len(changes)))
+            changes = [piece for line in corner_changes(corner) for piece in _fold(line)]
+            head = Text(name, style="bold")
+            head.append(f"\n{corner.get('temperature_C', float('nan')):g} {unit}"
+                        f"\nVdd × {corner.get('supply_scale', 1.0):g}")
+            table.add_row(head, "\n".join(changes) or "no changes", key=name,
+                          height=max(3, len(changes)))
 
     def action_tab(self, step: int) -> None:
         tabs = self.query_one("#deck-tabs", TabbedContent)

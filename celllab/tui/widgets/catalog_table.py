@@ -80,6 +80,15 @@ class CatalogTable(DataTable[Any]):
         self._pending_cursor = None
         self.refresh()
 
+    def in_view(self, column: str) -> bool:
+        """Whether ``column`` is shown whole without scrolling sideways."""
+        if column not in self.columns_shown:
+            return False
+        right = 0
+        for key in self.columns_shown[:self.columns_shown.index(column) + 1]:
+            right += self.columns[key].get_render_width(self) if key in self.columns else 0
+        return right <= self.scrollable_content_region.width
+
     def _cell(self, row: dict[str, Any], column: str) -> Text:
         if column == "name":
             mark = "✓ " if (row.get("name"), row.get("deck")) in self.marked else ""
