@@ -13,6 +13,7 @@ from celllab.tui.app import CelllabApp
 from celllab.tui.screens.catalog import DEFAULT_COLUMNS, SORTABLE, CatalogScreen
 from celllab.tui.widgets.catalog_table import CatalogTable
 from celllab.tui.widgets.filter_bar import FilterBar
+from celllab.tui.widgets.values import format_number
 
 from .conftest import N_SYNTHETIC, SYNTHETIC_DECK
 
@@ -35,7 +36,9 @@ async def test_first_page_units_filter_and_filter_errors(synthetic_catalog: Any,
         expected = synthetic_catalog.query(deck=SYNTHETIC_DECK, corner="worst", limit=50)
         assert [r["name"] for r in rows] == [r["name"] for r in expected]
         text = ui.screen_text(app)
-        assert "cap_density_fF_per_um2 ▼" in text and "[fF/µm²]" in text and "[nA/nF]" in text
+        # a long name breaks after an underscore, the sort mark on its second line
+        assert "cap_density_" in text and "fF_per_um2 ▼" in text
+        assert "[fF/µm²]" in text and "[nA/nF]" in text
         assert f"rows 1–50 of {N_SYNTHETIC}" in text
 
         # a bad filter is explained under the input; the table stays as it was
@@ -307,3 +310,18 @@ async def test_the_sort_chooser_opens_on_the_current_column(synthetic_catalog: A
         await pilot.press("down", "enter")
         await ui.settle(pilot)
         assert catalog.order_by == SORTABLE[SORTABLE.index("cap_density_fF_per_um2") + 1]
+
+
+async def test_80_columns_show_density_and_leakage_beside_the_real_cell_names(
+        demo_catalog: Any, ui: Any) -> None:
+    # demo cell names are long (lm_acap-w32-h1-open-f2-welln): the ranked density and the
+    # leakage limit's values must still be on an 80-column screen
+    app = CelllabApp(catalog=demo_catalog)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await ui.settle(pilot)
+        table = _screen(app).query_one(CatalogTable)
+        for column in ("name", "esd_safe", "cap_density_fF_per_um2", "leakage_nA_per_nF"):
+            assert table.in_view(column), column
+        first = table.rows_shown[0]
+        line = next(ln for ln in ui.screen_text(app).splitlines() if first["name"] in ln)
+        assert format_number(first["leakage_nA_per_nF"]) in line

@@ -310,3 +310,23 @@ async def test_sweep_oxide_thickness_and_read_leakage_against_density(
         await pilot.press("escape", "escape")
         await ui.settle(pilot)
         assert app.screen is screen
+
+
+async def test_the_sweep_view_names_every_numeric_field_at_80_columns(demo_catalog: Any,
+                                                                      ui: Any) -> None:
+    from celllab.topologies import REGISTRY
+    from celllab.tui.screens.sweep import SweepScreen
+
+    app = CelllabApp(catalog=demo_catalog, debounce_s=0.05)
+    async with app.run_test(size=(80, 24)) as pilot:
+        screen = await _open_whatif(app, pilot, ui)
+        await pilot.press("ctrl+w")
+        await ui.settle(pilot)
+        assert isinstance(app.screen, SweepScreen)
+        words = " ".join(ui.screen_text(app).split())
+        applies = REGISTRY[screen.spec.topology].fields
+        numeric = [f for f in screen.spec.geometry if f in applies and f != "placement"]
+        assert numeric and all(f in words for f in numeric), words
+        status = str(app.screen.query_one("#sweep-status").render())
+        assert "placement" not in status  # text: nothing to sweep over a range
+        assert f"oxides.{screen.spec.oxide}.t_ox_nm" in words  # the example fits the cell

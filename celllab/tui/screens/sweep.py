@@ -60,6 +60,31 @@ class SweepFailed(Message):
         self.problems = problems
 
 
+def _numeric(annotation: Any) -> bool:
+    """Whether a geometry field holds a number (``int``, ``float``, a ``Literal`` of numbers;
+    optional or not)."""
+    import typing
+
+    if typing.get_origin(annotation) is typing.Literal:
+        return all(isinstance(v, (int, float)) and not isinstance(v, bool)
+                   for v in typing.get_args(annotation))
+    args = set(typing.get_args(annotation)) - {type(None)} or {annotation}
+    if any(typing.get_origin(a) is typing.Literal for a in args):
+        return all(_numeric(a) for a in args)
+    return bool(args) and args <= {int, float}
+
+
+def _integer(annotation: Any) -> bool:
+    """Whether a numeric geometry field takes whole numbers only (``int``, ``Literal[1, 2]``)."""
+    import typing
+
+    if typing.get_origin(annotation) is typing.Literal:
+        return all(isinstance(v, int) for v in typing.get_args(annotation))
+    args = set(typing.get_args(annotation)) - {type(None)} or {annotation}
+    return all(a is int or _integer(a) if typing.get_origin(a) is typing.Literal else a is int
+               for a in args)
+
+
 def _label(name: str) -> str:
     unit = pretty_unit(unit_of(name) or unit_from_name(name.rsplit(".", 1)[-1]))
     return f"{name} [{unit}]" if unit else name
@@ -154,7 +179,13 @@ class SweepScreen(TaskScreen):
 
         self.deck, self.spec, self.cell = message.deck, message.spec, message.cell
         applies = REGISTRY[self.spec.topology].fields
-        geometry = [f for f in self.spec.geometry if f in applies]
+        fields = type(self.spec).model_fields
+        # numbers only: a text field (placement) has no range to sweep
+        geometry = [f for f in self.spec.geometry if f in applies and f in fields
+                    and _numeric(fields[f].annotation)]
+        example = f"oxides.{self.spec.oxide}.t_ox_nm"
+        self.query_one("#sweep-parameter", Input).placeholder = (
+            f"e.g. {example} or {geometry[0]}" if geometry else f"e.g. {example}")
         self.query_one("#sweep-parameter", Input).suggester = SuggestFromList(
             geometry + numeric_paths(self.deck), case_sensitive=True)
         corners = [c.corner for c in self.cell.corners]
@@ -162,9 +193,10 @@ class SweepScreen(TaskScreen):
         with select.prevent(Select.Changed):
             select.set_options([(c, c) for c in ("worst", "best", *corners)])
             select.value = "worst"
+        # wraps on a narrow terminal rather than losing the end of the list
         self.query_one("#sweep-status", Static).update(Text(
-            "enter runs · parameter: a deck path or a geometry field (" + ", ".join(geometry)
-            + "); → accepts a suggestion", style="dim", no_wrap=True, overflow="ellipsis"))
+            "enter runs · a deck path or one of " + ", ".join(geometry)
+            + " · → accepts a suggestion", style="dim"))
         if all(self._initial):
             self.action_run()
 
@@ -189,8 +221,8 @@ class SweepScreen(TaskScreen):
                                        has_value=False))
         values: list[float] = []
         if not problems:
-            integer = (parameter in type(self.spec).model_fields
-                       and type(self.spec).model_fields[parameter].annotation is int)
+            fields = type(self.spec).model_fields
+            integer = parameter in fields and _integer(fields[parameter].annotation)
             spacing = str(self.query_one("#sweep-spacing", Select).value)
             try:
                 values = sweep_values(float(texts["from"]), float(texts["to"]),

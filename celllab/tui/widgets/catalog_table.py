@@ -17,7 +17,7 @@ from textual.widgets import DataTable
 
 from celllab.columns import is_lower_bound
 from celllab.tui.messages import CellChosen, PageRequested, SortRequested
-from celllab.tui.widgets.values import column_header, value_text
+from celllab.tui.widgets.values import column_header, header_width, value_text
 
 #: Identity columns whose content decides their width; every other column is numeric.
 _TEXT_COLUMNS = frozenset({"name", "deck", "family", "corner", "topology", "oxide"})
@@ -29,7 +29,7 @@ def _width(column: str, rows: Sequence[dict[str, Any]] = ()) -> int:
     if column in _TEXT_COLUMNS:
         longest = max((len(str(r.get(column) or "")) for r in rows), default=0)
         return min(48, max(len(column) + 2, longest + (2 if column == "name" else 0)))
-    return max(len(column) + 2, 10)
+    return max(header_width(column), 10)
 
 
 class CatalogTable(DataTable[Any]):
@@ -43,7 +43,7 @@ class CatalogTable(DataTable[Any]):
 
     def __init__(self, *, id: str | None = None, classes: str | None = None) -> None:
         super().__init__(id=id, classes=classes, cursor_type="row", zebra_stripes=True,
-                         header_height=2)
+                         header_height=3)
         self.rows_shown: list[dict[str, Any]] = []
         self.columns_shown: tuple[str, ...] = ()
         self.row_offset = 0

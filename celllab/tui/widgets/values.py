@@ -18,7 +18,7 @@ from celllab.units import pretty_unit
 ID_COLUMNS: dict[str, str] = {name: column.description for name, column in TEXT_COLUMNS.items()}
 
 __all__ = ["ID_COLUMNS", "column_description", "column_header", "column_unit", "format_number",
-           "value_text"]
+           "header_lines", "header_width", "value_text"]
 
 
 def column_unit(column: str) -> str:
@@ -32,13 +32,37 @@ def column_description(column: str) -> str:
     return info.description if info else column
 
 
+#: Widest line of a column name in a table header: longer names break after an underscore
+#: (``cap_density_`` / ``fF_per_um2``), so an 80-column terminal shows four columns, not two.
+HEADER_WIDTH = 12
+
+
+def header_lines(column: str, width: int = HEADER_WIDTH) -> list[str]:
+    """A column name in at most two lines of about ``width``, broken after an underscore."""
+    if len(column) <= width or "_" not in column:
+        return [column, ""]
+    cut = column.rfind("_", 0, width) + 1 or column.find("_") + 1
+    return [column[:cut], column[cut:]]
+
+
 def column_header(column: str, sort_mark: str = "") -> Text:
-    """Two-line header: the column name (as the filter language spells it) over its unit."""
+    """Three-line header: the column name (as the filter language spells it, broken after an
+    underscore when long) over its unit."""
     unit = column_unit(column)
-    head = Text(column + (f" {sort_mark}" if sort_mark else ""), style="bold")
+    first, second = header_lines(column)
+    mark = f" {sort_mark}" if sort_mark else ""
+    head = Text(first + (mark if not second else ""), style="bold")
+    head.append("\n" + second + (mark if second else ""), style="bold")
     head.append("\n")
     head.append(f"[{unit}]" if unit and unit != "bool" else "", style="dim")
     return head
+
+
+def header_width(column: str) -> int:
+    """Cells a header needs: its longest name line with a sort mark, or its unit."""
+    unit = column_unit(column)
+    unit_text = f"[{unit}]" if unit and unit != "bool" else ""
+    return max(len(line) for line in [*header_lines(column), unit_text]) + 2
 
 
 def format_number(value: float, digits: int = 4) -> str:
