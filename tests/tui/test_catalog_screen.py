@@ -325,3 +325,27 @@ async def test_80_columns_show_density_and_leakage_beside_the_real_cell_names(
         first = table.rows_shown[0]
         line = next(ln for ln in ui.screen_text(app).splitlines() if first["name"] in ln)
         assert format_number(first["leakage_nA_per_nF"]) in line
+
+
+async def test_three_long_named_cells_compare_whole_at_80_columns(demo_catalog: Any,
+                                                                  ui: Any) -> None:
+    from textual.widgets import DataTable
+
+    from celllab.tui.screens.compare import CompareScreen
+
+    app = CelllabApp(catalog=demo_catalog)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await ui.settle(pilot)
+        rows = _screen(app).visible_rows()[:3]
+        await pilot.press("space", "space", "space", "v")
+        await ui.settle(pilot)
+        screen = app.screen
+        assert isinstance(screen, CompareScreen)
+        table = screen.query_one("#cmp-table", DataTable)
+        # every cell's column on the screen, none cut at the edge
+        assert table.virtual_size.width <= table.scrollable_content_region.width
+        text = ui.screen_text(app)
+        line = next(ln for ln in text.splitlines() if ln.lstrip().startswith("cap_fF"))
+        for row in rows:
+            assert format_number(row["cap_fF"]) in line
+        assert "3 cells of lumen130" in text

@@ -12,6 +12,7 @@ from textual.containers import Horizontal
 from textual.widgets import DataTable, Footer, Label, Select, Static, TabbedContent, TabPane
 
 from celllab.columns import METRICS
+from celllab.display import count_text
 from celllab.errors import CelllabError
 from celllab.records import CellResult, corner_bounds, corner_metrics
 from celllab.tui.curves import MAX_CURVES, ceff_plot, cv_plot, esr_plot, impedance_plot
@@ -25,6 +26,23 @@ from celllab.tui.widgets.values import value_text
 MIN_CELLS, MAX_CELLS = 2, MAX_CURVES
 
 TABS = ("cmp-metrics", "cmp-cv", "cmp-z", "cmp-esr", "cmp-ceff")
+
+
+#: Width of a cell's column in the metrics table; longer names break over header lines.
+NAME_WIDTH = 13
+
+
+def name_lines(name: str, width: int = NAME_WIDTH) -> list[str]:
+    """A cell name in lines of at most ``width``, broken after ``-`` or ``_``."""
+    lines: list[str] = []
+    rest = name
+    while len(rest) > width:
+        cut = max(rest.rfind("-", 0, width), rest.rfind("_", 0, width)) + 1
+        if cut <= 0:
+            cut = width
+        lines.append(rest[:cut])
+        rest = rest[cut:]
+    return [*lines, rest] if rest else lines
 
 
 class CompareScreen(TaskScreen):
@@ -46,7 +64,8 @@ class CompareScreen(TaskScreen):
         self.corner = corner
 
     def compose(self) -> ComposeResult:
-        names = ", ".join(name for name, _ in self.wanted)
+        decks = list(dict.fromkeys(deck or "?" for _, deck in self.wanted))
+        names = f"{count_text(len(self.wanted), 'cell')} of {', '.join(decks)}"
         yield TaskBar(self.app.current_mode, f"compare {len(self.wanted)} cells", id="taskbar")
         with Horizontal(classes="pickers"):
             yield Label("corner", classes="picker-label")
@@ -104,9 +123,12 @@ class CompareScreen(TaskScreen):
         table = self.query_one("#cmp-table", DataTable)
         table.clear(columns=True)
         table.add_column(Text("metric\n↑↓ better"), key="metric")
-        for name, _ in self.cells:
-            table.add_column(Text(name, justify="right"), key=name)
-        table.header_height = 2
+        # a long cell name breaks over header lines: three cells fit 80 columns side by side
+        heads = [name_lines(name) for name, _ in self.cells]
+        for (name, _), lines in zip(self.cells, heads):
+            table.add_column(Text("\n".join(lines), justify="right"), key=name,
+                             width=max(NAME_WIDTH, *map(len, lines)))
+        table.header_height = max(2, *map(len, heads))
         values = []
         for _, cell in self.cells:
             try:
