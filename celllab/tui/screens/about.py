@@ -13,9 +13,10 @@ from celllab import CAUTION, MODEL_VERSION, __version__
 ABOUT_TEXT = f"""\
 ## celllab {__version__}
 
-Characterizes on-chip **decoupling cells** (MOS decaps, MOM, cross-coupled pairs, stacks)
-from a process deck: capacitance and density, ESR, bandwidth, ESL and self-resonance,
-gate leakage, oxide field, TDDB life and HBM stress, at every corner of the deck.
+Characterizes on-chip **decoupling cells** (MOS decaps, tied and cross-coupled CMOS pairs,
+MOM, stacks; in core rows or open regions, on the rail they decouple) from a process deck:
+capacitance and density, ESR, bandwidth, ESL and self-resonance, gate leakage, oxide field,
+TDDB life and HBM stress, at every corner of the deck.
 Models: `{MODEL_VERSION}`.
 
 > **Caution.** {CAUTION}
