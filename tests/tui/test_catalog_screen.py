@@ -5,7 +5,6 @@ from __future__ import annotations
 from typing import Any
 
 import pytest
-
 from textual.widgets import OptionList, Select, SelectionList
 
 from celllab.records import METRIC_NAMES
