@@ -6,7 +6,6 @@ import argparse
 import json
 
 from celllab import CAUTION, DEFAULT_CATALOG
-from celllab.display import text_table
 from celllab.errors import CelllabError, Problem
 
 
@@ -125,8 +124,10 @@ def cmd_demo(args: argparse.Namespace) -> int:
     rows = catalog.query(corner="worst", order_by="cap_density_fF_per_um2", limit=args.limit)
     cols = ["name", "deck", "topology", "cap_fF", "cap_density_fF_per_um2", "esr_ohm", "bandwidth_GHz",
             "leakage_nA_per_nF"]
+    from celllab.cli.query import render_table
+
     print(f"Densest demo cells (each metric at its worst corner) in {path}:")
-    print(text_table(rows, cols))
+    print(render_table(rows, cols))
     print(CAUTION)
     return 0
 

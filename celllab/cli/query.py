@@ -45,7 +45,11 @@ DEFAULT_COLUMNS = (
 def render_table(rows: Sequence[dict[str, Any]], columns: Sequence[str]) -> str:
     """Plain-text table: a header of column names, then one line per row (catalog numbers right-aligned)."""
     numeric = {c for c in columns if c in COLUMNS and COLUMNS[c].kind != "text"}
-    return text_table(rows, columns, numeric)
+    shown = [{c: _shown(r, c) for c in columns} for r in rows]
+    text = text_table(shown, columns, numeric)
+    if any(BOUND_MARK in str(v) for r in shown for v in r.values()):
+        text += f"\n{BOUND_MARK}: a lower bound (the quantity lies beyond the analysed sweep)"
+    return text
 
 
 def dump_json(value: Any) -> str:

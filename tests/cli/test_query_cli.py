@@ -233,3 +233,14 @@ def test_show_prints_what_applies_without_float_noise(tmp_path: Path, capsys: py
     assert "None" not in out  # no field that does not apply to a MOM cell
     assert "gate_length_um" not in out and "accumulation_well" not in out
     assert "9999" not in out and "0000000" not in out  # no float noise
+
+
+def test_rank_tables_mark_a_bound_as_one() -> None:
+    from celllab.cli.query import render_table
+
+    rows = [{"name": "a", "bandwidth_GHz": 1000.0, "cap_fF": 2.0,
+             "flags": ["bandwidth_beyond_sweep: C_eff above C/sqrt(2) up to 1 THz"]},
+            {"name": "b", "bandwidth_GHz": 12.5, "cap_fF": 3.0, "flags": []}]
+    text = render_table(rows, ["name", "cap_fF", "bandwidth_GHz"])
+    assert "≥1000" in text and "≥12.5" not in text and "12.5" in text
+    assert "≥: a lower bound" in text
