@@ -8,7 +8,10 @@ Worst and best over corners (one definition, ``Column.extreme``): per metric, *w
 least favourable value over a cell's corners (the minimum of a higher-is-better metric, the
 maximum of a lower-is-better one) and *best* the most favourable. The catalog's SQL aggregate
 (``Column.sql_aggregate``) and the Python version (``Column.over_corners``) both come from it;
-empty values (NaN, NULL) are skipped, and a metric empty at every corner stays empty.
+empty values (NaN, NULL) are skipped, and a metric empty at every corner stays empty. A bound
+flag (``Column.bounds``: ``srf_is_bound`` marks ``srf_GHz``) is not aggregated on its own: it is
+the flag of the corner that gives its metric's worst/best value (``schema.fill_extremes``,
+``records.corner_metrics``).
 
 Corner selectors, read the same way by queries and exports: a corner name is that corner;
 ``"worst"`` / ``"best"`` (``AGGREGATE_CORNERS``) are the per-metric extremes above; ``None``
@@ -22,9 +25,25 @@ from __future__ import annotations
 import math
 from collections.abc import Callable, Iterable
 from dataclasses import dataclass
-from typing import Any, Literal
+from typing import TYPE_CHECKING, Any, Literal
 
-from celllab.units import from_si
+if TYPE_CHECKING:
+    import numpy as np
+    from numpy.typing import ArrayLike, NDArray
+
+_convert: Callable[[Any, str], Any] | None = None
+
+
+def from_si(value: Any, unit: str) -> Any:
+    """``celllab.units.from_si``, imported on the first conversion: the column table itself is
+    read by the command line's help and queries, which need no unit conversion (nor scipy)."""
+    global _convert
+    if _convert is None:
+        from celllab.units import from_si as convert
+
+        _convert = convert
+    return _convert(value, unit)
+
 
 Better = Literal["higher", "lower"]
 Kind = Literal["number", "text", "bool"]
@@ -48,6 +67,8 @@ class Column:
     digits : int        significant digits when shown to people
     compute : callable  metrics only: the value in ``unit`` from the SI figures of one cell at
                         one corner (``records.CornerFigures``); the engine calls it
+    bounds : str        for a bound flag: the metric it marks (1 = that metric's value is only a
+                        lower bound; shown with "≥", see ``bound_flag``)
     """
 
     name: str
@@ -57,6 +78,7 @@ class Column:
     kind: Kind = "number"
     digits: int = 4
     compute: Callable[[Any], float] | None = None
+    bounds: str | None = None
 
     @property
     def higher_is_better(self) -> bool:
@@ -89,6 +111,18 @@ class Column:
             return math.nan
         return max(kept) if self.takes_max(extreme) else min(kept)
 
+    def corner_index(self, values: ArrayLike, extreme: Extreme, axis: int = -1
+                     ) -> NDArray[np.intp]:
+        """Index of the ``extreme`` corner along ``axis`` of an array of per-corner values:
+        the vectorized twin of ``over_corners`` (empty values, NaN, are skipped; where every
+        corner is empty the first is named)."""
+        import numpy as np  # here, not at the top: the command line's start-up reads this table
+
+        v = np.asarray(values, dtype=float)
+        if self.takes_max(extreme):
+            return np.asarray(np.argmax(np.where(np.isnan(v), -np.inf, v), axis=axis))
+        return np.asarray(np.argmin(np.where(np.isnan(v), np.inf, v), axis=axis))
+
     def improved(self, before: float, after: float) -> bool:
         """Whether ``after`` is better than ``before`` in this column's direction."""
         return after > before if self.higher_is_better else after < before
@@ -110,23 +144,59 @@ METRICS: tuple[Column, ...] = (
            compute=lambda f: f.esr_lf_ohm),
     Column("esr_1GHz_ohm", "ohm", "series resistance Re Z at 1 GHz", "lower",
            compute=lambda f: f.esr_probe_ohm),
-    Column("bandwidth_GHz", "GHz", "usable bandwidth: where C_eff falls to C/sqrt(2)", "higher",
+    Column("bandwidth_GHz", "GHz", "usable bandwidth: where C_eff (loop inductance removed) falls to "
+           "C/sqrt(2), at most the self-resonance (a lower bound where bandwidth_is_bound)", "higher",
            compute=lambda f: from_si(f.bandwidth_Hz, "GHz")),
+    Column("bandwidth_is_bound", "bool", "1 when bandwidth_GHz is only a lower bound", "lower", kind="bool",
+           compute=lambda f: float(f.bandwidth_is_bound), bounds="bandwidth_GHz"),
     Column("esl_pH", "pH", "equivalent series inductance", "lower",
            compute=lambda f: from_si(f.esl_H, "pH")),
-    Column("srf_GHz", "GHz", "self-resonance frequency", "higher",
+    Column("srf_GHz", "GHz", "self-resonance frequency (above the deck's analysed band: computed from the "
+           "equivalent circuit and flagged; a lower bound where srf_is_bound)", "higher",
            compute=lambda f: from_si(f.srf_Hz, "GHz")),
+    Column("srf_is_bound", "bool", "1 when srf_GHz is only a lower bound: no resonance in the circuit up to it",
+           "lower", kind="bool", compute=lambda f: float(f.srf_is_bound), bounds="srf_GHz"),
     Column("tau_ps", "ps", "RC time constant ESR x C", "lower",
            compute=lambda f: from_si(f.tau_s, "ps")),
-    Column("leakage_nA", "nA", "gate tunnelling leakage at the supply", "lower",
-           compute=lambda f: from_si(f.leakage_A, "nA")),
-    Column("leakage_nA_per_nF", "nA/nF", "leakage per nF of capacitance", "lower", compute=_per_nF),
+    Column("leakage_nA", "nA", "total leakage at the supply: gate tunnelling plus well-junction reverse "
+           "current", "lower", compute=lambda f: from_si(f.leakage_A, "nA")),
+    Column("leakage_nA_per_nF", "nA/nF", "total leakage per nF of capacitance", "lower", compute=_per_nF),
+    Column("gate_leakage_nA", "nA", "gate tunnelling current at the supply (electrons or holes by device)",
+           "lower", compute=lambda f: from_si(f.gate_leakage_A, "nA")),
+    Column("junction_leakage_nA", "nA", "reverse current of the well junctions the supply biases (empty when "
+           "the deck gives no densities)", "lower", compute=lambda f: from_si(f.junction_leakage_A, "nA")),
     Column("oxide_field_MV_per_cm", "MV/cm", "oxide field at the supply", "lower",
            compute=lambda f: from_si(f.e_ox_V_per_m, "MV/cm")),
-    Column("tddb_life_years", "years", "time to 0.01 % oxide breakdown of this cell at the supply", "higher",
-           compute=lambda f: from_si(f.ttf_s, "years")),
+    Column("tddb_fit_per_mm2", "FIT/mm^2", "gate-oxide breakdown rate per mm^2 of this cell's gate oxide, "
+           "averaged over 10 years at this corner's supply and temperature (times a fill's gate area: its "
+           "rate; empty for MOM)", "lower", compute=lambda f: from_si(f.tddb_rate_per_s_m2, "FIT/mm^2")),
     Column("pulse_vbd_V", "V", "gate-oxide breakdown voltage under a ~100 ns ESD-like pulse (rail clamps "
            "must hold the rails below it; empty for MOM)", "higher", compute=lambda f: f.vbd_pulse_V),
+    Column("hbm_oxide_peak_V", "V", "largest voltage across the cell's gate oxide during the deck's HBM zap "
+           "([esd] hbm_V, unpowered, on the rail's clamp; transient of the cell's circuit; empty for MOM)",
+           "lower", compute=lambda f: f.hbm_peak_oxide_V),
+    Column("hbm_over_vbd_ns", "ns", "time that oxide spends above pulse_vbd_V during the HBM zap", "lower",
+           compute=lambda f: from_si(f.hbm_time_above_s, "ns")),
+    Column("hbm_margin_V", "V", "pulse_vbd_V minus hbm_oxide_peak_V (negative: the zap breaks the oxide)",
+           "higher", compute=lambda f: f.vbd_pulse_V - f.hbm_peak_oxide_V),
+    Column("cdm_oxide_peak_V", "V", "largest voltage across the cell's gate oxide during the deck's CDM "
+           "event ([esd] cdm_V; empty for MOM)", "lower", compute=lambda f: f.cdm_peak_oxide_V),
+    Column("cdm_over_vbd_ns", "ns", "time that oxide spends above pulse_vbd_V during the CDM event", "lower",
+           compute=lambda f: from_si(f.cdm_time_above_s, "ns")),
+    Column("cdm_margin_V", "V", "pulse_vbd_V minus cdm_oxide_peak_V (negative: the event breaks the oxide)",
+           "higher", compute=lambda f: f.vbd_pulse_V - f.cdm_peak_oxide_V),
+    Column("hbm_oxide_share_pct", "%", "share of the rail's HBM peak that reaches the worst oxide (100: the "
+           "oxide sees the whole rail)", "lower", compute=lambda f: from_si(f.hbm_oxide_share, "%")),
+    Column("esd_series_helps", "bool", "1 when the cell's own series path (the pair's devices, a long "
+           "channel) keeps the HBM zap off its oxide: the oxide sees under 90 % of the rail", "higher",
+           kind="bool", compute=lambda f: f.esd_series_helps),
+    Column("broken_oxide_mA", "mA", "DC supply current if one oxide of the cell breaks (tied: spot and "
+           "supply limit it; pair: the protecting device); empty for MOM", "lower",
+           compute=lambda f: from_si(f.fault_current_A, "mA")),
+    Column("broken_oxide_mW", "mW", "supply power drawn then", "lower",
+           compute=lambda f: from_si(f.fault_power_W, "mW")),
+    Column("broken_oxide_ok", "bool", "1 when that current stays within the rail's fault_current_limit_mA",
+           "higher", kind="bool", compute=lambda f: f.fault_survives),
 )
 
 #: Per-cell (corner-independent) columns that can be filtered and ranked too.
@@ -175,6 +245,27 @@ COLUMNS: dict[str, Column] = {**TEXT_COLUMNS, **METRIC_BY_NAME, **CELL_COLUMNS, 
 RANKED: dict[str, Column] = {**METRIC_BY_NAME, **{n: c for n, c in CELL_COLUMNS.items() if c.better}}
 
 
+#: Metric name -> the bool metric that marks its value as a lower bound.
+BOUND_FLAGS: dict[str, str] = {c.bounds: c.name for c in METRICS if c.bounds}
+
+
+def bound_flag(name: str) -> str | None:
+    """The column that marks ``name``'s value as a lower bound (``srf_GHz`` -> ``srf_is_bound``)."""
+    return BOUND_FLAGS.get(name)
+
+
+def is_lower_bound(row: Any, name: str) -> bool:
+    """Whether ``row`` (a mapping of column values, or a corner result) holds only a lower bound
+    for ``name``: the one place that decides."""
+    flag = BOUND_FLAGS.get(name)
+    if flag is None:
+        return False
+    if hasattr(row, "metrics"):  # a records.CornerResult: its own metrics hold the flag
+        row = row.metrics
+    value = row.get(flag) if hasattr(row, "get") else None
+    return value is not None and not (isinstance(value, float) and math.isnan(value)) and bool(value)
+
+
 def unit_of(name: str) -> str:
     """Unit of a column ('' for text and unknown columns)."""
     column = COLUMNS.get(name)
@@ -185,38 +276,3 @@ def best_first_descending(name: str) -> bool:
     """Sort direction that puts the best values first (text and unknown columns ascending)."""
     column = RANKED.get(name)
     return column is not None and column.higher_is_better
-
-
-# --- values that are bounds, not results -------------------------------------------------------
-
-#: Flag codes (the text before the colon of a stored flag) that mark a metric's value as a
-#: lower bound: the quantity lies beyond the analysed frequency sweep.
-LOWER_BOUND_FLAGS: dict[str, str] = {
-    "bandwidth_beyond_sweep": "bandwidth_GHz",
-    "srf_beyond_sweep": "srf_GHz",
-}
-
-#: How a bound reads in front of its value, everywhere values are shown to people.
-BOUND_MARK = "≥"
-
-
-def bound_metrics(flags: Iterable[str] | None) -> frozenset[str]:
-    """Metrics whose stored value is a lower bound, read from a row's (or corner's) flags."""
-    found = set()
-    for flag in flags or ():
-        metric = LOWER_BOUND_FLAGS.get(str(flag).partition(":")[0].strip())
-        if metric is not None:
-            found.add(metric)
-    return frozenset(found)
-
-
-def is_lower_bound(row: Any, metric: str) -> bool:
-    """Whether ``row[metric]`` is a lower bound rather than a result: the one place that decides.
-
-    ``row`` is a catalog row (a mapping with ``flags``) or anything with a ``flags`` attribute
-    (a ``records.CornerResult``). A worst/best catalog row carries the union of its corners'
-    flags, so there the mark means "at least one corner only has a bound", which never hides
-    a bound.
-    """
-    flags = row.get("flags") if isinstance(row, dict) else getattr(row, "flags", None)
-    return metric in bound_metrics(flags)

@@ -37,8 +37,11 @@ def demo_pairs(folder: Path | None = None) -> list[tuple[Path, Path]]:
 
 
 def build_demo_catalog(path: str | Path = DEFAULT_CATALOG, folder: Path | None = None,
-                       progress: Callable[[str, int, int], None] | None = None) -> Path:
-    """Characterize every demo deck and store it in the catalog at ``path``; returns the path."""
+                       progress: Callable[[str, int, int], None] | None = None, esd: bool = True) -> Path:
+    """Characterize every demo deck and store it in the catalog at ``path``; returns the path.
+
+    ``esd=False`` leaves the HBM/CDM and broken-oxide columns empty (their transients are most of
+    the run time)."""
     from celllab.catalog import open_catalog
     from celllab.cells import load_cells
     from celllab.deck import load_deck
@@ -57,6 +60,6 @@ def build_demo_catalog(path: str | Path = DEFAULT_CATALOG, folder: Path | None =
         raise CelllabError(problems)
     catalog = open_catalog(path)
     for deck, cells, sources in loaded:
-        run = characterize(deck, cells, progress=progress, sources=sources)
+        run = characterize(deck, cells, progress=progress, sources=sources, esd=esd)
         catalog.store_run(run)
     return Path(path)

@@ -8,16 +8,18 @@ Pure functions over plain values; no I/O.
 from __future__ import annotations
 
 import math
+import sys
 from collections.abc import Collection, Mapping, Sequence
 from numbers import Integral, Real
 from typing import Any
 
-import numpy as np
+from celllab.columns import BOUND_FLAGS, is_lower_bound, unit_of
 
-from celllab.columns import unit_of
+__all__ = ["LOWER_BOUND", "corner_conditions", "count_text", "finite_or_none", "format_metric", "format_number", "format_value",
+           "jsonable", "mark_bounds", "nan_to_none", "none_to_nan", "text_table"]
 
-__all__ = ["corner_conditions", "count_text", "finite_or_none", "format_number", "format_value", "jsonable", "nan_to_none", "none_to_nan",
-           "text_table"]
+#: Prefix of a value that is only a lower bound (no resonance or cutoff found up to it).
+LOWER_BOUND = "≥"
 
 #: Magnitudes shown in plain notation by ``format_number(..., plain_range=PLAIN_RANGE)``;
 #: outside it, exponent notation keeps table columns narrow (a display choice, not a rule).
@@ -47,7 +49,7 @@ def format_value(value: Any, empty: str = "-", digits: int = 4) -> str:
         return empty
     if isinstance(value, (list, tuple)):
         return "; ".join(str(v) for v in value) or empty
-    if isinstance(value, (bool, np.bool_)):
+    if isinstance(value, bool) or _is_numpy_bool(value):
         return "yes" if value else "no"
     if isinstance(value, Integral):
         return str(int(value))
@@ -62,14 +64,37 @@ def count_text(n: int, singular: str, plural: str | None = None) -> str:
     return f"{n:,} {word}"
 
 
+def format_metric(row: Mapping[str, Any], name: str, empty: str = "-", digits: int = 4) -> str:
+    """``row[name]`` as ``format_value`` does, prefixed with "≥" when the row marks it as a lower
+    bound (``columns.is_lower_bound``)."""
+    text = format_value(row.get(name), empty, digits)
+    return f"{LOWER_BOUND}{text}" if text != empty and is_lower_bound(row, name) else text
+
+
+def mark_bounds(row: Mapping[str, Any], empty: str = "-", digits: int = 4) -> dict[str, Any]:
+    """A copy of ``row`` whose lower-bound values read "≥value" (text); other values unchanged."""
+    out = dict(row)
+    for name in BOUND_FLAGS:
+        if name in out and is_lower_bound(row, name):
+            out[name] = format_metric(row, name, empty, digits)
+    return out
+
+
 def corner_conditions(temperature_C: float, supply_V: float) -> str:
     """``T = 25 degC, supply = 1.2 V``: a corner's conditions for file headers."""
     return (f"T = {temperature_C:g} {unit_of('temperature_C')}, "
             f"supply = {supply_V:g} {unit_of('supply_V')}")
 
 
+def _is_numpy_bool(value: Any) -> bool:
+    """Whether ``value`` is a numpy bool (numpy is not imported for this: without it loaded,
+    no value can be one), so printing a table does not load numpy."""
+    np = sys.modules.get("numpy")
+    return np is not None and isinstance(value, np.bool_)
+
+
 def _is_number(value: Any) -> bool:
-    return isinstance(value, (Real, np.bool_)) and not isinstance(value, str)
+    return (isinstance(value, Real) or _is_numpy_bool(value)) and not isinstance(value, str)
 
 
 def text_table(rows: Sequence[Mapping[str, Any]], columns: Sequence[str],

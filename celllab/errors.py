@@ -12,6 +12,16 @@ from collections.abc import Iterable
 from dataclasses import dataclass, field
 from typing import Any
 
+#: Longest value quoted in a message (a 10 MB name is cut, not printed).
+MAX_SHOWN_VALUE = 200
+
+
+def _shown(value: Any) -> str:
+    text = repr(value)
+    if len(text) <= MAX_SHOWN_VALUE:
+        return text
+    return f"{text[: MAX_SHOWN_VALUE - 3]}... ({len(text)} characters)"
+
 
 def close_names(value: object, allowed: Iterable[str], n: int = 1, cutoff: float = 0.6,
                 fold_case: bool = False) -> list[str]:
@@ -56,7 +66,7 @@ class Problem:
         if self.line is not None:
             where += f":{self.line}"
         if self.field and self.has_value:
-            return f"{where}: {self.field} = {self.value!r} -> {self.message}"
+            return f"{where}: {self.field} = {_shown(self.value)} -> {self.message}"
         if self.field:
             return f"{where}: {self.field} -> {self.message}"
         return f"{where}: {self.message}"
@@ -98,6 +108,11 @@ class FilterError(CelllabError):
 
 class PlanError(CelllabError):
     """A block fill plan is inconsistent."""
+
+
+class OutputError(CelllabError):
+    """An output file could not be written (it exists, is a link, pipe or read-only file, or
+    the OS refused the folder)."""
 
 
 class ExportError(CelllabError):

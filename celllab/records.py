@@ -9,6 +9,7 @@ responses are stored in SI (Hz, ohm) as numpy arrays.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -16,13 +17,14 @@ import numpy as np
 
 from celllab.columns import (
     AGGREGATE_CORNERS,
+    BOUND_FLAGS,
     CELL_COLUMNS,
     METRIC_BY_NAME,
     METRIC_NAMES,
     METRICS,
     Better,
     Column,
-    bound_metrics,
+    is_lower_bound,
 )
 
 #: Column facts (units, better direction, worst/best) live in ``celllab.columns``; the names are
@@ -40,8 +42,9 @@ __all__ = [
 class CornerFigures:
     """SI figures of one cell at one corner: what each metric (``columns.METRICS``) is computed from.
 
-    The engine fills them from a topology's group result; values outside the sweep are already
-    clamped to its end (with a flag), undefined ones are NaN.
+    The engine fills them from a topology's group result. SRF and bandwidth above the analysed
+    band are computed from the circuit (flagged); where the circuit shows none up to the search
+    top, that top is stored with ``*_is_bound`` set. Undefined values are NaN.
     """
 
     area_um2: float          # cell footprint, um^2 (the one non-SI figure: densities are per um^2)
@@ -49,14 +52,33 @@ class CornerFigures:
     cap_ox_F: float          # plain Cox x area (+ metal), F
     esr_lf_ohm: float        # low-frequency Re Z, ohm
     esr_probe_ohm: float     # Re Z at the ESR probe frequency (1 GHz), ohm
-    bandwidth_Hz: float      # C_eff = C / sqrt(2), Hz
+    bandwidth_Hz: float      # C_eff (loop inductance removed) = C / sqrt(2), at most the SRF, Hz
     esl_H: float             # series inductance, H
     srf_Hz: float            # self-resonance, Hz
     tau_s: float             # ESR x C, s
-    leakage_A: float         # gate leakage at the supply, A
+    gate_leakage_A: float    # gate tunnelling current at the supply, A
+    junction_leakage_A: float  # reverse current of the biased well junctions, A (NaN: not modelled)
     e_ox_V_per_m: float      # SiO2-equivalent oxide field, V/m
-    ttf_s: float             # time to the quoted oxide failure fraction, s
+    tddb_rate_per_s_m2: float  # mission-average TDDB failure rate per m^2 of gate oxide, 1/(s m^2)
     vbd_pulse_V: float       # pulse breakdown voltage, V
+    srf_is_bound: bool = False        # srf_Hz is only a lower bound (no resonance found up to it)
+    bandwidth_is_bound: bool = False  # bandwidth_Hz is only a lower bound
+
+    @property
+    def leakage_A(self) -> float:
+        """Total leakage at the supply, A: gate plus junction (a junction part not modelled counts 0)."""
+        junction = 0.0 if math.isnan(self.junction_leakage_A) else self.junction_leakage_A
+        return self.gate_leakage_A + junction
+    # ESD events of the deck's [esd] table and one broken oxide (NaN: not computed / no oxide)
+    hbm_peak_oxide_V: float = math.nan    # |peak V_ox| of the worst oxide under HBM, V
+    hbm_time_above_s: float = math.nan    # time above the pulse breakdown voltage, s
+    cdm_peak_oxide_V: float = math.nan
+    cdm_time_above_s: float = math.nan
+    hbm_oxide_share: float = math.nan     # |peak V_ox| / |peak rail| under HBM, 0..1
+    esd_series_helps: float = math.nan    # 1: the cell's series path keeps the zap off its oxide
+    fault_current_A: float = math.nan     # supply current with the worst oxide broken, A
+    fault_power_W: float = math.nan       # supply power then, W
+    fault_survives: float = math.nan      # 1: that current is within the rail's limit
 
 
 @dataclass
@@ -69,10 +91,16 @@ class FrequencyResponse:
     freq_Hz: np.ndarray
     z_ohm: np.ndarray
 
-    def c_eff_F(self) -> np.ndarray:
-        """Effective capacitance C_eff = -1/(omega Im Z), F."""
+    def c_eff_F(self, series_inductance_H: float = 0.0) -> np.ndarray:
+        """Effective capacitance C_eff = -1/(omega (Im Z - omega L_series)), F.
+
+        With the default 0 H this is the raw -1/(omega Im Z), which rises toward the
+        self-resonance as the loop inductance cancels the capacitive reactance (not extra
+        charge); pass the cell's ESL (``esl_pH`` metric) for the capacitance of its RC network,
+        the curve the usable bandwidth is read from (``physics.impedance`` module notes).
+        """
         w = 2 * np.pi * self.freq_Hz
-        return -1.0 / (w * np.imag(self.z_ohm))
+        return -1.0 / (w * (np.imag(self.z_ohm) - w * series_inductance_H))
 
 
 @dataclass
@@ -157,26 +185,21 @@ def corner_metrics(cell: CellResult, corner: str) -> dict[str, float]:
     the cell lacks raises ``KeyError``.
     """
     if corner in AGGREGATE_CORNERS:
-        return {m.name: m.over_corners((c.metrics.get(m.name) for c in cell.corners), corner)  # type: ignore[arg-type]
-                for m in METRICS}
+        out = {m.name: m.over_corners((c.metrics.get(m.name) for c in cell.corners), corner)
+               for m in METRICS}
+        for m in METRICS:
+            if m.bounds:  # a bound flag follows the corner that gives its metric's extreme
+                chosen = [c.metrics.get(m.name) for c in cell.corners if c.metrics.get(m.bounds) == out[m.bounds]]
+                out[m.name] = max((float(v) for v in chosen if v is not None), default=math.nan)
+        return out
     return dict(cell.corner(corner).metrics)
 
 
 def corner_bounds(cell: CellResult, corner: str) -> frozenset[str]:
-    """Metrics whose value ``corner_metrics(cell, corner)`` gives is a lower bound.
-
-    At a named corner, that corner's bound flags (``columns.bound_metrics``); for "worst" /
-    "best", the metrics whose chosen value comes from a corner where it is a bound.
-    """
-    if corner not in AGGREGATE_CORNERS:
-        return bound_metrics(cell.corner(corner).flags)
+    """Metrics whose value ``corner_metrics(cell, corner)`` gives is a lower bound (for "worst" /
+    "best" the bound flag follows the corner that gives the value; ``columns.is_lower_bound``)."""
     chosen = corner_metrics(cell, corner)
-    found = set()
-    for c in cell.corners:
-        for name in bound_metrics(c.flags):
-            if c.metrics.get(name) == chosen.get(name):
-                found.add(name)
-    return frozenset(found)
+    return frozenset(name for name in BOUND_FLAGS if is_lower_bound(chosen, name))
 
 
 def netlist_to_dict(netlist: Any) -> dict[str, Any]:

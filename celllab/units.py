@@ -22,6 +22,7 @@ from scipy.constants import (
     centi,
     femto,
     giga,
+    hour,
     mega,
     micro,
     milli,
@@ -77,6 +78,7 @@ UNITS: dict[str, Unit] = {
         Unit("s", "s", 1.0, suffixes=("_s",)),
         Unit("ms", "s", milli, suffixes=("_ms",)),
         Unit("ps", "s", pico, suffixes=("_ps",)),
+        Unit("ns", "s", nano, suffixes=("_ns",)),
         Unit("years", "s", Julian_year, suffixes=("_years",)),
         # voltage, field, current
         Unit("V", "V", 1.0, suffixes=("_V",)),
@@ -85,8 +87,15 @@ UNITS: dict[str, Unit] = {
         Unit("MV/cm", "V/m", mega / centi, suffixes=("_MV_per_cm",)),
         Unit("A", "A", 1.0, suffixes=("_A",)),
         Unit("nA", "A", nano, suffixes=("_nA",)),
+        Unit("mA", "A", milli, suffixes=("_mA",)),
+        Unit("mW", "W", milli, suffixes=("_mW",)),
+        Unit("%", "1", centi, suffixes=("_pct",)),
         Unit("nA/nF", "A/F", 1.0, suffixes=("_nA_per_nF",)),
         Unit("A/cm^2", "A/m^2", (1 / centi) ** 2, suffixes=("_A_per_cm2",)),
+        Unit("fA/um^2", "A/m^2", femto / micro**2, suffixes=("_fA_per_um2",)),
+        Unit("fA/um", "A/m", femto / micro, suffixes=("_fA_per_um",)),
+        # failure rates: FIT = failures per 1e9 device-hours; per mm^2 of gate oxide
+        Unit("FIT/mm^2", "1/(s m^2)", 1.0 / (giga * hour * milli**2), suffixes=("_fit_per_mm2",)),
         # materials
         Unit("cm^-3", "m^-3", (1 / centi) ** 3, suffixes=("_cm3",)),
         Unit("cm^2/(V s)", "m^2/(V s)", centi**2, suffixes=("_cm2_per_Vs",)),

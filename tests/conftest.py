@@ -85,3 +85,28 @@ def demo_view_catalog(demo_view_runs: dict[str, object], tmp_path_factory: pytes
         for run in demo_view_runs.values():
             catalog.store_run(run)  # type: ignore[arg-type]
     return path
+
+
+# --------------------------------------------------------------------------- hardening tally
+
+_TALLY: dict[str, object] = {}
+
+
+@pytest.fixture(scope="session")
+def tally() -> dict[str, object]:
+    """Counts the fuzz and concurrency tests record (printed at the end of the run; written as
+    JSON to $CELLLAB_TALLY_JSON when that is set). The README's hardening table quotes them."""
+    return _TALLY
+
+
+def pytest_terminal_summary(terminalreporter, exitstatus, config):  # type: ignore[no-untyped-def]
+    if not _TALLY:
+        return
+    import json
+    import os
+
+    terminalreporter.section("hardening tally")
+    for key, value in sorted(_TALLY.items()):
+        terminalreporter.write_line(f"{key}: {json.dumps(value, sort_keys=True)}")
+    if target := os.environ.get("CELLLAB_TALLY_JSON"):
+        Path(target).write_text(json.dumps(_TALLY, indent=2, sort_keys=True) + "\n")

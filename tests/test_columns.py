@@ -38,8 +38,9 @@ def test_every_name_once_with_its_unit_in_the_name() -> None:
     assert len(names) == len(set(names)) == len(COLUMNS)
     # Common practice, no source: the unit is spelled in the column name (cap_fF, leakage_nA).
     tags = {"fF": "fF", "fF/um^2": "fF_per_um2", "ohm": "ohm", "GHz": "GHz", "pH": "pH", "ps": "ps",
-            "nA": "nA", "nA/nF": "nA_per_nF", "MV/cm": "MV_per_cm", "years": "years", "V": "V",
-            "um^2": "um2", "sites": "sites", "rows": "rows", "degC": "C"}
+            "nA": "nA", "nA/nF": "nA_per_nF", "MV/cm": "MV_per_cm", "FIT/mm^2": "fit_per_mm2", "V": "V",
+            "um^2": "um2", "sites": "sites", "rows": "rows", "degC": "C", "ns": "ns", "mA": "mA", "mW": "mW",
+            "%": "pct"}
     for column in COLUMNS.values():
         if column.kind == "number":
             assert column.name.endswith(tags[column.unit]), column.name
@@ -165,16 +166,16 @@ def test_a_metric_added_in_columns_alone_reaches_every_consumer(tmp_path) -> Non
     assert got["schema"] and got["help"] and got["tui"]
 
 
-def test_lower_bounds_are_read_from_the_flags_in_one_place() -> None:
-    from celllab.columns import bound_metrics, is_lower_bound
+def test_a_corner_result_is_read_through_its_metrics() -> None:
+    import numpy as np
 
-    flags = ["srf_beyond_sweep: no self-resonance below the sweep end; value is a lower bound",
-             "weak_channel: overdrive below 0.2 V"]
-    assert bound_metrics(flags) == {"srf_GHz"}
-    row = {"srf_GHz": 1000.0, "bandwidth_GHz": 3.0, "flags": flags}
-    assert is_lower_bound(row, "srf_GHz") and not is_lower_bound(row, "bandwidth_GHz")
-    assert not is_lower_bound({"srf_GHz": 1.0, "flags": []}, "srf_GHz")
-    assert not is_lower_bound({"srf_GHz": 1.0}, "srf_GHz")  # a row without flags
+    from celllab.columns import is_lower_bound
+    from celllab.records import CornerResult, FrequencyResponse
+
+    metrics = {m: 0.0 for m in METRIC_NAMES} | {"srf_GHz": 1000.0, "srf_is_bound": 1.0}
+    c = CornerResult("a", 25.0, 1.2, metrics, FrequencyResponse(np.ones(2), np.ones(2)))
+    assert is_lower_bound(c, "srf_GHz") and not is_lower_bound(c, "bandwidth_GHz")
+    assert not is_lower_bound({"srf_GHz": 1.0}, "srf_GHz")  # a row without the flag
 
 
 def test_worst_and_best_are_bounds_only_when_the_chosen_corner_is_one() -> None:
@@ -183,9 +184,8 @@ def test_worst_and_best_are_bounds_only_when_the_chosen_corner_is_one() -> None:
     from celllab.records import CellResult, CornerResult, FrequencyResponse, corner_bounds
 
     def corner(name: str, srf: float, bound: bool) -> CornerResult:
-        metrics = {m: 1.0 for m in METRIC_NAMES} | {"srf_GHz": srf}
-        return CornerResult(name, 25.0, 1.2, metrics, FrequencyResponse(np.ones(2), np.ones(2)),
-                            flags=["srf_beyond_sweep: beyond"] if bound else [])
+        metrics = {m: 0.0 for m in METRIC_NAMES} | {"srf_GHz": srf, "srf_is_bound": float(bound)}
+        return CornerResult(name, 25.0, 1.2, metrics, FrequencyResponse(np.ones(2), np.ones(2)))
 
     cell = CellResult("c", "h", "f", "mom", "core", {}, 1.0, 1, 1, 1.0, True,
                       [corner("a", 1000.0, True), corner("b", 400.0, False)])

@@ -171,8 +171,10 @@ def test_quill28hk_matches_its_description(demo_deck_paths: dict[str, tuple[Path
 def test_readme_documents_every_deck_field(deck_dir: Path, demo_deck_paths: dict[str, tuple[Path, Path]]) -> None:
     readme = (deck_dir / "README.md").read_text(encoding="utf-8")
     models = [schema.Deck, schema.ProcessInfo, schema.OxideFlavour, schema.DeviceParams, schema.LeakageParams,
-              schema.ReliabilityParams, schema.Wells, schema.Resistances, schema.MetalLayer, schema.Layout,
-              schema.Supplies, schema.NamedSupply, schema.ResistanceTempco, schema.Corner, CellSpec]
+              schema.Tunnelling, schema.ReliabilityParams, schema.Wells, schema.Junctions, schema.JunctionLeakage,
+              schema.Resistances, schema.MetalLayer, schema.Layout, schema.Supplies, schema.NamedSupply,
+              schema.ResistanceTempco, schema.AnalysisBand, schema.Corner, schema.RailDomain,
+              schema.EsdTargets, schema.Mission, CellSpec]
     def documented(model: type[BaseModel], name: str) -> bool:
         ann = model.model_fields[name].annotation
         if any(isinstance(a, type) and issubclass(a, BaseModel) for a in (ann, *typing.get_args(ann))):

@@ -28,7 +28,7 @@ def deck():
 
 @pytest.fixture(scope="module")
 def run(deck):
-    return characterize(deck, load_cells(CELLS, deck))
+    return characterize(deck, load_cells(CELLS, deck), esd=False)  # ESD columns: tests/test_engine_risk.py
 
 
 def _cell(deck, **kw) -> CellSpec:
@@ -206,3 +206,9 @@ def test_all_demo_decks_characterize() -> None:
         assert 40 <= len(cells) <= 400
         r = characterize(d, cells[:: max(1, len(cells) // 12)])
         assert all(c.corners[0].metrics["cap_fF"] > 0 for c in r.cells)
+        # every cell with a gate oxide carries ESD and broken-oxide figures at every corner
+        for c in r.cells:
+            for corner in c.corners:
+                has_oxide = c.topology != "mom"
+                for key in ("hbm_oxide_peak_V", "cdm_margin_V", "broken_oxide_mA", "tddb_fit_per_mm2"):
+                    assert np.isfinite(corner.metrics[key]) == has_oxide, (c.name, corner.corner, key)

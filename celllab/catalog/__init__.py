@@ -14,22 +14,38 @@ from __future__ import annotations
 
 import contextlib
 import sqlite3
+import sys
 import threading
 from collections.abc import Iterator
 from pathlib import Path
 from typing import Any, Self
 
-from celllab import DEFAULT_CATALOG
-from celllab.catalog import merge as _merge
-from celllab.catalog import pareto as _pareto
-from celllab.catalog import query as _query
-from celllab.catalog import store as _store
-from celllab.catalog.merge import MergeReport
-from celllab.catalog.query import DeckInfo
-from celllab.catalog.schema import open_database
-from celllab.catalog.store import StoreReport
-from celllab.errors import CatalogError
-from celllab.records import CellResult, CharacterizationRun
+
+def _import_sqlite_utils() -> None:
+    """Import sqlite-utils without pandas: it loads pandas when installed (about a second)
+    only to recognise pandas values, which the catalog never hands it."""
+    if "sqlite_utils" in sys.modules or "pandas" in sys.modules:
+        return
+    sys.modules["pandas"] = None  # type: ignore[assignment]  # import pandas -> ImportError
+    try:
+        import sqlite_utils  # noqa: F401
+    finally:
+        del sys.modules["pandas"]
+
+
+_import_sqlite_utils()
+
+from celllab import DEFAULT_CATALOG  # noqa: E402
+from celllab.catalog import merge as _merge  # noqa: E402
+from celllab.catalog import pareto as _pareto  # noqa: E402
+from celllab.catalog import query as _query  # noqa: E402
+from celllab.catalog import store as _store  # noqa: E402
+from celllab.catalog.merge import MergeReport  # noqa: E402
+from celllab.catalog.query import DeckInfo  # noqa: E402
+from celllab.catalog.schema import open_database  # noqa: E402
+from celllab.catalog.store import StoreReport  # noqa: E402
+from celllab.errors import CatalogError  # noqa: E402
+from celllab.records import CellResult, CharacterizationRun  # noqa: E402
 
 __all__ = ["Catalog", "DeckInfo", "MergeReport", "StoreReport", "open_catalog"]
 
@@ -49,6 +65,12 @@ class Catalog:
             try:
                 yield self._db
             except sqlite3.DatabaseError as exc:
+                if "readonly database" in str(exc):
+                    raise CatalogError.single(str(self.path), "", "read-only for this user (the file or "
+                                              "its folder); nothing was written") from None
+                if "disk is full" in str(exc):
+                    raise CatalogError.single(str(self.path), "", "the disk is full; nothing of this "
+                                              "write was stored (free space and run it again)") from None
                 raise CatalogError.single(str(self.path), "", f"SQLite error: {exc}") from None
 
     def close(self) -> None:
@@ -83,11 +105,21 @@ class Catalog:
         with self._access() as db:
             return _store.remove_run(db, run_id)
 
-    def merge_from(self, other_path: str | Path, *, adopt_current: bool = False) -> MergeReport:
-        """Import another catalog file by content hash; conflicts are reported, never
-        overwritten. This catalog's current decks stay current unless ``adopt_current``."""
-        with self._access() as db:
-            return _merge.merge_from(db, self.path, other_path, adopt_current=adopt_current)
+    def merge_from(self, other_path: str | Path, make_current: bool = False) -> MergeReport:
+        """Import another catalog file by content hash; conflicts are reported, never overwritten.
+
+        Every row of the other file is checked first (a bad file is refused whole, naming it).
+        Imported decks stay not current unless ``make_current`` asks to adopt, per deck name, the
+        deck made current most recently in either catalog.
+        """
+        with self._lock:
+            try:
+                return _merge.merge_from(self._db, self.path, other_path, make_current)
+            except sqlite3.DatabaseError as exc:  # the source's own errors name the source
+                if "disk is full" in str(exc):
+                    raise CatalogError.single(str(self.path), "", "the disk is full; nothing of this "
+                                              "write was stored (free space and run it again)") from None
+                raise CatalogError.single(str(self.path), "", f"SQLite error: {exc}") from None
 
     # reading
     def decks(self) -> list[DeckInfo]:

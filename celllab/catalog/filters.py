@@ -25,23 +25,29 @@ from __future__ import annotations
 import re
 import textwrap
 from dataclasses import dataclass
-from typing import Literal, get_args
+from typing import Any, Literal, get_args
 
-from celllab.cells.schema import OxideChoice
 from celllab.columns import CELL_COLUMNS, CORNER_COLUMNS, METRICS, TEXT_COLUMNS
 from celllab.errors import FilterError, Problem, did_you_mean
-from celllab.topologies import REGISTRY
-from celllab.topologies.geometry import PLACEMENTS
 
 FieldKind = Literal["number", "text", "bool"]
 
-#: Closed sets of the cell model; filter values are checked against them.
-OXIDES: tuple[str, ...] = tuple(get_args(OxideChoice))
+def __getattr__(name: str) -> Any:
+    # OXIDES (the closed set of the cell model) is read from the cell model on first use, so
+    # parsing and compiling filters does not load the topologies (and their physics).
+    if name == "OXIDES":
+        from celllab.cells.schema import OxideChoice
+
+        return tuple(get_args(OxideChoice))
+    raise AttributeError(name)
 
 
 def closed_values() -> dict[str, tuple[str, ...]]:
     """Text columns with a closed set of values (topologies read from the registry now)."""
-    return {"topology": REGISTRY.names(), "oxide": OXIDES, "placement": PLACEMENTS}
+    from celllab.topologies import REGISTRY
+    from celllab.topologies.geometry import PLACEMENTS
+
+    return {"topology": REGISTRY.names(), "oxide": __getattr__("OXIDES"), "placement": PLACEMENTS}
 
 TEXT_FIELDS: tuple[str, ...] = tuple(TEXT_COLUMNS)
 #: Corner conditions (NULL in worst/best rows, where no single corner applies).
@@ -52,6 +58,14 @@ FIELDS: dict[str, FieldKind] = {
     **{c.name: c.kind for c in (*TEXT_COLUMNS.values(), *METRICS, *CELL_COLUMNS.values(),
                                 *CORNER_COLUMNS.values())},
 }
+
+#: Limits of one filter (in ``describe_language``). They keep parsing iterative enough for
+#: Python's stack and the compiled SQL inside SQLite's limits on expression depth and bound
+#: parameters, so a filter is refused by name here and never fails inside SQLite.
+MAX_NESTING = 50
+MAX_CONDITIONS = 200
+MAX_VALUES = 500
+MAX_FILTER_CHARS = 10000
 
 _KEYWORDS = {"and", "or", "not", "in", "true", "false"}
 _COMPARE_OPS = {
@@ -285,9 +299,31 @@ def unknown_name_error(
 
 class _Parser:
     def __init__(self, text: str) -> None:
+        if len(text) > MAX_FILTER_CHARS:
+            raise _error(text[:60] + "...", 0, 1, f"the filter is {len(text)} characters long; at "
+                         f"most {MAX_FILTER_CHARS}")
         self.text = text
         self.tokens = tokenize(text)
         self.i = 0
+        self.depth = 0
+        self.conditions = 0
+        self.values = 0
+
+    def enter(self, tok: Token) -> None:
+        """One more level of parentheses or 'not' (refused past MAX_NESTING)."""
+        self.depth += 1
+        if self.depth > MAX_NESTING:
+            raise _error(self.text, tok.pos, len(tok.text), f"nested more than {MAX_NESTING} deep "
+                         f"(parentheses and 'not'); at most {MAX_NESTING} levels",
+                         ("write the condition with fewer parentheses, or 'not' once",))
+
+    def counted(self, node: Node, tok: Token) -> Node:
+        self.conditions += 1
+        if self.conditions > MAX_CONDITIONS:
+            raise _error(self.text, tok.pos, len(tok.text),
+                         f"more than {MAX_CONDITIONS} conditions; at most {MAX_CONDITIONS}",
+                         ("list values with 'in (...)', or split the query",))
+        return node
 
     # helpers
     @property
@@ -340,16 +376,21 @@ class _Parser:
 
     def not_expr(self) -> Node:
         if self.is_keyword("not"):
-            self.next()
-            return Not(self.not_expr())
+            self.enter(self.next())
+            node: Node = Not(self.not_expr())
+            self.depth -= 1
+            return node
         if self.tok.kind == "lparen":
             opening = self.next()
+            self.enter(opening)
             node = self.or_expr()
             if self.tok.kind != "rparen":
                 raise self.fail("')'", extra=(f"to close the '(' at column {opening.pos + 1}",))
             self.next()
+            self.depth -= 1
             return node
-        return self.condition()
+        tok = self.tok
+        return self.counted(self.condition(), tok)
 
     def condition(self) -> Node:
         tok = self.tok
@@ -472,6 +513,10 @@ class _Parser:
         self.next()
         values: list[float | str] = []
         while True:
+            self.values += 1
+            if self.values > MAX_VALUES:
+                raise _error(self.text, self.tok.pos, len(self.tok.text),
+                             f"more than {MAX_VALUES} listed values; at most {MAX_VALUES}")
             if kind == "text":
                 values.append(self.text_value(field))
             elif kind == "bool":
@@ -557,9 +602,15 @@ def describe_language() -> str:
         "  combine      and, or, not, parentheses: not (esr_ohm > 3 or srf_GHz < 2)",
         "  values       plain numbers (5, 0.25, 2e3, -40; no SI suffixes: units are in the names),",
         "               words or quoted text for name/deck/family/topology/oxide/corner",
+        f"  limits       at most {MAX_NESTING} levels of parentheses and 'not', {MAX_CONDITIONS} "
+        f"conditions,",
+        f"               {MAX_VALUES} listed values and {MAX_FILTER_CHARS} characters",
         "  corners      with --corner worst (default) each metric is its least favourable value",
         "               over the corners (best: most favourable) before the filter applies;",
-        "               temperature_C and supply_V are empty there",
+        "               temperature_C and supply_V are empty there; a *_is_bound flag is that of",
+        "               the corner giving its metric's value",
+        "  bounds       srf_is_bound, bandwidth_is_bound: the value is only a lower bound (shown",
+        "               as ≥value); e.g. srf_GHz >= 50 and not srf_is_bound",
         "Metrics (per corner; better = direction of ranking by default):",
     ]
     width = max(len(n) for n in FIELDS)
@@ -572,6 +623,11 @@ def describe_language() -> str:
     for c in CORNER_COLUMNS.values():
         lines.append(f"  {c.name:<{width}}  [{c.unit}] corner condition")
     lines.append(f"Text columns: {', '.join(TEXT_FIELDS)}")
-    lines.append(f"  topology: {', '.join(REGISTRY.names())};  oxide: {', '.join(OXIDES)}")
-    lines.append(f"  placement: {', '.join(PLACEMENTS)};  rail: core, io or a deck's named rail")
+    closed = closed_values()
+    lines.append(
+        f"  topology: {', '.join(closed['topology'])};  oxide: {', '.join(closed['oxide'])}"
+    )
+    lines.append(
+        f"  placement: {', '.join(closed['placement'])};  rail: core, io or a deck's named rail"
+    )
     return "\n".join(lines)

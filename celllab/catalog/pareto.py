@@ -96,7 +96,19 @@ def pareto_mask(values: np.ndarray) -> np.ndarray:
         return np.zeros(0, dtype=bool)
     if np.isnan(v).any():
         raise ValueError("NaN values cannot be compared; drop those rows first")
-    return _mask_2d(v) if v.shape[1] == 2 else _mask_nd(v)
+    # equal rows share their verdict (they never dominate each other): decide each distinct
+    # row once; catalogs repeat metric vectors (families, copies), which the sweep pays for
+    if v.shape[1] == 2:
+        return _mask_2d(v)
+    order = np.lexsort(v.T[::-1])
+    s = v[order]
+    first = np.ones(s.shape[0], dtype=bool)
+    first[1:] = (s[1:] != s[:-1]).any(axis=1)
+    if first.all():
+        return _mask_nd(v)
+    group = np.empty(s.shape[0], dtype=np.intp)
+    group[order] = np.cumsum(first) - 1
+    return _mask_nd(s[first])[group]
 
 
 def check_pareto_metrics(metrics: Sequence[str]) -> list[str]:
@@ -141,7 +153,8 @@ def catalog_pareto(
     q.check_deck(db, deck)
     q.check_corner(db, corner, deck)
     sql, params = q.metric_values_sql(metrics, corner, deck, where)
-    raw = [r for r in db.execute(sql, params).fetchall() if None not in r[2:]]
+    with q.filter_limits(where):
+        raw = [r for r in db.execute(sql, params).fetchall() if None not in r[2:]]
     if not raw:
         return []
     sign = np.array([RANKED[m].minimize_sign for m in metrics])

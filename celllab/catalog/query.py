@@ -11,13 +11,17 @@ By default only current results (current deck of each name, current result of ea
 
 from __future__ import annotations
 
+import contextlib
 import json
+import sqlite3
+from collections.abc import Iterator
 from dataclasses import dataclass
 from typing import Any
 
 import sqlite_utils
 
 from celllab.catalog.filters import FIELDS, compile_filter, quote_column, unknown_name_error
+from celllab.catalog.schema import INDEXED_METRICS
 from celllab.columns import (
     AGGREGATE_CORNERS,
     CELL_COLUMNS,
@@ -69,12 +73,18 @@ def _scope_sql(
 
 
 def base_rows_sql(
-    corner: str | None = "worst", deck: str | None = None, current_only: bool = True
+    corner: str | None = "worst",
+    deck: str | None = None,
+    current_only: bool = True,
+    index: str | None = None,
 ) -> tuple[str, list[object]]:
     """SQL of the cell x corner rows (columns: ``cell_id``, ``flags_json`` and ``filters.FIELDS``).
 
     corner : a corner name, "worst", "best", or None for every corner.
     deck : a deck name or deck hash, None for all decks.
+    index : name of an index of the metric table to drive the join from (``metric_index``):
+        the rows are then read in that index's order, so an ORDER BY on its metric with a
+        LIMIT stops early instead of sorting every row. Same rows either way.
     """
     params: list[object] = []
     cell_cols = ", ".join(f"c.{quote_column(k)} AS {quote_column(k)}" for k in CELL_COLUMNS)
@@ -102,10 +112,36 @@ def base_rows_sql(
         f"d.name AS deck, d.deck_hash AS deck_hash, c.model_version AS model_version, "
         f"c.family AS family, c.topology AS topology, c.oxide AS oxide, {corner_cols}, "
         f"{cell_cols}, {metric_cols} "
-        f"FROM cells c JOIN decks d ON d.deck_hash = c.deck_hash {source} "
+        f"FROM {_from_clause(source, index)} "
         f"WHERE {outer_scope}{corner_cond}"
     )
     return sql, params
+
+
+def _from_clause(source: str, index: str | None) -> str:
+    """``cells c``, ``decks d`` and the metric table ``m`` of ``source`` ("JOIN <table> m ON ...").
+
+    With ``index`` the metric table comes first, read through that index (CROSS JOIN keeps
+    SQLite from reordering the loops), so rows arrive in index order.
+    """
+    if index is None:
+        return f"cells c JOIN decks d ON d.deck_hash = c.deck_hash {source}"
+    table, on = source.removeprefix("JOIN ").split(" m ON ", 1)
+    return (
+        f"{table} m INDEXED BY {index} CROSS JOIN cells c ON {on} "
+        f"CROSS JOIN decks d ON d.deck_hash = c.deck_hash"
+    )
+
+
+def metric_index(corner: str | None, metric: str) -> str | None:
+    """Name of the index that yields rows of ``corner`` in order of ``metric`` (None if none)."""
+    if metric not in INDEXED_METRICS:
+        return None
+    if corner in AGGREGATE_CORNERS:
+        return f"corner_extremes_by_{metric}"  # (kind, metric)
+    if corner is None:
+        return f"corner_metrics_by_{metric}"  # (metric)
+    return f"corner_metrics_by_corner_{metric}"  # (corner, metric)
 
 
 def check_order_column(column: str) -> str:
@@ -170,9 +206,13 @@ def keyed_rows_sql(
     base, params = base_rows_sql(corner, deck)
     pairs = ", ".join("(?, ?)" for _ in keys)
     flat = [v for key in keys for v in key]
+    ids = sorted({int(k[0]) for k in keys})
+    marks = ", ".join("?" for _ in ids)
+    # the cell_id list lets SQLite look the cells up by key; the pairs then pick the corners
     return (
-        f"SELECT * FROM ({base}) AS r WHERE (r.cell_id, r.corner) IN (VALUES {pairs})",
-        [*params, *flat],
+        f"SELECT * FROM ({base}) AS r WHERE r.cell_id IN ({marks}) "
+        f"AND (r.cell_id, r.corner) IN (VALUES {pairs})",
+        [*params, *ids, *flat],
     )
 
 
@@ -215,9 +255,11 @@ def corners(db: sqlite_utils.Database, deck: str | None = None) -> list[str]:
     """Corner names of the runs holding current results (of one deck), in the order stored."""
     params: list[object] = []
     scope = _scope_sql("c", "d", deck, True, params)
+    # EXISTS per run (through the run index) stops at a run's first current cell
     rows = db.execute(
-        f"SELECT r.corners_json FROM runs r WHERE r.run_id IN (SELECT DISTINCT c.run_id "
-        f"FROM cells c JOIN decks d ON d.deck_hash = c.deck_hash WHERE {scope}) ORDER BY r.run_id",
+        f"SELECT r.corners_json FROM runs r WHERE EXISTS (SELECT 1 FROM cells c INDEXED BY cells_by_run "
+        f"JOIN decks d ON d.deck_hash = c.deck_hash WHERE c.run_id = r.run_id AND {scope}) "
+        f"ORDER BY r.run_id",
         params,
     )
     return list(dict.fromkeys(name for (text,) in rows for name in json.loads(text)))
@@ -287,6 +329,26 @@ def fetch_rows(db: sqlite_utils.Database, sql: str, params: list[object]) -> lis
     return out
 
 
+#: Words of SQLite's messages when a statement exceeds one of its limits.
+_SQLITE_LIMIT_WORDS = ("too many", "too large", "too big", "stack overflow", "too complex")
+
+
+@contextlib.contextmanager
+def filter_limits(where: str) -> Iterator[None]:
+    """Report SQLite refusing a filtered statement for its size as a problem of the filter
+    (the parser's own limits normally refuse such a filter first)."""
+    try:
+        yield
+    except sqlite3.OperationalError as exc:
+        if not where or not any(w in str(exc).lower() for w in _SQLITE_LIMIT_WORDS):
+            raise
+        shown = where if len(where) <= 80 else where[:77] + "..."
+        raise FilterError(
+            [Problem("filter", "", f"too large for SQLite to run ({exc}); use fewer conditions "
+                     "or values", shown)]
+        ) from None
+
+
 def run_query(
     db: sqlite_utils.Database,
     deck: str | None = None,
@@ -303,7 +365,64 @@ def run_query(
     )
     check_deck(db, deck)
     check_corner(db, corner, deck)
-    return fetch_rows(db, sql, params)
+    with filter_limits(where):
+        if limit:
+            early = _early_stop_sql(
+                db, corner, deck, where, order_by, descending, limit, offset, current_only
+            )
+            if early is not None:
+                sql, params = early
+        return fetch_rows(db, sql, params)
+
+
+def _has_index(db: sqlite_utils.Database, name: str) -> bool:
+    return bool(
+        db.execute(
+            "SELECT 1 FROM sqlite_master WHERE type = 'index' AND name = ?", [name]
+        ).fetchone()
+    )
+
+
+def _early_stop_sql(
+    db: sqlite_utils.Database,
+    corner: str | None,
+    deck: str | None,
+    where: str,
+    order_by: str,
+    descending: bool | None,
+    limit: int,
+    offset: int,
+    current_only: bool,
+) -> tuple[str, list[object]] | None:
+    """The ranked query, narrowed so that SQLite reads only the first rows of a metric index.
+
+    Step 1 walks the index of ``order_by`` in ranking order, applying scope and filter, and
+    stops at the (offset + limit)-th non-empty value t. Every row of the requested page then
+    has a value at least as good as t, and no empty value is on it (empty values rank last),
+    so the full query restricted to values as good as t (ties included) gives the same page
+    with the same tie-breaks. None (use the plain query) when the metric has no index or
+    fewer than offset + limit rows have a value.
+    """
+    index = metric_index(corner, order_by)
+    if index is None or not _has_index(db, index):
+        return None
+    desc = best_first_descending(order_by) if descending is None else descending
+    base, params = base_rows_sql(corner, deck, current_only, index=index)
+    cond, cond_params = compile_filter(where)
+    col = f"r.{quote_column(order_by)}"
+    row = db.execute(
+        f"SELECT {col} FROM ({base}) AS r WHERE ({cond}) AND {col} IS NOT NULL "
+        f"ORDER BY {col} {'DESC' if desc else 'ASC'} LIMIT 1 OFFSET ?",
+        [*params, *cond_params, int(offset) + int(limit) - 1],
+    ).fetchone()
+    if row is None:
+        return None
+    sql = (
+        f"SELECT * FROM ({base}) AS r WHERE ({cond}) AND {col} {'>=' if desc else '<='} ? "
+        f"ORDER BY {col} {'DESC' if desc else 'ASC'} NULLS LAST, "
+        f"r.name, r.deck, r.corner LIMIT ? OFFSET ?"
+    )
+    return sql, [*params, *cond_params, row[0], int(limit), int(offset)]
 
 
 def run_count(
@@ -316,7 +435,8 @@ def run_count(
     sql, params = count_query_sql(corner, deck, where, current_only)
     check_deck(db, deck)
     check_corner(db, corner, deck)
-    return int(db.execute(sql, params).fetchone()[0])
+    with filter_limits(where):
+        return int(db.execute(sql, params).fetchone()[0])
 
 
 def current_names(db: sqlite_utils.Database, deck: str | None = None) -> list[str]:

@@ -15,6 +15,7 @@ from __future__ import annotations
 import contextlib
 import sqlite3
 import struct
+import time
 from collections.abc import Callable, Iterator
 from pathlib import Path
 
@@ -189,6 +190,14 @@ def fill_extremes(db: sqlite_utils.Database, after_cell_id: int = 0) -> None:
             f"WHERE cell_id > ? GROUP BY cell_id",
             [after_cell_id],
         )
+        for flag, metric in ((m, METRIC_BY_NAME[m].bounds) for m in METRIC_NAMES if METRIC_BY_NAME[m].bounds):
+            # a bound flag follows the corner that gives its metric's extreme, not its own
+            db.execute(
+                f'UPDATE corner_extremes SET "{flag}" = (SELECT MAX(m."{flag}") FROM corner_metrics m '
+                f'WHERE m.cell_id = corner_extremes.cell_id AND m."{metric}" = corner_extremes."{metric}") '
+                f"WHERE kind = ? AND cell_id > ?",
+                [kind, after_cell_id],
+            )
 
 
 def _v1_to_v2(db: sqlite_utils.Database) -> None:
@@ -239,23 +248,30 @@ def migrate(db: sqlite_utils.Database, target: int = SCHEMA_VERSION) -> int:
     version = user_version(db)
     while version < target:
         with write_transaction(db):
+            # another process may have migrated (or created) the file while this one waited
+            version = user_version(db)
+            if version >= target:
+                break
             MIGRATIONS[version](db)
             version += 1
             db.execute(f"PRAGMA user_version = {version}")
     return version
 
 
-def sync_metric_columns(db: sqlite_utils.Database) -> list[str]:
-    """Add REAL columns for metrics this version knows and the file lacks; return their names."""
+def missing_metric_columns(db: sqlite_utils.Database) -> dict[str, list[tuple[str, str]]]:
+    """Table -> (column, type) of the metric and cell columns this version knows and the file lacks."""
     wanted = {
         "corner_metrics": {m: "REAL" for m in METRIC_NAMES},
         "corner_extremes": {m: "REAL" for m in METRIC_NAMES},
         "cells": {c: cell_column_type(c) for c in CELL_COLUMNS},
     }
-    missing = {
-        t: [(c, typ) for c, typ in cols.items() if c not in db[t].columns_dict]
-        for t, cols in wanted.items()
-    }
+    return {t: [(c, typ) for c, typ in cols.items() if c not in db[t].columns_dict]
+            for t, cols in wanted.items() if t in db.table_names()}
+
+
+def sync_metric_columns(db: sqlite_utils.Database) -> list[str]:
+    """Add REAL columns for metrics this version knows and the file lacks; return their names."""
+    missing = missing_metric_columns(db)
     added = sorted({c for cols in missing.values() for c, _ in cols})
     if added:  # new columns hold no values yet, so the stored extremes stay consistent
         with write_transaction(db):
@@ -263,6 +279,27 @@ def sync_metric_columns(db: sqlite_utils.Database) -> list[str]:
                 for c, typ in cols:
                     db.execute(f'ALTER TABLE {table} ADD COLUMN "{c}" {typ}')
     return added
+
+
+def ranking_indexes() -> dict[str, str]:
+    """Indexes the ranked query walks to stop early (name -> DDL), beyond the version-1 ones:
+    per corner and metric, so one corner's rows come in metric order."""
+    return {
+        f"corner_metrics_by_corner_{m}": f'ON corner_metrics(corner, "{m}")'
+        for m in INDEXED_METRICS
+        if m in METRIC_NAMES
+    }
+
+
+def sync_indexes(db: sqlite_utils.Database) -> list[str]:
+    """Create the ranking indexes a file lacks (no layout change: older versions ignore them)."""
+    have = {r[0] for r in db.execute("SELECT name FROM sqlite_master WHERE type = 'index'")}
+    missing = {n: ddl for n, ddl in ranking_indexes().items() if n not in have}
+    if missing:
+        with write_transaction(db):
+            for name, ddl in missing.items():
+                db.execute(f"CREATE INDEX IF NOT EXISTS {name} {ddl}")
+    return sorted(missing)
 
 
 def user_version(db: sqlite_utils.Database) -> int:
@@ -273,38 +310,117 @@ def _fail(path: Path, message: str) -> CatalogError:
     return CatalogError.single(str(path), "", message)  # type: ignore[return-value]
 
 
-def check_file_header(path: Path) -> None:
-    """Refuse a file that is not SQLite or is shorter than its header says, before SQLite opens it."""
+def _header_problem(path: Path) -> tuple[str, bool] | None:
+    """(message, whether a writer at work could explain it) for a file that is not a readable
+    SQLite file, or None when the header and the file size agree."""
     size = path.stat().st_size
     if size == 0:
-        return  # SQLite treats an empty file as an empty database
+        return None  # SQLite treats an empty file as an empty database
     with path.open("rb") as fh:
         header = fh.read(100)
     if not header.startswith(SQLITE_MAGIC[: min(len(header), 16)]) or len(header) < 16:
-        raise _fail(path, "not an SQLite database (a celllab catalog is an SQLite file)")
+        return "not an SQLite database (a celllab catalog is an SQLite file)", False
     if len(header) < 100:
-        raise _fail(path, f"truncated SQLite file ({size} bytes, shorter than its 100-byte header)")
+        return f"truncated SQLite file ({size} bytes, shorter than its 100-byte header)", False
     (page_size,) = struct.unpack(">H", header[16:18])
     page_size = 65536 if page_size == 1 else page_size
     if page_size < 512 or page_size & (page_size - 1):
-        raise _fail(path, f"damaged SQLite header (page size {page_size})")
+        return f"damaged SQLite header (page size {page_size})", False
     change_counter, page_count = struct.unpack(">II", header[24:32])
     (valid_for,) = struct.unpack(">I", header[92:96])
     if size % page_size:
-        raise _fail(
-            path,
+        return (
             f"truncated SQLite file ({size} bytes, not a whole number of {page_size}-byte pages)",
+            True,
         )
     if valid_for == change_counter and page_count * page_size > size:
-        raise _fail(
-            path, f"truncated SQLite file ({size} bytes; its header says {page_count * page_size})"
-        )
+        return f"truncated SQLite file ({size} bytes; its header says {page_count * page_size})", True
+    return None
+
+
+#: Pauses between looks at a file whose size and header disagree (a checkpoint copies pages
+#: from the write-ahead log in page order, so page 1 - the header - is rewritten before the
+#: file has grown to the size it announces).
+HEADER_RETRY_PAUSES_S = (0.01, 0.02, 0.05, 0.1, 0.2)
+
+
+def check_file_header(path: Path) -> None:
+    """Refuse a file that is not SQLite or is shorter than its header says, before SQLite opens it.
+
+    A size that disagrees with the header is only a fault when no other process is writing:
+    while a write-ahead log sits beside the file (``-wal``), a checkpoint may be growing it and
+    SQLite reads the pages still missing from the log, so the check leaves the file to SQLite.
+    Without a log the check looks again after short pauses before it refuses, so a checkpoint
+    that finished (and removed its log) between two looks is not mistaken for damage. The
+    header layout is SQLite's file format, docs/references.md [126].
+    """
+    for pause in (*HEADER_RETRY_PAUSES_S, None):
+        found = _header_problem(path)
+        if found is None:
+            return
+        message, transient = found
+        if not transient or pause is None:
+            raise _fail(path, message)
+        if _write_ahead_log(path).exists():
+            return
+        time.sleep(pause)
+
+
+def _write_ahead_log(path: Path) -> Path:
+    return path.with_name(path.name + "-wal")
 
 
 def connect(path: Path) -> sqlite_utils.Database:
     """A sqlite-utils Database over a connection usable from worker threads (callers serialise)."""
     conn = sqlite3.connect(str(path), check_same_thread=False, timeout=10.0)
     return sqlite_utils.Database(conn, execute_plugins=False)
+
+
+def _cannot_write(exc: sqlite3.Error) -> bool:
+    text = str(exc).lower()
+    return "readonly database" in text or "unable to open database" in text
+
+
+def connect_read_only(path: Path) -> sqlite3.Connection:
+    """A read-only connection to an existing file, which never writes to it.
+
+    A catalog in write-ahead-log mode needs its ``-shm`` index beside it; where this user may
+    not create one (a read-only folder) and no log is there - so nothing awaits a checkpoint -
+    the file is opened immutable (SQLite's ``immutable`` URI parameter, docs/references.md
+    [126]): it is read as it stands. Raises ``sqlite3.Error`` when neither way works.
+    """
+    base = path.resolve().as_uri()
+    conn = sqlite3.connect(f"{base}?mode=ro", uri=True, check_same_thread=False, timeout=10.0)
+    try:
+        conn.execute("PRAGMA schema_version").fetchone()  # the first read opens the log index
+        return conn
+    except sqlite3.OperationalError as exc:
+        conn.close()
+        if not _cannot_write(exc) or _write_ahead_log(path).exists():
+            raise
+    return sqlite3.connect(f"{base}?mode=ro&immutable=1", uri=True, check_same_thread=False, timeout=10.0)
+
+
+def _open_read_only(path: Path) -> sqlite_utils.Database:
+    """The catalog at ``path`` opened for reading only (this user may not write it or its
+    folder); it must already have this version's layout, since migrating would write."""
+    try:
+        db = sqlite_utils.Database(connect_read_only(path), execute_plugins=False)
+    except sqlite3.Error as exc:
+        raise _fail(path, f"cannot open the catalog read-only: {exc}") from None
+    try:
+        version = inspect(db, path)
+        if version < SCHEMA_VERSION or any(missing_metric_columns(db).values()):
+            raise _fail(path, f"catalog schema version {version} needs an upgrade this user cannot "
+                        "write (the file or its folder is read-only); open it once with write access")
+        check_tables(db, path)
+    except sqlite3.DatabaseError as exc:
+        db.close()
+        raise _fail(path, f"cannot open the catalog: {exc}") from None
+    except BaseException:
+        db.close()
+        raise
+    return db
 
 
 def inspect(db: sqlite_utils.Database, path: Path) -> int:
@@ -345,10 +461,24 @@ def open_database(path: Path, create: bool = True) -> sqlite_utils.Database:
     elif not create:
         raise _fail(path, "no catalog here (store a characterization run first)")
     else:
-        path.parent.mkdir(parents=True, exist_ok=True)
-    db = connect(path)
+        try:
+            path.parent.mkdir(parents=True, exist_ok=True)
+        except FileExistsError:
+            raise _fail(path, f"cannot create the catalog: {path.parent} is not a folder") from None
+        except OSError as exc:
+            raise _fail(path, f"cannot create the catalog: {exc.strerror or exc}") from None
+    try:
+        db = connect(path)
+    except (sqlite3.Error, OSError, ValueError) as exc:
+        raise _fail(path, f"cannot open or create the catalog here: {exc}") from None
     try:
         version = inspect(db, path)
+    except CatalogError as exc:
+        db.close()
+        if path.stat().st_size and "readonly database" in str(exc):
+            return _open_read_only(path)  # a reader without write access to the file or folder
+        raise
+    try:
         db.execute("PRAGMA foreign_keys = ON")
         db.execute("PRAGMA busy_timeout = 10000")
         db.enable_wal()
@@ -356,6 +486,7 @@ def open_database(path: Path, create: bool = True) -> sqlite_utils.Database:
             migrate(db)
         check_tables(db, path)
         sync_metric_columns(db)
+        sync_indexes(db)
     except sqlite3.DatabaseError as exc:
         db.close()
         raise _fail(path, f"cannot open the catalog: {exc}") from None
@@ -363,30 +494,3 @@ def open_database(path: Path, create: bool = True) -> sqlite_utils.Database:
         db.close()
         raise
     return db
-
-
-def open_source_copy(path: Path) -> sqlite_utils.Database:
-    """Open another catalog for reading without changing it: an in-memory copy, migrated if older."""
-    if not path.is_file():
-        raise _fail(path, "no catalog file here")
-    check_file_header(path)
-    src = connect(path)
-    try:
-        inspect(src, path)
-        mem = sqlite3.connect(":memory:", check_same_thread=False)
-        src.conn.backup(mem)
-    except sqlite3.DatabaseError as exc:
-        raise _fail(path, f"unreadable SQLite file: {exc}") from None
-    finally:
-        src.close()
-    copy = sqlite_utils.Database(mem, execute_plugins=False)
-    try:
-        if inspect(copy, path) == 0:
-            raise _fail(path, "empty file, not a celllab catalog")
-        migrate(copy)
-        check_tables(copy, path)
-        sync_metric_columns(copy)
-    except sqlite3.DatabaseError as exc:
-        copy.close()
-        raise _fail(path, f"cannot read the catalog: {exc}") from None
-    return copy

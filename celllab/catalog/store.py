@@ -28,6 +28,7 @@ import numpy as np
 import sqlite_utils
 
 from celllab.catalog.schema import cell_column_type, fill_extremes, write_transaction
+from celllab.catalog.validate import DECK_NAME, cell_problems, shown
 from celllab.display import nan_to_none, none_to_nan  # SQLite stores NaN as NULL
 from celllab.errors import CatalogError, Problem
 from celllab.records import (
@@ -233,15 +234,18 @@ def _corner_problems(where: str, c: CornerResult, run_corners: set[str]) -> list
 
 def validate_run(run: CharacterizationRun) -> None:
     """Raise CatalogError listing every structural problem of ``run`` (nothing is written)."""
-    label = f"run of deck {run.deck_name!r}"
+    label = f"run of deck {shown(run.deck_name)}"
     msgs: list[str] = []
     if not run.deck_hash or not run.deck_name or not run.model_version:
         msgs.append("deck_name, deck_hash and model_version must be non-empty")
+    elif not isinstance(run.deck_name, str) or not DECK_NAME.fullmatch(run.deck_name):
+        msgs.append(f"deck_name = {shown(run.deck_name)} -> deck names use letters, digits, _ and -, "
+                    "starting with a letter, at most 40")
     seen_names: dict[str, int] = {}
     seen_hashes: dict[str, int] = {}
     run_corners = set(run.corners)
     for i, cell in enumerate(run.cells):
-        where = f"cells[{i}] ({cell.name})"
+        where = f"cells[{i}] ({shown(cell.name, 40)})"
         if cell.name in seen_names:
             msgs.append(f"{where} -> name repeats cells[{seen_names[cell.name]}]")
         if cell.cell_hash in seen_hashes:
@@ -253,6 +257,7 @@ def validate_run(run: CharacterizationRun) -> None:
             msgs.append(f"{where}.corners -> repeated corner names {corner_names}")
         for j, c in enumerate(cell.corners):
             msgs += _corner_problems(f"{where}.corners[{j}]", c, run_corners)
+        msgs += cell_problems(where, cell)
     if msgs:
         raise CatalogError([Problem(label, "", m) for m in msgs])
 
@@ -325,13 +330,19 @@ def insert_rows(db: sqlite_utils.Database, table: str, rows: list[dict[str, Any]
 
 
 class CellWriter:
-    """Inserts prepared cells; per-corner rows are buffered and written in bulk (``flush``)."""
+    """Inserts prepared cells in bulk: ids are assigned up front (after the largest stored one,
+    which is what SQLite would pick inside the write transaction), rows are buffered and written
+    with one ``executemany`` per table every ``FLUSH_EVERY`` cells (``flush``)."""
 
     FLUSH_EVERY = 256
 
-    def __init__(self, db: sqlite_utils.Database) -> None:
+    def __init__(self, db: sqlite_utils.Database, defer_cells: bool = True) -> None:
+        """defer_cells=False writes each ``cells`` row at once, for callers that query the
+        cells table between adds (merge checks names against what it imported so far)."""
         self.db = db
+        self.defer_cells = defer_cells
         self.pending: dict[str, list[dict[str, Any]]] = {
+            "cells": [],  # first: the per-corner rows refer to it
             "corner_metrics": [],
             "responses": [],
             "cv_curves": [],
@@ -351,22 +362,22 @@ class CellWriter:
         stored_utc: str,
         current: bool = True,
     ) -> int:
-        row = {
-            **cell.cell_row,
-            "deck_hash": deck_hash,
-            "model_version": model_version,
-            "run_id": run_id,
-            "stored_utc": stored_utc,
-            "current": int(current),
-            "result_digest": cell.digest,
-        }
-        cols = list(row)
-        cur = self.db.execute(
-            f"INSERT INTO cells ({', '.join(_q(c) for c in cols)}) "
-            f"VALUES ({', '.join('?' for _ in cols)})",
-            [row[c] for c in cols],
+        cell_id = self.first_new_id + self.n + 1
+        self.pending["cells"].append(
+            {
+                "cell_id": cell_id,
+                **cell.cell_row,
+                "deck_hash": deck_hash,
+                "model_version": model_version,
+                "run_id": run_id,
+                "stored_utc": stored_utc,
+                "current": int(current),
+                "result_digest": cell.digest,
+            }
         )
-        cell_id = int(cur.lastrowid or 0)
+        if not self.defer_cells:
+            insert_rows(self.db, "cells", self.pending["cells"])
+            self.pending["cells"].clear()
         for table, rows in (
             ("corner_metrics", cell.corner_rows),
             ("responses", cell.response_rows),
@@ -379,7 +390,7 @@ class CellWriter:
         return cell_id
 
     def flush(self) -> None:
-        for table, rows in self.pending.items():  # corner_metrics first: the others refer to it
+        for table, rows in self.pending.items():  # in the order rows refer to each other
             insert_rows(self.db, table, rows)
             rows.clear()
 

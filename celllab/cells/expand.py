@@ -27,6 +27,8 @@ from __future__ import annotations
 import hashlib
 import itertools
 import json
+import math
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
@@ -39,7 +41,13 @@ from celllab.deck.load import find_line, read_toml, validation_problems
 from celllab.errors import CellError, Problem, allowed_hint
 from celllab.topologies import REGISTRY
 
+#: Documented limits (process_decks/README.md, "Limits"), checked with exact integers before
+#: anything is expanded.
 MAX_VARIANTS_PER_FAMILY = 20000
+MAX_VARIANTS_PER_FILE = 100000
+MAX_RANGE_VALUES = 10000
+#: Largest magnitude of a range's start, stop or step (every swept field is far smaller).
+MAX_RANGE_MAGNITUDE = 1e12
 _FAMILY_ONLY = {"name", "topology", "oxide", "rail", "description", "skip_unfit"}
 #: Family fields that take one value (not swept).
 _FIXED = ("name", "topology", "oxide", "rail")
@@ -82,11 +90,11 @@ def renamed_variant(name: str, before: dict[str, Any], after: dict[str, Any]) ->
     ``fingers`` 2 -> 4 gives ``x-w8-h1-f4``); a changed field without its tag in the name gets
     one appended. Fields without a tag (or with an empty one) leave the name as it is."""
     parts = name.split("-")
-    for field, value in after.items():
-        tag = NAME_TAGS.get(field)
-        if not tag or before.get(field) == value or value is None:
+    for key, value in after.items():
+        tag = NAME_TAGS.get(key)
+        if not tag or before.get(key) == value or value is None:
             continue
-        old = f"{tag}{_fmt(before[field])}" if before.get(field) is not None else None
+        old = f"{tag}{_fmt(before[key])}" if before.get(key) is not None else None
         new = f"{tag}{_fmt(value)}"
         if old is not None and old in parts[1:]:
             parts[parts.index(old, 1)] = new
@@ -108,6 +116,9 @@ def _expand_value(value: Any, where: str, file: str, text: str | None, path: lis
         start, stop = value["start"], value["stop"]
         if not all(isinstance(v, (int, float)) and not isinstance(v, bool) for v in (start, stop)):
             raise CellError([Problem(file, where, "range start and stop must be numbers", value, find_line(text, path))])
+        if not all(math.isfinite(v) and abs(v) <= MAX_RANGE_MAGNITUDE for v in (start, stop)):
+            raise CellError([Problem(file, where, "range start and stop must be finite numbers within "
+                                     f"+-{MAX_RANGE_MAGNITUDE:g}", value, find_line(text, path))])
         spacing = value.get("spacing", "linear")
         if spacing not in ("linear", "log"):
             raise CellError([Problem(file, where + ".spacing", "allowed: linear, log", spacing, find_line(text, path))])
@@ -115,9 +126,9 @@ def _expand_value(value: Any, where: str, file: str, text: str | None, path: lis
             raise CellError([Problem(file, where, "range stop is below start", value, find_line(text, path))])
         if "count" in value:
             count = value["count"]
-            if not isinstance(count, int) or count < 1 or count > 10000:
-                raise CellError([Problem(file, where + ".count", "must be an integer from 1 to 10000", count,
-                                         find_line(text, path))])
+            if not isinstance(count, int) or isinstance(count, bool) or not 1 <= count <= MAX_RANGE_VALUES:
+                raise CellError([Problem(file, where + ".count", f"must be an integer from 1 to {MAX_RANGE_VALUES}",
+                                         count, find_line(text, path))])
             if spacing == "log":
                 if start <= 0:
                     raise CellError([Problem(file, where, "a log range needs start > 0", value, find_line(text, path))])
@@ -126,11 +137,15 @@ def _expand_value(value: Any, where: str, file: str, text: str | None, path: lis
                 vals = np.linspace(start, stop, count)
         else:
             step = value.get("step", 1)
-            if not isinstance(step, (int, float)) or step <= 0:
-                raise CellError([Problem(file, where + ".step", "must be a number > 0", step, find_line(text, path))])
-            n = int(np.floor((stop - start) / step + 1e-9)) + 1
-            if n > 10000:
-                raise CellError([Problem(file, where, "range has more than 10000 values", value, find_line(text, path))])
+            if not isinstance(step, (int, float)) or isinstance(step, bool) or not step > 0 \
+                    or not step <= MAX_RANGE_MAGNITUDE:
+                raise CellError([Problem(file, where + ".step", "must be a number > 0 (and finite)", step,
+                                         find_line(text, path))])
+            span = (stop - start) / step  # finite operands; the quotient may still overflow
+            if not math.isfinite(span) or span + 1 > MAX_RANGE_VALUES:
+                raise CellError([Problem(file, where, f"range has more than {MAX_RANGE_VALUES} values", value,
+                                         find_line(text, path))])
+            n = int(np.floor(span + 1e-9)) + 1
             vals = start + step * np.arange(n)
         if all(isinstance(v, int) for v in (start, stop, value.get("step", 1))) and "count" not in value:
             return [int(v) for v in vals]
@@ -139,8 +154,12 @@ def _expand_value(value: Any, where: str, file: str, text: str | None, path: lis
 
 
 def expand_family(entry: dict[str, Any], index: int, file: str, text: str | None,
-                  kind: str = "family") -> list[dict[str, Any]]:
-    """Raw variant dictionaries (not yet validated) from one family table."""
+                  kind: str = "family", budget: int = MAX_VARIANTS_PER_FILE) -> list[dict[str, Any]]:
+    """Raw variant dictionaries (not yet validated) from one family table.
+
+    ``budget`` is how many more variants the file may hold; the family's size is counted
+    (exact integers) and checked against it and ``MAX_VARIANTS_PER_FAMILY`` before expanding.
+    """
     where = f"{kind}[{index}]"
     if not isinstance(entry, dict):
         raise CellError([Problem(file, where, "must be a table", entry)])
@@ -168,6 +187,10 @@ def expand_family(entry: dict[str, Any], index: int, file: str, text: str | None
             raise CellError([Problem(file, f"{where}.{k}", "cannot be swept; give one value", entry[k],
                                      find_line(text, [kind, index, k]))])
     if kind == "cell":
+        if budget < 1:
+            raise CellError([Problem(file, where, f"brings the file past {MAX_VARIANTS_PER_FILE} variants; at "
+                                     f"most {MAX_VARIANTS_PER_FILE} per cell file", None,
+                                     find_line(text, [kind, index]), has_value=False)])
         if "skip_unfit" in entry:
             raise CellError([Problem(file, f"{where}.skip_unfit", "applies to [[family]] sweeps only",
                                      entry["skip_unfit"], find_line(text, [kind, index, "skip_unfit"]))])
@@ -176,10 +199,14 @@ def expand_family(entry: dict[str, Any], index: int, file: str, text: str | None
     for f in GEOMETRY_FIELDS:
         if f in entry:
             axes.append((f, _expand_value(entry[f], f"{where}.{f}", file, text, [kind, index, f])))
-    total = int(np.prod([len(v) for _, v in axes])) if axes else 1
+    total = math.prod(len(v) for _, v in axes)  # Python integers: no overflow
     if total > MAX_VARIANTS_PER_FAMILY:
         raise CellError([Problem(file, where, f"sweeps {total} variants; at most {MAX_VARIANTS_PER_FAMILY} "
                                  "per family", None, find_line(text, [kind, index]), has_value=False)])
+    if total > budget:
+        raise CellError([Problem(file, where, f"brings the file past {MAX_VARIANTS_PER_FILE} variants; at most "
+                                 f"{MAX_VARIANTS_PER_FILE} per cell file", None, find_line(text, [kind, index]),
+                                 has_value=False)])
     swept = [f for f, vals in axes if len(vals) > 1]
     out = []
     for combo in itertools.product(*[vals for _, vals in axes]):
@@ -194,33 +221,55 @@ def expand_family(entry: dict[str, Any], index: int, file: str, text: str | None
     return out
 
 
+@dataclass
+class VariantRegistry:
+    """Names and content hashes of the variants accepted so far, with where each came from.
+
+    One registry shared by several ``load_cells`` calls (every cell file checked against one
+    deck) makes a variant defined twice - the same name, or the same geometry under another
+    name - a located problem of the file that repeats it, exactly as ``build`` would refuse it.
+    """
+
+    names: dict[str, str] = field(default_factory=dict)
+    hashes: dict[str, str] = field(default_factory=dict)
+
+
+def _origin(file: str, line: int | None, where: str, name: str) -> str:
+    return f"{file}{f':{line}' if line else ''} {where} (variant {name})"
+
+
 def validate_cells(raw_variants: list[tuple[str, dict[str, Any]]], deck: Any, file: str,
-                   text: str | None) -> list[CellSpec]:
-    """Validate raw variants against the schema and (when given) the deck's geometry rules."""
+                   text: str | None, seen: VariantRegistry | None = None) -> list[CellSpec]:
+    """Validate raw variants against the schema and (when given) the deck's geometry rules.
+
+    A name or a geometry (content hash) already in ``seen`` - from this file or an earlier one -
+    is a problem located at the repeat.
+    """
     specs: list[CellSpec] = []
     problems: list[Problem] = []
-    seen: dict[str, str] = {}
+    seen = VariantRegistry() if seen is None else seen
     for where, raw in raw_variants:
         skip_unfit = bool(raw.pop("_skip_unfit", False))
+        loc_prefix = tuple(where.replace("]", "").split("["))
+        entry_line = find_line(text, [loc_prefix[0], int(loc_prefix[1])])
         try:
             spec = CellSpec.model_validate(raw)
         except ValidationError as exc:
-            loc_prefix = tuple(where.replace("]", "").split("["))
             found = validation_problems(exc, file, None, CellSpec)
             for p in found:
                 fieldname = p.field if p.field else ""
                 line = find_line(text, [loc_prefix[0], int(loc_prefix[1]), fieldname.split(".")[0]]) \
-                    if fieldname else find_line(text, [loc_prefix[0], int(loc_prefix[1])])
+                    if fieldname else entry_line
                 label = f"{where}.{fieldname}" if fieldname else where
                 if raw.get("name") and raw.get("family"):
                     label += f" (variant {raw['name']})"
                 problems.append(Problem(file, label, p.message, p.value, line, p.has_value))
             continue
-        if spec.name in seen:
-            problems.append(Problem(file, f"{where}.name", f"duplicate variant name (also from {seen[spec.name]})",
-                                    spec.name))
+        if spec.name in seen.names:
+            line = find_line(text, [loc_prefix[0], int(loc_prefix[1]), "name"]) or entry_line
+            problems.append(Problem(file, f"{where}.name", f"duplicate variant name (also from "
+                                    f"{seen.names[spec.name]})", spec.name, line))
             continue
-        seen[spec.name] = where
         if deck is not None:
             try:
                 resolve_geometry(spec, deck)
@@ -231,14 +280,27 @@ def validate_cells(raw_variants: list[tuple[str, dict[str, Any]]], deck: Any, fi
                 problems.append(Problem(file, f"{where}.{gp.field} (variant {spec.name})", gp.message, gp.value,
                                         find_line(text, [where.split("[")[0], idx, gp.field])))
                 continue
+        digest = spec.content_hash
+        if digest in seen.hashes:
+            problems.append(Problem(file, where, f"variant {spec.name} has the same geometry as "
+                                    f"{seen.hashes[digest]}; each variant must differ in topology, "
+                                    "oxide or geometry", None, entry_line, has_value=False))
+            continue
+        origin = _origin(file, entry_line, where, spec.name)
+        seen.names[spec.name] = origin
+        seen.hashes[digest] = origin
         specs.append(spec)
     if problems:
         raise CellError(problems)
     return specs
 
 
-def parse_cells(data: dict[str, Any], deck: Any = None, file: str = "<cells>", text: str | None = None) -> list[CellSpec]:
-    """Expand and validate the families and single cells of one parsed cell file."""
+def parse_cells(data: dict[str, Any], deck: Any = None, file: str = "<cells>", text: str | None = None,
+                seen: VariantRegistry | None = None) -> list[CellSpec]:
+    """Expand and validate the families and single cells of one parsed cell file.
+
+    ``seen`` carries the variants of cell files checked before this one (see ``VariantRegistry``).
+    """
     problems: list[Problem] = []
     unknown = set(data) - {"family", "cell", "description", "invented", "process"}
     for key in sorted(unknown):
@@ -253,7 +315,8 @@ def parse_cells(data: dict[str, Any], deck: Any = None, file: str = "<cells>", t
             continue
         for i, entry in enumerate(entries):
             try:
-                raw.extend((f"{kind}[{i}]", r) for r in expand_family(entry, i, file, text, kind))
+                raw.extend((f"{kind}[{i}]", r) for r in expand_family(
+                    entry, i, file, text, kind, budget=MAX_VARIANTS_PER_FILE - len(raw)))
             except CellError as exc:
                 problems.extend(exc.problems)
     if not raw and not problems:
@@ -261,13 +324,14 @@ def parse_cells(data: dict[str, Any], deck: Any = None, file: str = "<cells>", t
                                 has_value=False))
     if problems:
         raise CellError(problems)
-    return validate_cells(raw, deck, file, text)
+    return validate_cells(raw, deck, file, text, seen)
 
 
-def load_cells(path: str | Path, deck: Any = None) -> list[CellSpec]:
-    """Load a cell file, expand its families and validate every variant (against ``deck``)."""
+def load_cells(path: str | Path, deck: Any = None, *, seen: VariantRegistry | None = None) -> list[CellSpec]:
+    """Load a cell file, expand its families and validate every variant (against ``deck``);
+    ``seen`` shares the variants of other cell files (see ``VariantRegistry``)."""
     data, text = read_toml(path, CellError)
-    return parse_cells(data, deck, str(path), text)
+    return parse_cells(data, deck, str(path), text, seen)
 
 
 def apply_cell_changes(spec: CellSpec, changes: dict[str, Any], deck: Any = None, *, name: str | None = None,

@@ -37,7 +37,8 @@ class CellSpec(StrictModel):
     """One cell variant as the user defined it (before geometry derivation)."""
 
     name: str = Field(pattern=r"^[A-Za-z][A-Za-z0-9_\-\.]{0,79}$", description="variant name")
-    family: str = Field("", description="family this variant came from")
+    family: str = Field("", pattern=r"^([A-Za-z][A-Za-z0-9_\-\.]{0,79})?$",
+                        description="family this variant came from")
     topology: str = Field(description="decap topology (see celllab.topologies.REGISTRY)")
     oxide: OxideChoice = Field("core", description="gate-oxide flavour: core (thin) or io (thick)")
     rail: str = Field("", pattern=r"^$|^[a-z][a-z0-9_]{0,23}$",

@@ -14,6 +14,9 @@ acc_p              p-well  p      oxide.pmos (h+)  -V_supply   accumulation
 =================  ======  =====  ===============  ==========  ============
 
 ``acc_p`` assumes an isolated p-well (deep n-well) tied to VDD with the p+ gate on VSS.
+Accumulation devices have majority-carrier contacts only (well taps of the body's type): their
+C-V curve goes into deep depletion beyond flat band toward inversion, with no quasi-static
+inversion branch (``mos_cv.mos_operating_point(minority_carriers=False)``).
 Inversion devices take their flat-band voltage from the deck's threshold (inverting the 2 phi_F
 relation, Sze & Ng 2007 eq. 4.35) unless the deck gives ``vfb_V``; accumulation devices take it
 from the gate/body work-function difference.
@@ -170,8 +173,10 @@ def _per_area(corners: CornerSet, oxides: np.ndarray, roles: np.ndarray, supply:
 
     sign = _per_role(roles, _BIAS_SIGN).astype(float)
     v_gb = sign * supply
+    # accumulation capacitors have majority-carrier contacts only: deep depletion past flat band
+    minority = ~np.char.startswith(roles.astype(str), "acc")[:, None]
     kwargs = dict(vfb=vfb, cox=cox, body_doping=body_doping, body_type=body, temperature=temperature,
-                  gate_doping=gate_doping, gate_type=gate_type)
+                  gate_doping=gate_doping, gate_type=gate_type, minority_carriers=minority)
     op = _operating_point(v_gb, kwargs, centroid & ~use_adder)
     c_area = op.capacitance
     if np.any(use_adder):  # a fixed CET adder (SiO2-equivalent nm) replaces the centroid model

@@ -6,6 +6,7 @@ import argparse
 import json
 
 from celllab import CAUTION, DEFAULT_CATALOG
+from celllab.cli.args import MAX_ROWS, whole_number
 from celllab.errors import CelllabError, Problem
 
 
@@ -22,6 +23,7 @@ def _progress_printer(enabled: bool):  # type: ignore[no-untyped-def]
 def _load(deck_paths: list[str], cell_paths: list[str]):  # type: ignore[no-untyped-def]
     """Load decks and cells; every problem of every file is collected before raising."""
     from celllab.cells import load_cells
+    from celllab.cells.expand import VariantRegistry
     from celllab.deck import load_deck
 
     problems: list[Problem] = []
@@ -35,9 +37,10 @@ def _load(deck_paths: list[str], cell_paths: list[str]):  # type: ignore[no-unty
     if decks or not deck_paths:
         for deck in decks or [None]:
             cells = []
+            seen = VariantRegistry()  # a variant repeated in another file is refused, as build would
             for c in cell_paths:
                 try:
-                    cells.extend(load_cells(c, deck))
+                    cells.extend(load_cells(c, deck, seen=seen))
                 except CelllabError as exc:
                     problems.extend(exc.problems)
             pairs.append((deck, cells))
@@ -79,7 +82,7 @@ def cmd_build(args: argparse.Namespace) -> int:
         stored = catalog.stored_cells(deck.content_hash, MODEL_VERSION)
         todo = [c for c in cells if (c.content_hash, c.name) not in stored]
         run = characterize(deck, todo, corners=corners, sources=[*args.deck, *args.cells],
-                           progress=_progress_printer(not args.quiet and not args.json))
+                           progress=_progress_printer(not args.quiet and not args.json), esd=not args.no_esd)
         report = catalog.store_run(run)
         reports.append((deck.name, len(cells), len(cells) - len(todo), report))
     if args.json:
@@ -110,7 +113,7 @@ def build_summary(report, skipped: int) -> str:  # type: ignore[no-untyped-def]
 def cmd_demo(args: argparse.Namespace) -> int:
     from celllab.demo import build_demo_catalog
 
-    path = build_demo_catalog(args.catalog, progress=_progress_printer(not args.quiet))
+    path = build_demo_catalog(args.catalog, progress=_progress_printer(not args.quiet), esd=not args.no_esd)
     if not args.no_ui:
         try:
             from celllab.tui.app import run_app
@@ -147,6 +150,8 @@ def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
     p.add_argument("--cells", action="append", required=True, metavar="FILE", help="cell file (TOML); repeatable")
     p.add_argument("--catalog", default=str(DEFAULT_CATALOG), metavar="PATH", help="catalog file (default: %(default)s)")
     p.add_argument("--corners", metavar="A,B", help="only these corners (default: all the deck defines)")
+    p.add_argument("--no-esd", action="store_true", help="leave the HBM/CDM and broken-oxide columns empty "
+                   "(skips their transients, most of the run time)")
     p.add_argument("--json", action="store_true", help="print a JSON summary")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
     p.set_defaults(func=cmd_build)
@@ -156,6 +161,9 @@ def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
                        "then open the terminal UI (or print the densest cells with --no-ui).")
     p.add_argument("--catalog", default=str(DEFAULT_CATALOG), metavar="PATH", help="catalog file (default: %(default)s)")
     p.add_argument("--no-ui", action="store_true", help="print a ranked table instead of opening the UI")
-    p.add_argument("--limit", type=int, default=15, help="rows to print with --no-ui (default: %(default)s)")
+    p.add_argument("--limit", type=whole_number(0, MAX_ROWS), default=15,
+                   help="rows to print with --no-ui (default: %(default)s)")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
+    p.add_argument("--no-esd", action="store_true", help="leave the HBM/CDM and broken-oxide columns empty "
+                   "(skips their transients, most of the run time)")
     p.set_defaults(func=cmd_demo)

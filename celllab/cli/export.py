@@ -23,6 +23,8 @@ from pathlib import Path
 from typing import Any
 
 from celllab import DEFAULT_CATALOG
+from celllab.cli.args import MAX_ROWS, positive_number, whole_number
+from celllab.cli.text import printable
 from celllab.columns import AGGREGATE_CORNERS
 from celllab.errors import CatalogError, CelllabError, Problem, did_you_mean
 
@@ -35,6 +37,8 @@ DEFAULT_FILES = {
     "spice": "cells.lib",
     "datasheet": "index.html",
 }
+#: Most R-C ladder sections per distributed line a SPICE export writes.
+MAX_SEGMENTS = 20_000  # as celllab.export.spice.MAX_SEGMENTS (not imported: start-up time)
 #: --corner words besides corner names: the per-metric extremes, and "all" (no corner singled out).
 CORNER_WORDS = (*AGGREGATE_CORNERS, "all")
 
@@ -51,26 +55,41 @@ def _is_folder(out: str | None) -> bool:
 
 def _emit(args: argparse.Namespace, text: str, default_name: str) -> None:
     """Write one text to --out (file or folder) or stdout."""
-    from celllab.export import atomic_write_text
+    from celllab.export.files import make_folder, write_text_atomic
 
     if not args.out or args.out == "-":
         sys.stdout.write(text)
         return
-    target = Path(args.out) / default_name if _is_folder(args.out) else Path(args.out)
-    target.parent.mkdir(parents=True, exist_ok=True)
-    atomic_write_text(target, text)
-    print(f"wrote {target}", file=sys.stderr)
+    if _is_folder(args.out):
+        target = make_folder(args.out) / default_name
+    else:
+        target = Path(args.out)
+        make_folder(target.parent if str(target.parent) else ".")
+    write_text_atomic(target, text, force=args.force)
+    print(f"wrote {printable(target)}", file=sys.stderr)
 
 
 def _emit_many(args: argparse.Namespace, files: dict[str, str]) -> None:
-    """Write several files into the --out folder (created if missing)."""
-    from celllab.export import atomic_write_text
+    """Write several files into the --out folder (created if missing); every target is checked
+    before the first is written."""
+    from celllab.export.files import write_files_atomic
 
-    folder = Path(args.out)
-    folder.mkdir(parents=True, exist_ok=True)
-    for name, text in files.items():
-        atomic_write_text(folder / name, text)
-    print(f"wrote {len(files)} files to {folder}", file=sys.stderr)
+    written = write_files_atomic(args.out, files, force=args.force)
+    print(f"wrote {len(written)} files to {printable(args.out)}", file=sys.stderr)
+
+
+def _add_file(files: dict[str, str], owners: dict[str, str], name: str, text: str, owner: str) -> None:
+    """Add one output file; two different cells (or corners) may not share a file name."""
+    if name in files:
+        raise _problem(
+            "--out",
+            f"{owner} and {owners[name]} would both be written to {name}; export them "
+            "separately (--cells) or into separate folders",
+            None,
+            has_value=False,
+        )
+    files[name] = text
+    owners[name] = owner
 
 
 # --------------------------------------------------------------------------- catalog access
@@ -182,11 +201,16 @@ def _export_json(args: argparse.Namespace, cat: Any) -> None:
 
 
 def _export_spice(args: argparse.Namespace, cat: Any) -> None:
-    from celllab.export.spice import render_spice_library, render_spice_subckt, spice_name
+    from scipy import constants
+
+    from celllab.export.files import file_stem
+    from celllab.export.spice import _Names, render_spice_library, render_spice_subckt, spice_name
 
     cells, deck = _load_cells(cat, _select_rows(cat, args))
     _need_cells(cells)
     corner = _render_corner(args)
+    percent = getattr(args, "ladder_accuracy_percent", None)
+    accuracy = None if percent is None else percent * constants.centi  # per cent
     without = [c.name for c in cells if c.netlist is None]
     if without:
         print(
@@ -195,16 +219,21 @@ def _export_spice(args: argparse.Namespace, cat: Any) -> None:
             file=sys.stderr,
         )
     if _is_folder(args.out):
-        _emit_many(
-            args,
-            {
-                f"{spice_name(c.name)}.sp": render_spice_subckt(c, corner, args.segments, deck)
-                for c in cells
-            },
-        )
+        files: dict[str, str] = {}
+        owners: dict[str, str] = {}
+        names = _Names()  # subcircuit names unique across the files, as in one library
+        for c in cells:
+            unique = names.get(c.name, spice_name(c.name))
+            text = render_spice_subckt(
+                c, corner, args.segments, deck, subckt_name=unique, accuracy=accuracy
+            )
+            _add_file(files, owners, f"{file_stem(c.name)}.sp", text, f"cell {c.name}")
+        _emit_many(args, files)
     else:
         _emit(
-            args, render_spice_library(cells, deck, corner, args.segments), DEFAULT_FILES["spice"]
+            args,
+            render_spice_library(cells, deck, corner, args.segments, accuracy=accuracy),
+            DEFAULT_FILES["spice"],
         )
 
 
@@ -215,12 +244,13 @@ def _export_touchstone(args: argparse.Namespace, cat: Any) -> None:
     _need_cells(cells)
     corner = _render_corner(args)
     files: dict[str, str] = {}
+    owners: dict[str, str] = {}
     for cell in cells:
         corners = [corner] if corner else [c.corner for c in cell.corners]
         for name in corners:
-            files[touchstone_filename(cell.name, name)] = render_touchstone(
-                cell, name, deck, reference_ohm=args.reference_ohm
-            )
+            text = render_touchstone(cell, name, deck, reference_ohm=args.reference_ohm)
+            _add_file(files, owners, touchstone_filename(cell.name, name), text,
+                      f"cell {cell.name} at corner {name}")
     if _is_folder(args.out):
         _emit_many(args, files)
     elif len(files) == 1:
@@ -238,6 +268,7 @@ def _export_touchstone(args: argparse.Namespace, cat: Any) -> None:
 def _export_datasheet(args: argparse.Namespace, cat: Any) -> None:
     from celllab.cli.progress import steps
     from celllab.export.datasheet import render_datasheet_html, render_library_html
+    from celllab.export.files import file_stem
 
     cells, deck = _load_cells(cat, _select_rows(cat, args))
     _need_cells(cells)
@@ -247,20 +278,24 @@ def _export_datasheet(args: argparse.Namespace, cat: Any) -> None:
     summary = _query_corner(args.corner)  # the summary table reads worst/best like a query
     plots = not args.no_plots
     if _is_folder(args.out):
-        files = {}
+        files: dict[str, str] = {}
+        owners: dict[str, str] = {}
         with steps("datasheets", len(cells)) as advance:
             for c in cells:
-                files[f"{_file_stem(c.name)}.html"] = render_datasheet_html(c, deck, plots=plots)
+                _add_file(files, owners, f"{file_stem(c.name)}.html",
+                          render_datasheet_html(c, deck, plots=plots), f"cell {c.name}")
                 advance(1)
         # the index links to the cell pages instead of repeating them (a page, not megabytes)
-        files[DEFAULT_FILES["datasheet"]] = render_library_html(
-            cells, deck, summary, plots=plots, link=lambda c: f"{_file_stem(c.name)}.html")
+        _add_file(files, owners, DEFAULT_FILES["datasheet"],
+                  render_library_html(cells, deck, summary, plots=plots,
+                                      link=lambda c: f"{file_stem(c.name)}.html"),
+                  "the library index")
         _emit_many(args, files)
     elif len(cells) == 1:
         _emit(
             args,
             render_datasheet_html(cells[0], deck, plots=plots),
-            f"{_file_stem(cells[0].name)}.html",
+            f"{file_stem(cells[0].name)}.html",
         )
     else:
         _emit(
@@ -269,18 +304,21 @@ def _export_datasheet(args: argparse.Namespace, cat: Any) -> None:
 
 
 def _export_datasheet_pdf(args: argparse.Namespace, cells: Sequence[Any], deck: str | None) -> None:
-    """One PDF per cell: into the --out folder, or one cell's PDF to --out (never stdout)."""
+    """One PDF per cell: into the --out folder, or one cell's PDF to --out (never stdout).
+    Every target is checked (links, existing files without --force) before the first is drawn."""
     from celllab.cli.progress import steps
     from celllab.export.datasheet import write_datasheet_pdf
+    from celllab.export.files import check_files, check_target, file_stem, make_folder
 
     if _is_folder(args.out):
-        folder = Path(args.out)
-        folder.mkdir(parents=True, exist_ok=True)
+        names = [f"{file_stem(cell.name)}.pdf" for cell in cells]
+        check_files(args.out, names, force=args.force)
+        folder = make_folder(args.out)
         with steps("PDF datasheets", len(cells)) as advance:
-            for cell in cells:
-                write_datasheet_pdf(folder / f"{_file_stem(cell.name)}.pdf", cell, deck)
+            for name, cell in zip(names, cells):
+                write_datasheet_pdf(folder / name, cell, deck)
                 advance(1)
-        print(f"wrote {len(cells)} files to {folder}", file=sys.stderr)
+        print(f"wrote {len(cells)} files to {printable(folder)}", file=sys.stderr)
         return
     if not args.out or args.out == "-":
         raise _problem("--out", "a PDF is written to a file: give --out FILE.pdf (one cell) or "
@@ -288,8 +326,8 @@ def _export_datasheet_pdf(args: argparse.Namespace, cells: Sequence[Any], deck: 
     if len(cells) > 1:
         raise _problem("--out", f"{len(cells)} cells make {len(cells)} PDFs: give an output "
                        "folder (--out DIR/) or narrow with --cells", args.out)
-    write_datasheet_pdf(Path(args.out), cells[0], deck)
-    print(f"wrote {args.out}", file=sys.stderr)
+    write_datasheet_pdf(check_target(args.out, force=args.force), cells[0], deck)
+    print(f"wrote {printable(args.out)}", file=sys.stderr)
 
 
 def _export_liberty(args: argparse.Namespace, cat: Any) -> None:
@@ -300,8 +338,11 @@ def _export_liberty(args: argparse.Namespace, cat: Any) -> None:
     _need_cells(cells)
     deck = stored_deck(cat, str(deck_name))
     # every corner in the run's order (the catalog keeps it; the stored deck's keys are sorted)
-    corners = [args.corner] if args.corner not in AGGREGATE_CORNERS else cat.corners(deck_name)
-    files = {liberty_filename(deck.name, c): render_liberty(cells, deck, c) for c in corners}
+    corners = [args.corner] if args.corner not in CORNER_WORDS else cat.corners(deck_name)
+    files: dict[str, str] = {}
+    owners: dict[str, str] = {}
+    for c in corners:
+        _add_file(files, owners, liberty_filename(deck.name, c), render_liberty(cells, deck, c), f"corner {c}")
     if _is_folder(args.out):
         _emit_many(args, files)
     elif len(files) == 1:
@@ -318,6 +359,7 @@ def _export_liberty(args: argparse.Namespace, cat: Any) -> None:
 
 def _export_lef(args: argparse.Namespace, cat: Any) -> None:
     from celllab.export.catalog_deck import stored_deck
+    from celllab.export.files import file_stem
     from celllab.export.lef import render_lef
 
     cells, deck_name = _load_cells(cat, _select_rows(cat, args))
@@ -325,12 +367,8 @@ def _export_lef(args: argparse.Namespace, cat: Any) -> None:
     deck = stored_deck(cat, str(deck_name))
     grid_um = args.grid_nm / 1000 if args.grid_nm is not None else None
     _emit(
-        args, render_lef(cells, deck, manufacturing_grid_um=grid_um), f"{_file_stem(deck.name)}.lef"
+        args, render_lef(cells, deck, manufacturing_grid_um=grid_um), f"{file_stem(deck.name)}.lef"
     )
-
-
-def _file_stem(name: str) -> str:
-    return "".join(ch if ch.isalnum() or ch in "-_." else "_" for ch in name)
 
 
 EXPORTERS: dict[str, Callable[[argparse.Namespace, Any], None]] = {
@@ -352,12 +390,9 @@ def cmd_export(args: argparse.Namespace) -> int:
 
         _emit(args, json.dumps(export_json_schema(), indent=2) + "\n", DEFAULT_FILES["schema"])
         return 0
-    if args.reference_ohm is not None and not args.reference_ohm > 0:
-        raise _problem("--reference-ohm", "must be > 0 (ohm)", args.reference_ohm)
-    if args.segments is not None and args.segments < 1:
-        raise _problem("--segments", "must be >= 1", args.segments)
-    if args.grid_nm is not None and not args.grid_nm > 0:
-        raise _problem("--grid-nm", "must be > 0 (nm)", args.grid_nm)
+    accuracy = getattr(args, "ladder_accuracy_percent", None)
+    if accuracy is not None and not 0 < accuracy < 100:
+        raise _problem("--ladder-accuracy-percent", "must be > 0 and < 100 (percent)", accuracy)
     from celllab.catalog import open_catalog
 
     if not Path(args.catalog).exists():
@@ -381,10 +416,13 @@ def cmd_export(args: argparse.Namespace) -> int:
         except (ValueError, KeyError) as exc:  # a record this format cannot hold
             message = exc.args[0] if exc.args else repr(exc)
             raise _problem(args.format, str(message), None, has_value=False) from None
-        except OSError as exc:  # --out not writable: a missing parent we may not create, ...
+        except OSError as exc:  # standard output refused (a full disk, a closed pipe, ...)
+            if not args.out or args.out == "-":
+                raise CelllabError([Problem("standard output", "", f"cannot write: {exc.strerror or exc}",
+                                            has_value=False)]) from None
             where = exc.filename or args.out
             raise _problem(
-                "--out", f"cannot write {where}: {exc.strerror or exc}", args.out
+                "--out", f"cannot write {printable(where)}: {exc.strerror or exc}", args.out
             ) from None
     return 0
 
@@ -436,7 +474,7 @@ def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
     )
     p.add_argument(
         "--limit",
-        type=int,
+        type=whole_number(0, MAX_ROWS),
         default=0,
         metavar="N",
         help="only the first N cells in that order (default: all)",
@@ -464,14 +502,23 @@ def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
     )
     p.add_argument(
         "--segments",
-        type=int,
+        type=whole_number(1, MAX_SEGMENTS),
         metavar="N",
-        help="spice: R-C ladder segments per distributed line (default: from the "
-        "highest swept frequency)",
+        help="spice: R-C ladder segments per distributed line, 1 to "
+        f"{MAX_SEGMENTS} (default: from the highest swept frequency and "
+        "--ladder-accuracy-percent)",
+    )
+    p.add_argument(
+        "--ladder-accuracy-percent",
+        type=float,
+        metavar="P",
+        help="spice: largest deviation of each R-C ladder from its distributed line at the "
+        "highest swept frequency, percent (default: about 0.5); a file needing more than "
+        f"{MAX_SEGMENTS} segments says in its header that it is coarser",
     )
     p.add_argument(
         "--reference-ohm",
-        type=float,
+        type=positive_number(1e6),
         default=1.0,
         metavar="R",
         help="touchstone: reference resistance of the option line; data are Z/R "
@@ -481,9 +528,14 @@ def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
     p.add_argument("--pdf", action="store_true",
                    help="datasheet: one PDF per cell instead of HTML (--out FILE.pdf or DIR/)")
     p.add_argument(
+        "--force",
+        action="store_true",
+        help="replace existing output files (never links, pipes or read-only files)",
+    )
+    p.add_argument(
         "--grid-nm",
-        type=float,
+        type=positive_number(1e6),
         metavar="NM",
-        help="lef: manufacturing grid (default: the coarsest grid every deck length lies on)",
+        help="lef: manufacturing grid, nm, > 0 (default: the coarsest grid every deck length lies on)",
     )
     p.set_defaults(func=cmd_export)

@@ -13,17 +13,14 @@ from collections.abc import Sequence
 from typing import Any
 
 from celllab import CAUTION_SHORT, DEFAULT_CATALOG
-from celllab.columns import (
-    BOUND_MARK,
-    CELL_COLUMNS,
-    COLUMNS,
-    METRIC_BY_NAME,
-    METRIC_NAMES,
-    RANKED,
-    is_lower_bound,
-    unit_of,
-)
-from celllab.display import format_value, jsonable, text_table
+from celllab.cli.args import MAX_ROWS, whole_number
+from celllab.cli.text import printable
+from celllab.columns import CELL_COLUMNS, COLUMNS, METRIC_BY_NAME, METRIC_NAMES, RANKED, unit_of
+from celllab.display import LOWER_BOUND, format_value, jsonable, mark_bounds, text_table
+from celllab.units import from_si
+
+#: The line below a table that shows a lower bound.
+BOUND_NOTE = f"{LOWER_BOUND}: a lower bound (no resonance or cutoff found up to the analysed band)"
 
 #: Columns of ``rank`` and ``pareto`` tables unless --columns says otherwise.
 DEFAULT_COLUMNS = (
@@ -35,7 +32,7 @@ DEFAULT_COLUMNS = (
     "esr_ohm",
     "bandwidth_GHz",
     "leakage_nA_per_nF",
-    "tddb_life_years",
+    "tddb_fit_per_mm2",
 )
 
 
@@ -43,25 +40,18 @@ DEFAULT_COLUMNS = (
 
 
 def render_table(rows: Sequence[dict[str, Any]], columns: Sequence[str]) -> str:
-    """Plain-text table: a header of column names, then one line per row (catalog numbers right-aligned)."""
+    """Plain-text table: a header of column names, then one line per row (catalog numbers
+    right-aligned, lower bounds as "≥value")."""
     numeric = {c for c in columns if c in COLUMNS and COLUMNS[c].kind != "text"}
-    shown = [{c: _shown(r, c) for c in columns} for r in rows]
-    text = text_table(shown, columns, numeric)
-    if any(BOUND_MARK in str(v) for r in shown for v in r.values()):
-        text += f"\n{BOUND_MARK}: a lower bound (the quantity lies beyond the analysed sweep)"
+    marked = [mark_bounds(r) for r in rows]
+    text = text_table(marked, columns, numeric)
+    if any(str(r.get(c)).startswith(LOWER_BOUND) for r in marked for c in columns):
+        text += f"\n{BOUND_NOTE}"
     return text
 
 
 def dump_json(value: Any) -> str:
     return json.dumps(jsonable(value), indent=2, allow_nan=False)
-
-
-def _shown(row: Any, key: str) -> Any:
-    """A value for a text table: numbers to 4 significant digits, ``≥`` before a lower bound."""
-    value = row.get(key) if isinstance(row, dict) else row.metrics.get(key)
-    if isinstance(value, float) and is_lower_bound(row, key) and value == value:
-        return BOUND_MARK + format_value(value)
-    return value
 
 
 def _wrapped(prefix: str, items: Sequence[str], width: int) -> list[str]:
@@ -88,8 +78,9 @@ def render_compare(rows: Sequence[dict[str, Any]], width: int | None = None) -> 
     labels = (
         names if len(set(names)) == len(names) else [f"{r['name']} ({r['deck']})" for r in rows]
     )
+    marked = [mark_bounds(r) for r in rows]
     table = [
-        {"column": k, "unit": unit_of(k), **{lab: _shown(r, k) for lab, r in zip(labels, rows)}}
+        {"column": k, "unit": unit_of(k), **{lab: r.get(k) for lab, r in zip(labels, marked)}}
         for k in keys
     ]
     numeric = {*labels}
@@ -100,8 +91,8 @@ def render_compare(rows: Sequence[dict[str, Any]], width: int | None = None) -> 
         lines += ["", f"flags of {label}:" if flags else f"flags of {label}: none"]
         if flags:
             lines += _wrapped("  ", flags, width)
-    if any(BOUND_MARK in str(v) for r in table for v in r.values()):
-        lines += ["", f"{BOUND_MARK}: a lower bound (the quantity lies beyond the analysed sweep)"]
+    if any(str(v).startswith(LOWER_BOUND) for r in table for v in r.values()):
+        lines += ["", BOUND_NOTE]
     return "\n".join(lines)
 
 
@@ -120,6 +111,11 @@ def render_cell(cell: Any, deck: str) -> str:
         lines.append("  geometry: " + ", ".join(f"{k}={format_value(v)}" for k, v in given.items()))
     if derived:
         lines.append("  derived: " + ", ".join(f"{k}={format_value(v)}" for k, v in derived.items()))
+    if cell.corners and len(cell.corners[0].response.freq_Hz):
+        freq = cell.corners[0].response.freq_Hz
+        lines.append(f"  analysed band {format_value(from_si(float(freq[0]), 'MHz'))} MHz to "
+                     f"{format_value(from_si(float(freq[-1]), 'GHz'))} GHz; SRF and bandwidth above it are "
+                     f"computed from the equivalent circuit (flagged), {LOWER_BOUND} marks a lower bound")
     if cell.notes:
         lines.append("  notes: " + "; ".join(cell.notes))
     corners = [c.corner for c in cell.corners]
@@ -131,19 +127,20 @@ def render_cell(cell: Any, deck: str) -> str:
         },
         {"metric": "supply_V", "unit": unit_of("supply_V"), **{c.corner: c.supply_V for c in cell.corners}},
     ]
+    marked = {c.corner: mark_bounds(c.metrics) for c in cell.corners}
     table += [
         {
             "metric": m,
             "unit": METRIC_BY_NAME[m].unit,
             "better": METRIC_BY_NAME[m].better,
-            **{c.corner: _shown(c, m) for c in cell.corners},
+            **{c.corner: marked[c.corner].get(m) for c in cell.corners},
         }
         for m in METRIC_NAMES
         if any(c.metrics.get(m) == c.metrics.get(m) for c in cell.corners)  # applies somewhere
     ]
     lines += ["", text_table(table, ["metric", "unit", *corners, "better"], {*corners})]
-    if any(BOUND_MARK in str(v) for r in table for v in r.values()):
-        lines.append(f"{BOUND_MARK}: a lower bound (the quantity lies beyond the analysed sweep)")
+    if any(str(v).startswith(LOWER_BOUND) for r in table for v in r.values()):
+        lines.append(BOUND_NOTE)
     flagged = [(c.corner, c.flags) for c in cell.corners if c.flags]
     lines.append("")
     width = _width()
@@ -151,6 +148,7 @@ def render_cell(cell: Any, deck: str) -> str:
         lines += [f"flags {corner}:"] + _wrapped("  ", flags, width)
     if not flagged:
         lines.append("flags: none")
+    lines += ["", CAUTION_SHORT]  # ESD, wear-out and fault figures are estimates, not sign-off
     return "\n".join(lines)
 
 
@@ -309,7 +307,7 @@ def cmd_merge(args: argparse.Namespace) -> int:
     from celllab.catalog import open_catalog
 
     with open_catalog(args.catalog) as cat:
-        report = cat.merge_from(args.file, adopt_current=args.adopt_current)
+        report = cat.merge_from(args.file, make_current=args.make_current)
     if args.json:
         print(
             dump_json(
@@ -318,6 +316,8 @@ def cmd_merge(args: argparse.Namespace) -> int:
                     "identical": report.identical,
                     "decks_added": report.decks_added,
                     "runs_added": report.runs_added,
+                    "decks_not_current": report.decks_not_current,
+                    "decks_made_current": report.decks_made_current,
                     "conflicts": report.conflicts,
                     "current_changed": report.current_changed,
                     "current_kept": report.current_kept,
@@ -326,18 +326,24 @@ def cmd_merge(args: argparse.Namespace) -> int:
         )
     else:
         print(
-            f"merged {args.file} into {args.catalog}: {report.added} results added "
-            f"({report.decks_added} decks, {report.runs_added} runs), {report.identical} identical, "
-            f"{len(report.conflicts)} conflicts"
+            printable(
+                f"merged {args.file} into {args.catalog}: {report.added} results added "
+                f"({report.decks_added} decks, {report.runs_added} runs), {report.identical} "
+                f"identical, {len(report.conflicts)} conflicts"
+            )
         )
+        for line in report.decks_made_current:
+            print(printable(f"  now current (--make-current): deck {line}"))
+        if report.decks_not_current:
+            print(
+                printable(
+                    f"  not current: deck {', '.join(report.decks_not_current)} - stored, but "
+                    "queries show a deck only while it is current; a merge makes no deck "
+                    "current unless given --make-current"
+                )
+            )
         for line in report.conflicts:
-            print(f"  conflict: {line}")
-        for line in report.current_changed:
-            print(f"  current: {line}")
-        for line in report.current_kept:
-            print(f"  kept: {line}")
-        if report.current_kept:
-            print("  (--adopt-current makes the other catalog's newer current decks current)")
+            print(printable(f"  conflict: {line}"))
     return 1 if report.conflicts else 0
 
 
@@ -374,17 +380,22 @@ def _filtered(p: argparse.ArgumentParser) -> None:
     p.add_argument("--json", action="store_true", help="print JSON instead of a table")
 
 
-def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
-    from celllab.catalog.filters import describe_language
+def describe_language() -> str:
+    """The filter language's help (loads the topology registry, so only when help is shown)."""
+    from celllab.catalog.filters import describe_language as describe
 
+    return describe()
+
+
+def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
     raw = argparse.RawDescriptionHelpFormatter
-    metric_list = ", ".join(f"{m.name} [{m.unit}]" for m in METRIC_BY_NAME.values())
+    metric_list = ", ".join(f"{m.name} [{m.unit}]" for m in METRIC_BY_NAME.values()).replace("%", "%%")
 
     p = sub.add_parser(
         "rank",
         help="list catalog cells filtered and ranked by a metric",
         formatter_class=raw,
-        epilog=describe_language(),
+        epilog=describe_language,
         description="Filter the current catalog results and rank them by a metric "
         "or cell column, best first unless --asc/--desc says otherwise.",
     )
@@ -400,16 +411,21 @@ def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
     order.add_argument("--asc", action="store_true", help="smallest first")
     order.add_argument("--desc", action="store_true", help="largest first")
     p.add_argument(
-        "--limit", type=int, default=20, help="rows to print, 0 for all (default: %(default)s)"
+        "--limit",
+        type=whole_number(0, MAX_ROWS),
+        default=20,
+        help="rows to print, 0 for all (default: %(default)s)",
     )
-    p.add_argument("--offset", type=int, default=0, help="rows to skip first (paging)")
+    p.add_argument(
+        "--offset", type=whole_number(0, MAX_ROWS), default=0, help="rows to skip first (paging)"
+    )
     p.set_defaults(func=cmd_rank)
 
     p = sub.add_parser(
         "pareto",
         help="cells no other cell beats in every chosen metric",
         formatter_class=raw,
-        epilog=describe_language(),
+        epilog=describe_language,
         description="Pareto front over 2 or 3 metrics: the rows that no other row "
         "matches or beats in all of them (direction of each from its 'better').",
     )
@@ -461,16 +477,18 @@ def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
         description="Import decks, runs and results of another catalog file in one "
         "transaction. Identical results are skipped; conflicting ones (same deck, "
         "cell and model version with other numbers, or a cell name with another "
-        "hash under the same deck) are listed and not imported. The other file is "
-        "not changed. A deck name this catalog already has keeps its current deck; the "
-        "other catalog's current deck is stored as history and named in the report "
-        "(--adopt-current takes whichever was made current last). Exit status 1 when "
-        "there were conflicts.",
+        "hash under the same deck) are listed and not imported. Every row of the other "
+        "file is checked as a fresh run is (hashes recomputed); a file that fails is refused "
+        "whole, naming it. The other file is read only, never changed. Imported decks stay "
+        "not current unless --make-current is given. Exit status 1 when there were conflicts.",
     )
     _common(p, deck=False, corner=False)
     p.add_argument("file", metavar="FILE", help="catalog file to import from")
-    p.add_argument("--adopt-current", action="store_true",
-                   help="for a deck name both catalogs have, make current the deck made current "
-                   "last in either (default: this catalog's current deck stays)")
+    p.add_argument(
+        "--make-current",
+        action="store_true",
+        help="per deck name, make current the deck made current most recently in either "
+        "catalog (without it no deck's current state changes)",
+    )
     p.add_argument("--json", action="store_true", help="print a JSON report")
     p.set_defaults(func=cmd_merge)

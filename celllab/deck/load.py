@@ -5,7 +5,9 @@ from __future__ import annotations
 import copy
 import hashlib
 import json
+import math
 import re
+import stat
 import tomllib
 from collections.abc import Iterable
 from pathlib import Path
@@ -25,15 +27,53 @@ def content_hash(model: BaseModel) -> str:
     return hashlib.sha256(text.encode()).hexdigest()[:16]
 
 
-def read_toml(path: str | Path, error: type[CelllabError]) -> tuple[dict[str, Any], str]:
-    """Read a TOML file; syntax errors become a located ``error``."""
+#: Largest TOML file celllab reads (deck, cell or block file); documented in
+#: process_decks/README.md ("Limits"). Real decks and cell files are a few kB.
+MAX_FILE_BYTES = 4 * 1024 * 1024
+
+
+def read_text_file(path: str | Path, error: type[CelllabError], limit: int = MAX_FILE_BYTES,
+                   kind: str = "TOML") -> str:
+    """UTF-8 text of a regular file of at most ``limit`` bytes (a leading byte order mark is
+    dropped); anything else becomes a located ``error`` naming the file (``kind``: what the
+    file should hold, for the message)."""
     p = Path(path)
     try:
-        text = p.read_text(encoding="utf-8")
+        info = p.stat()
     except FileNotFoundError:
         raise error.single(str(path), "", "file not found") from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise error.single(str(path), "", f"cannot read file: {exc}") from None
+    except (OSError, ValueError) as exc:
+        raise error.single(str(path), "", f"cannot read file: {_os_reason(exc)}") from None
+    if not stat.S_ISREG(info.st_mode):
+        what = "a folder" if stat.S_ISDIR(info.st_mode) else "a device, pipe or socket"
+        raise error.single(str(path), "", f"not a regular file ({what}); give a {kind} file")
+    if info.st_size > limit:
+        raise error.single(str(path), "", f"file of {info.st_size} bytes is larger than the "
+                           f"{limit} bytes celllab reads")
+    try:
+        with p.open("rb") as fh:
+            data = fh.read(limit + 1)
+    except OSError as exc:
+        raise error.single(str(path), "", f"cannot read file: {_os_reason(exc)}") from None
+    if len(data) > limit:  # grew since the stat
+        raise error.single(str(path), "", f"file is larger than the {limit} bytes celllab reads")
+    try:
+        return data.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        line = data[: exc.start].count(b"\n") + 1
+        raise error([Problem(str(path), "", f"cannot read file: not utf-8 text (byte "
+                                            f"0x{data[exc.start]:02x} at offset {exc.start}); "
+                                            "save the file as UTF-8",
+                             line=line, has_value=False)]) from None
+
+
+def _os_reason(exc: BaseException) -> str:
+    return getattr(exc, "strerror", None) or str(exc)
+
+
+def read_toml(path: str | Path, error: type[CelllabError]) -> tuple[dict[str, Any], str]:
+    """Read a TOML file; syntax errors become a located ``error``."""
+    text = read_text_file(path, error)
     try:
         return tomllib.loads(text), text
     except tomllib.TOMLDecodeError as exc:
@@ -42,6 +82,8 @@ def read_toml(path: str | Path, error: type[CelllabError]) -> tuple[dict[str, An
         line = int(m.group(1)) if m else None
         msg = re.sub(r"\s*\(at line \d+, column \d+\)", "", msg)
         raise error([Problem(str(path), "", f"TOML syntax error: {msg}", line=line, has_value=False)]) from None
+    except RecursionError:  # arrays or inline tables nested thousands deep
+        raise error([Problem(str(path), "", "TOML nested too deeply to read", has_value=False)]) from None
 
 
 def _resolve_table(name: str, arrays: dict[tuple[str, ...], int]) -> list[str]:
@@ -60,16 +102,39 @@ def _resolve_table(name: str, arrays: dict[tuple[str, ...], int]) -> list[str]:
 def find_line(text: str | None, path: Iterable[str | int]) -> int | None:
     """Best-effort line number of a dotted key path in TOML source (None when not found).
 
-    Arrays of tables are indexed (``["metals", 4, "name"]``), nested ones too
-    (``["region", 1, "row_gaps", 0, "count"]``)."""
+    The line of the key itself when the text has it, else the first line of a table or key
+    that the path lies in. Arrays of tables are indexed (``["metals", 4, "name"]``), nested ones
+    too (``["region", 1, "row_gaps", 0, "count"]``). The text is indexed once (one pass), so
+    locating every problem of a large file costs no more than reading it.
+    """
     if not text:
         return None
-    parts = [str(p) for p in path]
+    parts = tuple(str(p) for p in path)
     if not parts:
         return None
+    keys, tables = _line_index(text)
+    if parts in keys:
+        return keys[parts]
+    found = [line for line in (tables.get(parts), *(keys.get(parts[:n]) for n in range(1, len(parts))))
+             if line is not None]
+    return min(found) if found else None
+
+
+_LineIndex = tuple[dict[tuple[str, ...], int], dict[tuple[str, ...], int]]
+_last_index: tuple[str, _LineIndex] | None = None
+
+
+def _line_index(text: str) -> _LineIndex:
+    """(first line of each dotted key, first line of each table header) of TOML text; the
+    index of the last text asked about is kept, since problems of one file come in a row."""
+    global _last_index
+    cached = _last_index
+    if cached is not None and cached[0] is text:
+        return cached[1]
+    keys: dict[tuple[str, ...], int] = {}
+    tables: dict[tuple[str, ...], int] = {}
     table: list[str] = []
     arrays: dict[tuple[str, ...], int] = {}  # array-of-tables path -> index of its last element
-    best: int | None = None
     for lineno, raw in enumerate(text.splitlines(), start=1):
         line = raw.split("#", 1)[0].strip()
         if not line:
@@ -85,23 +150,18 @@ def find_line(text: str | None, path: Iterable[str | int]) -> int | None:
             for nested in [k for k in arrays if len(k) > len(key) and k[:len(key)] == key]:
                 del arrays[nested]
             table = [*key, str(arrays[key])]
-            if table == parts[: len(table)] and best is None and len(table) == len(parts):
-                best = lineno
+            tables.setdefault(tuple(table), lineno)
             continue
         m = re.match(r"^\[\s*([^\]]+?)\s*\]$", line)
         if m:
             table = _resolve_table(m.group(1), arrays)
-            if table == parts[: len(table)] and len(table) == len(parts):
-                best = best or lineno
+            tables.setdefault(tuple(table), lineno)
             continue
         m = re.match(r'^("?)([A-Za-z0-9_\-\.]+)\1\s*=', line)
         if m:
-            key_path = table + [k.strip('"') for k in m.group(2).split(".")]
-            if key_path == parts:
-                return lineno
-            if key_path == parts[: len(key_path)] and best is None:
-                best = lineno
-    return best
+            keys.setdefault(tuple(table + [k.strip('"') for k in m.group(2).split(".")]), lineno)
+    _last_index = (text, (keys, tables))
+    return keys, tables
 
 
 def _allowed_from_error(err: dict[str, Any]) -> str:
@@ -187,6 +247,9 @@ def validation_problems(exc: ValidationError, file: str, text: str | None,
                 options = [o.strip().strip("'") for o in str((err.get("ctx") or {}).get("expected", "")).replace(" or ", ",").split(",")]
                 guess = close_names(value, options)
                 message = f"not an allowed value; {allowed}" + (f". Did you mean {guess[0]!r}?" if guess else "")
+            elif isinstance(value, float) and not math.isfinite(value):
+                # NaN fails whichever bound pydantic tries first; say what is really wrong
+                message = "not a finite number" + (f" ({allowed})" if allowed else "")
             elif allowed and allowed not in message:
                 message = f"{message} ({allowed})"
             if isinstance(value, dict):
@@ -287,8 +350,11 @@ def numeric_paths(deck: Deck) -> list[str]:
 
 
 def _check_path(deck_data: dict[str, Any], path: str) -> str | None:
+    parts = _split(path)
+    if parts and parts[0] == "corners":
+        return "not a deck parameter: a corner changes the deck, never other corners"
     try:
-        value = _get_path(deck_data, _split(path))
+        value = _get_path(deck_data, parts)
     except (KeyError, IndexError, ValueError, TypeError):
         return "not a deck parameter"
     if isinstance(value, bool) or not isinstance(value, (int, float)):
@@ -299,13 +365,12 @@ def _check_path(deck_data: dict[str, Any], path: str) -> str | None:
 def _corner_problems(deck: Deck, raw: dict[str, Any], file: str, text: str | None) -> list[Problem]:
     problems: list[Problem] = []
     data = deck.full_dump()
-    allowed = numeric_paths(deck)
     for cname, corner in deck.corners.items():
         for kind, table in (("set", corner.set), ("scale", corner.scale)):
             for path in table:
                 why = _check_path(data, path)
                 if why:
-                    msg = why + did_you_mean(path, allowed)
+                    msg = why + did_you_mean(path, numeric_paths(deck))
                     problems.append(Problem(file, f"corners.{cname}.{kind}", msg, path,
                                             find_line(text, ["corners", cname, kind])))
         if not problems:
@@ -329,12 +394,11 @@ def apply_changes(deck: Deck, changes: dict[str, Any], source: str = "<what-if>"
     """
     data = copy.deepcopy(deck.full_dump())
     problems: list[Problem] = []
-    allowed = numeric_paths(deck)
     for table, op in ((changes, "set"), (scale or {}, "scale")):
         for path, value in table.items():
             why = _check_path(data, path)
             if why:
-                problems.append(Problem(source, field_prefix + path, why + did_you_mean(path, allowed), value))
+                problems.append(Problem(source, field_prefix + path, why + did_you_mean(path, numeric_paths(deck)), value))
                 continue
             parts = _split(path)
             try:
@@ -366,7 +430,12 @@ def corner_deck(deck: Deck, corner: str, file: str | None = None) -> Deck:
     temperature by their coefficients (``resistance_tempco``, first-order law of
     ``physics.resistance.linear_tcr_factor``). ``set`` and ``scale`` act on resistances as given
     at the reference temperature. Device temperature laws (mobility, threshold) are applied by
-    the engine."""
+    the engine.
+
+    The changes are applied to and validated on a copy holding that one corner, so building
+    it costs the same for a deck of three corners as for one of a hundred and checking every
+    corner grows linearly with their count; the result keeps the deck's corners.
+    """
     if corner not in deck.corners:
         allowed = ", ".join(deck.corners)
         raise DeckError.single(file or deck.name, "corner", f"unknown corner; allowed: {allowed}", corner)
@@ -376,8 +445,10 @@ def corner_deck(deck: Deck, corner: str, file: str | None = None) -> Deck:
         rails = ["supplies.core_V", "supplies.io_V", *(f"supplies.named.{n}.voltage_V" for n in deck.supplies.named)]
         for key in rails:
             scale[key] = scale.get(key, 1.0) * c.supply_scale
-    changed = apply_changes(deck, dict(c.set), file or deck.name, scale,
+    alone = deck.model_copy(update={"corners": {corner: c}})
+    changed = apply_changes(alone, dict(c.set), file or deck.name, scale,
                             field_prefix=f"corners.{corner} -> ", check_corners=False)
+    changed = changed.model_copy(update={"corners": deck.corners})  # the corners are not changed
     return _resistances_at(changed, c.temperature_C)
 
 

@@ -8,6 +8,7 @@ range check; descriptions say what the field means. Values are stored as the use
 from __future__ import annotations
 
 import re
+import warnings
 from typing import Any, Literal
 
 from pydantic import (
@@ -26,6 +27,16 @@ GateMaterial = Literal["n_poly", "p_poly", "metal"]
 AccelerationModel = Literal["power_law", "e_model", "inverse_e"]
 LeakageModel = Literal["direct_tunnel", "reference"]
 OxideName = Literal["core", "io"]
+
+#: Documented input limits (process_decks/README.md, "Limits"): enough for any process and
+#: small enough that checking a deck stays quick.
+MAX_CORNERS = 100
+MAX_METALS = 32
+MAX_NAMED_RAILS = 32
+#: Words the catalog and the CLI use for a cell's aggregate over its corners (``--corner worst``);
+#: a corner of that name would be hidden by the aggregate.
+RESERVED_CORNER_NAMES: tuple[str, ...] = ("worst", "best", "all")
+CORNER_NAME = re.compile(r"[A-Za-z0-9_-]{1,40}")
 
 
 #: ``model_dump(context=FULL_DUMP)`` keeps every field (dotted paths of corners and what-ifs
@@ -76,11 +87,10 @@ class DeviceParams(StrictModel):
 class LeakageParams(StrictModel):
     model: LeakageModel = Field("direct_tunnel", description="direct_tunnel: Schuegraf-King-Hu WKB "
                                 "model; reference: scale a measured density")
-    barrier_eV: float = _f(0.5, 5.0, "tunnelling barrier height, eV", default=3.1)
-    mass_ratio: float = _f(0.05, 1.0, "oxide tunnelling effective mass / m0", default=0.40)
     area_factor: float = _f(1e-6, 1e3, "empirical multiplier on the WKB density (calibration), unitless",
                             default=1.0)
-    j_ref_A_per_cm2: float | None = _f(0, 1e5, "reference gate current density, A/cm^2", default=None)
+    j_ref_A_per_cm2: float | None = _f(0, 1e5, "reference gate current density (electron tunnelling, "
+                                       "an NMOS in inversion), A/cm^2", default=None)
     j_ref_t_ox_nm: float | None = _f(0.3, 20, "oxide thickness of the reference density, nm", default=None)
     j_ref_V: float | None = _f(0.05, 10, "gate voltage of the reference density, V", default=None)
     decades_per_nm: float = _f(0.5, 20, "decades of current per nm of oxide thinning", default=5.0)
@@ -95,6 +105,33 @@ class LeakageParams(StrictModel):
         return self
 
 
+# --- gate tunnelling per carrier and its temperature law ([oxides.<flavour>.tunnelling]) -------
+
+#: Fields of ``[oxides.<flavour>.leakage]`` that moved to ``[oxides.<flavour>.tunnelling]``.
+MOVED_TUNNELLING_FIELDS: dict[str, str] = {"barrier_eV": "electron_barrier_eV", "mass_ratio": "electron_mass_ratio"}
+
+
+class Tunnelling(StrictModel):
+    """Gate tunnelling per carrier through one dielectric, and its temperature law.
+
+    Electrons tunnel from the conduction band where the channel or accumulation layer holds
+    electrons (NMOS in inversion, n-type accumulation); holes from the valence band where it holds
+    holes (PMOS in inversion, p-type accumulation). Defaults: Lee & Hu, IEEE TED 48(7), 2001 (the
+    BSIM4 constants): electrons 3.1 eV / 0.40 m0, holes 4.5 eV / 0.32 m0.
+    """
+
+    electron_barrier_eV: float = _f(0.5, 6.0, "barrier for electrons from the conduction band, eV", default=3.1)
+    electron_mass_ratio: float = _f(0.05, 1.0, "oxide effective mass of tunnelling electrons / m0", default=0.40)
+    hole_barrier_eV: float = _f(0.5, 6.0, "barrier for holes from the valence band, eV", default=4.5)
+    hole_mass_ratio: float = _f(0.05, 1.0, "oxide effective mass of tunnelling holes / m0", default=0.32)
+    temperature_exponent: float = _f(-5.0, 10.0, "gate current J(T) = J(T_ref) (T/T_ref)^exponent on top of "
+                                     "the bias shift, unitless (2.5: BSIM-CMG IGT default)", default=2.5)
+    hole_j_ref_A_per_cm2: float | None = _f(0, 1e5, "reference model only: hole gate current density at the "
+                                            "leakage reference point (a PMOS in inversion), A/cm^2; omitted: "
+                                            "the electron reference times the WKB hole/electron ratio",
+                                            default=None)
+
+
 class ReliabilityParams(StrictModel):
     weibull_beta: float = _f(0.3, 10, "Weibull slope of time to breakdown, unitless")
     eta_ref_s: float = _f(1.0, 1e20, "Weibull characteristic life (63 %) at the reference condition, s")
@@ -105,6 +142,12 @@ class ReliabilityParams(StrictModel):
     acceleration_exponent: float = _f(0, 200, "power-law n (t ~ V^-n), E-model gamma (cm/MV) or "
                                       "1/E-model G (MV/cm), per the chosen model")
     activation_energy_eV: float = _f(0, 2.0, "Arrhenius activation energy, eV")
+    breakdown_spot_ohm: float = _f(1, 1e9, "resistance of a hard-breakdown spot through this oxide "
+                                   "(gate to channel), ohm", default=2000.0)
+
+    @model_serializer(mode="wrap")
+    def _canonical(self, handler: SerializerFunctionWrapHandler, info: SerializationInfo) -> dict[str, Any]:
+        return _without_defaults(dict(handler(self)), {"breakdown_spot_ohm": 2000.0}, info)
 
 
 class OxideFlavour(StrictModel):
@@ -125,12 +168,46 @@ class OxideFlavour(StrictModel):
     overlap_cap_fF_per_um: float = _f(0, 2, "gate-to-diffusion overlap plus fringe capacitance per "
                                       "um of gate width per side, fF/um")
     min_gate_length_um: float = _f(0.01, 10, "minimum drawn gate length, um")
+    min_gate_width_um: float | None = _f(0.01, 10, "minimum drawn gate (diffusion) width per "
+                                         "finger and row, um; omitted: min_gate_length_um",
+                                         default=None)
     breakdown_field_dc_MV_per_cm: float = _f(1, 40, "DC ramp breakdown field, MV/cm")
     breakdown_field_pulse_MV_per_cm: float = _f(1, 60, "short-pulse (~100 ns) breakdown field, MV/cm")
     nmos: DeviceParams
     pmos: DeviceParams
     leakage: LeakageParams = LeakageParams()
+    tunnelling: Tunnelling = Tunnelling()
     reliability: ReliabilityParams
+
+    @model_serializer(mode="wrap")
+    def _canonical(self, handler: SerializerFunctionWrapHandler, info: SerializationInfo) -> dict[str, Any]:
+        # left out of the dump (and the content hash) while omitted or at their defaults: the
+        # minimum gate width, and the per-carrier tunnelling table at its published values
+        return _without_defaults(dict(handler(self)), {"min_gate_width_um": None,
+                                                        "tunnelling": Tunnelling().model_dump()}, info)
+
+    @model_validator(mode="before")
+    @classmethod
+    def _moved_tunnelling_fields(cls, data: Any) -> Any:
+        # leakage.barrier_eV / mass_ratio were the electron parameters before tunnelling was split
+        # by carrier: still read (with a FutureWarning), written back under tunnelling
+        if not isinstance(data, dict) or not isinstance(data.get("leakage"), dict):
+            return data
+        moved = {old: new for old, new in MOVED_TUNNELLING_FIELDS.items() if old in data["leakage"]}
+        if not moved:
+            return data
+        data = {**data, "leakage": dict(data["leakage"])}
+        tunnelling = dict(data.get("tunnelling") or {})
+        for old, new in moved.items():
+            value = data["leakage"].pop(old)
+            if new in tunnelling and tunnelling[new] != value:
+                raise ValueError(f"leakage.{old} ({value}) and tunnelling.{new} ({tunnelling[new]}) disagree; "
+                                 f"give only tunnelling.{new}")
+            tunnelling[new] = value
+        data["tunnelling"] = tunnelling
+        warnings.warn("deck: " + ", ".join(f"leakage.{o} is now tunnelling.{n}" for o, n in moved.items())
+                      + " (read for now; rename it in the deck)", FutureWarning, stacklevel=2)
+        return data
 
     @model_validator(mode="after")
     def _thickness(self) -> "OxideFlavour":
@@ -145,6 +222,11 @@ class OxideFlavour(StrictModel):
         if self.breakdown_field_pulse_MV_per_cm < self.breakdown_field_dc_MV_per_cm:
             raise ValueError("breakdown_field_pulse_MV_per_cm must not be below breakdown_field_dc_MV_per_cm")
         return self
+
+    @property
+    def min_width_um(self) -> float:
+        """Smallest gate width a cell may draw on this oxide, um."""
+        return self.min_gate_width_um if self.min_gate_width_um is not None else self.min_gate_length_um
 
     @property
     def eot_m(self) -> float:
@@ -166,6 +248,37 @@ class Wells(StrictModel):
     nwell_doping_cm3: float = _f(1e14, 1e19, "n-well doping under PMOS channels, cm^-3")
     nwell_sheet_ohm_per_sq: float = _f(10, 1e5, "n-well sheet resistance, ohm/sq")
     pwell_sheet_ohm_per_sq: float = _f(10, 1e5, "p-well sheet resistance, ohm/sq")
+
+
+# --- well-junction leakage ([junctions.<kind>]) ------------------------------------------------
+
+#: Reverse-biased well junctions a decap cell can hold, by the name used in ``[junctions]``.
+JunctionKind = Literal["nwell", "deep_nwell"]
+
+
+class JunctionLeakage(StrictModel):
+    """Reverse saturation current of one well junction kind, BSIM4-style diode.
+
+    I = (J_area A + J_perimeter P)(1 - exp(-V / (N kT/q))) at reverse bias V, with the densities
+    scaled from the reference temperature by exp{[Eg(T_ref)/(kT_ref/q) - Eg(T)/(kT/q)
+    + XTI ln(T/T_ref)] / N} (BSIM4 JSS/JSWS and their temperature law).
+    """
+
+    area_fA_per_um2: float = _f(0, 1e6, "saturation current per junction area at the reference "
+                                "temperature, fA/um^2")
+    perimeter_fA_per_um: float = _f(0, 1e6, "saturation current per junction perimeter at the reference "
+                                    "temperature, fA/um")
+    xti: float = _f(0, 10, "temperature exponent of the saturation current (BSIM4 XTIS), unitless", default=3.0)
+    emission_coefficient: float = _f(0.5, 5, "diode emission coefficient N (BSIM4 NJS), unitless", default=1.0)
+
+
+class Junctions(StrictModel):
+    """Well junctions reverse-biased by the supply in some decap cells; a kind left out is not modelled
+    (its cells carry a flag and count no junction leakage)."""
+
+    nwell: JunctionLeakage | None = Field(None, description="n-well to p-substrate (an n-well on VDD)")
+    deep_nwell: JunctionLeakage | None = Field(None, description="deep n-well to p-substrate (isolated "
+                                               "p-wells on VDD)")
 
 
 class Resistances(StrictModel):
@@ -234,6 +347,27 @@ class Layout(StrictModel):
         return self.row_height_um - self.nwell_half_um
 
 
+# --- the frequency band the deck's cells are analysed over ([analysis]) -------------------------
+
+class AnalysisBand(StrictModel):
+    """The band a deck's cells are swept over: the band that matters for decoupling in this
+    process (from below the package resonance to a few times its fastest clock harmonics).
+    Self-resonance and cutoff above it are computed from each cell's equivalent circuit and
+    marked as beyond the band, or stored as lower bounds where the circuit shows none."""
+
+    f_min_MHz: float = _f(1e-3, 1e3, "lowest swept frequency (the low-frequency C and ESR are read "
+                          "there), MHz", gt=True, default=0.1)
+    f_max_GHz: float = _f(0.01, 1e4, "highest swept frequency: top of the band that matters, GHz",
+                          gt=True, default=100.0)
+    points_per_decade: float = _f(5, 200, "sweep points per decade (rounded to a whole number)", default=20.0)
+
+    @model_validator(mode="after")
+    def _ordered(self) -> "AnalysisBand":
+        if to_si(self.f_max_GHz, "GHz") <= 10 * to_si(self.f_min_MHz, "MHz"):
+            raise ValueError("f_max_GHz must lie more than a decade above f_min_MHz")
+        return self
+
+
 #: Supply net names: letters, digits and _ (safe in Liberty, LEF and SPICE without quoting).
 _NET = r"^[A-Za-z][A-Za-z0-9_]{0,31}$"
 #: Net-name fields and their defaults; see ``Supplies._canonical``.
@@ -266,7 +400,7 @@ class Supplies(StrictModel):
                               description="net name of the I/O supply rail (cells on the io oxide)")
     io_ground_net: str = Field(NET_NAME_DEFAULTS["io_ground_net"], pattern=_NET,
                                description="net name of the ground rail of io-oxide cells")
-    named: dict[str, NamedSupply] = Field(default_factory=dict, description="further rails by name "
+    named: dict[str, NamedSupply] = Field(default_factory=dict, max_length=MAX_NAMED_RAILS, description="further rails by name "
                                           "(lower-case letters, digits, _), which cells may name as their rail")
 
     @model_serializer(mode="wrap")
@@ -295,6 +429,48 @@ class Supplies(StrictModel):
         if rail == "core":
             return self.core_V
         return self.named[rail].voltage_V
+
+
+class RailDomain(StrictModel):
+    """Protection and supply of one rail domain (the core or I/O VDD-VSS pair)."""
+
+    clamp_on_V: float | None = _f(0.2, 50, "turn-on voltage of the domain's VDD-VSS ESD clamp, V; "
+                                  "omitted: 1.5 x the domain's nominal supply", default=None)
+    clamp_on_ohm: float = _f(0.01, 1000, "on-resistance of the clamp once triggered, ohm",
+                             default=1.0, gt=True)
+    clamp_response_ns: float = _f(0, 100, "time constant of the clamp's trigger (0: instantaneous), "
+                                  "ns", default=0.5)
+    clamp_diode_V: float = _f(0.1, 5, "turn-on of the clamp's reverse (VSS-to-VDD) diode, V",
+                              default=0.7)
+    clamp_diode_ohm: float | None = _f(0.01, 1000, "on-resistance of the clamp's reverse diode, ohm; "
+                                       "omitted: clamp_on_ohm", default=None, gt=True)
+    rail_capacitance_pF: float = _f(0, 1e6, "capacitance between the domain's rails besides the "
+                                    "decap fill (wells, junctions, wiring, circuits), pF", default=100.0)
+    supply_source_ohm: float = _f(0, 1e3, "resistance from the supply through package and grid to a "
+                                  "cell, ohm", default=0.2)
+    fault_current_limit_mA: float = _f(0, 1e6, "largest extra DC current one broken oxide may draw "
+                                       "(supply current limit, standby budget or local rail "
+                                       "electromigration limit, the tightest), mA", default=10.0, gt=True)
+
+
+class Mission(StrictModel):
+    """The life the gate oxides of a fill must survive."""
+
+    life_years: float = _f(0, 100, "operating life, years", default=10.0, gt=True)
+    temperature_C: float = _f(-55, 200, "junction temperature over the life, degC", default=105.0)
+    supply_scale: float | None = _f(0.5, 1.5, "supply over the life as a multiple of nominal; "
+                                    "omitted: the largest corner supply_scale", default=None)
+    target_ppm: float = _f(0, 1e6, "cumulative oxide failure fraction allowed over the life, ppm "
+                           "(sets the affordable gate area)", default=10.0, gt=True)
+
+
+class EsdTargets(StrictModel):
+    """The rail events every cell is characterized under (unpowered part, positive zap)."""
+
+    hbm_V: float = _f(0, 30000, "human-body-model precharge (JS-001 network: 100 pF, 1.5 kohm), V",
+                      default=2000.0, gt=True)
+    cdm_V: float = _f(0, 5000, "charged-device-model charge voltage (the package-capacitance "
+                      "stand-in of physics/esd.py), V", default=250.0, gt=True)
 
 
 class ResistanceTempco(StrictModel):
@@ -348,17 +524,30 @@ class Deck(StrictModel):
                                         default=25.0)
     oxides: dict[OxideName, OxideFlavour]
     wells: Wells
+    junctions: Junctions = Junctions()
     resistances: Resistances
-    metals: list[MetalLayer] = Field(min_length=1)
+    metals: list[MetalLayer] = Field(min_length=1, max_length=MAX_METALS)
     layout: Layout
     supplies: Supplies
-    corners: dict[str, Corner] = Field(min_length=1)
+    analysis: AnalysisBand = AnalysisBand()
+    corners: dict[str, Corner] = Field(min_length=1, max_length=MAX_CORNERS)
+    rails: dict[str, RailDomain] = Field(default_factory=dict, description="ESD clamp and supply of "
+                                         "each rail (core, io or a named rail); a rail not listed takes "
+                                         "the defaults")
+    mission: Mission = Field(default_factory=Mission, description="oxide life profile")
+    esd: EsdTargets = Field(default_factory=EsdTargets, description="rail events of the catalog's "
+                            "ESD columns")
     resistance_tempco: ResistanceTempco = ResistanceTempco()
 
     @model_serializer(mode="wrap")
     def _canonical(self, handler: SerializerFunctionWrapHandler, info: SerializationInfo) -> dict[str, Any]:
-        # left out of the dump (and the content hash) while every coefficient is zero
-        return _without_defaults(dict(handler(self)), {"resistance_tempco": ResistanceTempco().model_dump()}, info)
+        # left out of the dump (and the content hash) while at their defaults: no temperature
+        # coefficients, no well junctions modelled, the default analysis band, rail clamps,
+        # mission and ESD events
+        return _without_defaults(dict(handler(self)), {
+            "resistance_tempco": ResistanceTempco().model_dump(), "junctions": Junctions().model_dump(),
+            "analysis": AnalysisBand().model_dump(), "rails": {}, "mission": Mission().model_dump(),
+            "esd": EsdTargets().model_dump()}, info)
 
     def full_dump(self) -> dict[str, Any]:
         """Every field as JSON data, defaults included (the paths corners and what-ifs may name)."""
@@ -380,8 +569,9 @@ class Deck(StrictModel):
         """Cross-field rules, one (dotted field, value, message) per broken rule."""
         problems: list[tuple[str, object, str]] = []
         names = [m.name for m in self.metals]
+        first: dict[str, int] = {}
         for i, name in enumerate(names):
-            if names.index(name) != i:
+            if first.setdefault(name, i) != i:
                 problems.append((f"metals[{i}].name", name, "layer names must be unique"))
         for i in range(1, len(self.metals)):
             lower, upper = self.metals[i - 1], self.metals[i]
@@ -410,9 +600,25 @@ class Deck(StrictModel):
         if s.core_power_net == s.io_power_net and s.core_V != s.io_V:
             problems.append(("supplies.io_power_net", s.io_power_net,
                              f"same net as core_power_net but io_V ({s.io_V:g} V) differs from core_V ({s.core_V:g} V)"))
+        for domain in self.rails:
+            if domain not in self.supplies.rail_names():
+                problems.append((f"rails.{domain}", domain, "not a rail of this deck; allowed: "
+                                 + ", ".join(self.supplies.rail_names())))
+                continue
+            # corner decks carry their scaled supply, so every corner is checked at its own
+            v_supply = self.supply_for(domain)
+            if self.clamp_on_V(domain) <= v_supply:
+                problems.append((f"rails.{domain}.clamp_on_V", self.clamp_on_V(domain),
+                                 f"must exceed the domain's supply ({v_supply:g} V), or the clamp "
+                                 "conducts in operation"))
         for corner_name in self.corners:
-            if not corner_name.replace("_", "").replace("-", "").isalnum():
-                problems.append((f"corners.{corner_name}", corner_name, "corner names use letters, digits, _ and -"))
+            if not CORNER_NAME.fullmatch(corner_name):
+                problems.append((f"corners.{corner_name}", corner_name,
+                                 "corner names use letters, digits, _ and - (1 to 40 of them)"))
+            elif corner_name.lower() in RESERVED_CORNER_NAMES:
+                problems.append((f"corners.{corner_name}", corner_name,
+                                 "a reserved word (the aggregate over all corners); choose another "
+                                 "name; reserved: " + ", ".join(RESERVED_CORNER_NAMES)))
         problems += self._row_structure_problems()
         problems += self._named_supply_problems()
         problems += self._tempco_problems()
@@ -439,13 +645,13 @@ class Deck(StrictModel):
         problems: list[tuple[str, object, str]] = []
         s = self.supplies
         powers = {s.core_power_net, s.io_power_net}
-        grounds = {s.core_ground_net, s.io_ground_net}
+        grounds = {s.core_ground_net, s.io_ground_net} | {r.ground_net for r in s.named.values()}
         for name, rail in s.named.items():
             where = f"supplies.named.{name}"
             if name in BUILT_IN_RAILS or not _RAIL_NAME.match(name):
                 problems.append((where, name, "rail names use lower-case letters, digits and _ (start "
                                  "with a letter, at most 24) and may not be " + " or ".join(BUILT_IN_RAILS)))
-            if rail.power_net in grounds | {r.ground_net for r in s.named.values()}:
+            if rail.power_net in grounds:
                 problems.append((f"{where}.power_net", rail.power_net, "a supply net cannot also be a ground net"))
             if rail.ground_net in powers:
                 problems.append((f"{where}.ground_net", rail.ground_net, "a ground net cannot also be a supply net"))
@@ -482,6 +688,21 @@ class Deck(StrictModel):
     def supply_for(self, rail: str) -> float:
         """Nominal voltage of a rail ("core", "io" or a named rail), V; KeyError if unknown."""
         return self.supplies.voltage(rail)
+
+    def rail(self, domain: str) -> RailDomain:
+        """Clamp and supply parameters of a rail domain ("core" or "io"), defaults if not given."""
+        return self.rails.get(domain, RailDomain())  # type: ignore[call-overload]
+
+    def clamp_on_V(self, domain: str) -> float:
+        """Clamp turn-on voltage of a domain, V (1.5 x its nominal supply unless given)."""
+        given = self.rail(domain).clamp_on_V
+        return given if given is not None else 1.5 * self.supply_for(domain)
+
+    def mission_supply_scale(self) -> float:
+        """Supply multiplier over the mission (the largest corner's unless given)."""
+        if self.mission.supply_scale is not None:
+            return self.mission.supply_scale
+        return max(c.supply_scale for c in self.corners.values())
 
     # --- conveniences implemented in celllab.deck.load ----------------------------------
     @property

@@ -1,8 +1,9 @@
 """Exporters: catalog rows and cell records rendered for other planning tools.
 
 Each format has a pure ``render_*`` function returning text and a one-line ``write_*`` that
-stores it atomically (temporary file in the destination folder, then ``os.replace``), so a
-failure never leaves half a file behind.
+stores it through ``celllab.export.files.write_text_atomic``: atomically (temporary file in the
+destination folder, then a rename), an existing file only replaced with ``force=True``, links,
+pipes and read-only files never, so a failure never leaves half a file behind.
 
 ==========  ===========================================  ============================
 format      render                                       write
@@ -33,7 +34,6 @@ from __future__ import annotations
 
 import importlib
 import os
-import tempfile
 from pathlib import Path
 from typing import Any
 
@@ -92,37 +92,16 @@ __all__ = [  # noqa: PLE0604 - the lazily loaded names are listed in _LAZY
 ]
 
 
-def atomic_write_text(path: str | os.PathLike[str], text: str) -> Path:
-    """Write ``text`` (UTF-8) to ``path`` all at once.
+def atomic_write_text(path: str | os.PathLike[str], text: str, force: bool = True) -> Path:
+    """Write ``text`` (UTF-8) to ``path`` all at once (``celllab.export.files.write_text_atomic``).
 
-    The text goes to a temporary file in the same folder, which then replaces ``path`` with
-    ``os.replace`` (atomic on POSIX and Windows). On any failure the temporary file is removed
-    and an existing ``path`` is left untouched. Returns the path written.
+    Kept for existing callers, which expect an existing regular file to be replaced (``force``
+    defaults to True here); links, pipes, devices and read-only files are never written or
+    replaced. New code calls ``write_text_atomic``, where replacing must be asked for.
     """
-    target = Path(path)
-    folder = target.parent if str(target.parent) else Path(".")
-    fd, tmp_name = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=folder)
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8", newline="") as handle:
-            handle.write(text)
-            handle.flush()
-            os.fsync(handle.fileno())
-        # mkstemp creates the file 0600; give it the mode a plain open() would have.
-        os.chmod(tmp_name, 0o666 & ~_current_umask())
-        os.replace(tmp_name, target)
-    except BaseException:
-        try:
-            os.unlink(tmp_name)
-        except FileNotFoundError:
-            pass
-        raise
-    return target
+    from celllab.export.files import write_text_atomic
 
-
-def _current_umask() -> int:
-    mask = os.umask(0o022)
-    os.umask(mask)
-    return mask
+    return write_text_atomic(path, text, force=force)
 
 
 def __getattr__(name: str) -> Any:

@@ -4,7 +4,10 @@ Column names are the catalog's names, which carry their unit (``cap_fF``, ``esr_
 ``area_um2``; see ``celllab.columns``). Numbers are written to ``DEFAULT_PRECISION``
 significant digits (stated in a comment line), or with ``precision=None`` in Python's shortest
 round-trip representation, so ``float(text)`` gives back exactly the stored value; booleans
-are ``1``/``0``; a missing value is an empty field; undefined values are ``nan``/``inf``.
+are ``1``/``0``; a missing value is an empty field; undefined values are ``nan``/``inf``. A value
+that is only a lower bound (its ``*_is_bound`` column is 1, e.g. no self-resonance found in the
+circuit up to it) is written with a leading ``≥`` (``≥20000.0``), so no reader takes it for a
+result; strip the mark to read the bound.
 
 By default the file opens with ``#`` comment lines (tool, model version, the caution and a
 unit legend), which most numeric readers skip (``pandas.read_csv(comment="#")``,
@@ -25,7 +28,8 @@ from typing import Any
 import numpy as np
 
 from celllab import MODEL_VERSION, __version__
-from celllab.columns import CELL_COLUMNS, CORNER_COLUMNS, METRIC_NAMES, unit_of
+from celllab.columns import CELL_COLUMNS, CORNER_COLUMNS, METRIC_NAMES, is_lower_bound, unit_of
+from celllab.display import LOWER_BOUND
 from celllab.export import CAUTION, atomic_write_text
 from celllab.records import CellResult
 
@@ -121,7 +125,9 @@ def render_csv(
     writer = csv.writer(out, lineterminator="\r\n")
     writer.writerow(names)
     for row in materialized:
-        writer.writerow([format_value(row.get(c), precision) for c in names])
+        writer.writerow([LOWER_BOUND + format_value(row.get(c), precision)
+                         if is_lower_bound(row, c) and row.get(c) is not None
+                         else format_value(row.get(c), precision) for c in names])
     return out.getvalue()
 
 
@@ -160,7 +166,8 @@ def write_csv(
     columns: Sequence[str] | None = None,
     comments: bool = True,
     precision: int | None = DEFAULT_PRECISION,
+    force: bool = False,
 ) -> Path:
-    """Write :func:`render_csv` output to ``path`` atomically."""
+    """Write :func:`render_csv` output to ``path`` atomically (``force``: replace a file)."""
     return atomic_write_text(path, render_csv(rows, columns=columns, comments=comments,
-                                              precision=precision))
+                                              precision=precision), force)

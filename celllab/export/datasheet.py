@@ -24,8 +24,8 @@ from matplotlib.ticker import FuncFormatter, NullLocator
 
 from celllab import MODEL_VERSION, __version__
 from celllab.cells.expand import applicable_geometry
-from celllab.columns import BOUND_MARK, CELL_COLUMNS, METRICS, is_lower_bound, unit_of
-from celllab.display import format_value
+from celllab.columns import CELL_COLUMNS, METRICS, is_lower_bound, unit_of
+from celllab.display import LOWER_BOUND, format_metric, format_value
 from celllab.export import CAUTION, atomic_write_text
 from celllab.records import CellResult, CornerResult, corner_metrics
 from celllab.units import from_si
@@ -49,7 +49,7 @@ _SUMMARY_METRICS = (
     "bandwidth_GHz",
     "srf_GHz",
     "leakage_nA",
-    "tddb_life_years",
+    "tddb_fit_per_mm2",
 )
 
 _ESD_WARNING = (
@@ -280,17 +280,13 @@ def _metrics_table(corners: Sequence[CornerResult]) -> str:
         values = [c.metrics.get(info.name) for c in corners]
         if all(v is None or v != v for v in values):
             continue  # does not apply to this cell (no gate oxide in a MOM cell, ...)
-        shown = []
-        for c, v in zip(corners, values):
-            bound = is_lower_bound(c, info.name)
-            bounds = bounds or bound
-            shown.append(f"<td>{BOUND_MARK if bound else ''}{_fmt(v)}</td>")
-        cells = "".join(shown)
+        bounds = bounds or any(is_lower_bound(c, info.name) for c in corners)
+        cells = "".join(f"<td>{_text(format_metric(c.metrics, info.name, 'n/a'))}</td>" for c in corners)
         rows.append(
             f'<tr><th scope="row" title="{_attr(info.description)}">{_text(info.name)}</th>'
             f"<td>{_text(info.unit)}</td><td>{_text(info.better)}</td>{cells}</tr>"
         )
-    note = (f"<p>{BOUND_MARK}: a lower bound, the quantity lies beyond the analysed "
+    note = (f"<p>{LOWER_BOUND}: a lower bound, the quantity lies beyond the analysed "
             "frequency sweep.</p>" if bounds else "")
     return (
         '<div class="wide"><table><thead><tr><th scope="col">metric</th><th scope="col">unit</th>'
@@ -419,7 +415,7 @@ def _summary_table(cells: Sequence[CellResult], corner: str | None,
         picks = [c.corner for c in cell.corners] if every else [corner]
         for pick in picks:
             values = corner_metrics(cell, pick)
-            tds = "".join(f"<td>{_fmt(values.get(m))}</td>" for m in shown)
+            tds = "".join(f"<td>{_text(format_metric(values, m, 'n/a'))}</td>" for m in shown)
             target = link(cell) if link else f"#{_anchor(cell.name)}"
             rows.append(
                 f'<tr><td><a href="{_attr(target)}">{_text(cell.name)}</a></td>'
@@ -482,20 +478,27 @@ def render_library_html(
 
 
 def write_datasheet(
-    path: str | os.PathLike[str], cell: CellResult, deck_name: str | None, **options: Any
+    path: str | os.PathLike[str],
+    cell: CellResult,
+    deck_name: str | None,
+    force: bool = False,
+    **options: Any,
 ) -> Path:
-    """Write :func:`render_datasheet_html` output to ``path`` atomically."""
-    return atomic_write_text(path, render_datasheet_html(cell, deck_name, **options))
+    """Write :func:`render_datasheet_html` output to ``path`` atomically (``force``: replace a
+    file)."""
+    return atomic_write_text(path, render_datasheet_html(cell, deck_name, **options), force)
 
 
 def write_library_datasheet(
     path: str | os.PathLike[str],
     cells: Sequence[CellResult],
     deck_name: str | None,
+    force: bool = False,
     **options: Any,
 ) -> Path:
-    """Write :func:`render_library_html` output to ``path`` atomically."""
-    return atomic_write_text(path, render_library_html(cells, deck_name, **options))
+    """Write :func:`render_library_html` output to ``path`` atomically (``force``: replace a
+    file)."""
+    return atomic_write_text(path, render_library_html(cells, deck_name, **options), force)
 
 
 # ----------------------------------------------------------------------------- PDF

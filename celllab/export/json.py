@@ -171,6 +171,7 @@ def write_json(
     cells: Sequence[CellResult],
     deck_name: str | None = None,
     include_curves: bool = True,
+    force: bool = False,
 ) -> Path:
-    """Write :func:`render_json` output to ``path`` atomically."""
-    return atomic_write_text(path, render_json(cells, deck_name, include_curves))
+    """Write :func:`render_json` output to ``path`` atomically (``force``: replace a file)."""
+    return atomic_write_text(path, render_json(cells, deck_name, include_curves), force)

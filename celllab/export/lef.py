@@ -53,7 +53,8 @@ from celllab.cells.expand import spec_from_record
 from celllab.cells.geometry import GeometryProblem, resolve_geometry
 from celllab.cells.schema import CellSpec
 from celllab.errors import ExportError, Problem
-from celllab.export import CAUTION, atomic_write_text
+from celllab.export import CAUTION
+from celllab.export.files import write_text_atomic
 from celllab.records import CellResult
 
 __all__ = [
@@ -548,6 +549,7 @@ def write_lef(
     deck: Any,
     manufacturing_grid_um: float | None = None,
     date: str | None = None,
+    force: bool = False,
 ) -> Path:
-    """Write :func:`render_lef` output to ``path`` atomically."""
-    return atomic_write_text(path, render_lef(cells, deck, manufacturing_grid_um, date=date))
+    """Write :func:`render_lef` output to ``path`` atomically (``force``: replace a file)."""
+    return write_text_atomic(path, render_lef(cells, deck, manufacturing_grid_um, date=date), force)

@@ -41,7 +41,8 @@ from typing import Any
 
 from celllab import MODEL_VERSION, __version__
 from celllab.errors import ExportError, Problem
-from celllab.export import CAUTION, atomic_write_text
+from celllab.export import CAUTION
+from celllab.export.files import write_files_atomic, write_text_atomic
 from celllab.records import CellResult, CornerResult
 
 __all__ = [
@@ -96,13 +97,15 @@ def leakage_parts(result: CornerResult) -> LeakageParts:
 
     Reads ``gate_leakage_nA`` and ``junction_leakage_nA`` where the catalog has them; a record
     without a gate part counts its ``leakage_nA`` (gate tunnelling) as the gate part, and one
-    without a junction part counts 0 nA of junction leakage.
+    without a junction part, or with an empty one (the deck gives no junction densities; the row
+    carries a flag), counts 0 nA of junction leakage, as the catalog's ``leakage_nA`` does.
     """
     metrics = result.metrics
     gate = metrics.get("gate_leakage_nA", metrics.get("leakage_nA"))
     junction = metrics.get("junction_leakage_nA", 0.0)
     if gate is None:
         raise ValueError("no leakage_nA metric")
+    junction = 0.0 if junction is None or math.isnan(float(junction)) else junction
     return LeakageParts(float(gate), float(junction))
 
 
@@ -386,9 +389,10 @@ def write_liberty(
     deck: Any,
     corner: str,
     date: str | None = None,
+    force: bool = False,
 ) -> Path:
-    """Write :func:`render_liberty` output to ``path`` atomically."""
-    return atomic_write_text(path, render_liberty(cells, deck, corner, date=date))
+    """Write :func:`render_liberty` output to ``path`` atomically (``force``: replace a file)."""
+    return write_text_atomic(path, render_liberty(cells, deck, corner, date=date), force)
 
 
 def write_liberty_set(
@@ -397,15 +401,21 @@ def write_liberty_set(
     deck: Any,
     corners: Sequence[str] | None = None,
     date: str | None = None,
+    force: bool = False,
 ) -> list[Path]:
     """One library per corner (default: every corner of the deck) into ``folder``.
 
-    Every file is rendered before the first is written, so a bad corner or cell leaves the
-    folder as it was. Returns the paths written, in corner order.
+    Every file is rendered and every target checked before the first is written, so a bad
+    corner or cell, or an existing file without ``force``, leaves the folder as it was.
+    Returns the paths written, in corner order.
     """
     chosen = list(corners) if corners is not None else list(deck.corners)
-    texts = {
-        liberty_filename(deck.name, c): render_liberty(cells, deck, c, date=date) for c in chosen
-    }
-    target = Path(folder)
-    return [atomic_write_text(target / name, text) for name, text in texts.items()]
+    texts: dict[str, str] = {}
+    owner: dict[str, str] = {}
+    for c in chosen:
+        name = liberty_filename(deck.name, c)
+        if name in texts:
+            raise ExportError([Problem(str(folder), "corners", f"corners {owner[name]!r} and {c!r} give the "
+                                       f"same library name {name}; write them separately", c)])
+        texts[name], owner[name] = render_liberty(cells, deck, c, date=date), c
+    return write_files_atomic(folder, texts, force=force)

@@ -5,6 +5,7 @@ Render functions are pure and return text; ``write_network_files`` stores them a
 
 =====================================  ===============================================
 ``render_z_csv(figures)``              every region pair's Z(f) at every corner (long form)
+``render_region_z_csv(figures, r)``    the Z(f) region ``r`` sees, a column per corner
 ``render_z_touchstone(figures, c)``    the N-port Z-matrix of corner ``c``, Touchstone v1.1
 ``render_droop_csv(figures)``          droop waveforms of every corner and region
 ``render_network_html(figures)``       ``<section>`` with tables and inline SVG plots
@@ -28,14 +29,16 @@ from matplotlib.figure import Figure
 from matplotlib.ticker import FuncFormatter, NullLocator
 
 from celllab import __version__
-from celllab.export import CAUTION, atomic_write_text
+from celllab.export import CAUTION
 from celllab.export.csv import format_value
+from celllab.export.files import file_stem, write_files_atomic
 from celllab.planner.network_figures import NetworkFigures, RegionFigures
 
 __all__ = [
     "NETWORK_CAUTION",
     "render_droop_csv",
     "render_network_html",
+    "render_region_z_csv",
     "render_z_csv",
     "render_z_touchstone",
     "write_network_files",
@@ -86,6 +89,35 @@ def render_z_csv(figures: NetworkFigures) -> str:
                 for f, zk in zip(figures.freq.tolist(), z.tolist()):
                     values = (obs, drv, corner, f, zk.real, zk.imag, abs(zk), target)
                     lines.append(",".join(format_value(v) for v in values))
+    return "\r\n".join(lines) + "\r\n"
+
+
+def render_region_z_csv(figures: NetworkFigures, region: str) -> str:
+    """The impedance one region sees at its node, Z_rr(f), at every corner: freq_Hz, then per
+    corner ``z_real_ohm_<corner>``, ``z_imag_ohm_<corner>``, ``z_mag_ohm_<corner>``, then
+    ``target_ohm`` (empty for a region without a target). ``#`` header lines naming the
+    region's resonances (each at its worst corner); ``\r\n`` line ends; round-trip numbers.
+    """
+    if region not in figures.region_names:
+        raise ValueError(f"region {region!r} not among {list(figures.region_names)}")
+    k = figures.region_names.index(region)
+    reg = figures.regions[k]
+    lines = _header(figures, "#", f"impedance at the node of region {region} per corner")
+    for t in reg.resonances:
+        lines.append(f"# {t.kind} at {t.frequency:.6g} Hz: |Z| {t.magnitude:.6g} ohm, Q "
+                     f"{t.q:.3g} ({t.corner})")
+    target = reg.target if math.isfinite(reg.target) else None
+    columns = ["freq_Hz"]
+    for corner in figures.corners:
+        columns += [f"z_real_ohm_{corner}", f"z_imag_ohm_{corner}", f"z_mag_ohm_{corner}"]
+    lines.append(",".join(columns + ["target_ohm"]))
+    z = figures.z[:, :, k, k]
+    for i, f in enumerate(figures.freq.tolist()):
+        values: list[object] = [f]
+        for c in range(len(figures.corners)):
+            zk = complex(z[c, i])
+            values += [zk.real, zk.imag, abs(zk)]
+        lines.append(",".join(format_value(v) for v in values + [target]))
     return "\r\n".join(lines) + "\r\n"
 
 
@@ -438,18 +470,17 @@ def render_network_html(figures: NetworkFigures, title: str = "Supply network") 
 
 
 def write_network_files(figures: NetworkFigures, folder: str | os.PathLike[str],
-                        stem: str = "network") -> list[Path]:
+                        stem: str = "network", force: bool = False) -> list[Path]:
     """Write ``<stem>_z.csv``, ``<stem>_<corner>.sNp``, ``<stem>_droop.csv`` (with a droop
-    run) and ``<stem>.html`` into ``folder`` (created), each atomically."""
-    out = Path(folder)
-    out.mkdir(parents=True, exist_ok=True)
+    run) and ``<stem>.html`` into ``folder`` (created): everything rendered and every target
+    checked first, each file atomic, an existing file replaced only with ``force``
+    (``export.files.write_files_atomic``)."""
     n = len(figures.region_names)
-    written = [atomic_write_text(out / f"{stem}_z.csv", render_z_csv(figures))]
+    stem = file_stem(stem)
+    texts = {f"{stem}_z.csv": render_z_csv(figures)}
     for corner in figures.corners:
-        safe = re.sub(r"[^A-Za-z0-9_-]", "_", corner)
-        written.append(atomic_write_text(out / f"{stem}_{safe}.s{n}p",
-                                         render_z_touchstone(figures, corner)))
+        texts[f"{stem}_{file_stem(corner)}.s{n}p"] = render_z_touchstone(figures, corner)
     if figures.droop_run is not None:
-        written.append(atomic_write_text(out / f"{stem}_droop.csv", render_droop_csv(figures)))
-    written.append(atomic_write_text(out / f"{stem}.html", render_network_html(figures)))
-    return written
+        texts[f"{stem}_droop.csv"] = render_droop_csv(figures)
+    texts[f"{stem}.html"] = render_network_html(figures)
+    return write_files_atomic(folder, texts, force=force)

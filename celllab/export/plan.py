@@ -1,16 +1,22 @@
 """Block-plan exports: the fill list for place-and-route scripts (CSV, JSON), the HTML plan
-report, and the block's PDN impedance (CSV, Touchstone v1.1).
+report, and the impedance the regions see (CSV, Touchstone v1.1).
 
-==================  ====================================  ==========================
-file                render                                 content
-==================  ====================================  ==========================
-<block>_fill.csv    ``render_fill_csv(plan)``             one row per region x gap class
-                                                          x cell: name and count
-<block>_fill.json   ``render_fill_json(plan)``            the whole plan (``to_dict``)
-<block>_plan.html   ``render_plan_html(plan)``            the report, for people
-<block>_z.csv       ``render_impedance_csv(plan)``        |Z_block|(f)
-<block>_z.s1p       ``render_impedance_touchstone(plan)`` Z_block(f), one-port
-==================  ====================================  ==========================
+=======================  ====================================  ===========================
+file                     render                                 content
+=======================  ====================================  ===========================
+<block>_fill.csv         ``render_fill_csv(plan)``             one row per region x gap
+                                                               class x cell: name, count
+<block>_fill.json        ``render_fill_json(plan)``            the whole plan (``to_dict``)
+<block>_plan.html        ``render_plan_html(plan)``            the report, for people, with
+                                                               the supply network's section
+with a ``[network]`` table (``celllab.export.network_report``):
+<block>_z_<region>.csv   ``render_region_z_csv``               Z(f) at the region, per corner
+<block>_<corner>.sNp     ``render_z_touchstone``               region Z-matrix, N-port
+<block>_droop.csv        ``render_droop_csv``                  droop waveforms (when run)
+without one (the lumped PDN):
+<block>_z.csv            ``render_impedance_csv(plan)``        |Z_block|(f)
+<block>_z.s1p            ``render_impedance_touchstone(plan)`` Z_block(f), one-port
+=======================  ====================================  ===========================
 
 ``write_plan_files`` renders everything first and then writes each file atomically, so a
 failure leaves no half-written file. Every file carries the caution.
@@ -21,6 +27,7 @@ from __future__ import annotations
 import html
 import json
 import os
+import re
 from pathlib import Path
 from typing import Any
 
@@ -28,7 +35,8 @@ import numpy as np
 from scipy.constants import femto, micro, milli, nano
 
 from celllab import __version__
-from celllab.export import CAUTION, atomic_write_text
+from celllab.export import CAUTION
+from celllab.export.files import write_files_atomic
 from celllab.planner.result import BlockPlan
 
 __all__ = [
@@ -228,7 +236,9 @@ def render_plan_html(plan: BlockPlan) -> str:
               c["lost_restricted_um2"], c["lost_kinds_um2"], c["left_open_um2"],
               "; ".join(c["left_open_because"]) or "–"] for c in r["classes"]]))
     pdn = d["pdn"]
-    if pdn and "f0_MHz" in pdn:
+    if plan.network is not None:
+        parts += _network_parts(plan, d["network"])
+    elif pdn and "f0_MHz" in pdn:
         parts.append("<h2>Lumped PDN of the whole block</h2>")
         parts.append(_table(
             ["die cap [nF]", "target |Z| [mohm]", "f0 [MHz]", "peak |Z| [mohm]",
@@ -242,6 +252,39 @@ def render_plan_html(plan: BlockPlan) -> str:
     return ("<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
             f"<title>Fill plan {_e(plan.block_name)}</title>\n<style>{_CSS}</style>\n"
             f"</head>\n<body>\n{body}\n</body>\n</html>\n")
+
+
+def _network_parts(plan: BlockPlan, net: dict[str, Any]) -> list[str]:
+    """The supply-network section: the network report's fragment (plots, tables, caution),
+    then damping through the fill and the naive fill the emission is compared with."""
+    from celllab.export.network_report import render_network_html
+
+    assert plan.network is not None
+    parts = ["<h2>What the fill does to the supply</h2>",
+             render_network_html(plan.network.figures,
+                                 f"Supply network of block {plan.block_name}")]
+    fd = net["fill_damping"]
+    if fd is not None:
+        parts.append(f"<h3>Damping through the fill (weight {_num(fd['weight'])})</h3>")
+        parts.append('<p class="small">The fill was solved again valuing each cell\'s damping '
+                     "of its region's worst peak (conductance at the peak over 2&pi;f, times "
+                     "the weight, counted like capacitance).</p>")
+        parts.append(_table(
+            ["region", "peak [MHz]", "corner", "|Z| before [mohm]", "|Z| now [mohm]",
+             "fill conductance before [S]", "now [S]"],
+            [[x["name"], x["f_MHz"], x["corner"] or "–", x["peak_before_mohm"],
+              x["peak_after_mohm"], x["conductance_before_S"], x["conductance_after_S"]]
+             for x in fd["regions"]]))
+    if net["naive_fill"]:
+        parts.append("<h3>The naive fill emission is compared with</h3>")
+        parts.append('<p class="small">Every gap filled with the densest cell that fits it, '
+                     "no budgets applied.</p>")
+        parts.append(_table(
+            ["region", "cells", "cap [nF]", "leakage [uA]", "thin-oxide area [um^2]"],
+            [[n["region"], ", ".join(f"{k:,} x {c}" for c, k in n["cells"].items()) or "–",
+              n["cap_nF"], n["leakage_uA"], n["oxide_area_um2"]]
+             for n in net["naive_fill"]]))
+    return parts
 
 
 # --------------------------------------------------------------------------- impedance
@@ -294,17 +337,44 @@ def render_impedance_touchstone(plan: BlockPlan, reference_ohm: float = 1.0) -> 
     return "\n".join(lines) + "\n"
 
 
-def write_plan_files(plan: BlockPlan, folder: str | os.PathLike[str]) -> list[Path]:
-    """Write the fill list (CSV, JSON), the HTML report and, when the block has a PDN, its
-    impedance (CSV, Touchstone) into ``folder`` (created); every file rendered before any is
-    written, each written atomically. Returns the paths written."""
-    out = Path(folder)
+def _safe(text: str) -> str:
+    return re.sub(r"[^A-Za-z0-9_-]", "_", text)
+
+
+def plan_file_names(block_name: str) -> list[str]:
+    """The files ``write_plan_files`` writes for a block of this name whatever its network
+    (the per-region and per-corner network files are checked when they are written)."""
+    return [f"{block_name}_{part}" for part in ("fill.csv", "fill.json", "plan.html")]
+
+
+def write_plan_files(plan: BlockPlan, folder: str | os.PathLike[str], force: bool = False) -> list[Path]:
+    """Write the fill list (CSV, JSON), the HTML report and the impedance the regions see
+    into ``folder`` (created): with a supply network, Z(f) per region (CSV), the region
+    Z-matrix per corner (Touchstone N-port) and the droop waveforms (CSV); without one, the
+    lumped PDN impedance (CSV, Touchstone one-port) when the block has capacitance. Every
+    file rendered and every target checked before any is written, each written atomically
+    (``export.files.write_files_atomic``: an existing file is replaced only with ``force``).
+    Returns the paths written."""
     name = plan.block_name
     texts = {f"{name}_fill.csv": render_fill_csv(plan),
              f"{name}_fill.json": render_fill_json(plan),
              f"{name}_plan.html": render_plan_html(plan)}
-    if plan.pdn is not None and plan.die is not None:
+    if plan.network is not None:
+        from celllab.export.network_report import (
+            render_droop_csv,
+            render_region_z_csv,
+            render_z_touchstone,
+        )
+
+        figures = plan.network.figures
+        for region in figures.region_names:
+            texts[f"{name}_z_{_safe(region)}.csv"] = render_region_z_csv(figures, region)
+        ports = len(figures.region_names)
+        for corner in figures.corners:
+            texts[f"{name}_{_safe(corner)}.s{ports}p"] = render_z_touchstone(figures, corner)
+        if figures.droop_run is not None:
+            texts[f"{name}_droop.csv"] = render_droop_csv(figures)
+    elif plan.pdn is not None and plan.die is not None:
         texts[f"{name}_z.csv"] = render_impedance_csv(plan)
         texts[f"{name}_z.s1p"] = render_impedance_touchstone(plan)
-    out.mkdir(parents=True, exist_ok=True)
-    return [atomic_write_text(out / file, text) for file, text in texts.items()]
+    return write_files_atomic(folder, texts, force=force)

@@ -155,6 +155,7 @@ def export_json_schema() -> dict[str, Any]:
     return schema
 
 
-def write_json_schema(path: str | os.PathLike[str]) -> Path:
-    """Write :func:`export_json_schema` to ``path`` atomically (indented JSON)."""
-    return atomic_write_text(path, json.dumps(export_json_schema(), indent=2) + "\n")
+def write_json_schema(path: str | os.PathLike[str], force: bool = False) -> Path:
+    """Write :func:`export_json_schema` to ``path`` atomically (indented JSON; ``force``:
+    replace a file)."""
+    return atomic_write_text(path, json.dumps(export_json_schema(), indent=2) + "\n", force)

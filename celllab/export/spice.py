@@ -26,8 +26,8 @@ from typing import Any
 import numpy as np
 
 from celllab import MODEL_VERSION, __version__
-from celllab.columns import is_lower_bound, unit_of
-from celllab.display import corner_conditions, format_value
+from celllab.columns import unit_of
+from celllab.display import corner_conditions, format_metric
 from celllab.export import CAUTION, atomic_write_text
 from celllab.physics.netlist import Element, Netlist, ladder_expansion, solve_impedance
 from celllab.records import CellResult, CornerResult
@@ -35,7 +35,10 @@ from celllab.units import to_si
 
 __all__ = [
     "DEFAULT_N_SEGMENTS",
+    "DEFAULT_ACCURACY",
+    "MAX_SEGMENTS",
     "auto_segments",
+    "ladder_deviation",
     "cell_netlist",
     "element_values",
     "metric_model_netlist",
@@ -49,11 +52,19 @@ __all__ = [
 
 #: Ladder segments when a cell has no frequency sweep to size them from.
 DEFAULT_N_SEGMENTS = 16
-#: Largest omega R C / N^2 allowed at the top swept frequency. A midpoint ladder departs from
-#: the exact line by about 1 % near 0.07 (checked against ``rc_line_impedance``); 0.03 keeps
-#: the ladder's own error near 0.2 %.
+#: Relative deviation |Z_ladder / Z_line - 1| of a midpoint ladder per unit of
+#: x = omega R C / N^2 (N segments): at most 0.17 x for x <= 0.2, measured with the nodal
+#: solver on open and both-ends-contacted lines against the exact line impedance
+#: (tests/export/test_spice_accuracy.py repeats the check; ngspice runs of exported ladders there).
+LADDER_ERROR_PER_X = 0.17
+#: Largest omega R C / N^2 allowed at the top swept frequency by default (about 0.5 %).
 LADDER_X_MAX = 0.03
-_MIN_SEGMENTS, _MAX_SEGMENTS = 4, 1000
+#: Deviation of the ladder from the exact line asked by default (relative, at f_max).
+DEFAULT_ACCURACY = LADDER_X_MAX * LADDER_ERROR_PER_X
+#: Most segments per line written unless the caller allows more (each is two SPICE lines);
+#: a circuit needing more is exported coarser and its header says by how much.
+MAX_SEGMENTS = 20_000
+_MIN_SEGMENTS = 4
 #: A circuit "is" a corner's circuit when its Z(f) matches that corner's stored one this well.
 MATCH_TOLERANCE = 1e-6
 
@@ -203,21 +214,51 @@ def cell_netlist(cell: CellResult, corner: str | None = None) -> tuple[Netlist, 
     return netlist, label
 
 
-def auto_segments(netlist: Netlist, freq_max_Hz: float | None) -> int:
-    """Ladder length N so that omega_max R C / N^2 <= LADDER_X_MAX for every RCLINE.
-
-    Returns ``DEFAULT_N_SEGMENTS`` without a frequency; bounded to 4..1000.
-    """
+def _line_x(netlist: Netlist, freq_max_Hz: float) -> float:
+    """Largest omega_max R C over the netlist's RC lines (0 without lines)."""
     products = [
         _scalar(el.value) * _scalar(el.c_total) for el in netlist.elements if el.kind == "RCLINE"
     ]
-    if not products:
+    return 2 * math.pi * freq_max_Hz * max(products, default=0.0)
+
+
+def auto_segments(
+    netlist: Netlist,
+    freq_max_Hz: float | None,
+    accuracy: float | None = None,
+    max_segments: int = MAX_SEGMENTS,
+) -> int:
+    """Ladder length N so that every RC line's ladder deviates at most ``accuracy`` at f_max.
+
+    N is the smallest with LADDER_ERROR_PER_X * omega_max R C / N^2 <= accuracy (default
+    ``DEFAULT_ACCURACY``, i.e. omega_max R C / N^2 <= LADDER_X_MAX), at least 4 and at most
+    ``max_segments`` (then coarser than asked: see ``ladder_deviation``). Without a frequency:
+    ``DEFAULT_N_SEGMENTS``; without RC lines: 4 (unused).
+    """
+    if not any(el.kind == "RCLINE" for el in netlist.elements):
         return _MIN_SEGMENTS
     if not freq_max_Hz or not math.isfinite(freq_max_Hz):
         return DEFAULT_N_SEGMENTS
-    x = 2 * math.pi * freq_max_Hz * max(products)
-    needed = math.ceil(math.sqrt(x / LADDER_X_MAX)) if x > 0 else 1
-    return int(min(_MAX_SEGMENTS, max(_MIN_SEGMENTS, needed)))
+    if accuracy is not None and not accuracy > 0:
+        raise ValueError(f"accuracy = {accuracy} -> must be > 0 (a relative deviation)")
+    x_max = LADDER_X_MAX if accuracy is None else accuracy / LADDER_ERROR_PER_X
+    x = _line_x(netlist, freq_max_Hz)
+    needed = math.ceil(math.sqrt(x / x_max)) if x > 0 else 1
+    return int(min(max(_MIN_SEGMENTS, max_segments), max(_MIN_SEGMENTS, needed)))
+
+
+def ladder_deviation(netlist: Netlist, freq_max_Hz: float | None, n_segments: int) -> float | None:
+    """Estimated largest |Z_ladder / Z_line - 1| of the RC lines at f_max with N segments.
+
+    LADDER_ERROR_PER_X * omega_max R C / N^2 (valid for x <= 0.2; a coarser ladder is
+    reported as at least that). None without RC lines or frequency.
+    """
+    if not freq_max_Hz or not math.isfinite(freq_max_Hz):
+        return None
+    x = _line_x(netlist, freq_max_Hz)
+    if x <= 0:
+        return None
+    return LADDER_ERROR_PER_X * x / n_segments**2
 
 
 def _comment_lines(text: str) -> list[str]:
@@ -226,16 +267,10 @@ def _comment_lines(text: str) -> list[str]:
     return ["* " + indent + line for line in textwrap.wrap(flat, width=96)] or ["*"]
 
 
-def _metric_text(value: float, unit: str) -> str:
-    text = format_value(value, empty="n/a")
-    return text if text == "n/a" else f"{text} {unit}"
-
-
-def _finite(value: Any) -> bool:
-    try:
-        return math.isfinite(float(value))
-    except (TypeError, ValueError):
-        return False
+def _metric_text(metrics: Mapping[str, Any], name: str) -> str:
+    """``name``'s value with its unit; a lower bound reads "≥value" (``display.format_metric``)."""
+    text = format_metric(metrics, name, empty="n/a")
+    return text if text == "n/a" else f"{text} {unit_of(name)}"
 
 
 def _max_freq(cell: CellResult) -> float | None:
@@ -314,6 +349,8 @@ def render_spice_subckt(
     deck_name: str | None = None,
     model_version: str = MODEL_VERSION,
     subckt_name: str | None = None,
+    accuracy: float | None = None,
+    max_segments: int = MAX_SEGMENTS,
 ) -> str:
     """Render the cell's equivalent circuit as a ``.subckt <name> vdd vss`` block.
 
@@ -323,9 +360,13 @@ def render_spice_subckt(
     corner : str, optional   corner whose metrics (and circuit, when stored per corner) are
         shown; default the first corner
     n_segments : int, optional   ladder segments per RCLINE; default from the highest swept
-        frequency f_max: the smallest N with 2 pi f_max R C / N^2 <= 0.03
+        frequency f_max and ``accuracy`` (``auto_segments``)
     deck_name, model_version : str   header comments
     subckt_name : str, optional   override the (sanitized) cell name
+    accuracy : float, optional   largest relative deviation of each ladder from its exact RC
+        line at f_max (default ``DEFAULT_ACCURACY``, about 0.5 %)
+    max_segments : int   ladder length limit; when the accuracy needs more, the header says
+        the export is coarser than asked and by how much
 
     Returns
     -------
@@ -343,10 +384,12 @@ def render_spice_subckt(
     result = (
         cell.corner(corner) if corner is not None else (cell.corners[0] if cell.corners else None)
     )
+    f_max = _max_freq(cell)
     if n_segments is None:
-        n_segments = auto_segments(netlist, _max_freq(cell))
+        n_segments = auto_segments(netlist, f_max, accuracy, max_segments)
     elif n_segments < 1:
         raise ValueError(f"n_segments = {n_segments} -> must be >= 1")
+    ladder_note = _ladder_note(netlist, f_max, n_segments, accuracy)
     name = subckt_name or spice_name(cell.name)
     what = "metric model" if cell.netlist is None else "equivalent circuit"
     header = [
@@ -363,10 +406,7 @@ def render_spice_subckt(
             f"corner {result.corner} ({corner_conditions(result.temperature_C, result.supply_V)}):"
         )
         header += [
-            # a value at the sweep's end is a lower bound, and says so
-            f"  {m} >= {_metric_text(result.metrics[m], unit_of(m))} (lower bound: beyond "
-            f"the analysed band)" if is_lower_bound(result, m) and _finite(result.metrics[m])
-            else f"  {m} = {_metric_text(result.metrics[m], unit_of(m))}"
+            f"  {m} = {_metric_text(result.metrics, m)}"
             for m in _HEADLINE_METRICS
             if m in result.metrics
         ]
@@ -376,6 +416,8 @@ def render_spice_subckt(
                 f"this circuit vs the stored Z(f) of corner {result.corner}: max |dZ/Z| = "
                 f"{100 * deviation:.3g} % (RC lines exact, before ladder expansion)"
             )
+    if ladder_note:
+        header.append(ladder_note)
     header += [
         f"CAUTION: estimate. {CAUTION}",
         "ports: vdd (driven), vss (reference); SI values (ohm, F, H)",
@@ -387,12 +429,34 @@ def render_spice_subckt(
     return "\n".join(lines) + "\n"
 
 
+def _ladder_note(
+    netlist: Netlist, f_max: float | None, n_segments: int, accuracy: float | None
+) -> str | None:
+    """Header line: the ladders' estimated deviation, and whether it is coarser than asked."""
+    deviation = ladder_deviation(netlist, f_max, n_segments)
+    if deviation is None:
+        return None
+    asked = DEFAULT_ACCURACY if accuracy is None else accuracy
+    text = (
+        f"RC lines as {n_segments}-segment ladders: estimated max |dZ/Z| of a ladder vs its "
+        f"line {100 * deviation:.3g} % at {spice_number(f_max or 0.0)} Hz"
+    )
+    if deviation > asked * (1 + 1e-9):
+        text += (
+            f"; COARSER than the {100 * asked:.3g} % asked (segment limit reached: allow more "
+            f"segments or ask for less accuracy)"
+        )
+    return text
+
+
 def render_spice_library(
     cells: Sequence[CellResult],
     deck_name: str | None = None,
     corner: str | None = None,
     n_segments: int | None = None,
     model_version: str = MODEL_VERSION,
+    accuracy: float | None = None,
+    max_segments: int = MAX_SEGMENTS,
 ) -> str:
     """All cells' subcircuits in one file for ``.include`` (no title line, no ``.end``).
 
@@ -414,7 +478,9 @@ def render_spice_library(
     for cell in cells:
         unique = names.get(cell.name, spice_name(cell.name))
         blocks.append(
-            render_spice_subckt(cell, corner, n_segments, deck_name, model_version, unique)
+            render_spice_subckt(
+                cell, corner, n_segments, deck_name, model_version, unique, accuracy, max_segments
+            )
         )
     return "\n".join(blocks)
 
@@ -425,9 +491,19 @@ def write_spice(
     deck_name: str | None = None,
     corner: str | None = None,
     n_segments: int | None = None,
+    accuracy: float | None = None,
+    max_segments: int = MAX_SEGMENTS,
+    force: bool = False,
 ) -> Path:
-    """Write :func:`render_spice_library` output to ``path`` atomically."""
-    return atomic_write_text(path, render_spice_library(cells, deck_name, corner, n_segments))
+    """Write :func:`render_spice_library` output to ``path`` atomically (``force``: replace a
+    file)."""
+    return atomic_write_text(
+        path,
+        render_spice_library(
+            cells, deck_name, corner, n_segments, accuracy=accuracy, max_segments=max_segments
+        ),
+        force,
+    )
 
 
 def element_values(el: Element) -> dict[str, float]:

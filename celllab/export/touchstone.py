@@ -20,6 +20,7 @@ import numpy as np
 from celllab import MODEL_VERSION, __version__
 from celllab.display import corner_conditions
 from celllab.export import CAUTION, atomic_write_text
+from celllab.export.files import file_stem
 from celllab.records import CellResult, CornerResult
 
 __all__ = ["render_touchstone", "touchstone_filename", "write_touchstone"]
@@ -99,9 +100,9 @@ def render_touchstone(
 
 
 def touchstone_filename(cell_name: str, corner: str) -> str:
-    """A file name ``<cell>_<corner>.s1p`` safe on common file systems."""
-    safe = "".join(ch if ch.isalnum() or ch in "-_." else "_" for ch in f"{cell_name}_{corner}")
-    return f"{safe}.s1p"
+    """A file name ``<cell>_<corner>.s1p`` safe on common file systems (distinct cells give
+    distinct stems, ``export.files.file_stem``)."""
+    return f"{file_stem(cell_name)}_{file_stem(corner)}.s1p"
 
 
 def write_touchstone(
@@ -110,6 +111,9 @@ def write_touchstone(
     corner: str | None = None,
     deck_name: str | None = None,
     reference_ohm: float = 1.0,
+    force: bool = False,
 ) -> Path:
-    """Write :func:`render_touchstone` output to ``path`` atomically."""
-    return atomic_write_text(path, render_touchstone(cell, corner, deck_name, reference_ohm))
+    """Write :func:`render_touchstone` output to ``path`` atomically (``force``: replace a file)."""
+    return atomic_write_text(
+        path, render_touchstone(cell, corner, deck_name, reference_ohm), force
+    )

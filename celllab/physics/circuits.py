@@ -133,9 +133,7 @@ def cross_coupled_circuit(
     The PMOS channel runs from its source (top) to its drain y and couples through C_p to its
     gate plate gp, fed from x through R_gate,p; the NMOS channel runs from VSS to its drain x and
     couples through C_n to its gate plate gn, fed from y. Overlap capacitances are split
-    half to source, half to drain. At low frequency this reduces to the two-branch model of
-    `celllab.physics.cross_coupled` (branch n: R_on,p + C_n, branch p: R_on,n + C_p) with the
-    channel's own distributed ESR included exactly.
+    half to source, half to drain. Low-frequency ESR: `cross_coupled.pair_esr_low_frequency_distributed`.
 
     Parameters
     ----------
@@ -161,32 +159,6 @@ def cross_coupled_circuit(
             half = 0.5 * np.asarray(value, dtype=float)
             chain.add(Element("C", f"c_overlap_{label}d", plate, ends[1], half))
             chain.add(Element("C", f"c_overlap_{label}s", plate, ends[0], half))
-    return Netlist(name, tuple(chain.elements))
-
-
-def cross_coupled_two_branch_circuit(
-    c_n: ArrayLike,
-    c_p: ArrayLike,
-    r_branch_n: ArrayLike,
-    r_branch_p: ArrayLike,
-    l_loop: ArrayLike = 0.0,
-    name: str = "cross_coupled_2br",
-) -> Netlist:
-    """The lumped two-branch model of the pair.
-
-    ::
-
-        vdd ──L_loop── top ──R_branch,n── a ──C_n── vss
-                        └────R_branch,p── b ──C_p── vss
-
-    R_branch,n = R_on,p + ESR_n and R_branch,p = R_on,n + ESR_p (`branch_resistances`).
-    """
-    chain = _Chain()
-    top = chain.series("L", "l_loop", "vdd", "top", l_loop)
-    a = chain.series("R", "r_branch_n", top, "a", r_branch_n)
-    chain.add(Element("C", "c_n", a, "vss", _values(c_n)))
-    b = chain.series("R", "r_branch_p", top, "b", r_branch_p)
-    chain.add(Element("C", "c_p", b, "vss", _values(c_p)))
     return Netlist(name, tuple(chain.elements))
 
 

@@ -66,6 +66,31 @@ def bandgap_eV(temperature: ArrayLike) -> FloatArray:
     )
 
 
+BSIM4_EG0_EV: Final[float] = 1.16
+BSIM4_EG_ALPHA_EV_PER_K: Final[float] = 7.02e-4
+BSIM4_EG_BETA_K: Final[float] = 1108.0
+"""BSIM4's own bandgap fit, Eg(T) = 1.16 - 7.02e-4 T^2 / (T + 1108) eV (public BSIM4 source;
+docs/references.md [3]); used where a BSIM4 temperature law is reproduced (junction leakage)."""
+
+
+def bandgap_bsim4_eV(temperature: ArrayLike) -> FloatArray:
+    """Silicon bandgap of BSIM4's temperature laws, eV.
+
+    Parameters
+    ----------
+    temperature : array_like   K, > 0
+
+    Returns
+    -------
+    ndarray   Eg = 1.16 - 7.02e-4 T^2 / (T + 1108), eV (docs/references.md [3]: 1.1156 eV at
+              298.15 K, 1.0861 eV at 398.15 K)
+    """
+    t = np.asarray(temperature, dtype=float)
+    return np.asarray(
+        BSIM4_EG0_EV - BSIM4_EG_ALPHA_EV_PER_K * t * t / (t + BSIM4_EG_BETA_K), dtype=np.float64
+    )
+
+
 def thermal_voltage(temperature: ArrayLike) -> FloatArray:
     """Thermal voltage kT/q.
 

@@ -20,14 +20,18 @@ current flows VDD -> MP channel -> y -> MN gate -> VSS, and MP's flows VDD -> MP
 MN channel -> VSS, so x = V_DS,n(I_g,p) and y = VDD - V_DS,p(I_g,n), solved self-consistently
 because each device's overdrive depends on the other node.
 
-Small-signal model: two branches in parallel between the rails, branch n = R_on,p + ESR_n + C_n
-and branch p = R_on,n + ESR_p + C_p (R_on at V_DS ~ 0, full overdrive). That two-branch picture
-treats the two currents in each channel as if they flowed in separate resistors; in the device
-the PMOS channel carries both C_n's current (source to drain) and C_p's own displacement
-current, in phase at low frequency, so the exact distributed network
-(`celllab.physics.circuits.cross_coupled_circuit`) has the higher low-frequency ESR of
-`pair_esr_low_frequency_distributed` (7/12 (R_on,n + R_on,p) for equal C, against
-(R_on,n + R_on,p)/4 + ... for two branches).
+Small-signal model: each channel is a through RC line from its source to its drain
+(`celllab.physics.circuits.cross_coupled_circuit`): the PMOS channel carries C_n's current from
+source to drain and C_p's own displacement current, in phase at low frequency, giving the
+low-frequency ESR of `pair_esr_low_frequency_distributed` (7/12 (R_on,n + R_on,p) for equal C).
+A lumped "two branches" picture (branch n = R_on,p + ESR_n + C_n in parallel with
+branch p = R_on,n + ESR_p + C_p, (R_on,n + R_on,p)/4 for equal C) treats those two currents as if
+they flowed in separate resistors and reads about 2.3x low; it is not used.
+
+R_on is the channel resistance of the device at its operating point: V_DS ~ 0 and
+V_GS ~ VDD, the terminal voltages of the same device tied as a plain decap, so R_on is that
+device's channel resistance from the same mobile-charge and mobility model
+(`celllab.characterization.mos`), not a square-law overdrive estimate.
 """
 
 from __future__ import annotations
@@ -38,7 +42,9 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
+from celllab.physics import circuits
 from celllab.physics.constants import FloatArray
+from celllab.physics.netlist import Netlist, parallel, solve_impedance
 
 LeakageModel = Callable[[FloatArray], FloatArray]
 """Gate current (A, >= 0) as a function of the gate-to-source/body voltage magnitude (V)."""
@@ -94,7 +100,9 @@ class ResistiveDevice:
 
     Attributes
     ----------
-    v_threshold : |V_T|, V
+    v_threshold : threshold magnitude, V; the overdrive is |V_GS| - v_threshold. With a
+        charge-sheet channel model use the effective threshold |V_GS,op| - Q_mob/C_ox at a
+        reference bias, so the overdrive there is the mobile-charge overdrive Q_mob/C_ox
     resistance : callable V_ov -> R_on, ohm (e.g. L / (W mu_eff Cox V_ov) from a channel model)
     """
 
@@ -228,37 +236,9 @@ def _small_signal_resistance(device: Device, v_ov: FloatArray, current: FloatArr
     return device.on_resistance(v_ov)
 
 
-def branch_resistances(
-    r_on_n: ArrayLike, r_on_p: ArrayLike, esr_n: ArrayLike, esr_p: ArrayLike
-) -> tuple[FloatArray, FloatArray]:
-    """(R_branch,n, R_branch,p) = (R_on,p + ESR_n, R_on,n + ESR_p), ohm.
-
-    Branch n holds the NMOS gate capacitance, reached from VDD through the PMOS channel; branch
-    p holds the PMOS gate capacitance, reached from VSS through the NMOS channel.
-    """
-    return (
-        np.asarray(r_on_p, dtype=float) + np.asarray(esr_n, dtype=float),
-        np.asarray(r_on_n, dtype=float) + np.asarray(esr_p, dtype=float),
-    )
-
-
 def pair_capacitance(c_n: ArrayLike, c_p: ArrayLike) -> FloatArray:
     """Low-frequency capacitance of the pair, C_n + C_p, F."""
     return np.asarray(c_n, dtype=float) + np.asarray(c_p, dtype=float)
-
-
-def pair_esr_low_frequency(
-    r_a: ArrayLike, c_a: ArrayLike, r_b: ArrayLike, c_b: ArrayLike
-) -> FloatArray:
-    """ESR of two series-RC branches in parallel as omega -> 0, ohm.
-
-    Notes
-    -----
-    (R_a C_a^2 + R_b C_b^2) / (C_a + C_b)^2 (expansion of the parallel admittance in omega;
-    (R_a + R_b)/4 for equal C). 520 ohm and 270 ohm with equal C -> 197.5 ohm.
-    """
-    ra, ca, rb, cb = (np.asarray(v, dtype=float) for v in (r_a, c_a, r_b, c_b))
-    return (ra * ca**2 + rb * cb**2) / (ca + cb) ** 2
 
 
 def pair_esr_low_frequency_distributed(
@@ -291,29 +271,49 @@ def pair_esr_low_frequency_distributed(
     )
 
 
-def pair_esr_high_frequency(r_a: ArrayLike, r_b: ArrayLike) -> FloatArray:
-    """ESR of the two branches when omega R C >> 1: R_a || R_b, ohm (520 || 270 -> 177.7)."""
-    ra, rb = np.asarray(r_a, dtype=float), np.asarray(r_b, dtype=float)
-    return ra * rb / (ra + rb)
-
-
-def two_branch_impedance(
-    freq: ArrayLike, r_a: ArrayLike, c_a: ArrayLike, r_b: ArrayLike, c_b: ArrayLike
+def tied_esr_low_frequency(
+    r_channel_n: ArrayLike,
+    r_channel_p: ArrayLike,
+    c_n: ArrayLike,
+    c_p: ArrayLike,
+    r_gate_n: ArrayLike = 0.0,
+    r_gate_p: ArrayLike = 0.0,
 ) -> FloatArray:
-    """Z(f) of two series-RC branches in parallel; shape (..., n_freq), complex ohm."""
-    w = 2.0 * np.pi * np.asarray(freq, dtype=float)
-    za = np.asarray(r_a, dtype=float)[..., None] + 1.0 / (
-        1j * w * np.asarray(c_a, dtype=float)[..., None]
-    )
-    zb = np.asarray(r_b, dtype=float)[..., None] + 1.0 / (
-        1j * w * np.asarray(c_b, dtype=float)[..., None]
-    )
-    return za * zb / (za + zb)
+    """Low-frequency ESR of the same two devices as plain tied decaps in parallel, ohm.
+
+    Notes
+    -----
+    Each device is `circuits.mos_decap_circuit` with the channel contacted at both ends:
+    ESR_i = R_ch,i / 12 + R_g,i (docs/references.md [41]); two such branches in parallel have the
+    C^2-weighted low-frequency ESR (ESR_n C_n^2 + ESR_p C_p^2) / (C_n + C_p)^2 ([44]).
+    Equal C and no gate resistance: (R_ch,n + R_ch,p) / 48.
+    """
+    cn, cp = np.asarray(c_n, dtype=float), np.asarray(c_p, dtype=float)
+    esr_n = np.asarray(r_channel_n, dtype=float) / 12.0 + np.asarray(r_gate_n, dtype=float)
+    esr_p = np.asarray(r_channel_p, dtype=float) / 12.0 + np.asarray(r_gate_p, dtype=float)
+    return np.asarray((esr_n * cn**2 + esr_p * cp**2) / (cn + cp) ** 2, dtype=np.float64)
+
+
+def tied_circuit(
+    c_n: ArrayLike,
+    c_p: ArrayLike,
+    r_channel_n: ArrayLike,
+    r_channel_p: ArrayLike,
+    r_gate_n: ArrayLike = 0.0,
+    r_gate_p: ArrayLike = 0.0,
+) -> Netlist:
+    """The pair's two devices as plain tied decaps in parallel (`circuits.mos_decap_circuit`,
+    channels contacted at both ends, gates straight on their rails)."""
+    parts = [
+        circuits.mos_decap_circuit(c, r, r_g, contacted_ends=2, name=f"tied_{label}")
+        for label, c, r, r_g in (("n", c_n, r_channel_n, r_gate_n), ("p", c_p, r_channel_p, r_gate_p))
+    ]
+    return parallel("tied_pair", parts)
 
 
 @dataclass(frozen=True)
 class TiedComparison:
-    """Pair versus a directly tied MOS decap of the same gate area (arrays over variants).
+    """Pair versus the same two devices tied straight to the rails (arrays over variants).
 
     Attributes
     ----------
@@ -322,7 +322,7 @@ class TiedComparison:
     c_eff_lost_fraction : 1 - C_eff,pair / C_eff,tied at ``freq`` (..., n_freq)
     esr_gain : ESR_pair - ESR_tied at low frequency, ohm
     esr_ratio : ESR_pair / ESR_tied at low frequency
-    corner_ratio : lumped RC corner of the pair over that of the tied cap
+    corner_ratio : lumped RC corner of the pair over that of the tied cells
         (ESR_tied C_tied) / (ESR_pair C_pair)
     """
 
@@ -339,19 +339,21 @@ def compare_to_tied(
     c_p: ArrayLike,
     r_on_n: ArrayLike,
     r_on_p: ArrayLike,
-    esr_n: ArrayLike,
-    esr_p: ArrayLike,
+    r_gate_n: ArrayLike = 0.0,
+    r_gate_p: ArrayLike = 0.0,
     c_n_tied: ArrayLike | None = None,
     c_p_tied: ArrayLike | None = None,
     freq: ArrayLike = (1e6,),
 ) -> TiedComparison:
-    """What the cross-coupling costs against gates tied straight to the rails.
+    """What the cross-coupling costs against the same devices with gates tied to the rails.
 
     Parameters
     ----------
     c_n, c_p : array_like          gate capacitances at the pair's operating point, F
-    r_on_n, r_on_p : array_like    channel resistances at the operating point, ohm
-    esr_n, esr_p : array_like      each device's own decap ESR (channel R/12 + gate R ...), ohm
+    r_on_n, r_on_p : array_like    channel (source-to-drain) resistances, ohm: the tied devices'
+                                   channel resistance at V_GS = VDD (the pair's devices sit at
+                                   V_DS ~ 0, the same terminal voltages, hence the same R)
+    r_gate_n, r_gate_p : array_like  gate plus access resistance of each device, ohm
     c_n_tied, c_p_tied : optional  capacitances with the full rail voltage on the gates, F
                                    (default: the same as c_n, c_p)
     freq : array_like              frequencies for the C_eff comparison, Hz
@@ -362,24 +364,35 @@ def compare_to_tied(
 
     Notes
     -----
-    The tied reference is the same two devices as plain decaps: branches ESR_n + C_n and
-    ESR_p + C_p in parallel; the pair adds the other device's R_on to each branch
-    (`branch_resistances`). Both use the two-branch network (`two_branch_impedance`).
+    Both sides use the networks the engine characterizes: the pair is
+    `circuits.cross_coupled_circuit` (each channel a through RC line that also carries the other
+    device's gate current), the tied reference `tied_circuit`. Low-frequency ESRs are the closed
+    forms `pair_esr_low_frequency_distributed` and `tied_esr_low_frequency` (both equal the
+    solver's low-frequency limit); equal C, no gate resistance: 7/12 against 1/48 of
+    (R_on,n + R_on,p), a ratio of 28.
     """
     cn, cp = np.asarray(c_n, dtype=float), np.asarray(c_p, dtype=float)
     cnt = cn if c_n_tied is None else np.asarray(c_n_tied, dtype=float)
     cpt = cp if c_p_tied is None else np.asarray(c_p_tied, dtype=float)
-    ra, rb = branch_resistances(r_on_n, r_on_p, esr_n, esr_p)
-    en, ep = np.asarray(esr_n, dtype=float), np.asarray(esr_p, dtype=float)
     c_pair, c_tied = pair_capacitance(cn, cp), pair_capacitance(cnt, cpt)
-    esr_pair = pair_esr_low_frequency(ra, cn, rb, cp)
-    esr_tied = pair_esr_low_frequency(en, cnt, ep, cpt)
+    esr_pair = pair_esr_low_frequency_distributed(r_on_n, r_on_p, cn, cp, r_gate_n, r_gate_p)
+    esr_tied = tied_esr_low_frequency(r_on_n, r_on_p, cnt, cpt, r_gate_n, r_gate_p)
     f = np.atleast_1d(np.asarray(freq, dtype=float))
+    shape = np.broadcast_shapes(cn.shape, cp.shape, cnt.shape, cpt.shape, np.shape(r_on_n),
+                                np.shape(r_on_p), np.shape(r_gate_n), np.shape(r_gate_p))
+
+    def flat(a: ArrayLike) -> FloatArray:
+        return np.broadcast_to(np.asarray(a, dtype=float), shape).reshape(-1)
+
+    z_pair = solve_impedance(
+        circuits.cross_coupled_circuit(flat(cn), flat(cp), flat(r_on_n), flat(r_on_p),
+                                       flat(r_gate_n), flat(r_gate_p)), f)
+    z_tied = solve_impedance(
+        tied_circuit(flat(cnt), flat(cpt), flat(r_on_n), flat(r_on_p), flat(r_gate_n),
+                     flat(r_gate_p)), f)
     w = 2.0 * np.pi * f
-    z_pair = two_branch_impedance(f, ra, cn, rb, cp)
-    z_tied = two_branch_impedance(f, en, cnt, ep, cpt)
-    ceff_pair = -1.0 / (w * np.imag(z_pair))
-    ceff_tied = -1.0 / (w * np.imag(z_tied))
+    ceff_pair = (-1.0 / (w * np.imag(z_pair))).reshape(shape + f.shape)
+    ceff_tied = (-1.0 / (w * np.imag(z_tied))).reshape(shape + f.shape)
     return TiedComparison(
         capacitance_lost=c_tied - c_pair,
         capacitance_lost_fraction=(c_tied - c_pair) / c_tied,

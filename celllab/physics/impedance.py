@@ -7,7 +7,13 @@ Definitions (conventions of the trade): C_eff(f) = -1/(omega Im Z),
 ESR(f) = Re Z, Q(f) = -Im Z / Re Z. Crossing points are found by linear interpolation on
 log f between the bracketing samples; a crossing not reached inside the sweep is ``inf``, one
 already passed at the first sample is ``nan``. For tight values use a dense log grid or
-`bandwidth_by_bisection`.
+`bandwidth_by_bisection`; beyond the sweep, `extend_beyond_sweep` searches the circuit itself.
+
+C_eff near resonance: with the cell's series (loop) inductance L in Z, -1/(omega Im Z) =
+C/(1 - omega^2 L C) for a series R-L-C, which rises toward the self-resonance and diverges at
+it. That upturn measures the inductive reactance cancelling the capacitive one, not extra
+charge the cell can deliver; the usable bandwidth is therefore read from C_eff with L removed
+(``series_inductance``), and never beyond the self-resonance, above which the cell is inductive.
 """
 
 from __future__ import annotations
@@ -27,9 +33,18 @@ def _omega(freq: ArrayLike) -> FloatArray:
     return 2.0 * np.pi * np.asarray(freq, dtype=float)
 
 
-def effective_capacitance(freq: ArrayLike, z: ArrayLike) -> FloatArray:
-    """C_eff(f) = -1 / (2 pi f Im Z), F (negative above self-resonance)."""
-    return -1.0 / (_omega(freq) * np.imag(np.asarray(z)))
+def effective_capacitance(freq: ArrayLike, z: ArrayLike, series_inductance: ArrayLike = 0.0) -> FloatArray:
+    """C_eff(f) = -1 / (2 pi f (Im Z - 2 pi f L_series)), F.
+
+    With ``series_inductance`` 0 (default) this is the raw -1/(omega Im Z), negative above
+    self-resonance and rising toward it (module notes); with the cell's loop inductance (H,
+    broadcast over the leading axes) it is the capacitance of the cell's RC network alone.
+    """
+    w = _omega(freq)
+    l_series = np.asarray(series_inductance, dtype=float)
+    if l_series.ndim:
+        l_series = l_series[..., None]
+    return -1.0 / (w * (np.imag(np.asarray(z)) - w * l_series))
 
 
 def esr(z: ArrayLike) -> FloatArray:
@@ -169,22 +184,44 @@ def esr_at(freq: ArrayLike, z: ArrayLike, at_Hz: ArrayLike) -> FloatArray:
     return np.where(inside, out, np.nan)
 
 
+def capped_bandwidth(bandwidth_rc: ArrayLike, srf: ArrayLike) -> FloatArray:
+    """Usable bandwidth: the RC cutoff, but never above the self-resonance, Hz.
+
+    ``min(bandwidth_rc, srf)`` where the SRF is known (finite); ``bandwidth_rc`` otherwise.
+    """
+    bw = np.asarray(bandwidth_rc, dtype=float)
+    f_srf = np.asarray(srf, dtype=float)
+    return np.asarray(np.where(np.isfinite(f_srf), np.fmin(bw, f_srf), bw), dtype=np.float64)
+
+
 def summarize(
     freq: ArrayLike,
     z: ArrayLike,
     esr_freqs_Hz: Sequence[float] = (),
     fraction: float = DEFAULT_FRACTION,
+    series_inductance: ArrayLike = 0.0,
 ) -> dict[str, FloatArray]:
     """All figures of merit of a sweep as arrays over variants.
+
+    Parameters
+    ----------
+    freq, z : sweep (n_freq,), (..., n_freq)
+    esr_freqs_Hz : frequencies at which ESR is read, Hz
+    fraction : C_eff / C_lf that ends the usable band (1/sqrt(2))
+    series_inductance : array_like   the cell's loop inductance, H (..., broadcast), removed
+        from C_eff before the bandwidth is read (module notes)
 
     Returns
     -------
     dict   ``c_lf_F``, ``esr_lf_ohm``, ``esr_at_ohm`` (..., len(esr_freqs_Hz)), ``esr_at_Hz``,
-           ``bandwidth_Hz`` (C_eff = fraction C_lf), ``esl_H``, ``srf_Hz``, ``tau_s``
+           ``bandwidth_rc_Hz`` (C_eff of the RC network = fraction C_lf), ``bandwidth_Hz``
+           (that, capped at the SRF), ``esl_H``, ``srf_Hz``, ``tau_s``
     """
     f = np.asarray(freq, dtype=float)
     zz = np.asarray(z)
     c_lf, esr_lf = low_frequency_values(f, zz)
+    srf = self_resonance(f, zz)
+    bw_rc = usable_bandwidth(f, effective_capacitance(f, zz, series_inductance), c_lf, fraction)
     return {
         "c_lf_F": c_lf,
         "esr_lf_ohm": esr_lf,
@@ -192,10 +229,131 @@ def summarize(
         "esr_at_ohm": (
             esr_at(f, zz, esr_freqs_Hz) if len(esr_freqs_Hz) else np.zeros(c_lf.shape + (0,))
         ),
-        "bandwidth_Hz": usable_bandwidth(f, effective_capacitance(f, zz), c_lf, fraction),
+        "bandwidth_rc_Hz": bw_rc,
+        "bandwidth_Hz": capped_bandwidth(bw_rc, srf),
         "esl_H": esl_estimate(f, zz, c_lf),
-        "srf_Hz": self_resonance(f, zz),
+        "srf_Hz": srf,
         "tau_s": rc_time_constant(c_lf, esr_lf),
+    }
+
+
+def bracketed_crossing(
+    g: Callable[[FloatArray], FloatArray],
+    f_low: ArrayLike,
+    f_high: ArrayLike,
+    iterations: int = 60,
+    rtol: float = 1e-13,
+) -> FloatArray:
+    """Per variant, the frequency where g changes sign between ``f_low`` (g >= 0) and
+    ``f_high`` (g < 0), Hz.
+
+    Parameters
+    ----------
+    g : callable      ``f (n_variant,) -> (n_variant,)``, evaluated at one frequency per variant
+    f_low, f_high : array_like   (n_variant,) brackets, Hz, 0 < f_low < f_high
+    iterations : int  at most this many evaluations of g
+    rtol : float      stop once every bracket is narrower than this, relative in f
+
+    Notes
+    -----
+    Bracketing false position on log f with the Illinois modification (M. Dowell, P. Jarratt,
+    BIT 11:168, 1971): superlinear on smooth crossings, and the bracket always holds the root,
+    so it cannot do worse than keeping the bracket; a final midpoint is returned.
+    """
+    lo = np.log(np.asarray(f_low, dtype=float))
+    hi = np.log(np.asarray(f_high, dtype=float))
+    g_lo = np.asarray(g(np.exp(lo)), dtype=float)
+    g_hi = np.asarray(g(np.exp(hi)), dtype=float)
+    side = np.zeros(lo.shape, dtype=int)  # which end was kept last (+1 low, -1 high)
+    for _ in range(iterations):
+        if np.all(hi - lo <= rtol):
+            break
+        with np.errstate(invalid="ignore", divide="ignore"):
+            x = hi - g_hi * (hi - lo) / (g_hi - g_lo)
+        bad = ~np.isfinite(x) | (x <= lo) | (x >= hi)
+        x = np.where(bad, 0.5 * (lo + hi), x)
+        g_x = np.asarray(g(np.exp(x)), dtype=float)
+        above = g_x >= 0
+        # Illinois: halve the value at the end that stays twice in a row
+        g_hi = np.where(above & (side == 1), 0.5 * g_hi, g_hi)
+        g_lo = np.where(~above & (side == -1), 0.5 * g_lo, g_lo)
+        lo, g_lo = np.where(above, x, lo), np.where(above, g_x, g_lo)
+        hi, g_hi = np.where(above, hi, x), np.where(above, g_hi, g_x)
+        side = np.where(above, 1, -1)
+    return np.asarray(np.exp(0.5 * (lo + hi)), dtype=np.float64)
+
+
+def extend_beyond_sweep(
+    impedance: Callable[[FloatArray], ComplexArray],
+    f_top: float,
+    c_lf: ArrayLike,
+    series_inductance: ArrayLike,
+    need_srf: ArrayLike,
+    need_bandwidth: ArrayLike,
+    search_top: ArrayLike,
+    points_per_decade: int = 10,
+    fraction: float = DEFAULT_FRACTION,
+) -> dict[str, FloatArray]:
+    """Self-resonance and RC cutoff above the sweep, from the circuit itself.
+
+    Parameters
+    ----------
+    impedance : callable   ``freq (n_freq,) or (n_variant, n) -> Z (n_variant, n)``, e.g.
+                           ``lambda f: solve_impedance(netlist, f)``
+    f_top : float          top of the sweep, Hz
+    c_lf : array_like      (n_variant,) low-frequency capacitance, F
+    series_inductance : array_like   (n_variant,) loop inductance removed for the cutoff, H
+    need_srf, need_bandwidth : array_like of bool   (n_variant,) rows to search
+    search_top : array_like   (n_variant,) highest frequency searched per row (where the circuit
+                              still describes the cell), Hz
+    points_per_decade : int   coarse grid of the search, refined in its bracket
+
+    Returns
+    -------
+    dict   ``srf_Hz``, ``bandwidth_rc_Hz`` (n_variant,): the first crossing above f_top, refined
+           in its bracket to full precision; ``inf`` where none lies at or below the row's search
+           top (NaN for rows not searched)
+
+    Notes
+    -----
+    The same conditions as in the sweep: Im Z turning from capacitive to inductive, and C_eff
+    of the RC network falling to ``fraction`` C_lf. Values found here are computed from the
+    equivalent circuit above the band the deck states; the lumped circuit is an extrapolation
+    there, so callers flag them.
+    """
+    c = np.asarray(c_lf, dtype=float)
+    l_series = np.broadcast_to(np.asarray(series_inductance, dtype=float), c.shape)
+    top = np.broadcast_to(np.asarray(search_top, dtype=float), c.shape)
+    decades = max(float(np.log10(np.max(top) / f_top)), 1.0 / points_per_decade)
+    grid = f_top * np.logspace(0.0, decades, int(np.ceil(decades * points_per_decade)) + 1)
+    z = impedance(grid)
+    g_srf = -_omega(grid) * np.imag(z)  # > 0 while capacitive
+    g_bw = effective_capacitance(grid, z, l_series) / c[:, None] - fraction
+
+    def first(g: FloatArray) -> tuple[FloatArray, FloatArray, NDArray[np.bool_]]:
+        below = g < 0
+        found = np.any(below, axis=-1)
+        k = np.clip(np.argmax(below, axis=-1), 1, grid.size - 1)
+        return grid[k - 1], grid[k], found
+
+    def impedance_at(f: FloatArray) -> ComplexArray:
+        return impedance(f[:, None])[:, 0]
+
+    def refine(g_grid: FloatArray, need: ArrayLike, g: Callable[[FloatArray], FloatArray]) -> FloatArray:
+        lo, hi, found = first(g_grid)
+        wanted = np.asarray(need, dtype=bool)
+        search = wanted & found
+        root = np.full(c.shape, np.inf)
+        if np.any(search):  # rows not searched get an empty bracket, so they cost no iterations
+            root = bracketed_crossing(g, np.where(search, lo, hi), hi)
+        found = search & (root <= top)
+        return np.where(wanted, np.where(found, root, np.inf), np.nan)
+
+    return {
+        "srf_Hz": refine(g_srf, need_srf, lambda f: -_omega(f) * np.imag(impedance_at(f))),
+        "bandwidth_rc_Hz": refine(
+            g_bw, need_bandwidth,
+            lambda f: -1.0 / (_omega(f) * (np.imag(impedance_at(f)) - _omega(f) * l_series)) / c - fraction),
     }
 
 

@@ -1,5 +1,7 @@
-"""Gate tunnelling leakage through thin SiO2: direct tunnelling / Fowler-Nordheim (WKB,
-trapezoidal barrier) and deck-referenced scaling (SI: A/m^2, V, m, V/m)."""
+"""Leakage of decap cells: gate tunnelling through thin SiO2 (direct tunnelling / Fowler-Nordheim,
+WKB with a trapezoidal barrier, per carrier; deck-referenced scaling; temperature law) and the
+reverse current of well junctions (BSIM4-style area + perimeter saturation current with its
+temperature law). SI: A, A/m^2, A/m, V, m, V/m, K."""
 
 from __future__ import annotations
 
@@ -7,12 +9,18 @@ import numpy as np
 from numpy.typing import ArrayLike
 from scipy.constants import e, gram, h, m_e, nano, pi
 
-from celllab.physics.constants import FloatArray
+from celllab.physics.constants import FloatArray, bandgap_bsim4_eV, thermal_voltage
 
 PHI_B_ECB_EV: float = 3.1
 """Si/SiO2 conduction-band barrier for electron tunnelling, eV (Lee & Hu 2001; BSIM4 default)."""
 M_OX_ECB: float = 0.40
 """Effective tunnelling mass in SiO2 for ECB, units of m_0 (Lee & Hu 2001; BSIM4)."""
+PHI_B_HVB_EV: float = 4.5
+"""Si/SiO2 valence-band barrier for hole tunnelling (HVB), eV (Lee & Hu 2001; BSIM4 PMOS)."""
+M_OX_HVB: float = 0.32
+"""Effective tunnelling mass in SiO2 for HVB, units of m_0 (Lee & Hu 2001; BSIM4 PMOS)."""
+IGT_DEFAULT: float = 2.5
+"""Gate-current temperature exponent, (T/T_nom)^IGT (BSIM-CMG default; docs/references.md [73])."""
 
 
 def schuegraf_coefficients(
@@ -138,3 +146,97 @@ def scaled_leakage_density(
         * ratio ** np.asarray(voltage_exponent, dtype=float),
         dtype=np.float64,
     )
+
+
+def tunnelling_temperature_factor(temperature: ArrayLike, t_ref: ArrayLike, exponent: ArrayLike = IGT_DEFAULT) -> FloatArray:
+    """Temperature multiplier of a gate tunnelling current, (T / T_ref)^exponent.
+
+    Parameters
+    ----------
+    temperature, t_ref : array_like   device and reference temperature, K, > 0
+    exponent : array_like             unitless (2.5 default)
+
+    Returns
+    -------
+    ndarray   J(T) / J(T_ref) at equal oxide voltage; 298.15 -> 398.15 K at 2.5: 2.0608
+
+    Notes
+    -----
+    The law of the BSIM-CMG gate-current model (igtemp = (T/TNOM)^IGT, IGT = 2.5 by default,
+    multiplying every gate-tunnelling component; docs/references.md [73]). It stands for the
+    thermal spread of the tunnelling carriers; the shift of the surface potential, flat band and
+    threshold with temperature acts on top through the oxide voltage. Fitted near room to
+    hot-chip temperatures (about 230-420 K).
+    """
+    ratio = np.asarray(temperature, dtype=float) / np.asarray(t_ref, dtype=float)
+    return np.asarray(ratio ** np.asarray(exponent, dtype=float), dtype=np.float64)
+
+
+def junction_saturation_scale(
+    temperature: ArrayLike, t_ref: ArrayLike, xti: ArrayLike = 3.0, emission: ArrayLike = 1.0
+) -> FloatArray:
+    """Temperature multiplier of a junction saturation current density, BSIM4 form.
+
+    Parameters
+    ----------
+    temperature, t_ref : array_like   K, > 0
+    xti : array_like                  saturation-current temperature exponent (XTIS, 3 default)
+    emission : array_like             emission coefficient N (NJS, 1 default)
+
+    Returns
+    -------
+    ndarray   J(T)/J(T_ref) = exp{[Eg(T_ref)/v_t(T_ref) - Eg(T)/v_t(T) + XTI ln(T/T_ref)] / N}
+
+    Notes
+    -----
+    BSIM4 junction temperature law (public BSIM4 source; docs/references.md [74]) with BSIM4's
+    bandgap fit (``constants.bandgap_bsim4_eV``). 298.15 -> 398.15 K, XTI 3, N 1: 3.067e5;
+    -> 358.15 K: 4344. N about 2 describes a generation-dominated reverse current (activation
+    near Eg/2).
+    """
+    t = np.asarray(temperature, dtype=float)
+    t0 = np.asarray(t_ref, dtype=float)
+    exponent = (bandgap_bsim4_eV(t0) / thermal_voltage(t0) - bandgap_bsim4_eV(t) / thermal_voltage(t)
+                + np.asarray(xti, dtype=float) * np.log(t / t0)) / np.asarray(emission, dtype=float)
+    return np.asarray(np.exp(exponent), dtype=np.float64)
+
+
+def junction_reverse_current(
+    j_area: ArrayLike,
+    j_perimeter: ArrayLike,
+    area: ArrayLike,
+    perimeter: ArrayLike,
+    v_reverse: ArrayLike,
+    temperature: ArrayLike,
+    t_ref: ArrayLike,
+    xti: ArrayLike = 3.0,
+    emission: ArrayLike = 1.0,
+) -> FloatArray:
+    """Reverse current of a junction with area and perimeter saturation densities, A (>= 0).
+
+    Parameters
+    ----------
+    j_area : array_like        saturation current per area at t_ref, A/m^2
+    j_perimeter : array_like   saturation current per perimeter length at t_ref, A/m
+    area, perimeter : array_like   junction area (m^2) and perimeter (m)
+    v_reverse : array_like     reverse bias, V (>= 0)
+    temperature, t_ref : array_like   K
+    xti, emission : array_like   temperature exponent and emission coefficient
+
+    Returns
+    -------
+    ndarray   I = (J_A A + J_P P) s(T) (1 - exp(-V_R / (N v_t))), A
+
+    Notes
+    -----
+    SPICE/BSIM4 ideal-diode reverse branch (I_s (exp(V/(N v_t)) - 1) at V = -V_R) with the
+    saturation current split into area and perimeter parts (JSS, JSWS) and scaled by
+    ``junction_saturation_scale``. No breakdown, tunnelling or trap-assisted terms: valid for
+    reverse biases well below breakdown. Saturates at I_s for V_R >> N v_t.
+    """
+    t = np.asarray(temperature, dtype=float)
+    i_s = (np.asarray(j_area, dtype=float) * np.asarray(area, dtype=float)
+           + np.asarray(j_perimeter, dtype=float) * np.asarray(perimeter, dtype=float))
+    n = np.asarray(emission, dtype=float)
+    bias = -np.expm1(-np.maximum(np.asarray(v_reverse, dtype=float), 0.0) / (n * thermal_voltage(t)))
+    return np.asarray(i_s * junction_saturation_scale(t, t_ref, xti, n) * bias, dtype=np.float64)

@@ -24,6 +24,13 @@ Sign conventions
 
 The capacitance is quasi-static (low frequency): source/drain or well taps supply the mobile
 carriers, as in a decap. Use ``hf_min_capacitance`` only for an isolated MOS capacitor.
+
+Minority carriers: ``minority_carriers=False`` describes a device whose contacts supply majority
+carriers only (an accumulation capacitor: n+ gate over an n-well with n+ taps). Driven from flat
+band toward inversion its surface cannot invert within any electrical time scale, so it goes into
+deep depletion: the minority term of F is dropped and the depletion region keeps widening past
+W_max (Nicollian & Brews 1982; Sze & Ng 2007 ch. 4; docs/references.md [25]). Thermal generation
+refills an inversion layer only over ms to s; that slow equilibrium is not modelled.
 """
 
 from __future__ import annotations
@@ -131,6 +138,64 @@ def max_depletion_width(
     two_phi_f = 2.0 * fermi_potential(body_doping, temperature, n_i=n_i)
     return np.asarray(
         np.sqrt(2.0 * eps_s * two_phi_f / (e * np.asarray(body_doping, dtype=float))),
+        dtype=np.float64,
+    )
+
+
+def depletion_capacitance_per_area(
+    body_doping: ArrayLike,
+    temperature: ArrayLike,
+    *,
+    n_i: ArrayLike | None = None,
+    eps_r_si: ArrayLike = EPS_R_SI,
+) -> FloatArray:
+    """Channel-to-body depletion capacitance at the onset of strong inversion, F/m^2.
+
+    Notes
+    -----
+    C_dep = eps_si / W_max (depletion approximation, Sze & Ng 2007 §4.2; W_max from
+    `max_depletion_width`). N_A = 1e17 cm^-3, n_i = 1e10 cm^-3 -> 9.98e-4 F/m^2. The smallest
+    body capacitance of a depleted channel; valid while the body is not accumulated.
+    """
+    eps_s = epsilon_0 * np.asarray(eps_r_si, dtype=float)
+    return np.asarray(
+        eps_s / max_depletion_width(body_doping, temperature, n_i=n_i, eps_r_si=eps_r_si),
+        dtype=np.float64,
+    )
+
+
+def junction_capacitance_per_area(
+    light_doping: ArrayLike,
+    temperature: ArrayLike,
+    heavy_doping: ArrayLike = 1e26,
+    v_reverse: ArrayLike = 0.0,
+    *,
+    n_i: ArrayLike | None = None,
+    eps_r_si: ArrayLike = EPS_R_SI,
+) -> FloatArray:
+    """Depletion capacitance of a one-sided abrupt p-n junction (diffusion in a well), F/m^2.
+
+    Parameters
+    ----------
+    light_doping : array_like   well doping, m^-3
+    temperature : array_like    K
+    heavy_doping : array_like   source/drain diffusion doping, m^-3 (default 1e20 cm^-3)
+    v_reverse : array_like      reverse bias, V (> -V_bi)
+
+    Notes
+    -----
+    C_j = sqrt(q eps_si N / (2 (V_bi + V_R - 2 kT/q))), V_bi = (kT/q) ln(N N_heavy / n_i^2)
+    (one-sided abrupt junction, Sze & Ng 2007 §2.3, eqs. 2.10-2.26 with the majority-carrier
+    correction 2 kT/q). N = 1e17, N_heavy = 1e20 cm^-3, n_i = 1e10 cm^-3, 300 K: V_bi = 1.012 V,
+    9.30e-4 F/m^2 at 0 V. Valid in the depletion approximation, below forward bias.
+    """
+    vt = thermal_voltage(temperature)
+    ni = _n_i(temperature, n_i)
+    light = np.asarray(light_doping, dtype=float)
+    v_bi = vt * np.log(light * np.asarray(heavy_doping, dtype=float) / (ni * ni))
+    eps_s = epsilon_0 * np.asarray(eps_r_si, dtype=float)
+    return np.asarray(
+        np.sqrt(e * eps_s * light / (2.0 * (v_bi + np.asarray(v_reverse, dtype=float) - 2.0 * vt))),
         dtype=np.float64,
     )
 
@@ -372,12 +437,14 @@ def _frame(
     n_i: ArrayLike | None,
     eps_r_si: ArrayLike,
     eps_r_gate: ArrayLike,
+    minority_carriers: bool | ArrayLike = True,
 ) -> tuple[FloatArray, _Frame]:
     sign = _body_sign(body_type)
     vt = thermal_voltage(temperature)
     n = np.asarray(body_doping, dtype=float)
     eps_s = epsilon_0 * np.asarray(eps_r_si, dtype=float)
-    ratio = (_n_i(temperature, n_i) / n) ** 2
+    # no minority-carrier supply (deep depletion): the minority term of F is absent
+    ratio = (_n_i(temperature, n_i) / n) ** 2 * np.where(np.asarray(minority_carriers, dtype=bool), 1.0, 0.0)
     c_ox = np.asarray(cox, dtype=float)
     if gate_doping is None:
         n_gate = np.asarray(np.inf)
@@ -475,6 +542,7 @@ def mos_operating_point(
     n_i: ArrayLike | None = None,
     eps_r_si: ArrayLike = EPS_R_SI,
     eps_r_gate: ArrayLike = EPS_R_POLY,
+    minority_carriers: bool | ArrayLike = True,
 ) -> MosOperatingPoint:
     """Solve the MOS gate equation and return surface potential, charges and capacitance.
 
@@ -492,6 +560,10 @@ def mos_operating_point(
     centroid : bool            apply the charge-centroid correction (default True)
     n_i : array_like, optional intrinsic density override, m^-3
     eps_r_si, eps_r_gate : relative permittivities of body and poly (11.7)
+    minority_carriers : bool or array_like of bool
+        True (default): contacts supply minority carriers, the quasi-static curve inverts.
+        False: majority-carrier contacts only; beyond flat band toward inversion the surface
+        goes into deep depletion (no inversion branch; see module notes)
 
     Returns
     -------
@@ -525,6 +597,7 @@ def mos_operating_point(
         n_i=n_i,
         eps_r_si=eps_r_si,
         eps_r_gate=eps_r_gate,
+        minority_carriers=minority_carriers,
     )
     v_target = sign * (np.asarray(vg, dtype=float) - np.asarray(vfb, dtype=float))
     shape = np.broadcast_shapes(np.shape(v_target), *(np.shape(a) for a in fr[:-2]))
@@ -558,6 +631,7 @@ class MosInputs(TypedDict, total=False):
     n_i: ArrayLike | None
     eps_r_si: ArrayLike
     eps_r_gate: ArrayLike
+    minority_carriers: bool | ArrayLike
 
 
 def solve_surface_potential(vg: ArrayLike, **inputs: Unpack[MosInputs]) -> FloatArray:

@@ -131,6 +131,68 @@ def temperature_acceleration(
     return np.asarray(np.exp(np.asarray(ea_eV, dtype=float) / _K_EV * inv), dtype=np.float64)
 
 
+def use_characteristic_life(
+    area: ArrayLike,
+    voltage: ArrayLike,
+    temperature: ArrayLike,
+    *,
+    eta_ref_s: ArrayLike,
+    area_ref: ArrayLike,
+    v_ref: ArrayLike,
+    t_ref_K: ArrayLike,
+    beta: ArrayLike,
+    model: VoltageModel,
+    exponent: ArrayLike,
+    ea_eV: ArrayLike,
+    t_ox: ArrayLike | None = None,
+) -> FloatArray:
+    """Weibull characteristic life (63 % point) of an oxide area at use conditions, s.
+
+    Parameters
+    ----------
+    area : array_like          stressed oxide area, m^2 (> 0)
+    voltage, temperature       use conditions, V and K
+    eta_ref_s, area_ref, v_ref, t_ref_K
+                               characteristic life measured on area_ref (m^2) at v_ref, t_ref
+    beta                       Weibull slope
+    model, exponent, t_ox      voltage acceleration (`voltage_acceleration`)
+    ea_eV                      activation energy, eV
+
+    Notes
+    -----
+    eta_use = eta_ref (A_ref/A)^(1/beta) AF_V AF_T (JESD92 / JEP122 extrapolation chain:
+    weakest-link area scaling, voltage law, Arrhenius). Valid within the voltage and
+    temperature range where the chosen acceleration law was fitted.
+    """
+    eta = area_scaled_eta(eta_ref_s, area_ref, area, beta)
+    eta = eta * voltage_acceleration(v_ref, voltage, model=model, exponent=exponent, t_ox=t_ox)
+    return np.asarray(eta * temperature_acceleration(t_ref_K, temperature, ea_eV), dtype=np.float64)
+
+
+def fraction_from_hazard(hazard: ArrayLike) -> FloatArray:
+    """Failure fraction F = 1 - exp(-H) of a total cumulative hazard H (unitless)."""
+    return np.asarray(-np.expm1(-np.asarray(hazard, dtype=float)), dtype=np.float64)
+
+
+def area_for_fraction(fraction: ArrayLike, hazard_per_area: ArrayLike) -> FloatArray:
+    """Oxide area that reaches failure fraction F at a hazard per area h: -ln(1 - F) / h, m^2."""
+    with np.errstate(divide="ignore"):
+        return np.asarray(
+            -np.log1p(-np.asarray(fraction, dtype=float)) / np.asarray(hazard_per_area, dtype=float),
+            dtype=np.float64,
+        )
+
+
+def average_fit(fraction: ArrayLike, mission_time_s: ArrayLike) -> FloatArray:
+    """Average failure rate over a mission, FIT: F / t[h] * 1e9.
+
+    FIT = failures per 1e9 device-hours (JEDEC JESD85): the fraction F of devices failing over t
+    hours gives F / t failures per device-hour on average.
+    """
+    hours = np.asarray(mission_time_s, dtype=float) / hour
+    return np.asarray(np.asarray(fraction, dtype=float) / hours * 1e9, dtype=np.float64)
+
+
 def time_to_failure(
     fraction: ArrayLike,
     area: ArrayLike,
@@ -165,9 +227,9 @@ def time_to_failure(
     eta_use = eta_ref (A_ref/A)^(1/beta) AF_V AF_T, t_F = eta_use (-ln(1-F))^(1/beta)
     (JESD92 / JEP122 extrapolation chain).
     """
-    eta = area_scaled_eta(eta_ref_s, area_ref, area, beta)
-    eta = eta * voltage_acceleration(v_ref, voltage, model=model, exponent=exponent, t_ox=t_ox)
-    eta = eta * temperature_acceleration(t_ref_K, temperature, ea_eV)
+    eta = use_characteristic_life(
+        area, voltage, temperature, eta_ref_s=eta_ref_s, area_ref=area_ref, v_ref=v_ref,
+        t_ref_K=t_ref_K, beta=beta, model=model, exponent=exponent, ea_eV=ea_eV, t_ox=t_ox)
     return weibull_percentile(fraction, eta, beta)
 
 

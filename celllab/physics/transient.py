@@ -18,10 +18,10 @@ order and L-stable, so stiff parts (ps channel RC under a ns step) are damped in
 ringing as under plain trapezoidal integration; rows without capacitance or inductance
 (algebraic constraints) are enforced at every stage end. Both stages share the matrix
 ``M = G + C / (kappa h)``, kappa = gamma / 2, whose inverse is formed once per distinct step
-for all variants (batched). Nonlinear elements enter by Newton iteration at every stage; their
-Jacobian is a low-rank update of M (each element is one current path), applied through the
-Sherman-Morrison-Woodbury identity with the cached inverse, with a dense batched solve as a
-fallback. A step whose Newton iteration does not converge is split in halves (up to 8 levels).
+for all variants (batched). Nonlinear elements enter by chord (modified Newton) iteration at
+every stage: the inverse of M plus their Jacobian is kept across iterations, stages and steps
+and formed again (batched) when an iteration contracts too slowly. A step whose iteration does
+not converge is split in halves (up to 8 levels).
 
 RCLINE elements become N-segment midpoint ladders (`ladder_expansion`). Unless given, N is
 the smallest number with omega R C / N^2 <= 0.03 at omega = 1 / (10 h_min) for every line and
@@ -66,9 +66,8 @@ BRANCH_OHM = 1e-3
 GMIN_S = 1e-12
 """Conductance from every node to ground (keeps capacitively floating nodes defined)."""
 _MAX_NEWTON = 40
-_WOODBURY_ITERATIONS = 10
 _MAX_SPLIT_DEPTH = 8
-_ATOL, _RTOL = 1e-9, 1e-7
+_ATOL, _RTOL = 1e-8, 1e-6
 
 Polarity = Literal["n", "p"]
 
@@ -576,7 +575,17 @@ class _System:
         U[minus, np.arange(self.m)] -= 1.0
         self.U = U[:n]
         self.plus, self.minus = plus, minus
-        self._cache: dict[float | None, tuple[FloatArray, FloatArray, FloatArray]] = {}
+        # every branch's controls padded to three with -1 (the ground column of x_ext)
+        self.controls = np.full((self.m, 3), -1)
+        self._slices: list[tuple[slice, int]] = []
+        start = 0
+        for fam in self.families:
+            size, k = fam.plus.size, fam.controls.shape[1]
+            self.controls[start : start + size, :k] = fam.controls
+            self._slices.append((slice(start, start + size), k))
+            start += size
+        self._cache: dict[float | None, tuple[FloatArray, FloatArray | None]] = {}
+        self._chord: dict[float | None, FloatArray] = {}
 
     def _families(self, nonlinear: Sequence[SquareLawChannel | RailClamp | NonlinearConductance],
                   clamps: Sequence[RailClamp]) -> list[_Family]:
@@ -629,24 +638,18 @@ class _System:
 
     def evaluate(self, x: FloatArray) -> tuple[FloatArray, FloatArray, NDArray[np.int_]]:
         """Branch currents (n_var, m), gradients (n_var, m, 3) and control indices (m, 3)."""
-        x_ext = np.concatenate([x, np.zeros((x.shape[0], 1))], axis=1)
-        currents, grads, controls = [], [], []
-        for fam in self.families:
-            v = x_ext[:, fam.controls]
-            i, g = fam.law(v)
-            k = fam.controls.shape[1]
-            currents.append(np.broadcast_to(i, (x.shape[0], fam.plus.size)))
-            pad = np.zeros((x.shape[0], fam.plus.size, 3))
-            pad[..., :k] = g
-            grads.append(pad)
-            ctrl = np.full((fam.plus.size, 3), -1)
-            ctrl[:, :k] = fam.controls
-            controls.append(ctrl)
-        if not currents:
-            return (np.zeros((x.shape[0], 0)), np.zeros((x.shape[0], 0, 3)),
-                    np.zeros((0, 3), dtype=int))
-        return (np.concatenate(currents, axis=1), np.concatenate(grads, axis=1),
-                np.concatenate(controls, axis=0))
+        n_var = x.shape[0]
+        x_ext = np.empty((n_var, self.n + 1))
+        x_ext[:, : self.n] = x
+        x_ext[:, self.n] = 0.0
+        v = x_ext[:, self.controls]
+        currents = np.empty((n_var, self.m))
+        grads = np.zeros((n_var, self.m, 3))
+        for fam, (sl, k) in zip(self.families, self._slices):
+            i, g = fam.law(v[:, sl, :k])
+            currents[:, sl] = i
+            grads[:, sl, :k] = g
+        return currents, grads, self.controls
 
     def nonlinear_rows(self, currents: FloatArray) -> FloatArray:
         """f(x): the nonlinear currents scattered onto their rows, (n_var, n)."""
@@ -664,56 +667,79 @@ class _System:
 
     # -- linear algebra ------------------------------------------------------------------------
 
-    def matrices(self, h: float | None) -> tuple[FloatArray, FloatArray, FloatArray]:
-        """(M, M^-1, M^-1 U) for a step h (None: DC)."""
+    def matrices(self, h: float | None) -> tuple[FloatArray, FloatArray | None]:
+        """(M, M^-1) for a step h (None: DC); the inverse only for linear circuits."""
         key = None if h is None else float(h)
         if key not in self._cache:
             M = self.G.copy() if h is None else self.G + self.C / (KAPPA * h)
-            Minv = np.linalg.inv(M)
-            self._cache[key] = (M, Minv, Minv @ self.U)
+            self._cache[key] = (M, None if self.m else np.linalg.inv(M))
         return self._cache[key]
+
+    def jacobian_inverse(self, h: float | None, grads: FloatArray) -> FloatArray:
+        """(M + d f / d x)^-1 at the given branch gradients, cached as the chord matrix."""
+        M = self.matrices(h)[0]
+        n_var = grads.shape[0]
+        J = np.zeros((n_var, self.n + 1, self.n + 1))
+        J[:, : self.n, : self.n] = M
+        ctrl = self.controls.reshape(-1)
+        for rows, sign in ((self.plus, 1.0), (self.minus, -1.0)):
+            np.add.at(J, (slice(None), np.repeat(rows, 3), ctrl), sign * grads.reshape(n_var, -1))
+        inverse = np.linalg.inv(J[:, : self.n, : self.n])
+        self._chord[None if h is None else float(h)] = inverse
+        return inverse
 
     def newton(self, h: float | None, rhs: FloatArray, x0: FloatArray,
                limit_V: float | None = None, max_iter: int = _MAX_NEWTON
                ) -> tuple[FloatArray, NDArray[np.bool_], int]:
-        """Solve M x + f(x) = rhs from x0; returns (x, converged per variant, iterations)."""
-        M, Minv, MinvU = self.matrices(h)
+        """Solve M x + f(x) = rhs from x0; returns (x, converged per variant, iterations).
+
+        Linear circuits: one solve and one refinement with the cached inverse of M. Nonlinear:
+        chord (modified Newton) iteration with a Jacobian inverse kept across iterations, stages
+        and steps of the same h, formed again whenever an iteration contracts by less than half
+        (common practice in stiff integrators, e.g. Hairer & Wanner, Solving ODEs II, IV.8).
+        """
+        M, Minv = self.matrices(h)
         x = x0.copy()
         n_var = x.shape[0]
         done = np.zeros(n_var, dtype=bool)
-        eye = np.eye(self.m)
+        key = None if h is None else float(h)
+        chord = self._chord.get(key) if self.m else Minv
+        previous = np.full(n_var, np.inf)
+        fresh = False
         it = 0
         for it in range(1, max_iter + 1):
-            currents, grads, controls = self.evaluate(x)
-            resid = np.einsum("vij,vj->vi", M, x) - rhs + self.nonlinear_rows(currents)
-            if self.m == 0:
-                dx = np.einsum("vij,vj->vi", Minv, resid)
-            elif it <= _WOODBURY_ITERATIONS:
-                y = np.einsum("vij,vj->vi", Minv, resid)
-                y_ext = np.concatenate([y, np.zeros((n_var, 1))], axis=1)
-                wy = np.sum(grads * y_ext[:, controls], axis=2)
-                mu_ext = np.concatenate([MinvU, np.zeros((n_var, 1, self.m))], axis=1)
-                S = eye + np.einsum("vjk,vjkl->vjl", grads, mu_ext[:, controls, :])
-                z = np.linalg.solve(S, wy[..., None])[..., 0]
-                dx = y - np.einsum("vil,vl->vi", MinvU, z)
-            else:
-                W = np.zeros((n_var, self.m, self.n + 1))
-                rows = np.repeat(np.arange(self.m), 3)
-                np.add.at(W, (slice(None), rows, controls.reshape(-1)),
-                          grads.reshape(n_var, -1))
-                J = M + self.U @ W[..., : self.n]
-                dx = np.linalg.solve(J, resid[..., None])[..., 0]
+            with np.errstate(over="ignore", invalid="ignore"):
+                currents, grads, _ = self.evaluate(x)
+                resid = np.einsum("vij,vj->vi", M, x) - rhs + self.nonlinear_rows(currents)
+            if chord is None:
+                chord = self.jacobian_inverse(h, np.nan_to_num(grads))
+                fresh = True
+            dx = np.einsum("vij,vj->vi", chord, resid)
             if limit_V is not None:
                 worst = np.max(np.abs(dx[:, : self.n_nodes]), axis=1, initial=0.0)
                 dx *= np.minimum(1.0, limit_V / np.maximum(worst, 1e-300))[:, None]
-            x = x - dx
-            small = np.all(np.abs(dx) <= _ATOL + _RTOL * np.abs(x), axis=1)
-            if self.m == 0 and it >= 2:
-                done[:] = True
-                break
-            done = small & np.all(np.isfinite(x), axis=1)
+            if self.m == 0:
+                x = x - dx
+                if it >= 2:
+                    done[:] = True
+                    break
+                continue
+            with np.errstate(over="ignore", invalid="ignore"):
+                scaled = np.max(np.abs(dx) / (_ATOL + _RTOL * np.abs(x)), axis=1)
+            scaled = np.where(np.isfinite(scaled), scaled, np.inf)
+            growing = (scaled > previous) & ~done
+            if np.any(growing) and not fresh:
+                # a stale chord diverges: keep x, form the Jacobian here and try again
+                chord = None
+                continue
+            x = x - np.where(np.isfinite(dx), dx, 0.0)
+            done = (scaled <= 1.0) & np.all(np.isfinite(x), axis=1)
             if np.all(done):
                 break
+            if np.any((scaled > 0.5 * previous) & ~done):
+                chord = None  # slow contraction: the Jacobian moved, form it again
+            previous = scaled
+            fresh = False
         return x, done, it
 
     # -- sources -------------------------------------------------------------------------------
@@ -893,16 +919,34 @@ def operating_point(
     -----
     Newton iteration with node-voltage updates limited to 1 V per iteration (common practice
     in SPICE-like solvers, no source); nodes reached only through capacitors settle at 0 V
-    through gmin.
+    through gmin. `operating_point_status` returns the values with a per-variant
+    convergence flag instead of raising.
     """
+    values, ok = operating_point_status(netlist, sources, nonlinear, t=t, nodeset=nodeset,
+                                        ground=ground, n_segments=n_segments, gmin=gmin)
+    if not np.all(ok):
+        bad = np.flatnonzero(~ok)[:10].tolist()
+        raise RuntimeError(f"operating point did not converge for variants {bad}")
+    return values
+
+
+def operating_point_status(
+    netlist: Netlist,
+    sources: Sequence[Source] = (),
+    nonlinear: Sequence[Nonlinear] = (),
+    *,
+    t: float = 0.0,
+    nodeset: Mapping[str, ArrayLike] | None = None,
+    ground: str | None = None,
+    n_segments: int = 4,
+    gmin: float = GMIN_S,
+) -> tuple[dict[str, FloatArray], NDArray[np.bool_]]:
+    """`operating_point` values and a (n_variant,) bool: Newton converged for that variant."""
     system, _, _ = _prepare(netlist, sources, nonlinear, ground, n_segments, 1.0, gmin)
     rhs = system.rhs(system.source_values(np.array([float(t)]))[..., 0])
     x0 = _initial_vector(system, nodeset)
     x, ok, _ = system.newton(None, rhs, x0, limit_V=1.0, max_iter=200)
-    if not np.all(ok):
-        bad = np.flatnonzero(~ok)[:10].tolist()
-        raise RuntimeError(f"operating point did not converge for variants {bad}")
-    return {label: x[:, k] for k, label in enumerate(system.labels)}
+    return {label: x[:, k] for k, label in enumerate(system.labels)}, ok
 
 
 def simulate(
@@ -1079,6 +1123,7 @@ __all__ = [
     "constant",
     "expand",
     "operating_point",
+    "operating_point_status",
     "piecewise_grid",
     "pwl",
     "simulate",

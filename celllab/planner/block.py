@@ -43,10 +43,12 @@ A block file is TOML (every number's unit is in its name)::
     quiet = false                   # true: no switching current of its own
     weight = 1.0                    # share of the objective
     # switching activity, one of: charge_per_cycle_pC | peak_current_mA + rise_time_ps
-    # (+ fall_time_ps) | switching_power_mW + clock_MHz (a clock alone: frequency only)
+    # (+ fall_time_ps, + charge_per_cycle_pC for a flat-topped pulse) | switching_power_mW +
+    # clock_MHz (a clock alone: frequency only; with a pulse: one pulse per clock period)
     peak_current_mA = 80
     rise_time_ps = 150
     fall_time_ps = 250
+    clock_MHz = 400
     logic_activity = 0.2            # optional: non-switching logic adds intrinsic decap
     droop_fraction = 0.05           # optional: default the block's ripple_fraction
     min_cap_nF = 0.5                # optional targets (the largest applies)
@@ -65,8 +67,12 @@ A block file is TOML (every number's unit is in its name)::
     width_sites = [4, 6, 8, 12, 16]
     count       = [900, 400, 350, 120, 60]
 
-    [network]                       # the block's supply-network description: kept as given
-                                    # for the network model, not checked here
+    [network]                       # optional: the supply network behind the regions
+    ir_drop_limit_mV = 15           # (planner.network_spec: board, off-chip decap, a path
+    board_inductance_nH = 1.5       # per region, links, analysis grid, damping options;
+    [network.regions.mac_array]     # the package, supply, ripple and each region's current
+    grid_resistance_mohm = 4        # come from the tables above)
+    grid_inductance_pH = 15
 
 ``load_block`` reports every problem at once as a ``PlanError`` naming file, line, field,
 the value given and what is allowed. Values stay in the units typed; the planner converts.
@@ -84,6 +90,8 @@ from pydantic import BaseModel, ConfigDict, Field, PrivateAttr, ValidationError
 
 from celllab.deck.load import find_line, read_toml, validation_problems
 from celllab.errors import PlanError, Problem
+from celllab.planner.network_spec import NetworkSpec
+from celllab.planner.network_spec import rule_problems as network_rules
 
 __all__ = [
     "ACTIVITY_FIELDS",
@@ -178,6 +186,11 @@ class Budgets(_Strict):
                                               description="thin-oxide gate area of the fill, "
                                               "mm^2; omitted: no limit")
     wearout: Wearout | None = None
+    esd_survive: bool = Field(False, description="leave out cells whose stored HBM or CDM margin "
+                              "(hbm_margin_V, cdm_margin_V at the planning corner) is negative: the "
+                              "deck's [esd] zap breaks their oxide; cells without ESD figures stay in")
+    broken_oxide_ok: bool = Field(False, description="leave out cells whose broken oxide draws more "
+                                  "than the rail's fault current limit (broken_oxide_ok = 0)")
 
 
 class Objective(_Strict):
@@ -250,17 +263,25 @@ class Region(_Strict):
 
     def activity_form(self) -> str | None:
         """Which of ``ACTIVITY_FIELDS`` the region uses (None: no activity given; a clock
-        alone only sets the frequency of interest)."""
-        given = [form for form, names in ACTIVITY_FIELDS.items()
-                 if any(getattr(self, n) is not None for n in names if n != "clock_MHz")]
+        alone only sets the frequency of interest; a pulse with a charge per cycle is a
+        flat-topped pulse)."""
+        given = _forms(self)
+        if set(given) == {"charge", "pulse"}:
+            return "pulse"
         return given[0] if len(given) == 1 else None
+
+
+def _forms(r: Region) -> list[str]:
+    """The activity forms a region gives fields of (a clock alone is none of them)."""
+    return [form for form, names in ACTIVITY_FIELDS.items()
+            if any(getattr(r, n) is not None for n in names if n != "clock_MHz")]
 
 
 class BlockFile(_Strict):
     """A whole block file. ``source_file``/``line_of`` locate later (catalog-side) problems.
 
-    ``network`` is the block's supply-network description, kept as given (any TOML table) for
-    the network model; the fill planner does not read or check it.
+    ``network`` is the supply network behind the regions (``planner.network_spec``); None:
+    no network analysis.
     """
 
     block: BlockParams
@@ -269,7 +290,7 @@ class BlockFile(_Strict):
     budgets: Budgets = Field(default_factory=lambda: Budgets.model_validate({}))
     objective: Objective = Field(default_factory=lambda: Objective.model_validate({}))
     region: list[Region] = Field(min_length=1, max_length=200)
-    network: dict[str, Any] | None = None
+    network: NetworkSpec | None = None
 
     _file: str = PrivateAttr(default="<block>")
     _text: str | None = PrivateAttr(default=None)
@@ -343,9 +364,11 @@ def _region_rules(i: int, r: Region) -> list[tuple[str, Any, str]]:
     if not r.open_slots and not r.row_gaps:
         out.append((at, r.name, "a region needs at least one [[region.open_slots]] or "
                     "[[region.row_gaps]] table"))
-    # a clock alone only sets the frequency of interest; the power form starts with the power
-    forms = [form for form, names in ACTIVITY_FIELDS.items()
-             if any(getattr(r, n) is not None for n in names if n != "clock_MHz")]
+    # a clock alone only sets the frequency of interest; the power form starts with the power;
+    # a charge per cycle with a pulse sets the pulse's flat top
+    forms = _forms(r)
+    if set(forms) == {"charge", "pulse"}:
+        forms = ["pulse"]
     if r.quiet and forms:
         given = next(n for n in ACTIVITY_FIELDS[forms[0]] if getattr(r, n) is not None)
         out.append((f"{at}.{given}", getattr(r, given),
@@ -363,6 +386,8 @@ def _region_rules(i: int, r: Region) -> list[tuple[str, Any, str]]:
                     "(peak_current_mA, rise_time_ps; fall_time_ps defaults to the rise time)"))
     elif forms == ["power"] and r.clock_MHz is None:
         out.append((f"{at}.clock_MHz", None, "required with switching_power_mW"))
+    elif forms == ["pulse"]:
+        out += _pulse_rules(at, r)
     if r.logic_activity is not None and not forms:
         out.append((f"{at}.logic_activity", r.logic_activity,
                     "needs the region's switching activity (charge, pulse or power)"))
@@ -381,10 +406,35 @@ def _region_rules(i: int, r: Region) -> list[tuple[str, Any, str]]:
     return out
 
 
+def _pulse_rules(at: str, r: Region) -> list[tuple[str, Any, str]]:
+    """A pulse holds at least its triangle's charge and fits in one clock period."""
+    out: list[tuple[str, Any, str]] = []
+    assert r.peak_current_mA is not None and r.rise_time_ps is not None
+    fall = r.fall_time_ps if r.fall_time_ps is not None else r.rise_time_ps
+    edges_ps = r.rise_time_ps + fall
+    flat_ps = 0.0
+    if r.charge_per_cycle_pC is not None:
+        least_pC = r.peak_current_mA * edges_ps / 2 * 1e-3  # mA x ps = 1e-3 pC
+        if r.charge_per_cycle_pC < least_pC * (1 - 1e-9):
+            out.append((f"{at}.charge_per_cycle_pC", r.charge_per_cycle_pC,
+                        f"must be at least {least_pC:.4g} pC with a pulse (the triangle of "
+                        "peak_current_mA, rise_time_ps and fall_time_ps holds that much)"))
+        flat_ps = max(r.charge_per_cycle_pC / r.peak_current_mA * 1e3 - edges_ps / 2, 0.0)
+    if r.clock_MHz is not None:
+        period_ps = 1e6 / r.clock_MHz
+        if edges_ps + flat_ps > period_ps * (1 + 1e-9):
+            out.append((f"{at}.clock_MHz", r.clock_MHz, f"the pulse lasts "
+                        f"{(edges_ps + flat_ps) / 1e3:.4g} ns, longer than a clock period "
+                        f"({period_ps / 1e3:.4g} ns)"))
+    return out
+
+
 def _rule_problems(block: BlockFile) -> list[tuple[str, Any, str]]:
     out = _unique([(f"region[{i}]", r.name) for i, r in enumerate(block.region)], "region")
     for i, r in enumerate(block.region):
         out += _region_rules(i, r)
+    if block.network is not None:
+        out += network_rules(block.network, block.region, block.objective.goal)
     if block.objective.goal == "min_leakage" and not any(
             r.min_cap_nF or r.max_impedance_mohm or (r.activity_form() and not r.quiet)
             for r in block.region):
@@ -406,6 +456,16 @@ def _suggest_table(problems: list[Problem]) -> list[Problem]:
     return out
 
 
+def _line(text: str | None, dotted: str) -> int | None:
+    """Line of a field, or of the nearest enclosing table it would go in when absent."""
+    parts = _split_dotted(dotted)
+    line = None
+    while parts and line is None:
+        line = find_line(text, parts)
+        parts = parts[:-1]
+    return line
+
+
 def parse_block(data: dict[str, Any], file: str = "<block>", text: str | None = None) -> BlockFile:
     """Validate already-parsed TOML data; ``PlanError`` lists every problem."""
     migration = _migration_problems(data, file, text)
@@ -421,8 +481,8 @@ def parse_block(data: dict[str, Any], file: str = "<block>", text: str | None = 
         raise PlanError(_suggest_table(problems)) from None
     rules = _rule_problems(block)
     if rules:
-        raise PlanError([Problem(file, dotted, message, value,
-                                 find_line(text, _split_dotted(dotted)), value is not None)
+        raise PlanError([Problem(file, dotted, message, value, _line(text, dotted),
+                                 value is not None)
                          for dotted, value, message in rules])
     block._file, block._text = file, text
     return block

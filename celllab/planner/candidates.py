@@ -76,6 +76,8 @@ class Candidate:
     esr, bandwidth : catalog ESR (ohm) and usable bandwidth (Hz) at the query corner (NaN if
     missing)
     record : the stored cell (every corner's Z(f), metrics and equivalent circuit)
+    bandwidth_is_bound : the catalog stores the bandwidth only as a lower bound (no cutoff or
+    resonance found up to it); plan reports carry the flag with the value
     """
 
     name: str
@@ -97,6 +99,7 @@ class Candidate:
     esr: float
     bandwidth: float
     record: CellResult
+    bandwidth_is_bound: bool = False
 
 
 @dataclass(frozen=True)
@@ -179,11 +182,18 @@ def load_candidates(block: BlockFile, catalog: Catalog, ctx: CatalogContext
     except CelllabError as exc:
         raise PlanError([block.problem("candidates.where", p.message or str(p), where)
                          for p in exc.problems]) from None
-    excluded = {"no usable cap_fF or leakage_nA": 0}
+    excluded = {"no usable cap_fF or leakage_nA": 0, "broken by the ESD zap (esd_survive)": 0,
+                "broken oxide over the fault limit (broken_oxide_ok)": 0}
     out: list[Candidate] = []
     for row in rows:
         if not _usable(row):
             excluded["no usable cap_fF or leakage_nA"] += 1
+            continue
+        if block.budgets.esd_survive and any(_number(row.get(k)) < 0 for k in ("hbm_margin_V", "cdm_margin_V")):
+            excluded["broken by the ESD zap (esd_survive)"] += 1
+            continue
+        if block.budgets.broken_oxide_ok and _number(row.get("broken_oxide_ok")) == 0:
+            excluded["broken oxide over the fault limit (broken_oxide_ok)"] += 1
             continue
         record = catalog.cell(row["name"], deck=block.block.deck)
         caps = np.array([_metric(record, c, "cap_fF") for c in ctx.corners]) * femto
@@ -201,7 +211,8 @@ def load_candidates(block: BlockFile, catalog: Catalog, ctx: CatalogContext
             cap=float(row["cap_fF"]) * femto, leakage=float(row["leakage_nA"]) * nano,
             oxide_area=_oxide_area(record, ctx), corner_cap=caps, corner_leakage=leaks,
             pdn_corner=pdn_corner, esr=_number(row.get("esr_ohm")),
-            bandwidth=_number(row.get("bandwidth_GHz")) * giga, record=record))
+            bandwidth=_number(row.get("bandwidth_GHz")) * giga, record=record,
+            bandwidth_is_bound=bool(_number(row.get("bandwidth_is_bound")) == 1.0)))
     if not out:
         why = "; ".join(f"{n} {k}" for k, n in excluded.items() if n)
         raise PlanError([block.problem(

@@ -28,6 +28,7 @@ import numpy as np
 from numpy.typing import NDArray
 from scipy.constants import micro
 
+from celllab.planner.corners import NETWORK_FIGURES
 from celllab.planner.network import BlockNetwork
 from celllab.planner.waveforms import block_current_spectrum
 
@@ -93,7 +94,7 @@ class EmissionSpectrum:
     def worst(self) -> tuple[FloatArray, NDArray[np.int_]]:
         """(level dBuV, corner index) per harmonic at its own worst (loudest) corner."""
         level = self.level_dBuV()
-        k = np.argmax(level, axis=0)
+        k = NETWORK_FIGURES.worst_index(level, axis=0)
         return level[k, np.arange(level.shape[1])], k
 
 

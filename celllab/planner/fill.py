@@ -29,15 +29,18 @@ Constraints::
     sum_i C_{r,i} copies_{r,i} >= T_r                    (region targets)
     copies_{r,i} = 0 for cells a region may not take (ESD-safe-only regions, no fit)
 
-Objective: ``max_useful_cap`` maximizes sum_r w_r sum_i C_{r,i} copies_{r,i};
-``min_leakage`` minimizes sum I_i copies_{r,i} (targets must then be met). When the targets
+Objective: ``max_useful_cap`` maximizes sum_r w_r sum_i (C_{r,i} + D_{r,i}) copies_{r,i},
+D_{r,i} >= 0 an optional damping credit (F per copy: the cell's damping of region r's worst
+resonance, ``fill_damping``; 0 without it); ``min_leakage`` minimizes sum I_i copies_{r,i}
+(targets must then be met). When the targets
 cannot all be met within the budgets, a first solve minimizes the total relative shortfall
 sum_r (T_r - C_r)^+ / T_r; the targets are then lowered to what that solve reached and the
 chosen objective is solved under them (the shortfall is reported).
 
 Dominated cells are dropped first, which keeps the optimum: if cell j has the same footprint
 as cell i (same type in the rows, the same copies in every open slot), may go wherever i may,
-gives at least i's useful capacitance in every region and leaks and wears no more, then
+gives at least i's useful capacitance and damping credit in every region and leaks and wears
+no more, then
 replacing every copy of i by a copy of j keeps every constraint (no more kinds, leakage or
 oxide area, no less capacitance toward any target) and does not worsen either goal. Of
 identical cells the first is kept.
@@ -141,6 +144,8 @@ class FillProblem:
     leakage_budget, oxide_budget            A, m^2 (inf: no limit)
     max_kinds : int                         distinct cells, >= 1
     goal : "max_useful_cap" | "min_leakage"
+    damping : (n_regions, n_cells) F or None   damping credit of one copy in the
+                                            max_useful_cap objective (None: none)
     """
 
     useful_cap: FloatArray
@@ -156,6 +161,7 @@ class FillProblem:
     oxide_budget: float = float("inf")
     max_kinds: int = 3
     goal: Goal = "max_useful_cap"
+    damping: FloatArray | None = None
 
     @property
     def n_regions(self) -> int:
@@ -173,6 +179,17 @@ class FillProblem:
     def usable(self) -> BoolArray:
         """(n_regions, n_cells): allowed and worth placing (C_eff > 0 at the region)."""
         return np.asarray(self.allowed & (self.useful_cap > 0))
+
+    def credit(self) -> FloatArray:
+        """(n_regions, n_cells) damping credit per copy, F (zeros without one)."""
+        if self.damping is None:
+            return np.zeros_like(self.useful_cap)
+        return np.asarray(self.damping, dtype=float)
+
+    def worth(self) -> FloatArray:
+        """(n_regions, n_cells) what one copy adds to the max_useful_cap objective before the
+        region weight: useful capacitance plus damping credit, F."""
+        return np.asarray(self.useful_cap + self.credit())
 
     def replace(self, **changes: object) -> FillProblem:
         from dataclasses import replace
@@ -221,6 +238,7 @@ def undominated_cells(p: FillProblem) -> BoolArray:
     for i in np.flatnonzero(keep).tolist():
         groups.setdefault((int(p.cell_type[i]), *copies[:, i].tolist()), []).append(i)
     cap = np.where(usable, p.useful_cap, 0.0)
+    damp = np.where(usable, p.credit(), 0.0)
     for members in groups.values():
         if len(members) < 2:
             continue
@@ -228,10 +246,12 @@ def undominated_cells(p: FillProblem) -> BoolArray:
         # a dominates b: allowed where b is, at least b's cap everywhere, no more leakage/area
         at_least = (np.all(usable[:, m][:, :, None] >= usable[:, m][:, None, :], axis=0)
                     & np.all(cap[:, m][:, :, None] >= cap[:, m][:, None, :], axis=0)
+                    & np.all(damp[:, m][:, :, None] >= damp[:, m][:, None, :], axis=0)
                     & (p.leakage[m][:, None] <= p.leakage[m][None, :])
                     & (p.oxide_area[m][:, None] <= p.oxide_area[m][None, :]))
         better = (np.any(usable[:, m][:, :, None] > usable[:, m][:, None, :], axis=0)
                   | np.any(cap[:, m][:, :, None] > cap[:, m][:, None, :], axis=0)
+                  | np.any(damp[:, m][:, :, None] > damp[:, m][:, None, :], axis=0)
                   | (p.leakage[m][:, None] < p.leakage[m][None, :])
                   | (p.oxide_area[m][:, None] < p.oxide_area[m][None, :]))
         earlier = np.arange(m.size)[:, None] < np.arange(m.size)[None, :]
@@ -440,9 +460,10 @@ def solve_fill(problem: FillProblem, mip_rel_gap: float = 5e-3,
 
 
 def goal_value(problem: FillProblem, copies: IntArray) -> float:
-    """The goal's figure of a fill: sum_r w_r C_r (F) or the total leakage (A)."""
+    """The goal's figure of a fill: sum_r w_r (C_r + D_r) (F: useful capacitance plus any
+    damping credit) or the total leakage (A)."""
     if problem.goal == "max_useful_cap":
-        return float(np.sum(problem.weight * np.sum(copies * problem.useful_cap, axis=1)))
+        return float(np.sum(problem.weight * np.sum(copies * problem.worth(), axis=1)))
     return float(np.sum(copies @ problem.leakage))
 
 

@@ -250,7 +250,13 @@ def build_model(p: FillProblem, targets: FloatArray, mode: Literal["hard", "elas
             objective[col] = 1.0
         obj_scale = 1.0
     elif p.goal == "max_useful_cap":
+        credit = p.credit()
         objective = -sum(p.weight[r] * cap_rows[r] for r in range(n_r))
+        if np.any(credit > 0):  # the damping credit counts like capacitance
+            for r in range(n_r):
+                block = np.zeros(n_r * n_i)
+                block[r * n_i:(r + 1) * n_i] = credit[r]
+                objective = objective - p.weight[r] * (block @ copies)
         obj_scale = float(np.max(np.abs(objective), initial=0.0)) or 1.0
         objective = objective / obj_scale
     else:
@@ -348,7 +354,7 @@ def round_down(raw: Raw) -> Counts:
     room = np.zeros((p.n_regions, p.n_types), dtype=np.int64)
     for g, c in enumerate(p.row_classes):
         room[c.region] += counts.patterns[g] @ c.patterns
-    worth = p.useful_cap * p.weight[:, None]
+    worth = p.worth() * p.weight[:, None]
     for (r, i), col in sorted(m.n_index.items(), key=lambda kv: worth[kv[0]]):
         t = p.cell_type[i]
         mine = [j for (rr, j) in m.n_index if rr == r and p.cell_type[j] == t]

@@ -65,7 +65,10 @@ GROUND = "gnd"
 BOARD = "board"
 RING = "ring"
 PACKAGE_IN = "pkg_in"
-_NAME = re.compile(r"^[A-Za-z][A-Za-z0-9_]{0,39}$")
+_NAME = re.compile(r"^[A-Za-z][A-Za-z0-9_\-]{0,59}$")
+#: Node-name endings the network gives a region's own nodes (a region named like another's
+#: node would share it).
+_NODE_SUFFIXES = ("_entry", "_int")
 
 
 def region_node(name: str) -> str:
@@ -151,7 +154,12 @@ class SupplyNetwork:
         }
         for name, p in self.paths.items():
             if not _NAME.match(name):
-                problems.append(f"region name {name!r} -> letters, digits and _, first a letter")
+                problems.append(f"region name {name!r} -> letters, digits, _ and -, first a "
+                                "letter (at most 60)")
+            clash = [o for o in self.paths for end in _NODE_SUFFIXES if name == o + end]
+            if clash:
+                problems.append(f"region name {name!r} -> clashes with a node of region "
+                                f"{clash[0]!r}: rename one of them")
             values.update({f"paths.{name}.grid_resistance": p.grid_resistance,
                            f"paths.{name}.grid_inductance": p.grid_inductance,
                            f"paths.{name}.entrance_resistance": p.entrance_resistance})

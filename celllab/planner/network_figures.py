@@ -14,13 +14,14 @@ corners by kind and frequency (within a factor ``TRACK_RATIO``).
 
 from __future__ import annotations
 
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field, replace
 
 import numpy as np
 from numpy.typing import NDArray
 
 from celllab.physics import pdn
+from celllab.planner.corners import NETWORK_FIGURES
 from celllab.planner.damping import (
     DampingTrade,
     cell_impedance,
@@ -53,14 +54,14 @@ __all__ = [
     "RegionFigures",
     "ResonanceTrack",
     "evaluate_network",
+    "region_targets",
 ]
 
 FloatArray = NDArray[np.float64]
 ComplexArray = NDArray[np.complex128]
 
-WORST_CORNER_POLICY = ("each figure at its own worst corner (named beside it): highest |Z| "
-                       "for resonances and the target check, largest droop, highest ringing "
-                       "Q, longest settling, loudest emission")
+#: The corner rule of every figure here (named once, in `planner.corners`).
+WORST_CORNER_POLICY = NETWORK_FIGURES.rule
 #: Resonances of two corners within this frequency ratio (same kind) are the same one.
 TRACK_RATIO = 1.3
 #: Peaks at least this fraction of the largest in-band peak set the droop run's length.
@@ -136,6 +137,8 @@ class RegionFigures:
 
     A quiet region (no current of its own) has ``target`` inf, no ``check`` and no
     ``conductance_needed`` (nan); its impedance, resonances and droop are still reported.
+    ``top_peak`` is the highest |Z| peak inside the band (None: no peak there): the
+    resonance ``cell_damping`` and ``conductance_needed`` are taken at.
     """
 
     name: str
@@ -149,6 +152,7 @@ class RegionFigures:
     cell_damping: list[CellDamping]
     conductance_needed: float
     dc_drop: float
+    top_peak: ResonanceTrack | None = None
     droop: dict[str, tuple[float, str]] = field(default_factory=dict)
     droop_after: dict[str, tuple[float, str]] = field(default_factory=dict)
 
@@ -188,20 +192,17 @@ def _tracks(per_corner: dict[str, list[Resonance]]) -> list[ResonanceTrack]:
             groups.append({corner: res})
     tracks = []
     for g in groups:
-        corner, worst = max(g.items(), key=lambda kv: kv[1].magnitude)
+        names = list(g)
+        corner = names[int(NETWORK_FIGURES.worst_index([g[c].magnitude for c in names]))]
+        worst = g[corner]
         tracks.append(ResonanceTrack(worst.kind, worst.frequency, worst.magnitude, worst.q,
                                      worst.q_method, corner, dict(g)))
     return sorted(tracks, key=lambda t: t.frequency)
 
 
-def _worst(values: FloatArray, corners: Sequence[str], largest: bool = True
-           ) -> tuple[float, str]:
+def _worst(values: FloatArray, corners: Sequence[str]) -> tuple[float, str]:
     """(value, corner) of the worst finite entry of a per-corner array (nan if none)."""
-    v = np.asarray(values, dtype=float)
-    if not np.any(np.isfinite(v)):
-        return float("nan"), "-"
-    k = int(np.nanargmax(v) if largest else np.nanargmin(v))
-    return float(v[k]), corners[k]
+    return NETWORK_FIGURES.worst(values, list(corners))
 
 
 def _droop_summary(fig: DroopFigures, r: int, corners: Sequence[str]
@@ -252,29 +253,18 @@ def _entrance_ac_power(network: BlockNetwork, entrance: FloatArray, f_max: float
     return np.asarray(np.max(power, axis=0), dtype=float)
 
 
-def evaluate_network(network: BlockNetwork, goals: NetworkGoals) -> NetworkFigures:
-    """Impedance, resonances, target check, damping, droop and emission of a block network.
+def region_targets(network: BlockNetwork, goals: NetworkGoals
+                   ) -> tuple[FloatArray, list[tuple[float, float]], list[str]]:
+    """Each region's target impedance (ohm; inf for a region without a current of its own)
+    and band (f_lo, f_hi) Hz, with notes on bands cut at the grid's end.
 
-    Parameters
-    ----------
-    network : BlockNetwork   (`planner.network.build_network`)
-    goals : NetworkGoals
-
-    Returns
-    -------
-    NetworkFigures   per region and per figure at its own worst corner (`WORST_CORNER_POLICY`)
-
-    Notes
-    -----
-    Band of each region: from the bottom of the analysis grid to 0.35 / min(t_rise, t_fall)
-    (`resonance.activity_band_edge`: common practice, from memory). Target impedance
-    Z_t = V_DD x ripple / I_peak (Smith et al. 1999, `physics.pdn.target_impedance`).
+    Z_t = V_DD x ripple / I_peak (`physics.pdn.target_impedance`); the band runs from the
+    bottom of the grid to 0.35 / min(t_rise, t_fall) (`resonance.activity_band_edge`), the
+    block's fastest edge for a quiet region.
     """
     f = np.asarray(goals.freq, dtype=float)
-    names, corners = network.region_names, network.corners
-    n_r = len(names)
     notes: list[str] = []
-    ripple = goals.per_region(goals.ripple_fraction, names)
+    ripple = goals.per_region(goals.ripple_fraction, network.region_names)
     # a quiet region (no current of its own) has no target: inf keeps it out of every ratio
     targets = np.array([np.inf if r.activity is None else float(pdn.target_impedance(
         network.supply.supply_voltage, ripple[k], r.activity.peak_current))
@@ -289,6 +279,35 @@ def evaluate_network(network: BlockNetwork, goals: NetworkGoals) -> NetworkFigur
             notes.append(f"region {r.name}: its band reaches {edge / 1e9:.3g} GHz, above the "
                          f"analysis grid ({f[-1] / 1e9:.3g} GHz): checked up to the grid's end")
         bands.append((float(f[0]), float(min(edge, f[-1]))))
+    return targets, bands, notes
+
+
+def evaluate_network(network: BlockNetwork, goals: NetworkGoals,
+                     progress: Callable[[str], None] | None = None) -> NetworkFigures:
+    """Impedance, resonances, target check, damping, droop and emission of a block network.
+
+    Parameters
+    ----------
+    network : BlockNetwork   (`planner.network.build_network`)
+    goals : NetworkGoals
+    progress : callable, optional   called with a short stage text before each step
+
+    Returns
+    -------
+    NetworkFigures   per region and per figure at its own worst corner (`WORST_CORNER_POLICY`)
+
+    Notes
+    -----
+    Band of each region: from the bottom of the analysis grid to 0.35 / min(t_rise, t_fall)
+    (`resonance.activity_band_edge`: common practice, from memory). Target impedance
+    Z_t = V_DD x ripple / I_peak (Smith et al. 1999, `physics.pdn.target_impedance`).
+    """
+    say = progress or (lambda _text: None)
+    say("supply network: impedance and resonances")
+    f = np.asarray(goals.freq, dtype=float)
+    names, corners = network.region_names, network.corners
+    n_r = len(names)
+    targets, bands, notes = region_targets(network, goals)
     z = network.z_matrix(f)
     diag = np.abs(z[..., np.arange(n_r), np.arange(n_r)]).transpose(0, 2, 1)  # (c, r, f)
 
@@ -306,10 +325,11 @@ def evaluate_network(network: BlockNetwork, goals: NetworkGoals) -> NetworkFigur
         quiet = region.activity is None
         checks = [check_target(f, diag[i, k], 1.0 if quiet else targets[k], bands[k],
                                found[i][k]) for i in range(len(corners))]
-        i_worst = int(np.argmax([c.worst_ratio for c in checks]))  # quiet: highest |Z|
+        i_worst = int(NETWORK_FIGURES.worst_index([c.worst_ratio for c in checks]))
         tracks = _tracks(per_corner)
         in_band = [t for t in tracks if t.kind == "peak" and bands[k][0] <= t.frequency
                    <= bands[k][1]]
+        top = None
         if in_band:
             top = max(in_band, key=lambda t: t.magnitude)
             f0, c0 = top.frequency, corners.index(top.corner)
@@ -334,7 +354,7 @@ def evaluate_network(network: BlockNetwork, goals: NetworkGoals) -> NetworkFigur
             per_corner_resonances=per_corner, transfer_peak=transfer, cell_damping=damping,
             conductance_needed=float("nan") if quiet else float(1.0 / targets[k]
                                                                 - (g_total - g_fill)),
-            dc_drop=float(dc.drop[k])))
+            dc_drop=float(dc.drop[k]), top_peak=top))
 
     trade = ac_power = run = run_after = None
     droop_fig = droop_after = None
@@ -357,13 +377,17 @@ def evaluate_network(network: BlockNetwork, goals: NetworkGoals) -> NetworkFigur
                          "settling may lie beyond it")
         activities = network.activities
         if goals.droop:
+            say(f"supply network: droop in time ({grid.size - 1} steps)")
             run = simulate_droop(network, grid, f_ring, n_segments=goals.droop_segments)
             droop_fig = droop_figures(run, activities)
         if goals.size_entrance:
+            say("supply network: sizing entrance resistors")
             limit = goals.per_region(goals.ir_drop_limit, names)
             trade = size_entrance_resistors(network, f, targets, bands, limit)
             ac_power = _entrance_ac_power(network, trade.resistance, goals.emission_f_max)
             if goals.droop:
+                say(f"supply network: droop with the entrance resistors ({grid.size - 1} "
+                    "steps)")
                 run_after = simulate_droop(network, grid, f_ring, trade.resistance,
                                            n_segments=goals.droop_segments)
                 droop_after = droop_figures(run_after, activities)
@@ -374,6 +398,7 @@ def evaluate_network(network: BlockNetwork, goals: NetworkGoals) -> NetworkFigur
     emission: dict[str, EmissionSpectrum] = {}
     bands_out: list[BandLevels] = []
     if any(a is not None and a.period is not None for a in network.activities):
+        say("supply network: emission")
         emission["plan"] = emission_spectrum(network, goals.emission_f_max, "plan", goals.probe)
         emission["no on-die decap"] = emission_spectrum(network.with_fill({}),
                                                         goals.emission_f_max, "no on-die decap",

@@ -1,18 +1,21 @@
 """``plan_block``: from a block file and a catalog to a fill per region and gap class, its
-budgets and binding constraints, and the block's lumped PDN figures (SI inside).
+budgets and binding constraints, the block's lumped PDN figures and, when the block file has
+a ``[network]`` table, what the fill does to the supply (SI inside).
 
 Steps: catalog checks and candidates (``candidates``); each region's frequency of interest
 and target (``sizing``); useful capacitance of every candidate at every region's frequency;
 patterns of every in-row gap width and grid copies of every open slot (``packing``); the
-budgets (``wearout`` turns a failure target into an area); the MILP (``fill``); what bound it
-(``binding``); the results (``result``); the lumped PDN from the chosen cells' stored Z(f)
-(``impedance``).
+budgets (``wearout`` turns a failure target into an area); the MILP (``fill``), solved once
+more with a damping credit when the block asks for damping through the fill
+(``fill_damping``); what bound it (``binding``); the results (``result``); the lumped PDN from
+the chosen cells' stored Z(f) (``impedance``); the supply network with the fill, the naive
+densest-cell fill for comparison, its figures at every corner (``supply``, ``naive``).
 """
 
 from __future__ import annotations
 
 from collections.abc import Callable
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import TYPE_CHECKING
 
@@ -41,7 +44,11 @@ from celllab.planner.fill import (
     RowClass,
     solve_fill,
 )
+from celllab.planner.fill_damping import damping_credit, fill_conductance, peak_to_damp
 from celllab.planner.impedance import die_network, pdn_figures
+from celllab.planner.naive import densest_fill
+from celllab.planner.network import FillEntry
+from celllab.planner.network_figures import evaluate_network
 from celllab.planner.packing import PatternLimitError, best_fill, grid_copies, row_patterns
 from celllab.planner.result import (
     BlockPlan,
@@ -54,13 +61,18 @@ from celllab.planner.result import (
     WidthFill,
 )
 from celllab.planner.sizing import RegionNeed, region_need
-from celllab.planner.wearout import (
-    MissionPhase,
-    OxideReliability,
-    affordable_oxide_area,
-    oxide_failure_fraction,
-    reliability_from_deck,
+from celllab.planner.supply import (
+    FULL_ANALYSIS,
+    FillDamping,
+    NetworkOptions,
+    Samples,
+    analyse_supply,
+    block_network,
+    cell_entries,
+    network_goals,
+    read_waveforms,
 )
+from celllab.planner.wearout import MissionPhase, affordable_oxide_area, oxide_failure_fraction
 
 if TYPE_CHECKING:
     from celllab.catalog import Catalog
@@ -70,6 +82,7 @@ __all__ = [
     "CellUse",
     "ChosenCell",
     "ClassFill",
+    "NetworkOptions",
     "PreparedFill",
     "RegionFill",
     "plan_block",
@@ -155,11 +168,6 @@ def _mission(block: BlockFile, supply: float) -> list[MissionPhase]:
             for p in w.mission]
 
 
-def _oxide(ctx: CatalogContext) -> OxideReliability:
-    flavour = ctx.deck.oxides[ctx.thin_oxide]  # type: ignore[index]
-    return reliability_from_deck(flavour.reliability.model_dump(), flavour.eot_m)
-
-
 def _oxide_limit(block: BlockFile, ctx: CatalogContext, mission: list[MissionPhase]
                  ) -> tuple[float, str]:
     """Thin-oxide area limit, m^2, and where it comes from."""
@@ -168,7 +176,7 @@ def _oxide_limit(block: BlockFile, ctx: CatalogContext, mission: list[MissionPha
     if b.thin_oxide_area_mm2 is not None:
         limits.append((b.thin_oxide_area_mm2 * milli**2, "thin_oxide_area_mm2"))
     if b.wearout is not None:
-        area = affordable_oxide_area(_oxide(ctx), mission, b.wearout.failure_ppm * micro)
+        area = affordable_oxide_area(ctx.deck, ctx.thin_oxide, mission, b.wearout.failure_ppm * micro)
         limits.append((area, f"{b.wearout.failure_ppm:g} ppm over the mission"))
     if not limits:
         return float("inf"), ""
@@ -254,9 +262,54 @@ def prepare_fill(block: BlockFile, catalog: Catalog, progress: Progress | None =
                         oxide_limit, oxide_source)
 
 
+def network_corners(ctx: CatalogContext) -> tuple[str, ...]:
+    """Corners the supply network is evaluated at: every stored corner, or the block's named
+    corner (a what-if)."""
+    return tuple(ctx.corners) if ctx.corner == policy.WORST else (ctx.corner,)
+
+
+def _solution_fills(block: BlockFile, prep: PreparedFill, copies: NDArray[np.int64]
+                    ) -> dict[str, list[FillEntry]]:
+    """Region name -> the fill entries of a solution's copies."""
+    return {region.name: cell_entries([(prep.cells[i], int(copies[r, i]))
+                                       for i in np.flatnonzero(copies[r]).tolist()])
+            for r, region in enumerate(block.region)}
+
+
+def _damp_through_fill(block: BlockFile, prep: PreparedFill, solution: FillSolution,
+                       samples: dict[str, Samples], say: Progress
+                       ) -> tuple[PreparedFill, FillSolution, FillDamping]:
+    """Solve again with each cell's damping of its region's worst resonance as a credit
+    (``fill_damping``): the resonance of the fill already solved, one iteration."""
+    assert block.network is not None
+    weight = block.network.fill_damping_weight
+    corners = network_corners(prep.ctx)
+    say("damping through the fill: the fill's resonances")
+    before = _solution_fills(block, prep, solution.copies)
+    network = block_network(block, prep.needs, prep.ctx.supply, before, samples, corners)
+    figures = evaluate_network(network, network_goals(
+        block, NetworkOptions(droop=False, entrance=False, naive=False)))
+    f0, corner, peak = peak_to_damp(figures)
+    credit = damping_credit([c.record for c in prep.cells], f0, corner, weight)
+    problem = prep.problem.replace(damping=credit)
+    say("damping through the fill: solving again")
+    obj = block.objective
+    damped = solve_fill(problem, obj.mip_rel_gap, obj.time_limit_s)
+    after = _solution_fills(block, prep, damped.copies)
+    names = tuple(r.name for r in block.region)
+    g_before = np.array([fill_conductance(before[n], f, c)
+                         for n, f, c in zip(names, f0, corner, strict=True)])
+    g_after = np.array([fill_conductance(after[n], f, c)
+                        for n, f, c in zip(names, f0, corner, strict=True)])
+    info = FillDamping(weight, names, f0, tuple(corner), peak, g_before, g_after)
+    return replace(prep, problem=problem), damped, info
+
+
 def plan_block(block: BlockFile, catalog: Catalog, *, explain: bool = True,
-               progress: Progress | None = None) -> BlockPlan:
-    """Fill the block's gaps from the catalog and report the fill, its budgets and the PDN.
+               progress: Progress | None = None,
+               network: NetworkOptions | None = FULL_ANALYSIS) -> BlockPlan:
+    """Fill the block's gaps from the catalog and report the fill, its budgets, the PDN and,
+    with a ``[network]`` table, what the fill does to the supply.
 
     Parameters
     ----------
@@ -265,17 +318,25 @@ def plan_block(block: BlockFile, catalog: Catalog, *, explain: bool = True,
     explain : bool          re-solve with the kind limit and each ESD-safe-only restriction
                             lifted to say what they cost (more solves)
     progress : callable     called with a short stage text before each step
+    network : NetworkOptions or None   what to compute about the supply network (None: no
+                            network analysis, and no damping through the fill)
 
     Raises ``PlanError`` (located in the block file) for an unknown deck or corner, a bad
-    filter, no usable candidate, a frequency of interest outside the stored sweeps, or no
-    fill found within the time limit.
+    filter, no usable candidate, a frequency of interest outside the stored sweeps, no fill
+    found within the time limit, or a waveform file that cannot be read.
     """
     say = progress or (lambda _text: None)
     prep = prepare_fill(block, catalog, progress)
     obj = block.objective
+    analyse = block.network is not None and network is not None
+    samples = read_waveforms(block) if analyse else {}
+    damping: FillDamping | None = None
     say("solving the fill")
     try:
         solution = solve_fill(prep.problem, obj.mip_rel_gap, obj.time_limit_s)
+        if (analyse and network is not None and network.fill_damping
+                and block.network is not None and block.network.fill_damping_weight > 0):
+            prep, solution, damping = _damp_through_fill(block, prep, solution, samples, say)
         say("finding the binding constraints")
         esd = np.array([c.esd_safe for c in prep.cells])
         useful = prep.problem.useful_cap
@@ -289,11 +350,20 @@ def plan_block(block: BlockFile, catalog: Catalog, *, explain: bool = True,
             "objective.time_limit_s", "the solver found no fill within the time limit: "
             "raise it, or loosen mip_rel_gap", obj.time_limit_s)]) from None
     say("lumped PDN")
-    return _assemble(block, prep, solution, bindings)
+    plan = _assemble(block, prep, solution, bindings, lumped_notes=not analyse)
+    if analyse and network is not None:
+        fills = {r.name: cell_entries([(c, c.count) for c in r.cells]) for r in plan.regions}
+        naive = (densest_fill(block, prep.cells, prep.problem.allowed) if network.naive
+                 else [])
+        plan = replace(plan, network=analyse_supply(
+            block, prep.needs, prep.ctx.supply, fills, network_corners(prep.ctx), naive,
+            network, damping, samples, progress))
+    return plan
 
 
 def plan_file(block: str | Path | BlockFile, catalog: str | Path = DEFAULT_CATALOG, *,
-              explain: bool = True) -> BlockPlan:
+              explain: bool = True, network: NetworkOptions | None = FULL_ANALYSIS
+              ) -> BlockPlan:
     """``plan_block`` from paths: load the block file, open the catalog (read only), plan.
 
     The public ``celllab.plan``; ``PlanError``/``CatalogError`` on bad input.
@@ -302,7 +372,7 @@ def plan_file(block: str | Path | BlockFile, catalog: str | Path = DEFAULT_CATAL
 
     loaded = block if isinstance(block, BlockFile) else load_block(block)
     with open_catalog(catalog, create=False) as opened:
-        return plan_block(loaded, opened, explain=explain)
+        return plan_block(loaded, opened, explain=explain, network=network)
 
 
 # --------------------------------------------------------------------------- results
@@ -510,13 +580,15 @@ def _budget_checks(block: BlockFile, cells_problem: FillProblem, solution: FillS
 
 
 def _assemble(block: BlockFile, prep: PreparedFill, solution: FillSolution,
-              bindings: list[Binding]) -> BlockPlan:
+              bindings: list[Binding], lumped_notes: bool = True) -> BlockPlan:
+    """The plan's results; ``lumped_notes`` adds the notes on the lumped PDN figures (left
+    out when the supply network stands in for them)."""
     ctx, cells, problem, layout = prep.ctx, prep.cells, prep.problem, prep.layout
     needs, useful_corner, mission = prep.needs, prep.useful_corner, prep.mission
     oxide_limit, oxide_source, excluded = prep.oxide_limit, prep.oxide_source, prep.excluded
     b = block.block
     supply = ctx.supply
-    oxide = _oxide(ctx) if mission else None
+    oxide = ctx.thin_oxide if mission else None
     useful = problem.useful_cap
     regions: list[RegionFill] = []
     for r, spec in enumerate(block.region):
@@ -538,11 +610,11 @@ def _assemble(block: BlockFile, prep: PreparedFill, solution: FillSolution,
             weight=spec.weight, need=needs[r], cells=uses,
             classes=_class_fills(block, layout, cells, problem, solution, bindings, r, useful),
             shortfall=float(solution.shortfall[r]),
-            failure_fraction=(oxide_failure_fraction(oxide, mission, area)
+            failure_fraction=(oxide_failure_fraction(ctx.deck, oxide, mission, area)
                               if oxide is not None else None)))
     total = solution.copies.sum(axis=0)
     total_area = float(total @ problem.oxide_area)
-    failure = oxide_failure_fraction(oxide, mission, total_area) if oxide is not None else None
+    failure = oxide_failure_fraction(ctx.deck, oxide, mission, total_area) if oxide is not None else None
     budgets = _budget_checks(block, problem, solution, bindings, oxide_source, failure)
     corner_totals = [CornerTotals(name, float(np.nansum(total * [c.corner_cap[k] for c in cells])),
                                   float(np.nansum(total * [c.corner_leakage[k] for c in cells])))
@@ -550,7 +622,7 @@ def _assemble(block: BlockFile, prep: PreparedFill, solution: FillSolution,
     chosen = [ChosenCell(name=c.name, topology=c.topology, oxide=c.oxide, count=int(total[i]),
                          width_sites=c.width_sites, height_rows=c.height_rows, cap=c.cap,
                          leakage=c.leakage, esr=c.esr, bandwidth=c.bandwidth,
-                         z_corner=c.pdn_corner)
+                         z_corner=c.pdn_corner, bandwidth_is_bound=c.bandwidth_is_bound)
               for i, c in enumerate(cells) if total[i] > 0]
     notes: list[str] = []
     for i in np.flatnonzero(total).tolist():
@@ -572,18 +644,19 @@ def _assemble(block: BlockFile, prep: PreparedFill, solution: FillSolution,
         die = die_network(responses, total[total > 0], intrinsic)
         figures = pdn_figures(die, fill_cap + intrinsic, l_pkg, r_pkg, supply,
                               b.ripple_fraction, b.current_step_A)
-        for c in chosen:
+        for c in chosen if lumped_notes else []:
             if np.isfinite(c.bandwidth) and c.bandwidth < figures.f0:
                 notes.append(f"{c.name}: bandwidth {c.bandwidth / 1e6:.3g} MHz is below the "
                              f"package resonance {figures.f0 / 1e6:.3g} MHz, so it decouples "
                              "less there than its cap_fF says (the swept |Z| includes this)")
-        if intrinsic > 0:
+        if intrinsic > 0 and lumped_notes:
             notes.append("the intrinsic decap is an ideal capacitor (its series resistance "
                          "through the logic is not modelled), so the peak |Z| leans "
                          "pessimistic")
-        notes.append("|Z| below the target at every swept frequency does not bound the "
-                     "worst-case supply noise when Z(f) has peaks (use the full profile)")
-    else:
+        if lumped_notes:
+            notes.append("|Z| below the target at every swept frequency does not bound the "
+                         "worst-case supply noise when Z(f) has peaks (use the full profile)")
+    elif lumped_notes:
         notes.append("no fill and activity = 1 (no intrinsic decap): the die has no "
                      "capacitance, so there are no PDN figures")
     for r in regions:

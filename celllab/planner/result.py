@@ -13,17 +13,20 @@ Where a region's fill lives (for tools that attach it to a supply-network model)
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 from numpy.typing import NDArray
 from scipy.constants import femto, giga, mega, micro, milli, nano, pico
 
 from celllab.physics import pdn
-from celllab.planner.corners import POLICIES
+from celllab.planner.corners import NETWORK_FIGURES, POLICIES
 from celllab.planner.impedance import DieNetwork, PdnFigures
 from celllab.planner.sizing import RegionNeed
 from celllab.records import CellResult
+
+if TYPE_CHECKING:
+    from celllab.planner.supply import SupplyAnalysis
 
 __all__ = [
     "RULE_DROOP_FRACTION",
@@ -88,6 +91,7 @@ class ChosenCell:
     esr: float
     bandwidth: float
     z_corner: str
+    bandwidth_is_bound: bool = False     # the bandwidth is only a lower bound (catalog flag)
 
 
 @dataclass(frozen=True)
@@ -206,7 +210,11 @@ class CornerTotals:
 
 @dataclass(frozen=True)
 class BlockPlan:
-    """A planned block (SI). ``to_dict`` gives display units."""
+    """A planned block (SI). ``to_dict`` gives display units.
+
+    ``network`` is what the fill does to the supply network (`planner.supply.SupplyAnalysis`),
+    None without a ``[network]`` table (or when not asked for).
+    """
 
     block_name: str
     deck: str
@@ -234,6 +242,7 @@ class BlockPlan:
     die: DieNetwork | None
     pdn: PdnFigures | None
     notes: list[str] = field(default_factory=list)
+    network: SupplyAnalysis | None = None
 
     def region(self, name: str) -> RegionFill:
         for r in self.regions:
@@ -404,7 +413,8 @@ def _summary(plan: BlockPlan) -> dict[str, Any]:
         "excluded": dict(plan.excluded), "optimal": plan.optimal, "mip_gap": plan.mip_gap,
         "solve_s": plan.solve_seconds,
         "policies": [{"name": p.name, "metric": p.metric, "purpose": p.purpose}
-                     for p in POLICIES],
+                     for p in POLICIES]
+        + [{"name": NETWORK_FIGURES.name, "metric": None, "purpose": NETWORK_FIGURES.rule}],
         "regions": [_region_dict(r, plan.supply) for r in plan.regions],
         "roles": roles,
         "totals": {
@@ -424,11 +434,17 @@ def _summary(plan: BlockPlan) -> dict[str, Any]:
              "width_sites": c.width_sites, "height_rows": c.height_rows,
              "cap_fF": c.cap / femto, "total_cap_nF": c.count * c.cap / nano,
              "leakage_nA": c.leakage / nano, "total_leakage_uA": c.count * c.leakage / micro,
-             "esr_ohm": c.esr, "bandwidth_GHz": c.bandwidth / giga, "z_corner": c.z_corner}
+             "esr_ohm": c.esr, "bandwidth_GHz": c.bandwidth / giga,
+             "bandwidth_is_bound": c.bandwidth_is_bound, "z_corner": c.z_corner}
             for c in plan.cells],
         "pdn": _pdn_dict(plan),
+        "network": None,
         "notes": list(plan.notes),
     }
+    if plan.network is not None:
+        from celllab.planner.network_summary import network_dict
+
+        out["network"] = network_dict(plan.network)
     return out
 
 

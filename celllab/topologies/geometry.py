@@ -224,6 +224,10 @@ def place_mos(spec: Any, deck: Any, geo: Geometry, bands: Sequence[Band]) -> Non
                               f"row too short for a device on the {short.region} after rails, clearances, "
                               "well spacings and end caps")
     if spec.gate_width_um is not None:
+        w_min = deck.oxides[spec.oxide].min_width_um
+        if spec.gate_width_um < w_min - _LENGTH_SLACK_UM:
+            raise GeometryProblem("gate_width_um", spec.gate_width_um,
+                                  f"below the oxide's minimum gate width {w_min:g} um")
         if spec.gate_width_um > max_w_row + _SLACK_UM:
             raise GeometryProblem("gate_width_um", spec.gate_width_um,
                                   f"devices taller than the row allows; at most {max_w_row:.4g} um per row")

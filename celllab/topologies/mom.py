@@ -35,6 +35,7 @@ from celllab.topologies.registry import Topology
 TOP_ILD_M = 0.5 * micro
 #: Smallest inter-layer dielectric height the field model is given, m.
 MIN_ILD_M = 1.0 * nano
+NO_GATE_OXIDE = "no_gate_oxide: tddb_life_years and pulse_vbd_V are empty (a mom cell has no gate oxide)"
 
 
 def _layer_arrays(corners: CornerSet, geos: Sequence[Any], position: int) -> mom.MomLayer:
@@ -107,14 +108,15 @@ def evaluate(deck: Any, corners: CornerSet, cells: Sequence[Any], geos: Sequence
     per = LayerValues(fig, n_v, n_c)
     net = circuits.mom_circuit(per.capacitance, per.line_resistance, per.via_resistance,
                                common.flat(common.loop_inductance(corners, geos), n_v, n_c))
-    sol = common.solve(net, freq, n_v, n_c)
+    sol = common.solve(net, freq, n_v, n_c, common.lumped_limit(deck, geos))
     nan = np.full((n_v, n_c), np.nan)
     zero = np.zeros((n_v, n_c))
     return common.GroupResult(
         n_variant=n_v, n_corner=n_c, z_ohm=sol.z_ohm, summary=sol.summary,
-        cap_ox_F=np.broadcast_to(fig.capacitance, (n_v, n_c)).copy(), leakage_A=zero,
-        e_ox_V_per_m=zero, ttf_s=nan, vbd_pulse_V=nan, supply_V=common.supply(corners, common.rails_of(cells)),
-        netlist=net, flags=[[[] for _ in range(n_c)] for _ in range(n_v)],
+        cap_ox_F=np.broadcast_to(fig.capacitance, (n_v, n_c)).copy(), gate_leakage_A=zero,
+        junction_leakage_A=zero, e_ox_V_per_m=zero, tddb_rate_per_s_m2=nan, vbd_pulse_V=nan,
+        supply_V=common.supply(corners, common.rails_of(cells)),
+        netlist=net, flags=[[[NO_GATE_OXIDE] for _ in range(n_c)] for _ in range(n_v)],
         notes=["MOM: lateral finger coupling with conformal-mapping face terms (a lower bound of the 2-D "
                "field solution); leakage through inter-metal dielectric not modelled (negligible)"])
 

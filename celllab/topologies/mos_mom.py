@@ -13,6 +13,7 @@ from typing import Any
 
 import numpy as np
 
+from celllab.characterization.junctions import junction_leakage
 from celllab.characterization.oxide_stress import oxide_stress
 from celllab.characterization.params import CornerSet
 from celllab.physics import circuits
@@ -21,6 +22,7 @@ from celllab.topologies.geometry import MOM_FIELDS, MOS_FIELDS, OUTLINE_FIELDS, 
 from celllab.topologies.mom import LayerValues, mom_figures
 from celllab.topologies.registry import Topology
 from celllab.topologies.single_mos import one_device_per_row
+from celllab.topologies.wells import biased_wells
 
 
 def device_and_fingers(spec: Any, deck: Any, geo: Geometry) -> None:
@@ -49,15 +51,18 @@ def evaluate(deck: Any, corners: CornerSet, cells: Sequence[Any], geos: Sequence
         r_access=flat(res.r_access, n_v, n_c), c_overlap=flat(res.c_overlap, n_v, n_c),
         contacted_ends=int(cells[0].contacted_ends), r_vias=per.via_resistance,
         l_loop=flat(common.loop_inductance(corners, geos), n_v, n_c))
-    sol = common.solve(net, freq, n_v, n_c)
-    stress = oxide_stress(corners, dev.oxides, res.v_ox, res.v_gb, dev.geometry.gate_area)
+    sol = common.solve(net, freq, n_v, n_c, common.lumped_limit(deck, geos))
+    roles = np.array([c.mos_device for c in cells])
+    stress = oxide_stress(corners, dev.oxides, roles, res.v_ox, res.v_gb, dev.geometry.gate_area)
+    junction, junction_flags = junction_leakage(corners, *biased_wells(deck, cells, geos, roles), dev.supply_V)
     c_mom = np.broadcast_to(fig.capacitance, (n_v, n_c))
     return common.GroupResult(
         n_variant=n_v, n_corner=n_c, z_ohm=sol.z_ohm, summary=sol.summary, cap_ox_F=res.c_ox_plain + c_mom,
-        leakage_A=stress.leakage_A, e_ox_V_per_m=stress.e_ox_V_per_m, ttf_s=stress.ttf_s,
+        gate_leakage_A=stress.leakage_A, junction_leakage_A=junction, e_ox_V_per_m=stress.e_ox_V_per_m,
+        tddb_rate_per_s_m2=stress.tddb_rate_per_s_m2,
         vbd_pulse_V=stress.vbd_pulse_V, supply_V=dev.supply_V, netlist=net, cv_bias=res.cv_bias,
         cv_cap=res.cv_cap + c_mom[..., None], cv_operating_V=res.v_gb,
-        cv_operating_F=res.c_gate + res.c_overlap + c_mom, flags=res.flags,
+        cv_operating_F=res.c_gate + res.c_overlap + c_mom, flags=common.merge_flags(res.flags, junction_flags),
         notes=["MOS+MOM: MOS decap and finger capacitor in parallel in one footprint"])
 
 

@@ -13,8 +13,9 @@ rail), the p-well device (isolated p-well in a deep n-well) keeps ``deep_nwell_s
 the ground-rail and side edges. In an open region the device fills the active row height (the
 p-well accumulation device keeps its deep-n-well spacing all round). Common practice, no source.
 Evaluation: the device model of ``characterization.mos`` at the cell's rail voltage, the
-distributed-channel circuit of ``physics.circuits.mos_decap_circuit``, and the oxide stress of
-``characterization.oxide_stress``.
+distributed-channel circuit of ``physics.circuits.mos_decap_circuit``, the oxide stress of
+``characterization.oxide_stress`` and the well-junction leakage of ``characterization.junctions``
+over the wells of ``topologies.wells``.
 """
 
 from __future__ import annotations
@@ -24,6 +25,7 @@ from typing import Any
 
 import numpy as np
 
+from celllab.characterization.junctions import junction_leakage
 from celllab.characterization.oxide_stress import oxide_stress
 from celllab.characterization.params import CornerSet
 from celllab.topologies import common
@@ -35,6 +37,7 @@ from celllab.topologies.geometry import (
     place_mos,
 )
 from celllab.topologies.registry import Evaluate, Topology
+from celllab.topologies.wells import biased_wells
 
 
 def device_role(spec: Any) -> str:
@@ -60,13 +63,15 @@ def evaluate_tied_gate(topology: str, deck: Any, corners: CornerSet, cells: Sequ
     dev = common.mos_devices(corners, cells, geos, roles)
     res = dev.result
     net = common.mos_circuit(res, dev.geometry, common.loop_inductance(corners, geos), n_v, n_c, topology)
-    sol = common.solve(net, freq, n_v, n_c)
-    stress = oxide_stress(corners, dev.oxides, res.v_ox, res.v_gb, dev.geometry.gate_area)
+    sol = common.solve(net, freq, n_v, n_c, common.lumped_limit(deck, geos))
+    stress = oxide_stress(corners, dev.oxides, roles, res.v_ox, res.v_gb, dev.geometry.gate_area)
+    junction, junction_flags = junction_leakage(corners, *biased_wells(deck, cells, geos, roles), dev.supply_V)
     return common.GroupResult(
         n_variant=n_v, n_corner=n_c, z_ohm=sol.z_ohm, summary=sol.summary, cap_ox_F=res.c_ox_plain,
-        leakage_A=stress.leakage_A, e_ox_V_per_m=stress.e_ox_V_per_m, ttf_s=stress.ttf_s,
-        vbd_pulse_V=stress.vbd_pulse_V, supply_V=dev.supply_V, netlist=net, cv_bias=res.cv_bias,
-        cv_cap=res.cv_cap, cv_operating_V=res.v_gb, cv_operating_F=res.c_gate + res.c_overlap, flags=res.flags)
+        gate_leakage_A=stress.leakage_A, junction_leakage_A=junction, e_ox_V_per_m=stress.e_ox_V_per_m,
+        tddb_rate_per_s_m2=stress.tddb_rate_per_s_m2, vbd_pulse_V=stress.vbd_pulse_V, supply_V=dev.supply_V,
+        netlist=net, cv_bias=res.cv_bias, cv_cap=res.cv_cap, cv_operating_V=res.v_gb,
+        cv_operating_F=res.c_gate + res.c_overlap, flags=common.merge_flags(res.flags, junction_flags))
 
 
 def _evaluator(topology: str, role: Callable[[Any], str]) -> Evaluate:

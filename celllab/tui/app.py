@@ -34,6 +34,7 @@ from celllab.tui.screens.export import (
     perform_export,
 )
 from celllab.tui.screens.keys import KeysOverlay
+from celllab.tui.screens.plan import PlanScreen, find_block_files
 from celllab.tui.screens.ranking import RankingScreen
 
 __all__ = ["CelllabApp", "DeckFailure", "load_decks_for_ui", "run_app"]
@@ -59,12 +60,13 @@ def default_export_folder(catalog: Any) -> Path:
 
 
 class CelllabApp(App[None]):
-    """Catalog browser, cell views, what-if editor, ranking and deck views."""
+    """Catalog browser, cell views, what-if editor, ranking, deck views and block planning."""
 
     CSS_PATH = "app.tcss"
     TITLE = "celllab"
     SUB_TITLE = "decap cells · engineering estimates"
-    MODES = {"catalog": CatalogScreen, "ranking": RankingScreen, "decks": DeckScreen}
+    MODES = {"catalog": CatalogScreen, "ranking": RankingScreen, "decks": DeckScreen,
+             "plan": PlanScreen}
     DEFAULT_MODE = "catalog"
     HORIZONTAL_BREAKPOINTS = [(0, "-narrow"), (120, "-wide")]
     ENABLE_COMMAND_PALETTE = False
@@ -78,6 +80,7 @@ class CelllabApp(App[None]):
         Binding("1", "switch_mode('catalog')", "Catalog", show=False),
         Binding("2", "switch_mode('ranking')", "Ranking", show=False),
         Binding("3", "switch_mode('decks')", "Decks", show=False),
+        Binding("4", "switch_mode('plan')", "Planning", show=False),
     ]
 
     def __init__(
@@ -91,6 +94,7 @@ class CelllabApp(App[None]):
         debounce_s: float = 0.15,
         export_folder: str | Path | None = None,
         z_target_ohm: float | None = None,
+        block_paths: Sequence[str | Path] = (),
     ) -> None:
         super().__init__()
         self.catalog = catalog
@@ -111,6 +115,8 @@ class CelllabApp(App[None]):
         #: where exports go unless the user types another path: an "exports" folder beside
         #: the catalog file (made on the first export)
         self.export_folder = Path(export_folder) if export_folder else default_export_folder(catalog)
+        #: block files given to the app (the planning view also offers ./process_decks/blocks)
+        self.block_paths = [Path(p) for p in block_paths]
         self.catalog_lock = threading.Lock()
         #: shared choices of the catalog screen, read by the ranking screen
         self.current_deck: str | None = next(iter(self.decks), None)
@@ -167,6 +173,10 @@ class CelllabApp(App[None]):
         from celllab.tui.screens.whatif import spec_from_result
 
         return spec_from_result(cell)
+
+    def block_files(self) -> list[Path]:
+        """Block files for the planning view: those given, then the demo folder's."""
+        return find_block_files(self.block_paths, [Path.cwd() / "process_decks" / "blocks"])
 
     def remember_spec(self, deck_name: str, spec: Any) -> None:
         """Keep a saved variant's spec so a later what-if starts from exactly it."""
@@ -293,8 +303,10 @@ def write_crash_log(error: BaseException, folder: str | Path | None = None) -> P
 
 
 def run_app(catalog_path: str | Path | None = None, deck_paths: Sequence[str | Path] = (),
-            *, log_folder: str | Path | None = None, z_target_ohm: float | None = None) -> int:
-    """Open the catalog (created when missing) and the deck files, run the UI.
+            block_paths: Sequence[str | Path] = (), *, log_folder: str | Path | None = None,
+            z_target_ohm: float | None = None) -> int:
+    """Open the catalog (created when missing), the deck files and the block files offered by
+    the planning view, run the UI.
 
     Returns 0; 1 after an unexpected error, which is summed up in one line on stderr with the
     path of the log file that holds its full traceback (in ``log_folder``, default the
@@ -304,7 +316,8 @@ def run_app(catalog_path: str | Path | None = None, deck_paths: Sequence[str | P
 
     catalog = open_catalog(catalog_path)
     decks, failures = load_decks_for_ui(deck_paths)
-    app = CelllabApp(catalog=catalog, deck=decks, deck_failures=failures, z_target_ohm=z_target_ohm)
+    app = CelllabApp(catalog=catalog, deck=decks, deck_failures=failures, z_target_ohm=z_target_ohm,
+                     block_paths=block_paths)
     try:
         app.run()
     finally:

@@ -13,8 +13,8 @@ from typing import Any
 
 import numpy as np
 
-from celllab.columns import BOUND_MARK, is_lower_bound
-from celllab.display import format_number
+from celllab.columns import is_lower_bound
+from celllab.display import LOWER_BOUND, format_number
 from celllab.records import CellResult
 from celllab.tui.widgets.plot import Level, Marker, PlotSpec, Series
 from celllab.units import from_si, to_si
@@ -80,7 +80,7 @@ def impedance_plot(cells: Pairs, corners: Sequence[str] | None = None,
             if math.isfinite(srf_Hz) and f.size and f[0] <= srf_Hz <= f[-1]:
                 at = float(np.interp(srf_Hz, f, z))
                 if is_lower_bound(c, "srf_GHz"):
-                    markers.append(Marker(srf_Hz, at, f"SRF {BOUND_MARK} sweep end", glyph="▶"))
+                    markers.append(Marker(srf_Hz, at, f"SRF {LOWER_BOUND} here (bound)", glyph="▶"))
                 else:
                     markers.append(Marker(srf_Hz, at, "self-resonance"))
     levels = ()
@@ -121,7 +121,7 @@ def ceff_plot(cells: Pairs, corners: Sequence[str] | None = None) -> PlotSpec:
             if cap is not None and math.isfinite(bw_Hz) and f.size and f[0] <= bw_Hz <= f[-1]:
                 if is_lower_bound(c, "bandwidth_GHz"):
                     markers.append(Marker(bw_Hz, float(np.interp(bw_Hz, f, ceff)),
-                                          f"bandwidth {BOUND_MARK} sweep end", glyph="▶"))
+                                          f"bandwidth {LOWER_BOUND} here (bound)", glyph="▶"))
                 else:
                     markers.append(Marker(bw_Hz, cap / math.sqrt(2), "bandwidth (C/√2)"))
     return PlotSpec(title="C_eff(f)", x_label="f [Hz]", y_label="C_eff [fF]", x_log=True,

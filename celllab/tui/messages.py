@@ -211,3 +211,25 @@ class WhatIfEdited(Message):
         self.geometry = geometry
         self.deck = deck
         self.immediate = immediate
+
+
+class PlanProgressed(Message):
+    """The planning worker reached a new stage (short text, e.g. "solving the fill")."""
+
+    def __init__(self, serial: int, stage: str) -> None:
+        super().__init__()
+        self.serial = serial
+        self.stage = stage
+
+
+class PlanFinished(Message):
+    """The planning worker finished: ``plan`` (a BlockPlan) or ``problems`` (located), or it
+    was cancelled (both None)."""
+
+    def __init__(self, serial: int, plan: Any = None, problems: list[Problem] | None = None,
+                 seconds: float = 0.0) -> None:
+        super().__init__()
+        self.serial = serial
+        self.plan = plan
+        self.problems = problems
+        self.seconds = seconds

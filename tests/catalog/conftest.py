@@ -1,15 +1,20 @@
 """Synthetic characterization runs for the catalog tests (no physics engine involved).
 
 Numbers are invented but plausible for on-chip decaps (fF capacitances, ohm ESR, pH ESL, a
-series R-L-C impedance, a tanh-shaped C-V curve); the process is fictional. ``make_run`` is
-deterministic for a given seed, so a subprocess can rebuild exactly the same run.
+series R-L-C impedance, a tanh-shaped C-V curve); the process is fictional. Each run is what
+the engine could have produced - a valid deck (the invented lumen130 demo deck under another
+name), valid cell definitions with their real content hashes and the footprints the deck's
+layout rules give them - so a catalog of them passes every check a merge makes. ``make_run``
+is deterministic for a given seed, so a subprocess can rebuild exactly the same run.
 """
 
 from __future__ import annotations
 
+import functools
 import hashlib
 import json
 import math
+import zlib
 from dataclasses import replace
 from pathlib import Path
 
@@ -17,6 +22,9 @@ import numpy as np
 import pytest
 
 from celllab.catalog import Catalog, open_catalog
+from celllab.cells.geometry import resolve_geometry
+from celllab.cells.schema import CellSpec
+from celllab.deck import Deck, load_deck
 from celllab.records import (
     METRIC_NAMES,
     CellResult,
@@ -26,6 +34,8 @@ from celllab.records import (
     FrequencyResponse,
 )
 from celllab.topologies import REGISTRY
+
+BASE_DECK = Path(__file__).resolve().parents[2] / "process_decks" / "lumen130.toml"
 
 TOPOLOGIES = REGISTRY.names()
 ESD_SAFE = REGISTRY.esd_safe_names()
@@ -53,21 +63,32 @@ SHORT = {
     "mom": "mom",
     "mos_mom": "mosmom",
 }
-SITE_UM, ROW_UM = 0.19, 1.2
 
 
-def _hash(obj: object) -> str:
-    return hashlib.sha256(json.dumps(obj, sort_keys=True).encode()).hexdigest()
+@functools.cache
+def _base_params() -> str:
+    return json.dumps(load_deck(BASE_DECK).model_dump(mode="json"))
 
 
 def deck_params(deck_name: str, version: int) -> dict[str, object]:
-    return {
-        "name": deck_name,
-        "note": "invented process for tests, not foundry data",
-        "revision": version,
-        "oxides": {"core": {"t_ox_nm": 1.8 + 0.01 * version}, "io": {"t_ox_nm": 5.2}},
-        "corners": list(CORNERS),
-    }
+    """A valid deck's parameters: the invented lumen130 deck renamed, its core oxide nudged by
+    the version (so each version has its own hash)."""
+    params = json.loads(_base_params())
+    params["process"]["name"] = deck_name
+    params["process"]["description"] = "invented process for tests, not foundry data"
+    params["oxides"]["core"]["t_ox_nm"] = round(2.2 + 0.01 * version, 6)
+    return params
+
+
+def deck_hash(params: dict[str, object]) -> str:
+    """The deck's content hash (as ``Deck.content_hash`` computes it)."""
+    text = json.dumps(params, sort_keys=True, separators=(",", ":"))
+    return hashlib.sha256(text.encode()).hexdigest()[:16]
+
+
+@functools.cache
+def _deck(params_text: str) -> Deck:
+    return Deck.model_validate(json.loads(params_text))
 
 
 def make_metrics(
@@ -95,15 +116,20 @@ def make_metrics(
         "bandwidth_GHz": 1.0 / (2 * math.pi * esr * c_F) / 1e9,
         "esl_pH": esl_pH,
         "srf_GHz": 1.0 / (2 * math.pi * math.sqrt(l_H * c_F)) / 1e9,
+        "srf_is_bound": 1.0 if mom and corner != "slow_125C" else 0.0,  # bounds, to exercise their rules
+        "bandwidth_is_bound": 0.0,
         "tau_ps": esr * c_F * 1e12,
         "leakage_nA": leak_nA,
         "leakage_nA_per_nF": leak_per_nF,
+        "gate_leakage_nA": 0.85 * leak_nA,
+        "junction_leakage_nA": 0.15 * leak_nA,
         "oxide_field_MV_per_cm": 0.0 if mom else vdd / (t_ox_nm * 1e-7) / 1e6,
-        "tddb_life_years": float(10 ** rng.uniform(0.5, 4.0)) / leak_factor,
+        "tddb_fit_per_mm2": math.nan if mom else float(10 ** rng.uniform(-3.0, 1.0)) * leak_factor,
         "pulse_vbd_V": math.nan if mom else rng.uniform(3.5, 8.0),
     }
-    # metrics added to records later get an invented positive value, so the factory keeps working
-    return {m: values.get(m, float(rng.uniform(0.1, 10.0))) for m in METRIC_NAMES}
+    # metrics added to records later get an invented positive value from their name alone (no
+    # random draw), so the factory keeps working and the other values do not move
+    return {m: values[m] if m in values else 0.1 + (zlib.crc32(m.encode()) % 9900) / 1000 for m in METRIC_NAMES}
 
 
 def make_cell(
@@ -112,19 +138,22 @@ def make_cell(
     corners: tuple[str, ...],
     n_freq: int = 12,
     family: str | None = None,
+    deck: Deck | None = None,
+    **definition: object,
 ) -> CellResult:
+    """Cell ``index`` (topology and oxide cycle with it) with a geometry the deck accepts;
+    ``definition`` overrides fields of the cell definition."""
+    deck = deck or _deck(json.dumps(deck_params("invented_n7x", 1)))
     topology = TOPOLOGIES[index % len(TOPOLOGIES)]
     oxide = "io" if index % 5 == 4 else "core"
-    width_sites = int(4 + rng.integers(0, 37))
-    height_rows = int(1 + rng.integers(0, 3))
-    area = width_sites * SITE_UM * height_rows * ROW_UM
-    geometry = {
-        "width_sites": width_sites,
-        "height_rows": height_rows,
-        "fingers": int(1 + index % 4),
-        "gate_length_um": round(float(rng.uniform(0.1, 1.0)), 3),
-    }
     name = f"{SHORT.get(topology, topology[:6])}_{oxide}_{index:04d}"
+    spec = CellSpec.model_validate({
+        "name": name, "family": family or f"fam_{'abc'[index % 3]}", "topology": topology,
+        "oxide": oxide, "width_sites": int(12 + index + rng.integers(0, 2)),  # unique per index
+        "height_rows": int(1 + rng.integers(0, 3)), "fingers": int(1 + index % 4), **definition,
+    })
+    geo = resolve_geometry(spec, deck)
+    area = geo.area_um2
     freq = np.logspace(6, 11, n_freq)
     result_corners = []
     for k, corner in enumerate(corners):
@@ -139,6 +168,8 @@ def make_cell(
             else CVCurve(bias, c_F * (0.6 + 0.4 * np.tanh(2 * bias)), CORNERS[corner][1], c_F)
         )
         flags = ["outside model range: gate_length_um"] if (index + k) % 7 == 0 else []
+        if topology == "mom":  # an empty metric carries a flag naming it
+            flags.append("no_gate_oxide: pulse_vbd_V is empty (no gate oxide in a mom cell)")
         result_corners.append(
             CornerResult(
                 corner,
@@ -151,17 +182,17 @@ def make_cell(
             )
         )
     return CellResult(
-        name=name,
-        cell_hash=_hash({"name": name, "topology": topology, "oxide": oxide, "geometry": geometry}),
-        family=family or f"fam_{'abc'[index % 3]}",
+        name=spec.name,
+        cell_hash=spec.content_hash,
+        family=spec.family,
         topology=topology,
         oxide=oxide,
-        geometry=geometry,
+        geometry=dict(spec.geometry),
         area_um2=area,
-        width_sites=width_sites,
-        height_rows=height_rows,
-        gate_area_um2=area * (1.0 if topology == "mom" else 0.6),
-        esd_safe=topology in ESD_SAFE,
+        width_sites=spec.width_sites,
+        height_rows=spec.height_rows,
+        gate_area_um2=geo.gate_area_um2 if geo.gate_area_um2 else geo.mom_plate_area_um2,
+        esd_safe=spec.esd_safe,
         corners=result_corners,
         notes=["synthetic test cell"],
     )
@@ -180,10 +211,11 @@ def make_run(
     """A deterministic synthetic run of ``n_cells`` cells at ``corners``."""
     rng = np.random.default_rng(seed)
     params = deck_params(deck_name, deck_version)
-    cells = [make_cell(first_index + i, rng, corners, n_freq) for i in range(n_cells)]
+    deck = _deck(json.dumps(params))
+    cells = [make_cell(first_index + i, rng, corners, n_freq, deck=deck) for i in range(n_cells)]
     return CharacterizationRun(
         deck_name=deck_name,
-        deck_hash=_hash(params),
+        deck_hash=deck_hash(params),
         deck_params=params,
         model_version=model_version,
         corners=list(corners),
@@ -193,10 +225,16 @@ def make_run(
 
 
 def scaled_copy(cell: CellResult, factor: float) -> CellResult:
-    """The same cell (same hash) with every capacitance-like number scaled: a conflicting result."""
+    """The same cell (same hash) with every capacitance-like number (and the leakage, so that
+    leakage per nF stays) scaled: a conflicting result."""
+    scaled = ("cap", "leakage_nA")
     corners = [
         replace(
-            c, metrics={k: (v * factor if k.startswith("cap") else v) for k, v in c.metrics.items()}
+            c,
+            metrics={
+                k: (v * factor if k.startswith(scaled) and k != "leakage_nA_per_nF" else v)
+                for k, v in c.metrics.items()
+            },
         )
         for c in cell.corners
     ]

@@ -6,12 +6,13 @@ import hashlib
 from dataclasses import replace
 from pathlib import Path
 
+import numpy as np
 import pytest
 
 from celllab.catalog import Catalog, merge, open_catalog
 from celllab.errors import CatalogError
 
-from .conftest import make_run, scaled_copy
+from .conftest import CORNERS, make_cell, make_run, scaled_copy
 
 
 def _sha(path: Path) -> str:
@@ -58,9 +59,10 @@ def test_new_results_are_added_exactly(filled: Catalog, run, other_path: Path) -
     more_cells = make_run(n_cells=5, seed=6, first_index=500)  # same deck, new cells
     _make_other(other_path, run, extra, more_cells)
     sha_before = _sha(other_path)
-    report = filled.merge_from(other_path)
+    report = filled.merge_from(other_path, make_current=True)
     assert report.added == 12 and report.identical == len(run.cells) and not report.conflicts
     assert report.decks_added == 1 and report.runs_added == 2
+    assert report.decks_made_current == [f"invented_m9z ({extra.deck_hash[:12]})"]
     assert _sha(other_path) == sha_before  # the other file is not changed
     assert filled.count(deck="invented_m9z") == 7
     assert filled.count(deck=run.deck_name) == len(run.cells) + 5
@@ -92,8 +94,9 @@ def test_conflicting_numbers_are_reported_not_overwritten(
 
 def test_name_with_other_hash_is_a_conflict(filled: Catalog, run, other_path: Path) -> None:  # type: ignore[no-untyped-def]
     cell = run.cells[3]
-    renamed_hash = replace(cell, cell_hash="e" * 64)
-    _make_other(other_path, replace(run, cells=[renamed_hash]))
+    redefined = make_cell(3, np.random.default_rng(9), tuple(CORNERS), fingers=2)  # same name
+    assert redefined.name == cell.name and redefined.cell_hash != cell.cell_hash
+    _make_other(other_path, replace(run, cells=[redefined]))
     report = filled.merge_from(other_path)
     assert report.added == 0
     assert len(report.conflicts) == 1 and "not imported" in report.conflicts[0]
@@ -101,28 +104,26 @@ def test_name_with_other_hash_is_a_conflict(filled: Catalog, run, other_path: Pa
     assert filled.count() == len(run.cells)
 
 
-def test_our_current_deck_stays_unless_adopted(filled: Catalog, run, other_path: Path) -> None:  # type: ignore[no-untyped-def]
+def test_newer_deck_from_other_stays_not_current(filled: Catalog, run, other_path: Path) -> None:  # type: ignore[no-untyped-def]
     newer = make_run(deck_version=2, n_cells=4)
-    _make_other(other_path, run, newer)  # stored after ours: made current more recently
+    _make_other(other_path, run, newer)  # stored after ours: more recent
     report = filled.merge_from(other_path)
-    assert report.added == 4
+    assert report.added == 4 and report.decks_made_current == []
+    assert report.decks_not_current == [f"{newer.deck_name} ({newer.deck_hash[:12]})"]
     current = [d for d in filled.decks() if d.current]
-    assert [d.deck_hash for d in current] == [run.deck_hash]  # a teammate's deck is history
+    assert [d.deck_hash for d in current] == [run.deck_hash]
     assert filled.count() == len(run.cells)
-    assert len(report.current_kept) == 1 and newer.deck_hash[:12] in report.current_kept[0]
-    assert report.current_changed == []
 
 
-def test_newer_deck_from_other_becomes_current_when_adopted(filled: Catalog, run,  # type: ignore[no-untyped-def]
-                                                            other_path: Path) -> None:
+def test_newer_deck_from_other_becomes_current_when_asked(filled: Catalog, run, other_path: Path) -> None:  # type: ignore[no-untyped-def]
     newer = make_run(deck_version=2, n_cells=4)
-    _make_other(other_path, run, newer)
-    report = filled.merge_from(other_path, adopt_current=True)
+    _make_other(other_path, run, newer)  # stored after ours: more recent
+    report = filled.merge_from(other_path, make_current=True)
     assert report.added == 4
+    assert report.decks_made_current == [f"{newer.deck_name} ({newer.deck_hash[:12]})"]
     current = [d for d in filled.decks() if d.current]
     assert [d.deck_hash for d in current] == [newer.deck_hash]
     assert filled.count() == 4
-    assert len(report.current_changed) == 1 and report.current_kept == []
 
 
 def test_merge_is_one_transaction(

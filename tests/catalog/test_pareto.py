@@ -85,7 +85,7 @@ def _sign(metric: str) -> float:
     [
         ["cap_density_fF_per_um2", "leakage_nA_per_nF"],
         ["bandwidth_GHz", "esr_ohm", "area_um2"],
-        ["cap_fF", "pulse_vbd_V", "tddb_life_years"],
+        ["cap_fF", "pulse_vbd_V", "tddb_fit_per_mm2"],
     ],
 )
 def test_catalog_pareto_equals_brute_force(catalog: Catalog, metrics: list[str]) -> None:

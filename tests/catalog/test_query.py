@@ -40,6 +40,11 @@ def brute_rows(run: CharacterizationRun, corner: str | None) -> list[Row]:
                 values = [c.metrics[m] for c in cell.corners if not math.isnan(c.metrics[m])]
                 take_min = (METRIC_BY_NAME[m].better == "higher") == (corner == "worst")
                 metrics[m] = (min(values) if take_min else max(values)) if values else None
+            for m in METRIC_NAMES:  # a bound flag follows the corner that gives its metric's extreme
+                marked = METRIC_BY_NAME[m].bounds
+                if marked:
+                    flags = [c.metrics[m] for c in cell.corners if c.metrics[marked] == metrics[marked]]
+                    metrics[m] = max(flags) if flags else None
             out.append({**base, "corner": corner, **metrics})
         else:
             for c in cell.corners:

@@ -21,16 +21,16 @@ def test_check_reports_counts(capsys) -> None:
 
 def test_build_twice_is_a_no_op_and_rebuild_after_deck_change_supersedes(tmp_path, capsys) -> None:
     cat = tmp_path / "c.sqlite"
-    assert main(["build", "--deck", DECK, "--cells", CELLS, "--catalog", str(cat), "--json", "--corners", "typ_25C"]) == 0
+    assert main(["build", "--deck", DECK, "--cells", CELLS, "--catalog", str(cat), "--json", "--corners", "typ_25C", "--no-esd"]) == 0
     first = json.loads(capsys.readouterr().out)[0]
     assert first["inserted"] == first["cells"] > 40
-    assert main(["build", "--deck", DECK, "--cells", CELLS, "--catalog", str(cat), "--json", "--corners", "typ_25C"]) == 0
+    assert main(["build", "--deck", DECK, "--cells", CELLS, "--catalog", str(cat), "--json", "--corners", "typ_25C", "--no-esd"]) == 0
     second = json.loads(capsys.readouterr().out)[0]
     assert second["inserted"] == 0 and second["unchanged"] == first["cells"]
     changed = tmp_path / "lumen130.toml"
     changed.write_text(Path(DECK).read_text().replace("t_ox_nm = 2.2", "t_ox_nm = 2.1"))
     assert main(["build", "--deck", str(changed), "--cells", CELLS, "--catalog", str(cat), "--json",
-                 "--corners", "typ_25C"]) == 0
+                 "--corners", "typ_25C", "--no-esd"]) == 0
     third = json.loads(capsys.readouterr().out)[0]
     assert third["inserted"] == first["cells"] and third["superseded"] >= 1
     assert main(["decks", "--catalog", str(cat)]) == 0
@@ -46,7 +46,7 @@ def test_build_rejects_unknown_corner(tmp_path, capsys) -> None:
 
 
 def test_demo_without_ui_prints_the_densest_cells(tmp_path, capsys) -> None:
-    assert main(["demo", "--no-ui", "--catalog", str(tmp_path / "demo.sqlite"), "--limit", "3", "--quiet"]) == 0
+    assert main(["demo", "--no-ui", "--catalog", str(tmp_path / "demo.sqlite"), "--limit", "3", "--quiet", "--no-esd"]) == 0
     out = capsys.readouterr().out
     assert "cap_density_fF_per_um2" in out and "not sign-off" in out
     assert len([line for line in out.splitlines() if "-w" in line]) == 3

@@ -47,6 +47,8 @@ def _cell(name: str, topology: str, esd_safe: bool, cap_F: float, esr_ohm: float
             cap_fF=cap_F * 1e15,
             esr_ohm=esr_ohm * r_factor,
             leakage_nA_per_nF=2.0 if esd_safe else 40.0 * r_factor,
+            srf_is_bound=0.0,
+            bandwidth_is_bound=0.0,
         )
         cv = CVCurve(np.linspace(-1, 1, 5), np.full(5, cap_F), supply, cap_F)
         corners.append(

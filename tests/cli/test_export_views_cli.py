@@ -99,7 +99,7 @@ def test_lef_to_a_folder_loads_in_klayout(demo_view_catalog: Path, tmp_path: Pat
         ),
         (["liberty"], "--deck", "several decks"),
         (["lef", "--deck", "lumen130", "--grid-nm", "7"], "layout.site_width_um", "grid steps"),
-        (["lef", "--deck", "lumen130", "--grid-nm", "-1"], "--grid-nm", "must be > 0"),
+        (["lef", "--deck", "lumen130", "--grid-nm", "-1"], "--grid-nm", "allowed: a finite number > 0"),
     ],
 )
 def test_bad_requests_exit_2_with_located_messages(
@@ -127,7 +127,7 @@ def test_unwritable_output_is_reported_not_raised(
         export(demo_view_catalog, "lef", "--deck", "lumen130", "--out", str(blocker / "x.lef")) == 2
     )
     err = capsys.readouterr().err
-    assert "--out" in err and "cannot write" in err and str(blocker) in err
+    assert str(blocker) in err and "not a folder" in err and "Traceback" not in err
     assert blocker.read_text(encoding="utf-8") == "not a folder\n"
 
 

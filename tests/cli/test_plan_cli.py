@@ -21,7 +21,7 @@ BLOCKS = {"lumen130_dsp": "lumen130", "quill28hk_soc": "quill28hk"}
 def catalog(tmp_path_factory: pytest.TempPathFactory) -> Path:
     path = tmp_path_factory.mktemp("plan_cli") / "demo.sqlite"
     for deck in BLOCKS.values():  # one build per deck: a cell file belongs to its deck
-        assert main(["build", "--catalog", str(path), "--quiet",
+        assert main(["build", "--catalog", str(path), "--quiet", "--no-esd",
                      "--deck", str(DECKS / f"{deck}.toml"),
                      "--cells", str(DECKS / "cells" / f"{deck}_cells.toml")]) == 0
     return path
@@ -85,8 +85,13 @@ def test_out_writes_every_file(catalog: Path, tmp_path: Path,
                           "--out", str(out_dir), "--no-explain")
     assert code == 0, err
     data = json.loads(out)
-    expected = [out_dir / f"dsp_core_{s}" for s in ("fill.csv", "fill.json", "plan.html",
-                                                     "z.csv", "z.s1p")]
+    # the block has a [network]: Z(f) per region, the 2-port region Z-matrix per corner and
+    # the droop waveforms instead of the lumped one-port files
+    corners = [c["corner"] for c in data["corners"]]
+    assert len(corners) == 4
+    expected = [out_dir / f"dsp_core_{s}" for s in (
+        "fill.csv", "fill.json", "plan.html", "z_mac_array.csv", "z_pad_ring.csv",
+        "droop.csv", *(f"{c}.s2p" for c in corners))]
     assert sorted(data["files"]) == sorted(str(p) for p in expected)
     assert all(p.is_file() for p in expected) and "wrote" in err
 

@@ -191,13 +191,13 @@ def test_merge_says_when_a_teammates_deck_is_not_made_current(
     with open_catalog(other) as cat:
         cat.store_run(newer)  # stored after ours: the teammate's deck is the more recent
     code, out, _ = _run(capsys, "merge", str(other), "--catalog", str(cat_path))
-    assert code == 0 and "kept: deck invented_n7x" in out and "--adopt-current" in out
+    assert code == 0 and "not current: deck invented_n7x" in out and "--make-current" in out
     with open_catalog(cat_path) as cat:
         assert [d.deck_hash for d in cat.decks() if d.current] != [newer.deck_hash]
     code, out, _ = _run(capsys, "merge", str(other), "--catalog", str(cat_path),
-                        "--adopt-current", "--json")
+                        "--make-current", "--json")
     report = json.loads(out)
-    assert code == 0 and len(report["current_changed"]) == 1
+    assert code == 0 and len(report["decks_made_current"]) == 1
     with open_catalog(cat_path) as cat:
         assert [d.deck_hash for d in cat.decks() if d.current] == [newer.deck_hash]
 

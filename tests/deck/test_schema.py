@@ -5,6 +5,7 @@ from __future__ import annotations
 import copy
 import functools
 import re
+import types
 import typing
 from pathlib import Path
 from typing import Any
@@ -22,9 +23,10 @@ DECK_DIR = Path(__file__).resolve().parents[2] / "process_decks"
 DEMO = ("lumen130", "tarn40lp", "quill28hk")
 
 DECK_MODELS = [
-    schema.ProcessInfo, schema.DeviceParams, schema.LeakageParams, schema.ReliabilityParams,
-    schema.OxideFlavour, schema.Wells, schema.Resistances, schema.MetalLayer, schema.Layout,
-    schema.Supplies, schema.Corner, schema.Deck,
+    schema.ProcessInfo, schema.DeviceParams, schema.LeakageParams, schema.Tunnelling, schema.ReliabilityParams,
+    schema.OxideFlavour, schema.Wells, schema.Junctions, schema.JunctionLeakage, schema.Resistances,
+    schema.MetalLayer, schema.Layout, schema.Supplies, schema.AnalysisBand, schema.Corner, schema.RailDomain, schema.Mission,
+    schema.EsdTargets, schema.Deck,
 ]
 
 
@@ -225,6 +227,9 @@ def _leaf_field(path: str):  # type: ignore[no-untyped-def]
     while True:
         info = model.model_fields[parts[i]]
         ann = info.annotation
+        sub_models = [a for a in typing.get_args(ann) if isinstance(a, type) and issubclass(a, BaseModel)]
+        if typing.get_origin(ann) in (typing.Union, types.UnionType) and sub_models:
+            ann = sub_models[0]         # an optional sub-table: Model | None
         origin = typing.get_origin(ann)
         if origin in (dict, list):
             model = typing.get_args(ann)[-1]

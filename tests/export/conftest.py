@@ -120,9 +120,13 @@ def metrics_from_response(freq: np.ndarray, z: np.ndarray, area_um2: float) -> d
         "esr_1GHz_ohm": float(np.interp(9.0, np.log10(freq), z.real)),
         "bandwidth_GHz": bandwidth_GHz,
         "srf_GHz": srf_GHz,
+        "srf_is_bound": 0.0,
+        "bandwidth_is_bound": 0.0,
         "tau_ps": esr * cap * 1e12,
         "leakage_nA": leakage_nA,
         "leakage_nA_per_nF": leakage_nA / (cap * 1e9),
+        "gate_leakage_nA": 0.8 * leakage_nA,
+        "junction_leakage_nA": 0.2 * leakage_nA,
     }
     # Any other metric gets an invented, distinct positive number.
     return {name: known.get(name, 1.5 + 0.37 * index) for index, name in enumerate(METRIC_NAMES)}
@@ -157,8 +161,8 @@ def build_cell(
             metrics = metrics_from_response(freq, z, area)
         else:
             metrics = {name: 1.0 for name in METRIC_NAMES}
-        if kind == "mom" and "tddb_life_years" in metrics:
-            metrics["tddb_life_years"] = math.inf  # no thin oxide in the model
+        if kind == "mom" and "tddb_fit_per_mm2" in metrics:
+            metrics["tddb_fit_per_mm2"] = math.nan  # no thin oxide in the model
         cv = cv_curve(metrics["cap_fF"] * 1e-15, supply) if kind != "mom" else None
         metrics = {k: float(v) for k, v in metrics.items()}
         flags = ["channel length near the model's lower limit"] if corner == "slow_125C" else []

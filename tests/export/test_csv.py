@@ -11,6 +11,7 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
+from celllab.errors import OutputError
 from celllab.export import CAUTION, atomic_write_text
 from celllab.export.csv import DEFAULT_COLUMNS, format_value, render_csv, rows_from_cells, write_csv
 from celllab.records import CELL_COLUMNS, METRIC_NAMES, METRICS
@@ -49,6 +50,17 @@ def test_numbers_survive_a_round_trip(library, deck_name):
                 assert same_number(parsed[column], original[column]), column
 
 
+def test_lower_bounds_are_marked(library, deck_name):
+    # Source: the format as documented: a value that is only a lower bound reads "≥value" and its
+    # *_is_bound column is 1; the number after the mark is the stored bound, exactly
+    rows = rows_from_cells(library, deck_name)
+    rows[0] = {**rows[0], "srf_GHz": 1500.0, "srf_is_bound": 1.0}
+    back = read_back(render_csv(rows))
+    assert back[0]["srf_GHz"] == "≥1500.0" and back[0]["srf_is_bound"] == "1.0"
+    assert float(back[0]["srf_GHz"].removeprefix("≥")) == 1500.0
+    assert not back[1]["srf_GHz"].startswith("≥")
+
+
 def test_header_is_the_catalog_names_and_units_are_listed(library, deck_name):
     # Common practice, no source: the unit is in each column name; the legend states it.
     rows = rows_from_cells(library, deck_name)
@@ -61,9 +73,11 @@ def test_header_is_the_catalog_names_and_units_are_listed(library, deck_name):
     for metric in METRICS:
         assert f"{metric.name} [{metric.unit}]" in legend
     assert "temperature_C [degC]" in legend and "supply_V [V]" in legend
-    units_in_names = {"fF", "ohm", "GHz", "pH", "ps", "nA", "MV_per_cm", "years", "V", "um2"}
+    units_in_names = {"fF", "ohm", "GHz", "pH", "ps", "nA", "MV_per_cm", "fit_per_mm2", "V", "um2", "ns", "mA", "mW",
+                      "pct"}
     for metric in METRICS:
-        assert any(token in metric.name for token in units_in_names), metric.name
+        if metric.kind == "number":
+            assert any(token in metric.name for token in units_in_names), metric.name
     assert any(CAUTION in line for line in comment_lines)
 
 
@@ -144,7 +158,7 @@ def test_default_csv_has_no_float_noise_and_says_how_many_digits():
 def test_write_csv_replaces_the_file_whole(tmp_path, library, deck_name):
     target = tmp_path / "cells.csv"
     target.write_text("old contents")
-    write_csv(target, rows_from_cells(library, deck_name))
+    write_csv(target, rows_from_cells(library, deck_name), force=True)  # replacing is asked for
     assert len(read_back(target.read_text(encoding="utf-8"))) == sum(
         len(c.corners) for c in library
     )
@@ -159,7 +173,7 @@ def test_a_failed_write_leaves_the_old_file(tmp_path, monkeypatch):
         raise OSError("disk full")
 
     monkeypatch.setattr(os, "replace", broken_replace)
-    with pytest.raises(OSError, match="disk full"):
-        atomic_write_text(target, "new text")
+    with pytest.raises(OutputError, match="disk full"):  # located: names the file
+        atomic_write_text(target, "new text", force=True)
     assert target.read_text() == "previous"
     assert [p.name for p in tmp_path.iterdir()] == ["out.csv"]

@@ -132,13 +132,13 @@ def test_every_library_parses_and_reads_back_the_catalog(
             power, ground = at.supplies.rail_nets(row["rail"])
             assert group["area"] == row["area_um2"]
             assert group["is_decap_cell"] == "true"
-            # P = V x I with the catalog's supply and leakage at this corner (no junction part yet)
+            # P = V x I with the catalog's supply and leakage (gate + junction) at this corner
             expected_nW = row["supply_V"] * row["leakage_nA"]
             assert group["cell_leakage_power"] == pytest.approx(expected_nW, rel=1e-12)
             assert group["celllab_cap_fF"] == row["cap_fF"]
             assert group["celllab_esr_ohm"] == row["esr_ohm"]
-            assert group["celllab_gate_leakage_nA"] == row["leakage_nA"]
-            assert group["celllab_junction_leakage_nA"] == 0
+            assert group["celllab_gate_leakage_nA"] == row["gate_leakage_nA"]
+            assert group["celllab_junction_leakage_nA"] == row["junction_leakage_nA"]
             assert plain(group["celllab_cell_hash"]) == row["cell_hash"]
             pins = {
                 plain(p.args[0]): (p["pg_type"], p["voltage_name"])
@@ -162,7 +162,7 @@ def test_leakage_power_is_supply_times_current_worked_example(
     cell = make_cell("mos", name="worked")
     slow = cell.corner("slow_125C")
     assert slow.supply_V == pytest.approx(1.08)
-    metrics = {**slow.metrics, "leakage_nA": 2.5, "junction_leakage_nA": 0.5}
+    metrics = {**slow.metrics, "leakage_nA": 3.0, "gate_leakage_nA": 2.5, "junction_leakage_nA": 0.5}
     cell.corners[1] = replace(slow, metrics=metrics)
     assert leakage_parts(cell.corners[1]) == LeakageParts(2.5, 0.5)
     assert cell_leakage_power_nW(cell.corners[1]) == pytest.approx(3.24, rel=1e-12)
@@ -172,7 +172,8 @@ def test_leakage_power_is_supply_times_current_worked_example(
     # Source: liberty-parser (PyPI) reading the file back; leakage_power_unit is 1 nW.
     assert group["cell_leakage_power"] == pytest.approx(3.24, rel=1e-12)
     assert group["celllab_gate_leakage_nA"] == 2.5 and group["celllab_junction_leakage_nA"] == 0.5
-    cell.corners[1] = replace(slow, metrics={**slow.metrics, "leakage_nA": 2.5})
+    gate_only = {k: v for k, v in slow.metrics.items() if k not in ("gate_leakage_nA", "junction_leakage_nA")}
+    cell.corners[1] = replace(slow, metrics={**gate_only, "leakage_nA": 2.5})  # a record without the split
     group = parse(render_liberty([cell], lumen130, "slow_125C", date=DATE)).get_group(
         "cell", "worked"
     )
@@ -180,8 +181,13 @@ def test_leakage_power_is_supply_times_current_worked_example(
 
 
 def test_leakage_parts_prefer_split_metrics_when_the_catalog_has_them(make_cell: Any) -> None:
-    result = make_cell("mos").corners[0]
+    full = make_cell("mos").corners[0]
+    result = replace(full, metrics={k: v for k, v in full.metrics.items()
+                                    if k not in ("gate_leakage_nA", "junction_leakage_nA")})
     assert leakage_parts(result) == LeakageParts(result.metrics["leakage_nA"], 0.0)
+    # a junction part the deck did not model (empty) counts 0, as in the catalog's total
+    unmodelled = replace(full, metrics={**full.metrics, "junction_leakage_nA": math.nan})
+    assert leakage_parts(unmodelled).junction_nA == 0.0
     split = replace(
         result, metrics={**result.metrics, "gate_leakage_nA": 1.25, "junction_leakage_nA": 0.75}
     )
@@ -279,7 +285,8 @@ def test_bad_selections_give_located_errors(
         cells = cells + [make_cell("mom", name="A1")]
     elif case == "nan":
         typ = cells[0].corners[0]
-        cells[0].corners[0] = replace(typ, metrics={**typ.metrics, "leakage_nA": math.nan})
+        cells[0].corners[0] = replace(typ, metrics={**typ.metrics, "leakage_nA": math.nan,
+                                                    "gate_leakage_nA": math.nan})
     else:  # the deck now says 1.3 V; the cell was characterized at 1.2 V
         deck = lumen130.with_changes({"supplies.core_V": 1.3})
     with pytest.raises(ExportError) as info:

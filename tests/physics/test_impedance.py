@@ -89,3 +89,72 @@ def test_esr_interpolated_on_log_frequency() -> None:
     z = np.array([[3.0 + 0j, 2.0 + 0j, 1.0 + 0j]])
     np.testing.assert_allclose(imp.esr_at(f, z, [np.sqrt(10) * 1e6, 1e8]), [[2.5, 1.0]])
     assert np.isnan(imp.esr_at(f, z, [1e9])[0, 0])
+
+
+# --- the upturn near resonance and figures above the sweep --------------------------------------
+
+
+def test_loop_inductance_removed_from_c_eff() -> None:
+    # Source: series R-L-C: -1/(omega Im Z) = C / (1 - omega^2 L C), rising toward resonance (the
+    # upturn); with L removed it is C at every frequency below and above resonance; rel 1e-9
+    raw = imp.effective_capacitance(F, _series_rlc())
+    np.testing.assert_allclose(raw[:, :50], C[:, None] / (1 - W[:50] ** 2 * L[:, None] * C[:, None]), rtol=1e-9)
+    assert np.all(np.diff(raw[:, :100], axis=1) > 0)
+    np.testing.assert_allclose(imp.effective_capacitance(F, _series_rlc(), L), np.broadcast_to(C[:, None], raw.shape),
+                               rtol=1e-9)
+    # the usable bandwidth of an ideal series R-L-C then ends at its resonance, not before
+    s = imp.summarize(F, _series_rlc(), series_inductance=L)
+    assert np.all(np.isinf(s["bandwidth_rc_Hz"]))
+    np.testing.assert_allclose(s["bandwidth_Hz"], 1 / (2 * np.pi * np.sqrt(L * C)), rtol=1e-9)
+
+
+def _rlc_netlist() -> Netlist:
+    return Netlist("rlc", (Element("R", "esr", "vdd", "a", R), Element("L", "l_loop", "a", "b", L),
+                           Element("C", "c", "b", "vss", C)))
+
+
+def test_srf_above_the_sweep_from_loop_l_and_c() -> None:
+    # Source: series R-L-C resonance 1/(2 pi sqrt(L C)) (definition); the sweep stops a decade
+    # below it and the circuit is searched above; rel 1e-9
+    net = _rlc_netlist()
+    srf = 1 / (2 * np.pi * np.sqrt(L * C))
+    top = float(srf.min()) / 10
+    out = imp.extend_beyond_sweep(lambda f: solve_impedance(net, f), top, C, L, [True, True], [False, False],
+                                  np.full(2, 1e3 * top))
+    np.testing.assert_allclose(out["srf_Hz"], srf, rtol=1e-9)
+    assert np.all(np.isnan(out["bandwidth_rc_Hz"]))  # not asked for
+    # a search that stops below the resonance finds none: the caller stores a bound
+    short = imp.extend_beyond_sweep(lambda f: solve_impedance(net, f), top, C, L, [True, True], [True, True],
+                                    np.array([srf[0] / 2, 1e3 * top]))
+    assert np.isinf(short["srf_Hz"][0]) and short["srf_Hz"][1] == pytest.approx(srf[1], rel=1e-9)
+
+
+@pytest.mark.parametrize(("ends", "x_c"), [(1, 4.7526), (2, 19.010)])
+def test_rc_cutoff_above_the_sweep_of_a_line_with_loop_inductance(ends: int, x_c: float) -> None:
+    # Source: docs/references.md [43] [DF]: the RC line's C_eff falls to C/sqrt(2) at omega R C =
+    # 4.7526 / 19.010, here behind a loop inductance that is removed before the cutoff is read;
+    # the sweep ends two decades below it; rel 1e-4 (quoted digits). The SRF of the same circuit
+    # equals scipy brentq on Im Z of the nodal solution (independent root finder); rel 1e-9.
+    r, c, l_loop = np.array([100.0, 400.0]), 1e-12, np.array([5e-12, 5e-12])
+    net = Netlist("line", (Element("L", "l_loop", "vdd", "a", l_loop),
+                           Element("RCLINE", "ch", "vss", "a", r, c, contacted_ends=ends)))  # type: ignore[arg-type]
+    f_c = x_c / (2 * np.pi * r * c)
+    top = float(f_c.min()) / 100
+    out = imp.extend_beyond_sweep(lambda f: solve_impedance(net, f), top, np.full(2, c), l_loop,
+                                  [True, True], [True, True], np.full(2, 1e5 * top))
+    np.testing.assert_allclose(out["bandwidth_rc_Hz"], f_c, rtol=1e-4)
+    assert np.all(np.isfinite(out["srf_Hz"]))
+    for k in range(2):
+        def im_z(f: float, k: int = k) -> float:
+            return float(solve_impedance(net, [f])[k, 0].imag)
+        grid = np.geomspace(top, 1e5 * top, 500)
+        sign = np.sign([im_z(f) for f in grid])
+        j = int(np.argmax(sign > 0))
+        root = brentq(im_z, grid[j - 1], grid[j], rtol=1e-14)
+        assert out["srf_Hz"][k] == pytest.approx(root, rel=1e-9)
+
+
+def test_bandwidth_capped_at_the_srf() -> None:
+    # Source: definition: above its self-resonance a decap is inductive, so the usable band ends there
+    np.testing.assert_allclose(imp.capped_bandwidth([1e9, 5e9, np.inf, 2e9], [3e9, 4e9, 6e9, np.inf]),
+                               [1e9, 4e9, 6e9, 2e9])

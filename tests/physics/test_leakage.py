@@ -96,3 +96,47 @@ def test_leakage_rises_with_voltage(t_nm: float, v: float, dv: float) -> None:
     assert lk.direct_tunneling_current_density(
         v + dv, t_nm * nano
     ) > lk.direct_tunneling_current_density(v, t_nm * nano)
+
+
+# --- temperature law of gate tunnelling -------------------------------------------------------
+
+
+def test_tunnelling_temperature_law() -> None:
+    # Source: docs/references.md [73]: BSIM-CMG gate current scales by (T/TNOM)^IGT, IGT = 2.5 by
+    # default (public BSIM-CMG source). 298.15 -> 398.15 K: (398.15/298.15)^2.5 = 2.0608 [DF]; rel 1e-4
+    assert lk.tunnelling_temperature_factor(398.15, 298.15) == pytest.approx(2.0608, rel=1e-4)
+    assert lk.tunnelling_temperature_factor(298.15, 298.15) == 1.0
+    assert lk.tunnelling_temperature_factor(233.15, 298.15) < 1.0 < lk.tunnelling_temperature_factor(358.15, 298.15)
+    assert lk.tunnelling_temperature_factor(398.15, 298.15, 0.0) == 1.0
+
+
+# --- junction (well) leakage ------------------------------------------------------------------
+
+
+def test_junction_temperature_law_worked_values() -> None:
+    # Source: docs/references.md [74] [DF]: BSIM4 law with its bandgap fit, T_nom 298.15 K,
+    # XTI 3, N 1: x 3.067e5 at 398.15 K and x 4344 at 358.15 K; rel 1e-3
+    assert lk.junction_saturation_scale(398.15, 298.15) == pytest.approx(3.067e5, rel=1e-3)
+    assert lk.junction_saturation_scale(358.15, 298.15) == pytest.approx(4344, rel=1e-3)
+    # N = 2 halves the exponent (generation-like activation): the square root of the N = 1 factor
+    assert lk.junction_saturation_scale(398.15, 298.15, 3.0, 2.0) == pytest.approx(
+        np.sqrt(lk.junction_saturation_scale(398.15, 298.15)), rel=1e-12)
+
+
+def test_junction_reverse_current_area_plus_perimeter() -> None:
+    # Source: definition I = (J_A A + J_P P)(1 - exp(-V/(N v_t))) at T_ref; 1 fA/um^2 x 100 um^2 +
+    # 0.5 fA/um x 40 um = 120 fA, saturated at 1 V; rel 1e-9
+    i = lk.junction_reverse_current(1e-3, 5e-10, 100e-12, 40e-6, 1.0, 300.0, 300.0)
+    assert i == pytest.approx(120e-15, rel=1e-9)
+    assert lk.junction_reverse_current(1e-3, 5e-10, 100e-12, 40e-6, 0.0, 300.0, 300.0) == 0.0
+    small = lk.junction_reverse_current(1e-3, 0.0, 100e-12, 0.0, 0.01, 300.0, 300.0)
+    assert 0.0 < small < 100e-15  # below saturation within a few kT/q
+
+
+@given(t=st.floats(230.0, 420.0), v=st.floats(0.2, 5.0))
+@settings(max_examples=50)
+def test_junction_leakage_rises_with_temperature(t: float, v: float) -> None:
+    # Source: property of the law (Eg/kT falls with T, XTI >= 0): I(T + 10 K) > I(T)
+    lo = lk.junction_reverse_current(1e-3, 1e-9, 1e-10, 4e-5, v, t, 298.15, 3.0, 2.0)
+    hi = lk.junction_reverse_current(1e-3, 1e-9, 1e-10, 4e-5, v, t + 10.0, 298.15, 3.0, 2.0)
+    assert hi > lo > 0.0

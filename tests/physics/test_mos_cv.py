@@ -198,16 +198,22 @@ def _poisson_gate_charge(
     temperature: float,
     n_i: float,
     eps_r_si: float = 11.7,
+    minority: bool = True,
 ) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
     """Finite-volume Newton solution of eps psi'' = -q (p - n + N_D - N_A), Boltzmann carriers,
     psi(depth) = 0, oxide as the Robin condition eps psi'(0) = -C_ox (V - psi(0)).
-    Returns (surface potential, gate charge per area) for each bias (continuation sweep)."""
+    ``minority=False`` leaves the minority carriers out of the charge (no contact supplies them:
+    deep depletion). Returns (surface potential, gate charge per area) for each bias
+    (continuation sweep)."""
     vt = k * temperature / e
     eps_s = eps_r_si * epsilon_0
     net = n_d - n_a
-    p0 = 0.5 * (-net + np.sqrt(net**2 + 4 * n_i**2))
-    n0 = n_i**2 / p0
-    depth = 6 * np.sqrt(2 * eps_s * 1.2 / (e * abs(net)))
+    majority = 0.5 * (abs(net) + np.sqrt(net**2 + 4 * n_i**2))  # no cancellation at high doping
+    p0, n0 = (majority, n_i**2 / majority) if net < 0 else (n_i**2 / majority, majority)
+    if not minority:
+        p0, n0 = (p0, 0.0) if net < 0 else (0.0, n0)
+    reach = 1.2 + (0.0 if minority else float(np.max(np.abs(vg_minus_vfb))))
+    depth = 6 * np.sqrt(2 * eps_s * reach / (e * abs(net)))
     x = _graded_mesh(depth)
     hs = np.diff(x)
     size = len(x)
@@ -282,6 +288,54 @@ def test_cv_curve_matches_numerical_poisson(body_type: str, doping: float, t_ox:
     np.testing.assert_allclose(op.capacitance, c_ref, rtol=5e-3)
     np.testing.assert_allclose(op.psi_s, psi_ref, rtol=1e-3, atol=1e-4)
     np.testing.assert_allclose(op.q_gate, q_ref, rtol=1e-3, atol=1e-7)
+
+
+@pytest.mark.parametrize(("body_type", "doping", "t_ox"), [("n", 3e23, 2e-9), ("p", 1e23, 5e-9)])
+def test_deep_depletion_matches_numerical_poisson_without_minority_carriers(
+    body_type: str, doping: float, t_ox: float
+) -> None:
+    # Source: the independent finite-volume 1-D Poisson solution above with the minority
+    # carriers left out of the charge (majority-carrier contacts only), C = dQ_gate/dVg by central
+    # difference (2 mV); metal gate, no centroid. From flat band toward inversion, 3 V deep;
+    # rel 5e-3 on C, 1e-3 on psi_s and Q_gate.
+    cox = float(o.oxide_capacitance_per_area(3.9, t_ox))
+    n_i = 9.65e15
+    n_a, n_d = (doping, 0.0) if body_type == "p" else (0.0, doping)
+    sign = 1.0 if body_type == "p" else -1.0
+    v = sign * np.linspace(0.05, 3.0, 25)
+    dv = 2e-3
+    kw = dict(n_a=n_a, n_d=n_d, cox=cox, temperature=T300, n_i=n_i, minority=False)
+    _, q_plus = _poisson_gate_charge(v + dv, **kw)  # type: ignore[arg-type]
+    _, q_minus = _poisson_gate_charge(v - dv, **kw)  # type: ignore[arg-type]
+    psi_ref, q_ref = _poisson_gate_charge(v, **kw)  # type: ignore[arg-type]
+    c_ref = (q_plus - q_minus) / (2 * dv)
+    common = dict(vfb=0.0, cox=cox, body_doping=doping, body_type=body_type, temperature=T300,
+                  n_i=n_i, centroid=False)
+    deep = m.mos_operating_point(v, minority_carriers=False, **common)  # type: ignore[arg-type]
+    np.testing.assert_allclose(deep.capacitance, c_ref, rtol=5e-3)
+    np.testing.assert_allclose(deep.psi_s, psi_ref, rtol=1e-3, atol=1e-4)
+    np.testing.assert_allclose(deep.q_gate, q_ref, rtol=1e-3, atol=1e-7)
+    assert np.all(deep.q_mobile == 0.0)
+    # past threshold it falls below the high-frequency minimum (no inversion layer ever forms),
+    # while the quasi-static curve with minority carriers recovers toward C_ox
+    vt_rel = float(m.threshold_voltage(0.0, cox, doping, body_type, T300, n_i=n_i))
+    beyond = sign * (v - vt_rel) > 0.5
+    assert beyond.sum() >= 5
+    c_min = float(m.hf_min_capacitance(cox, doping, T300, n_i=n_i))
+    assert np.all(deep.capacitance[beyond] < c_min)
+    inverted = m.mos_operating_point(v, **common)  # type: ignore[arg-type]
+    assert np.all(inverted.capacitance[beyond] > 0.5 * cox)
+
+
+def test_deep_depletion_worked_example() -> None:
+    # Source: docs/references.md [25] [DF], depletion approximation with no inversion charge:
+    # N = 1e17 cm^-3, t_ox = 2 nm, |V_G - V_FB| = 0.5 / 1.0 / 2.0 V -> C/C_ox = 0.07441 / 0.05269 /
+    # 0.03728. The exact charge includes the -kT/q of the mobile-majority tail, so rel 3 %.
+    cox = float(o.oxide_capacitance_per_area(3.9, 2e-9))
+    op = m.mos_operating_point(np.array([0.5, 1.0, 2.0]), vfb=0.0, cox=cox, body_doping=1e23,
+                               body_type="p", temperature=T300, centroid=False,
+                               minority_carriers=False)
+    np.testing.assert_allclose(op.capacitance / cox, [0.07441, 0.05269, 0.03728], rtol=0.03)
 
 
 # ------------------------------------------------------------------------------------------
@@ -551,3 +605,29 @@ def test_capacitance_falls_as_oxide_thickens(
         cox=c_thin,
         **kw,  # type: ignore[arg-type]
     )
+
+
+def test_depletion_capacitance_at_strong_inversion() -> None:
+    # Source: eps_si / W_max with W_max = 0.1038 um at N_A = 1e17 cm^-3, n_i = 1e10 cm^-3, 300 K
+    # (Sze & Ng 2007 eq. 4.31, computed value) -> 9.98e-4 F/m^2; rel 2e-3
+    from celllab.physics.mos_cv import depletion_capacitance_per_area
+
+    assert depletion_capacitance_per_area(1e23, 300.0, n_i=1e16) == pytest.approx(9.98e-4, rel=2e-3)
+
+
+def test_junction_capacitance_one_sided_abrupt() -> None:
+    # Source: C_j = sqrt(q eps_si N / (2 (V_bi + V_R - 2kT/q))), V_bi = kT/q ln(N N_D / n_i^2)
+    # (Sze & Ng 2007 §2.3), evaluated by hand here for N = 1e17, N_D = 1e20 cm^-3, n_i = 1e10
+    # cm^-3, 300 K: V_bi = 1.0119 V -> 9.296e-4 F/m^2 at 0 V, 5.295e-4 F/m^2 at 2 V; rel 1e-3
+    from scipy.constants import e, epsilon_0, k
+
+    from celllab.physics.mos_cv import junction_capacitance_per_area
+
+    vt = k * 300.0 / e
+    v_bi = vt * np.log(1e23 * 1e26 / 1e32)
+    assert v_bi == pytest.approx(1.0119, rel=1e-3)
+    for v_r in (0.0, 2.0):
+        hand = np.sqrt(e * 11.7 * epsilon_0 * 1e23 / (2 * (v_bi + v_r - 2 * vt)))
+        assert junction_capacitance_per_area(1e23, 300.0, 1e26, v_r, n_i=1e16) == pytest.approx(hand, rel=1e-9)
+    assert junction_capacitance_per_area(1e23, 300.0, 1e26, n_i=1e16) == pytest.approx(9.296e-4, rel=1e-3)
+    assert junction_capacitance_per_area(1e23, 300.0, 1e26, 2.0, n_i=1e16) == pytest.approx(5.295e-4, rel=1e-3)

@@ -141,3 +141,54 @@ def test_fit_from_lifetime() -> None:
     # F/t ~ 1/eta for t << eta; rel 1e-3
     eta = 1e12 * hour
     assert tddb.fit_from_lifetime(eta, 1.0, 1e3 * hour) == pytest.approx(1e9 / 1e12, rel=1e-3)
+
+
+# --- whole-fill wear-out ---------------------------------------------------------------------
+
+from scipy.stats import weibull_min  # noqa: E402
+
+
+@pytest.mark.parametrize(("eta", "beta"), [(3e5, 1.6), (1e9, 1.2), (2e4, 3.2)])
+def test_weibull_against_scipy(eta: float, beta: float) -> None:
+    # Source: scipy.stats.weibull_min(c = beta, scale = eta): cdf, ppf and the characteristic life
+    # (63.2 % point); rel 1e-10
+    t = np.geomspace(eta * 1e-4, eta * 3, 25)
+    np.testing.assert_allclose(tddb.weibull_cdf(t, eta, beta), weibull_min.cdf(t, beta, scale=eta), rtol=1e-10)
+    q = np.array([1e-6, 1e-4, 0.01, 0.5, 0.9])
+    np.testing.assert_allclose(tddb.weibull_percentile(q, eta, beta), weibull_min.ppf(q, beta, scale=eta),
+                               rtol=1e-10)
+    assert weibull_min.ppf(1 - np.exp(-1), beta, scale=eta) == pytest.approx(eta, rel=1e-10)
+
+
+def test_area_law_worked_case() -> None:
+    # Worked case: 100 x the area at beta = 1.5 divides t63 by 100^(1/1.5) = 21.54 (weakest-link
+    # area scaling, Degraeve et al. 1998); rel 1e-4 against the number, 1e-10 against scipy
+    beta, eta = 1.5, 1e6
+    eta_big = tddb.area_scaled_eta(eta, 1.0, 100.0, beta)
+    assert eta / eta_big == pytest.approx(21.544, rel=1e-4)
+    # the 63 % point of the large area is where the small area's cumulative hazard reaches 1/100
+    t63 = weibull_min.ppf(1 - np.exp(-1), beta, scale=eta_big)
+    assert 100 * (t63 / eta) ** beta == pytest.approx(1.0, rel=1e-10)
+
+
+def test_area_for_fraction_inverts_the_hazard() -> None:
+    # A_max = -ln(1 - F) / h makes F exactly the target; rel 1e-12
+    h = 2.5e3  # 1/m^2
+    area = tddb.area_for_fraction(10e-6, h)
+    assert tddb.fraction_from_hazard(area * h) == pytest.approx(10e-6, rel=1e-12)
+
+
+@given(st.floats(1e-9, 1e-3), st.floats(1.0, 100.0))
+def test_fraction_is_additive_in_hazard(h1: float, h2: float) -> None:
+    # two oxides fail independently: survival multiplies, hazards add (weakest link)
+    f = tddb.fraction_from_hazard(h1 + h2 * 1e-6)
+    assert 1 - f == pytest.approx((1 - tddb.fraction_from_hazard(h1)) * (1 - tddb.fraction_from_hazard(h2 * 1e-6)),
+                                  rel=1e-12)
+
+
+def test_fit_definition() -> None:
+    # Source: JEDEC JESD85, 1 FIT = 1 failure per 1e9 device-hours: 100 ppm failing over 10 years
+    # (87 660 h) is 1e-4 / 87660 * 1e9 = 1.1408 FIT; rel 1e-4
+    assert tddb.average_fit(1e-4, 10 * 365.25 * 24 * hour) == pytest.approx(1.1408, rel=1e-4)
+    # and 1000 devices with one failure in 1e6 device-hours -> 1000 FIT
+    assert tddb.average_fit(1e-3, 1e6 / 1e3 * hour) == pytest.approx(1000.0, rel=1e-12)

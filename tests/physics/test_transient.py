@@ -268,3 +268,26 @@ def test_distributed_channel_must_name_a_line() -> None:
     with pytest.raises(ValueError, match="not RCLINE"):
         tr.simulate(_rc(1e3, 1e-12), [STEP], t_stop=1e-9, dt=1e-11,
                     nonlinear=[tr.DistributedChannel("r", "n", 1e-3, 0.3)])
+
+
+def test_supplied_law_matches_closed_form_dc_and_linear_twin() -> None:
+    # A supplied I(V) = k v^2 (v > 0) fed from 1 V through R: k v^2 R + v - 1 = 0, so
+    # v = (-1 + sqrt(1 + 4 k R)) / (2 k R) (quadratic formula); rel 1e-6 (the Newton tolerance)
+    k, r = 2e-3, 500.0
+
+    def law(v: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        vp = np.maximum(v, 0.0)
+        return k * vp * vp, 2 * k * vp
+
+    net = Netlist("q", (Element("R", "r", "inp", "a", r),), ("inp", "a"))
+    nl = tr.NonlinearConductance("q", "a", "gnd", law)
+    op = tr.operating_point(net, [STEP], [nl], ground="gnd")
+    assert float(op["a"][0]) == pytest.approx((-1 + np.sqrt(1 + 4 * k * r)) / (2 * k * r), rel=1e-6)
+    # a supplied linear law behaves exactly like the resistor it describes (transient)
+    linear = tr.NonlinearConductance("g", "out", "gnd", lambda v: (v / 2e3, np.full_like(v, 1 / 2e3)))
+    rc = _rc(1e3, 1e-12)
+    with_r = Netlist("rc2", (*rc.elements, Element("R", "rl", "out", "gnd", 2e3)), rc.ports)
+    a = tr.simulate(rc, [STEP], t_stop=3e-9, dt=1e-11, probes=["v(out)", "i(g)"], nonlinear=[linear])
+    b = tr.simulate(with_r, [STEP], t_stop=3e-9, dt=1e-11, probes=["v(out)", "i(rl)"])
+    np.testing.assert_allclose(a.probes["v(out)"], b.probes["v(out)"], atol=1e-7)
+    np.testing.assert_allclose(a.probes["i(g)"], b.probes["i(rl)"], atol=1e-10)

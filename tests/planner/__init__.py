@@ -1,9 +1,10 @@
 """Helpers for the planner tests: synthetic catalogs of ideal cells and block-file text.
 
-The synthetic cells are series R-C elements (ESR + capacitor) whose stored Z(f) is exact, so
-checks run through the whole planner path (catalog query, candidates, fill, stored Z(f),
-block impedance) without the characterization engine. The process is invented: the deck
-stored with them is the demo lumen130 deck under another name.
+The synthetic cells are series R-C elements (ESR + capacitor) whose stored Z(f) is exact and
+whose stored equivalent circuit is that R-C, so checks run through the whole planner path
+(catalog query, candidates, fill, stored Z(f), block impedance, supply network) without the
+characterization engine. The process is invented: the deck stored with them is the demo
+lumen130 deck under another name.
 """
 
 from __future__ import annotations
@@ -19,6 +20,7 @@ import numpy as np
 
 from celllab.catalog import Catalog, open_catalog
 from celllab.deck import load_deck
+from celllab.physics.netlist import Element, Netlist
 from celllab.records import (
     METRIC_NAMES,
     CellResult,
@@ -69,10 +71,21 @@ def _corner(cell: IdealCell, corner: str, cap_factor: float, leak_factor: float)
         cap_fF=cell.cap_fF * cap_factor, cap_density_fF_per_um2=cell.cap_fF * cap_factor / area,
         cap_ox_fF=cell.cap_fF * cap_factor, esr_ohm=cell.esr_ohm, esr_1GHz_ohm=cell.esr_ohm,
         bandwidth_GHz=(1 / (2 * np.pi * cell.esr_ohm * c_F) / 1e9 if cell.esr_ohm else 1e3),
+        # without an ESR there is no RC cutoff: 1000 GHz is only a lower bound, flagged as such
+        bandwidth_is_bound=0.0 if cell.esr_ohm else 1.0, srf_is_bound=0.0,
         esl_pH=0.0, leakage_nA=cell.leakage_nA * leak_factor,
         leakage_nA_per_nF=cell.leakage_nA * leak_factor / (cell.cap_fF * 1e-6),
     )
     return CornerResult(corner, 25.0, SUPPLY_V, metrics, FrequencyResponse(FREQ_HZ.copy(), z))
+
+
+def ideal_circuit(cell: IdealCell, cap_factor: float) -> Netlist:
+    """The cell's equivalent circuit at a corner: ESR in series with C (C alone without ESR)."""
+    c_F = cell.cap_fF * cap_factor * 1e-15
+    if cell.esr_ohm > 0:
+        return Netlist("ideal", (Element("R", "esr", "vdd", "x", cell.esr_ohm),
+                                 Element("C", "c", "x", "vss", c_F)))
+    return Netlist("ideal", (Element("C", "c", "vdd", "vss", c_F),))
 
 
 def ideal_record(cell: IdealCell) -> CellResult:
@@ -88,6 +101,7 @@ def ideal_record(cell: IdealCell) -> CellResult:
         height_rows=cell.height_rows, gate_area_um2=cell.gate_area_um2,
         esd_safe=cell.esd_safe,
         corners=[_corner(cell, name, cf, lf) for name, (cf, lf) in CORNERS.items()],
+        netlist={name: ideal_circuit(cell, cf) for name, (cf, _) in CORNERS.items()},
     )
 
 
@@ -124,6 +138,14 @@ BASE_BLOCK: dict[str, Any] = {
     "region": [{"name": "core", "frequency_MHz": 100.0,
                 "row_gaps": [{"name": "fill", "height_rows": 1, "width_sites": [4, 8],
                               "count": [100, 50]}]}],
+}
+
+
+#: A [network] table for ``BASE_BLOCK``-like files with one region named "core" (invented):
+#: no board, no grid, the package of [block] alone in front of the region.
+NETWORK: dict[str, Any] = {
+    "ir_drop_limit_mV": 20.0, "f_min_MHz": 1.0, "f_max_GHz": 10.0, "points_per_decade": 40,
+    "regions": {"core": {"grid_resistance_mohm": 0.0, "grid_inductance_pH": 0.0}},
 }
 
 

@@ -23,7 +23,7 @@ def demo_catalog(tmp_path_factory: pytest.TempPathFactory) -> Catalog:
     for deck in ("lumen130", "quill28hk"):
         shutil.copy(REPO / "process_decks" / f"{deck}.toml", folder)
         shutil.copy(REPO / "process_decks" / "cells" / f"{deck}_cells.toml", folder / "cells")
-    return open_catalog(build_demo_catalog(folder / "demo.sqlite", folder=folder))
+    return open_catalog(build_demo_catalog(folder / "demo.sqlite", folder=folder, esd=False))
 
 
 @pytest.fixture(scope="session")

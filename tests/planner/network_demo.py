@@ -1,6 +1,7 @@
 """The demo supply network on real cells: a catalog built from the invented lumen130 decks,
-the example ``[network]`` table, and a fill for each region (standing in for the planner's
-choice; invented counts), plus an ngspice rendering of the same network for the checks."""
+the ``[network]`` table of the demo block, and a fill for each region (standing in for the
+planner's choice; invented counts), plus an ngspice rendering of the same network for the
+checks."""
 
 from __future__ import annotations
 
@@ -14,17 +15,15 @@ import numpy as np
 from celllab.catalog import Catalog, open_catalog
 from celllab.demo import build_demo_catalog
 from celllab.export.spice import render_spice_subckt, spice_name, spice_number
-from celllab.planner.network import BlockNetwork, FillEntry, build_network, region_node
+from celllab.planner.block import load_block
+from celllab.planner.naive import densest_fill
+from celllab.planner.network import BlockNetwork, FillEntry, region_node
 from celllab.planner.network_figures import NetworkGoals
-from celllab.planner.network_spec import (
-    load_network_spec,
-    network_goals,
-    region_loads,
-    supply_network,
-)
+from celllab.planner.plan import network_corners, prepare_fill
+from celllab.planner.supply import block_network, cell_entries, network_goals
 
 REPO = Path(__file__).resolve().parents[2]
-NETWORK_TOML = REPO / "process_decks" / "blocks" / "lumen130_dsp_network.toml"
+BLOCK_TOML = REPO / "process_decks" / "blocks" / "lumen130_dsp.toml"
 DECK = "lumen130"
 SUPPLY_V = 1.2
 #: The fill of each region (cell name, count): invented, standing in for the fill planner.
@@ -32,16 +31,13 @@ DEMO_FILL: dict[str, list[tuple[str, int]]] = {
     "mac_array": [("lm_ncap-w32-h1-f4", 3000), ("lm_xcap-w16-h1-f4", 2000)],
     "pad_ring": [("lm_mom-w16-h1-toM5-alt1", 400), ("lm_xcap-w16-h1-f2", 300)],  # ESD-safe
 }
-#: Free sites of each region (for the naive "fill every site with the densest cell").
-#: The plan above uses 128 000 and 11 200 of them.
-REGION_SITES = {"mac_array": 160000, "pad_ring": 16000}
 
 
 def build_lumen_catalog(folder: Path) -> Catalog:
     (folder / "cells").mkdir(parents=True, exist_ok=True)
     shutil.copy(REPO / "process_decks" / "lumen130.toml", folder)
     shutil.copy(REPO / "process_decks" / "cells" / "lumen130_cells.toml", folder / "cells")
-    return open_catalog(build_demo_catalog(folder / "demo.sqlite", folder=folder))
+    return open_catalog(build_demo_catalog(folder / "demo.sqlite", folder=folder, esd=False))
 
 
 def fill_entries(catalog: Catalog, choice: Mapping[str, Sequence[tuple[str, int]]]
@@ -56,20 +52,16 @@ def fill_entries(catalog: Catalog, choice: Mapping[str, Sequence[tuple[str, int]
     return out
 
 
-def densest_fill(catalog: Catalog) -> dict[str, list[FillEntry]]:
-    """Every free site of each region filled with the single-row cell of the highest
-    capacitance density at the typical corner."""
-    rows = catalog.query(deck=DECK, corner="typ_25C", where="height_rows = 1", limit=None)
-    best = max(rows, key=lambda r: r["cap_density_fF_per_um2"])
-    return fill_entries(catalog, {r: [(best["name"], sites // int(best["width_sites"]))]
-                                  for r, sites in REGION_SITES.items()})
-
-
 def demo_network(catalog: Catalog) -> tuple[BlockNetwork, NetworkGoals]:
-    spec = load_network_spec(NETWORK_TOML).network
-    fills = fill_entries(catalog, DEMO_FILL)
-    network = build_network(supply_network(spec, SUPPLY_V), region_loads(spec, fills))
-    return network, network_goals(spec, naive_fill=densest_fill(catalog))
+    """The demo block's network with ``DEMO_FILL``; the goals compare with the planner's
+    naive densest-cell fill of the block's gaps."""
+    block = load_block(BLOCK_TOML)
+    prep = prepare_fill(block, catalog)
+    network = block_network(block, prep.needs, prep.ctx.supply, fill_entries(catalog, DEMO_FILL),
+                            {}, network_corners(prep.ctx))
+    naive = {n.region: cell_entries(n.cells)
+             for n in densest_fill(block, prep.cells, prep.problem.allowed)}
+    return network, network_goals(block, naive=naive)
 
 
 # ------------------------------------------------------------------------- ngspice rendering
@@ -80,7 +72,7 @@ def _node(name: str) -> str:
 
 
 def spice_network(network: BlockNetwork, catalog: Catalog, corner: str,
-                  entrance: object = None, probe: float = 0.0) -> list[str]:
+                  entrance: object = None, probe: float = 0.0, deck: str = DECK) -> list[str]:
     """The network at one corner as ngspice lines: the backbone element by element, each fill
     cell as its exported subcircuit instantiated with m = count."""
     lines = []
@@ -94,9 +86,9 @@ def spice_network(network: BlockNetwork, catalog: Catalog, corner: str,
             lines.append(f"{el.kind}{name} {a} {b} {spice_number(value)}")
     for region in network.regions:
         for k, entry in enumerate(region.fill):
-            sub = f"{spice_name(entry.cell)}_{region.name}_{k}"
-            record = catalog.cell(entry.cell, deck=DECK)
+            sub = f"{spice_name(entry.cell)}_{_node(region.name)}_{k}"
+            record = catalog.cell(entry.cell, deck=deck)
             lines.append(render_spice_subckt(record, corner=corner, subckt_name=sub))
-            lines.append(f"X{region.name}_{k} {_node(region_node(region.name))} 0 {sub} "
+            lines.append(f"X{_node(region.name)}_{k} {_node(region_node(region.name))} 0 {sub} "
                          f"m={spice_number(entry.count)}")
     return lines

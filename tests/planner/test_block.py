@@ -16,7 +16,7 @@ from celllab.cli.main import main
 from celllab.errors import PlanError
 from celllab.planner import load_block, plan_block
 
-from . import DECK, IdealCell, block_text, synthetic_catalog, toml_text
+from . import DECK, NETWORK, IdealCell, block_text, synthetic_catalog, toml_text
 
 REPO = Path(__file__).resolve().parents[2]
 BLOCKS = REPO / "process_decks" / "blocks"
@@ -51,13 +51,20 @@ def test_demo_inventory_mixes_corners_spacers_and_a_filler_histogram() -> None:
     assert max(len(g.width_sites) for g in fillers) >= 8
 
 
-def test_network_table_is_kept_as_given(tmp_path: Path) -> None:
-    # Source: the block-file contract: [network] belongs to the supply-network model
-    text = block_text() + "\n[network]\ngrid = { mesh_um = 50 }\n[[network.bump]]\nx_um = 1\n"
+def test_network_table_is_validated_with_the_block(tmp_path: Path) -> None:
+    # Source: the block-file contract: [network] is read into the supply-network model with
+    # the block, and an unknown key is a located error naming the allowed keys
     path = tmp_path / "b.toml"
-    path.write_text(text)
+    path.write_text(block_text(network=NETWORK))
     block = load_block(path)
-    assert block.network == {"grid": {"mesh_um": 50}, "bump": [{"x_um": 1}]}
+    assert block.network is not None and set(block.network.regions) == {"core"}
+    assert block.network.ir_drop_limit_mV == 20.0
+    path.write_text(block_text() + "\n[network]\ngrid = { mesh_um = 50 }\n")
+    with pytest.raises(PlanError) as info:
+        load_block(path)
+    problems = {p.field: p for p in info.value.problems}
+    assert "network.grid" in problems and "ir_drop_limit_mV" in problems["network.grid"].message
+    assert problems["network.grid"].line is not None
 
 
 def test_earlier_layout_gets_a_migration_message(tmp_path: Path,
@@ -143,10 +150,19 @@ BAD = {
                                "region[1].charge_per_cycle_pC", "quiet region draws no",
                                "charge_per_cycle_pC = 5.0"),
     "two_activity_forms": Bad(_two_regions({"name": "ring", "charge_per_cycle_pC": 5.0,
-                                            "peak_current_mA": 3.0, "rise_time_ps": 10.0,
+                                            "switching_power_mW": 3.0, "clock_MHz": 100.0,
                                             "row_gaps": GAPS}),
-                              "region[1].peak_current_mA", "one way only",
-                              "peak_current_mA = 3.0"),
+                              "region[1].switching_power_mW", "one way only",
+                              "switching_power_mW = 3.0"),
+    # a charge with a pulse sets its flat top, but must hold at least the triangle's charge:
+    # 3 mA x (10 + 10) ps / 2 = 0.03 pC
+    "pulse_charge_below_triangle": Bad(_two_regions({"name": "ring",
+                                                     "charge_per_cycle_pC": 0.01,
+                                                     "peak_current_mA": 3.0,
+                                                     "rise_time_ps": 10.0,
+                                                     "row_gaps": GAPS}),
+                                       "region[1].charge_per_cycle_pC", "at least 0.03 pC",
+                                       "charge_per_cycle_pC = 0.01"),
     "power_without_clock": Bad(_two_regions({"name": "ring", "switching_power_mW": 5.0,
                                              "row_gaps": GAPS}),
                                "region[1].clock_MHz", "required with switching_power_mW",

@@ -80,6 +80,13 @@ def test_unlimited_fill_fills_every_gap(tmp_path: Path, catalog: Catalog) -> Non
     check_accounting(p)
 
 
+def test_chosen_cells_carry_the_catalogs_bandwidth_bound(tmp_path: Path, catalog: Catalog) -> None:
+    # a bandwidth the catalog holds only as a lower bound keeps its flag in the plan's report
+    p = plan(tmp_path, catalog, region=TWO_REGIONS[:1], budgets__leakage_uA=None)
+    assert p.cells and all(c.bandwidth_is_bound for c in p.cells)     # no ESR: no cutoff found
+    assert all(c["bandwidth_is_bound"] is True for c in p.to_dict()["cells"])
+
+
 def test_leakage_budget_binds_at_the_leakiest_corner(tmp_path: Path, catalog: Catalog) -> None:
     # Source: the corner policy: leakage at the worst (leaky_125C, x2) corner. 100 four-site
     # gaps, budget 100 nA: thin4 leaks 4 nA there, so 25 thin4 and 75 zero-leakage mom4

@@ -52,7 +52,7 @@ def _evaluate(deck: Any, corners: Any, cells: Sequence[Any], geos: Sequence[Any]
     zero, nan = np.zeros((n_v, n_c)), np.full((n_v, n_c), np.nan)
     return common.GroupResult(
         n_variant=n_v, n_corner=n_c, z_ohm=sol.z_ohm, summary=sol.summary, cap_ox_F=cap.copy(),
-        leakage_A=zero, e_ox_V_per_m=zero, ttf_s=nan, vbd_pulse_V=nan,
+        gate_leakage_A=zero, junction_leakage_A=zero, e_ox_V_per_m=zero, tddb_rate_per_s_m2=nan, vbd_pulse_V=nan,
         supply_V=common.supply(corners, common.oxides_of(cells)), netlist=net,
         flags=[[[] for _ in range(n_c)] for _ in range(n_v)], notes=["toy plate"])
 

@@ -3,6 +3,7 @@ saved as a new variant that is then in the catalog."""
 
 from __future__ import annotations
 
+import math
 from typing import Any
 
 import pytest
@@ -16,14 +17,15 @@ from celllab.tui.screens.whatif import WhatIfScreen, spec_from_result
 from celllab.tui.widgets.plot import PlotView
 
 DECK = "lumen130"
-LIMIT = 4120  # nA/nF: tight enough to rule out the densest ESD-safe cell of the demo deck
-WHERE = f"esd_safe and leakage_nA_per_nF <= {LIMIT}"
 
 
 async def test_newcomer_finds_opens_tries_and_saves_with_keys_alone(demo_catalog: Any, ui: Any) -> None:
+    # a leakage limit (nA/nF, whole number) just tight enough to rule out the densest ESD-safe cell
+    unconstrained = demo_catalog.query(deck=DECK, where="esd_safe", limit=1)[0]
+    LIMIT = math.floor(unconstrained["leakage_nA_per_nF"]) - 1  # noqa: N806
+    WHERE = f"esd_safe and leakage_nA_per_nF <= {LIMIT}"  # noqa: N806
     expected = demo_catalog.query(deck=DECK, where=WHERE, order_by="cap_density_fF_per_um2",
                                   descending=True, limit=1)[0]
-    unconstrained = demo_catalog.query(deck=DECK, where="esd_safe", limit=1)[0]
     assert expected["name"] != unconstrained["name"]  # the limit matters in this scenario
     cells_before = demo_catalog.count(deck=DECK)
 

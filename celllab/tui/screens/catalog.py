@@ -40,7 +40,7 @@ ALL_COLUMNS: tuple[str, ...] = ("name", "family", "topology", "oxide", "corner",
                                 *CELL_COLUMNS, *METRIC_NAMES)
 DEFAULT_COLUMNS: tuple[str, ...] = (
     "name", "esd_safe", "cap_density_fF_per_um2", "leakage_nA_per_nF", "topology", "oxide",
-    "cap_fF", "esr_ohm", "bandwidth_GHz", "tddb_life_years", "area_um2",
+    "cap_fF", "esr_ohm", "bandwidth_GHz", "tddb_fit_per_mm2", "area_um2",
 )
 SORTABLE: tuple[str, ...] = ("name", *CELL_COLUMNS, *METRIC_NAMES)
 EXAMPLE_FILTER = "esd_safe and leakage_nA_per_nF <= 50"

@@ -25,7 +25,8 @@ from textual.timer import Timer
 from textual.widgets import Footer, Input, Select, Static, TabbedContent, TabPane
 from textual.worker import get_current_worker
 
-from celllab.columns import BOUND_MARK, METRICS, Column
+from celllab.columns import METRICS, Column
+from celllab.display import LOWER_BOUND
 from celllab.errors import CelllabError, Problem
 from celllab.records import CellResult, corner_bounds, corner_metrics
 from celllab.topologies import REGISTRY
@@ -172,7 +173,7 @@ def change_text(before: float | None, after: float | None, column: Column,
         return Text("new", justify="right")
     rel = (after - before) / abs(before) * 100
     good = column.improved(before, after)
-    mark = BOUND_MARK if after_bound else ("≤" if before_bound else "")
+    mark = LOWER_BOUND if after_bound else ("≤" if before_bound else "")
     return Text(f"{mark}{rel:+.1f} %", style="green" if good else "red", justify="right")
 
 

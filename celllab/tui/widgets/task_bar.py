@@ -11,11 +11,12 @@ TASKS: tuple[tuple[str, str, str], ...] = (
     ("catalog", "1", "Catalog"),
     ("ranking", "2", "Ranking"),
     ("decks", "3", "Decks"),
+    ("plan", "4", "Plan"),
 )
 
 
 class TaskBar(Static):
-    """``celllab │ 1 Catalog  2 Ranking  3 Decks │ <context>``; the active task is highlighted."""
+    """``celllab │ 1 Catalog  2 Ranking  3 Decks  4 Plan │ <context>``; the active task is highlighted."""
 
     DEFAULT_CSS = """
     TaskBar { height: 1; width: 1fr; }

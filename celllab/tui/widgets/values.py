@@ -11,7 +11,7 @@ from typing import Any
 from rich.text import Text
 
 from celllab import display
-from celllab.columns import BOUND_MARK, COLUMNS, TEXT_COLUMNS, unit_of
+from celllab.columns import COLUMNS, TEXT_COLUMNS, unit_of
 from celllab.units import pretty_unit
 
 #: Identity columns of a catalog row, with how they read in a header.
@@ -76,7 +76,7 @@ def value_text(value: Any, column: str = "", bound: bool = False) -> Text:
     number is a lower bound (``≥`` in front, see ``columns.is_lower_bound``)."""
     if bound and isinstance(value, (int, float)) and not isinstance(value, bool):
         if not math.isnan(float(value)):
-            return Text(BOUND_MARK + format_number(float(value)), justify="right")
+            return Text(display.LOWER_BOUND + format_number(float(value)), justify="right")
     if value is None:
         return Text("–", style="dim", justify="center")
     if isinstance(value, bool) or column == "esd_safe":

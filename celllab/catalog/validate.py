@@ -1,0 +1,183 @@
+"""What every stored result must be: the checks a run passes before any row is written.
+
+A fresh run (``store.store_run``) and every result imported from another catalog
+(``merge.merge_from``) go through ``cell_problems``: names follow the cell and deck name rules,
+closed sets (topology, oxide) hold, per-cell columns and curves are finite, and each metric is a
+finite number within its plausible range - or empty, with a flag of that corner naming the
+metric and saying why. Nothing is written when any check fails.
+
+Plausible ranges (``METRIC_RANGES``) are wide on purpose: they refuse what no decap can be
+(negative capacitance or resistance, a capacitance density above what the thinnest, most
+permittive dielectric the deck schema admits could give), not what is merely unusual. The
+bounds follow from the deck limits: eps_r <= 100 over t_ox >= 0.3 nm gives
+C_ox = epsilon_0 eps_r / t_ox = 2.95 F/m^2 = 2951 fF/um^2 per gate layer (docs/references.md
+[10]), so 1e4 fF/um^2 leaves room for stacked metal plates; the largest supply (12 V x 1.5)
+over the thinnest oxide is 600 MV/cm, the strongest pulse field (60 MV/cm) over the thickest
+oxide (30 nm) 180 V.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from collections.abc import Iterable, Sequence
+from typing import Any
+
+import numpy as np
+
+from celllab.deck.schema import CORNER_NAME
+from celllab.records import METRIC_NAMES, CellResult, CornerResult
+from celllab.topologies import REGISTRY
+from celllab.topologies.geometry import PLACEMENTS
+
+#: The name rules of cell files (``cells.schema.CellSpec``) and decks (``deck.schema``).
+CELL_NAME = re.compile(r"[A-Za-z][A-Za-z0-9_\-.]{0,79}")
+FAMILY_NAME = re.compile(r"([A-Za-z][A-Za-z0-9_\-.]{0,79})?")
+DECK_NAME = re.compile(r"[A-Za-z][A-Za-z0-9_\-]{0,39}")
+#: Supply rail names (``cells.schema.CellSpec.rail`` once resolved: core, io or a named rail).
+RAIL_NAME = re.compile(r"[a-z][a-z0-9_]{0,23}")
+OXIDES = ("core", "io")
+#: Longest flag or note kept with a result (characters).
+MAX_TEXT = 2000
+
+#: metric -> (lowest, highest, whether the lowest itself is allowed). Metrics not listed here
+#: need only be finite (or empty with a flag).
+METRIC_RANGES: dict[str, tuple[float, float, bool]] = {
+    "cap_fF": (0.0, 1e15, False),
+    "cap_density_fF_per_um2": (0.0, 1e4, False),
+    "cap_ox_fF": (0.0, 1e15, True),
+    "esr_ohm": (0.0, 1e15, True),
+    "esr_1GHz_ohm": (0.0, 1e15, True),
+    "bandwidth_GHz": (0.0, math.inf, False),
+    "esl_pH": (0.0, 1e12, True),
+    "srf_GHz": (0.0, math.inf, False),
+    "tau_ps": (0.0, 1e18, True),
+    "leakage_nA": (0.0, math.inf, True),
+    "leakage_nA_per_nF": (0.0, math.inf, True),
+    "oxide_field_MV_per_cm": (0.0, 1e3, True),
+    "tddb_life_years": (0.0, math.inf, True),
+    "pulse_vbd_V": (0.0, 1e4, True),
+}
+#: Corner conditions: (lowest, highest), degC and V.
+TEMPERATURE_RANGE_C = (-273.15, 1000.0)
+SUPPLY_RANGE_V = (0.0, 100.0)
+
+
+def shown(value: Any, limit: int = 60) -> str:
+    """``repr`` of a value cut to ``limit`` characters (control characters escaped)."""
+    text = repr(value)
+    return text if len(text) <= limit else f"{text[: limit - 3]}... ({len(text)} characters)"
+
+
+def flag_names_metric(metric: str, flags: Iterable[str]) -> bool:
+    """True when one of ``flags`` names ``metric`` as a whole word."""
+    word = re.compile(rf"(?<![A-Za-z0-9_]){re.escape(metric)}(?![A-Za-z0-9_])")
+    return any(isinstance(f, str) and word.search(f) for f in flags)
+
+
+def _is_number(value: Any) -> bool:
+    return isinstance(value, (int, float, np.floating, np.integer)) and not isinstance(
+        value, (bool, np.bool_)
+    )
+
+
+def metric_problem(metric: str, value: Any, flags: Sequence[str]) -> str | None:
+    """Why ``value`` cannot be stored as ``metric`` at a corner with ``flags`` (None: it can)."""
+    if value is None or (_is_number(value) and math.isnan(float(value))):
+        if flag_names_metric(metric, flags):
+            return None
+        return "empty, and no flag of the corner names it to say why"
+    if not _is_number(value):
+        return f"not a number ({type(value).__name__})"
+    x = float(value)
+    if not math.isfinite(x):
+        return "not a finite number"
+    lo, hi, lo_ok = METRIC_RANGES.get(metric, (-math.inf, math.inf, True))
+    if x < lo or (x == lo and not lo_ok) or x > hi:
+        low = f">= {lo:g}" if lo_ok else f"> {lo:g}"
+        return f"outside its plausible range ({low}" + (f" and <= {hi:g})" if math.isfinite(hi) else ")")
+    return None
+
+
+def _finite_array(values: Any, what: str) -> str | None:
+    try:
+        array = np.asarray(values)
+    except (TypeError, ValueError):
+        return f"{what} is not an array of numbers"
+    if array.dtype.kind not in "fciu" or array.ndim != 1:
+        return f"{what} is not a 1-D array of numbers"
+    if not np.all(np.isfinite(array)):
+        return f"{what} holds values that are not finite numbers"
+    return None
+
+
+def _text_list_problem(values: Any, what: str) -> str | None:
+    if not isinstance(values, (list, tuple)) or not all(isinstance(v, str) for v in values):
+        return f"{what} must be a list of text"
+    if too_long := [v for v in values if len(v) > MAX_TEXT]:
+        return f"{what}: an entry of {len(too_long[0])} characters; at most {MAX_TEXT}"
+    return None
+
+
+def corner_problems(where: str, c: CornerResult) -> list[str]:
+    """Problems of one corner's values (``where`` prefixes each message)."""
+    out = []
+    if not isinstance(c.corner, str) or not CORNER_NAME.fullmatch(c.corner):
+        out.append(f"{where}.corner = {shown(c.corner)} -> corner names use letters, digits, _ and - "
+                   "(1 to 40 of them)")
+    flags = c.flags if isinstance(c.flags, (list, tuple)) else []
+    if why := _text_list_problem(c.flags, "flags"):
+        out.append(f"{where}.flags -> {why}")
+    for name, value, (lo, hi) in (("temperature_C", c.temperature_C, TEMPERATURE_RANGE_C),
+                                  ("supply_V", c.supply_V, SUPPLY_RANGE_V)):
+        if not _is_number(value) or not lo < float(value) <= hi:
+            out.append(f"{where}.{name} = {shown(value)} -> must be a number > {lo:g} and <= {hi:g}")
+    for m in METRIC_NAMES:
+        if m in c.metrics and (why := metric_problem(m, c.metrics[m], flags)):
+            out.append(f"{where}.metrics.{m} = {shown(c.metrics[m])} -> {why}")
+    if why := _finite_array(c.response.freq_Hz, "response.freq_Hz"):
+        out.append(f"{where} -> {why}")
+    elif np.size(c.response.freq_Hz) and not np.all(np.asarray(c.response.freq_Hz) > 0):
+        out.append(f"{where} -> response.freq_Hz must be > 0")
+    if why := _finite_array(c.response.z_ohm, "response.z_ohm"):
+        out.append(f"{where} -> {why}")
+    if c.cv is not None:
+        for what, values in (("cv.bias_V", c.cv.bias_V), ("cv.cap_F", c.cv.cap_F),
+                             ("cv operating point", [c.cv.operating_bias_V, c.cv.operating_cap_F])):
+            if why := _finite_array(values, what):
+                out.append(f"{where} -> {why}")
+    return out
+
+
+def cell_problems(where: str, cell: CellResult) -> list[str]:
+    """Problems of one cell result's identity, per-cell columns and corners (not its keys)."""
+    out = []
+    rules = (("name", cell.name, CELL_NAME, "letters, digits, _, - and ., starting with a letter, "
+              "at most 80"), ("family", cell.family, FAMILY_NAME, "empty, or a name like a cell name"))
+    for attr, value, rule, allowed in rules:
+        if not isinstance(value, str) or not rule.fullmatch(value):
+            out.append(f"{where}.{attr} = {shown(value)} -> not a valid {attr}; allowed: {allowed}")
+    if cell.topology not in REGISTRY.names():
+        out.append(f"{where}.topology = {shown(cell.topology)} -> allowed: {', '.join(REGISTRY.names())}")
+    if cell.placement not in PLACEMENTS:
+        out.append(f"{where}.placement = {shown(cell.placement)} -> allowed: {', '.join(PLACEMENTS)}")
+    if not isinstance(cell.rail, str) or not RAIL_NAME.fullmatch(cell.rail):
+        out.append(f"{where}.rail = {shown(cell.rail)} -> rail names use lower-case letters, digits and _, "
+                   "starting with a letter, at most 24 (core, io or a rail the deck names)")
+    if cell.oxide not in OXIDES:
+        out.append(f"{where}.oxide = {shown(cell.oxide)} -> allowed: {', '.join(OXIDES)}")
+    if not _is_number(cell.area_um2) or not 0 < float(cell.area_um2) < math.inf:
+        out.append(f"{where}.area_um2 = {shown(cell.area_um2)} -> must be a finite number > 0")
+    if not _is_number(cell.gate_area_um2) or not 0 <= float(cell.gate_area_um2) < math.inf:
+        out.append(f"{where}.gate_area_um2 = {shown(cell.gate_area_um2)} -> must be a finite number >= 0")
+    for attr in ("width_sites", "height_rows"):
+        value = getattr(cell, attr)
+        if not isinstance(value, (int, np.integer)) or isinstance(value, bool) or value < 1:
+            out.append(f"{where}.{attr} = {shown(value)} -> must be a whole number >= 1")
+    if not isinstance(cell.esd_safe, (bool, np.bool_)):
+        out.append(f"{where}.esd_safe = {shown(cell.esd_safe)} -> must be true or false")
+    if why := _text_list_problem(cell.notes, "notes"):
+        out.append(f"{where}.notes -> {why}")
+    for j, c in enumerate(cell.corners):
+        out += corner_problems(f"{where}.corners[{j}] ({shown(c.corner, 40)})", c)
+    return out
