@@ -55,7 +55,9 @@ METRIC_RANGES: dict[str, tuple[float, float, bool]] = {
     "leakage_nA": (0.0, math.inf, True),
     "leakage_nA_per_nF": (0.0, math.inf, True),
     "oxide_field_MV_per_cm": (0.0, 1e3, True),
-    "tddb_life_years": (0.0, math.inf, True),
+    "gate_leakage_nA": (0.0, math.inf, True),
+    "junction_leakage_nA": (0.0, math.inf, True),
+    "tddb_fit_per_mm2": (0.0, math.inf, True),
     "pulse_vbd_V": (0.0, 1e4, True),
 }
 #: Corner conditions: (lowest, highest), degC and V.

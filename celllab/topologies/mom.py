@@ -35,7 +35,12 @@ from celllab.topologies.registry import Topology
 TOP_ILD_M = 0.5 * micro
 #: Smallest inter-layer dielectric height the field model is given, m.
 MIN_ILD_M = 1.0 * nano
-NO_GATE_OXIDE = "no_gate_oxide: tddb_life_years and pulse_vbd_V are empty (a mom cell has no gate oxide)"
+#: Columns a cell without gate oxide leaves empty (its flag names each, so none reads as a failure).
+NO_OXIDE_COLUMNS = ("tddb_fit_per_mm2", "pulse_vbd_V", "hbm_oxide_peak_V", "hbm_over_vbd_ns", "hbm_margin_V",
+                    "cdm_oxide_peak_V", "cdm_over_vbd_ns", "cdm_margin_V", "hbm_oxide_share_pct",
+                    "esd_series_helps", "broken_oxide_mA", "broken_oxide_mW", "broken_oxide_ok")
+NO_GATE_OXIDE = ("no_gate_oxide: " + ", ".join(NO_OXIDE_COLUMNS)
+                 + " are empty (a mom cell has no gate oxide to stress, zap or break)")
 
 
 def _layer_arrays(corners: CornerSet, geos: Sequence[Any], position: int) -> mom.MomLayer:

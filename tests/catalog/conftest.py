@@ -169,7 +169,7 @@ def make_cell(
         )
         flags = ["outside model range: gate_length_um"] if (index + k) % 7 == 0 else []
         if topology == "mom":  # an empty metric carries a flag naming it
-            flags.append("no_gate_oxide: pulse_vbd_V is empty (no gate oxide in a mom cell)")
+            flags.append("no_gate_oxide: tddb_fit_per_mm2 and pulse_vbd_V are empty (no gate oxide in a mom cell)")
         result_corners.append(
             CornerResult(
                 corner,

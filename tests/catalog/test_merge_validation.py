@@ -89,6 +89,12 @@ CASES: dict[str, tuple[tuple[str, ...], tuple[object, ...], bool, tuple[str, ...
                                               (deck_hash({}),), False, ("not a valid deck",)),
     "deck parameters altered": (("UPDATE decks SET params_json = replace(params_json, '\"core_V\":1.2', "
                                  "'\"core_V\":1.3')",), (), False, ("not the hash of the stored parameters",)),
+    "placement not allowed": ((f"UPDATE cells SET placement = 'sideways' WHERE cell_id = {FIRST_CELL}",),
+                              (), True, ("placement", "open_region")),
+    "rail changed": ((f"UPDATE cells SET rail = 'io' WHERE cell_id = {FIRST_CELL} AND oxide = 'core'",),
+                     (), True, ("cell_hash",)),
+    "rail with escapes": ((f"UPDATE cells SET rail = ? WHERE cell_id = {FIRST_CELL}",), ("core\x1b[2J",),
+                          True, ("rail",)),
     "far-future timestamp": (("UPDATE decks SET current_since_utc = '2999-01-01T00:00:00.000000Z'",),
                              (), False, ("current_since_utc", "future")),
     "implausible density": ((f"UPDATE corner_metrics SET cap_density_fF_per_um2 = 1e6 "

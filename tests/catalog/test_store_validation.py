@@ -63,7 +63,7 @@ def test_a_flag_must_name_the_metric_as_a_word() -> None:
     # leakage_nA_per_nF does not explain an empty leakage_nA, nor the other way round
     assert not flag_names_metric("leakage_nA", ["leakage_nA_per_nF beyond range"])
     assert not flag_names_metric("leakage_nA_per_nF", ["leakage_nA empty"])
-    assert flag_names_metric("leakage_nA", ["empty: leakage_nA, tddb_life_years"])
+    assert flag_names_metric("leakage_nA", ["empty: leakage_nA, tddb_fit_per_mm2"])
 
 
 @pytest.mark.parametrize(("metric", "value", "says"), [

@@ -14,7 +14,7 @@ from hypothesis import strategies as st
 
 from celllab.errors import PlanError
 from celllab.planner import load_block, parse_block
-from celllab.planner.network_spec import parse_network_spec, supply_network
+from celllab.planner.supply import supply_network
 
 from .conftest import fuzz_settings
 from .strategies import assert_located, edit, paths, pick, values
@@ -70,9 +70,11 @@ NETWORK_BASES = [data for data in BASES if "network" in data]
 
 @st.composite
 def edited_networks(draw: st.DrawFn) -> dict[str, Any]:
-    data = {"network": draw(st.sampled_from(NETWORK_BASES))["network"]}
+    """A demo block with a [network] table, edited only inside that table (the rest of the
+    block stays valid, so a refusal is the network's)."""
+    data = draw(st.sampled_from(NETWORK_BASES))
     for _ in range(draw(st.integers(1, 3))):
-        if not (options := paths(data)):
+        if not (options := [("network", *p) for p in paths(data["network"])]):
             break
         path = pick(draw, options)
         data = edit(data, draw(st.sampled_from(["set", "set", "delete", "extra"])), path, draw(values()))
@@ -84,13 +86,14 @@ def edited_networks(draw: st.DrawFn) -> dict[str, Any]:
 def test_network_tables_are_accepted_or_located(data: dict[str, Any], outcomes: Counter[str]) -> None:
     outcomes["network_data.cases"] += 1
     try:
-        spec = parse_network_spec(data, FILE)
+        block = parse_block(data, FILE)
     except PlanError as exc:
         assert_located(exc, FILE)
         outcomes["network_data.rejected"] += 1
         return
-    assert _finite_numbers(spec)
-    supply_network(spec.network, supply_V=1.2)  # an accepted table builds its network
+    assert _finite_numbers(block)
+    if block.network is not None:
+        supply_network(block, supply=1.2)  # an accepted table builds its network
     outcomes["network_data.accepted"] += 1
 
 
