@@ -18,7 +18,7 @@ import sys
 import threading
 from collections.abc import Iterator
 from pathlib import Path
-from typing import Any, Self
+from typing import TYPE_CHECKING, Any, Self
 
 
 def _import_sqlite_utils() -> None:
@@ -36,11 +36,9 @@ def _import_sqlite_utils() -> None:
 _import_sqlite_utils()
 
 from celllab import DEFAULT_CATALOG  # noqa: E402
-from celllab.catalog import merge as _merge  # noqa: E402
 from celllab.catalog import pareto as _pareto  # noqa: E402
 from celllab.catalog import query as _query  # noqa: E402
 from celllab.catalog import store as _store  # noqa: E402
-from celllab.catalog.merge import MergeReport  # noqa: E402
 from celllab.catalog.query import DeckInfo  # noqa: E402
 from celllab.catalog.schema import open_database  # noqa: E402
 from celllab.catalog.store import StoreReport  # noqa: E402
@@ -48,6 +46,19 @@ from celllab.errors import CatalogError  # noqa: E402
 from celllab.records import CellResult, CharacterizationRun  # noqa: E402
 
 __all__ = ["Catalog", "DeckInfo", "MergeReport", "StoreReport", "open_catalog"]
+
+if TYPE_CHECKING:
+    from celllab.catalog.merge import MergeReport
+
+
+def __getattr__(name: str) -> Any:
+    """``MergeReport`` on first use: merging checks rows against the deck and cell schemas
+    (pydantic), which a catalog opened only to query never loads."""
+    if name == "MergeReport":
+        from celllab.catalog.merge import MergeReport
+
+        return MergeReport
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 
 
@@ -114,6 +125,8 @@ class Catalog:
         """
         with self._lock:
             try:
+                from celllab.catalog import merge as _merge
+
                 return _merge.merge_from(self._db, self.path, other_path, make_current)
             except sqlite3.DatabaseError as exc:  # the source's own errors name the source
                 if "disk is full" in str(exc):

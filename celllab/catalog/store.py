@@ -28,7 +28,6 @@ import numpy as np
 import sqlite_utils
 
 from celllab.catalog.schema import cell_column_type, fill_extremes, write_transaction
-from celllab.catalog.validate import DECK_NAME, cell_problems, shown
 from celllab.display import nan_to_none, none_to_nan  # SQLite stores NaN as NULL
 from celllab.errors import CatalogError, Problem
 from celllab.records import (
@@ -234,6 +233,10 @@ def _corner_problems(where: str, c: CornerResult, run_corners: set[str]) -> list
 
 def validate_run(run: CharacterizationRun) -> None:
     """Raise CatalogError listing every structural problem of ``run`` (nothing is written)."""
+    # imported here: the checks read the deck and topology schemas (pydantic, scipy), which a
+    # catalog opened only to query never needs
+    from celllab.catalog.validate import DECK_NAME, cell_problems, shown
+
     label = f"run of deck {shown(run.deck_name)}"
     msgs: list[str] = []
     if not run.deck_hash or not run.deck_name or not run.model_version:

@@ -17,7 +17,6 @@ from celllab.cli.args import MAX_ROWS, whole_number
 from celllab.cli.text import printable
 from celllab.columns import CELL_COLUMNS, COLUMNS, METRIC_BY_NAME, METRIC_NAMES, RANKED, unit_of
 from celllab.display import LOWER_BOUND, format_value, jsonable, mark_bounds, text_table
-from celllab.units import from_si
 
 #: The line below a table that shows a lower bound.
 BOUND_NOTE = f"{LOWER_BOUND}: a lower bound (no resonance or cutoff found up to the analysed band)"
@@ -112,6 +111,8 @@ def render_cell(cell: Any, deck: str) -> str:
     if derived:
         lines.append("  derived: " + ", ".join(f"{k}={format_value(v)}" for k, v in derived.items()))
     if cell.corners and len(cell.corners[0].response.freq_Hz):
+        from celllab.units import from_si
+
         freq = cell.corners[0].response.freq_Hz
         lines.append(f"  analysed band {format_value(from_si(float(freq[0]), 'MHz'))} MHz to "
                      f"{format_value(from_si(float(freq[-1]), 'GHz'))} GHz; SRF and bandwidth above it are "
@@ -319,8 +320,6 @@ def cmd_merge(args: argparse.Namespace) -> int:
                     "decks_not_current": report.decks_not_current,
                     "decks_made_current": report.decks_made_current,
                     "conflicts": report.conflicts,
-                    "current_changed": report.current_changed,
-                    "current_kept": report.current_kept,
                 }
             )
         )

@@ -207,8 +207,8 @@ def test_compare_puts_long_flags_below_the_table_wrapped() -> None:
 
     flag = ("weak_channel: overdrive below 0.2 V, channel resistance formulas outside their "
             "strong-inversion range; ESR, tau and bandwidth are the least certain numbers")
-    rows = [{"name": n, "deck": "d", "cap_fF": 1.0, "srf_GHz": 1000.0,
-             "flags": [flag, "srf_beyond_sweep: no self-resonance below 1 THz"]} for n in ("a", "b")]
+    rows = [{"name": n, "deck": "d", "cap_fF": 1.0, "srf_GHz": 1000.0, "srf_is_bound": 1.0,
+             "flags": [flag, "srf_beyond_band: no self-resonance below 1 THz"]} for n in ("a", "b")]
     text = render_compare(rows, width=80)
     table, _, below = text.partition("\nflags of a:")
     assert flag[:30] not in table  # no flags row in the table
@@ -238,9 +238,8 @@ def test_show_prints_what_applies_without_float_noise(tmp_path: Path, capsys: py
 def test_rank_tables_mark_a_bound_as_one() -> None:
     from celllab.cli.query import render_table
 
-    rows = [{"name": "a", "bandwidth_GHz": 1000.0, "cap_fF": 2.0,
-             "flags": ["bandwidth_beyond_sweep: C_eff above C/sqrt(2) up to 1 THz"]},
-            {"name": "b", "bandwidth_GHz": 12.5, "cap_fF": 3.0, "flags": []}]
+    rows = [{"name": "a", "bandwidth_GHz": 1000.0, "cap_fF": 2.0, "bandwidth_is_bound": 1.0},
+            {"name": "b", "bandwidth_GHz": 12.5, "cap_fF": 3.0, "bandwidth_is_bound": 0.0}]
     text = render_table(rows, ["name", "cap_fF", "bandwidth_GHz"])
     assert "≥1000" in text and "≥12.5" not in text and "12.5" in text
     assert "≥: a lower bound" in text
