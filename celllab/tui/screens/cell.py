@@ -249,6 +249,8 @@ class CellScreen(TaskScreen):
                                   f"{format_number(c.supply_V)}V", justify="right"), key=c.corner)
         table.header_height = 2
         for info in METRICS:
+            if info.bounds:  # a bound flag reads as the ≥ in front of its metric
+                continue
             name = Text(info.name)
             name.append(f" {info.arrow}", style="dim")
             table.add_row(name, *[value_text(c.metrics.get(info.name), info.name,

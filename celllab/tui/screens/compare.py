@@ -136,6 +136,8 @@ class CompareScreen(TaskScreen):
             except KeyError:
                 values.append(({}, frozenset()))
         for info in METRICS:
+            if info.bounds:  # a bound flag reads as the ≥ in front of its metric
+                continue
             row = [v.get(info.name) for v, _ in values]
             # the best value is starred when it stands out: not a tie of every cell, and not
             # a lower bound (a bound is not known to beat anything)

@@ -187,6 +187,8 @@ def compare_table(before: Mapping[str, float], after: Mapping[str, float] | None
     table.add_column("what-if", justify="right", no_wrap=True)
     table.add_column("change", justify="right", no_wrap=True)
     for info in METRICS:
+        if info.bounds:  # a bound flag reads as the ≥ in front of its metric
+            continue
         b = before.get(info.name)
         a = after.get(info.name) if after is not None else None
         name = Text(info.name)
