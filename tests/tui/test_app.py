@@ -10,7 +10,7 @@ from pathlib import Path
 from typing import Any
 
 import pytest
-from textual.widgets import Input, RadioButton, TextArea
+from textual.widgets import Input, Label, RadioButton, TextArea
 
 from celllab.tui.app import CelllabApp, DeckFailure
 from celllab.tui.screens.about import AboutPanel
@@ -82,6 +82,22 @@ async def test_csv_export_writes_every_filtered_row(synthetic_catalog: Any, ui: 
     expected = synthetic_catalog.count(deck=SYNTHETIC_DECK, where="oxide = io")
     assert len(rows) == expected > 20  # every row, not just the page on screen
     assert {r["oxide"] for r in rows} == {"io"}
+
+
+async def test_an_existing_file_is_replaced_only_after_a_second_enter(
+        synthetic_catalog: Any, ui: Any, tmp_path: Path) -> None:
+    app = CelllabApp(catalog=synthetic_catalog, page_size=20, export_folder=tmp_path)
+    target = tmp_path / "rows.csv"
+    target.write_text("keep me\n")
+    async with app.run_test(size=(100, 30)) as pilot:
+        await ui.settle(pilot)
+        await _export(app, pilot, ui, "csv", target)
+        dialog = app.screen
+        assert "enter again replaces it" in str(dialog.query_one("#export-error", Label).render())
+        assert target.read_text() == "keep me\n"  # warned, nothing written yet
+        await pilot.press("enter")
+        await ui.settle(pilot)
+    assert target.read_text() != "keep me\n" and "cap_fF" in target.read_text()
 
 
 async def test_circuit_text_and_cell_exports_from_the_cell_view(

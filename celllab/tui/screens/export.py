@@ -70,6 +70,8 @@ class ExportRequest:
     path: str
     #: a folder the export may create (the app's default exports folder)
     may_create: str | None = None
+    #: replace an existing file (asked for by submitting the same path twice)
+    replace: bool = False
 
 
 def available_formats(context: ExportContext) -> list[ExportFormat]:
@@ -104,7 +106,8 @@ def _view_cells(context: ExportContext, catalog: Any, path: Path) -> tuple[list[
     return [catalog.cell(name, decks[0]) for name in names], decks[0]
 
 
-def _export_view(fmt: ExportFormat, path: Path, context: ExportContext, catalog: Any) -> None:
+def _export_view(fmt: ExportFormat, path: Path, context: ExportContext, catalog: Any,
+                 force: bool = False) -> None:
     """Liberty (at the current corner; the first characterized one when ranking worst/best) or
     LEF."""
     from celllab.export import stored_deck, write_lef, write_liberty
@@ -115,9 +118,9 @@ def _export_view(fmt: ExportFormat, path: Path, context: ExportContext, catalog:
         # the catalog keeps the run's corner order (the stored deck's keys are sorted)
         corners = [c for c in catalog.corners(deck_name) if c in deck.corners] or list(deck.corners)
         corner = context.corner if context.corner in deck.corners else corners[0]
-        write_liberty(path, cells, deck, corner)
+        write_liberty(path, cells, deck, corner, force=force)
     else:
-        write_lef(path, cells, deck)
+        write_lef(path, cells, deck, force=force)
 
 
 def perform_export(request: ExportRequest, context: ExportContext, catalog: Any) -> Path:
@@ -139,15 +142,17 @@ def perform_export(request: ExportRequest, context: ExportContext, catalog: Any)
     if fmt.needs_catalog and catalog is None:
         raise CelllabError([Problem(str(path), "", "no catalog open", has_value=False)])
     if fmt.key in ("liberty", "lef"):
-        _export_view(fmt, path, context, catalog)
+        _export_view(fmt, path, context, catalog, force=request.replace)
     elif fmt.key == "csv":
         query = {**context.query, "limit": None, "offset": 0}
         rows = catalog.query(**query)
-        _call(writer, path, rows)
+        _call(writer, path, rows, force=request.replace)
     elif fmt.key in ("json", "spice"):
-        _call(writer, path, [context.cell], deck_name=context.deck, corner=corner)
+        _call(writer, path, [context.cell], deck_name=context.deck, corner=corner,
+              force=request.replace)
     else:
-        _call(writer, path, context.cell, corner=corner, deck_name=context.deck)
+        _call(writer, path, context.cell, corner=corner, deck_name=context.deck,
+              force=request.replace)
     return path
 
 
@@ -167,6 +172,8 @@ class ExportDialog(ModalScreen[ExportRequest | None]):
         self._folder = folder or Path.cwd()
         self._shown_default = self._default_path(self._formats[0])
         self._path_edited = False
+        #: an existing path the user was warned about; submitting it again replaces the file
+        self._confirmed: str | None = None
 
     def _default_path(self, fmt: ExportFormat) -> str:
         return str(self._folder / f"{self._export_context.stem}.{fmt.extension}")
@@ -223,7 +230,14 @@ class ExportDialog(ModalScreen[ExportRequest | None]):
         if not path:
             self.query_one("#export-error", Label).update("✗ give a path")
             return
-        self.dismiss(ExportRequest(self._chosen().key, path, may_create=str(self._folder)))
+        target = Path(path).expanduser()
+        if target.is_file() and self._confirmed != path:  # never replaced without a second enter
+            self._confirmed = path
+            self.query_one("#export-error", Label).update(
+                f"✗ {target.name} exists: enter again replaces it, or change the path")
+            return
+        self.dismiss(ExportRequest(self._chosen().key, path, may_create=str(self._folder),
+                                   replace=target.is_file()))
 
     def on_button_pressed(self, event: Button.Pressed) -> None:
         if event.button.id == "export-ok":
