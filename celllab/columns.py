@@ -255,10 +255,13 @@ def bound_flag(name: str) -> str | None:
 
 
 def is_lower_bound(row: Any, name: str) -> bool:
-    """Whether ``row`` (a mapping of column values) holds only a lower bound for ``name``."""
+    """Whether ``row`` (a mapping of column values, or a corner result) holds only a lower bound
+    for ``name``: the one place that decides."""
     flag = BOUND_FLAGS.get(name)
     if flag is None:
         return False
+    if hasattr(row, "metrics"):  # a records.CornerResult: its own metrics hold the flag
+        row = row.metrics
     value = row.get(flag) if hasattr(row, "get") else None
     return value is not None and not (isinstance(value, float) and math.isnan(value)) and bool(value)
 

@@ -15,7 +15,7 @@ from typing import Any
 
 from celllab.columns import BOUND_FLAGS, is_lower_bound, unit_of
 
-__all__ = ["LOWER_BOUND", "corner_conditions", "finite_or_none", "format_metric", "format_number", "format_value",
+__all__ = ["LOWER_BOUND", "corner_conditions", "count_text", "finite_or_none", "format_metric", "format_number", "format_value",
            "jsonable", "mark_bounds", "nan_to_none", "none_to_nan", "text_table"]
 
 #: Prefix of a value that is only a lower bound (no resonance or cutoff found up to it).
@@ -56,6 +56,12 @@ def format_value(value: Any, empty: str = "-", digits: int = 4) -> str:
     if isinstance(value, Real):
         return empty if math.isnan(float(value)) else format_number(float(value), digits)
     return str(value)
+
+
+def count_text(n: int, singular: str, plural: str | None = None) -> str:
+    """``1 row``, ``2 rows``, ``1,024 cells``: a count with its noun in the right number."""
+    word = singular if n == 1 else (plural or singular + "s")
+    return f"{n:,} {word}"
 
 
 def format_metric(row: Mapping[str, Any], name: str, empty: str = "-", digits: int = 4) -> str:

@@ -74,7 +74,8 @@ def _characterize(deck: Deck, cells: Sequence[CellSpec], corner_set: CornerSet, 
         out = topologies.evaluate(topology, deck, corner_set, group_cells, group_geo, freq)
         risk = _risk(deck, corner_set, topology, out, group_cells, group_geo) if esd else {}
         for k, i in enumerate(idx):
-            results[i] = _record(cells[i], geometries[i], corner_set, out, k, freq, risk.get(k))
+            results[i] = _record(cells[i], geometries[i], corner_set, out, k, freq, risk.get(k),
+                                 esd_run=esd)
         done += len(idx)
         if progress:
             progress(f"{deck.name}: {topology}", done, len(cells))
@@ -135,6 +136,12 @@ def _names(metric: str, flags: list[str]) -> bool:
     return any(word.search(f) for f in flags)
 
 
+#: Columns only the ESD events and the broken-oxide figures fill (empty when they are not run).
+ESD_EVENT_METRICS = ("hbm_oxide_peak_V", "hbm_over_vbd_ns", "hbm_margin_V", "cdm_oxide_peak_V",
+                     "cdm_over_vbd_ns", "cdm_margin_V", "hbm_oxide_share_pct", "esd_series_helps",
+                     "broken_oxide_mA", "broken_oxide_mW", "broken_oxide_ok")
+
+
 def _empty_metric_flags(metrics: dict[str, float], flags: list[str]) -> list[str]:
     """A flag for the metrics that came out empty or infinite and no flag explains yet."""
     overflow = [k for k, v in metrics.items() if np.isinf(v) and not _names(k, flags)]
@@ -166,7 +173,7 @@ def _band_flags(out: Any, k: int, j: int, top_Hz: float) -> list[str]:
 
 
 def _record(spec: CellSpec, geo: Any, corners: CornerSet, group: Any, index: int, freq: np.ndarray,
-            risk: tuple[CatalogRisk, int] | None = None) -> CellResult:
+            risk: tuple[CatalogRisk, int] | None = None, esd_run: bool = True) -> CellResult:
     out, k = group.row(index)
     corner_results = []
     notes = list(out.notes)
@@ -187,6 +194,11 @@ def _record(spec: CellSpec, geo: Any, corners: CornerSet, group: Any, index: int
             vbd_pulse_V=float(out.vbd_pulse_V[k, j]),
             **_risk_figures(risk, len(corners.names), j))
         m = {metric.name: float(metric.compute(figures)) for metric in METRICS}  # type: ignore[misc]
+        if not esd_run:  # say why the event columns are empty, before the generic flag does
+            skipped = [name for name in ESD_EVENT_METRICS if np.isnan(m.get(name, 0.0))]
+            if skipped:
+                flags.append(f"esd_not_run: {', '.join(skipped)} stored empty: built without the "
+                             "deck's ESD events (build --no-esd, characterize(esd=False))")
         flags += _empty_metric_flags(m, flags)
         m = {key: _finite(v) for key, v in m.items()}
         cv = None

@@ -17,12 +17,14 @@ import numpy as np
 
 from celllab.columns import (
     AGGREGATE_CORNERS,
+    BOUND_FLAGS,
     CELL_COLUMNS,
     METRIC_BY_NAME,
     METRIC_NAMES,
     METRICS,
     Better,
     Column,
+    is_lower_bound,
 )
 
 #: Column facts (units, better direction, worst/best) live in ``celllab.columns``; the names are
@@ -31,7 +33,7 @@ MetricInfo = Column
 
 __all__ = [
     "CELL_COLUMNS", "METRICS", "METRIC_BY_NAME", "METRIC_NAMES", "Better", "CVCurve", "CellResult",
-    "CharacterizationRun", "CornerFigures", "CornerResult", "FrequencyResponse", "MetricInfo", "corner_metrics",
+    "CharacterizationRun", "CornerFigures", "CornerResult", "FrequencyResponse", "MetricInfo", "corner_bounds", "corner_metrics",
     "netlist_from_dict", "netlist_to_dict",
 ]
 
@@ -191,6 +193,13 @@ def corner_metrics(cell: CellResult, corner: str) -> dict[str, float]:
                 out[m.name] = max((float(v) for v in chosen if v is not None), default=math.nan)
         return out
     return dict(cell.corner(corner).metrics)
+
+
+def corner_bounds(cell: CellResult, corner: str) -> frozenset[str]:
+    """Metrics whose value ``corner_metrics(cell, corner)`` gives is a lower bound (for "worst" /
+    "best" the bound flag follows the corner that gives the value; ``columns.is_lower_bound``)."""
+    chosen = corner_metrics(cell, corner)
+    return frozenset(name for name in BOUND_FLAGS if is_lower_bound(chosen, name))
 
 
 def netlist_to_dict(netlist: Any) -> dict[str, Any]:

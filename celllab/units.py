@@ -31,7 +31,7 @@ from scipy.constants import (
     zero_Celsius,
 )
 
-__all__ = ["UNITS", "Unit", "from_si", "to_si", "unit_from_name"]
+__all__ = ["UNITS", "Unit", "from_si", "pretty_unit", "to_si", "unit_from_name"]
 
 Value = TypeVar("Value", float, np.ndarray)
 
@@ -138,3 +138,17 @@ def unit_from_name(name: str) -> str:
         if name.endswith(suffix):
             return symbol
     return ""
+
+
+#: How the ASCII spellings of unit symbols read on a screen that shows Unicode.
+_PRETTY: tuple[tuple[str, str], ...] = (
+    ("degC", "°C"), ("ohm", "Ω"), ("um", "µm"), ("^-3", "⁻³"), ("^2", "²"), ("(V s)", "(V·s)"),
+)
+
+
+def pretty_unit(symbol: str) -> str:
+    """A unit symbol as people read it on screen (``um^2`` -> ``µm²``, ``degC`` -> ``°C``,
+    ``ohm`` -> ``Ω``); file headers and CSV keep the ASCII symbol."""
+    for ascii_text, shown in _PRETTY:
+        symbol = symbol.replace(ascii_text, shown)
+    return symbol

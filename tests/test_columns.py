@@ -164,3 +164,32 @@ def test_a_metric_added_in_columns_alone_reaches_every_consumer(tmp_path) -> Non
     assert got["row"] == pytest.approx(got["metric"], rel=1e-12)
     assert any("cap_nF [nF]" in line for line in got["csv"]) and any("cap_nF" in line for line in got["csv"])
     assert got["schema"] and got["help"] and got["tui"]
+
+
+def test_a_corner_result_is_read_through_its_metrics() -> None:
+    import numpy as np
+
+    from celllab.columns import is_lower_bound
+    from celllab.records import CornerResult, FrequencyResponse
+
+    metrics = {m: 0.0 for m in METRIC_NAMES} | {"srf_GHz": 1000.0, "srf_is_bound": 1.0}
+    c = CornerResult("a", 25.0, 1.2, metrics, FrequencyResponse(np.ones(2), np.ones(2)))
+    assert is_lower_bound(c, "srf_GHz") and not is_lower_bound(c, "bandwidth_GHz")
+    assert not is_lower_bound({"srf_GHz": 1.0}, "srf_GHz")  # a row without the flag
+
+
+def test_worst_and_best_are_bounds_only_when_the_chosen_corner_is_one() -> None:
+    import numpy as np
+
+    from celllab.records import CellResult, CornerResult, FrequencyResponse, corner_bounds
+
+    def corner(name: str, srf: float, bound: bool) -> CornerResult:
+        metrics = {m: 0.0 for m in METRIC_NAMES} | {"srf_GHz": srf, "srf_is_bound": float(bound)}
+        return CornerResult(name, 25.0, 1.2, metrics, FrequencyResponse(np.ones(2), np.ones(2)))
+
+    cell = CellResult("c", "h", "f", "mom", "core", {}, 1.0, 1, 1, 1.0, True,
+                      [corner("a", 1000.0, True), corner("b", 400.0, False)])
+    # srf: higher is better, so worst is corner b's resolved 400 GHz, best corner a's bound
+    assert corner_bounds(cell, "worst") == frozenset()
+    assert corner_bounds(cell, "best") == {"srf_GHz"}
+    assert corner_bounds(cell, "a") == {"srf_GHz"} and corner_bounds(cell, "b") == frozenset()

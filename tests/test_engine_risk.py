@@ -58,6 +58,10 @@ def test_tied_oxides_see_the_whole_rail(run) -> None:  # type: ignore[no-untyped
 def test_without_esd_the_columns_stay_empty() -> None:
     cell = characterize(DECK, CELLS[:1], corners=["typ_25C"], esd=False).cells[0]
     assert all(math.isnan(cell.corners[0].metrics[k]) for k in ESD_COLUMNS)
+    # the flag says why they are empty, not that the model had no number
+    flags = cell.corners[0].flags
+    assert any(f.startswith("esd_not_run:") and "hbm_margin_V" in f for f in flags)
+    assert not any(f.startswith("no_value:") and "hbm_margin_V" in f for f in flags)
 
 
 def test_catalog_grid_agrees_with_the_fine_grid() -> None:

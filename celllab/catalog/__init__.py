@@ -52,14 +52,13 @@ __all__ = ["Catalog", "DeckInfo", "MergeReport", "StoreReport", "open_catalog"]
 
 
 def __getattr__(name: str) -> Any:
-    # merging validates another catalog's decks and cells (pydantic, the topologies): loaded
-    # when first used, so reading a catalog starts without them
+    """``MergeReport`` on first use: merging checks rows against the deck and cell schemas
+    (pydantic), which a catalog opened only to query never loads."""
     if name == "MergeReport":
         from celllab.catalog.merge import MergeReport
 
         return MergeReport
     raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
-
 
 
 class Catalog:
@@ -102,6 +101,19 @@ class Catalog:
         """Store a run in one transaction (unchanged deck + cell + model version: no-op)."""
         with self._access() as db:
             return _store.store_run(db, run)
+
+    def stored_cells(self, deck_hash: str, model_version: str) -> set[tuple[str, str]]:
+        """(cell_hash, name) of the current results stored for this deck version and model
+        version: what a build of the same input need not characterize again."""
+        with self._access() as db:
+            return {(str(h), str(n)) for h, n in db.execute(
+                "SELECT cell_hash, name FROM cells WHERE deck_hash = ? AND model_version = ? "
+                "AND current = 1", [deck_hash, model_version]).fetchall()}
+
+    def remove_run(self, run_id: int) -> int:
+        """Take back the latest run of a deck (see ``store.remove_run``); cells removed."""
+        with self._access() as db:
+            return _store.remove_run(db, run_id)
 
     def merge_from(self, other_path: str | Path, make_current: bool = False) -> MergeReport:
         """Import another catalog file by content hash; conflicts are reported, never overwritten.

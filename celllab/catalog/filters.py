@@ -10,7 +10,8 @@ Grammar (keywords are case-insensitive)::
                 | NUMERIC ["not"] "in" "(" number ("," number)* ")"
                 | TEXT ("=" | "==" | "!=" | "<>" | "~") text      ~ is a glob: * ? [abc]
                 | TEXT ["not"] "in" "(" text ("," text)* ")"
-                | BOOL [("=" | "!=") ("true" | "false" | 0 | 1)]   a bare BOOL means true
+                | BOOL [("=" | "!=") ("true" | "false" | "yes" | "no" | 0 | 1)]
+                                                                 a bare BOOL means true
     number     := ["-"] digits [. digits] [e [+-] digits]          plain floats, no SI suffix
     text       := "quoted" | 'quoted' | bare_word
 
@@ -494,13 +495,16 @@ class _Parser:
 
     def bool_value(self, field: str) -> float:
         tok = self.tok
-        if self.is_keyword("true") or (tok.kind == "number" and tok.value == 1.0):
+        # yes/no as well: tables and the UI show booleans that way
+        if self.is_keyword("true") or self.is_keyword("yes") or (
+                tok.kind == "number" and tok.value == 1.0):
             self.next()
             return 1.0
-        if self.is_keyword("false") or (tok.kind == "number" and tok.value == 0.0):
+        if self.is_keyword("false") or self.is_keyword("no") or (
+                tok.kind == "number" and tok.value == 0.0):
             self.next()
             return 0.0
-        raise self.fail(f"true, false, 1 or 0 for '{field}'")
+        raise self.fail(f"true, false, yes, no, 1 or 0 for '{field}'")
 
     def value_list(self, field: str) -> tuple[float | str, ...]:
         kind = FIELDS[field]

@@ -28,7 +28,6 @@ import numpy as np
 import sqlite_utils
 
 from celllab.catalog.schema import cell_column_type, fill_extremes, write_transaction
-from celllab.catalog.validate import DECK_NAME, cell_problems, shown
 from celllab.display import nan_to_none, none_to_nan  # SQLite stores NaN as NULL
 from celllab.errors import CatalogError, Problem
 from celllab.records import (
@@ -234,6 +233,10 @@ def _corner_problems(where: str, c: CornerResult, run_corners: set[str]) -> list
 
 def validate_run(run: CharacterizationRun) -> None:
     """Raise CatalogError listing every structural problem of ``run`` (nothing is written)."""
+    # imported here: the checks read the deck and topology schemas (pydantic, scipy), which a
+    # catalog opened only to query never needs
+    from celllab.catalog.validate import DECK_NAME, cell_problems, shown
+
     label = f"run of deck {shown(run.deck_name)}"
     msgs: list[str] = []
     if not run.deck_hash or not run.deck_name or not run.model_version:
@@ -530,6 +533,30 @@ def store_run(db: sqlite_utils.Database, run: CharacterizationRun) -> StoreRepor
                 _cell_stored_hook(n)
         writer.finish()
     return StoreReport(run_id, len(new), unchanged, superseded, differing)
+
+
+def remove_run(db: sqlite_utils.Database, run_id: int) -> int:
+    """Take back a ``store_run`` that superseded nothing: its cells, the run and, when no other
+    run used it, its deck. One transaction; returns the number of cells removed.
+
+    Refused (CatalogError) when the run is not the latest of its deck: later runs may build on
+    it. The caller knows whether the store superseded anything (``StoreReport.superseded``).
+    """
+    with write_transaction(db):
+        row = db.execute("SELECT deck_hash FROM runs WHERE run_id = ?", [run_id]).fetchone()
+        if row is None:
+            raise CatalogError.single("catalog", "run_id", "no such run", run_id)
+        deck_hash = row[0]
+        latest = db.execute("SELECT MAX(run_id) FROM runs WHERE deck_hash = ?",
+                            [deck_hash]).fetchone()[0]
+        if latest != run_id:
+            raise CatalogError.single("catalog", "run_id", "a later run of the same deck exists; "
+                                      "only the latest run can be taken back", run_id)
+        n = db.execute("DELETE FROM cells WHERE run_id = ?", [run_id]).rowcount
+        db.execute("DELETE FROM runs WHERE run_id = ?", [run_id])
+        if not db.execute("SELECT 1 FROM runs WHERE deck_hash = ? LIMIT 1", [deck_hash]).fetchone():
+            db.execute("DELETE FROM decks WHERE deck_hash = ?", [deck_hash])
+    return int(n)
 
 
 def _retire_name(db: sqlite_utils.Database, deck_hash: str, name: str) -> int:

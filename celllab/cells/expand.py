@@ -85,6 +85,24 @@ def variant_name(family: str, values: dict[str, Any], swept: list[str]) -> str:
     return "-".join(parts)
 
 
+def renamed_variant(name: str, before: dict[str, Any], after: dict[str, Any]) -> str:
+    """``name`` with the tags of changed geometry fields rewritten (``x-w8-h1-f2`` with
+    ``fingers`` 2 -> 4 gives ``x-w8-h1-f4``); a changed field without its tag in the name gets
+    one appended. Fields without a tag (or with an empty one) leave the name as it is."""
+    parts = name.split("-")
+    for key, value in after.items():
+        tag = NAME_TAGS.get(key)
+        if not tag or before.get(key) == value or value is None:
+            continue
+        old = f"{tag}{_fmt(before[key])}" if before.get(key) is not None else None
+        new = f"{tag}{_fmt(value)}"
+        if old is not None and old in parts[1:]:
+            parts[parts.index(old, 1)] = new
+        else:
+            parts.append(new)
+    return "-".join(parts)
+
+
 def _expand_value(value: Any, where: str, file: str, text: str | None, path: list[Any]) -> list[Any]:
     if isinstance(value, list):
         if not value:
@@ -360,3 +378,17 @@ def spec_from_record(cell: Any) -> CellSpec:
                 rail=getattr(cell, "rail", "") or cell.oxide)
     allowed = set(CellSpec.model_fields)
     return CellSpec.model_validate({k: v for k, v in data.items() if k in allowed})
+
+
+def applicable_geometry(cell: Any) -> tuple[dict[str, Any], dict[str, Any]]:
+    """(the geometry fields that apply to the cell's topology, the derived values that apply):
+    a field another topology uses, or a derived count of zero, is left out."""
+    from celllab.topologies import REGISTRY
+
+    applies = set(REGISTRY[cell.topology].fields) if cell.topology in REGISTRY.names() else None
+    given = {k: v for k, v in cell.geometry.items()
+             if not k.startswith("resolved_") and (applies is None or k in applies)
+             and v is not None}
+    derived = {k.removeprefix("resolved_"): v for k, v in cell.geometry.items()
+               if k.startswith("resolved_") and v not in (None, 0, 0.0, [], "")}
+    return given, derived

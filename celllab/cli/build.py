@@ -4,32 +4,20 @@ from __future__ import annotations
 
 import argparse
 import json
-import sys
 
 from celllab import CAUTION, DEFAULT_CATALOG
 from celllab.cli.args import MAX_ROWS, whole_number
-from celllab.display import text_table
 from celllab.errors import CelllabError, Problem
 
 
 def _progress_printer(enabled: bool):  # type: ignore[no-untyped-def]
+    """A ``progress(stage, done, total)`` callback: a rich progress bar on a terminal, one line
+    per finished deck in a log, nothing when disabled."""
     if not enabled:
         return None
+    from celllab.cli.progress import progress_callback
 
-    live = sys.stderr.isatty()
-
-    def show(stage: str, done: int, total: int) -> None:
-        width = 30
-        filled = int(width * done / max(total, 1))
-        if live:  # redraw one line in a terminal
-            sys.stderr.write(f"\r{stage:<32} [{'#' * filled}{'.' * (width - filled)}] {done}/{total}")
-            if done >= total:
-                sys.stderr.write("\n")
-        elif done >= total:  # a log gets one line per deck
-            sys.stderr.write(f"{stage.split(':')[0]}: {total} cells characterized\n")
-        sys.stderr.flush()
-
-    return show
+    return progress_callback("characterizing", "characterized")
 
 
 def _load(deck_paths: list[str], cell_paths: list[str]):  # type: ignore[no-untyped-def]
@@ -85,22 +73,41 @@ def cmd_build(args: argparse.Namespace) -> int:
     corners = [c.strip() for c in args.corners.split(",")] if args.corners else None
     for deck, _ in pairs:  # every input is checked before the catalog file is touched
         CornerSet.from_deck(deck, corners)
+    from celllab import MODEL_VERSION
+
     catalog = open_catalog(args.catalog)
     reports = []
     for deck, cells in pairs:
-        run = characterize(deck, cells, corners=corners, sources=[*args.deck, *args.cells],
+        # cells already stored for this deck version and model version are not computed again
+        stored = catalog.stored_cells(deck.content_hash, MODEL_VERSION)
+        todo = [c for c in cells if (c.content_hash, c.name) not in stored]
+        run = characterize(deck, todo, corners=corners, sources=[*args.deck, *args.cells],
                            progress=_progress_printer(not args.quiet and not args.json), esd=not args.no_esd)
         report = catalog.store_run(run)
-        reports.append((deck.name, len(cells), report))
+        reports.append((deck.name, len(cells), len(cells) - len(todo), report))
     if args.json:
         print(json.dumps([{"deck": d, "cells": n, "run_id": r.run_id, "inserted": r.inserted,
-                           "unchanged": r.unchanged, "superseded": r.superseded} for d, n, r in reports]))
+                           "unchanged": r.unchanged + skipped, "superseded": r.superseded}
+                          for d, n, skipped, r in reports]))
     else:
-        for d, n, r in reports:
-            print(f"{d}: {n} cells -> {args.catalog} (run {r.run_id}: {r.inserted} new, "
-                  f"{r.unchanged} unchanged, {r.superseded} superseded)")
+        for d, n, skipped, r in reports:
+            print(f"{d}: {n} cells -> {args.catalog}: {build_summary(r, skipped)}")
         print(CAUTION)
     return 0
+
+
+def build_summary(report, skipped: int) -> str:  # type: ignore[no-untyped-def]
+    """What a build did, in words: new results, results already stored, results replaced."""
+    unchanged = report.unchanged + skipped
+    parts = [f"{report.inserted} new", f"{unchanged} already stored"]
+    if report.superseded:
+        if report.inserted:
+            parts.append(f"{report.superseded} earlier results replaced (kept as history)")
+        else:  # nothing new: an earlier version of this deck became current again
+            parts.append(f"this deck version is current again; {report.superseded} results of "
+                         "the other version kept as history")
+    run = f"run {report.run_id}" if report.inserted or report.superseded else "nothing to store"
+    return f"{', '.join(parts)} ({run})"
 
 
 def cmd_demo(args: argparse.Namespace) -> int:
@@ -120,8 +127,10 @@ def cmd_demo(args: argparse.Namespace) -> int:
     rows = catalog.query(corner="worst", order_by="cap_density_fF_per_um2", limit=args.limit)
     cols = ["name", "deck", "topology", "cap_fF", "cap_density_fF_per_um2", "esr_ohm", "bandwidth_GHz",
             "leakage_nA_per_nF"]
+    from celllab.cli.query import render_table
+
     print(f"Densest demo cells (each metric at its worst corner) in {path}:")
-    print(text_table(rows, cols))
+    print(render_table(rows, cols))
     print(CAUTION)
     return 0
 

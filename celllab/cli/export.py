@@ -176,7 +176,21 @@ def _export_csv(args: argparse.Namespace, cat: Any) -> None:
     from celllab.export.csv import render_csv
 
     rows = _select_rows(cat, args)
-    _emit(args, render_csv(rows, comments=not args.no_comments), DEFAULT_FILES["csv"])
+    _emit(args, render_csv(rows, comments=not args.no_comments, precision=_precision(args)),
+          DEFAULT_FILES["csv"])
+
+
+def _precision(args: argparse.Namespace) -> int | None:
+    """--precision: significant digits, or None for "exact" (shortest round-trip text)."""
+    from celllab.export.csv import MAX_PRECISION
+
+    text = str(args.precision).strip().lower()
+    if text == "exact":
+        return None
+    if not text.isdigit() or not 1 <= int(text) <= MAX_PRECISION:
+        raise _problem("--precision", f"allowed: 1 to {MAX_PRECISION} significant digits, or "
+                       "'exact'", args.precision)
+    return int(text)
 
 
 def _export_json(args: argparse.Namespace, cat: Any) -> None:
@@ -252,21 +266,30 @@ def _export_touchstone(args: argparse.Namespace, cat: Any) -> None:
 
 
 def _export_datasheet(args: argparse.Namespace, cat: Any) -> None:
+    from celllab.cli.progress import steps
     from celllab.export.datasheet import render_datasheet_html, render_library_html
     from celllab.export.files import file_stem
 
     cells, deck = _load_cells(cat, _select_rows(cat, args))
     _need_cells(cells)
+    if args.pdf:
+        _export_datasheet_pdf(args, cells, deck)
+        return
     summary = _query_corner(args.corner)  # the summary table reads worst/best like a query
     plots = not args.no_plots
     if _is_folder(args.out):
         files: dict[str, str] = {}
         owners: dict[str, str] = {}
-        for c in cells:
-            _add_file(files, owners, f"{file_stem(c.name)}.html",
-                      render_datasheet_html(c, deck, plots=plots), f"cell {c.name}")
+        with steps("datasheets", len(cells)) as advance:
+            for c in cells:
+                _add_file(files, owners, f"{file_stem(c.name)}.html",
+                          render_datasheet_html(c, deck, plots=plots), f"cell {c.name}")
+                advance(1)
+        # the index links to the cell pages instead of repeating them (a page, not megabytes)
         _add_file(files, owners, DEFAULT_FILES["datasheet"],
-                  render_library_html(cells, deck, summary, plots=plots), "the library index")
+                  render_library_html(cells, deck, summary, plots=plots,
+                                      link=lambda c: f"{file_stem(c.name)}.html"),
+                  "the library index")
         _emit_many(args, files)
     elif len(cells) == 1:
         _emit(
@@ -278,6 +301,33 @@ def _export_datasheet(args: argparse.Namespace, cat: Any) -> None:
         _emit(
             args, render_library_html(cells, deck, summary, plots=plots), DEFAULT_FILES["datasheet"]
         )
+
+
+def _export_datasheet_pdf(args: argparse.Namespace, cells: Sequence[Any], deck: str | None) -> None:
+    """One PDF per cell: into the --out folder, or one cell's PDF to --out (never stdout).
+    Every target is checked (links, existing files without --force) before the first is drawn."""
+    from celllab.cli.progress import steps
+    from celllab.export.datasheet import write_datasheet_pdf
+    from celllab.export.files import check_files, check_target, file_stem, make_folder
+
+    if _is_folder(args.out):
+        names = [f"{file_stem(cell.name)}.pdf" for cell in cells]
+        check_files(args.out, names, force=args.force)
+        folder = make_folder(args.out)
+        with steps("PDF datasheets", len(cells)) as advance:
+            for name, cell in zip(names, cells):
+                write_datasheet_pdf(folder / name, cell, deck)
+                advance(1)
+        print(f"wrote {len(cells)} files to {printable(folder)}", file=sys.stderr)
+        return
+    if not args.out or args.out == "-":
+        raise _problem("--out", "a PDF is written to a file: give --out FILE.pdf (one cell) or "
+                       "--out DIR/", args.out, has_value=args.out is not None)
+    if len(cells) > 1:
+        raise _problem("--out", f"{len(cells)} cells make {len(cells)} PDFs: give an output "
+                       "folder (--out DIR/) or narrow with --cells", args.out)
+    write_datasheet_pdf(check_target(args.out, force=args.force), cells[0], deck)
+    print(f"wrote {printable(args.out)}", file=sys.stderr)
 
 
 def _export_liberty(args: argparse.Namespace, cat: Any) -> None:
@@ -441,6 +491,13 @@ def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
         help="csv: no leading '#' lines (caution, units legend)",
     )
     p.add_argument(
+        "--precision",
+        default="6",
+        metavar="N",
+        help="csv: significant digits of numbers, 1-17, or 'exact' for the shortest text that "
+        "reads back as the stored value (default: %(default)s)",
+    )
+    p.add_argument(
         "--no-curves", action="store_true", help="json: metrics only, without Z(f) and C-V arrays"
     )
     p.add_argument(
@@ -468,6 +525,8 @@ def register(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
         "(default: %(default)s)",
     )
     p.add_argument("--no-plots", action="store_true", help="datasheet: tables only")
+    p.add_argument("--pdf", action="store_true",
+                   help="datasheet: one PDF per cell instead of HTML (--out FILE.pdf or DIR/)")
     p.add_argument(
         "--force",
         action="store_true",

@@ -11,29 +11,15 @@ block's ``[network]``: resonances, target check, damping trade, droop in time, e
 from __future__ import annotations
 
 import argparse
-import contextlib
 import json
 import os
 import sys
-from collections.abc import Iterator
 from typing import Any
 
 from celllab import CAUTION, DEFAULT_CATALOG
 from celllab.cli.text import printable
 
 _WIDTH = 132
-
-
-@contextlib.contextmanager
-def _progress(enabled: bool) -> Iterator[Any]:
-    """A spinner with the current stage on stderr, only on a terminal."""
-    if not enabled:
-        yield None
-        return
-    from rich.console import Console
-
-    with Console(stderr=True).status("planning") as status:
-        yield lambda text: status.update(text)
 
 
 def network_options(args: argparse.Namespace) -> Any:
@@ -58,8 +44,9 @@ def cmd_plan(args: argparse.Namespace) -> int:
     block = load_block(args.block)
     if args.out:  # refuse an unusable --out before the solve, not after it
         check_files(args.out, plan_file_names(block.block.name), args.force)
-    with open_catalog(args.catalog, create=False) as catalog, \
-            _progress(sys.stderr.isatty()) as say:
+    from celllab.cli.progress import working
+
+    with open_catalog(args.catalog, create=False) as catalog, working("planning") as say:
         plan = plan_block(block, catalog, explain=not args.no_explain, progress=say,
                           network=network_options(args))
     summary = plan.to_dict()

@@ -26,6 +26,9 @@ from celllab.columns import (
 )
 from celllab.display import LOWER_BOUND, format_value, jsonable, mark_bounds, text_table
 
+#: The line below a table that shows a lower bound.
+BOUND_NOTE = f"{LOWER_BOUND}: a lower bound (no resonance or cutoff found up to the analysed band)"
+
 #: Columns of ``rank`` and ``pareto`` tables unless --columns says otherwise.
 DEFAULT_COLUMNS = (
     "name",
@@ -47,16 +50,37 @@ def render_table(rows: Sequence[dict[str, Any]], columns: Sequence[str]) -> str:
     """Plain-text table: a header of column names, then one line per row (catalog numbers
     right-aligned, lower bounds as "≥value")."""
     numeric = {c for c in columns if c in COLUMNS and COLUMNS[c].kind != "text"}
-    return text_table([mark_bounds(r) for r in rows], columns, numeric)
+    marked = [mark_bounds(r) for r in rows]
+    text = text_table(marked, columns, numeric)
+    if any(str(r.get(c)).startswith(LOWER_BOUND) for r in marked for c in columns):
+        text += f"\n{BOUND_NOTE}"
+    return text
 
 
 def dump_json(value: Any) -> str:
     return json.dumps(jsonable(value), indent=2, allow_nan=False)
 
 
-def render_compare(rows: Sequence[dict[str, Any]]) -> str:
-    """Side by side: one column per cell, one line per attribute and metric (with its unit)."""
-    keys = ["deck", "family", "topology", "oxide", "corner", *CELL_COLUMNS, *METRIC_NAMES, "flags"]
+def _wrapped(prefix: str, items: Sequence[str], width: int) -> list[str]:
+    import textwrap
+
+    lines = []
+    for item in items:
+        lines += textwrap.wrap(item, width, initial_indent=f"{prefix}- ",
+                               subsequent_indent=" " * (len(prefix) + 2))
+    return lines
+
+
+def _width() -> int:
+    import shutil
+
+    return max(60, min(shutil.get_terminal_size((100, 24)).columns, 120))
+
+
+def render_compare(rows: Sequence[dict[str, Any]], width: int | None = None) -> str:
+    """Side by side: one column per cell, one line per attribute and metric (with its unit);
+    each cell's flags below the table, wrapped to ``width`` (the terminal's by default)."""
+    keys = ["deck", "family", "topology", "oxide", "corner", *CELL_COLUMNS, *METRIC_NAMES]
     names = [str(r["name"]) for r in rows]
     labels = (
         names if len(set(names)) == len(names) else [f"{r['name']} ({r['deck']})" for r in rows]
@@ -66,7 +90,17 @@ def render_compare(rows: Sequence[dict[str, Any]]) -> str:
         {"column": k, "unit": unit_of(k), **{lab: r.get(k) for lab, r in zip(labels, marked)}}
         for k in keys
     ]
-    return render_table(table, ["column", "unit", *labels])
+    numeric = {*labels}
+    lines = [text_table(table, ["column", "unit", *labels], numeric)]
+    width = width or _width()
+    for label, row in zip(labels, rows):
+        flags = list(row.get("flags") or [])
+        lines += ["", f"flags of {label}:" if flags else f"flags of {label}: none"]
+        if flags:
+            lines += _wrapped("  ", flags, width)
+    if any(str(v).startswith(LOWER_BOUND) for r in table for v in r.values()):
+        lines += ["", BOUND_NOTE]
+    return "\n".join(lines)
 
 
 def render_cell(cell: Any, deck: str) -> str:
@@ -77,13 +111,20 @@ def render_cell(cell: Any, deck: str) -> str:
         f"  cell_hash {cell.cell_hash}",
     ]
     lines.append("  " + "   ".join(f"{c} {format_value(getattr(cell, c))}" for c in CELL_COLUMNS))
+    from celllab.cells.expand import applicable_geometry
+
+    given, derived = applicable_geometry(cell)
+    if given:
+        lines.append("  geometry: " + ", ".join(f"{k}={format_value(v)}" for k, v in given.items()))
+    if derived:
+        lines.append("  derived: " + ", ".join(f"{k}={format_value(v)}" for k, v in derived.items()))
     if cell.corners and len(cell.corners[0].response.freq_Hz):
+        from celllab.units import from_si
+
         freq = cell.corners[0].response.freq_Hz
         lines.append(f"  analysed band {format_value(from_si(float(freq[0]), 'MHz'))} MHz to "
                      f"{format_value(from_si(float(freq[-1]), 'GHz'))} GHz; SRF and bandwidth above it are "
                      f"computed from the equivalent circuit (flagged), {LOWER_BOUND} marks a lower bound")
-    if cell.geometry:
-        lines.append("  geometry: " + ", ".join(f"{k}={v}" for k, v in cell.geometry.items()))
     if cell.notes:
         lines.append("  notes: " + "; ".join(cell.notes))
     corners = [c.corner for c in cell.corners]
@@ -104,13 +145,21 @@ def render_cell(cell: Any, deck: str) -> str:
             **{c.corner: marked[c.corner].get(m) for c in cell.corners},
         }
         for m in METRIC_NAMES
+        if any(c.metrics.get(m) == c.metrics.get(m) for c in cell.corners)  # applies somewhere
     ]
-    lines += ["", render_table(table, ["metric", "unit", *corners, "better"])]
+    lines += ["", text_table(table, ["metric", "unit", *corners, "better"], {*corners})]
+    if any(str(v).startswith(LOWER_BOUND) for r in table for v in r.values()):
+        lines.append(BOUND_NOTE)
     flagged = [(c.corner, c.flags) for c in cell.corners if c.flags]
     lines.append("")
-    lines += [f"flags {corner}: {'; '.join(flags)}" for corner, flags in flagged] or ["flags: none"]
+    width = _width()
+    for corner, flags in flagged:
+        lines += [f"flags {corner}:"] + _wrapped("  ", flags, width)
+    if not flagged:
+        lines.append("flags: none")
     lines += ["", CAUTION_SHORT]  # ESD, wear-out and fault figures are estimates, not sign-off
     return "\n".join(lines)
+
 
 
 def cell_to_dict(cell: Any, deck: str) -> dict[str, Any]:

@@ -14,6 +14,7 @@ schema      ``export_json_schema()``                     ``write_json_schema(pat
 SPICE       ``render_spice_subckt(cell, corner)``        ``write_spice(path, cells)``
 Touchstone  ``render_touchstone(cell, corner)``          ``write_touchstone(path, ...)``
 datasheet   ``render_datasheet_html(cell, deck_name)``   ``write_datasheet(path, ...)``
+            ``render_datasheet_pdf(cell, deck_name)``    ``write_datasheet_pdf(path, ...)``
 Liberty     ``render_liberty(cells, deck, corner)``      ``write_liberty(path, ...)``
 LEF         ``render_lef(cells, deck)``                  ``write_lef(path, ...)``
 block plan  ``render_fill_csv(plan)``, ``render_fill_    ``write_plan_files(plan,
@@ -62,6 +63,8 @@ _LAZY: dict[str, str] = {
     "render_library_html": "datasheet",
     "write_datasheet": "datasheet",
     "write_library_datasheet": "datasheet",
+    "render_datasheet_pdf": "datasheet",
+    "write_datasheet_pdf": "datasheet",
     "render_liberty": "liberty",
     "write_liberty": "liberty",
     "write_liberty_set": "liberty",

@@ -1,7 +1,8 @@
 """CSV export of catalog rows (one row per cell x corner).
 
 Column names are the catalog's names, which carry their unit (``cap_fF``, ``esr_ohm``,
-``area_um2``; see ``celllab.columns``). Numbers are written with Python's shortest
+``area_um2``; see ``celllab.columns``). Numbers are written to ``DEFAULT_PRECISION``
+significant digits (stated in a comment line), or with ``precision=None`` in Python's shortest
 round-trip representation, so ``float(text)`` gives back exactly the stored value; booleans
 are ``1``/``0``; a missing value is an empty field; undefined values are ``nan``/``inf``. A value
 that is only a lower bound (its ``*_is_bound`` column is 1, e.g. no self-resonance found in the
@@ -45,12 +46,18 @@ DEFAULT_COLUMNS: tuple[str, ...] = (
     "deck_hash",
 )
 
-__all__ = ["DEFAULT_COLUMNS", "format_value", "render_csv", "rows_from_cells", "write_csv"]
+#: Significant digits of numbers in a CSV unless asked otherwise: the models are estimates,
+#: more digits would only carry float noise (1.0299999999999998).
+DEFAULT_PRECISION = 6
+MAX_PRECISION = 17  # a float64 round-trips with 17 significant digits
+
+__all__ = ["DEFAULT_COLUMNS", "DEFAULT_PRECISION", "format_value", "render_csv", "rows_from_cells", "write_csv"]
 
 
-def format_value(value: Any) -> str:
-    """One field as text: round-trip floats, ``1``/``0`` booleans, empty for ``None``,
-    lists (flags) joined with ``"; "``."""
+def format_value(value: Any, precision: int | None = None) -> str:
+    """One field as text: floats to ``precision`` significant digits (None: the shortest
+    round-trip text), ``1``/``0`` booleans, empty for ``None``, lists (flags) joined with
+    ``"; "``."""
     if value is None:
         return ""
     if isinstance(value, (list, tuple)):
@@ -63,6 +70,8 @@ def format_value(value: Any) -> str:
         number = float(value)
         if math.isnan(number):
             return "nan"
+        if precision is not None and math.isfinite(number):
+            return f"{number:.{precision}g}"
         return repr(number)  # 'inf', '-inf' or the shortest round-trip decimal
     return str(value)
 
@@ -82,6 +91,7 @@ def render_csv(
     rows: Iterable[Mapping[str, Any]],
     columns: Sequence[str] | None = None,
     comments: bool = True,
+    precision: int | None = DEFAULT_PRECISION,
 ) -> str:
     """Render rows (catalog query dicts) as CSV text.
 
@@ -91,11 +101,15 @@ def render_csv(
     columns : sequence of str, optional   columns to write, in order; default: every key
         present, in ``DEFAULT_COLUMNS`` order then any others in first-seen order
     comments : bool   start with ``#`` lines: tool, model version, caution, units legend
+    precision : int or None   significant digits of numbers (1-17); None: exact round-trip text
 
     Returns
     -------
     str   CSV text, ``\\r\\n`` line ends (RFC 4180), header row first after the comments
     """
+    if precision is not None and not 1 <= precision <= MAX_PRECISION:
+        raise ValueError(f"precision = {precision} -> allowed: 1 to {MAX_PRECISION} significant "
+                         "digits, or None for exact round-trip text")
     materialized = list(rows)
     names = _columns(materialized, columns)
     out = io.StringIO(newline="")
@@ -105,11 +119,15 @@ def render_csv(
         legend = ", ".join(f"{c} [{unit_of(c)}]" for c in names if unit_of(c))
         if legend:
             out.write(f"# units: {legend}\r\n")
+        digits = (f"{precision} significant digits" if precision is not None
+                  else "exact (shortest round-trip text)")
+        out.write(f"# numbers: {digits}\r\n")
     writer = csv.writer(out, lineterminator="\r\n")
     writer.writerow(names)
     for row in materialized:
-        writer.writerow([LOWER_BOUND + format_value(row.get(c)) if is_lower_bound(row, c) and row.get(c) is not None
-                         else format_value(row.get(c)) for c in names])
+        writer.writerow([LOWER_BOUND + format_value(row.get(c), precision)
+                         if is_lower_bound(row, c) and row.get(c) is not None
+                         else format_value(row.get(c), precision) for c in names])
     return out.getvalue()
 
 
@@ -147,7 +165,9 @@ def write_csv(
     rows: Iterable[Mapping[str, Any]],
     columns: Sequence[str] | None = None,
     comments: bool = True,
+    precision: int | None = DEFAULT_PRECISION,
     force: bool = False,
 ) -> Path:
     """Write :func:`render_csv` output to ``path`` atomically (``force``: replace a file)."""
-    return atomic_write_text(path, render_csv(rows, columns=columns, comments=comments), force)
+    return atomic_write_text(path, render_csv(rows, columns=columns, comments=comments,
+                                              precision=precision), force)

@@ -23,14 +23,16 @@ from matplotlib.figure import Figure
 from matplotlib.ticker import FuncFormatter, NullLocator
 
 from celllab import MODEL_VERSION, __version__
-from celllab.columns import CELL_COLUMNS, METRICS, unit_of
-from celllab.display import format_metric, format_value
+from celllab.cells.expand import applicable_geometry
+from celllab.columns import CELL_COLUMNS, METRICS, is_lower_bound, unit_of
+from celllab.display import LOWER_BOUND, format_metric, format_value
 from celllab.export import CAUTION, atomic_write_text
 from celllab.records import CellResult, CornerResult, corner_metrics
 from celllab.units import from_si
 
 __all__ = [
     "render_datasheet_html",
+    "render_datasheet_pdf",
     "render_library_html",
     "write_datasheet",
     "write_library_datasheet",
@@ -70,6 +72,10 @@ pre { background: #f4f4f4; padding: 0.6em; overflow-x: auto; font-size: 0.85em; 
 figure { margin: 1em 0; }
 figcaption { color: #555; font-size: 0.9em; }
 .cell { page-break-before: always; }
+.wide { overflow-x: auto; max-width: 100%; }
+.summary th { font-size: 0.8em; }
+.summary td { font-size: 0.85em; }
+summary { cursor: pointer; color: #1b4f6a; }
 """
 
 
@@ -133,6 +139,10 @@ def _log_axis(axis: Any) -> None:
 
 
 def _plot_impedance(cell: CellResult, key: str) -> str:
+    return _svg(_impedance_figure(cell), key)
+
+
+def _impedance_figure(cell: CellResult) -> Figure:
     fig, ax = _figure()
     for index, result in enumerate(cell.corners):
         freq = np.asarray(result.response.freq_Hz, dtype=float)
@@ -145,10 +155,14 @@ def _plot_impedance(cell: CellResult, key: str) -> str:
     ax.set_title(f"{cell.name}: rail impedance")
     ax.grid(True, alpha=0.3)
     ax.legend(fontsize="small")
-    return _svg(fig, key)
+    return fig
 
 
 def _plot_ceff_esr(cell: CellResult, key: str) -> str:
+    return _svg(_ceff_esr_figure(cell), key)
+
+
+def _ceff_esr_figure(cell: CellResult) -> Figure:
     fig, (ax_c, ax_r) = _figure(ncols=2)
     spans: list[np.ndarray] = []
     for index, result in enumerate(cell.corners):
@@ -178,10 +192,15 @@ def _plot_ceff_esr(cell: CellResult, key: str) -> str:
     for ax in (ax_c, ax_r):
         ax.grid(True, alpha=0.3)
     ax_c.legend(fontsize="small")
-    return _svg(fig, key)
+    return fig
 
 
 def _plot_cv(cell: CellResult, key: str) -> str | None:
+    fig = _cv_figure(cell)
+    return None if fig is None else _svg(fig, key)
+
+
+def _cv_figure(cell: CellResult) -> Figure | None:
     curves = [(i, c) for i, c in enumerate(cell.corners) if c.cv is not None]
     if not curves:
         return None
@@ -199,7 +218,7 @@ def _plot_cv(cell: CellResult, key: str) -> str | None:
     ax.set_title("quasi-static C-V (dots: operating point)")
     ax.grid(True, alpha=0.3)
     ax.legend(fontsize="small")
-    return _svg(fig, key)
+    return fig
 
 
 def _plot_library(cells: Sequence[CellResult], key: str) -> str:
@@ -240,10 +259,10 @@ def _cell_table(cell: CellResult) -> str:
         for name, info in CELL_COLUMNS.items()
         if name != "esd_safe"
     ]
-    rows += [
-        (f"geometry: {k}", _fmt(v) if isinstance(v, (int, float)) else v)
-        for k, v in cell.geometry.items()
-    ]
+    # only what applies to this topology; derived counts of zero (no devices in a MOM) left out
+    given, derived = applicable_geometry(cell)
+    rows += [(f"geometry: {k}", _fmt(v)) for k, v in given.items()]
+    rows += [(f"derived: {k}", _fmt(v)) for k, v in derived.items()]
     rows.append(("cell hash", cell.cell_hash))
     body = "".join(f'<tr><th scope="row">{_text(k)}</th><td>{_text(v)}</td></tr>' for k, v in rows)
     return f"<table>{body}</table>"
@@ -256,15 +275,23 @@ def _metrics_table(corners: Sequence[CornerResult]) -> str:
         for c in corners
     )
     rows = [f'<tr><th scope="row">conditions</th><td></td><td></td>{conditions}</tr>']
+    bounds = False
     for info in METRICS:
+        values = [c.metrics.get(info.name) for c in corners]
+        if all(v is None or v != v for v in values):
+            continue  # does not apply to this cell (no gate oxide in a MOM cell, ...)
+        bounds = bounds or any(is_lower_bound(c, info.name) for c in corners)
         cells = "".join(f"<td>{_text(format_metric(c.metrics, info.name, 'n/a'))}</td>" for c in corners)
         rows.append(
             f'<tr><th scope="row" title="{_attr(info.description)}">{_text(info.name)}</th>'
             f"<td>{_text(info.unit)}</td><td>{_text(info.better)}</td>{cells}</tr>"
         )
+    note = (f"<p>{LOWER_BOUND}: a lower bound, the quantity lies beyond the analysed "
+            "frequency sweep.</p>" if bounds else "")
     return (
-        '<table><thead><tr><th scope="col">metric</th><th scope="col">unit</th>'
+        '<div class="wide"><table><thead><tr><th scope="col">metric</th><th scope="col">unit</th>'
         f'<th scope="col">better</th>{head}</tr></thead><tbody>{"".join(rows)}</tbody></table>'
+        f"</div>{note}"
     )
 
 
@@ -295,7 +322,9 @@ def _circuit_block(cell: CellResult, deck_name: str | None, model_version: str) 
         if first
         else ""
     )
-    return f"{note}<pre>{_text(text)}</pre>"
+    lines = text.count("\n") + 1
+    return (f"{note}<details><summary>SPICE subcircuit ({lines} lines)</summary>"
+            f"<pre>{_text(text)}</pre></details>")
 
 
 def _cell_section(
@@ -375,10 +404,11 @@ def render_datasheet_html(
     return _page(f"{cell.name} - celllab datasheet", body)
 
 
-def _summary_table(cells: Sequence[CellResult], corner: str | None) -> str:
+def _summary_table(cells: Sequence[CellResult], corner: str | None,
+                   link: Any = None) -> str:
     units = {m.name: m.unit for m in METRICS}
     shown = [m for m in _SUMMARY_METRICS if m in units]
-    head = "".join(f'<th scope="col">{_text(m)} ({_text(units[m])})</th>' for m in shown)
+    head = "".join(f'<th scope="col">{_text(m)}<br>({_text(units[m])})</th>' for m in shown)
     every = corner is None  # no corner singled out: a row per cell and corner
     rows = []
     for cell in cells:
@@ -386,17 +416,19 @@ def _summary_table(cells: Sequence[CellResult], corner: str | None) -> str:
         for pick in picks:
             values = corner_metrics(cell, pick)
             tds = "".join(f"<td>{_text(format_metric(values, m, 'n/a'))}</td>" for m in shown)
+            target = link(cell) if link else f"#{_anchor(cell.name)}"
             rows.append(
-                f'<tr><td><a href="#{_anchor(cell.name)}">{_text(cell.name)}</a></td>'
+                f'<tr><td><a href="{_attr(target)}">{_text(cell.name)}</a></td>'
                 + (f"<td>{_text(pick)}</td>" if every else "")
                 + f"<td>{_text(cell.topology)}</td><td>{_fmt(cell.area_um2)}</td>"
                 f"<td>{'yes' if cell.esd_safe else 'no'}</td>{tds}</tr>"
             )
     return (
-        '<table><thead><tr><th scope="col">cell</th>'
+        '<div class="wide"><table class="summary"><thead><tr><th scope="col">cell</th>'
         + ('<th scope="col">corner</th>' if every else "")
-        + '<th scope="col">topology</th><th scope="col">area_um2 (um^2)</th><th scope="col">ESD safe</th>'
-        f"{head}</tr></thead><tbody>{''.join(rows)}</tbody></table>"
+        + '<th scope="col">topology</th><th scope="col">area_um2<br>(um^2)</th>'
+        '<th scope="col">ESD safe</th>'
+        f"{head}</tr></thead><tbody>{''.join(rows)}</tbody></table></div>"
     )
 
 
@@ -408,9 +440,13 @@ def render_library_html(
     plots: bool = True,
     title: str | None = None,
     generated_utc: str | None = None,
+    link: Any = None,
 ) -> str:
     """Render one HTML page for a library of cells: summary table, overview plot, a section
     per cell (the datasheet body).
+
+    ``link``: a function cell -> URL of the cell's own datasheet; given, the page is an index
+    (summary and overview linking to those pages, no per-cell sections), which keeps it small.
 
     ``corner`` selects the values of the summary table (``celllab.columns`` corner
     selectors): a corner name, "worst" / "best" per metric over the corners (default worst),
@@ -424,7 +460,7 @@ def render_library_html(
         _meta_line(deck_name, model_version, generated_utc),
         _caution_block(),
         f"<h2>Summary ({_text(which)}; {len(cells)} cells)</h2>",
-        _summary_table(cells, corner),
+        _summary_table(cells, corner, link),
     ]
     if plots and cells:
         parts.append(
@@ -432,7 +468,7 @@ def render_library_html(
                 _plot_library(cells, "library"), "Each point one cell; values at its worst corner."
             )
         )
-    for cell in cells:
+    for cell in cells if link is None else ():
         parts.append(
             f'<section class="cell" id="{_attr(_anchor(cell.name))}">'
             f"<h2>{_text(cell.name)}</h2>\n"
@@ -463,3 +499,88 @@ def write_library_datasheet(
     """Write :func:`render_library_html` output to ``path`` atomically (``force``: replace a
     file)."""
     return atomic_write_text(path, render_library_html(cells, deck_name, **options), force)
+
+
+# ----------------------------------------------------------------------------- PDF
+
+
+def _text_page(cell: CellResult, deck_name: str | None, model_version: str) -> Figure:
+    """Page 1 of a PDF datasheet: identity, the caution and the metrics per corner."""
+    import textwrap
+
+    fig = Figure(figsize=(8.27, 11.69))  # A4 portrait, inches
+    fig.text(0.06, 0.96, cell.name, fontsize=16, weight="bold", va="top")
+    given, derived = applicable_geometry(cell)
+    lines = [
+        f"deck {deck_name or 'unknown'} · models {model_version} · celllab {__version__}",
+        f"{cell.topology} · {cell.oxide} oxide · "
+        + ("ESD safe (no gate on a rail)" if cell.esd_safe else "gate tied to a rail: not ESD safe"),
+        f"area {_fmt(cell.area_um2)} um^2 ({cell.width_sites} sites x {cell.height_rows} rows)",
+        "geometry: " + ", ".join(f"{k}={_fmt(v)}" for k, v in given.items()),
+    ]
+    y = 0.925
+    for line in lines:
+        for part in textwrap.wrap(line, 100):
+            fig.text(0.06, y, part, fontsize=8.5, va="top")
+            y -= 0.018
+    y -= 0.01
+    for part in textwrap.wrap("Caution. " + CAUTION, 110):
+        fig.text(0.06, y, part, fontsize=8, va="top", color="#7a4b00")
+        y -= 0.016
+    corners = cell.corners
+    rows, bound_seen = [], False
+    for info in METRICS:
+        values = [c.metrics.get(info.name) for c in corners]
+        if all(v is None or v != v for v in values):
+            continue
+        shown = []
+        for c, v in zip(corners, values):
+            bound = is_lower_bound(c, info.name)
+            bound_seen = bound_seen or bound
+            shown.append((">=" if bound else "") + _fmt(v))
+        rows.append([info.name, info.unit, *shown])
+    top = y - 0.02
+    height = min(0.03 * (len(rows) + 1), top - 0.08)
+    ax = fig.add_axes((0.06, top - height, 0.88, height))
+    ax.axis("off")
+    table = ax.table(cellText=rows, colLabels=["metric", "unit", *[c.corner for c in corners]],
+                     loc="upper left", cellLoc="right", colLoc="right")
+    table.auto_set_font_size(False)
+    table.set_fontsize(7.5)
+    table.auto_set_column_width(list(range(len(corners) + 2)))
+    for (_row, col), box in table.get_celld().items():
+        if col == 0:  # metric names read from the left
+            box.set_text_props(ha="left")
+            box._loc = "left"
+    if bound_seen:
+        fig.text(0.06, top - height - 0.02, ">= : a lower bound, the quantity lies beyond the "
+                 "analysed frequency sweep.", fontsize=7.5, va="top")
+    return fig
+
+
+def render_datasheet_pdf(cell: CellResult, deck_name: str | None,
+                         model_version: str = MODEL_VERSION) -> bytes:
+    """A one-cell datasheet as PDF (matplotlib's PDF backend): page 1 identity, caution and
+    the metrics per corner; then |Z|(f), C_eff and Re Z, and C-V of every corner."""
+    from matplotlib.backends.backend_pdf import PdfPages
+
+    buffer = io.BytesIO()
+    figures = [_text_page(cell, deck_name, model_version), _impedance_figure(cell),
+               _ceff_esr_figure(cell), _cv_figure(cell)]
+    with PdfPages(buffer, metadata={"Title": f"{cell.name} - celllab datasheet",
+                                    "Creator": f"celllab {__version__}",
+                                    "CreationDate": None}) as pdf:
+        for fig in figures:
+            if fig is not None:
+                pdf.savefig(fig)
+    return buffer.getvalue()
+
+
+def write_datasheet_pdf(path: str | os.PathLike[str], cell: CellResult, deck_name: str | None,
+                        **options: Any) -> Path:
+    """Write :func:`render_datasheet_pdf` output to ``path`` atomically."""
+    target = Path(path)
+    tmp = target.with_name(f".{target.name}.tmp")
+    tmp.write_bytes(render_datasheet_pdf(cell, deck_name, **options))
+    os.replace(tmp, target)
+    return target

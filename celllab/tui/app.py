@@ -8,6 +8,8 @@ catalog's SQLite connection may be used from any thread, one at a time).
 from __future__ import annotations
 
 import contextlib
+import os
+import sys
 import threading
 from collections.abc import Iterator, Mapping, Sequence
 from dataclasses import dataclass, field
@@ -18,6 +20,7 @@ from textual import work
 from textual.app import App
 from textual.binding import Binding
 
+from celllab import __version__
 from celllab.errors import CelllabError, Problem
 from celllab.tui.messages import ExportFinished
 from celllab.tui.screens.about import AboutPanel
@@ -49,6 +52,13 @@ class DeckFailure:
         return cls(str(path), list(error.problems))
 
 
+def default_export_folder(catalog: Any) -> Path:
+    """``exports`` beside the catalog file (the working folder's when there is no file)."""
+    path = getattr(catalog, "path", None)
+    base = Path(path).resolve().parent if path else Path.cwd()
+    return base / "exports"
+
+
 class CelllabApp(App[None]):
     """Catalog browser, cell views, what-if editor, ranking, deck views and block planning."""
 
@@ -65,7 +75,8 @@ class CelllabApp(App[None]):
         Binding("question_mark,f1", "show_keys", "Keys"),
         Binding("a", "about", "About"),
         Binding("x", "export", "Export"),
-        Binding("ctrl+q", "quit", "Quit"),
+        # priority: quits from dialogs and overlays too, before any widget sees the key
+        Binding("ctrl+q", "quit", "Quit", priority=True),
         Binding("1", "switch_mode('catalog')", "Catalog", show=False),
         Binding("2", "switch_mode('ranking')", "Ranking", show=False),
         Binding("3", "switch_mode('decks')", "Decks", show=False),
@@ -82,6 +93,7 @@ class CelllabApp(App[None]):
         page_size: int = 100,
         debounce_s: float = 0.15,
         export_folder: str | Path | None = None,
+        z_target_ohm: float | None = None,
         block_paths: Sequence[str | Path] = (),
     ) -> None:
         super().__init__()
@@ -100,7 +112,9 @@ class CelllabApp(App[None]):
                 self._specs[(None, spec.name)] = spec
         self.page_size = page_size
         self.debounce_s = debounce_s
-        self.export_folder = Path(export_folder) if export_folder else Path.cwd()
+        #: where exports go unless the user types another path: an "exports" folder beside
+        #: the catalog file (made on the first export)
+        self.export_folder = Path(export_folder) if export_folder else default_export_folder(catalog)
         #: block files given to the app (the planning view also offers ./process_decks/blocks)
         self.block_paths = [Path(p) for p in block_paths]
         self.catalog_lock = threading.Lock()
@@ -108,6 +122,10 @@ class CelllabApp(App[None]):
         self.current_deck: str | None = next(iter(self.decks), None)
         self.current_corner: str = "worst"
         self._deck_cache: dict[str, Any] = {}
+        #: the |Z| a block needs of its decaps, drawn on every |Z|(f) plot (None: not known)
+        self.z_target_ohm: float | None = z_target_ohm
+        #: the unexpected error that stopped the app (``run_app`` logs it), if any
+        self.crash: BaseException | None = None
 
     # --- services for screens -----------------------------------------------------------
     @contextlib.contextmanager
@@ -164,6 +182,23 @@ class CelllabApp(App[None]):
         """Keep a saved variant's spec so a later what-if starts from exactly it."""
         self._specs[(deck_name, spec.name)] = spec
 
+    def ask_target(self, then: Any = None) -> None:
+        """Ask for the target |Z| (empty clears it); ``then(value)`` runs after a change."""
+        import math
+
+        from celllab.tui.screens.value_prompt import NumberPrompt
+
+        def chosen(value: float | None) -> None:
+            if value is not None and math.isnan(value):
+                return  # cancelled
+            self.z_target_ohm = value
+            if callable(then):
+                then(value)
+
+        self.push_screen(NumberPrompt(
+            "Target |Z|", "The impedance the decaps must stay under (a block's target): drawn "
+            "as a line on every |Z|(f) plot.", "Ω", self.z_target_ohm), chosen)
+
     # --- global actions -----------------------------------------------------------------
     def action_show_keys(self) -> None:
         if isinstance(self.screen, KeysOverlay):
@@ -217,6 +252,18 @@ class CelllabApp(App[None]):
         else:
             self.notify(f"written: {message.path}", title="Export")
 
+    # --- unexpected errors: one line on the terminal, the traceback in a log (run_app) ----
+    def _handle_exception(self, error: Exception) -> None:
+        if self.crash is None:
+            self.crash = error
+        super()._handle_exception(error)
+
+    def _fatal_error(self) -> None:
+        # Textual would print a full-screen traceback at exit; run_app writes it to a log file
+        # (Pilot tests still see the error: run_test raises it)
+        self.bell()
+        self._close_messages_no_wait()
+
     def on_mount(self) -> None:
         if self.deck_failures:
             names = ", ".join(Path(f.path).name for f in self.deck_failures)
@@ -240,17 +287,45 @@ def load_decks_for_ui(paths: Sequence[str | Path]) -> tuple[list[Any], list[Deck
     return decks, failures
 
 
+def write_crash_log(error: BaseException, folder: str | Path | None = None) -> Path:
+    """Write the full traceback of ``error`` to a new log file; returns its path."""
+    import tempfile
+    import time
+    import traceback
+
+    base = Path(folder) if folder is not None else Path(tempfile.gettempdir())
+    base.mkdir(parents=True, exist_ok=True)
+    path = base / f"celllab-ui-{time.strftime('%Y%m%d-%H%M%S')}-{os.getpid()}.log"
+    text = "".join(traceback.format_exception(type(error), error, error.__traceback__))
+    path.write_text(f"celllab {__version__} terminal UI stopped on an unexpected error\n\n{text}",
+                    encoding="utf-8")
+    return path
+
+
 def run_app(catalog_path: str | Path | None = None, deck_paths: Sequence[str | Path] = (),
-            block_paths: Sequence[str | Path] = ()) -> int:
+            block_paths: Sequence[str | Path] = (), *, log_folder: str | Path | None = None,
+            z_target_ohm: float | None = None) -> int:
     """Open the catalog (created when missing), the deck files and the block files offered by
-    the planning view, run the UI; returns 0."""
+    the planning view, run the UI.
+
+    Returns 0; 1 after an unexpected error, which is summed up in one line on stderr with the
+    path of the log file that holds its full traceback (in ``log_folder``, default the
+    system's temporary folder).
+    """
     from celllab.catalog import open_catalog
 
     catalog = open_catalog(catalog_path)
     decks, failures = load_decks_for_ui(deck_paths)
+    app = CelllabApp(catalog=catalog, deck=decks, deck_failures=failures, z_target_ohm=z_target_ohm,
+                     block_paths=block_paths)
     try:
-        CelllabApp(catalog=catalog, deck=decks, deck_failures=failures,
-                   block_paths=block_paths).run()
+        app.run()
     finally:
         catalog.close()
-    return 0
+    if app.crash is not None:
+        log = write_crash_log(app.crash, log_folder)
+        summary = f"{type(app.crash).__name__}: {app.crash}".splitlines()[0]
+        print(f"celllab ui stopped on an unexpected error ({summary}); full traceback in {log}",
+              file=sys.stderr)
+        return 1
+    return int(app.return_code or 0)

@@ -128,6 +128,14 @@ class CellLoaded(Message):
         self.deck = deck
 
 
+class CellsLoaded(Message):
+    """A worker read the full records of several cells: (label, CellResult) pairs."""
+
+    def __init__(self, cells: list[tuple[str, Any]]) -> None:
+        super().__init__()
+        self.cells = cells
+
+
 class WhatIfComputed(Message):
     """A what-if characterization finished (``seconds`` of compute)."""
 
@@ -160,6 +168,14 @@ class VariantSaved(Message):
         self.name = name
         self.deck = deck
         self.report = report
+
+
+class VariantRemoved(Message):
+    """A saved what-if variant was taken back out of the catalog (its run removed)."""
+
+    def __init__(self, run_id: int) -> None:
+        super().__init__()
+        self.run_id = run_id
 
 
 class RankingLoaded(Message):

@@ -46,6 +46,8 @@ from celllab.topologies import REGISTRY
         ("cap_fF > cap_ox_fF", Compare("cap_fF", ">", FieldRef("cap_ox_fF"))),
         ("esd_safe", IsTrue("esd_safe")),
         ("esd_safe = false", Compare("esd_safe", "=", 0.0)),
+        ("esd_safe = yes", Compare("esd_safe", "=", 1.0)),  # as the tables and the UI show it
+        ("esd_safe != no", Compare("esd_safe", "!=", 0.0)),
         ("oxide = core", Compare("oxide", "=", "core")),
         ('name ~ "ndcap*"', Compare("name", "~", "ndcap*")),
         ("name ~ ndcap*", Compare("name", "~", "ndcap*")),
@@ -115,7 +117,7 @@ def _caret_column(message: str) -> int:
         ("cap_fF ~ 1", 7, "applies to text columns"),
         ("topology = crosscoupled", 11, "did you mean 'cross_coupled'"),
         ("height_rows in 1", 15, "expected '(' to open the list"),
-        ("esd_safe = maybe", 11, "expected true, false, 1 or 0"),
+        ("esd_safe = maybe", 11, "expected true, false, yes, no, 1 or 0"),
         ("name = 42", 7, 'quote it: name = "42"'),
     ],
 )

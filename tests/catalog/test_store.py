@@ -230,3 +230,20 @@ def test_circuits_come_back_in_the_run_corner_order(tmp_path) -> None:
     cat.store_run(run)
     back = cat.cell("n")
     assert list(back.netlist) == [c.corner for c in back.corners] == deck.corner_names()
+
+
+def test_remove_run_takes_back_the_latest_run_and_a_deck_it_alone_used(tmp_path) -> None:  # type: ignore[no-untyped-def]
+    from celllab.catalog import open_catalog
+
+    catalog = open_catalog(tmp_path / "c.sqlite")
+    base = make_run(n_cells=5)
+    catalog.store_run(base)
+    other = make_run(n_cells=3, deck_name="otherdeck", seed=2)
+    second = catalog.store_run(other)
+    assert "otherdeck" in {d.name for d in catalog.decks()}
+    assert catalog.remove_run(second.run_id) == 3
+    assert "otherdeck" not in {d.name for d in catalog.decks()}
+    assert catalog.count(deck=base.deck_name) == 5  # the other deck is untouched
+    with pytest.raises(CatalogError):
+        catalog.remove_run(second.run_id)  # gone already
+    catalog.close()

@@ -242,3 +242,16 @@ def test_with_changes_checks_geometry_against_the_deck(lumen130: Deck) -> None:
     assert "do not fit" in info.value.problems[0].message
     with pytest.raises(CellError):
         spec.with_changes({"fingers": 0})                            # schema: fingers >= 1
+
+
+def test_renamed_variant_rewrites_the_tags_of_changed_fields() -> None:
+    from celllab.cells.expand import renamed_variant
+
+    # the naming rule of variant_name: family, then w<sites>, h<rows>, then swept fields' tags
+    assert renamed_variant("lm_ncap-w8-h1-f2", {"fingers": 2}, {"fingers": 4}) == "lm_ncap-w8-h1-f4"
+    assert renamed_variant("lm_ncap-w8-h1-f2", {"width_sites": 8, "fingers": 2},
+                           {"width_sites": 16, "fingers": 2}) == "lm_ncap-w16-h1-f2"
+    assert renamed_variant("lm_ncap-w8-h1", {"fingers": 1}, {"fingers": 3}) == "lm_ncap-w8-h1-f3"
+    assert renamed_variant("lm_ncap-w8-h1", {"gate_length_um": None},
+                           {"gate_length_um": 0.25}) == "lm_ncap-w8-h1-L0p25"
+    assert renamed_variant("x-w8-h1", {"fingers": 2}, {"fingers": 2}) == "x-w8-h1"

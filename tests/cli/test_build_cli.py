@@ -58,3 +58,34 @@ def test_every_verb_has_help(verb: str, capsys) -> None:
         main([verb, "--help"])
     assert exit_info.value.code == 0
     assert len(capsys.readouterr().out) > 200
+
+
+def test_unchanged_input_is_not_characterized_again_and_reads_plainly(tmp_path, capsys, monkeypatch) -> None:
+    import celllab.engine
+
+    cat = tmp_path / "c.sqlite"
+    args = ["build", "--deck", DECK, "--cells", CELLS, "--catalog", str(cat), "--corners", "typ_25C"]
+    assert main([*args, "--json"]) == 0
+    first = json.loads(capsys.readouterr().out)[0]
+    seen: list[int] = []
+    real = celllab.engine.characterize
+
+    def counting(deck, cells, *a, **k):  # type: ignore[no-untyped-def]
+        seen.append(len(cells))
+        return real(deck, cells, *a, **k)
+
+    monkeypatch.setattr(celllab.engine, "characterize", counting)
+    assert main([*args, "--quiet"]) == 0
+    out = capsys.readouterr().out
+    assert seen == [0]  # nothing computed again
+    assert f"0 new, {first['cells']} already stored" in out and "superseded" not in out
+    assert "nothing to store" in out
+
+
+def test_progress_goes_to_a_log_as_lines_not_bars(tmp_path, capsys) -> None:
+    cat = tmp_path / "c.sqlite"
+    assert main(["build", "--deck", DECK, "--cells", CELLS, "--catalog", str(cat),
+                 "--corners", "typ_25C"]) == 0
+    err = capsys.readouterr().err
+    assert "lumen130:" in err and "cells characterized" in err
+    assert "\r" not in err and "━" not in err  # stderr is not a terminal here: no bar

@@ -98,8 +98,8 @@ def read_csv(text: str) -> list[dict[str, str]]:
 
 
 def test_csv_to_stdout_matches_the_catalog(catalog_path, capsys):
-    # Source: stdlib csv reader; exact float equality with the catalog's rows.
-    assert export(catalog_path, "csv") == 0
+    # Source: stdlib csv reader; exact float equality with the catalog's rows ("exact" text).
+    assert export(catalog_path, "csv", "--precision", "exact") == 0
     rows = read_csv(capsys.readouterr().out)
     with open_catalog(catalog_path) as cat:
         expected = {r["name"]: r for r in cat.query(corner="worst")}
@@ -256,3 +256,34 @@ def test_help_mentions_every_format(capsys):
     out = capsys.readouterr().out
     for name in ("csv", "json", "schema", "spice", "touchstone", "datasheet"):
         assert name in out
+
+
+def test_csv_precision_option(catalog_path, capsys):
+    assert main(["export", "csv", "--catalog", str(catalog_path), "--corner", "all"]) == 0
+    default = capsys.readouterr().out
+    assert "# numbers: 6 significant digits" in default
+    assert main(["export", "csv", "--catalog", str(catalog_path), "--precision", "3"]) == 0
+    three = capsys.readouterr().out
+    assert "# numbers: 3 significant digits" in three
+    rows = [ln.split(",") for ln in three.splitlines() if not ln.startswith("#")][1:]
+    assert rows
+    assert main(["export", "csv", "--catalog", str(catalog_path), "--precision", "exact"]) == 0
+    assert "exact" in capsys.readouterr().out
+    assert main(["export", "csv", "--catalog", str(catalog_path), "--precision", "40"]) == 2
+    err = capsys.readouterr().err
+    assert "--precision" in err and "1 to 17" in err and "Traceback" not in err
+
+
+def test_datasheet_folder_index_links_and_pdf_needs_a_file(catalog_path, tmp_path, capsys):
+    out = tmp_path / "sheets"
+    assert main(["export", "datasheet", "--catalog", str(catalog_path), "--out", f"{out}/"]) == 0
+    index = (out / "index.html").read_text()
+    pages = sorted(p.name for p in out.glob("*.html") if p.name != "index.html")
+    assert len(pages) == 3 and all(f'href="{p}"' in index for p in pages)
+    assert "<svg" not in index.split("<h2>Summary")[1].split("<figure>")[0]  # no cell sections
+    capsys.readouterr()
+    assert main(["export", "datasheet", "--catalog", str(catalog_path), "--pdf"]) == 2
+    assert "--out" in capsys.readouterr().err
+    assert main(["export", "datasheet", "--catalog", str(catalog_path), "--pdf",
+                 "--out", f"{tmp_path / 'pdfs'}/"]) == 0
+    assert len(list((tmp_path / "pdfs").glob("*.pdf"))) == 3

@@ -182,3 +182,64 @@ def test_merge(cat_path: Path, tmp_path: Path, capsys: pytest.CaptureFixture[str
     code, out, _ = _run(capsys, "merge", str(conflicting), "--catalog", str(cat_path), "--json")
     report = json.loads(out)
     assert code == 1 and report["added"] == 0 and len(report["conflicts"]) == 1
+
+
+def test_merge_says_when_a_teammates_deck_is_not_made_current(
+        cat_path: Path, tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    other = tmp_path / "teammate.sqlite"
+    newer = synthetic.make_run(deck_version=2, n_cells=3, seed=4)
+    with open_catalog(other) as cat:
+        cat.store_run(newer)  # stored after ours: the teammate's deck is the more recent
+    code, out, _ = _run(capsys, "merge", str(other), "--catalog", str(cat_path))
+    assert code == 0 and "not current: deck invented_n7x" in out and "--make-current" in out
+    with open_catalog(cat_path) as cat:
+        assert [d.deck_hash for d in cat.decks() if d.current] != [newer.deck_hash]
+    code, out, _ = _run(capsys, "merge", str(other), "--catalog", str(cat_path),
+                        "--make-current", "--json")
+    report = json.loads(out)
+    assert code == 0 and len(report["decks_made_current"]) == 1
+    with open_catalog(cat_path) as cat:
+        assert [d.deck_hash for d in cat.decks() if d.current] == [newer.deck_hash]
+
+
+def test_compare_puts_long_flags_below_the_table_wrapped() -> None:
+    from celllab.cli.query import render_compare
+
+    flag = ("weak_channel: overdrive below 0.2 V, channel resistance formulas outside their "
+            "strong-inversion range; ESR, tau and bandwidth are the least certain numbers")
+    rows = [{"name": n, "deck": "d", "cap_fF": 1.0, "srf_GHz": 1000.0, "srf_is_bound": 1.0,
+             "flags": [flag, "srf_beyond_band: no self-resonance below 1 THz"]} for n in ("a", "b")]
+    text = render_compare(rows, width=80)
+    table, _, below = text.partition("\nflags of a:")
+    assert flag[:30] not in table  # no flags row in the table
+    assert all(len(line) <= 80 for line in below.splitlines())
+    assert "≥1000" in table  # the bound is marked as one
+
+
+def test_show_prints_what_applies_without_float_noise(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    from celllab.cells import load_cells
+    from celllab.deck import load_deck
+    from celllab.engine import characterize
+
+    decks = Path(__file__).resolve().parents[2] / "process_decks"
+    deck = load_deck(decks / "lumen130.toml")
+    cells = [c for c in load_cells(decks / "cells" / "lumen130_cells.toml", deck)
+             if c.topology == "mom"][:1]
+    path = tmp_path / "c.sqlite"
+    with open_catalog(path) as cat:
+        cat.store_run(characterize(deck, cells))
+    code, out, _ = _run(capsys, "show", "--catalog", str(path), cells[0].name)
+    assert code == 0
+    assert "None" not in out  # no field that does not apply to a MOM cell
+    assert "gate_length_um" not in out and "accumulation_well" not in out
+    assert "9999" not in out and "0000000" not in out  # no float noise
+
+
+def test_rank_tables_mark_a_bound_as_one() -> None:
+    from celllab.cli.query import render_table
+
+    rows = [{"name": "a", "bandwidth_GHz": 1000.0, "cap_fF": 2.0, "bandwidth_is_bound": 1.0},
+            {"name": "b", "bandwidth_GHz": 12.5, "cap_fF": 3.0, "bandwidth_is_bound": 0.0}]
+    text = render_table(rows, ["name", "cap_fF", "bandwidth_GHz"])
+    assert "≥1000" in text and "≥12.5" not in text and "12.5" in text
+    assert "≥: a lower bound" in text

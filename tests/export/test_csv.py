@@ -37,7 +37,7 @@ def same_number(text: str, value: float | bool | None) -> bool:
 def test_numbers_survive_a_round_trip(library, deck_name):
     # Source: RFC 4180 parsing by Python's csv module; exact float equality.
     rows = rows_from_cells(library, deck_name)
-    back = read_back(render_csv(rows))
+    back = read_back(render_csv(rows, precision=None))
     assert len(back) == len(rows) == sum(len(c.corners) for c in library)
     for original, parsed in zip(rows, back, strict=True):
         assert parsed["name"] == original["name"]
@@ -55,8 +55,9 @@ def test_lower_bounds_are_marked(library, deck_name):
     # *_is_bound column is 1; the number after the mark is the stored bound, exactly
     rows = rows_from_cells(library, deck_name)
     rows[0] = {**rows[0], "srf_GHz": 1500.0, "srf_is_bound": 1.0}
-    back = read_back(render_csv(rows))
+    back = read_back(render_csv(rows, precision=None))  # exact: the round-trip text
     assert back[0]["srf_GHz"] == "≥1500.0" and back[0]["srf_is_bound"] == "1.0"
+    assert read_back(render_csv(rows))[0]["srf_GHz"] == "≥1500"  # default: significant digits
     assert float(back[0]["srf_GHz"].removeprefix("≥")) == 1500.0
     assert not back[1]["srf_GHz"].startswith("≥")
 
@@ -93,7 +94,7 @@ def test_selected_columns_and_corner(library, deck_name):
     back = read_back(render_csv(rows, columns=["name", "corner", "cap_fF"]))
     assert list(back[0]) == ["name", "corner", "cap_fF"]
     assert back[0]["corner"] == corner
-    assert float(back[0]["cap_fF"]) == library[0].corner(corner).metrics["cap_fF"]
+    assert float(back[0]["cap_fF"]) == pytest.approx(library[0].corner(corner).metrics["cap_fF"], rel=5e-6)
 
 
 def test_awkward_text_is_quoted(library, deck_name):
@@ -134,8 +135,25 @@ def test_format_value(value, text):
 @given(st.floats(allow_nan=True, allow_infinity=True))
 def test_any_float_round_trips(value):
     # Source: Python float repr is the shortest string that round-trips (PEP 3101 / repr docs).
-    back = read_back(render_csv([{"name": "c", "cap_fF": value}]))
+    back = read_back(render_csv([{"name": "c", "cap_fF": value}], precision=None))
     assert same_number(back[0]["cap_fF"], value)
+
+
+@given(st.floats(min_value=-1e300, max_value=1e300, allow_nan=False, allow_infinity=False),
+       st.integers(1, 17))
+def test_numbers_keep_the_stated_significant_digits(value, digits):
+    # Source: rounding to n significant digits moves a value by at most half a unit of its
+    # last kept digit, 0.5 * 10**(1 - n) relative (Python format spec 'g'); plus float spacing
+    back = float(read_back(render_csv([{"name": "c", "cap_fF": value}], precision=digits))[0]["cap_fF"])
+    assert abs(back - value) <= 0.5 * 10 ** (1 - digits) * abs(value) * (1 + 1e-12) + 1e-300
+
+
+def test_default_csv_has_no_float_noise_and_says_how_many_digits():
+    text = render_csv([{"name": "c", "supply_V": 1.0299999999999998, "cap_fF": 123.456789123}])
+    assert "1.03," in text and "123.457" in text and "99999" not in text
+    assert "# numbers: 6 significant digits" in text
+    with pytest.raises(ValueError, match="1 to 17"):
+        render_csv([], precision=0)
 
 
 def test_write_csv_replaces_the_file_whole(tmp_path, library, deck_name):

@@ -124,11 +124,26 @@ def test_plots_are_inline_svg_and_well_formed_xml(library, deck_name):
         assert result.corner in blocks[0]
 
 
-def test_metrics_table_lists_every_metric_with_its_unit(library, deck_name):
+def test_metrics_table_lists_every_metric_that_applies_with_its_unit(library, deck_name):
+    import math
+
     cell = library[0]
     text = StrictChecker().check(render_datasheet_html(cell, deck_name, plots=False)).plain_text
     for info in METRICS:
-        assert f"{info.name} {info.unit}" in text
+        applies = any(not math.isnan(c.metrics.get(info.name, math.nan)) for c in cell.corners)
+        assert (f"{info.name} {info.unit}" in text) == applies, info.name
+
+
+def test_netlist_is_collapsed_and_an_index_links_instead_of_embedding(library, deck_name):
+    from celllab.export.datasheet import render_library_html
+
+    page = render_datasheet_html(library[0], deck_name, plots=False)
+    assert "<details><summary>SPICE subcircuit" in page
+    full = render_library_html(library, deck_name, plots=True)
+    index = render_library_html(library, deck_name, plots=True, link=lambda c: f"{c.name}.html")
+    assert len(index) < len(full) / 3  # no per-cell plots in the index
+    for cell in library:
+        assert f'href="{cell.name}.html"' in index
 
 
 def test_esd_warning_only_for_cells_with_a_gate_on_a_rail(library, deck_name):
@@ -190,3 +205,17 @@ def test_writers(tmp_path, library, deck_name, plots):
     lib = write_library_datasheet(tmp_path / "lib.html", library, deck_name, plots=plots)
     for path in (one, lib):
         assert StrictChecker().check(path.read_text(encoding="utf-8")).problems == []
+
+
+def test_pdf_datasheet_has_a_text_page_and_a_page_per_plot(library, deck_name):
+    import re
+
+    from celllab.export.datasheet import render_datasheet_pdf
+
+    cell = library[0]
+    pdf = render_datasheet_pdf(cell, deck_name)
+    # Source: PDF 1.4 reference, 3.4 and 3.6.2: a file starts with %PDF-, each page is an
+    # object of /Type /Page
+    assert pdf.startswith(b"%PDF-")
+    pages = len(re.findall(rb"/Type\s*/Page\b", pdf))
+    assert pages == 3 + (1 if any(c.cv is not None for c in cell.corners) else 0)

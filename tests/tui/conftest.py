@@ -23,6 +23,7 @@ from rich.console import Console
 from celllab import MODEL_VERSION
 from celllab.records import (
     METRIC_NAMES,
+    METRICS,
     CellResult,
     CharacterizationRun,
     CornerResult,
@@ -36,6 +37,9 @@ DECK_DIR = REPO_ROOT / "process_decks"
 
 TOPOLOGIES = REGISTRY.names()
 ESD_SAFE = REGISTRY.esd_safe_names()
+#: Metrics that are 0/1 flags.
+BOOL_METRICS = [m.name for m in METRICS if m.kind == "bool"]
+
 CORNERS = (("typ_25C", 25.0, 1.2), ("slow_125C", 125.0, 1.08), ("fast_m40C", -40.0, 1.32))
 SYNTHETIC_DECK = "synproc"
 N_SYNTHETIC = 240
@@ -59,6 +63,8 @@ def synthetic_run(n_cells: int = N_SYNTHETIC, rng_state: int = 11) -> Characteri
             drift = 1.0 + 0.05 * (k - 1)
             cap_fF = density * area * drift
             metrics = {name: float(rng.uniform(0.1, 10.0)) for name in METRIC_NAMES}
+            for name in BOOL_METRICS:  # flags are 0 or 1 (a few lower bounds among them)
+                metrics[name] = float(metrics[name] > 8.5)
             metrics.update(cap_fF=cap_fF, cap_density_fF_per_um2=density * drift,
                            esr_ohm=esr / drift, leakage_nA_per_nF=leak * drift,
                            leakage_nA=leak * drift * cap_fF * 1e-6)

@@ -43,12 +43,19 @@ async def test_cell_view_metrics_plots_and_back(synthetic_catalog: Any, ui: Any)
         text = ui.screen_text(app)
         assert first in text and "typ_25C" in text and "cap_density_fF_per_um2" in text
 
-        # C-V with the operating point; |Z| and C_eff on log axes
+        # C-V of every corner on one plot, each with its operating point; |Z|, ESR and C_eff
+        # on log axes
         cv = screen.query_one("#plot-cv", PlotView).spec
-        typ = cell.corner("typ_25C").cv
-        assert cv is not None and len(cv.markers) == 1
-        assert cv.markers[0].x == typ.operating_bias_V
-        assert np.isclose(cv.markers[0].y, typ.operating_cap_F * 1e15)  # plotted in fF
+        assert cv is not None and [s.label for s in cv.series] == [c[0] for c in CORNERS]
+        assert len(cv.markers) == len(CORNERS)
+        for marker, corner in zip(cv.markers, cell.corners):
+            assert marker.x == corner.cv.operating_bias_V
+            assert np.isclose(marker.y, corner.cv.operating_cap_F * 1e15)  # plotted in fF
+        esr = screen.query_one("#plot-esr", PlotView).spec
+        assert esr.x_log and len(esr.series) == len(CORNERS)
+        # ESR(f) is Re Z of the stored response; Source: definition of ESR as Re Z; exact
+        typ_z = cell.corner("typ_25C").response.z_ohm
+        assert np.allclose(esr.series[0].y, np.real(typ_z))
         z = screen.query_one("#plot-z", PlotView).spec
         ceff = screen.query_one("#plot-ceff", PlotView).spec
         assert z.x_log and z.y_log and ceff.x_log and len(z.series) == len(CORNERS)
@@ -100,3 +107,71 @@ def test_explain_flag_keeps_the_engine_sentence_and_adds_the_consequence() -> No
     assert words.startswith("No self-resonance below 1 THz")
     assert "'at least'" in words
     assert explain_flag("odd_code") == "Odd code."
+
+
+async def test_lower_bounds_carry_their_mark_in_table_cell_view_and_what_if(
+        demo_catalog: Any, ui: Any) -> None:
+    from celllab.columns import is_lower_bound
+
+    rows = demo_catalog.query(corner="typ_25C", where="topology = mom")
+    row = next(r for r in rows if is_lower_bound(r, "srf_GHz"))
+    app = CelllabApp(catalog=demo_catalog, debounce_s=0.05)
+    async with app.run_test(size=(120, 40)) as pilot:
+        await ui.settle(pilot)
+        screen = app.screen
+        screen.columns = ("name", "srf_GHz", "bandwidth_GHz")  # type: ignore[attr-defined]
+        await pilot.press("slash", *f'name = "{row["name"]}"', "enter")
+        await ui.settle(pilot)
+        assert "≥1000" in ui.screen_text(app)  # the table
+        await pilot.press("enter")
+        await ui.settle(pilot)
+        cell_screen = app.screen
+        assert isinstance(cell_screen, CellScreen)
+        metrics = cell_screen.query_one("#cell-metrics", DataTable)
+        assert str(metrics.get_row("srf_GHz")[1]).startswith("≥")
+        assert not str(metrics.get_row("cap_fF")[1]).startswith("≥")
+        z = cell_screen.query_one("#plot-z", PlotView).spec
+        assert any("≥" in m.label for m in z.markers)  # no "self-resonance" at the sweep end
+        assert not any(m.label == "self-resonance" for m in z.markers)
+        await pilot.press("w")
+        await ui.settle(pilot)
+        whatif = app.screen
+        assert isinstance(whatif, WhatIfScreen)
+        assert "≥1000" in ui.screen_text(app)  # the what-if's metric table
+
+
+async def test_target_impedance_is_drawn_on_the_impedance_plot(synthetic_catalog: Any, ui: Any) -> None:
+    app = CelllabApp(catalog=synthetic_catalog)
+    async with app.run_test(size=(120, 40)) as pilot:
+        screen = await _open_first(app, pilot, ui)
+        assert not screen.query_one("#plot-z", PlotView).spec.levels  # no target known yet
+        await pilot.press("t")
+        await pilot.pause()
+        await pilot.press(*"abc")  # a number field: letters do not go in
+        await pilot.press(*"2.5", "enter")
+        await ui.settle(pilot)
+        assert app.z_target_ohm == 2.5
+        levels = screen.query_one("#plot-z", PlotView).spec.levels
+        assert [lv.y for lv in levels] == [2.5]
+        screen.query_one(TabbedContent).active = "tab-z"
+        await ui.settle(pilot)
+        assert "target 2.5 Ω" in ui.screen_text(app)
+        await pilot.press("t")
+        await pilot.pause()
+        await pilot.press("backspace", "enter")  # the value opens selected: empty clears it
+        await ui.settle(pilot)
+        assert app.z_target_ohm is None and not screen.query_one("#plot-z", PlotView).spec.levels
+
+
+def test_the_header_counts_in_words_and_names_placement_and_rail(synthetic_catalog: Any) -> None:
+    from dataclasses import replace
+
+    from celllab.tui.screens.cell import cell_summary
+
+    name = synthetic_catalog.query(deck=SYNTHETIC_DECK, limit=1)[0]["name"]
+    cell = synthetic_catalog.cell(name, deck=SYNTHETIC_DECK)
+    one = replace(cell, width_sites=1, height_rows=1, placement="open_region", rail="io")
+    text = cell_summary(one, SYNTHETIC_DECK).plain
+    assert "(1 site × 1 row)" in text and "open region, io rail" in text
+    two = replace(cell, width_sites=30, height_rows=2)
+    assert "(30 sites × 2 rows)" in cell_summary(two, SYNTHETIC_DECK).plain

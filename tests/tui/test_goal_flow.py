@@ -58,7 +58,7 @@ async def test_newcomer_finds_opens_tries_and_saves_with_keys_alone(demo_catalog
         assert "◆ operating point" in ui.screen_text(app)
         await pilot.press("right_square_bracket")  # |Z|(f) on log axes
         await ui.settle(pilot)
-        assert "|Z| [ohm]" in ui.screen_text(app)
+        assert "|Z| [Ω]" in ui.screen_text(app)
         assert app.screen.query_one("#plot-z", PlotView).spec.x_log
 
         # 4. what-if: twice the width
@@ -67,7 +67,7 @@ async def test_newcomer_finds_opens_tries_and_saves_with_keys_alone(demo_catalog
         whatif = app.screen
         assert isinstance(whatif, WhatIfScreen)
         width = whatif.spec.width_sites
-        await pilot.press("ctrl+a", "ctrl+k", *str(2 * width))  # the first field is width_sites
+        await pilot.press("e", "ctrl+a", "ctrl+k", *str(2 * width))  # e: to the first field, width_sites
         await ui.settle(pilot)
         assert whatif.variant is not None
         before, after = whatif.comparison()["cap_fF"]

@@ -81,3 +81,88 @@ def test_decks_with_a_bad_deck_80x24(snap_compare: Any, synthetic_catalog: Any, 
 def test_about_80x24(snap_compare: Any, synthetic_catalog: Any, ui: Any) -> None:
     assert snap_compare(CelllabApp(catalog=synthetic_catalog), terminal_size=(80, 24),
                         run_before=_steps(ui, "a"))
+
+
+# --- what a newcomer does with keys alone, at both terminal sizes ---------------------------
+
+SIZES = pytest.mark.parametrize("size", [(80, 24), (120, 40)], ids=["80x24", "120x40"])
+LIMIT_FILTER = "esd_safe = yes and leakage_nA_per_nF <= 500"
+
+
+@SIZES
+def test_densest_esd_safe_under_a_leakage_limit(snap_compare: Any, synthetic_catalog: Any,
+                                                ui: Any, size: tuple[int, int]) -> None:
+    async def run_before(pilot: Any) -> None:
+        await ui.settle(pilot)
+        await pilot.press("slash")
+        await ui.type_text(pilot, LIMIT_FILTER)
+        await pilot.press("enter")
+        await ui.settle(pilot)
+
+    assert snap_compare(CelllabApp(catalog=synthetic_catalog), terminal_size=size,
+                        run_before=run_before)
+
+
+@SIZES
+def test_three_cells_compared_impedance(snap_compare: Any, synthetic_catalog: Any, ui: Any,
+                                        size: tuple[int, int]) -> None:
+    assert snap_compare(CelllabApp(catalog=synthetic_catalog), terminal_size=size,
+                        run_before=_steps(ui, "space", "space", "space", "v",
+                                          "right_square_bracket", "right_square_bracket"))
+
+
+@SIZES
+def test_three_cells_compared_metrics(snap_compare: Any, synthetic_catalog: Any, ui: Any,
+                                      size: tuple[int, int]) -> None:
+    assert snap_compare(CelllabApp(catalog=synthetic_catalog), terminal_size=size,
+                        run_before=_steps(ui, "space", "space", "space", "v"))
+
+
+@SIZES
+def test_oxide_sweep_leakage_against_density(snap_compare: Any, demo_catalog: Any, ui: Any,
+                                             size: tuple[int, int]) -> None:
+    # the demo deck: a sweep needs a real deck (these numbers move when the models do)
+    async def run_before(pilot: Any) -> None:
+        from textual.widgets import Select
+
+        await ui.settle(pilot)
+        for key in ("w", "ctrl+w"):
+            await pilot.press(key)
+            await ui.settle(pilot)
+        await pilot.press(*"oxides.core.t_ox_nm", "tab", *"1.8", "tab", *"2.6", "enter")
+        await ui.settle(pilot)
+        pilot.app.screen.query_one("#sweep-x", Select).value = "cap_density_fF_per_um2"
+        await ui.settle(pilot)
+
+    assert snap_compare(CelllabApp(catalog=demo_catalog), terminal_size=size,
+                        run_before=run_before)
+
+
+@SIZES
+def test_export_dialog_with_the_datasheet_chosen(snap_compare: Any, synthetic_catalog: Any,
+                                                 ui: Any, size: tuple[int, int],
+                                                 tmp_path: Path) -> None:
+    app = CelllabApp(catalog=synthetic_catalog, export_folder=Path("exports"))
+    assert snap_compare(app, terminal_size=size,
+                        run_before=_steps(ui, "enter", "x", "down", "down", "down", "space"))
+
+
+@SIZES
+def test_ranking_with_a_front_cell_picked(snap_compare: Any, synthetic_catalog: Any, ui: Any,
+                                          size: tuple[int, int]) -> None:
+    assert snap_compare(CelllabApp(catalog=synthetic_catalog), terminal_size=size,
+                        run_before=_steps(ui, "2", "period", "period"))
+
+
+@SIZES
+def test_cell_cv_every_corner(snap_compare: Any, synthetic_catalog: Any, ui: Any,
+                              size: tuple[int, int]) -> None:
+    assert snap_compare(CelllabApp(catalog=synthetic_catalog), terminal_size=size,
+                        run_before=_steps(ui, "enter", "right_square_bracket"))
+
+
+@SIZES
+def test_decks_from_the_catalog(snap_compare: Any, demo_catalog: Any, ui: Any,
+                                size: tuple[int, int]) -> None:
+    assert snap_compare(CelllabApp(catalog=demo_catalog), terminal_size=size,
+                        run_before=_steps(ui, "3", "right_square_bracket"))

@@ -176,3 +176,157 @@ def test_geometry_changes_lists_only_what_differs(lumen130_deck: Any) -> None:
     assert changes == {"fingers": 3}
     assert deck_changes({"oxides.core.t_ox_nm": "2.5", "supplies.core_V": "x"}) == {
         "oxides.core.t_ox_nm": 2.5, "supplies.core_V": "x"}
+
+
+async def test_keys_typed_while_loading_do_not_land_in_fields(demo_catalog: Any, ui: Any) -> None:
+    app = CelllabApp(catalog=demo_catalog, debounce_s=0.05)
+    async with app.run_test(size=(120, 40)) as pilot:
+        await ui.settle(pilot)
+        await pilot.press("slash")
+        await ui.type_text(pilot, f'name = "{CELL}"')
+        await pilot.press("enter")
+        await ui.settle(pilot)
+        await pilot.press("w", "9", "9")  # typed before the form is there
+        await ui.settle(pilot)
+        screen = app.screen
+        assert isinstance(screen, WhatIfScreen)
+        assert screen.query_one("#geo-width_sites", Input).value == str(screen.spec.width_sites)
+        assert screen.variant is None and screen.problems == []
+
+
+async def test_numeric_fields_take_numbers_and_empty_means_the_default(demo_catalog: Any, ui: Any) -> None:
+    app = CelllabApp(catalog=demo_catalog, debounce_s=0.05)
+    async with app.run_test(size=(120, 40)) as pilot:
+        screen = await _open_whatif(app, pilot, ui)
+        await _type_into(pilot, screen, "geo-fingers", "4x")
+        await ui.settle(pilot)
+        assert screen.query_one("#geo-fingers", Input).value == "4"  # the letter did not go in
+        await _type_into(pilot, screen, "geo-fingers", "")
+        await ui.settle(pilot)
+        # an empty integer field with a default is that default, not an error
+        assert screen.problems == []
+        assert screen.variant is not None and screen.variant_spec.fingers == 1
+        await _type_into(pilot, screen, "geo-width_sites", "")
+        await ui.settle(pilot)
+        assert screen.problems and "width_sites" in str(screen.problems[0])
+        assert "required" in str(screen.problems[0])
+
+
+async def test_a_mistyped_deck_path_is_named_not_shown_as_nan(demo_catalog: Any, ui: Any) -> None:
+    app = CelllabApp(catalog=demo_catalog, debounce_s=0.05)
+    async with app.run_test(size=(120, 40)) as pilot:
+        screen = await _open_whatif(app, pilot, ui)
+        await _type_into(pilot, screen, "deck-path", "oxides.core.t_ox_mm")
+        await pilot.press("enter", *"2", "enter")
+        await ui.settle(pilot)
+        text = ui.screen_text(app)
+        assert "nan" not in text
+        assert "not a deck parameter" in text
+        assert screen.problems and screen.variant is None
+
+
+async def test_suggested_name_follows_the_new_geometry(demo_catalog: Any, ui: Any) -> None:
+    app = CelllabApp(catalog=demo_catalog, debounce_s=0.05)
+    async with app.run_test(size=(120, 40)) as pilot:
+        screen = await _open_whatif(app, pilot, ui)
+        assert screen.spec.fingers == 2 and "-f2" in CELL
+        await _type_into(pilot, screen, "geo-fingers", "4")
+        await ui.settle(pilot)
+        await pilot.press("ctrl+s")
+        await ui.settle(pilot)
+        dialog = app.screen
+        assert isinstance(dialog, SaveVariantDialog)
+        name = dialog.query_one("#save-cell-name", Input).value
+        assert "-f4" in name and "-f2" not in name
+
+
+async def test_a_variant_saved_to_a_new_deck_is_shown_and_can_be_undone(demo_catalog: Any, ui: Any) -> None:
+    from celllab.tui.screens.catalog import CatalogScreen
+
+    app = CelllabApp(catalog=demo_catalog, debounce_s=0.05)
+    before = demo_catalog.count(deck=DECK)
+    async with app.run_test(size=(120, 40)) as pilot:
+        screen = await _open_whatif(app, pilot, ui)
+        await _type_into(pilot, screen, "deck-path", "oxides.core.t_ox_nm")
+        await pilot.press("enter", *"2.4", "enter")
+        await ui.settle(pilot)
+        assert screen.variant is not None
+        await pilot.press("ctrl+s")
+        await ui.settle(pilot)
+        await pilot.press("enter")  # the suggested names
+        await ui.settle(pilot)
+        assert screen.saved_as is not None
+        name, deck = screen.saved_as
+        assert deck != DECK
+        assert any(deck in n.message and "deck" in n.message for n in app._notifications)
+        assert app.current_deck == deck  # the catalog follows the variant to its deck
+        assert demo_catalog.count(deck=deck) == 1
+        await pilot.press("ctrl+z")  # undo the save
+        await ui.settle(pilot)
+        assert screen.saved_as is None
+        assert deck not in {d.name for d in demo_catalog.decks()}
+        assert app.current_deck == DECK
+        await pilot.press("escape", "escape", "escape")
+        await ui.settle(pilot)
+        assert isinstance(app.screen, CatalogScreen)
+    assert demo_catalog.count(deck=DECK) == before
+
+
+@pytest.mark.parametrize("size", [(120, 40), (80, 24)])
+async def test_sweep_oxide_thickness_and_read_leakage_against_density(
+        demo_catalog: Any, ui: Any, size: tuple[int, int]) -> None:
+    from textual.widgets import DataTable, Select
+
+    from celllab.records import corner_metrics
+    from celllab.tui.screens.sweep import SweepScreen
+    from celllab.tui.widgets.plot import PlotView
+
+    app = CelllabApp(catalog=demo_catalog, debounce_s=0.05)
+    async with app.run_test(size=size) as pilot:
+        screen = await _open_whatif(app, pilot, ui)
+        await pilot.press("ctrl+w")
+        await ui.settle(pilot)
+        sweep = app.screen
+        assert isinstance(sweep, SweepScreen)
+        assert app.focused is sweep.query_one("#sweep-parameter", Input)
+        await pilot.press(*"oxides.core.t_ox_nm", "tab", *"1.8", "tab", *"2.6", "tab",
+                          "ctrl+a", "ctrl+k", *"5", "enter")
+        await ui.settle(pilot)
+        assert sweep.result is not None and len(sweep.result.ok()) == 5
+        sweep.query_one("#sweep-x", Select).value = "cap_density_fF_per_um2"
+        await ui.settle(pilot)
+        spec = sweep.query_one("#sweep-plot", PlotView).spec
+        deck = screen.deck
+        for (t_ox, _cell), x, y in zip(sweep.result.ok(), spec.series[0].x, spec.series[0].y):
+            changed = deck.with_changes({"oxides.core.t_ox_nm": t_ox})
+            direct = characterize(changed, [screen.spec.with_changes({}, changed)]).cells[0]
+            worst = corner_metrics(direct, "worst")
+            assert x == pytest.approx(worst["cap_density_fF_per_um2"])
+            assert y == pytest.approx(worst["leakage_nA_per_nF"])
+        table = sweep.query_one("#sweep-table", DataTable)
+        assert table.row_count == 5
+        text = ui.screen_text(app)
+        assert "leakage_nA_per_nF" in text and "cap_density" in text
+        await pilot.press("escape", "escape")
+        await ui.settle(pilot)
+        assert app.screen is screen
+
+
+async def test_the_sweep_view_names_every_numeric_field_at_80_columns(demo_catalog: Any,
+                                                                      ui: Any) -> None:
+    from celllab.topologies import REGISTRY
+    from celllab.tui.screens.sweep import SweepScreen
+
+    app = CelllabApp(catalog=demo_catalog, debounce_s=0.05)
+    async with app.run_test(size=(80, 24)) as pilot:
+        screen = await _open_whatif(app, pilot, ui)
+        await pilot.press("ctrl+w")
+        await ui.settle(pilot)
+        assert isinstance(app.screen, SweepScreen)
+        words = " ".join(ui.screen_text(app).split())
+        applies = REGISTRY[screen.spec.topology].fields
+        numeric = [f for f in screen.spec.geometry if f in applies and f != "placement"]
+        assert numeric and all(f in words for f in numeric), words
+        status = str(app.screen.query_one("#sweep-status").render())
+        assert "placement" not in status  # text: nothing to sweep over a range
+        assert f"oxides.{screen.spec.oxide}.t_ox_nm" in words  # the example fits the cell

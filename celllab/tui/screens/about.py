@@ -13,9 +13,10 @@ from celllab import CAUTION, MODEL_VERSION, __version__
 ABOUT_TEXT = f"""\
 ## celllab {__version__}
 
-Characterizes on-chip **decoupling cells** (MOS decaps, MOM, cross-coupled pairs, stacks)
-from a process deck: capacitance and density, ESR, bandwidth, ESL and self-resonance,
-gate leakage, oxide field, TDDB life and HBM stress, at every corner of the deck.
+Characterizes on-chip **decoupling cells** (MOS decaps, tied and cross-coupled CMOS pairs,
+MOM, stacks; in core rows or open regions, on the rail they decouple) from a process deck:
+capacitance and density, ESR, bandwidth, ESL and self-resonance, gate leakage, oxide field,
+TDDB life and HBM stress, at every corner of the deck.
 Models: `{MODEL_VERSION}`.
 
 > **Caution.** {CAUTION}
@@ -27,9 +28,16 @@ process or library.
 * **1** catalog · **2** ranking · **3** decks; **enter** opens a cell, **w** tries a what-if.
 * **/** filters with the catalog's filter language, for example
   `esd_safe and leakage_nA_per_nF <= 50`; names are the column names, units are in them.
+* **space** marks 2 to 5 rows, **v** compares them: metrics side by side, curves overlaid.
+* In a cell: **[ ]** step through metrics, C-V, |Z|, ESR, C_eff, circuit and flags;
+  **t** sets a target |Z| line; **s** sweeps one parameter over a range.
+* Ranking: **.** and **,** step along the Pareto front (or click a point), **o** opens it.
 * **worst** / **best** corner: per metric, the worst (best) value over the deck's corners.
-* Nothing is written to the catalog until a what-if is saved as a new variant (**ctrl+s**).
-* **x** exports (CSV, JSON, SPICE, Touchstone, datasheet); **?** lists every key.
+  **≥** before a number: a lower bound (beyond the analysed frequency sweep).
+* Nothing is written to the catalog until a what-if is saved as a new variant (**ctrl+s**,
+  **ctrl+z** takes it back); **ctrl+w** in a what-if sweeps from its changes.
+* **x** exports (CSV, JSON, SPICE, Touchstone, HTML or PDF datasheet, Liberty, LEF);
+  **?** lists every key; **ctrl+q** quits from anywhere.
 """
 
 

@@ -74,6 +74,8 @@ class CatalogScreen(TaskScreen):
         Binding("d", "choose_deck", "Deck", show=False),
         Binding("o", "choose_corner", "Corner", show=False),
         Binding("w", "what_if", "What-if"),
+        Binding("space", "mark", "Mark"),
+        Binding("v", "compare", "Compare marked"),
         Binding("right_square_bracket", "page(1)", "Next page", show=False),
         Binding("left_square_bracket", "page(-1)", "Prev page", show=False),
         Binding("escape", "focus_table", "To table", show=False),
@@ -314,10 +316,14 @@ class CatalogScreen(TaskScreen):
         if self.total == 0 or (self.total is None and shown == 0 and self.row_offset == 0):
             rows = "no cell matches" if self.where else "no cells"
         else:
-            rows = f"rows {self.row_offset + 1}–{self.row_offset + shown} of {of}"
+            last = self.row_offset + shown
+            rows = (f"row {last} of {of}" if shown == 1 else
+                    f"rows {self.row_offset + 1}–{last} of {of}")
         sort = f"{arrow} {self.order_by}"
+        n_marked = len(self.query_one(CatalogTable).marked)
+        marks = f" · {n_marked} marked (v compares)" if n_marked else ""
         self.query_one("#catalog-status", Static).update(
-            f"{rows} · {sort} · corner {self.lab.current_corner}")
+            f"{rows} · {sort} · corner {self.lab.current_corner}{marks}")
 
     @on(PageRequested)
     def _page_requested(self, message: PageRequested) -> None:
@@ -354,6 +360,14 @@ class CatalogScreen(TaskScreen):
         if descending is None:
             descending = (not self.descending) if column == self.order_by else best_first_descending(column)
         self.order_by, self.descending = column, descending
+        table = self.query_one(CatalogTable)
+        if column not in self.columns or (column in table.columns_shown
+                                          and not table.in_view(column)):
+            # the values being sorted are shown: a hidden column, or one off the right edge,
+            # moves next to the name
+            rest = tuple(c for c in self.columns if c != column)
+            at = 1 if rest and rest[0] == "name" else 0
+            self.columns = (*rest[:at], column, *rest[at:])
         self.request_page(0, count=False)
 
     def action_reverse_sort(self) -> None:
@@ -409,6 +423,23 @@ class CatalogScreen(TaskScreen):
         from celllab.tui.screens.cell import CellScreen
 
         self.app.push_screen(CellScreen(message.name, message.deck or self.lab.current_deck))
+
+    def action_mark(self) -> None:
+        table = self.query_one(CatalogTable)
+        if table.toggle_mark() is not None:
+            table.action_cursor_down()
+        self._update_status()
+
+    def action_compare(self) -> None:
+        from celllab.tui.screens.compare import MAX_CELLS, MIN_CELLS, CompareScreen
+
+        marked = sorted(self.query_one(CatalogTable).marked, key=lambda k: (k[0], k[1] or ""))
+        if not MIN_CELLS <= len(marked) <= MAX_CELLS:
+            self.notify(f"mark {MIN_CELLS} to {MAX_CELLS} cells with space first "
+                        f"({len(marked)} marked)", severity="warning")
+            return
+        self.app.push_screen(CompareScreen([(n, d or self.lab.current_deck) for n, d in marked],
+                                           self.lab.current_corner))
 
     def action_what_if(self) -> None:
         row = self.query_one(CatalogTable).highlighted_row()

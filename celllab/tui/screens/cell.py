@@ -2,8 +2,6 @@
 
 from __future__ import annotations
 
-import math
-from collections.abc import Sequence
 from typing import Any
 
 import numpy as np
@@ -16,89 +14,27 @@ from textual.containers import VerticalScroll
 from textual.widgets import DataTable, Footer, Static, TabbedContent, TabPane, TextArea
 
 from celllab import CAUTION_SHORT
+from celllab.columns import is_lower_bound
+from celllab.display import count_text
 from celllab.errors import CelllabError
 from celllab.records import METRICS, CellResult
+from celllab.tui.curves import ceff_plot, cv_plot, esr_plot, impedance_plot
 from celllab.tui.messages import CellLoaded, QueryFailed
 from celllab.tui.screens.base import TaskScreen
-from celllab.tui.widgets.plot import Marker, PlotSpec, PlotView, Series
+from celllab.tui.widgets.plot import PlotView
 from celllab.tui.widgets.task_bar import TaskBar
 from celllab.tui.widgets.values import format_number, value_text
-from celllab.units import from_si, to_si
 
 #: Tab ids in display order ([ and ] step through them).
 TABS: tuple[tuple[str, str], ...] = (
     ("tab-metrics", "Metrics"),
     ("tab-cv", "C-V"),
     ("tab-z", "|Z|(f)"),
+    ("tab-esr", "ESR(f)"),
     ("tab-ceff", "C_eff(f)"),
     ("tab-circuit", "Circuit"),
     ("tab-flags", "Flags"),
 )
-
-
-# --- plots (shared with the what-if screen) --------------------------------------------------
-
-def _corner_label(corner: Any) -> str:
-    return str(corner.corner)
-
-
-def cv_plot(cells: Sequence[tuple[str, CellResult]], corner: str | None = None) -> PlotSpec:
-    """C-V curve(s) with the operating point marked; one series per (label, cell)."""
-    series, markers = [], []
-    for label, cell in cells:
-        chosen = [c for c in cell.corners if corner is None or c.corner == corner][:1] or cell.corners[:1]
-        for c in chosen:
-            if c.cv is None:
-                continue
-            cap_fF = from_si(float(c.cv.operating_cap_F), "fF")
-            series.append(Series(np.asarray(c.cv.bias_V), from_si(np.asarray(c.cv.cap_F), "fF"),
-                                 f"{label} {c.corner}" if label else c.corner))
-            markers.append(Marker(float(c.cv.operating_bias_V), cap_fF,
-                                  f"operating point ({format_number(c.cv.operating_bias_V)} V, "
-                                  f"{format_number(cap_fF)} fF)"
-                                  if len(cells) == 1 else "operating point"))
-    return PlotSpec(title="C-V", x_label="V_gb [V]", y_label="C [fF]", series=tuple(series),
-                    markers=tuple(markers),
-                    empty_text="no C-V curve: this cell has no MOS gate (plates only), its "
-                               "capacitance does not depend on bias")
-
-
-def impedance_plot(cells: Sequence[tuple[str, CellResult]], corners: Sequence[str] | None = None) -> PlotSpec:
-    """|Z|(f) on log-log axes, one series per corner (or per cell), SRF marked."""
-    series, markers = [], []
-    for label, cell in cells:
-        for c in cell.corners:
-            if corners is not None and c.corner not in corners:
-                continue
-            f = np.asarray(c.response.freq_Hz)
-            z = np.abs(np.asarray(c.response.z_ohm))
-            series.append(Series(f, z, f"{label} {c.corner}".strip()))
-            srf = c.metrics.get("srf_GHz")
-            srf_Hz = to_si(srf, "GHz") if srf is not None else math.nan
-            if math.isfinite(srf_Hz) and f.size and f[0] <= srf_Hz <= f[-1]:
-                markers.append(Marker(srf_Hz, float(np.interp(srf_Hz, f, z)), "self-resonance"))
-    return PlotSpec(title="|Z|(f)", x_label="f [Hz]", y_label="|Z| [ohm]", x_log=True, y_log=True,
-                    series=tuple(series[:4]), markers=tuple(markers[:4]))
-
-
-def ceff_plot(cells: Sequence[tuple[str, CellResult]], corners: Sequence[str] | None = None) -> PlotSpec:
-    """Effective capacitance C_eff(f) = -1/(w Im Z) on a log frequency axis (positive part)."""
-    series, markers = [], []
-    for label, cell in cells:
-        for c in cell.corners:
-            if corners is not None and c.corner not in corners:
-                continue
-            f = np.asarray(c.response.freq_Hz)
-            with np.errstate(divide="ignore", invalid="ignore"):
-                ceff = from_si(c.response.c_eff_F(), "fF")
-            series.append(Series(f, np.where(ceff > 0, ceff, np.nan), f"{label} {c.corner}".strip()))
-            bw = c.metrics.get("bandwidth_GHz")
-            cap = c.metrics.get("cap_fF")
-            bw_Hz = to_si(bw, "GHz") if bw is not None else math.nan
-            if cap is not None and math.isfinite(bw_Hz) and f.size and f[0] <= bw_Hz <= f[-1]:
-                markers.append(Marker(bw_Hz, cap / math.sqrt(2), "bandwidth (C/√2)"))
-    return PlotSpec(title="C_eff(f)", x_label="f [Hz]", y_label="C_eff [fF]", x_log=True,
-                    y_log=True, series=tuple(series[:4]), markers=tuple(markers[:4]))
 
 
 # --- text panels -----------------------------------------------------------------------------
@@ -110,13 +46,15 @@ def cell_summary(cell: CellResult, deck: str | None) -> Text:
     text.append(f"  {cell.topology} · {cell.oxide} oxide · ")
     text.append("ESD-safe" if cell.esd_safe else "not ESD-safe (gate on a rail)",
                 style="green" if cell.esd_safe else "yellow")
-    text.append(f"\ndeck {deck or '?'} · area {format_number(cell.area_um2)} um^2 "
-                f"({cell.width_sites} sites × {cell.height_rows} rows) · gate area "
-                f"{format_number(cell.gate_area_um2)} um^2", style="dim")
+    place = "open region" if cell.placement == "open_region" else "core row"
+    text.append(f"\ndeck {deck or '?'} · {place}, {cell.rail} rail · area "
+                f"{format_number(cell.area_um2)} µm² ({count_text(cell.width_sites, 'site')} × "
+                f"{count_text(cell.height_rows, 'row')}) · gate area "
+                f"{format_number(cell.gate_area_um2)} µm²", style="dim")
     return text
 
 
-_UNITS = {"R": "ohm", "C": "F", "L": "H"}
+_UNITS = {"R": "Ω", "C": "F", "L": "H"}
 
 
 def _si(value: float, unit: str) -> str:
@@ -136,7 +74,7 @@ def element_list(netlist: Any) -> str:
             c_total = float(np.asarray(e.c_total, dtype=float).ravel()[0])
             far = e.node_far or ("open" if e.contacted_ends == 1 else e.node_a)
             lines.append(f"RCLINE {e.name:<12} {e.node_a} {e.node_b} far={far}  "
-                         f"R={_si(value, 'ohm')} C={_si(c_total, 'F')} (distributed)")
+                         f"R={_si(value, 'Ω')} C={_si(c_total, 'F')} (distributed)")
         else:
             lines.append(f"{e.kind:<6} {e.name:<12} {e.node_a} {e.node_b}  {_si(value, _UNITS[e.kind])}")
     return "\n".join(lines)
@@ -213,6 +151,8 @@ class CellScreen(TaskScreen):
         Binding("right_square_bracket", "tab(1)", "Next tab"),
         Binding("left_square_bracket", "tab(-1)", "Prev tab"),
         Binding("w", "what_if", "What-if"),
+        Binding("t", "set_target", "Target |Z|"),
+        Binding("s", "sweep", "Sweep"),
         Binding("escape,backspace", "back", "Back"),
     ]
 
@@ -232,6 +172,8 @@ class CellScreen(TaskScreen):
                 yield PlotView(id="plot-cv")
             with TabPane("|Z|(f)", id="tab-z"):
                 yield PlotView(id="plot-z")
+            with TabPane("ESR(f)", id="tab-esr"):
+                yield PlotView(id="plot-esr")
             with TabPane("C_eff(f)", id="tab-ceff"):
                 yield PlotView(id="plot-ceff")
             with TabPane("Circuit", id="tab-circuit"):
@@ -270,12 +212,25 @@ class CellScreen(TaskScreen):
         self.cell = cell
         self.query_one("#cell-summary", Static).update(cell_summary(cell, self.deck_name))
         self._fill_metrics(cell)
-        only = [("", cell)]
-        self.query_one("#plot-cv", PlotView).spec = cv_plot(only, self._typical(cell))
-        self.query_one("#plot-z", PlotView).spec = impedance_plot(only)
-        self.query_one("#plot-ceff", PlotView).spec = ceff_plot(only)
+        self._draw_plots()
         self.query_one("#cell-circuit", TextArea).text = circuit_text(cell, self._typical(cell), self.deck_name)
         self.query_one("#cell-flags", Static).update(flags_table(cell))
+
+    def _draw_plots(self) -> None:
+        """Every corner of the cell in each plot; the target |Z| when one is set."""
+        if self.cell is None:
+            return
+        only = [("", self.cell)]
+        self.query_one("#plot-cv", PlotView).spec = cv_plot(only)
+        self.query_one("#plot-z", PlotView).spec = impedance_plot(only, None, self.lab.z_target_ohm)
+        self.query_one("#plot-esr", PlotView).spec = esr_plot(only)
+        self.query_one("#plot-ceff", PlotView).spec = ceff_plot(only)
+
+    def action_set_target(self) -> None:
+        def chosen(value: float | None) -> None:
+            self._draw_plots()
+
+        self.lab.ask_target(chosen)
 
     @staticmethod
     def _typical(cell: CellResult) -> str | None:
@@ -294,9 +249,12 @@ class CellScreen(TaskScreen):
                                   f"{format_number(c.supply_V)}V", justify="right"), key=c.corner)
         table.header_height = 2
         for info in METRICS:
+            if info.bounds:  # a bound flag reads as the ≥ in front of its metric
+                continue
             name = Text(info.name)
             name.append(f" {info.arrow}", style="dim")
-            table.add_row(name, *[value_text(c.metrics.get(info.name), info.name, c.metrics) for c in cell.corners],
+            table.add_row(name, *[value_text(c.metrics.get(info.name), info.name,
+                                             is_lower_bound(c, info.name)) for c in cell.corners],
                           key=info.name)
 
     # --- actions ------------------------------------------------------------------------
@@ -308,6 +266,11 @@ class CellScreen(TaskScreen):
 
     def action_back(self) -> None:
         self.app.pop_screen()
+
+    def action_sweep(self) -> None:
+        from celllab.tui.screens.sweep import SweepScreen
+
+        self.app.push_screen(SweepScreen(self.cell_name, self.deck_name))
 
     def action_what_if(self) -> None:
         from celllab.tui.screens.whatif import WhatIfScreen

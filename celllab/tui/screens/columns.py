@@ -12,6 +12,7 @@ from textual.screen import ModalScreen
 from textual.widgets import Button, Label, SelectionList
 from textual.widgets.selection_list import Selection
 
+from celllab.tui.widgets.check_list import CheckList
 from celllab.tui.widgets.values import column_description, column_unit
 
 
@@ -40,7 +41,7 @@ class ColumnPicker(ModalScreen[tuple[str, ...] | None]):
                 label = Text(f"{column:<24} {unit_text:<10} {column_description(column)}",
                              no_wrap=True, overflow="ellipsis")
                 selections.append(Selection(label, column, column in self._shown))
-            yield SelectionList[str](*selections, id="columns-list")
+            yield CheckList(*selections, id="columns-list")
             yield Label("", id="columns-error", classes="dialog-error")
             with Horizontal(classes="dialog-buttons"):
                 yield Button("Apply (a)", id="columns-apply", variant="primary")

@@ -17,18 +17,64 @@ from textual.widgets import DataTable, Footer, OptionList, Static, TabbedContent
 from textual.widgets.option_list import Option
 
 from celllab.columns import CORNER_COLUMNS
+from celllab.display import count_text
 from celllab.errors import CelllabError, Problem
 from celllab.tui.messages import CatalogDecksLoaded
 from celllab.tui.screens.base import TaskScreen
 from celllab.tui.widgets.problems_view import ProblemsView
 from celllab.tui.widgets.task_bar import TaskBar
-from celllab.units import unit_from_name
+from celllab.units import pretty_unit, unit_from_name
 
 _PART = re.compile(r"\.|\[|\]")
 
 
 def _split(path: str) -> list[str]:
     return [p for p in _PART.split(path) if p]
+
+
+#: widest change line in the Corners tab: what is left of 80 columns beside the deck list
+CHANGE_WIDTH = 40
+_INDEXED = re.compile(r"^(?P<head>[^\[]*)\[(?P<index>\d+)\](?P<tail>.*)$")
+
+
+def corner_changes(corner: dict[str, Any]) -> list[str]:
+    """A corner's ``set`` and ``scale`` changes, one per line; the same change to several
+    entries of a list reads once with their indices (``metals[0–4].thickness_nm × 1.06``)."""
+    grouped: dict[tuple[str, str, str, str], list[int]] = {}
+    for op, table in (("=", corner.get("set") or {}), ("×", corner.get("scale") or {})):
+        for path, value in table.items():
+            match = _INDEXED.match(path)
+            head, index, tail = ((match["head"], int(match["index"]), match["tail"]) if match
+                                 else (path, -1, ""))
+            grouped.setdefault((head, tail, op, f"{value:g}"), []).append(index)
+    lines = []
+    for (head, tail, op, value), indices in grouped.items():
+        if indices == [-1]:
+            lines.append(f"{head} {op} {value}")
+        else:
+            lines.append(f"{head}[{_index_ranges(sorted(indices))}]{tail} {op} {value}")
+    return lines
+
+
+def _fold(line: str, width: int = CHANGE_WIDTH) -> list[str]:
+    """A change longer than ``width`` broken after a dot, the rest indented."""
+    pieces = []
+    while len(line) > width and "." in line[1:width]:
+        cut = line.rindex(".", 1, width) + 1
+        pieces.append(line[:cut])
+        line = "  " + line[cut:]
+    return pieces + [line]
+
+
+def _index_ranges(indices: list[int]) -> str:
+    """``[0, 1, 2, 4]`` -> ``0–2,4``."""
+    runs: list[list[int]] = []
+    for i in indices:
+        if runs and i == runs[-1][-1] + 1:
+            runs[-1].append(i)
+        else:
+            runs.append([i])
+    return ",".join(f"{r[0]}–{r[-1]}" if len(r) > 2 else ",".join(map(str, r)) for r in runs)
 
 
 def deck_value(data: Any, path: str) -> Any:
@@ -173,7 +219,8 @@ class DeckScreen(TaskScreen):
             if f"file:{info.name}" in self.entries:
                 continue
             key = f"catalog:{info.name}"
-            label = f"✓ {info.name} ({getattr(info, 'n_cells', '?')} cells)"
+            n_cells = getattr(info, "n_cells", None)
+            label = f"✓ {info.name} ({count_text(int(n_cells), 'cell') if n_cells is not None else '?'})"
             self.entries[key] = DeckEntry(key, label, params, source="catalog")
         self._refresh_list()
 
@@ -226,33 +273,43 @@ class DeckScreen(TaskScreen):
         table.add_column("meaning", key="meaning")
         if entry.params is None:
             return
-        group = None
+        # one heading per group, its parameters under it: a nested table (oxides.core.nmos)
+        # sits between two runs of its parent's leaves, so group before adding rows
+        groups: dict[str, list[tuple[str, str, Any]]] = {}
         for path, value in flatten(entry.params):
             head, _, leaf = path.rpartition(".")
-            if head != group:
-                group = head
-                if head:
-                    table.add_row(Text(head, style="bold"), "", "", "", key=f"group:{head}")
-            description = describe_deck_path(path)
-            shown = f"{value:g}" if isinstance(value, float) else ("–" if value is None else str(value))
-            if len(shown) > 10:
-                shown = shown[:9] + "…"
-            text = Text(shown, justify="right" if isinstance(value, (int, float)) else "left")
-            label = f"  {leaf}" if head else leaf
-            table.add_row(label, text, unit_of(path, description), description, key=path)
+            groups.setdefault(head, []).append((path, leaf, value))
+        for head, members in groups.items():
+            if head:
+                table.add_row(Text(head, style="bold"), "", "", "", key=f"group:{head}")
+            for path, leaf, value in members:
+                self._add_param(table, head, path, leaf, value)
+
+    @staticmethod
+    def _add_param(table: DataTable[Any], head: str, path: str, leaf: str, value: Any) -> None:
+        description = describe_deck_path(path)
+        shown = f"{value:g}" if isinstance(value, float) else ("–" if value is None else str(value))
+        if len(shown) > 10:
+            shown = shown[:9] + "…"
+        text = Text(shown, justify="right" if isinstance(value, (int, float)) else "left")
+        label = f"  {leaf}" if head else leaf
+        table.add_row(label, text, unit_of(path, description), description, key=path)
 
     def _fill_corners(self, entry: DeckEntry) -> None:
         table = self.query_one("#deck-corners", DataTable)
         table.clear(columns=True)
-        table.add_columns("corner", Text(f"T [{CORNER_COLUMNS['temperature_C'].unit}]", justify="right"),
-                          Text("supply ×", justify="right"), "changes")
+        unit = pretty_unit(CORNER_COLUMNS["temperature_C"].unit)
+        # the corner's name, temperature and supply stacked in one column leave the width to
+        # its changes, one per line (an 80-column terminal shows every change whole)
+        table.add_columns("corner", "changes (set =, scale ×)")
         corners = (entry.params or {}).get("corners") or {}
         for name, corner in corners.items():
-            changes = [f"{k} = {v:g}" for k, v in (corner.get("set") or {}).items()]
-            changes += [f"{k} × {v:g}" for k, v in (corner.get("scale") or {}).items()]
-            table.add_row(name, Text(f"{corner.get('temperature_C', float('nan')):g}", justify="right"),
-                          Text(f"{corner.get('supply_scale', 1.0):g}", justify="right"),
-                          "; ".join(changes) or "–", key=name)
+            changes = [piece for line in corner_changes(corner) for piece in _fold(line)]
+            head = Text(name, style="bold")
+            head.append(f"\n{corner.get('temperature_C', float('nan')):g} {unit}"
+                        f"\nVdd × {corner.get('supply_scale', 1.0):g}")
+            table.add_row(head, "\n".join(changes) or "no changes", key=name,
+                          height=max(3, len(changes)))
 
     def action_tab(self, step: int) -> None:
         tabs = self.query_one("#deck-tabs", TabbedContent)

@@ -5,7 +5,7 @@ from __future__ import annotations
 from typing import Any
 
 import numpy as np
-from textual import on, work
+from textual import events, on, work
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Container, Horizontal
@@ -13,6 +13,7 @@ from textual.widgets import Footer, Label, Select, Static
 from textual.worker import get_current_worker
 
 from celllab.columns import METRIC_NAMES, best_first_descending, unit_of
+from celllab.display import count_text
 from celllab.errors import CelllabError, FilterError
 from celllab.tui.messages import (
     CellChosen,
@@ -26,8 +27,10 @@ from celllab.tui.screens.base import TaskScreen
 from celllab.tui.screens.catalog import EXAMPLE_FILTER, check_filter
 from celllab.tui.widgets.catalog_table import CatalogTable
 from celllab.tui.widgets.filter_bar import FilterBar
-from celllab.tui.widgets.plot import Marker, PlotSpec, PlotView, Series
+from celllab.tui.widgets.plot import Marker, PlotPointed, PlotSpec, PlotView, Series, axis_limits
 from celllab.tui.widgets.task_bar import TaskBar
+from celllab.tui.widgets.values import format_number
+from celllab.units import pretty_unit
 
 RANK_LIMIT = 50
 CLOUD_LIMIT = 4000
@@ -35,7 +38,7 @@ RANKABLE: tuple[str, ...] = (*METRIC_NAMES, "area_um2", "gate_area_um2")
 
 
 def _axis_label(metric: str) -> str:
-    unit = unit_of(metric)
+    unit = pretty_unit(unit_of(metric))
     return f"{metric} [{unit}]" if unit else metric
 
 
@@ -44,8 +47,14 @@ def _wants_log(values: np.ndarray) -> bool:
     return bool(values.size and values.min() > 0 and values.max() / values.min() > 100)
 
 
-def pareto_plot(cloud: list[dict[str, Any]], front: list[dict[str, Any]], x: str, y: str) -> PlotSpec:
-    """Every candidate as a dot, the non-dominated ones as markers joined by a line."""
+def _key(value: Any) -> float:
+    return float(value) if isinstance(value, (int, float)) else float("inf")
+
+
+def pareto_plot(cloud: list[dict[str, Any]], front: list[dict[str, Any]], x: str, y: str,
+                pointed: dict[str, Any] | None = None) -> PlotSpec:
+    """Every candidate as a dot, the non-dominated ones as markers joined by a line; the
+    pointed-at front cell ringed."""
     cx = np.array([r.get(x, np.nan) for r in cloud], dtype=float)
     cy = np.array([r.get(y, np.nan) for r in cloud], dtype=float)
     fx = np.array([r.get(x, np.nan) for r in front], dtype=float)
@@ -54,6 +63,9 @@ def pareto_plot(cloud: list[dict[str, Any]], front: list[dict[str, Any]], x: str
     both_x, both_y = np.concatenate((cx, fx)), np.concatenate((cy, fy))
     series = (Series(cx, cy, "cells", kind="dots"), Series(fx[order], fy[order], "Pareto front"))
     markers = tuple(Marker(float(a), float(b), "front cell", glyph="●") for a, b in zip(fx, fy))
+    if pointed is not None:
+        markers += (Marker(float(pointed.get(x, np.nan)), float(pointed.get(y, np.nan)),
+                           str(pointed["name"]), glyph="◎"),)
     return PlotSpec(title="Pareto", x_label=_axis_label(x), y_label=_axis_label(y),
                     x_log=_wants_log(both_x), y_log=_wants_log(both_y), series=series,
                     markers=markers)
@@ -70,6 +82,9 @@ class RankingScreen(TaskScreen):
         Binding("h", "pick('x')", "X metric", show=False),
         Binding("v", "pick('y')", "Y metric", show=False),
         Binding("r", "reverse", "Reverse", show=False),
+        Binding("period", "point(1)", "Next front cell", key_display="."),
+        Binding("comma", "point(-1)", "Prev front cell", show=False, key_display=","),
+        Binding("o", "open_pointed", "Open front cell"),
         Binding("escape", "focus_table", "To table", show=False),
     ]
 
@@ -82,6 +97,9 @@ class RankingScreen(TaskScreen):
         self.where = ""
         self.total = 0
         self.front: list[dict[str, Any]] = []
+        #: the front cell picked on the plot (. and , step along the front, a click picks)
+        self.pointed: dict[str, Any] | None = None
+        self._cloud: list[dict[str, Any]] = []
         self._serial = 0
 
     def compose(self) -> ComposeResult:
@@ -105,6 +123,12 @@ class RankingScreen(TaskScreen):
     def on_mount(self) -> None:
         self.query_one(CatalogTable).page_size = RANK_LIMIT
         self.query_one(CatalogTable).focus()
+
+    #: terminal width from which the table and the plot sit side by side
+    SIDE_BY_SIDE_WIDTH = 160
+
+    def on_resize(self, event: events.Resize) -> None:
+        self.set_class(event.size.width >= self.SIDE_BY_SIDE_WIDTH, "-side")
 
     def on_screen_resume(self) -> None:
         super().on_screen_resume()
@@ -141,18 +165,83 @@ class RankingScreen(TaskScreen):
 
     def on_ranking_loaded(self, message: RankingLoaded) -> None:
         self.total = message.total
-        self.front = message.front
+        self.front = sorted(message.front, key=lambda r: _key(r.get(message.x)))
+        self._cloud = message.cloud
+        if self.pointed is not None and self.pointed["name"] not in {r["name"] for r in self.front}:
+            self.pointed = None
         self.query_one(FilterBar).error = ""
-        columns = tuple(dict.fromkeys(("name", "topology", self.rank_by, self.x_metric,
-                                       self.y_metric, "esd_safe")))
+        # the values being ranked right after the name (a narrow table still shows them)
+        columns = tuple(dict.fromkeys(("name", self.rank_by, self.x_metric, self.y_metric,
+                                       "esd_safe", "topology")))
         self.query_one(CatalogTable).show_page(message.ranked, columns, message.offset, message.total,
                                                self.rank_by, self.descending)
-        self.query_one(PlotView).spec = pareto_plot(message.cloud, message.front, message.x, message.y)
+        self._draw_plot()
         shown = len(message.cloud)
         sample = f" (plot: first {shown:,})" if shown < message.total else ""
-        self.query_one("#rank-status", Static).update(
-            f"{message.total:,} cells meet the constraints{sample} · Pareto front "
+        self._summary = (
+            f"{count_text(message.total, 'cell')} {'meets' if message.total == 1 else 'meet'} "
+            f"the constraints{sample} · Pareto front "
             f"{len(message.front)} · deck {self.lab.current_deck} · {self.lab.current_corner}")
+        self._show_status()
+
+    def _draw_plot(self) -> None:
+        self.query_one(PlotView).spec = pareto_plot(self._cloud, self.front, self.x_metric,
+                                                    self.y_metric, self.pointed)
+
+    def _show_status(self) -> None:
+        text = getattr(self, "_summary", "")
+        if self.pointed is not None:
+            p = self.pointed
+            text = (f"◎ {p['name']}: {self.x_metric} {format_number(p[self.x_metric])}, "
+                    f"{self.y_metric} {format_number(p[self.y_metric])} · o opens\n{text}")
+        self.query_one("#rank-status", Static).update(text)
+
+    # --- picking a front cell on the plot --------------------------------------------------
+    def action_point(self, step: int) -> None:
+        if not self.front:
+            self.notify("no Pareto front to step along", severity="warning")
+            return
+        names = [r["name"] for r in self.front]
+        if self.pointed is None or self.pointed["name"] not in names:
+            index = 0 if step > 0 else len(names) - 1
+        else:
+            index = (names.index(self.pointed["name"]) + step) % len(names)
+        self.point_at_row(self.front[index])
+
+    def point_at_row(self, row: dict[str, Any]) -> None:
+        self.pointed = row
+        self._draw_plot()
+        self._show_status()
+
+    @on(PlotPointed)
+    def _plot_clicked(self, message: PlotPointed) -> None:
+        message.stop()
+        if not self.front:
+            return
+        spec = message.plot.spec
+        (x_lo, x_hi), (y_lo, y_hi) = axis_limits(spec)
+
+        def norm(value: float, lo: float, hi: float, log: bool) -> float:
+            if log:
+                value, lo, hi = (np.log10(max(v, 1e-300)) for v in (value, lo, hi))
+            return (value - lo) / ((hi - lo) or 1.0)
+
+        def distance(row: dict[str, Any]) -> float:
+            dx = norm(float(row[self.x_metric]), x_lo, x_hi, spec.x_log) - norm(message.x, x_lo, x_hi, spec.x_log)
+            dy = norm(float(row[self.y_metric]), y_lo, y_hi, spec.y_log) - norm(message.y, y_lo, y_hi, spec.y_log)
+            return float(np.hypot(dx, dy))
+
+        self.point_at_row(min(self.front, key=distance))
+
+    def action_open_pointed(self) -> None:
+        if self.pointed is None:
+            self.notify("pick a front cell first: . and , step along the front, or click it",
+                        severity="warning")
+            return
+        from celllab.tui.screens.cell import CellScreen
+
+        self.app.push_screen(CellScreen(str(self.pointed["name"]),
+                                        self.pointed.get("deck") or self.lab.current_deck))
 
     def on_query_failed(self, message: QueryFailed) -> None:
         text = "\n".join(p.message for p in message.problems)

@@ -25,25 +25,28 @@ from textual.timer import Timer
 from textual.widgets import Footer, Input, Select, Static, TabbedContent, TabPane
 from textual.worker import get_current_worker
 
-from celllab.columns import METRICS, Column, is_lower_bound
+from celllab.columns import METRICS, Column
+from celllab.display import LOWER_BOUND
 from celllab.errors import CelllabError, Problem
-from celllab.records import CellResult, corner_metrics
+from celllab.records import CellResult, corner_bounds, corner_metrics
 from celllab.topologies import REGISTRY
+from celllab.tui.curves import ceff_plot, cv_plot, esr_plot, impedance_plot
 from celllab.tui.messages import (
     CellLoaded,
     QueryFailed,
+    VariantRemoved,
     VariantSaved,
     WhatIfComputed,
     WhatIfEdited,
     WhatIfRejected,
 )
 from celllab.tui.screens.base import TaskScreen
-from celllab.tui.screens.cell import ceff_plot, cell_summary, cv_plot, impedance_plot
+from celllab.tui.screens.cell import cell_summary
 from celllab.tui.widgets.plot import PlotView
 from celllab.tui.widgets.problems_view import ProblemsView
 from celllab.tui.widgets.task_bar import TaskBar
 from celllab.tui.widgets.values import value_text
-from celllab.tui.widgets.whatif_form import WhatIfForm, geometry_help
+from celllab.tui.widgets.whatif_form import WhatIfForm, geometry_help, value_to_text
 from celllab.units import from_si
 
 _INT = re.compile(r"^[+-]?\d+$")
@@ -70,13 +73,42 @@ def parse_field_text(text: str, annotation: Any = None) -> Any:
     return value
 
 
+def input_kind(annotation: Any) -> str:
+    """The Input type of a geometry field: "integer", "number" or "text"."""
+    args = set(typing.get_args(annotation)) - {type(None)} or {annotation}
+    if args == {int}:
+        return "integer"
+    if args <= {int, float}:
+        return "number"
+    return "text"
+
+
+def field_placeholder(info: Any) -> str:
+    """What an empty geometry input means: required, derived (None default) or the default."""
+    if info.is_required():
+        return "required"
+    if info.default is None:
+        return "auto (derived)"
+    return f"default {value_to_text(info.default)}"
+
+
+def required_missing(spec: Any, texts: Mapping[str, str]) -> list[str]:
+    """Geometry fields left empty that have no default."""
+    fields = type(spec).model_fields
+    return [name for name, text in texts.items()
+            if not text.strip() and name in fields and fields[name].is_required()]
+
+
 def geometry_changes(spec: Any, texts: Mapping[str, str]) -> dict[str, Any]:
-    """Fields whose typed value differs from the spec's own value."""
+    """Fields whose typed value differs from the spec's own value; an empty field is its
+    default (None for a derived one)."""
     fields = type(spec).model_fields
     changes: dict[str, Any] = {}
     for name, text in texts.items():
         annotation = fields[name].annotation if name in fields else None
         value = parse_field_text(text, annotation)
+        if value is None and name in fields and not fields[name].is_required():
+            value = fields[name].default
         current = getattr(spec, name, None)
         if value != current:
             changes[name] = value
@@ -116,20 +148,38 @@ def metrics_at(cell: CellResult, corner: str) -> dict[str, float]:
         return {}
 
 
-def change_text(before: float | None, after: float | None, column: Column) -> Text:
-    """Relative change, green when it moves the better way."""
+def bounds_at(cell: CellResult, corner: str) -> frozenset[str]:
+    """Metrics whose value at ``corner`` (a name, "worst" or "best") is only a lower bound."""
+    try:
+        return corner_bounds(cell, corner)
+    except KeyError:
+        return frozenset()
+
+
+def change_text(before: float | None, after: float | None, column: Column,
+                before_bound: bool = False, after_bound: bool = False) -> Text:
+    """Relative change, green when it moves the better way.
+
+    A value that is only a lower bound makes the change a bound too: ``≥`` when the new value
+    is one (the change is at least this), ``≤`` when the old one is, ``?`` when both are.
+    """
     if before is None or after is None or math.isnan(before) or math.isnan(after):
         return Text("")
-    if before == after:
+    if before_bound and after_bound:
+        return Text("?", style="dim", justify="right")
+    if before == after and not (before_bound or after_bound):
         return Text("=", style="dim", justify="right")
     if before == 0:
         return Text("new", justify="right")
     rel = (after - before) / abs(before) * 100
     good = column.improved(before, after)
-    return Text(f"{rel:+.1f} %", style="green" if good else "red", justify="right")
+    mark = LOWER_BOUND if after_bound else ("≤" if before_bound else "")
+    return Text(f"{mark}{rel:+.1f} %", style="green" if good else "red", justify="right")
 
 
-def compare_table(before: Mapping[str, float], after: Mapping[str, float] | None) -> Table:
+def compare_table(before: Mapping[str, float], after: Mapping[str, float] | None,
+                  before_bounds: frozenset[str] = frozenset(),
+                  after_bounds: frozenset[str] = frozenset()) -> Table:
     """metric | cell | what-if | change, compact enough for an 80-column terminal."""
     table = Table(box=None, padding=(0, 1, 0, 0), expand=True, show_edge=False)
     table.add_column("metric", ratio=1, no_wrap=True, overflow="ellipsis")
@@ -137,16 +187,17 @@ def compare_table(before: Mapping[str, float], after: Mapping[str, float] | None
     table.add_column("what-if", justify="right", no_wrap=True)
     table.add_column("change", justify="right", no_wrap=True)
     for info in METRICS:
+        if info.bounds:  # a bound flag reads as the ≥ in front of its metric
+            continue
         b = before.get(info.name)
         a = after.get(info.name) if after is not None else None
         name = Text(info.name)
         name.append(f" {info.arrow}", style="dim")
-        # a lower bound on either side has no relative change to show
-        bound = is_lower_bound(before, info.name) or (after is not None and is_lower_bound(after, info.name))
-        change = Text("bound", style="dim", justify="right") if bound else change_text(b, a, info)
-        table.add_row(name, value_text(b, info.name, before),
-                      value_text(a, info.name, after) if after is not None else Text("–", style="dim"),
-                      change if after is not None else Text(""))
+        b_bound, a_bound = info.name in before_bounds, info.name in after_bounds
+        table.add_row(name, value_text(b, info.name, b_bound),
+                      value_text(a, info.name, a_bound) if after is not None
+                      else Text("–", style="dim"),
+                      change_text(b, a, info, b_bound, a_bound) if after is not None else Text(""))
     return table
 
 
@@ -155,7 +206,10 @@ class WhatIfScreen(TaskScreen):
 
     TASK_TITLE = "What-if"
     BINDINGS = [
+        Binding("e", "edit", "Edit fields"),
         Binding("ctrl+s", "save", "Save variant"),
+        Binding("ctrl+z", "undo_save", "Undo save"),
+        Binding("ctrl+w", "sweep", "Sweep"),
         Binding("ctrl+r", "reset", "Reset"),
         Binding("right_square_bracket", "tab(1)", "Next tab", show=False),
         Binding("left_square_bracket", "tab(-1)", "Prev tab", show=False),
@@ -163,7 +217,7 @@ class WhatIfScreen(TaskScreen):
         Binding("escape", "back", "Back"),
     ]
 
-    TABS = ("wi-metrics", "wi-cv", "wi-z", "wi-ceff")
+    TABS = ("wi-metrics", "wi-cv", "wi-z", "wi-esr", "wi-ceff")
 
     def __init__(self, name: str, deck: str | None, cell: CellResult | None = None) -> None:
         super().__init__()
@@ -206,6 +260,8 @@ class WhatIfScreen(TaskScreen):
                         yield PlotView(id="wi-plot-cv")
                     with TabPane("|Z|(f)", id="wi-z"):
                         yield PlotView(id="wi-plot-z")
+                    with TabPane("ESR(f)", id="wi-esr"):
+                        yield PlotView(id="wi-plot-esr")
                     with TabPane("C_eff(f)", id="wi-ceff"):
                         yield PlotView(id="wi-plot-ceff")
         yield Footer()
@@ -252,8 +308,12 @@ class WhatIfScreen(TaskScreen):
         geometry = {n: getattr(self.spec, n) for n in names}
         data = self.deck.full_dump()
         deck_values = {p: deck_value(data, p) for p in numeric_paths(self.deck)}
-        form = WhatIfForm(geometry, geometry_help(type(self.spec).model_fields, names),
-                          deck_values, describe_deck_path, id="wi-form")
+        model_fields = type(self.spec).model_fields
+        form = WhatIfForm(geometry, geometry_help(model_fields, names), deck_values,
+                          describe_deck_path, kinds={n: input_kind(model_fields[n].annotation)
+                                                     for n in names},
+                          placeholders={n: field_placeholder(model_fields[n]) for n in names},
+                          id="wi-form")
         slot = self.query_one("#wi-form-slot")
         self.query_one("#wi-left").mount(form, before=slot)
         slot.remove()
@@ -264,18 +324,33 @@ class WhatIfScreen(TaskScreen):
             select.value = "worst"
         self.variant = None
         self._refresh_views()
-        self.call_after_refresh(self._focus_first, form)
+        # no field takes focus by itself: keys typed while the view loaded must not land in
+        # one; e (or tab) starts editing
+        self.query_one("#wi-status", Static).update(Text("e or tab: edit the fields",
+                                                         style="dim"))
 
-    def _focus_first(self, form: WhatIfForm) -> None:
-        inputs = form.query(Input)
-        if inputs:
-            inputs.first().focus()
+    def action_edit(self) -> None:
+        forms = self.query(WhatIfForm)
+        if forms:
+            inputs = forms.first().query(Input)
+            if inputs:
+                inputs.first().focus()
 
     # --- edits --------------------------------------------------------------------------
     @on(WhatIfEdited)
     def _edited(self, message: WhatIfEdited) -> None:
         message.stop()
         if self.spec is None:
+            return
+        missing = required_missing(self.spec, message.geometry)
+        if missing:
+            if self._debounce is not None:
+                self._debounce.stop()
+                self._debounce = None
+            self._serial += 1
+            self.post_message(WhatIfRejected(self._serial, [Problem(
+                "<what-if>", name, "required: this field has no default to fall back on; "
+                "type a value", has_value=False) for name in missing]))
             return
         self.geometry_edits = geometry_changes(self.spec, message.geometry)
         self.deck_edits = deck_changes(message.deck)
@@ -373,15 +448,19 @@ class WhatIfScreen(TaskScreen):
             return
         before = metrics_at(self.original, self.corner)
         after = metrics_at(self.variant, self.corner) if self.variant is not None else None
-        self.query_one("#wi-table", Static).update(compare_table(before, after))
+        self.query_one("#wi-table", Static).update(compare_table(
+            before, after, bounds_at(self.original, self.corner),
+            bounds_at(self.variant, self.corner) if self.variant is not None else frozenset()))
         plot_corner = None if self.corner == "worst" else self.corner
         typical = plot_corner or self._typical(self.original)
         pairs: list[tuple[str, CellResult]] = [("cell", self.original)]
         if self.variant is not None:
             pairs.append(("what-if", self.variant))
-        self.query_one("#wi-plot-cv", PlotView).spec = cv_plot(pairs, typical)
-        self.query_one("#wi-plot-z", PlotView).spec = impedance_plot(pairs, [typical] if typical else None)
-        self.query_one("#wi-plot-ceff", PlotView).spec = ceff_plot(pairs, [typical] if typical else None)
+        at = [typical] if typical else None
+        self.query_one("#wi-plot-cv", PlotView).spec = cv_plot(pairs, at)
+        self.query_one("#wi-plot-z", PlotView).spec = impedance_plot(pairs, at, self.lab.z_target_ohm)
+        self.query_one("#wi-plot-esr", PlotView).spec = esr_plot(pairs, at)
+        self.query_one("#wi-plot-ceff", PlotView).spec = ceff_plot(pairs, at)
         if self.variant is None and not self.computing:
             self.query_one("#wi-status", Static).update(
                 Text("no changes yet: edit a field on the left", style="dim"))
@@ -442,12 +521,16 @@ class WhatIfScreen(TaskScreen):
                                                summary="changes: " + ", ".join(changes)), chosen)
 
     def _default_name(self) -> str:
-        base = self.cell_name
-        for index in range(1, 100):
-            name = f"{base}_wi{index}"
-            if len(name) <= 80:
-                return name
-        return base[:70] + "_wi"
+        """The cell's name with the changed geometry's tags rewritten (``-f2`` -> ``-f4``);
+        ``_wi1`` appended when only deck parameters changed."""
+        from celllab.cells.expand import renamed_variant
+
+        fields = list(self.geometry_edits)
+        name = renamed_variant(self.cell_name, {f: getattr(self.spec, f, None) for f in fields},
+                               dict(self.geometry_edits))
+        if name == self.cell_name:
+            name = f"{name}_wi1"
+        return name if len(name) <= 80 else name[:77] + "_wi"
 
     @work(thread=True, exclusive=True, group="whatif-save")
     def _save(self, cell_name: str, deck_name: str | None, geometry: dict[str, Any],
@@ -484,10 +567,62 @@ class WhatIfScreen(TaskScreen):
 
     def on_variant_saved(self, message: VariantSaved) -> None:
         self.saved_as = (message.name, message.deck)
-        self.notify(f"{message.name} stored in the catalog (deck {message.deck})",
-                    title="Saved variant", timeout=5)
+        self._saved_report = message.report
+        self._deck_before_save = self.lab.current_deck
+        if message.deck != self.deck_name:
+            # a changed deck is a new deck: the catalog follows it, so the variant is in view
+            self.lab.current_deck = message.deck
+            where = (f"the new deck {message.deck}; the catalog now shows that deck "
+                     f"(d there picks {self.deck_name} again)")
+        else:
+            where = f"deck {message.deck}"
+        self.notify(f"{message.name} stored in {where} · ctrl+z takes it back",
+                    title="Saved variant", timeout=8)
         self.query_one("#wi-status", Static).update(
-            Text(f"saved as {message.name} (deck {message.deck})", style="green"))
+            Text(f"saved as {message.name} (deck {message.deck}) · ctrl+z undoes", style="green"))
+
+    def action_sweep(self) -> None:
+        """Sweep one parameter from this what-if (its current edits included)."""
+        if self.spec is None:
+            return
+        from celllab.tui.screens.sweep import SweepScreen
+
+        spec = self.variant_spec if self.variant is not None else self.spec
+        deck = self.variant_deck if self.variant is not None else self.deck
+        self.app.push_screen(SweepScreen(self.cell_name, self.deck_name, spec=spec,
+                                         deck_model=deck))
+
+    def action_undo_save(self) -> None:
+        report = getattr(self, "_saved_report", None)
+        if self.saved_as is None or report is None:
+            self.notify("nothing saved here to take back", severity="warning")
+            return
+        if report.superseded or report.run_id is None:
+            self.notify("this save replaced earlier results; it cannot be taken back here",
+                        severity="warning")
+            return
+        self._undo(report.run_id)
+
+    @work(thread=True, exclusive=True, group="whatif-save")
+    def _undo(self, run_id: int) -> None:
+        try:
+            with self.lab.using_catalog() as catalog:
+                catalog.remove_run(run_id)
+        except CelllabError as exc:
+            self.post_message(WhatIfRejected(self._serial, exc.problems, saving=True))
+            return
+        self.post_message(VariantRemoved(run_id))
+
+    def on_variant_removed(self, message: VariantRemoved) -> None:
+        name, deck = self.saved_as or ("", "")
+        self.saved_as = None
+        self._saved_report = None
+        if self.lab.current_deck == deck and deck != self.deck_name:
+            self.lab.current_deck = getattr(self, "_deck_before_save", self.deck_name)
+        self.notify(f"{name} taken out of the catalog (deck {deck})", title="Save undone",
+                    timeout=5)
+        self.query_one("#wi-status", Static).update(
+            Text(f"{name} removed · not saved (ctrl+s)", style="yellow"))
 
     def export_context(self) -> Any:
         from celllab.tui.screens.export import ExportContext

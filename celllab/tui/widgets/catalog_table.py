@@ -10,21 +10,26 @@ from __future__ import annotations
 from collections.abc import Sequence
 from typing import Any
 
+from rich.text import Text
 from textual.binding import Binding
+from textual.coordinate import Coordinate
 from textual.widgets import DataTable
 
+from celllab.columns import is_lower_bound
 from celllab.tui.messages import CellChosen, PageRequested, SortRequested
-from celllab.tui.widgets.values import column_header, value_text
+from celllab.tui.widgets.values import column_header, header_width, value_text
 
 #: Identity columns whose content decides their width; every other column is numeric.
 _TEXT_COLUMNS = frozenset({"name", "deck", "family", "corner", "topology", "oxide"})
 
 
-def _width(column: str) -> int | None:
-    """Fixed width for numeric columns (stable from page to page), auto for names."""
+def _width(column: str, rows: Sequence[dict[str, Any]] = ()) -> int:
+    """Fixed width for numeric columns (stable from page to page); text columns as wide as
+    their longest value on the page (room for the mark of a marked name), at most 48."""
     if column in _TEXT_COLUMNS:
-        return None
-    return max(len(column) + 2, 10)
+        longest = max((len(str(r.get(column) or "")) for r in rows), default=0)
+        return min(48, max(len(column) + 2, longest + (2 if column == "name" else 0)))
+    return max(header_width(column), 10)
 
 
 class CatalogTable(DataTable[Any]):
@@ -38,7 +43,7 @@ class CatalogTable(DataTable[Any]):
 
     def __init__(self, *, id: str | None = None, classes: str | None = None) -> None:
         super().__init__(id=id, classes=classes, cursor_type="row", zebra_stripes=True,
-                         header_height=2)
+                         header_height=3)
         self.rows_shown: list[dict[str, Any]] = []
         self.columns_shown: tuple[str, ...] = ()
         self.row_offset = 0
@@ -46,6 +51,8 @@ class CatalogTable(DataTable[Any]):
         self.page_size = 100
         self._pending_cursor: int | None = None
         self._header_state: tuple[Any, ...] = ()
+        #: (name, deck) of rows marked for a comparison; a tick before their name
+        self.marked: set[tuple[str, str | None]] = set()
 
     # --- attributes down ---------------------------------------------------------------
     def show_page(self, rows: Sequence[dict[str, Any]], columns: Sequence[str], offset: int,
@@ -54,27 +61,54 @@ class CatalogTable(DataTable[Any]):
         columns = tuple(columns)
         header_state = (columns, sort_column, descending)
         keep_cursor = self.cursor_row if columns == self.columns_shown else 0
-        if header_state != self._header_state:
-            self.clear(columns=True)
-            for column in columns:
-                mark = ("▼" if descending else "▲") if column == sort_column else ""
-                self.add_column(column_header(column, mark), key=column, width=_width(column))
-            self.columns_shown = columns
-            self._header_state = header_state
-        else:
-            self.clear()
+        # columns are rebuilt with every page: a cleared table keeps the auto-width text
+        # columns (names) at their header's width, cutting every name to four letters
+        self.clear(columns=True)
+        for column in columns:
+            mark = ("▼" if descending else "▲") if column == sort_column else ""
+            self.add_column(column_header(column, mark), key=column, width=_width(column, rows))
+        self.columns_shown = columns
+        self._header_state = header_state
         self.rows_shown = list(rows)
         self.row_offset = offset
         self.total = total
-        self.add_rows(
-            [[value_text(row.get(c), c, row) for c in columns] for row in self.rows_shown]
-        )
+        self.add_rows([[self._cell(row, c) for c in columns] for row in self.rows_shown])
         if self.rows_shown:
             target = self._pending_cursor if self._pending_cursor is not None else keep_cursor
             target = max(0, min(target, len(self.rows_shown) - 1))
             self.move_cursor(row=target, animate=False)
         self._pending_cursor = None
         self.refresh()
+
+    def in_view(self, column: str) -> bool:
+        """Whether ``column`` is shown whole without scrolling sideways."""
+        if column not in self.columns_shown:
+            return False
+        right = 0
+        for key in self.columns_shown[:self.columns_shown.index(column) + 1]:
+            right += self.columns[key].get_render_width(self) if key in self.columns else 0
+        return right <= self.scrollable_content_region.width
+
+    def _cell(self, row: dict[str, Any], column: str) -> Text:
+        if column == "name":
+            mark = "✓ " if (row.get("name"), row.get("deck")) in self.marked else ""
+            return Text(mark + str(row.get("name")), style="bold" if mark else "")
+        return value_text(row.get(column), column, is_lower_bound(row, column))
+
+    def toggle_mark(self) -> tuple[str, str | None] | None:
+        """Mark or unmark the row under the cursor; returns its (name, deck)."""
+        row = self.highlighted_row()
+        if row is None:
+            return None
+        key = (str(row["name"]), row.get("deck"))
+        if key in self.marked:
+            self.marked.discard(key)
+        else:
+            self.marked.add(key)
+        if "name" in self.columns_shown:
+            self.update_cell_at(Coordinate(self.cursor_row, self.columns_shown.index("name")),
+                                self._cell(row, "name"), update_width=True)
+        return key
 
     def highlighted_row(self) -> dict[str, Any] | None:
         """The row under the cursor, or None when the page is empty."""

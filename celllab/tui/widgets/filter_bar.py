@@ -5,6 +5,7 @@ from __future__ import annotations
 from collections.abc import Callable
 
 from textual.app import ComposeResult
+from textual.binding import Binding
 from textual.containers import Horizontal
 from textual.reactive import reactive
 from textual.timer import Timer
@@ -32,6 +33,11 @@ class FilterBar(Widget):
     FilterBar.-error > .filter-error { display: block; }
     """
 
+    BINDINGS = [
+        # the filter language has no "/": pressed again it selects the text, so typing replaces it
+        Binding("slash", "select_text", "Select filter", show=False, priority=True),
+    ]
+
     error: reactive[str] = reactive("")
 
     def __init__(self, check: FilterCheck | None = None, *, prompt: str = "where",
@@ -51,6 +57,10 @@ class FilterBar(Widget):
             yield Input(self._value, placeholder=self._placeholder, compact=True,
                         classes="filter-input")
         yield Static("", classes="filter-error", markup=False)
+
+    def action_select_text(self) -> None:
+        self.input.focus()
+        self.input.select_all()
 
     @property
     def input(self) -> Input:

@@ -1,9 +1,10 @@
-"""A terminal plot drawn with braille dots and box characters, on linear or log axes.
+"""Terminal plots: what to draw (``PlotSpec``) and the widget that draws it with plotext.
 
-Each character cell holds a 2 x 4 braille dot grid, so a W x H cell plot area resolves
-2W x 4H points. Series are lines or dot clouds; markers are single glyphs drawn on top
-(an operating point, a Pareto front). The rendering (``render_plot``) is pure and testable;
-``PlotView`` is the widget that redraws it at its current size.
+The drawing itself is plotext's (through textual-plotext's per-widget figure): braille lines,
+log axes, markers and horizontal reference lines. What stays ours is the plot's content and
+look: tick values and their SI-prefix labels, a legend line above the plot (plotext's own
+legend would sit on the data), the colours (from the app theme) and which points are markers.
+``render_plot`` is pure and testable; ``PlotView`` redraws it at its current size.
 """
 
 from __future__ import annotations
@@ -11,19 +12,18 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import Literal
+from typing import Any, Literal
 
 import numpy as np
 from rich.style import Style
 from rich.text import Text
+from textual import events
+from textual.message import Message
 from textual.reactive import reactive
 from textual.widget import Widget
 
-__all__ = ["Marker", "PlotSpec", "PlotView", "Series", "format_tick", "render_plot", "ticks_for"]
-
-#: Braille dot bit for (row 0..3, column 0..1) inside one character cell (Unicode 2800 block).
-_DOT_BITS = np.array([[0x01, 0x08], [0x02, 0x10], [0x04, 0x20], [0x40, 0x80]], dtype=np.uint8)
-_BRAILLE_BASE = 0x2800
+__all__ = ["Level", "Marker", "PlotPointed", "PlotSpec", "PlotView", "Series", "axis_limits",
+           "format_tick", "point_at", "render_plot", "ticks_for"]
 
 #: Fallback colours when a style map is not given (the widget passes theme-derived ones).
 DEFAULT_STYLES: dict[str, Style] = {
@@ -31,11 +31,14 @@ DEFAULT_STYLES: dict[str, Style] = {
     "label": Style(color="grey82"),
     "title": Style(bold=True),
     "marker": Style(color="bright_magenta", bold=True),
+    "level": Style(color="red"),
     "series-0": Style(color="cyan"),
     "series-1": Style(color="yellow"),
     "series-2": Style(color="green"),
     "series-3": Style(color="magenta"),
+    "series-4": Style(color="bright_blue"),
 }
+N_SERIES_STYLES = 5
 
 
 @dataclass(frozen=True, eq=False)
@@ -58,6 +61,14 @@ class Marker:
     glyph: str = "◆"
 
 
+@dataclass(frozen=True)
+class Level:
+    """A horizontal reference line across the plot (a target), listed in the legend."""
+
+    y: float
+    label: str
+
+
 @dataclass(frozen=True, eq=False)
 class PlotSpec:
     """What to draw; axis labels carry the unit, e.g. ``"f [Hz]"``."""
@@ -69,11 +80,12 @@ class PlotSpec:
     y_log: bool = False
     series: tuple[Series, ...] = ()
     markers: tuple[Marker, ...] = ()
+    levels: tuple[Level, ...] = ()
     #: shown instead of axes when there is nothing to draw
     empty_text: str = "no data to plot"
 
 
-_PREFIXES = {-15: "f", -12: "p", -9: "n", -6: "u", -3: "m", 0: "", 3: "k", 6: "M", 9: "G", 12: "T"}
+_PREFIXES = {-15: "f", -12: "p", -9: "n", -6: "µ", -3: "m", 0: "", 3: "k", 6: "M", 9: "G", 12: "T"}
 
 
 def format_tick(value: float, log: bool = False) -> str:
@@ -148,145 +160,150 @@ def _range(values: list[np.ndarray], log: bool) -> tuple[float, float]:
     return lo - pad, hi + pad
 
 
-class _Axis:
-    """Maps data values to dot positions 0..n-1 along one axis."""
-
-    def __init__(self, lo: float, hi: float, log: bool, n: int) -> None:
-        self.log = log
-        self.lo, self.hi = lo, hi
-        self.n = n
-        self._a = math.log10(lo) if log else lo
-        self._b = math.log10(hi) if log else hi
-
-    def to_dots(self, values: np.ndarray) -> np.ndarray:
-        v = np.log10(values) if self.log else values
-        frac = (v - self._a) / (self._b - self._a)
-        return np.rint(frac * (self.n - 1)).astype(np.int64)
+def _runs(mask: np.ndarray) -> list[slice]:
+    """Contiguous stretches of True: a gap in the data is not drawn as a line across it."""
+    edges = np.flatnonzero(np.diff(np.concatenate(([0], mask.astype(np.int8), [0]))))
+    return [slice(int(a), int(b)) for a, b in zip(edges[::2], edges[1::2])]
 
 
-def _densify(px: np.ndarray, py: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Dot positions along straight segments joining consecutive points."""
-    if px.size < 2:
-        return px, py
-    dx, dy = np.diff(px), np.diff(py)
-    steps = np.maximum(np.abs(dx), np.abs(dy)).clip(min=1)
-    seg = np.repeat(np.arange(dx.size), steps)
-    starts = np.concatenate(([0], np.cumsum(steps)[:-1]))
-    t = (np.arange(seg.size) - np.repeat(starts, steps)) / np.repeat(steps, steps)
-    xs = np.rint(px[seg] + t * dx[seg]).astype(np.int64)
-    ys = np.rint(py[seg] + t * dy[seg]).astype(np.int64)
-    return np.concatenate((xs, px[-1:])), np.concatenate((ys, py[-1:]))
+def _rgb(style: Style) -> tuple[int, int, int] | None:
+    if style.color is None:
+        return None
+    triplet = style.color.get_truecolor()
+    return (triplet.red, triplet.green, triplet.blue)
 
 
-def render_plot(spec: PlotSpec, width: int, height: int,
-                styles: dict[str, Style] | None = None) -> Text:
-    """Render ``spec`` into ``height`` lines of at most ``width`` cells."""
-    st = {**DEFAULT_STYLES, **(styles or {})}
-    too_small = Text("(plot area too small)"[:max(width, 0)], style=st["label"])
-    if width < 16 or height < 6:
-        return too_small
-    if not any(np.asarray(s.x).size for s in spec.series) and not spec.markers:
-        return Text(spec.empty_text[:width], style=st["label"])
+def _legend(spec: PlotSpec, st: dict[str, Style], width: int) -> Text:
+    out = Text(no_wrap=True, overflow="ellipsis")
+    if spec.title:
+        out.append(spec.title, st["title"])
+    for index, series in enumerate(spec.series):
+        glyph = "━" if series.kind == "line" else "⠿"
+        out.append("  " + glyph + " ", st[f"series-{index % N_SERIES_STYLES}"])
+        out.append(series.label, st["label"])
+    seen: dict[str, str] = {}
+    for marker in spec.markers:
+        seen.setdefault(marker.label, marker.glyph)
+    for label, glyph in seen.items():
+        out.append("  " + glyph + " ", st["marker"])
+        out.append(label, st["label"])
+    for level in spec.levels:
+        out.append("  ╌ ", st["level"])
+        out.append(level.label, st["label"])
+    out.truncate(width, overflow="ellipsis")
+    return out
+
+
+def _data(spec: PlotSpec) -> tuple[Any, ...]:
     xs = [np.asarray(s.x, dtype=float) for s in spec.series]
     ys = [np.asarray(s.y, dtype=float) for s in spec.series]
     masks = [_finite(x, spec.x_log) & _finite(y, spec.y_log) for x, y in zip(xs, ys)]
     mx = np.array([m.x for m in spec.markers], dtype=float)
     my = np.array([m.y for m in spec.markers], dtype=float)
     mmask = _finite(mx, spec.x_log) & _finite(my, spec.y_log) if mx.size else np.array([], bool)
-    x_lo, x_hi = _range([x[m] for x, m in zip(xs, masks)] + [mx[mmask]], spec.x_log)
-    y_lo, y_hi = _range([y[m] for y, m in zip(ys, masks)] + [my[mmask]], spec.y_log)
+    ly = np.array([lv.y for lv in spec.levels], dtype=float)
+    lmask = _finite(ly, spec.y_log) if ly.size else np.array([], bool)
+    return xs, ys, masks, (mx, my, mmask), (ly, lmask)
 
-    plot_h = height - 3  # header line, axis line, tick labels line
-    y_ticks = ticks_for(y_lo, y_hi, spec.y_log, max(2, plot_h // 3))
-    y_labels = [format_tick(v, spec.y_log) for v in y_ticks]
-    label_w = max([len(s) for s in y_labels] + [1])
-    plot_w = width - label_w - 1
-    if plot_w < 8:
-        return too_small
-    x_axis = _Axis(x_lo, x_hi, spec.x_log, plot_w * 2)
-    y_axis = _Axis(y_lo, y_hi, spec.y_log, plot_h * 4)
 
-    bits = np.zeros((plot_h, plot_w), dtype=np.uint8)
-    owner = np.full((plot_h, plot_w), -1, dtype=np.int64)
+def axis_limits(spec: PlotSpec) -> tuple[tuple[float, float], tuple[float, float]]:
+    """((x_lo, x_hi), (y_lo, y_hi)): the data ranges the axes span (padded on linear axes)."""
+    xs, ys, masks, (mx, my, mmask), (ly, lmask) = _data(spec)
+    return (_range([x[m] for x, m in zip(xs, masks)] + [mx[mmask]], spec.x_log),
+            _range([y[m] for y, m in zip(ys, masks)] + [my[mmask], ly[lmask]], spec.y_log))
+
+
+def point_at(spec: PlotSpec, rendered: str, column: int, row: int) -> tuple[float, float] | None:
+    """The data point under a character cell of a rendered plot (None outside the frame).
+
+    The frame's inner cells span the axis limits from edge to edge (plotext's layout).
+    """
+    lines = rendered.split("\n")
+    try:
+        top = next(i for i, ln in enumerate(lines) if "┌" in ln)
+        bottom = next(i for i, ln in enumerate(lines) if "└" in ln)
+    except StopIteration:
+        return None
+    left, right = lines[top].index("┌"), lines[top].index("┐")
+    if not (left < column < right and top < row < bottom) or right - left < 3 or bottom - top < 3:
+        return None
+    fx = (column - left - 1) / (right - left - 2)
+    fy = (bottom - 1 - row) / (bottom - top - 2)
+    (x_lo, x_hi), (y_lo, y_hi) = axis_limits(spec)
+
+    def along(lo: float, hi: float, frac: float, log: bool) -> float:
+        if log:
+            return float(10 ** (math.log10(lo) + frac * (math.log10(hi) - math.log10(lo))))
+        return lo + frac * (hi - lo)
+
+    return along(x_lo, x_hi, fx, spec.x_log), along(y_lo, y_hi, fy, spec.y_log)
+
+
+def render_plot(spec: PlotSpec, width: int, height: int,
+                styles: dict[str, Style] | None = None) -> Text:
+    """Render ``spec`` into at most ``height`` lines of at most ``width`` cells.
+
+    The first line is the title and legend; plotext draws the axes, the series, the markers and
+    the reference lines below it, with our tick values and labels.
+    """
+    from textual_plotext.plot import Plot
+
+    st = {**DEFAULT_STYLES, **(styles or {})}
+    if width < 24 or height < 7:
+        return Text("(plot area too small)"[:max(width, 0)], style=st["label"])
+    if not any(np.asarray(s.x).size for s in spec.series) and not spec.markers:
+        return Text(spec.empty_text[:width], style=st["label"])
+    xs, ys, masks, (mx, my, mmask), (ly, lmask) = _data(spec)
+    (x_lo, x_hi), (y_lo, y_hi) = axis_limits(spec)
+
+    plt = Plot()
+    plt.theme("clear")
+    plot_h = height - 2  # our legend line above, our axis-label line below
+    plt.plotsize(width, plot_h)
+    # plotext caps plotsize at the size of the terminal it runs in; the widget's size is what
+    # counts here (textual-plotext sets it the same way)
+    plt._set_size(width, plot_h)
     for index, (series, x, y, m) in enumerate(zip(spec.series, xs, ys, masks)):
-        if not m.any():
+        color = _rgb(st[f"series-{index % N_SERIES_STYLES}"])
+        if series.kind == "dots":
+            if m.any():
+                plt.scatter(x[m].tolist(), y[m].tolist(), marker="braille", color=color)
             continue
-        px = x_axis.to_dots(x[m])
-        py = (plot_h * 4 - 1) - y_axis.to_dots(y[m])
-        if series.kind == "line":
-            px, py = _densify(px, py)
-        keep = (px >= 0) & (px < plot_w * 2) & (py >= 0) & (py < plot_h * 4)
-        px, py = px[keep], py[keep]
-        cx, cy = px // 2, py // 4
-        np.bitwise_or.at(bits, (cy, cx), _DOT_BITS[py % 4, px % 2])
-        owner[cy, cx] = index
-    glyphs: dict[tuple[int, int], str] = {}
-    if mx.size:
-        gx = x_axis.to_dots(mx[mmask]) // 2
-        gy = ((plot_h * 4 - 1) - y_axis.to_dots(my[mmask])) // 4
-        for marker, cx, cy in zip([m for m, ok in zip(spec.markers, mmask) if ok], gx, gy):
-            if 0 <= cx < plot_w and 0 <= cy < plot_h:
-                glyphs[(int(cy), int(cx))] = marker.glyph
-
-    tick_rows = {int((plot_h * 4 - 1 - y_axis.to_dots(np.array([v]))[0]) // 4): lab
-                 for v, lab in zip(y_ticks, y_labels)}
-    # tick labels under the x axis (computed first: the x label goes there when it fits)
-    x_ticks = ticks_for(x_lo, x_hi, spec.x_log, max(2, plot_w // 10))
-    tick_cols = [int(c) // 2 for c in x_axis.to_dots(np.array(x_ticks))]
-    line = [" "] * (plot_w + label_w + 1)
-    last_end = -1
-    for value, col in zip(x_ticks, tick_cols):
-        text = format_tick(value, spec.x_log)
-        start = label_w + 1 + col - len(text) // 2
-        start = max(0, min(start, len(line) - len(text)))
-        if start <= last_end:
-            continue
-        line[start:start + len(text)] = list(text)
-        last_end = start + len(text)
-    x_label_below = bool(spec.x_label) and len(line) - last_end > len(spec.x_label) + 2
-    if x_label_below:
-        line[len(line) - len(spec.x_label):] = list(spec.x_label)
-
-    out = Text(no_wrap=True, overflow="crop")
-    # header: axis labels, title and legend
-    out.append(spec.y_label, st["label"])
-    if spec.x_label and not x_label_below:
-        out.append(" vs " + spec.x_label, st["label"])
-    if spec.title:
-        out.append("  " + spec.title, st["title"])
-    for index, series in enumerate(spec.series):
-        out.append("  " + ("━" if series.kind == "line" else "⠿") + " ", st[f"series-{index % 4}"])
-        out.append(series.label, st["label"])
-    legend_markers: dict[str, str] = {}
-    for marker in spec.markers:
-        legend_markers.setdefault(marker.glyph, marker.label)
-    for glyph, label in legend_markers.items():
-        out.append("  " + glyph + " ", st["marker"])
-        out.append(label, st["label"])
-    out.truncate(width)
+        for run in _runs(m):
+            plt.plot(x[run].tolist(), y[run].tolist(), marker="braille", color=color)
+    for level, ok in zip(spec.levels, lmask):
+        if ok:
+            plt.hline(float(level.y), color=_rgb(st["level"]))
+    for marker, ok in zip(spec.markers, mmask):
+        if ok:
+            plt.scatter([marker.x], [marker.y], marker=marker.glyph, color=_rgb(st["marker"]))
+    if spec.x_log:
+        plt.xscale("log")
+    if spec.y_log:
+        plt.yscale("log")
+    # plotext takes the limits of a log axis as exponents, the ticks as values
+    plt.xlim(*((math.log10(x_lo), math.log10(x_hi)) if spec.x_log else (x_lo, x_hi)))
+    plt.ylim(*((math.log10(y_lo), math.log10(y_hi)) if spec.y_log else (y_lo, y_hi)))
+    x_ticks = ticks_for(x_lo, x_hi, spec.x_log, max(2, width // 12))
+    y_ticks = ticks_for(y_lo, y_hi, spec.y_log, max(2, plot_h // 4))
+    plt.xticks(x_ticks, [format_tick(v, spec.x_log) for v in x_ticks])
+    plt.yticks(y_ticks, [format_tick(v, spec.y_log) for v in y_ticks])
+    body = Text.from_ansi(plt.build(), no_wrap=True)
+    body.rstrip()
+    out = _legend(spec, st, width)
     out.append("\n")
-    for row in range(plot_h):
-        label = tick_rows.get(row, "")
-        out.append(label.rjust(label_w), st["label"])
-        out.append("┤" if row in tick_rows else "│", st["axis"])
-        for col in range(plot_w):
-            drawn = glyphs.get((row, col))
-            if drawn is not None:
-                out.append(drawn, st["marker"])
-            elif bits[row, col]:
-                out.append(chr(_BRAILLE_BASE + int(bits[row, col])),
-                           st[f"series-{int(owner[row, col]) % 4}"])
-            else:
-                out.append(" ")
-        out.append("\n")
-    # x axis line with tick marks, then tick labels
-    axis = ["─"] * plot_w
-    for c in tick_cols:
-        if 0 <= c < plot_w:
-            axis[c] = "┬"
-    out.append(" " * label_w + "└" + "".join(axis), st["axis"])
+    out.append_text(body)
+    # both axis names on one line of our own (plotext drops one when they would touch)
+    labels = Text(no_wrap=True, overflow="ellipsis")
+    if spec.y_label:
+        labels.append("↑ ", st["axis"])
+        labels.append(spec.y_label, st["label"])
+    if spec.x_label:
+        labels.append("   → " if spec.y_label else "→ ", st["axis"])
+        labels.append(spec.x_label, st["label"])
+    labels.truncate(width, overflow="ellipsis")
     out.append("\n")
-    out.append("".join(line), st["label"])
+    out.append_text(labels)
     return out
 
 
@@ -299,14 +316,16 @@ class PlotView(Widget):
     PlotView > .plot--label { color: $foreground; }
     PlotView > .plot--title { text-style: bold; color: $foreground; }
     PlotView > .plot--marker { color: $error; text-style: bold; }
+    PlotView > .plot--level { color: $warning; }
     PlotView > .plot--series-0 { color: $accent; }
     PlotView > .plot--series-1 { color: $success; }
     PlotView > .plot--series-2 { color: $primary-lighten-2; }
     PlotView > .plot--series-3 { color: $secondary-lighten-3; }
+    PlotView > .plot--series-4 { color: $warning-lighten-2; }
     """
     COMPONENT_CLASSES = {
-        "plot--axis", "plot--label", "plot--title", "plot--marker",
-        "plot--series-0", "plot--series-1", "plot--series-2", "plot--series-3",
+        "plot--axis", "plot--label", "plot--title", "plot--marker", "plot--level",
+        "plot--series-0", "plot--series-1", "plot--series-2", "plot--series-3", "plot--series-4",
     }
 
     spec: reactive[PlotSpec | None] = reactive(None)
@@ -321,4 +340,23 @@ class PlotView(Widget):
             return Text("no data to plot", style="dim")
         styles = {name.removeprefix("plot--"): self.get_component_rich_style(name, partial=True)
                   for name in self.COMPONENT_CLASSES}
-        return render_plot(self.spec, self.size.width, self.size.height, styles)
+        text = render_plot(self.spec, self.size.width, self.size.height, styles)
+        self._rendered = text.plain
+        return text
+
+    def on_click(self, event: events.Click) -> None:
+        if self.spec is None or not getattr(self, "_rendered", ""):
+            return
+        point = point_at(self.spec, self._rendered, event.x, event.y)
+        if point is not None:
+            self.post_message(PlotPointed(self, *point))
+
+
+class PlotPointed(Message):
+    """The user clicked inside a plot's frame, at data coordinates (x, y)."""
+
+    def __init__(self, plot: PlotView, x: float, y: float) -> None:
+        super().__init__()
+        self.plot = plot
+        self.x = x
+        self.y = y

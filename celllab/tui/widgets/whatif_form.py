@@ -40,8 +40,13 @@ class WhatIfForm(VerticalScroll):
 
     def __init__(self, geometry: Mapping[str, Any], field_help: Mapping[str, str],
                  deck_values: Mapping[str, float], describe: Callable[[str], str],
-                 *, id: str | None = None) -> None:
+                 *, kinds: Mapping[str, str] | None = None,
+                 placeholders: Mapping[str, str] | None = None, id: str | None = None) -> None:
         super().__init__(id=id)
+        #: Input type per geometry field ("integer", "number" or "text"): letters stay out of
+        #: numeric fields
+        self._kinds = dict(kinds or {})
+        self._placeholders = dict(placeholders or {})
         self._geometry = dict(geometry)
         self._field_help = dict(field_help)
         self._deck_values = dict(deck_values)
@@ -49,19 +54,21 @@ class WhatIfForm(VerticalScroll):
         self.pinned: dict[str, str] = {}
 
     def compose(self) -> ComposeResult:
-        yield Label("Cell geometry (empty = derived)", classes="form-section")
+        yield Label("Geometry · empty = default", classes="form-section")
         for name, value in self._geometry.items():
             with Horizontal(classes="form-row"):
                 yield Label(name, classes="form-label")
-                inp = Input(value_to_text(value), placeholder="auto", compact=True,
-                            id=f"geo-{name}")
+                inp = Input(value_to_text(value), placeholder=self._placeholders.get(name, "auto"),
+                            compact=True, id=f"geo-{name}",
+                            type=self._kinds.get(name, "text"))  # type: ignore[arg-type]
                 inp.tooltip = self._field_help.get(name, "")
                 yield inp
         yield Label("Deck parameter", classes="form-section")
         yield Input(placeholder="path, e.g. oxides.core.t_ox_nm", compact=True, id="deck-path",
                     suggester=SuggestFromList(sorted(self._deck_values), case_sensitive=True))
         yield Static("", id="deck-path-help", markup=False)
-        yield Input(placeholder="new value (enter keeps it)", compact=True, id="deck-value")
+        yield Input(placeholder="new value (enter keeps it)", compact=True, id="deck-value",
+                    type="number")
         yield Static("", id="deck-pinned", markup=False)
 
     # --- reading the form ---------------------------------------------------------------
@@ -130,7 +137,8 @@ class WhatIfForm(VerticalScroll):
         self._post(immediate=True)
 
     def _show_pinned(self) -> None:
-        lines = [f"{path} = {value}  (was {self._deck_values.get(path, float('nan')):g})"
+        lines = [f"{path} = {value}  (was {self._deck_values[path]:g})"
+                 if path in self._deck_values else f"{path} = {value}  (not a deck parameter)"
                  for path, value in self.pinned.items()]
         self.query_one("#deck-pinned", Static).update("\n".join(lines))
 
