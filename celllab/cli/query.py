@@ -21,7 +21,6 @@ from celllab.columns import (
     METRIC_BY_NAME,
     METRIC_NAMES,
     RANKED,
-    from_si,  # converts through celllab.units on first use (start-up)
     unit_of,
 )
 from celllab.display import LOWER_BOUND, format_value, jsonable, mark_bounds, text_table
