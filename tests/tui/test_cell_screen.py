@@ -7,7 +7,7 @@ from typing import Any
 import numpy as np
 from textual.widgets import DataTable, TabbedContent
 
-from celllab.records import METRIC_NAMES
+from celllab.records import METRICS
 from celllab.tui.app import CelllabApp
 from celllab.tui.screens.cell import CellScreen, explain_flag
 from celllab.tui.screens.whatif import WhatIfScreen
@@ -35,7 +35,7 @@ async def test_cell_view_metrics_plots_and_back(synthetic_catalog: Any, ui: Any)
 
         # every metric at every corner, as stored
         table = screen.query_one("#cell-metrics", DataTable)
-        assert table.row_count == len(METRIC_NAMES)
+        assert table.row_count == len([m for m in METRICS if not m.bounds])  # bound flags: the ≥ mark
         assert [str(c.label).split("\n")[0] for c in table.ordered_columns[1:]] == [c[0] for c in CORNERS]
         stored = synthetic_catalog.cell(first, SYNTHETIC_DECK)
         slow = stored.corner("slow_125C").metrics["esr_ohm"]
