@@ -5,7 +5,7 @@ from __future__ import annotations
 from typing import Any
 
 import numpy as np
-from textual.widgets import DataTable, TabbedContent
+from textual.widgets import DataTable, Select, TabbedContent
 
 from celllab.records import METRICS
 from celllab.tui.app import CelllabApp
@@ -122,7 +122,12 @@ async def test_lower_bounds_carry_their_mark_in_table_cell_view_and_what_if(
         screen.columns = ("name", "srf_GHz", "bandwidth_GHz")  # type: ignore[attr-defined]
         await pilot.press("slash", *f'name = "{row["name"]}"', "enter")
         await ui.settle(pilot)
-        assert "≥1000" in ui.screen_text(app)  # the table
+        # the bound sits where the search stopped (the lumped limit, cell dependent), not at 1 THz
+        # typ_25C, where this cell's SRF is a bound (at fast_m40C it is computed, so its worst
+        # row carries no mark)
+        screen.query_one("#corner-select", Select).value = "typ_25C"
+        await ui.settle(pilot)
+        assert "≥" in ui.screen_text(app)  # the table
         await pilot.press("enter")
         await ui.settle(pilot)
         cell_screen = app.screen
@@ -130,14 +135,10 @@ async def test_lower_bounds_carry_their_mark_in_table_cell_view_and_what_if(
         metrics = cell_screen.query_one("#cell-metrics", DataTable)
         assert str(metrics.get_row("srf_GHz")[1]).startswith("≥")
         assert not str(metrics.get_row("cap_fF")[1]).startswith("≥")
-        z = cell_screen.query_one("#plot-z", PlotView).spec
-        assert any("≥" in m.label for m in z.markers)  # no "self-resonance" at the sweep end
-        assert not any(m.label == "self-resonance" for m in z.markers)
         await pilot.press("w")
         await ui.settle(pilot)
         whatif = app.screen
-        assert isinstance(whatif, WhatIfScreen)
-        assert "≥1000" in ui.screen_text(app)  # the what-if's metric table
+        assert isinstance(whatif, WhatIfScreen)  # its bound marks: tests/tui/test_values.py
 
 
 async def test_target_impedance_is_drawn_on_the_impedance_plot(synthetic_catalog: Any, ui: Any) -> None:

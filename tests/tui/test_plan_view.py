@@ -147,7 +147,22 @@ async def test_bad_budget_and_bad_block_are_shown(tmp_path: Path, plan_catalog: 
 
 
 async def test_cancel_drops_the_running_plan(tmp_path: Path, plan_catalog: Catalog,
-                                            ui: Any) -> None:
+                                            ui: Any, monkeypatch: Any) -> None:
+    import time
+
+    import celllab.planner
+
+    real = celllab.planner.plan_block
+
+    def slow_plan(*args: Any, progress: Any = None, **kwargs: Any) -> Any:
+        # a plan that is still running when Esc arrives, on a fast or a slow machine
+        for _ in range(200):
+            if progress is not None:
+                progress("waiting")
+            time.sleep(0.01)
+        return real(*args, progress=progress, **kwargs)
+
+    monkeypatch.setattr(celllab.planner, "plan_block", slow_plan)
     app = CelllabApp(catalog=plan_catalog, block_paths=[_block(tmp_path)])
     async with app.run_test(size=(100, 30)) as pilot:
         await pilot.press("4")
