@@ -28,13 +28,7 @@ from celllab.characterization.params import CornerSet
 from celllab.physics import circuits
 from celllab.physics import cross_coupled as pair
 from celllab.topologies import common
-from celllab.topologies.geometry import (
-    MOS_FIELDS,
-    OUTLINE_FIELDS,
-    Geometry,
-    device_band,
-    place_mos,
-)
+from celllab.topologies.geometry import MOS_FIELDS, OUTLINE_FIELDS, nmos_and_pmos_per_row
 from celllab.topologies.registry import Topology
 from celllab.topologies.wells import BOTH_TYPES, biased_wells
 
@@ -44,12 +38,6 @@ from celllab.topologies.wells import BOTH_TYPES, biased_wells
 LEAKAGE_VOLTAGE_EXPONENT = 2.5
 #: Floor of the first-pass overdrive when it sets the on-resistance scale, V.
 MIN_OVERDRIVE_V = 1.0 * milli
-
-
-def two_devices_per_row(spec: Any, deck: Any, geo: Geometry) -> None:
-    """An NMOS (p-well half) and a PMOS (n-well half) per row."""
-    place_mos(spec, deck, geo, [device_band(spec, deck, "nmos", both_types=True),
-                                device_band(spec, deck, "pmos", both_types=True)])
 
 
 def evaluate(deck: Any, corners: CornerSet, cells: Sequence[Any], geos: Sequence[Any],
@@ -125,6 +113,6 @@ def evaluate(deck: Any, corners: CornerSet, cells: Sequence[Any], geos: Sequence
 
 TOPOLOGIES = (
     Topology(name="cross_coupled", description="NMOS and PMOS whose gates hang on each other's drains",
-             esd_safe=True, fields=OUTLINE_FIELDS | MOS_FIELDS, geometry=two_devices_per_row, evaluate=evaluate,
+             esd_safe=True, fields=OUTLINE_FIELDS | MOS_FIELDS, geometry=nmos_and_pmos_per_row, evaluate=evaluate,
              circuit_key=common.by_contacted_ends, order=40),
 )

@@ -300,3 +300,10 @@ def place_mom(spec: Any, deck: Any, geo: Geometry) -> None:
                                m.ild_eps_r, m.sheet_ohm_per_sq, m.via_below_ohm))
     geo.mom_layers = layers
     geo.mom_plate_area_um2 = geo.area_um2
+
+
+def nmos_and_pmos_per_row(spec: Any, deck: Any, geo: Geometry) -> None:
+    """An NMOS on the p-well half and a PMOS on the n-well half of every row: the placement of
+    every two-device cell (tied CMOS, cross-coupled pair)."""
+    place_mos(spec, deck, geo, [device_band(spec, deck, "nmos", both_types=True),
+                                device_band(spec, deck, "pmos", both_types=True)])

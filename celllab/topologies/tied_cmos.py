@@ -31,15 +31,9 @@ from celllab.characterization.oxide_stress import oxide_stress
 from celllab.characterization.params import CornerSet
 from celllab.physics import circuits
 from celllab.topologies import common
-from celllab.topologies.geometry import MOS_FIELDS, OUTLINE_FIELDS, Geometry, device_band, place_mos
+from celllab.topologies.geometry import MOS_FIELDS, OUTLINE_FIELDS, nmos_and_pmos_per_row
 from celllab.topologies.registry import Topology
 from celllab.topologies.wells import BOTH_TYPES, biased_wells
-
-
-def nmos_and_pmos_per_row(spec: Any, deck: Any, geo: Geometry) -> None:
-    """An NMOS (p-well half) and a PMOS (n-well half) per row, gates on the opposite rails."""
-    place_mos(spec, deck, geo, [device_band(spec, deck, "nmos", both_types=True),
-                                device_band(spec, deck, "pmos", both_types=True)])
 
 
 def evaluate(deck: Any, corners: CornerSet, cells: Sequence[Any], geos: Sequence[Any],
