@@ -58,8 +58,8 @@ def build_demo_catalog(path: str | Path = DEFAULT_CATALOG, folder: Path | None =
             problems.extend(exc.problems)
     if problems:
         raise CelllabError(problems)
-    catalog = open_catalog(path)
-    for deck, cells, sources in loaded:
-        run = characterize(deck, cells, progress=progress, sources=sources, esd=esd)
-        catalog.store_run(run)
+    with open_catalog(path) as catalog:
+        for deck, cells, sources in loaded:
+            run = characterize(deck, cells, progress=progress, sources=sources, esd=esd)
+            catalog.store_run(run)
     return Path(path)

@@ -75,16 +75,19 @@ def cmd_build(args: argparse.Namespace) -> int:
         CornerSet.from_deck(deck, corners)
     from celllab import MODEL_VERSION
 
-    catalog = open_catalog(args.catalog)
     reports = []
-    for deck, cells in pairs:
-        # cells already stored for this deck version and model version are not computed again
-        stored = catalog.stored_cells(deck.content_hash, MODEL_VERSION)
-        todo = [c for c in cells if (c.content_hash, c.name) not in stored]
-        run = characterize(deck, todo, corners=corners, sources=[*args.deck, *args.cells],
-                           progress=_progress_printer(not args.quiet and not args.json), esd=not args.no_esd)
-        report = catalog.store_run(run)
-        reports.append((deck.name, len(cells), len(cells) - len(todo), report))
+    # closed before returning, so the write-ahead log is folded into the file now and not
+    # whenever the connection happens to be collected
+    with open_catalog(args.catalog) as catalog:
+        for deck, cells in pairs:
+            # cells already stored for this deck version and model version are not computed again
+            stored = catalog.stored_cells(deck.content_hash, MODEL_VERSION)
+            todo = [c for c in cells if (c.content_hash, c.name) not in stored]
+            run = characterize(deck, todo, corners=corners, sources=[*args.deck, *args.cells],
+                               progress=_progress_printer(not args.quiet and not args.json),
+                               esd=not args.no_esd)
+            report = catalog.store_run(run)
+            reports.append((deck.name, len(cells), len(cells) - len(todo), report))
     if args.json:
         print(json.dumps([{"deck": d, "cells": n, "run_id": r.run_id, "inserted": r.inserted,
                            "unchanged": r.unchanged + skipped, "superseded": r.superseded}
@@ -123,8 +126,8 @@ def cmd_demo(args: argparse.Namespace) -> int:
             return int(run_app(catalog_path=path) or 0)
     from celllab.catalog import open_catalog
 
-    catalog = open_catalog(path)
-    rows = catalog.query(corner="worst", order_by="cap_density_fF_per_um2", limit=args.limit)
+    with open_catalog(path) as catalog:
+        rows = catalog.query(corner="worst", order_by="cap_density_fF_per_um2", limit=args.limit)
     cols = ["name", "deck", "topology", "cap_fF", "cap_density_fF_per_um2", "esr_ohm", "bandwidth_GHz",
             "leakage_nA_per_nF"]
     from celllab.cli.query import render_table
