@@ -102,13 +102,22 @@ class Catalog:
         with self._access() as db:
             return _store.store_run(db, run)
 
-    def stored_cells(self, deck_hash: str, model_version: str) -> set[tuple[str, str]]:
+    def stored_cells(self, deck_hash: str, model_version: str, *, with_esd: bool = False
+                     ) -> set[tuple[str, str]]:
         """(cell_hash, name) of the current results stored for this deck version and model
-        version: what a build of the same input need not characterize again."""
+        version: what a build of the same input need not characterize again.
+
+        ``with_esd``: leave out results stored without the deck's ESD events (a ``--no-esd``
+        build), so that a build with the events computes them (``store_run`` then puts the
+        complete result in the incomplete one's place).
+        """
+        sql = ("SELECT cell_hash, name FROM cells c WHERE deck_hash = ? AND model_version = ? "
+               "AND current = 1")
+        if with_esd:
+            sql += (" AND NOT EXISTS (SELECT 1 FROM corner_metrics m WHERE m.cell_id = c.cell_id "
+                    "AND m.flags_json LIKE '%esd_not_run:%')")
         with self._access() as db:
-            return {(str(h), str(n)) for h, n in db.execute(
-                "SELECT cell_hash, name FROM cells WHERE deck_hash = ? AND model_version = ? "
-                "AND current = 1", [deck_hash, model_version]).fetchall()}
+            return {(str(h), str(n)) for h, n in db.execute(sql, [deck_hash, model_version]).fetchall()}
 
     def remove_run(self, run_id: int) -> int:
         """Take back the latest run of a deck (see ``store.remove_run``); cells removed."""

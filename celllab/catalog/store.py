@@ -3,7 +3,9 @@
 ``store_run`` is one transaction. Per cell the key is (deck hash, cell hash, model version):
 
 * a key already stored is left alone (``unchanged``); if its numbers differ from the new run the
-  stored ones are kept and the cell is listed in ``StoreReport.differing``;
+  stored ones are kept and the cell is listed in ``StoreReport.differing``; except that a result
+  stored without the deck's ESD events (``esd_not_run``) gives way to the same key's result with
+  them (``StoreReport.completed``): the new one holds all the old one did;
 * a new key is inserted and becomes the current result of that cell name under that deck; the
   previous current result of the name is kept as history (``superseded``);
 * storing a deck supersedes every other deck of the same name (its results stay, not current).
@@ -60,6 +62,8 @@ class StoreReport:
     superseded : results that stopped being current (older deck of the same name, older result
         of the same cell name).
     differing : names of unchanged cells whose new numbers differ from the stored ones (kept).
+    completed : stored results built without the ESD events (``esd_not_run``) replaced by the
+        same key's result with them (counted in ``inserted`` too).
     """
 
     run_id: int | None
@@ -67,6 +71,7 @@ class StoreReport:
     unchanged: int
     superseded: int
     differing: list[str] = field(default_factory=list)
+    completed: int = 0
 
     @property
     def changed(self) -> bool:
@@ -478,12 +483,19 @@ def store_run(db: sqlite_utils.Database, run: CharacterizationRun) -> StoreRepor
                 [run.deck_hash, run.model_version],
             )
         }
-        new, unchanged, differing, revive = [], 0, [], []
+        without_esd = _cells_built_without_esd(db, run) if existing else set()
+        new, unchanged, differing, revive, completing = [], 0, [], [], []
         for p in prepared:
-            if p.cell_hash in existing:
+            if p.cell_hash in existing and existing[p.cell_hash][0] in without_esd and _has_esd(p):
+                # the same key, stored without the ESD events: the new result holds everything the
+                # stored one does plus those events, so it takes the stored one's place
+                completing.append(existing[p.cell_hash][0])
+                new.append(p)
+            elif p.cell_hash in existing:
                 cell_id, digest, current = existing[p.cell_hash]
                 unchanged += 1
-                if digest != p.digest:
+                # a result without the ESD events next to a stored one with them differs only there
+                if digest != p.digest and (_has_esd(p) or cell_id in without_esd):
                     differing.append(p.name)
                 if not current:
                     revive.append((p.name, cell_id))
@@ -508,6 +520,8 @@ def store_run(db: sqlite_utils.Database, run: CharacterizationRun) -> StoreRepor
             ],
         )
         run_id = int(cur.lastrowid or 0)
+        for cell_id in completing:  # their rows of every table go with them (ON DELETE CASCADE)
+            db.execute("DELETE FROM cells WHERE cell_id = ?", [cell_id])
         current_names = {
             r[0]
             for r in db.execute(
@@ -532,7 +546,23 @@ def store_run(db: sqlite_utils.Database, run: CharacterizationRun) -> StoreRepor
             if _cell_stored_hook is not None:
                 _cell_stored_hook(n)
         writer.finish()
-    return StoreReport(run_id, len(new), unchanged, superseded, differing)
+    return StoreReport(run_id, len(new), unchanged, superseded, differing, len(completing))
+
+
+_ESD_NOT_RUN = "esd_not_run:"
+
+
+def _has_esd(cell: PreparedCell) -> bool:
+    """Whether this prepared result was built with the deck's ESD events."""
+    return not any(_ESD_NOT_RUN in row["flags_json"] for row in cell.corner_rows)
+
+
+def _cells_built_without_esd(db: sqlite_utils.Database, run: CharacterizationRun) -> set[int]:
+    """cell_id of the results of this deck and model version stored without the ESD events."""
+    return {int(r[0]) for r in db.execute(
+        "SELECT DISTINCT c.cell_id FROM cells c JOIN corner_metrics m ON m.cell_id = c.cell_id "
+        "WHERE c.deck_hash = ? AND c.model_version = ? AND m.flags_json LIKE ?",
+        [run.deck_hash, run.model_version, f"%{_ESD_NOT_RUN}%"])}
 
 
 def remove_run(db: sqlite_utils.Database, run_id: int) -> int:

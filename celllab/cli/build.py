@@ -81,7 +81,7 @@ def cmd_build(args: argparse.Namespace) -> int:
     with open_catalog(args.catalog) as catalog:
         for deck, cells in pairs:
             # cells already stored for this deck version and model version are not computed again
-            stored = catalog.stored_cells(deck.content_hash, MODEL_VERSION)
+            stored = catalog.stored_cells(deck.content_hash, MODEL_VERSION, with_esd=not args.no_esd)
             todo = [c for c in cells if (c.content_hash, c.name) not in stored]
             run = characterize(deck, todo, corners=corners, sources=[*args.deck, *args.cells],
                                progress=_progress_printer(not args.quiet and not args.json),
@@ -102,7 +102,10 @@ def cmd_build(args: argparse.Namespace) -> int:
 def build_summary(report, skipped: int) -> str:  # type: ignore[no-untyped-def]
     """What a build did, in words: new results, results already stored, results replaced."""
     unchanged = report.unchanged + skipped
-    parts = [f"{report.inserted} new", f"{unchanged} already stored"]
+    completed = getattr(report, "completed", 0)
+    new = f"{report.inserted} new" + (f" ({completed} of them with the ESD events an earlier "
+                                      "--no-esd build left out)" if completed else "")
+    parts = [new, f"{unchanged} already stored"]
     if report.superseded:
         if report.inserted:
             parts.append(f"{report.superseded} earlier results replaced (kept as history)")

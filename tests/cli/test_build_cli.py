@@ -89,3 +89,37 @@ def test_progress_goes_to_a_log_as_lines_not_bars(tmp_path, capsys) -> None:
     err = capsys.readouterr().err
     assert "lumen130:" in err and "cells characterized" in err
     assert "\r" not in err and "━" not in err  # stderr is not a terminal here: no bar
+
+
+def test_a_build_with_esd_completes_results_an_earlier_no_esd_build_stored(tmp_path, capsys) -> None:
+    """--no-esd then a build with the events: the same keys get their ESD figures (not skipped as
+    already stored), the incomplete rows are replaced, not kept beside them; again: a no-op."""
+    from celllab.catalog import open_catalog
+
+    cells = tmp_path / "cells.toml"
+    cells.write_text('[[family]]\nname = "t_n"\ntopology = "nmos_inversion"\nwidth_sites = [4, 8]\n',
+                     encoding="utf-8")
+    cat = tmp_path / "c.sqlite"
+    args = ["build", "--deck", DECK, "--cells", str(cells), "--catalog", str(cat), "--json",
+            "--corners", "typ_25C"]
+
+    def hbm_margins() -> list[float | None]:
+        with open_catalog(cat) as c:
+            rows = c.query(corner="typ_25C", order_by="name")
+        return [r["hbm_margin_V"] for r in rows]
+
+    assert main([*args, "--no-esd"]) == 0
+    assert json.loads(capsys.readouterr().out)[0]["inserted"] == 2
+    assert hbm_margins() == [None, None]
+    assert main(args) == 0
+    done = json.loads(capsys.readouterr().out)[0]
+    assert done["inserted"] == 2 and done["unchanged"] == 0
+    margins = hbm_margins()
+    assert len(margins) == 2 and all(m is not None for m in margins)
+    with open_catalog(cat) as c:  # replaced, not kept beside: two results in all, history included
+        assert len(c.query(corner="typ_25C", current_only=False)) == 2
+    for extra in ([], ["--no-esd"]):  # both now find everything stored
+        assert main([*args, *extra]) == 0
+        again = json.loads(capsys.readouterr().out)[0]
+        assert again["inserted"] == 0 and again["unchanged"] == 2
+    assert hbm_margins() == margins
