@@ -25,7 +25,7 @@ from __future__ import annotations
 
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, replace
-from typing import Literal
+from typing import Any, Literal
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -302,7 +302,7 @@ def event_circuit(
     r_diode = p["r_on"] if protection.r_diode is None else _rows(protection.r_diode, n_rows,
                                                                     "protection.r_diode")
     clamp = esd.rail_clamp(p["v_on"], p["r_on"], p["t_response"], p["v_diode"], pin, ref, r_diode)
-    nonlinear = (clamp, *channels)
+    nonlinear: tuple[RailClamp | DistributedChannel, ...] = (clamp, *channels)
     grid = (event_grid(event, float(np.max(p["t_response"]))) if t_points is None
             else np.asarray(t_points, dtype=float))
     n_seg, capped = event_segments(chip, event.edge_time)
@@ -389,7 +389,7 @@ def simulate_event(
         idx = np.flatnonzero(need == n_seg)
         whole = idx.size == n_rows
 
-        def take(v: ArrayLike | None, idx: NDArray[np.int_] = idx, whole: bool = whole) -> ArrayLike | None:
+        def take(v: Any, idx: NDArray[np.int_] = idx, whole: bool = whole) -> Any:
             if v is None or whole or np.size(v) == 1:
                 return v
             return np.asarray(v, dtype=float).reshape(-1)[idx]
@@ -436,7 +436,7 @@ def simulate_event(
     )
 
 
-def _take_rows(netlist: Netlist, take: Callable[[ArrayLike | None], ArrayLike | None]) -> Netlist:
+def _take_rows(netlist: Netlist, take: Callable[[Any], Any]) -> Netlist:
     """The netlist of a subset of rows (``take`` picks them from each value array)."""
     elements = tuple(
         replace(el, value=take(el.value),

@@ -486,10 +486,10 @@ class _System:
         for el in expanded.elements:
             for node in el.nodes:
                 nodes.setdefault(node, None)
-        for el in expanded.nonlinear:
+        for nl in expanded.nonlinear:
             for attr in ("node_a", "node_b", "gate", "node_pos", "node_neg"):
-                if hasattr(el, attr):
-                    nodes.setdefault(getattr(el, attr), None)
+                if hasattr(nl, attr):
+                    nodes.setdefault(getattr(nl, attr), None)
         for src in sources:
             nodes.setdefault(src.node_pos, None)
             nodes.setdefault(src.node_neg, None)
@@ -510,7 +510,8 @@ class _System:
         self.n_nodes = len(node_list)
         labels = list(node_list)
         self.branch_index: dict[str, int] = {}
-        for item in [*branch, *vsources]:
+        branched: list[Element | VoltageSource] = [*branch, *vsources]
+        for item in branched:
             self.branch_index[item.name] = len(labels)
             labels.append(f"i({item.name})")
         self.state_index: dict[str, int] = {}
@@ -627,11 +628,11 @@ class _System:
                                tuple(c.name for c in clamps)))
             out.append(_Family(state, np.full(len(clamps), -1), np.stack([pos, neg], axis=1),
                                _activation_law(v_on), tuple(f"s({c.name})" for c in clamps)))
-        for el in nonlinear:
-            if isinstance(el, NonlinearConductance):
-                a, b = ix[el.node_a], ix[el.node_b]
+        for nl in nonlinear:
+            if isinstance(nl, NonlinearConductance):
+                a, b = ix[nl.node_a], ix[nl.node_b]
                 out.append(_Family(np.array([a]), np.array([b]), np.array([[a, b]]),
-                                   _user_law(el.current), (el.name,)))
+                                   _user_law(nl.current), (nl.name,)))
         return out
 
     # -- nonlinear evaluation ------------------------------------------------------------------
@@ -683,8 +684,9 @@ class _System:
         J[:, : self.n, : self.n] = M
         ctrl = self.controls.reshape(-1)
         for rows, sign in ((self.plus, 1.0), (self.minus, -1.0)):
-            np.add.at(J, (slice(None), np.repeat(rows, 3), ctrl), sign * grads.reshape(n_var, -1))
-        inverse = np.linalg.inv(J[:, : self.n, : self.n])
+            np.add.at(J, (slice(None), np.repeat(rows, 3), ctrl),  # type: ignore[arg-type]  # numpy stubs
+                      sign * grads.reshape(n_var, -1))
+        inverse = np.asarray(np.linalg.inv(J[:, : self.n, : self.n]), dtype=np.float64)
         self._chord[None if h is None else float(h)] = inverse
         return inverse
 

@@ -261,7 +261,7 @@ def mos_circuit(res: MosResult, geo: MosGeometry, l_loop: np.ndarray, n_v: int, 
         c_gate=flat(res.c_gate, n_v, n_c), r_channel=flat(res.r_channel, n_v, n_c),
         r_gate=flat(res.r_gate, n_v, n_c), r_access=flat(res.r_access, n_v, n_c),
         l_loop=flat(l_loop, n_v, n_c), c_overlap=flat(res.c_overlap, n_v, n_c),
-        contacted_ends=int(geo.contacted_ends.flat[0]),  # one value per sub-group
+        contacted_ends=2 if int(geo.contacted_ends.flat[0]) == 2 else 1,  # one value per sub-group
         name=name)
 
 

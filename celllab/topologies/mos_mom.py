@@ -49,7 +49,7 @@ def evaluate(deck: Any, corners: CornerSet, cells: Sequence[Any], geos: Sequence
         c_gate=flat(res.c_gate, n_v, n_c), r_channel=flat(res.r_channel, n_v, n_c),
         c_mom=per.capacitance, r_fingers=per.line_resistance, r_gate=flat(res.r_gate, n_v, n_c),
         r_access=flat(res.r_access, n_v, n_c), c_overlap=flat(res.c_overlap, n_v, n_c),
-        contacted_ends=int(cells[0].contacted_ends), r_vias=per.via_resistance,
+        contacted_ends=2 if int(cells[0].contacted_ends) == 2 else 1, r_vias=per.via_resistance,
         l_loop=flat(common.loop_inductance(corners, geos), n_v, n_c))
     sol = common.solve(net, freq, n_v, n_c, common.lumped_limit(deck, geos))
     roles = np.array([c.mos_device for c in cells])

@@ -508,7 +508,10 @@ def test_broadcast_over_variants_corners_bias() -> None:
         temperature=temperature[0, 2, 0],
         gate_doping=1e26,
     )
-    np.testing.assert_allclose(c[1, 2], single, rtol=1e-12)
+    # the surface potential is a root found to 1e-11 kT/q, and a batch stops iterating when its
+    # slowest member has converged, so a batched member may be one Newton step more exact than
+    # the same case alone: equal to well inside 1e-9, not to the last bit
+    np.testing.assert_allclose(c[1, 2], single, rtol=1e-9)
 
 
 def test_body_type_array_and_validation() -> None:
