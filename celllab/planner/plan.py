@@ -534,8 +534,10 @@ def _class_fills(block: BlockFile, layout: _Layout, cells: list[Candidate],
 
 
 def _budget_checks(block: BlockFile, cells_problem: FillProblem, solution: FillSolution,
-                   bindings: list[Binding], oxide_source: str, failure: float | None
-                   ) -> list[BudgetCheck]:
+                   bindings: list[Binding], oxide_source: str, failure: float | None,
+                   gap_area: float = float("inf")) -> list[BudgetCheck]:
+    """The budgets and constraints as the report shows them; ``gap_area``: the block's whole
+    gap area, m^2 (gate area cannot exceed it, so a larger oxide limit cannot bind)."""
     names = [r.name for r in block.region]
     out: list[BudgetCheck] = []
     for b in bindings:
@@ -545,6 +547,9 @@ def _budget_checks(block: BlockFile, cells_problem: FillProblem, solution: FillS
                                    note="each cell at its leakiest corner"))
         elif b.kind == "oxide":
             note = f"limit from {oxide_source}"
+            if b.limit is not None and b.limit > gap_area:
+                note += (f" ({b.limit / gap_area:.3g}x the block's whole gap area: it cannot "
+                         "bind in this block)")
             if failure is not None:
                 note += f"; fill failure fraction {failure / micro:.3g} ppm"
             out.append(BudgetCheck("thin-oxide gate area", "geometry (corner independent)",
@@ -615,7 +620,8 @@ def _assemble(block: BlockFile, prep: PreparedFill, solution: FillSolution,
     total = solution.copies.sum(axis=0)
     total_area = float(total @ problem.oxide_area)
     failure = oxide_failure_fraction(ctx.deck, oxide, mission, total_area) if oxide is not None else None
-    budgets = _budget_checks(block, problem, solution, bindings, oxide_source, failure)
+    gap_area = sum(cf.capacity for region in regions for cf in region.classes)
+    budgets = _budget_checks(block, problem, solution, bindings, oxide_source, failure, gap_area)
     corner_totals = [CornerTotals(name, float(np.nansum(total * [c.corner_cap[k] for c in cells])),
                                   float(np.nansum(total * [c.corner_leakage[k] for c in cells])))
                      for k, name in enumerate(ctx.corners)]

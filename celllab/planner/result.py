@@ -387,16 +387,20 @@ BUDGET_UNITS: dict[str, tuple[str, float]] = {
 }
 
 
+#: A budget unit as "per one" of it reads ("nF per gap", not "nF per gaps").
+_ONE = {"kinds": "kind", "gaps": "gap"}
+
+
 def _budget_dict(b: BudgetCheck, goal: str) -> dict[str, Any]:
     unit, factor = BUDGET_UNITS.get(b.name.split(":")[0], ("nF", nano))
     goal_unit, goal_factor = ("nF", nano) if goal == "max_useful_cap" else ("uA", micro)
-    if b.gain_in == "shortfall":
-        goal_unit, goal_factor = "nF less shortfall", nano
+    if b.gain_in == "shortfall":  # the plan falls short of a target: what a unit more closes
+        goal_unit, goal_factor = "nF of shortfall closed", nano
     price = None if b.shadow_price is None else b.shadow_price * factor / goal_factor
     return {
         "name": b.name, "policy": b.policy, "unit": unit, "used": b.used / factor,
         "limit": _opt(b.limit, factor), "binding": bool(b.binding),
-        "shadow_price": price, "shadow_price_unit": f"{goal_unit} per {unit}",
+        "shadow_price": price, "shadow_price_unit": f"{goal_unit} per {_ONE.get(unit, unit)}",
         "gain": _opt(b.gain, goal_factor), "gain_unit": goal_unit, "note": b.note,
     }
 
