@@ -192,19 +192,32 @@ def esd_events_for(inputs: FillInputs) -> tuple[Any, ...]:
     return (EsdEvent("hbm", inputs.hbm_V), EsdEvent("cdm", inputs.cdm_V))
 
 
-def wearout_answer(deck: Any, spec: Any, inputs: FillInputs) -> Any:
+def wearout_answer(deck: Any, spec: Any, inputs: FillInputs,
+                   corners: Sequence[str] | None = None) -> Any:
     """`fill_risk.fill_oxide_risk` for one cell filling ``inputs.area_mm2``."""
     from celllab.fill_risk import fill_oxide_risk
 
-    return fill_oxide_risk(deck, [spec], inputs.area_mm2, life_years=inputs.life_years,
-                           temperature_C=inputs.temperature_C, target_ppm=inputs.target_ppm)
+    return fill_oxide_risk(deck, [spec], inputs.area_mm2, corners=corners,
+                           life_years=inputs.life_years, temperature_C=inputs.temperature_C,
+                           target_ppm=inputs.target_ppm)
 
 
-def event_answer(deck: Any, spec: Any, inputs: FillInputs, event: Any) -> Any:
+def event_answer(deck: Any, spec: Any, inputs: FillInputs, event: Any,
+                 corners: Sequence[str] | None = None) -> Any:
     """`fill_risk.esd_exposure` of one event, the fill's capacitance on the rail."""
     from celllab.fill_risk import esd_exposure
 
-    return esd_exposure(deck, [spec], events=[event], fill_mm2=inputs.area_mm2)[0]
+    return esd_exposure(deck, [spec], events=[event], fill_mm2=inputs.area_mm2,
+                        corners=corners)[0]
+
+
+def cell_corners(cell: CellResult | None, deck: Any) -> list[str] | None:
+    """The cell's corners in the order the cell view lists them (the run's, typical first), those
+    the deck still defines; None: the deck's own order."""
+    if cell is None:
+        return None
+    names = [c.corner for c in cell.corners if c.corner in deck.corners]
+    return names or None
 
 
 # --- the answer as tables ---------------------------------------------------------------------
@@ -490,8 +503,10 @@ class FillRiskScreen(TaskScreen):
         started = time.perf_counter()
         events = esd_events_for(inputs)
         steps = 1 + len(events)
+        # the stored deck lists its corners in its own order: show them as the cell view does
+        corners = cell_corners(self.cell, self.deck)
         try:
-            risk = wearout_answer(self.deck, self.spec, inputs)
+            risk = wearout_answer(self.deck, self.spec, inputs, corners)
             exposures = []
             for k, event in enumerate(events):
                 if worker.is_cancelled:
@@ -499,7 +514,7 @@ class FillRiskScreen(TaskScreen):
                 self.post_message(FillRiskProgressed(
                     serial, k + 2, steps, f"{event.label} transient at "
                     f"{len(risk.corners)} corners"))
-                exposures.append(event_answer(self.deck, self.spec, inputs, event))
+                exposures.append(event_answer(self.deck, self.spec, inputs, event, corners))
         except CelllabError as exc:
             if not worker.is_cancelled:
                 self.post_message(FillRiskFailed(serial, list(exc.problems)))
