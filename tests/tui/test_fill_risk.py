@@ -175,6 +175,12 @@ async def test_fill_risk_refuses_bad_values_in_place(demo_catalog: Any, ui: Any)
         await ui.settle(pilot)
         assert screen.problems == [] and screen.answer is not None
         assert screen.answer.inputs.area_mm2 == 0.3
+        # the answer is longer than an 80x24 terminal: PgDn scrolls it while a field has focus
+        results = screen.query_one("#fr-results")
+        assert results.scroll_y == 0 and results.max_scroll_y > 0
+        await pilot.press("pagedown")
+        await pilot.pause()
+        assert results.scroll_y > 0 and isinstance(app.focused, Input)
 
         # beyond what the deck schema allows for a mission value
         await _fill(pilot, screen, {"temperature_C": "400"})

@@ -266,8 +266,12 @@ def verdict_text(risk: Any) -> Text:
         over = [c for c, ok in zip(risk.corners, risk.within_target) if not ok]
         text.append(" FAIL ", style="bold reverse red")
         text.append(f" over the {number(target)} ppm target at {', '.join(over)}")
-    text.append(f"\nlargest fill within the target: {number(risk.affordable_footprint_mm2[j])} mm² "
-                f"(worst corner {risk.worst_corner})")
+    affordable = float(risk.affordable_footprint_mm2[j])
+    if math.isinf(affordable):
+        text.append("\nno gate oxide wears out: the target sets no largest fill")
+    else:
+        text.append(f"\nlargest fill within the target: {number(affordable)} mm² "
+                    f"(worst corner {risk.worst_corner})")
     return text
 
 
@@ -303,8 +307,10 @@ def fault_table(cell: Any) -> Table | Text:
     return table
 
 
-def event_worst(exposure: Any, e: int = 0) -> int:
-    """Corner index of the smallest margin of event ``e``."""
+def event_worst(exposure: Any, e: int = 0) -> int | None:
+    """Corner index of the smallest margin of event ``e`` (None: no gate oxide)."""
+    if not np.any(np.isfinite(np.asarray(exposure.peak_oxide_V[e], dtype=float))):
+        return None
     return int(np.argmin(np.asarray(exposure.margin[e], dtype=float)))
 
 
@@ -313,9 +319,10 @@ def event_title(exposure: Any, e: int = 0) -> Text:
     ok = bool(np.all(exposure.survives[e]))
     text = Text(f"{exposure.events[e]}", style="bold")
     text.append(f"  unpowered, {number(exposure.fill_capacitance_nF)} nF of fill on the rail · ")
-    if not np.any(np.isfinite(exposure.peak_oxide_V[e])):
+    if j is None:
         text.append("no gate oxide", style="green")
-    elif ok:
+        return text
+    if ok:
         text.append("survives at every corner", style="green")
     else:
         broken = [c for c, s in zip(exposure.corners, exposure.survives[e]) if not s]
@@ -343,7 +350,7 @@ def event_note(exposure: Any, e: int = 0) -> Text:
     """Does the cell's own circuit (the pair's series path, a long line) keep the event off
     its oxide? The sentence of the worst corner."""
     j = event_worst(exposure, e)
-    note = exposure.notes[e][j] if exposure.notes and exposure.notes[e] else ""
+    note = exposure.notes[e][j] if j is not None and exposure.notes and exposure.notes[e] else ""
     return Text(f"  {note}" if note else "", style="dim")
 
 
@@ -373,8 +380,10 @@ class FillRiskScreen(TaskScreen):
     TASK_TITLE = "Fill risk"
     BINDINGS = [
         Binding("ctrl+r", "compute", "Compute"),
-        Binding("pagedown", "scroll_answer(1)", "Scroll answer down", show=False),
-        Binding("pageup", "scroll_answer(-1)", "Scroll answer up", show=False),
+        # priority: an input (which holds the focus while typing) would take them otherwise
+        Binding("pagedown", "scroll_answer(1)", "Scroll the answer down", show=False,
+                priority=True),
+        Binding("pageup", "scroll_answer(-1)", "Scroll the answer up", show=False, priority=True),
         Binding("escape", "back", "Back"),
     ]
 
