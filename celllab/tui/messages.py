@@ -233,3 +233,33 @@ class PlanFinished(Message):
         self.plan = plan
         self.problems = problems
         self.seconds = seconds
+
+
+class FillRiskProgressed(Message):
+    """The fill-risk worker started step ``step`` of ``steps`` (short text: what it computes)."""
+
+    def __init__(self, serial: int, step: int, steps: int, stage: str) -> None:
+        super().__init__()
+        self.serial = serial
+        self.step = step
+        self.steps = steps
+        self.stage = stage
+
+
+class FillRiskComputed(Message):
+    """The fill-risk worker answered (``answer``: tui.screens.fill_risk.FillAnswer)."""
+
+    def __init__(self, serial: int, answer: Any, seconds: float) -> None:
+        super().__init__()
+        self.serial = serial
+        self.answer = answer
+        self.seconds = seconds
+
+
+class FillRiskFailed(Message):
+    """The models refused the fill-risk question (located problems); nothing was computed."""
+
+    def __init__(self, serial: int, problems: list[Problem]) -> None:
+        super().__init__()
+        self.serial = serial
+        self.problems = problems

@@ -16,7 +16,9 @@ ABOUT_TEXT = f"""\
 Characterizes on-chip **decoupling cells** (MOS decaps, tied and cross-coupled CMOS pairs,
 MOM, stacks; in core rows or open regions, on the rail they decouple) from a process deck:
 capacitance and density, ESR, bandwidth, ESL and self-resonance, gate leakage, oxide field,
-TDDB life and HBM stress, at every corner of the deck.
+the TDDB failure rate per mm² of gate oxide over a mission profile, HBM and CDM events in
+time (peak oxide voltage, time above breakdown, margin) and what a broken oxide costs the
+supply, at every corner of the deck.
 Models: `{MODEL_VERSION}`.
 
 > **Caution.** {CAUTION}
@@ -30,7 +32,8 @@ process or library.
   `esd_safe and leakage_nA_per_nF <= 50`; names are the column names, units are in them.
 * **space** marks 2 to 5 rows, **v** compares them: metrics side by side, curves overlaid.
 * In a cell: **[ ]** step through metrics, C-V, |Z|, ESR, C_eff, circuit and flags;
-  **t** sets a target |Z| line; **s** sweeps one parameter over a range.
+  **t** sets a target |Z| line; **s** sweeps one parameter over a range; **f** asks whether
+  a fill of the cell survives a mission and a zap (also on a highlighted catalog row).
 * Ranking: **.** and **,** step along the Pareto front (or click a point), **o** opens it.
 * **worst** / **best** corner: per metric, the worst (best) value over the deck's corners.
   **≥** before a number: a lower bound (beyond the analysed frequency sweep).

@@ -74,6 +74,7 @@ class CatalogScreen(TaskScreen):
         Binding("d", "choose_deck", "Deck", show=False),
         Binding("o", "choose_corner", "Corner", show=False),
         Binding("w", "what_if", "What-if"),
+        Binding("f", "fill_risk", "Fill risk", show=False),
         Binding("space", "mark", "Mark"),
         Binding("v", "compare", "Compare marked"),
         Binding("right_square_bracket", "page(1)", "Next page", show=False),
@@ -440,6 +441,15 @@ class CatalogScreen(TaskScreen):
             return
         self.app.push_screen(CompareScreen([(n, d or self.lab.current_deck) for n, d in marked],
                                            self.lab.current_corner))
+
+    def action_fill_risk(self) -> None:
+        row = self.query_one(CatalogTable).highlighted_row()
+        if row is None:
+            self.notify("no cell highlighted", severity="warning")
+            return
+        from celllab.tui.screens.fill_risk import FillRiskScreen
+
+        self.app.push_screen(FillRiskScreen(str(row["name"]), row.get("deck") or self.lab.current_deck))
 
     def action_what_if(self) -> None:
         row = self.query_one(CatalogTable).highlighted_row()

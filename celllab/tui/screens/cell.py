@@ -153,6 +153,7 @@ class CellScreen(TaskScreen):
         Binding("w", "what_if", "What-if"),
         Binding("t", "set_target", "Target |Z|"),
         Binding("s", "sweep", "Sweep"),
+        Binding("f", "fill_risk", "Fill risk"),
         Binding("escape,backspace", "back", "Back"),
     ]
 
@@ -271,6 +272,11 @@ class CellScreen(TaskScreen):
         from celllab.tui.screens.sweep import SweepScreen
 
         self.app.push_screen(SweepScreen(self.cell_name, self.deck_name))
+
+    def action_fill_risk(self) -> None:
+        from celllab.tui.screens.fill_risk import FillRiskScreen
+
+        self.app.push_screen(FillRiskScreen(self.cell_name, self.deck_name, cell=self.cell))
 
     def action_what_if(self) -> None:
         from celllab.tui.screens.whatif import WhatIfScreen
