@@ -544,7 +544,7 @@ def deck_params(db: sqlite_utils.Database, deck: str) -> dict[str, Any]:
     """Full parameters of the current deck named ``deck`` (or of the deck with that hash)."""
     check_deck(db, deck)
     row = db.execute(
-        "SELECT params_json FROM decks WHERE (name = ? AND current = 1) OR deck_hash = ? "
+        "SELECT params_json, deck_hash FROM decks WHERE (name = ? AND current = 1) OR deck_hash = ? "
         "ORDER BY current DESC LIMIT 1",
         [deck, deck],
     ).fetchone()
@@ -555,4 +555,13 @@ def deck_params(db: sqlite_utils.Database, deck: str) -> dict[str, Any]:
             "no current deck of that name (only superseded ones; give a deck hash)",
             deck,
         )
-    return dict(json.loads(row[0]))
+    params = dict(json.loads(row[0]))
+    corners = params.get("corners")
+    if isinstance(corners, dict):
+        # the stored text sorts every key; the deck's own corner order (typical first) is the
+        # order its runs list them in
+        order = dict.fromkeys(name for (text,) in db.execute(
+            "SELECT corners_json FROM runs WHERE deck_hash = ? ORDER BY run_id", [row[1]])
+            for name in json.loads(text) if name in corners)
+        params["corners"] = {name: corners[name] for name in [*order, *corners] if name in corners}
+    return params

@@ -123,3 +123,22 @@ def test_a_build_with_esd_completes_results_an_earlier_no_esd_build_stored(tmp_p
         again = json.loads(capsys.readouterr().out)[0]
         assert again["inserted"] == 0 and again["unchanged"] == 2
     assert hbm_margins() == margins
+
+
+def test_the_stored_deck_keeps_its_corner_order(tmp_path, capsys) -> None:
+    """The catalog stores a deck as sorted JSON; read back, its corners come in the deck file's
+    order (typical first), the order a re-characterization from the stored deck uses."""
+    import tomllib
+
+    from celllab.catalog import open_catalog
+
+    cells = tmp_path / "cells.toml"
+    cells.write_text('[[family]]\nname = "t_n"\ntopology = "nmos_inversion"\nwidth_sites = [4]\n',
+                     encoding="utf-8")
+    cat = tmp_path / "c.sqlite"
+    assert main(["build", "--deck", DECK, "--cells", str(cells), "--catalog", str(cat), "--quiet",
+                 "--no-esd"]) == 0
+    in_file = list(tomllib.loads(Path(DECK).read_text(encoding="utf-8"))["corners"])
+    assert in_file[0] == "typ_25C" and in_file != sorted(in_file)  # the check can tell
+    with open_catalog(cat) as c:
+        assert list(c.deck_params("lumen130")["corners"]) == in_file
