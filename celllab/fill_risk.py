@@ -159,6 +159,16 @@ class FillOxideRisk:
     cells: list[CellOxideRisk]
     caution: str = CAUTION
 
+    @property
+    def corner_label(self) -> str:
+        """Which corner the headline figures are: "worst corner X", or "every corner" where the
+        corners do not differ (the mission sets the stress; a deck whose corners change nothing
+        the wear-out reads gives one answer for all)."""
+        ppm = np.asarray(self.failure_ppm, dtype=float)
+        if ppm.size > 1 and np.allclose(ppm, ppm[0], rtol=1e-9, atol=0.0):
+            return "every corner"
+        return f"worst corner {self.worst_corner}"
+
     def summary(self) -> str:
         """Plain-text answer, one line per fact."""
         m = self.mission
@@ -168,7 +178,7 @@ class FillOxideRisk:
             f"fill: {total:.4g} mm^2 of decap ({self.gate_area_mm2:.4g} mm^2 of gate oxide) for "
             f"{m.life_s / year:.3g} years at {m.temperature_K - zero_Celsius:.4g} degC, "
             f"supply x{m.supply_scale:.3g}",
-            f"worst corner {self.worst_corner}: {self.failure_ppm[j]:.3g} ppm oxide failures over "
+            f"{self.corner_label}: {self.failure_ppm[j]:.3g} ppm oxide failures over "
             f"the life ({self.fit[j]:.3g} FIT); target {m.target_fraction * 1e6:.3g} ppm -> "
             + ("within target" if self.within_target[j] else "EXCEEDS target"),
             f"largest fill of this mix within the target: {self.affordable_footprint_mm2[j]:.3g} mm^2",

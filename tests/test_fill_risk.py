@@ -99,3 +99,19 @@ def test_cell_without_gate_oxide_has_no_oxide_stress() -> None:
 def test_events_must_be_events() -> None:
     with pytest.raises(ValueError, match="not an EsdEvent"):
         esd_exposure(DECK, [TIED], events=["hbm 2kV"])  # type: ignore[list-item]
+
+
+def test_headline_names_the_worst_corner_only_where_corners_differ() -> None:
+    """Wear-out reads the mission and the deck's nominal oxide: equal at every corner, so the
+    headline says so instead of naming the first corner as "worst"; where the corners differ
+    the worst one is named."""
+    from dataclasses import replace
+
+    risk = fill_oxide_risk(DECK, [TIED], 0.3, life_years=10, temperature_C=125)
+    assert np.allclose(risk.failure_ppm, risk.failure_ppm[0])
+    assert risk.corner_label == "every corner" and "every corner:" in risk.summary()
+    ppm = np.array(risk.failure_ppm, dtype=float)
+    ppm[-1] *= 2.0
+    differing = replace(risk, failure_ppm=ppm, worst_corner=risk.corners[-1])
+    assert differing.corner_label == f"worst corner {risk.corners[-1]}"
+    assert f"worst corner {risk.corners[-1]}: " in differing.summary()

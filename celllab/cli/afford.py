@@ -83,7 +83,7 @@ def cmd_afford(args: argparse.Namespace) -> int:
         return 0
     if args.area_mm2 is None:
         print(f"affordable thin-oxide fill: {affordable:.4g} mm^2 of {', '.join(c.name for c in chosen)} "
-              f"(worst corner {risk.worst_corner}; figures below for 1 mm^2)")
+              f"({risk.corner_label}; figures below for 1 mm^2)")
     print(risk.summary().replace("\n" + risk.caution, ""))
     if esd:
         print(f"ESD with {esd_area:.4g} mm^2 of this fill on the rail:")
