@@ -271,16 +271,17 @@ def verdict_text(risk: Any) -> Text:
         text.append("\nno gate oxide wears out: the target sets no largest fill")
     else:
         text.append(f"\nlargest fill within the target: {number(affordable)} mm² "
-                    f"(worst corner {risk.worst_corner})")
+                    f"({risk.corner_label})")
     return text
 
 
 def wearout_table(risk: Any) -> Table:
     """Per corner: failure fraction and FIT over the mission, the affordable fill, the verdict."""
     table = _table("failures\nppm", "FIT\nover life", "largest fill\nmm²", "\ntarget")
+    one_answer = risk.corner_label == "every corner"  # no corner to single out
     for j, corner in enumerate(risk.corners):
         ok = bool(risk.within_target[j])
-        table.add_row(_corner_cell(corner, corner == risk.worst_corner),
+        table.add_row(_corner_cell(corner, corner == risk.worst_corner and not one_answer),
                       number(risk.failure_ppm[j]), number(risk.fit[j]),
                       number(risk.affordable_footprint_mm2[j]),
                       Text("within" if ok else "EXCEEDS", style="green" if ok else "bold red"))
