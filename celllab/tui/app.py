@@ -174,6 +174,20 @@ class CelllabApp(App[None]):
 
         return spec_from_result(cell)
 
+    def cell_definition(self, cell: Any, cell_name: str, deck_name: str | None
+                        ) -> tuple[Any, Any, Any]:
+        """(stored cell, deck, cell spec) of a catalog cell, for a view that computes it again;
+        ``cell`` None reads it from the catalog. Worker threads only. Raises CelllabError (one
+        located problem) when the catalog cannot give the deck or rebuild the definition."""
+        try:
+            if cell is None:
+                with self.using_catalog() as catalog:
+                    cell = catalog.cell(cell_name, deck_name)
+            return cell, self.deck_named(deck_name), self.spec_for(cell, deck_name)
+        except (KeyError, ValueError) as exc:  # ValueError: pydantic on a stored geometry
+            raise CelllabError([Problem("<catalog>", cell_name, "cannot rebuild the cell "
+                                        f"definition: {exc}", has_value=False)]) from None
+
     def block_files(self) -> list[Path]:
         """Block files for the planning view: those given, then the demo folder's."""
         return find_block_files(self.block_paths, [Path.cwd() / "process_decks" / "blocks"])

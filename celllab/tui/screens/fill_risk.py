@@ -431,19 +431,9 @@ class FillRiskScreen(TaskScreen):
     @work(thread=True, exclusive=True, group="fill-risk-prepare")
     def _prepare(self) -> None:
         try:
-            cell = self.cell
-            if cell is None:
-                with self.lab.using_catalog() as catalog:
-                    cell = catalog.cell(self.cell_name, self.deck_name)
-            deck = self.lab.deck_named(self.deck_name)
-            spec = self.lab.spec_for(cell, self.deck_name)
+            cell, deck, spec = self.lab.cell_definition(self.cell, self.cell_name, self.deck_name)
         except CelllabError as exc:
             self.post_message(QueryFailed(exc.problems, "prepare"))
-            return
-        except (KeyError, ValueError) as exc:  # ValueError: pydantic on a stored geometry
-            self.post_message(QueryFailed([Problem("<catalog>", self.cell_name,
-                                                   f"cannot rebuild the cell definition: {exc}",
-                                                   has_value=False)], "prepare"))
             return
         self.app.call_from_thread(self._ready, cell, deck, spec)
 

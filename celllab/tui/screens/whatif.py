@@ -273,20 +273,10 @@ class WhatIfScreen(TaskScreen):
     @work(thread=True, exclusive=True, group="whatif-prepare")
     def _prepare(self) -> None:
         try:
-            cell = self.original
-            if cell is None:
-                with self.lab.using_catalog() as catalog:
-                    cell = catalog.cell(self.cell_name, self.deck_name)
-            deck = self.lab.deck_named(self.deck_name)
-            spec = self.lab.spec_for(cell, self.deck_name)
+            cell, deck, spec = self.lab.cell_definition(self.original, self.cell_name, self.deck_name)
             import celllab.engine  # noqa: F401  (loaded now, so the first edit is quick)
         except CelllabError as exc:
             self.post_message(QueryFailed(exc.problems, "prepare"))
-            return
-        except (KeyError, ValueError) as exc:  # ValueError: pydantic on a stored geometry
-            self.post_message(QueryFailed([Problem("<catalog>", self.cell_name,
-                                                   f"cannot rebuild the cell definition: {exc}",
-                                                   has_value=False)], "prepare"))
             return
         self.spec, self.deck = spec, deck
         self.post_message(CellLoaded(cell, self.deck_name))
