@@ -651,7 +651,8 @@ def _assemble(block: BlockFile, prep: PreparedFill, solution: FillSolution,
         figures = pdn_figures(die, fill_cap + intrinsic, l_pkg, r_pkg, supply,
                               b.ripple_fraction, b.current_step_A)
         for c in chosen if lumped_notes else []:
-            if np.isfinite(c.bandwidth) and c.bandwidth < figures.f0:
+            # a bandwidth stored only as a lower bound below f0 says nothing about f0
+            if np.isfinite(c.bandwidth) and c.bandwidth < figures.f0 and not c.bandwidth_is_bound:
                 notes.append(f"{c.name}: bandwidth {c.bandwidth / 1e6:.3g} MHz is below the "
                              f"package resonance {figures.f0 / 1e6:.3g} MHz, so it decouples "
                              "less there than its cap_fF says (the swept |Z| includes this)")
