@@ -6,6 +6,8 @@ the simplest way), ratio value / reference and the goal. Figures:
 * engine: characterize N variants x the deck's corners (lumen130), extrapolated linearly to
   100 000; reference: one numpy element-wise pass (a complex reciprocal) over an array of the
   result's shape (N, corners, frequencies). Peak resident memory of that run (own process).
+  Once with the deck's ESD events and broken-oxide analysis (the default) and once without
+  (``esd=False``: the small-signal characterization alone, what the 10 s goal is about).
 * per cell-corner: engine time per cell x corner against one ngspice AC run of that cell's
   exported subcircuit over the same frequencies (ngspice from Debian, /usr/bin/ngspice).
 * store: ``Catalog.store_run`` of the characterized run against a plain ``executemany`` of the
@@ -112,10 +114,11 @@ from celllab.deck import load_deck
 from celllab.engine import characterize
 deck = load_deck(sys.argv[1])
 n = int(sys.argv[2])
+esd = sys.argv[4] == "esd"
 cells = variants(n)
-characterize(deck, cells[:2])
+characterize(deck, cells[:2], esd=esd)
 t0 = time.perf_counter()
-run = characterize(deck, cells)
+run = characterize(deck, cells, esd=esd)
 elapsed = time.perf_counter() - t0
 n_freq = max(len(c.response.freq_Hz) for c in run.cells[0].corners)
 print(json.dumps({"seconds": elapsed, "corners": len(run.corners), "n_freq": n_freq,
@@ -123,11 +126,12 @@ print(json.dumps({"seconds": elapsed, "corners": len(run.corners), "n_freq": n_f
 """
 
 
-def engine_figures(n: int) -> tuple[list[Figure], float]:
-    """Figures of the engine; also returns seconds per cell x corner."""
+def engine_figures(n: int, esd: bool = True) -> tuple[list[Figure], float]:
+    """Figures of the engine (with or without the ESD events); also returns seconds per cell x
+    corner."""
     import numpy as np
 
-    out = subprocess.run([PY, "-c", _ENGINE_CHILD, str(DECK), str(n), str(HERE)],
+    out = subprocess.run([PY, "-c", _ENGINE_CHILD, str(DECK), str(n), str(HERE), "esd" if esd else "no-esd"],
                          capture_output=True, text=True, check=True)
     info = json.loads(out.stdout.strip().splitlines()[-1])
     seconds, corners, n_freq = info["seconds"], info["corners"], info["n_freq"]
@@ -135,12 +139,13 @@ def engine_figures(n: int) -> tuple[list[Figure], float]:
     z = rng.uniform(1, 2, (n, corners, n_freq)) + 1j * rng.uniform(1, 2, (n, corners, n_freq))
     ref = best_of(lambda: np.reciprocal(z))
     per_cell_corner = seconds / (n * corners)
+    how = "" if esd else ", no ESD"
     figures = [
-        Figure(f"characterize 100k variants x {corners} corners (from {n:,})",
+        Figure(f"characterize 100k variants x {corners} corners{how} (from {n:,})",
                seconds * 100_000 / n, "s", None, "<= 10 s"),
-        Figure(f"engine vs one numpy pass over ({n:,}, {corners}, {n_freq}) complex",
+        Figure(f"engine{how} vs one numpy pass over ({n:,}, {corners}, {n_freq}) complex",
                seconds, "s", ref, "<= 30x"),
-        Figure(f"peak resident memory, {n:,} variants (process)",
+        Figure(f"peak resident memory, {n:,} variants{how} (process)",
                info["maxrss_kib"] / 1024, "MiB", None, "<= 1 GiB at 100k"),
     ]
     return figures, per_cell_corner
@@ -331,7 +336,9 @@ def main(argv: list[str] | None = None) -> int:
     rows = args.metric_rows or (1_200_000 if args.full else 120_000)
     print(f"machine: {os.cpu_count()} cores, {time.strftime('%Y-%m-%d %H:%M UTC', time.gmtime())}",
           flush=True)
-    figures, per_cc = engine_figures(n)
+    figures, _ = engine_figures(n, esd=False)
+    with_esd, per_cc = engine_figures(n)
+    figures += with_esd
     figures += ngspice_figure(per_cc)
     figures += store_figures(n)
     figures += query_figures(rows)

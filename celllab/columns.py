@@ -66,7 +66,8 @@ class Column:
     kind : {"number", "text", "bool"}
     digits : int        significant digits when shown to people
     compute : callable  metrics only: the value in ``unit`` from the SI figures of one cell at
-                        one corner (``records.CornerFigures``); the engine calls it
+                        one corner (``records.CornerFigures``); the engine calls it once per
+                        group with array figures, so it must also work element-wise on those
     bounds : str        for a bound flag: the metric it marks (1 = that metric's value is only a
                         lower bound; shown with "≥", see ``bound_flag``)
     """
@@ -129,7 +130,16 @@ class Column:
 
 
 def _per_nF(f: Any) -> float:
+    if not isinstance(f.c_lf_F, float):  # arrays of a whole group (``records.CornerFigures``)
+        import numpy as np
+
+        return np.where(f.c_lf_F > 0, from_si(f.leakage_A, "nA") / from_si(f.c_lf_F, "nF"), math.nan)  # type: ignore[no-any-return]
     return from_si(f.leakage_A, "nA") / from_si(f.c_lf_F, "nF") if f.c_lf_F > 0 else math.nan
+
+
+def _number(flag: Any) -> float:
+    """A bool figure as 1.0 / 0.0 (element-wise for an array of them)."""
+    return flag * 1.0 if not isinstance(flag, bool) else float(flag)
 
 
 #: Per cell x corner metrics, in display order; each computed from ``records.CornerFigures``.
@@ -148,14 +158,14 @@ METRICS: tuple[Column, ...] = (
            "C/sqrt(2), at most the self-resonance (a lower bound where bandwidth_is_bound)", "higher",
            compute=lambda f: from_si(f.bandwidth_Hz, "GHz")),
     Column("bandwidth_is_bound", "bool", "1 when bandwidth_GHz is only a lower bound", "lower", kind="bool",
-           compute=lambda f: float(f.bandwidth_is_bound), bounds="bandwidth_GHz"),
+           compute=lambda f: _number(f.bandwidth_is_bound), bounds="bandwidth_GHz"),
     Column("esl_pH", "pH", "equivalent series inductance", "lower",
            compute=lambda f: from_si(f.esl_H, "pH")),
     Column("srf_GHz", "GHz", "self-resonance frequency (above the deck's analysed band: computed from the "
            "equivalent circuit and flagged; a lower bound where srf_is_bound)", "higher",
            compute=lambda f: from_si(f.srf_Hz, "GHz")),
     Column("srf_is_bound", "bool", "1 when srf_GHz is only a lower bound: no resonance in the circuit up to it",
-           "lower", kind="bool", compute=lambda f: float(f.srf_is_bound), bounds="srf_GHz"),
+           "lower", kind="bool", compute=lambda f: _number(f.srf_is_bound), bounds="srf_GHz"),
     Column("tau_ps", "ps", "RC time constant ESR x C", "lower",
            compute=lambda f: from_si(f.tau_s, "ps")),
     Column("leakage_nA", "nA", "total leakage at the supply: gate tunnelling plus well-junction reverse "

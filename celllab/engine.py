@@ -7,7 +7,10 @@ frequency in one call. Python loops run over topologies, corners and result reco
 
 from __future__ import annotations
 
-import re
+import copy
+import dataclasses
+import functools
+import math
 from collections.abc import Callable, Sequence
 from typing import Any
 
@@ -22,9 +25,11 @@ from celllab.characterization.params import CornerSet
 from celllab.characterization.risk_inputs import inputs_from_group
 from celllab.deck.schema import AnalysisBand, Deck
 from celllab.records import (
+    METRIC_NAMES,
     METRICS,
     CellResult,
     CharacterizationRun,
+    CornerCircuits,
     CornerFigures,
     CornerResult,
     CVCurve,
@@ -73,9 +78,12 @@ def _characterize(deck: Deck, cells: Sequence[CellSpec], corner_set: CornerSet, 
         group_geo = [geometries[i] for i in idx]
         out = topologies.evaluate(topology, deck, corner_set, group_cells, group_geo, freq)
         risk = _risk(deck, corner_set, topology, out, group_cells, group_geo) if esd else {}
-        for k, i in enumerate(idx):
-            results[i] = _record(cells[i], geometries[i], corner_set, out, k, freq, risk.get(k),
-                                 esd_run=esd)
+        parts = out.parts if hasattr(out, "parts") else [(range(len(idx)), out)]
+        for local, part in parts:  # one per circuit structure
+            built = _records([group_cells[i] for i in local], [group_geo[i] for i in local], corner_set,
+                             part, freq, [risk.get(i) for i in local], esd)
+            for i, record in zip(local, built):
+                results[idx[i]] = record
         done += len(idx)
         if progress:
             progress(f"{deck.name}: {topology}", done, len(cells))
@@ -131,9 +139,20 @@ def _finite(x: float) -> float:
     return float(x) if np.isfinite(x) else float("nan")
 
 
+_WORD_CHARS = frozenset("ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789_")
+
+
 def _names(metric: str, flags: list[str]) -> bool:
-    word = re.compile(rf"(?<![A-Za-z0-9_]){re.escape(metric)}(?![A-Za-z0-9_])")
-    return any(word.search(f) for f in flags)
+    """True when a flag names ``metric`` as a word of its own: an occurrence with no letter,
+    digit or ``_`` on either side."""
+    n = len(metric)
+    for f in flags:
+        i = f.find(metric)
+        while i >= 0:
+            if (i == 0 or f[i - 1] not in _WORD_CHARS) and (i + n >= len(f) or f[i + n] not in _WORD_CHARS):
+                return True
+            i = f.find(metric, i + 1)
+    return False
 
 
 #: Columns only the ESD events and the broken-oxide figures fill (empty when they are not run).
@@ -144,8 +163,10 @@ ESD_EVENT_METRICS = ("hbm_oxide_peak_V", "hbm_over_vbd_ns", "hbm_margin_V", "cdm
 
 def _empty_metric_flags(metrics: dict[str, float], flags: list[str]) -> list[str]:
     """A flag for the metrics that came out empty or infinite and no flag explains yet."""
-    overflow = [k for k, v in metrics.items() if np.isinf(v) and not _names(k, flags)]
-    missing = [k for k, v in metrics.items() if np.isnan(v) and not _names(k, flags)]
+    overflow = [k for k, v in metrics.items() if math.isinf(v)]
+    missing = [k for k, v in metrics.items() if math.isnan(v)]
+    overflow = [k for k in overflow if not _names(k, flags)]
+    missing = [k for k in missing if not _names(k, flags)]
     out = []
     if overflow:
         out.append(f"out_of_range: {', '.join(overflow)} stored empty: the model overflows the float "
@@ -174,6 +195,9 @@ def _band_flags(out: Any, k: int, j: int, top_Hz: float) -> list[str]:
 
 def _record(spec: CellSpec, geo: Any, corners: CornerSet, group: Any, index: int, freq: np.ndarray,
             risk: tuple[CatalogRisk, int] | None = None, esd_run: bool = True) -> CellResult:
+    """The record of one variant, built corner by corner from scalars: the reference path that
+    ``_records`` (what ``characterize`` runs) builds in bulk; ``tests/test_engine_bulk.py`` holds
+    them equal."""
     out, k = group.row(index)
     corner_results = []
     notes = list(out.notes)
@@ -197,8 +221,7 @@ def _record(spec: CellSpec, geo: Any, corners: CornerSet, group: Any, index: int
         if not esd_run:  # say why the event columns are empty, before the generic flag does
             skipped = [name for name in ESD_EVENT_METRICS if np.isnan(m.get(name, 0.0))]
             if skipped:
-                flags.append(f"esd_not_run: {', '.join(skipped)} stored empty: built without the "
-                             "deck's ESD events (build --no-esd, characterize(esd=False))")
+                flags.append(_esd_not_run_flag(skipped))
         flags += _empty_metric_flags(m, flags)
         m = {key: _finite(v) for key, v in m.items()}
         cv = None
@@ -210,13 +233,174 @@ def _record(spec: CellSpec, geo: Any, corners: CornerSet, group: Any, index: int
             supply_V=float(out.supply_V[k, j]), metrics=m,
             response=FrequencyResponse(freq_Hz=freq.copy(), z_ohm=out.z_ohm[k, j].copy()), cv=cv, flags=flags))
     if risk is not None and risk[0].notes[risk[1] * len(corners.names)] != "no gate oxide":
-        notes.append(f"HBM {spec.name} at {corners.names[0]}: " + risk[0].notes[risk[1] * len(corners.names)])
-    geometry = {**spec.geometry, **{f"resolved_{key}": v for key, v in geo.as_dict().items() if key != "mom_layers"}}
-    geometry["resolved_mom_layers"] = [layer.name for layer in geo.mom_layers]
-    gate_area = geo.gate_area_um2 if geo.gate_area_um2 else geo.mom_plate_area_um2
+        notes.append(_hbm_note(spec, corners, risk[0].notes[risk[1] * len(corners.names)]))
     return CellResult(
         name=spec.name, cell_hash=spec.content_hash, family=spec.family, topology=spec.topology, oxide=spec.oxide,
-        geometry=geometry, area_um2=geo.area_um2, width_sites=spec.width_sites, height_rows=spec.height_rows,
-        gate_area_um2=gate_area, esd_safe=spec.esd_safe, corners=corner_results,
+        geometry=_geometry(spec, geo), area_um2=geo.area_um2, width_sites=spec.width_sites,
+        height_rows=spec.height_rows, gate_area_um2=_gate_area(geo), esd_safe=spec.esd_safe, corners=corner_results,
         netlist={cname: out.netlist_for(k, j) for j, cname in enumerate(corners.names)}, notes=notes,
         placement=spec.placement, rail=spec.rail)
+
+
+def _esd_not_run_flag(skipped: Sequence[str]) -> str:
+    return (f"esd_not_run: {', '.join(skipped)} stored empty: built without the deck's ESD events "
+            "(build --no-esd, characterize(esd=False))")
+
+
+def _hbm_note(spec: CellSpec, corners: CornerSet, note: str) -> str:
+    return f"HBM {spec.name} at {corners.names[0]}: " + note
+
+
+def _geometry(spec: CellSpec, geo: Any) -> dict[str, Any]:
+    """The stored geometry: the cell's fields, then every resolved value (``resolved_*``; MOM
+    layers by name)."""
+    geometry = {**spec.geometry, **{f"resolved_{name}": _copied(getattr(geo, name)) for name in _fields(type(geo))}}
+    geometry["resolved_mom_layers"] = [layer.name for layer in geo.mom_layers]
+    return geometry
+
+
+@functools.lru_cache(maxsize=64)
+def _fields(cls: type) -> tuple[str, ...]:
+    """A resolved geometry's stored fields (all but the MOM layers), in declaration order."""
+    return tuple(f.name for f in dataclasses.fields(cls) if f.name != "mom_layers")
+
+
+def _copied(value: Any) -> Any:
+    """``value`` as ``dataclasses.asdict`` copies it (an immutable scalar is itself)."""
+    return value if type(value) in (float, int, str, bool, type(None)) else copy.deepcopy(value)
+
+
+def _gate_area(geo: Any) -> float:
+    return geo.gate_area_um2 if geo.gate_area_um2 else geo.mom_plate_area_um2
+
+
+# ----------------------------------------------------------------------------- bulk records
+# ``_records`` builds the records of a whole circuit-structure part at once: every figure and
+# metric as an (n_variant, n_corner) array, flags only where a mask says one is due, circuits on
+# demand (``records.CornerCircuits``). Same values as ``_record`` (``tests/test_engine_bulk.py``).
+
+
+def _part_figures(part: Any, geos: Sequence[Any], risks: Sequence[tuple[CatalogRisk, int] | None],
+                  n_corner: int) -> CornerFigures:
+    """The figures of every variant x corner of one part, each an (n_variant, n_corner) array."""
+    n_v = part.n_variant
+    s = part.summary
+    try:
+        esl = np.broadcast_to(part.netlist.element("l_loop").value, (n_v * n_corner,)).reshape(n_v, n_corner)
+    except KeyError:
+        esl = s["esl_H"]
+    f = lambda a: np.asarray(a, dtype=float)  # noqa: E731
+    return CornerFigures(
+        area_um2=np.array([g.area_um2 for g in geos], dtype=float)[:, None], c_lf_F=f(s["c_lf_F"]),
+        cap_ox_F=f(part.cap_ox_F), esr_lf_ohm=f(s["esr_lf_ohm"]), esr_probe_ohm=f(s["esr_at_ohm"][..., 0]),
+        bandwidth_Hz=f(s["bandwidth_Hz"]), bandwidth_is_bound=np.asarray(s["bandwidth_is_bound"], dtype=bool),
+        esl_H=f(esl), srf_Hz=f(s["srf_Hz"]), srf_is_bound=np.asarray(s["srf_is_bound"], dtype=bool),
+        tau_s=f(s["tau_s"]), gate_leakage_A=f(part.gate_leakage_A), junction_leakage_A=f(part.junction_leakage_A),
+        e_ox_V_per_m=f(part.e_ox_V_per_m), tddb_rate_per_s_m2=f(part.tddb_rate_per_s_m2),
+        vbd_pulse_V=f(part.vbd_pulse_V), **_part_risk_figures(risks, n_v, n_corner))
+
+
+def _part_risk_figures(risks: Sequence[tuple[CatalogRisk, int] | None], n_v: int,
+                       n_corner: int) -> dict[str, np.ndarray]:
+    """``_risk_figures`` of every variant x corner as (n_variant, n_corner) arrays (NaN where
+    the variant has none)."""
+    if all(r is None for r in risks):
+        return {}
+    out = {name: np.full((n_v, n_corner), np.nan) for name in _RISK_FIELDS}
+    by_figures: dict[int, tuple[CatalogRisk, list[int], list[int]]] = {}  # one per circuit structure
+    for pos, risk in enumerate(risks):
+        if risk is not None:
+            _, positions, ks = by_figures.setdefault(id(risk[0]), (risk[0], [], []))
+            positions.append(pos)
+            ks.append(risk[1])
+    for fig, positions, ks in by_figures.values():
+        rows = np.asarray(ks)[:, None] * n_corner + np.arange(n_corner)
+        pos = np.asarray(positions)
+
+        def above(ev: Any, rows: np.ndarray = rows) -> np.ndarray:  # empty, not zero, without gate oxide
+            return np.where(np.isfinite(ev.peak_oxide_V[0, rows]), ev.time_above_s[0, rows], np.nan)
+
+        values = dict(
+            hbm_peak_oxide_V=np.abs(fig.hbm.peak_oxide_V[0, rows]), hbm_time_above_s=above(fig.hbm),
+            cdm_peak_oxide_V=np.abs(fig.cdm.peak_oxide_V[0, rows]), cdm_time_above_s=above(fig.cdm),
+            hbm_oxide_share=fig.hbm.shielding[0, rows], esd_series_helps=np.asarray(fig.series_helps)[rows],
+            fault_current_A=np.asarray(fig.fault_current_A)[rows], fault_power_W=np.asarray(fig.fault_power_W)[rows],
+            fault_survives=np.asarray(fig.fault_survives)[rows])
+        for name, v in values.items():
+            out[name][pos] = v
+    return out
+
+
+#: The CornerFigures fields ``_risk_figures`` fills.
+_RISK_FIELDS = ("hbm_peak_oxide_V", "hbm_time_above_s", "cdm_peak_oxide_V", "cdm_time_above_s", "hbm_oxide_share",
+                "esd_series_helps", "fault_current_A", "fault_power_W", "fault_survives")
+
+
+def _part_band_flags(part: Any, top_Hz: float) -> dict[tuple[int, int], list[str]]:
+    """``_band_flags`` of the variant x corner entries that have any, keyed (variant, corner)."""
+    s = part.summary
+    due = np.zeros((part.n_variant, part.n_corner), dtype=bool)
+    for name in ("srf", "bandwidth"):
+        due |= np.asarray(s[f"{name}_is_bound"], dtype=bool) | np.asarray(s[f"{name}_beyond_band"], dtype=bool)
+    return {(int(k), int(j)): _band_flags(part, int(k), int(j), top_Hz) for k, j in np.argwhere(due)}
+
+
+def _records(cells: Sequence[CellSpec], geos: Sequence[Any], corners: CornerSet, part: Any, freq: np.ndarray,
+             risks: Sequence[tuple[CatalogRisk, int] | None], esd_run: bool) -> list[CellResult]:
+    """The records of every variant of one part (one circuit structure), in its variant order."""
+    names = corners.names
+    n_c = len(names)
+    figures = _part_figures(part, geos, risks, n_c)
+    raw = np.stack([np.broadcast_to(np.asarray(metric.compute(figures), dtype=float),  # type: ignore[misc]
+                                    (part.n_variant, n_c)) for metric in METRICS], axis=-1)
+    metric_rows = np.where(np.isfinite(raw), raw, np.nan).tolist()   # (n_v, n_c, n_metric) floats
+    nan, inf = np.isnan(raw), np.isinf(raw)
+    esd_columns = [METRIC_NAMES.index(name) for name in ESD_EVENT_METRICS if name in METRIC_NAMES]
+    skipped = (nan[..., esd_columns] if not esd_run and esd_columns
+               else np.zeros((part.n_variant, n_c, 0), dtype=bool))
+    # metrics left empty and not yet explained: the skipped event columns are, by their flag
+    unexplained = nan | inf
+    if skipped.shape[-1]:
+        unexplained[..., esd_columns] &= ~skipped
+    empty = unexplained.any(axis=-1)
+    band = _part_band_flags(part, float(freq[-1]))
+    temperature = [float(from_si(t, "degC")) for t in corners.temperature_K]
+    supply = np.asarray(part.supply_V, dtype=float).tolist()
+    has_cv = part.cv_bias is not None
+    if has_cv:
+        cv_op_V = np.asarray(part.cv_operating_V, dtype=float).tolist()
+        cv_op_F = np.asarray(part.cv_operating_F, dtype=float).tolist()
+    esd_names = [METRIC_NAMES[k] for k in esd_columns]
+    results = []
+    for k, (spec, geo, risk) in enumerate(zip(cells, geos, risks)):
+        corner_results = []
+        for j, cname in enumerate(names):
+            flags = list(part.flags[k][j])
+            flags += band.get((k, j), ())
+            if risk is not None:
+                flags += [f for f in risk[0].flags[risk[1] * n_c + j] if f not in flags]
+            if skipped.shape[-1] and skipped[k, j].any():
+                flags.append(_esd_not_run_flag([n for n, s in zip(esd_names, skipped[k, j]) if s]))
+            if empty[k, j]:
+                flags += _empty_metric_flags({METRIC_NAMES[m]: float(raw[k, j, m])
+                                              for m in np.flatnonzero(unexplained[k, j])}, flags)
+            cv = None
+            if has_cv:
+                cv = CVCurve(bias_V=np.asarray(part.cv_bias[k, j], dtype=float),
+                             cap_F=np.asarray(part.cv_cap[k, j], dtype=float),
+                             operating_bias_V=cv_op_V[k][j], operating_cap_F=cv_op_F[k][j])
+            corner_results.append(CornerResult(
+                corner=cname, temperature_C=temperature[j], supply_V=supply[k][j],
+                metrics=dict(zip(METRIC_NAMES, metric_rows[k][j])),
+                response=FrequencyResponse(freq_Hz=freq.copy(), z_ohm=part.z_ohm[k, j].copy()), cv=cv,
+                flags=flags))
+        notes = list(part.notes)
+        if risk is not None and risk[0].notes[risk[1] * n_c] != "no gate oxide":
+            notes.append(_hbm_note(spec, corners, risk[0].notes[risk[1] * n_c]))
+        results.append(CellResult(
+            name=spec.name, cell_hash=spec.content_hash, family=spec.family, topology=spec.topology,
+            oxide=spec.oxide, geometry=_geometry(spec, geo), area_um2=geo.area_um2, width_sites=spec.width_sites,
+            height_rows=spec.height_rows, gate_area_um2=_gate_area(geo), esd_safe=spec.esd_safe,
+            corners=corner_results, netlist=CornerCircuits(names, part.netlist_for, k), notes=notes,
+            placement=spec.placement, rail=spec.rail))
+    return results

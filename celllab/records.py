@@ -10,6 +10,7 @@ responses are stored in SI (Hz, ohm) as numpy arrays.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable, Iterator, Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -34,13 +35,16 @@ MetricInfo = Column
 __all__ = [
     "CELL_COLUMNS", "METRICS", "METRIC_BY_NAME", "METRIC_NAMES", "Better", "CVCurve", "CellResult",
     "CharacterizationRun", "CornerFigures", "CornerResult", "FrequencyResponse", "MetricInfo", "corner_bounds", "corner_metrics",
-    "netlist_from_dict", "netlist_to_dict",
+    "netlist_from_dict", "netlist_to_dict", "CornerCircuits",
 ]
 
 
 @dataclass(frozen=True)
 class CornerFigures:
     """SI figures of one cell at one corner: what each metric (``columns.METRICS``) is computed from.
+
+    The engine also builds one whose fields are (n_variant, n_corner) arrays, to compute a whole
+    group's metrics at once; every ``compute`` works element-wise on both.
 
     The engine fills them from a topology's group result. SRF and bandwidth above the analysed
     band are computed from the circuit (flagged); where the circuit shows none up to the search
@@ -66,7 +70,12 @@ class CornerFigures:
 
     @property
     def leakage_A(self) -> float:
-        """Total leakage at the supply, A: gate plus junction (a junction part not modelled counts 0)."""
+        """Total leakage at the supply, A: gate plus junction (a junction part not modelled counts 0).
+
+        Figures may also be arrays (the engine computes a part's metrics at once): then element-wise.
+        """
+        if isinstance(self.junction_leakage_A, np.ndarray):
+            return self.gate_leakage_A + np.where(np.isnan(self.junction_leakage_A), 0.0, self.junction_leakage_A)
         junction = 0.0 if math.isnan(self.junction_leakage_A) else self.junction_leakage_A
         return self.gate_leakage_A + junction
     # ESD events of the deck's [esd] table and one broken oxide (NaN: not computed / no oxide)
@@ -124,6 +133,44 @@ class CornerResult:
     response: FrequencyResponse
     cv: CVCurve | None = None
     flags: list[str] = field(default_factory=list)
+
+
+class CornerCircuits(Mapping[str, Any]):
+    """Corner name -> one-variant equivalent circuit, each built on first use and kept.
+
+    ``build(variant, corner_index)`` gives the circuit (``topologies.GroupResult.netlist_for``).
+    A library build reads few of them before storing, so the engine hands this instead of
+    building every variant's circuits up front. Compares, copies and pickles as a plain dict.
+    """
+
+    __slots__ = ("_corners", "_build", "_variant", "_built")
+
+    def __init__(self, corners: Sequence[str], build: Callable[[int, int], Any], variant: int):
+        self._corners = {name: j for j, name in enumerate(corners)}
+        self._build = build
+        self._variant = variant
+        self._built: dict[str, Any] = {}
+
+    def __getitem__(self, corner: str) -> Any:
+        try:
+            return self._built[corner]
+        except KeyError:
+            pass
+        j = self._corners[corner]  # KeyError for an unknown corner, as a dict
+        netlist = self._built[corner] = self._build(self._variant, j)
+        return netlist
+
+    def __iter__(self) -> Iterator[str]:
+        return iter(self._corners)
+
+    def __len__(self) -> int:
+        return len(self._corners)
+
+    def __repr__(self) -> str:
+        return repr(dict(self))
+
+    def __reduce__(self) -> tuple[Any, ...]:
+        return (dict, (dict(self),))
 
 
 @dataclass

@@ -293,6 +293,7 @@ def extend_beyond_sweep(
     search_top: ArrayLike,
     points_per_decade: int = 10,
     fraction: float = DEFAULT_FRACTION,
+    impedance_rows: Callable[[FloatArray, NDArray[np.intp]], ComplexArray] | None = None,
 ) -> dict[str, FloatArray]:
     """Self-resonance and RC cutoff above the sweep, from the circuit itself.
 
@@ -307,6 +308,9 @@ def extend_beyond_sweep(
     search_top : array_like   (n_variant,) highest frequency searched per row (where the circuit
                               still describes the cell), Hz
     points_per_decade : int   coarse grid of the search, refined in its bracket
+    impedance_rows : callable, optional   ``(freq (k, n), rows (k,)) -> Z (k, n)`` of only the
+                           given rows: then only the rows searched are evaluated (each row's
+                           result is the same; without it every row is evaluated each step)
 
     Returns
     -------
@@ -326,7 +330,14 @@ def extend_beyond_sweep(
     top = np.broadcast_to(np.asarray(search_top, dtype=float), c.shape)
     decades = max(float(np.log10(np.max(top) / f_top)), 1.0 / points_per_decade)
     grid = f_top * np.logspace(0.0, decades, int(np.ceil(decades * points_per_decade)) + 1)
-    z = impedance(grid)
+    wanted_any = np.asarray(need_srf, dtype=bool) | np.asarray(need_bandwidth, dtype=bool)
+    if impedance_rows is None:
+        z = impedance(grid)
+    else:  # rows searched for neither stay NaN: never found, never wanted
+        z = np.full(c.shape + grid.shape, np.nan, dtype=complex)
+        some = np.flatnonzero(wanted_any)
+        if some.size:
+            z[some] = impedance_rows(np.broadcast_to(grid, (some.size, grid.size)), some)
     g_srf = -_omega(grid) * np.imag(z)  # > 0 while capacitive
     g_bw = effective_capacitance(grid, z, l_series) / c[:, None] - fraction
 
@@ -336,24 +347,32 @@ def extend_beyond_sweep(
         k = np.clip(np.argmax(below, axis=-1), 1, grid.size - 1)
         return grid[k - 1], grid[k], found
 
-    def impedance_at(f: FloatArray) -> ComplexArray:
-        return impedance(f[:, None])[:, 0]
+    def impedance_at(f: FloatArray, rows: NDArray[np.intp]) -> ComplexArray:
+        """Z of ``rows`` at one frequency each (f: (rows,))."""
+        if impedance_rows is not None:
+            return impedance_rows(f[:, None], rows)[:, 0]
+        full = np.full(c.shape, f_top)
+        full[rows] = f
+        return impedance(full[:, None])[rows, 0]
 
-    def refine(g_grid: FloatArray, need: ArrayLike, g: Callable[[FloatArray], FloatArray]) -> FloatArray:
+    def refine(g_grid: FloatArray, need: ArrayLike,
+               g: Callable[[FloatArray, NDArray[np.intp]], FloatArray]) -> FloatArray:
         lo, hi, found = first(g_grid)
         wanted = np.asarray(need, dtype=bool)
         search = wanted & found
         root = np.full(c.shape, np.inf)
-        if np.any(search):  # rows not searched get an empty bracket, so they cost no iterations
-            root = bracketed_crossing(g, np.where(search, lo, hi), hi)
+        rows = np.flatnonzero(search)
+        if rows.size:  # each row's bracket is refined on its own; rows not searched cost nothing
+            root[rows] = bracketed_crossing(lambda f: g(f, rows), lo[rows], hi[rows])
         found = search & (root <= top)
         return np.where(wanted, np.where(found, root, np.inf), np.nan)
 
     return {
-        "srf_Hz": refine(g_srf, need_srf, lambda f: -_omega(f) * np.imag(impedance_at(f))),
+        "srf_Hz": refine(g_srf, need_srf, lambda f, rows: -_omega(f) * np.imag(impedance_at(f, rows))),
         "bandwidth_rc_Hz": refine(
             g_bw, need_bandwidth,
-            lambda f: -1.0 / (_omega(f) * (np.imag(impedance_at(f)) - _omega(f) * l_series)) / c - fraction),
+            lambda f, rows: -1.0 / (_omega(f) * (np.imag(impedance_at(f, rows)) - _omega(f) * l_series[rows]))
+            / c[rows] - fraction),
     }
 
 

@@ -131,14 +131,32 @@ class Element:
         return sizes
 
     def variant(self, index: int) -> Element:
-        """This element with plain float values for one variant."""
+        """This element with plain float values for one variant.
 
-        def pick(v: FloatArray | float) -> float:
-            arr = np.asarray(v, dtype=float)
-            return float(arr) if arr.ndim == 0 else float(arr[index])
+        Built without ``__post_init__``: every variant's values were checked when this element
+        was made, and one variant's plain floats pass the same checks (``_checked_variant`` is
+        the checking twin; ``tests/physics/test_netlist_variant.py`` holds them equal).
+        """
+        new = object.__new__(Element)
+        fields_ = new.__dict__
+        fields_.update(self.__dict__)
+        fields_["value"] = _pick(self.value, index)
+        if self.c_total is not None:
+            fields_["c_total"] = _pick(self.c_total, index)
+        return new
 
-        c = None if self.c_total is None else pick(self.c_total)
-        return replace(self, value=pick(self.value), c_total=c)
+    def _checked_variant(self, index: int) -> Element:
+        """``variant`` through the constructor and its checks."""
+        c = None if self.c_total is None else _pick(self.c_total, index)
+        return replace(self, value=_pick(self.value, index), c_total=c)
+
+
+def _pick(v: FloatArray | float, index: int) -> float:
+    """One variant's value as a plain float (a scalar serves every variant)."""
+    if type(v) is float:
+        return v
+    arr = np.asarray(v, dtype=float)
+    return float(arr) if arr.ndim == 0 else float(arr[index])
 
 
 @dataclass(frozen=True)
@@ -201,10 +219,33 @@ class Netlist:
         return tuple(seen)
 
     def variant(self, index: int) -> Netlist:
-        """The netlist of one variant: every element value a plain float (for rendering)."""
+        """The netlist of one variant: every element value a plain float (for rendering).
+
+        Names, ports and nodes were checked when this netlist was made and one variant keeps
+        them, so it is built without ``__post_init__`` (``_checked_variant``: the checking twin).
+        """
         if not -self.n_variant <= index < self.n_variant:
             raise IndexError(f"variant {index} out of range for {self.n_variant} variants")
-        return Netlist(self.name, tuple(el.variant(index) for el in self.elements), self.ports)
+        new = object.__new__(Netlist)
+        new.__dict__.update(name=self.name, elements=tuple(el.variant(index) for el in self.elements),
+                            ports=self.ports, _n_variant=1)
+        return new
+
+    def _checked_variant(self, index: int) -> Netlist:
+        """``variant`` through the constructors and their checks."""
+        if not -self.n_variant <= index < self.n_variant:
+            raise IndexError(f"variant {index} out of range for {self.n_variant} variants")
+        return Netlist(self.name, tuple(el._checked_variant(index) for el in self.elements), self.ports)
+
+    def take(self, rows: ArrayLike) -> Netlist:
+        """The netlist of the given variants, in that order (a value shared by all stays one)."""
+        idx = np.asarray(rows, dtype=np.intp)
+
+        def sub(v: FloatArray | float | None) -> FloatArray | float | None:
+            return v if v is None or np.ndim(v) == 0 else np.asarray(v)[idx]
+
+        return Netlist(self.name, tuple(replace(el, value=sub(el.value), c_total=sub(el.c_total))
+                                        for el in self.elements), self.ports)
 
     def with_values(
         self, updates: Mapping[str, ArrayLike | tuple[ArrayLike, ArrayLike]]

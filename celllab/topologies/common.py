@@ -66,12 +66,15 @@ class MergedGroup:
     """Several GroupResults (sub-groups with different circuit structure) in one variant order."""
 
     parts: list[tuple[list[int], GroupResult]]
+    _rows: dict[int, tuple[GroupResult, int]] = field(default_factory=dict, init=False, repr=False, compare=False)
 
     def row(self, variant: int) -> tuple[GroupResult, int]:
-        for idx, part in self.parts:
-            if variant in idx:
-                return part, idx.index(variant)
-        raise IndexError(variant)
+        if not self._rows:
+            self._rows.update({i: (part, k) for idx, part in self.parts for k, i in enumerate(idx)})
+        try:
+            return self._rows[variant]
+        except KeyError:
+            raise IndexError(variant) from None
 
 
 @dataclass(frozen=True)
@@ -142,7 +145,9 @@ def _beyond_band(net: Netlist, freq: np.ndarray, summary: dict[str, np.ndarray],
         return out
     top = np.maximum(top, freq[-1])
     ext = impedance.extend_beyond_sweep(lambda f: _broadcast_rows(solve_impedance(net, f), n), float(freq[-1]),
-                                        summary["c_lf_F"], l_series, need_srf, need_bw, top)
+                                        summary["c_lf_F"], l_series, need_srf, need_bw, top,
+                                        impedance_rows=lambda f, rows: _broadcast_rows(
+                                            solve_impedance(net.take(rows), f), len(rows)))
     srf = np.where(need_srf, ext["srf_Hz"], srf)
     out["srf_is_bound"] = np.isposinf(srf)
     srf = np.where(out["srf_is_bound"], top, srf)

@@ -158,3 +158,24 @@ def test_bandwidth_capped_at_the_srf() -> None:
     # Source: definition: above its self-resonance a decap is inductive, so the usable band ends there
     np.testing.assert_allclose(imp.capped_bandwidth([1e9, 5e9, np.inf, 2e9], [3e9, 4e9, 6e9, np.inf]),
                                [1e9, 4e9, 6e9, 2e9])
+
+
+def test_searching_only_the_rows_asked_for_gives_each_row_the_same_result() -> None:
+    # No outside source: an equivalence check of two ways to run the same search. With
+    # ``impedance_rows`` only rows still searched are solved; each row's result is unchanged
+    rng = np.random.default_rng(5)
+    n = 12
+    r, c, l_loop = rng.uniform(50, 500, n), rng.uniform(0.5e-12, 2e-12, n), rng.uniform(1e-12, 1e-11, n)
+    net = Netlist("line", (Element("L", "l_loop", "vdd", "a", l_loop),
+                           Element("RCLINE", "ch", "vss", "a", r, c, contacted_ends=2)))
+    top = float((4.7526 / (2 * np.pi * r * c)).min()) / 100
+    need_srf, need_bw = rng.random(n) < 0.5, rng.random(n) < 0.3
+    need_srf[0], need_bw[1] = True, True
+    search_top = np.where(rng.random(n) < 0.2, 2 * top, 1e5 * top)
+    args = (top, c, l_loop, need_srf, need_bw, search_top)
+    whole = imp.extend_beyond_sweep(lambda f: solve_impedance(net, f), *args)
+    rows = imp.extend_beyond_sweep(lambda f: solve_impedance(net, f), *args,
+                                   impedance_rows=lambda f, k: solve_impedance(net.take(k), f))
+    for key in ("srf_Hz", "bandwidth_rc_Hz"):
+        np.testing.assert_array_equal(rows[key], whole[key])
+    assert np.isfinite(whole["srf_Hz"][0]) and np.isnan(whole["bandwidth_rc_Hz"][~need_bw]).all()

@@ -1,0 +1,167 @@
+"""The engine's bulk record path (``engine._records``, what ``characterize`` runs) against its
+reference path (``engine._record``, one variant and one corner at a time from scalars).
+
+No outside source applies: these are equivalence checks between two ways of computing the same
+values (the values themselves are checked against outside sources in ``tests/test_engine.py``).
+Every stored value must agree exactly.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+import pickle
+import re
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from celllab import engine, topologies
+from celllab.cells import CellSpec, load_cells, resolve
+from celllab.characterization.params import CornerSet
+from celllab.deck import load_deck
+from celllab.records import METRICS, CornerCircuits, CornerFigures, netlist_to_dict
+
+DECK = "process_decks/lumen130.toml"
+CELLS = "process_decks/cells/lumen130_cells.toml"
+
+
+def _reference(deck, cells, esd):
+    """Every cell's record through ``engine._record`` (the per-variant scalar path)."""
+    corners = CornerSet.from_deck(deck, None)
+    geos = [resolve(c, deck) for c in cells]
+    freq = engine.sweep_frequencies(deck.analysis)
+    out = {}
+    with np.errstate(all="ignore"):
+        groups: dict[str, list[int]] = {}
+        for i, c in enumerate(cells):
+            groups.setdefault(c.topology, []).append(i)
+        for topology, idx in groups.items():
+            g_cells, g_geos = [cells[i] for i in idx], [geos[i] for i in idx]
+            group = topologies.evaluate(topology, deck, corners, g_cells, g_geos, freq)
+            risk = engine._risk(deck, corners, topology, group, g_cells, g_geos) if esd else {}
+            for k, i in enumerate(idx):
+                out[cells[i].name] = engine._record(cells[i], geos[i], corners, group, k, freq, risk.get(k),
+                                                    esd_run=esd)
+    return out
+
+
+def _same(a, b, where: str) -> None:
+    if isinstance(a, float):
+        assert type(b) is float and (a == b or (math.isnan(a) and math.isnan(b))), (where, a, b)
+    elif isinstance(a, np.ndarray):
+        np.testing.assert_array_equal(a, b, err_msg=where)
+        assert a.dtype == b.dtype, where
+    elif isinstance(a, dict):
+        assert list(a) == list(b), where
+        for k in a:
+            _same(a[k], b[k], f"{where}.{k}")
+    elif isinstance(a, list):
+        assert len(a) == len(b), where
+        for k, (x, y) in enumerate(zip(a, b)):
+            _same(x, y, f"{where}[{k}]")
+    else:
+        assert type(a) is type(b) and a == b, (where, a, b)
+
+
+def _compare(bulk, ref) -> None:
+    for cell in bulk:
+        want = ref[cell.name]
+        for f in dataclasses.fields(cell):
+            if f.name in ("corners", "netlist"):
+                continue
+            _same(getattr(want, f.name), getattr(cell, f.name), f"{cell.name}.{f.name}")
+        assert list(cell.netlist) == list(want.netlist)
+        for corner in want.netlist:
+            assert netlist_to_dict(cell.netlist[corner]) == netlist_to_dict(want.netlist[corner])
+            assert cell.netlist[corner] == want.netlist[corner]
+        for c, w in zip(cell.corners, want.corners, strict=True):
+            where = f"{cell.name}@{w.corner}"
+            _same(w.corner, c.corner, where)
+            _same(w.temperature_C, c.temperature_C, where)
+            _same(w.supply_V, c.supply_V, where)
+            _same(w.metrics, c.metrics, f"{where}.metrics")
+            _same(w.flags, c.flags, f"{where}.flags")
+            _same(w.response.freq_Hz, c.response.freq_Hz, f"{where}.freq")
+            _same(w.response.z_ohm, c.response.z_ohm, f"{where}.z")
+            assert (w.cv is None) == (c.cv is None)
+            if w.cv is not None:
+                for name in ("bias_V", "cap_F", "operating_bias_V", "operating_cap_F"):
+                    _same(getattr(w.cv, name), getattr(c.cv, name), f"{where}.cv.{name}")
+
+
+@pytest.fixture(scope="module")
+def deck():
+    return load_deck(DECK)
+
+
+def _variants(n: int) -> list[CellSpec]:
+    """Sizes from tiny to large (SRF and bandwidth bounds, beyond-band values), two structures."""
+    return [CellSpec(name=f"v{i}", topology="nmos_inversion", width_sites=4 + 97 * i,
+                     fingers=1 + i % 3, height_rows=1 + i % 7, contacted_ends=1 + i % 2)
+            for i in range(n)]
+
+
+def test_bulk_records_equal_the_per_variant_path_without_esd(deck) -> None:
+    cells = load_cells(CELLS, deck) + _variants(24)
+    bulk = engine.characterize(deck, cells, esd=False)
+    assert {c.name for c in bulk.cells} == {c.name for c in cells}
+    assert any(f.startswith("esd_not_run") for c in bulk.cells for k in c.corners for f in k.flags)
+    assert any("_beyond_band" in f or "_is_bound" in f for c in bulk.cells for k in c.corners for f in k.flags)
+    _compare(bulk.cells, _reference(deck, cells, esd=False))
+
+
+def test_bulk_records_equal_the_per_variant_path_with_esd(deck) -> None:
+    cells = load_cells(CELLS, deck)
+    picked = list({c.topology: c for c in cells}.values()) + _variants(4)  # one cell per topology
+    bulk = engine.characterize(deck, picked, esd=True)
+    assert any(not math.isnan(k.metrics["hbm_oxide_peak_V"]) for c in bulk.cells for k in c.corners)
+    _compare(bulk.cells, _reference(deck, picked, esd=True))
+
+
+_figure = st.one_of(st.floats(allow_nan=True, allow_infinity=True, width=64), st.sampled_from([0.0, -0.0]))
+
+
+def _strategy(name: str) -> st.SearchStrategy:
+    if name.endswith("_is_bound"):
+        return st.booleans()
+    if name == "area_um2":  # a cell's footprint is never empty (a Python float would not divide by 0)
+        return st.floats(min_value=1e-6, max_value=1e9)
+    return _figure
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.lists(st.fixed_dictionaries({f.name: _strategy(f.name) for f in dataclasses.fields(CornerFigures)}),
+                min_size=1, max_size=6))
+def test_every_metric_computes_element_wise_as_it_does_per_corner(rows) -> None:
+    arrays = CornerFigures(**{name: np.array([r[name] for r in rows]).reshape(-1, 1) for name in rows[0]})
+    with np.errstate(all="ignore"):
+        for metric in METRICS:
+            got = np.broadcast_to(np.asarray(metric.compute(arrays), dtype=float), (len(rows), 1))
+            for k, r in enumerate(rows):
+                want = float(metric.compute(CornerFigures(**{n: (bool(v) if n.endswith("_is_bound") else float(v))
+                                                             for n, v in r.items()})))
+                assert got[k, 0] == want or (math.isnan(want) and math.isnan(got[k, 0])), (metric.name, r)
+
+
+@given(st.sampled_from(["esr_ohm", "cap_fF", "srf_GHz", "a.b", "x-y"]),
+       st.lists(st.text(alphabet="esr_ohmcapfF GHz.,:;-x()ab", max_size=30), max_size=4))
+def test_a_flag_names_a_metric_only_as_a_word_of_its_own(metric, flags) -> None:
+    word = re.compile(rf"(?<![A-Za-z0-9_]){re.escape(metric)}(?![A-Za-z0-9_])")
+    assert engine._names(metric, flags) == any(word.search(f) for f in flags)
+
+
+def test_corner_circuits_behave_as_a_dict(deck) -> None:
+    run = engine.characterize(deck, _variants(3), esd=False)
+    circuits = run.cells[1].netlist
+    assert isinstance(circuits, CornerCircuits) and list(circuits) == run.corners and len(circuits) == len(run.corners)
+    plain = dict(circuits)
+    assert circuits == plain and plain == circuits
+    assert circuits[run.corners[0]] is circuits[run.corners[0]]  # built once
+    with pytest.raises(KeyError):
+        circuits["no_such_corner"]
+    assert circuits.get("no_such_corner") is None
+    back = pickle.loads(pickle.dumps(run.cells[1]))
+    assert type(back.netlist) is dict and back.netlist == plain
