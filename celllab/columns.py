@@ -133,7 +133,7 @@ def _per_nF(f: Any) -> float:
     if not isinstance(f.c_lf_F, float):  # arrays of a whole group (``records.CornerFigures``)
         import numpy as np
 
-        return np.where(f.c_lf_F > 0, from_si(f.leakage_A, "nA") / from_si(f.c_lf_F, "nF"), math.nan)  # type: ignore[no-any-return]
+        return np.where(f.c_lf_F > 0, from_si(f.leakage_A, "nA") / from_si(f.c_lf_F, "nF"), math.nan)  # type: ignore[return-value]
     return from_si(f.leakage_A, "nA") / from_si(f.c_lf_F, "nF") if f.c_lf_F > 0 else math.nan
 
 

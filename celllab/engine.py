@@ -9,7 +9,6 @@ from __future__ import annotations
 
 import copy
 import dataclasses
-import functools
 import math
 from collections.abc import Callable, Sequence
 from typing import Any
@@ -259,10 +258,14 @@ def _geometry(spec: CellSpec, geo: Any) -> dict[str, Any]:
     return geometry
 
 
-@functools.lru_cache(maxsize=64)
+_FIELDS: dict[type, tuple[str, ...]] = {}
+
+
 def _fields(cls: type) -> tuple[str, ...]:
     """A resolved geometry's stored fields (all but the MOM layers), in declaration order."""
-    return tuple(f.name for f in dataclasses.fields(cls) if f.name != "mom_layers")
+    if cls not in _FIELDS:
+        _FIELDS[cls] = tuple(f.name for f in dataclasses.fields(cls) if f.name != "mom_layers")
+    return _FIELDS[cls]
 
 
 def _copied(value: Any) -> Any:
@@ -289,8 +292,12 @@ def _part_figures(part: Any, geos: Sequence[Any], risks: Sequence[tuple[CatalogR
         esl = np.broadcast_to(part.netlist.element("l_loop").value, (n_v * n_corner,)).reshape(n_v, n_corner)
     except KeyError:
         esl = s["esl_H"]
-    f = lambda a: np.asarray(a, dtype=float)  # noqa: E731
-    return CornerFigures(
+
+    def f(a: Any) -> np.ndarray:
+        return np.asarray(a, dtype=float)
+
+    # CornerFigures holds floats per cell-corner, or arrays of a whole part as here
+    values: dict[str, Any] = dict(
         area_um2=np.array([g.area_um2 for g in geos], dtype=float)[:, None], c_lf_F=f(s["c_lf_F"]),
         cap_ox_F=f(part.cap_ox_F), esr_lf_ohm=f(s["esr_lf_ohm"]), esr_probe_ohm=f(s["esr_at_ohm"][..., 0]),
         bandwidth_Hz=f(s["bandwidth_Hz"]), bandwidth_is_bound=np.asarray(s["bandwidth_is_bound"], dtype=bool),
@@ -298,6 +305,7 @@ def _part_figures(part: Any, geos: Sequence[Any], risks: Sequence[tuple[CatalogR
         tau_s=f(s["tau_s"]), gate_leakage_A=f(part.gate_leakage_A), junction_leakage_A=f(part.junction_leakage_A),
         e_ox_V_per_m=f(part.e_ox_V_per_m), tddb_rate_per_s_m2=f(part.tddb_rate_per_s_m2),
         vbd_pulse_V=f(part.vbd_pulse_V), **_part_risk_figures(risks, n_v, n_corner))
+    return CornerFigures(**values)
 
 
 def _part_risk_figures(risks: Sequence[tuple[CatalogRisk, int] | None], n_v: int,
@@ -308,24 +316,24 @@ def _part_risk_figures(risks: Sequence[tuple[CatalogRisk, int] | None], n_v: int
         return {}
     out = {name: np.full((n_v, n_corner), np.nan) for name in _RISK_FIELDS}
     by_figures: dict[int, tuple[CatalogRisk, list[int], list[int]]] = {}  # one per circuit structure
-    for pos, risk in enumerate(risks):
+    for at, risk in enumerate(risks):
         if risk is not None:
             _, positions, ks = by_figures.setdefault(id(risk[0]), (risk[0], [], []))
-            positions.append(pos)
+            positions.append(at)
             ks.append(risk[1])
     for fig, positions, ks in by_figures.values():
-        rows = np.asarray(ks)[:, None] * n_corner + np.arange(n_corner)
+        cols = np.asarray(ks)[:, None] * n_corner + np.arange(n_corner)
         pos = np.asarray(positions)
 
-        def above(ev: Any, rows: np.ndarray = rows) -> np.ndarray:  # empty, not zero, without gate oxide
+        def above(ev: Any, rows: np.ndarray = cols) -> np.ndarray:  # empty, not zero, without gate oxide
             return np.where(np.isfinite(ev.peak_oxide_V[0, rows]), ev.time_above_s[0, rows], np.nan)
 
         values = dict(
-            hbm_peak_oxide_V=np.abs(fig.hbm.peak_oxide_V[0, rows]), hbm_time_above_s=above(fig.hbm),
-            cdm_peak_oxide_V=np.abs(fig.cdm.peak_oxide_V[0, rows]), cdm_time_above_s=above(fig.cdm),
-            hbm_oxide_share=fig.hbm.shielding[0, rows], esd_series_helps=np.asarray(fig.series_helps)[rows],
-            fault_current_A=np.asarray(fig.fault_current_A)[rows], fault_power_W=np.asarray(fig.fault_power_W)[rows],
-            fault_survives=np.asarray(fig.fault_survives)[rows])
+            hbm_peak_oxide_V=np.abs(fig.hbm.peak_oxide_V[0, cols]), hbm_time_above_s=above(fig.hbm),
+            cdm_peak_oxide_V=np.abs(fig.cdm.peak_oxide_V[0, cols]), cdm_time_above_s=above(fig.cdm),
+            hbm_oxide_share=fig.hbm.shielding[0, cols], esd_series_helps=np.asarray(fig.series_helps)[cols],
+            fault_current_A=np.asarray(fig.fault_current_A)[cols], fault_power_W=np.asarray(fig.fault_power_W)[cols],
+            fault_survives=np.asarray(fig.fault_survives)[cols])
         for name, v in values.items():
             out[name][pos] = v
     return out

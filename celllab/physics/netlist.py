@@ -241,7 +241,7 @@ class Netlist:
         """The netlist of the given variants, in that order (a value shared by all stays one)."""
         idx = np.asarray(rows, dtype=np.intp)
 
-        def sub(v: FloatArray | float | None) -> FloatArray | float | None:
+        def sub(v: Any) -> Any:
             return v if v is None or np.ndim(v) == 0 else np.asarray(v)[idx]
 
         return Netlist(self.name, tuple(replace(el, value=sub(el.value), c_total=sub(el.c_total))
