@@ -90,6 +90,7 @@ __all__ = [
     "OpenClass",
     "RowClass",
     "DIRECT_LIMIT",
+    "SHORTFALL_SHARE",
     "FillTimeout",
     "goal_value",
     "relaxation_seconds",
@@ -107,6 +108,15 @@ Goal = Literal["max_useful_cap", "min_leakage"]
 DIRECT_LIMIT = 2500
 #: A further HiGHS run is started only with at least this much of the time limit left, s.
 _MIN_RUN_S = 0.1
+#: Share of the time left that the LP-guided kind search may take.
+_KIND_SHARE = 0.3
+#: The full model goes to HiGHS only with at least this many LP solve times left: its root
+#: work (presolve, cuts, heuristics) does not stop at the time limit (the bench's main case
+#: ran up to 1.7 s past a 0.8 s limit with LP solves of 0.05-0.1 s; measured, no source).
+_FULL_RUN_LPS = 25
+#: Where the targets cannot all be met, the least-shortfall solve gets at most this share of
+#: the time left; the goal solve under the reached targets gets the rest.
+SHORTFALL_SHARE = 0.5
 
 
 @dataclass(frozen=True)
@@ -347,69 +357,120 @@ def _checked_targets(targets: FloatArray, levels: FloatArray, counts: Counts,
     return levels
 
 
+def _empty(p: FillProblem) -> Counts:
+    """The fill that places nothing (meets every budget; the elastic solve's first fill)."""
+    zero = np.zeros((p.n_regions, p.n_cells), dtype=np.int64)
+    return Counts([np.zeros(c.patterns.shape[0], dtype=np.int64) for c in p.row_classes],
+                  [np.zeros(p.n_cells, dtype=np.int64) for _ in p.open_classes], zero,
+                  zero.copy(), np.zeros(p.n_regions))
+
+
+def _kept(p: FillProblem, incumbent: _Found | None, targets: FloatArray,
+          mode: Literal["hard", "elastic"], phase: Literal["goal", "shortfall"],
+          bound: float) -> _Found | None:
+    """A fill handed in from an earlier solve, valued for this one (None when it does not
+    meet this solve's targets and budgets)."""
+    if incumbent is None:
+        return None
+    checked = _checked_targets(targets, targets, incumbent.counts, mode)
+    if violations(incumbent.problem, incumbent.counts, checked):
+        return None
+    return _Found(incumbent.problem, incumbent.counts,
+                  _natural(p, incumbent.counts, phase), bound, 0, incumbent.message)
+
+
+def _better(found: _Found | None, other: _Found | None) -> _Found | None:
+    """The fill of lower value (the first on a tie); None only when both are."""
+    if other is None or (found is not None and found.value <= other.value):
+        return found
+    return other
+
+
+def _with_bound(found: _Found, bound: float) -> _Found:
+    return _Found(found.problem, found.counts, found.value, max(found.bound, bound),
+                  found.status, found.message)
+
+
 def _solve_goal(p: FillProblem, targets: FloatArray, mode: Literal["hard", "elastic"],
-                phase: Literal["goal", "shortfall"], mip_rel_gap: float, deadline: float
-                ) -> _Found | None:
-    """One solve by the strategy of the module docstring. None when infeasible."""
+                phase: Literal["goal", "shortfall"], mip_rel_gap: float, deadline: float,
+                incumbent: _Found | None = None) -> _Found | None:
+    """One solve by the strategy of the module docstring. None when infeasible.
+
+    ``incumbent`` is a fill already known (from an earlier phase); it is kept whenever no
+    better one is found in time, so a solve that has one never ends in ``FillTimeout``."""
     scale = np.where(targets > 0, targets, 1.0)
     model = build_model(p, targets, mode, phase, p.leakage_budget, p.oxide_budget, scale)
     usable_cells = int(np.count_nonzero(p.usable().any(axis=0)))
     if model.n_vars <= DIRECT_LIMIT or usable_cells <= p.max_kinds:
-        return _exact(p, targets, mode, phase, mip_rel_gap, deadline)
+        try:
+            return _exact(p, targets, mode, phase, mip_rel_gap, deadline)
+        except FillTimeout:
+            relaxed = run_model(model, 0.0, max(deadline - time.perf_counter(), _MIN_RUN_S),
+                                relax=True)
+            bound = relaxed.objective if relaxed.values is not None else -np.inf
+            kept = _kept(p, incumbent, targets, mode, phase, bound)
+            if kept is None:
+                raise
+            return kept
     lp_start = time.perf_counter()
-    first = run_model(model, 0.0, deadline - lp_start, relax=True)
+    # the bound comes first, even past the deadline (one LP: a fraction of any limit)
+    first = run_model(model, 0.0, max(deadline - lp_start, _MIN_RUN_S), relax=True)
     lp_seconds = time.perf_counter() - lp_start
     if first.values is None:
-        return None if first.status == 2 else _exact(p, targets, mode, phase, mip_rel_gap,
-                                                     deadline)
+        if first.status == 2:
+            return None
+        return _exact(p, targets, mode, phase, mip_rel_gap, deadline)
     bound = first.objective
-    search_end = time.perf_counter() + 0.5 * max(deadline - time.perf_counter(), 0.0)
-    cells, _ = choose_kinds(model, first, search_end)
+    found = _kept(p, incumbent, targets, mode, phase, bound)
+    left = max(deadline - time.perf_counter(), 0.0)
+    cells, _ = choose_kinds(model, first, time.perf_counter() + _KIND_SHARE * left)
+    if len(cells) > p.max_kinds:  # no set of K kinds was LP-feasible: the incumbent's kinds
+        if found is not None:
+            cells = set(np.flatnonzero(found.counts.copies.sum(axis=0) > 0).tolist())
+        else:
+            y = {i: float(first.values[col]) for i, col in model.y_index.items()}
+            cells = set(sorted(cells, key=lambda i: -y.get(i, 0.0))[:p.max_kinds])
     sub = _restrict(p, cells)
     sub_model = build_model(sub, targets, mode, phase, p.leakage_budget, p.oxide_budget, scale)
-    relaxed = run_model(sub_model, 0.0, deadline - time.perf_counter(), relax=True)
-    found: _Found | None = None
+    relaxed = run_model(sub_model, 0.0, max(deadline - time.perf_counter(), _MIN_RUN_S),
+                        relax=True)
     sub_bound = relaxed.objective if relaxed.values is not None else bound
     if relaxed.values is not None:
         counts = round_down(relaxed)
         if np.any(targets > 0):
             counts = top_up(sub, counts, targets)
         if not violations(sub, counts, _checked_targets(targets, targets, counts, mode)):
-            found = _Found(sub, counts, _natural(p, counts, phase), bound, 0,
-                           "kinds from the LP search, LP rounded down")
+            found = _better(found, _Found(sub, counts, _natural(p, counts, phase), bound, 0,
+                                          "kinds from the LP search, LP rounded down"))
 
-    def worth_a_run(best_possible: float) -> bool:
+    def worth_a_run(best_possible: float, lps: float) -> bool:
         """Another HiGHS run may pay: no fill yet, or one that could still gain more than
-        the gap, with time left for at least a few LP solves."""
+        the gap, with time left for at least ``lps`` LP solves."""
         if found is None:
             return True
         gain = (found.value - best_possible) / max(abs(found.value), np.finfo(float).tiny)
         left = deadline - time.perf_counter()
-        return gain > mip_rel_gap and left > max(_MIN_RUN_S, 3 * lp_seconds)
+        return gain > mip_rel_gap and left > max(_MIN_RUN_S, lps * lp_seconds)
 
-    if worth_a_run(sub_bound):
+    if relaxed.values is not None and worth_a_run(sub_bound, 3):
         try:
             exact = _exact(sub, targets, mode, phase, mip_rel_gap, deadline)
         except FillTimeout:
-            if found is None:
-                raise
             exact = None
-        if exact is not None and (found is None or exact.value < found.value):
-            found = _Found(sub, exact.counts, exact.value, bound, exact.status,
-                           "kinds from the LP search; " + exact.message)
-    if worth_a_run(bound):
+        if exact is not None:
+            found = _better(found, _Found(sub, exact.counts, exact.value, bound, exact.status,
+                                          "kinds from the LP search; " + exact.message))
+    if worth_a_run(bound, _FULL_RUN_LPS):
         try:
             full = _exact(p, targets, mode, phase, mip_rel_gap, deadline)
         except FillTimeout:
             if found is None:
                 raise
             full = None
-        if full is not None and (found is None or full.value < found.value):
-            found = _Found(p, full.counts, full.value, max(bound, full.bound), full.status,
-                           full.message)
-        elif found is not None and full is not None:
-            found = _Found(found.problem, found.counts, found.value, max(bound, full.bound),
-                           found.status, found.message)
+        if full is not None:
+            found = _better(found, full)
+            assert found is not None
+            found = _with_bound(found, full.bound)
     if found is None:  # the LP is feasible, so a fill exists: the time ran out first
         raise FillTimeout("no fill found within the time limit")
     return found
@@ -423,14 +484,22 @@ def solve_fill(problem: FillProblem, mip_rel_gap: float = 5e-3,
     ----------
     problem : FillProblem
     mip_rel_gap : float   relative gap to the best bound at which the search stops
-    time_limit : float    seconds for the whole solve (each phase gets what is left)
+    time_limit : float    seconds for the whole solve (each phase gets what is left; where
+                          the targets cannot all be met, the least-shortfall solve gets at
+                          most ``SHORTFALL_SHARE`` of it)
 
     Returns
     -------
     FillSolution   integer counts meeting every budget; where the region targets cannot all
                    be met, ``shortfall`` says by how much (the fill is then the least-shortfall
-                   one, best by the goal among those); ``optimal`` when the certified gap is
-                   within ``mip_rel_gap``
+                   one found, best by the goal among those); ``mip_gap`` is the larger of the
+                   two solves' certified gaps; ``optimal`` when it is within ``mip_rel_gap``
+
+    Raises
+    ------
+    FillTimeout   only when the time ran out before any fill meeting the hard targets was
+                  found (never once the targets are known to be out of reach: the
+                  least-shortfall fill is kept then)
     """
     t0 = time.perf_counter()
     deadline = t0 + time_limit
@@ -439,23 +508,29 @@ def solve_fill(problem: FillProblem, mip_rel_gap: float = 5e-3,
     targets = np.asarray(p.target, dtype=float)
     lowered = targets.copy()
     found = _solve_goal(p, targets, "hard", "goal", mip_rel_gap, deadline)
+    gap = found.gap if found is not None else 0.0
     if found is None:  # the targets cannot all be met: least relative shortfall first
-        first = _solve_goal(p, targets, "elastic", "shortfall", mip_rel_gap, deadline)
+        empty = _Found(p, _empty(p), _natural(p, _empty(p), "shortfall"), 0.0, 0,
+                       "nothing placed")
+        share = time.perf_counter() + SHORTFALL_SHARE * max(deadline - time.perf_counter(), 0)
+        first = _solve_goal(p, targets, "elastic", "shortfall", mip_rel_gap, share,
+                            incumbent=empty)
         assert first is not None  # the empty fill is always feasible here
         reached = np.sum(first.counts.copies * p.useful_cap, axis=1)
-        # a region within the solver's tolerance of its target keeps the target
-        lowered = np.where(reached < targets * (1 - 1e-6), reached, targets)
-        found = _solve_goal(p, lowered, "hard", "goal", mip_rel_gap,
-                            max(deadline, time.perf_counter() + 1.0))
+        # the goal solve keeps what this fill reached, so the fill itself meets it
+        lowered = np.minimum(targets, reached)
+        found = _solve_goal(p, lowered, "hard", "goal", mip_rel_gap, deadline,
+                            incumbent=first)
         if found is None:  # numerically at the edge: keep the least-shortfall fill
             found = first
+        gap = max(first.gap, found.gap)
     counts = found.counts
     reached = np.sum(counts.copies * p.useful_cap, axis=1)
     shortfall = np.where(reached < targets * (1 - 1e-6), targets - reached, 0.0)
     return FillSolution(
         pattern_counts=counts.patterns, slot_counts=counts.slots, row_copies=counts.row_copies,
-        copies=counts.copies, shortfall=shortfall, optimal=found.gap <= mip_rel_gap * (1 + 1e-9),
-        status=found.message, mip_gap=found.gap, solve_seconds=time.perf_counter() - t0,
+        copies=counts.copies, shortfall=shortfall, optimal=gap <= mip_rel_gap * (1 + 1e-9),
+        status=found.message, mip_gap=gap, solve_seconds=time.perf_counter() - t0,
         lowered_targets=lowered, row_patterns=[c.patterns for c in found.problem.row_classes])
 
 
