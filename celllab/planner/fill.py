@@ -239,7 +239,13 @@ class FillSolution:
 
 def undominated_cells(p: FillProblem) -> BoolArray:
     """(n_cells,) mask of cells that no other cell of the same footprint dominates (see the
-    module docstring). Compared only within groups of one footprint."""
+    module docstring). Compared only within groups of one footprint.
+
+    One sweep per group in the order (leakage, oxide area, -total C, -total credit,
+    -regions allowed, index): a cell that dominates another comes before it in this order
+    (componentwise no worse means no worse sums; on equal sums the figures are equal and the
+    index decides), and dominance is transitive, so each cell is compared only with the cells
+    kept before it (time n x kept, memory kept x regions, no n x n matrix)."""
     usable = p.usable()
     copies = (np.stack([c.copies for c in p.open_classes], axis=0) if p.open_classes
               else np.zeros((0, p.n_cells), dtype=np.int64))
@@ -249,27 +255,24 @@ def undominated_cells(p: FillProblem) -> BoolArray:
         groups.setdefault((int(p.cell_type[i]), *copies[:, i].tolist()), []).append(i)
     cap = np.where(usable, p.useful_cap, 0.0)
     damp = np.where(usable, p.credit(), 0.0)
+    # per cell, figures where larger is better: allowed, C and credit per region, -leak, -area
+    better_up = np.concatenate([usable.astype(float), cap, damp, -p.leakage[None, :],
+                                -p.oxide_area[None, :]], axis=0).T
     for members in groups.values():
         if len(members) < 2:
             continue
         m = np.array(members)
-        # a dominates b: allowed where b is, at least b's cap everywhere, no more leakage/area
-        at_least = (np.all(usable[:, m][:, :, None] >= usable[:, m][:, None, :], axis=0)
-                    & np.all(cap[:, m][:, :, None] >= cap[:, m][:, None, :], axis=0)
-                    & np.all(damp[:, m][:, :, None] >= damp[:, m][:, None, :], axis=0)
-                    & (p.leakage[m][:, None] <= p.leakage[m][None, :])
-                    & (p.oxide_area[m][:, None] <= p.oxide_area[m][None, :]))
-        better = (np.any(usable[:, m][:, :, None] > usable[:, m][:, None, :], axis=0)
-                  | np.any(cap[:, m][:, :, None] > cap[:, m][:, None, :], axis=0)
-                  | np.any(damp[:, m][:, :, None] > damp[:, m][:, None, :], axis=0)
-                  | (p.leakage[m][:, None] < p.leakage[m][None, :])
-                  | (p.oxide_area[m][:, None] < p.oxide_area[m][None, :]))
-        earlier = np.arange(m.size)[:, None] < np.arange(m.size)[None, :]
-        dominated = (at_least & (better | earlier)).any(axis=0)
-        keep[m[dominated]] = False
+        order = np.lexsort((m, -usable[:, m].sum(axis=0), -damp[:, m].sum(axis=0),
+                            -cap[:, m].sum(axis=0), p.oxide_area[m], p.leakage[m]))
+        kept = np.empty((m.size, better_up.shape[1]))
+        n_kept = 0
+        for i in m[order].tolist():
+            if np.any(np.all(kept[:n_kept] >= better_up[i], axis=1)):
+                keep[i] = False
+            else:
+                kept[n_kept] = better_up[i]
+                n_kept += 1
     return np.asarray(keep)
-
-
 
 
 class FillTimeout(RuntimeError):
