@@ -43,7 +43,8 @@ gives at least i's useful capacitance and damping credit in every region and lea
 no more, then
 replacing every copy of i by a copy of j keeps every constraint (no more kinds, leakage or
 oxide area, no less capacitance toward any target) and does not worsen either goal. Of
-identical cells the first is kept.
+identical cells the first is kept. Found by one sorted sweep per footprint
+(``undominated_cells``).
 
 Rows are scaled (HiGHS checks rows to an absolute tolerance and ignores tiny coefficients):
 gap, slot and link rows by their counts, budget and target rows by their largest coefficient
@@ -53,12 +54,21 @@ tightened.
 
 Solving: a model of at most ``DIRECT_LIMIT`` variables, or one whose kind limit cannot bind,
 goes to HiGHS branch and bound as it is. A larger one first gets its LP relaxation (a bound
-on every fill) and K kinds from the LP-guided search of ``kinds``; the fill restricted to
-those kinds (patterns projected onto their footprints) is solved, by rounding its LP down (and
-topping up a target the rounding just missed) when that already lies within the requested gap
-of the bound, else by HiGHS. While the certified
-gap to the bound is above the requested one and time remains, the full model goes to HiGHS
-as well and the better fill is kept. ``FillSolution.mip_gap`` is the certified gap.
+on every fill) and K kinds from the LP-guided search of ``kinds`` (at most ``_KIND_SHARE`` of
+the time left); the fill restricted to those kinds (patterns projected onto their footprints)
+is rounded from its LP (rounded down, a target the rounding just missed topped up) and, while
+that is further than the requested gap from the restricted LP, solved by HiGHS. While the
+certified gap to the full bound is above the requested one and at least ``_FULL_RUN_LPS`` LP
+times remain, the full model goes to HiGHS as well and the better fill is kept.
+
+A fill found is never dropped for lack of time: the least-shortfall solve starts from the
+empty fill, the goal solve under the lowered targets from the least-shortfall fill (the
+targets are lowered to exactly what it reached, so it meets them), and a HiGHS run that ends
+without a fill leaves the best one found so far. ``FillTimeout`` is raised only when the
+targets are reachable (the LP says so) and no fill meeting them was found in time. The
+least-shortfall solve gets at most ``SHORTFALL_SHARE`` of the time, the goal solve the rest.
+``FillSolution.mip_gap`` is the certified gap (with lowered targets, the larger of the two
+solves' gaps, each relative to its own LP or branch-and-bound bound).
 """
 
 from __future__ import annotations
