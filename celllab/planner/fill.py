@@ -43,7 +43,8 @@ gives at least i's useful capacitance and damping credit in every region and lea
 no more, then
 replacing every copy of i by a copy of j keeps every constraint (no more kinds, leakage or
 oxide area, no less capacitance toward any target) and does not worsen either goal. Of
-identical cells the first is kept.
+identical cells the first is kept. Found by one sorted sweep per footprint
+(``undominated_cells``).
 
 Rows are scaled (HiGHS checks rows to an absolute tolerance and ignores tiny coefficients):
 gap, slot and link rows by their counts, budget and target rows by their largest coefficient
@@ -53,12 +54,21 @@ tightened.
 
 Solving: a model of at most ``DIRECT_LIMIT`` variables, or one whose kind limit cannot bind,
 goes to HiGHS branch and bound as it is. A larger one first gets its LP relaxation (a bound
-on every fill) and K kinds from the LP-guided search of ``kinds``; the fill restricted to
-those kinds (patterns projected onto their footprints) is solved, by rounding its LP down (and
-topping up a target the rounding just missed) when that already lies within the requested gap
-of the bound, else by HiGHS. While the certified
-gap to the bound is above the requested one and time remains, the full model goes to HiGHS
-as well and the better fill is kept. ``FillSolution.mip_gap`` is the certified gap.
+on every fill) and K kinds from the LP-guided search of ``kinds`` (at most ``_KIND_SHARE`` of
+the time left); the fill restricted to those kinds (patterns projected onto their footprints)
+is rounded from its LP (rounded down, a target the rounding just missed topped up) and, while
+that is further than the requested gap from the restricted LP, solved by HiGHS. While the
+certified gap to the full bound is above the requested one and at least ``_FULL_RUN_LPS`` LP
+times remain, the full model goes to HiGHS as well and the better fill is kept.
+
+A fill found is never dropped for lack of time: the least-shortfall solve starts from the
+empty fill, the goal solve under the lowered targets from the least-shortfall fill (the
+targets are lowered to exactly what it reached, so it meets them), and a HiGHS run that ends
+without a fill leaves the best one found so far. ``FillTimeout`` is raised only when the
+targets are reachable (the LP says so) and no fill meeting them was found in time. The
+least-shortfall solve gets at most ``SHORTFALL_SHARE`` of the time, the goal solve the rest.
+``FillSolution.mip_gap`` is the certified gap (with lowered targets, the larger of the two
+solves' gaps, each relative to its own LP or branch-and-bound bound).
 """
 
 from __future__ import annotations
@@ -90,6 +100,7 @@ __all__ = [
     "OpenClass",
     "RowClass",
     "DIRECT_LIMIT",
+    "SHORTFALL_SHARE",
     "FillTimeout",
     "goal_value",
     "relaxation_seconds",
@@ -107,6 +118,15 @@ Goal = Literal["max_useful_cap", "min_leakage"]
 DIRECT_LIMIT = 2500
 #: A further HiGHS run is started only with at least this much of the time limit left, s.
 _MIN_RUN_S = 0.1
+#: Share of the time left that the LP-guided kind search may take.
+_KIND_SHARE = 0.3
+#: The full model goes to HiGHS only with at least this many LP solve times left: its root
+#: work (presolve, cuts, heuristics) does not stop at the time limit (the bench's main case
+#: ran up to 1.7 s past a 0.8 s limit with LP solves of 0.05-0.1 s; measured, no source).
+_FULL_RUN_LPS = 25
+#: Where the targets cannot all be met, the least-shortfall solve gets at most this share of
+#: the time left; the goal solve under the reached targets gets the rest.
+SHORTFALL_SHARE = 0.5
 
 
 @dataclass(frozen=True)
@@ -229,7 +249,13 @@ class FillSolution:
 
 def undominated_cells(p: FillProblem) -> BoolArray:
     """(n_cells,) mask of cells that no other cell of the same footprint dominates (see the
-    module docstring). Compared only within groups of one footprint."""
+    module docstring). Compared only within groups of one footprint.
+
+    One sweep per group in the order (leakage, oxide area, -total C, -total credit,
+    -regions allowed, index): a cell that dominates another comes before it in this order
+    (componentwise no worse means no worse sums; on equal sums the figures are equal and the
+    index decides), and dominance is transitive, so each cell is compared only with the cells
+    kept before it (time n x kept, memory kept x regions, no n x n matrix)."""
     usable = p.usable()
     copies = (np.stack([c.copies for c in p.open_classes], axis=0) if p.open_classes
               else np.zeros((0, p.n_cells), dtype=np.int64))
@@ -239,27 +265,24 @@ def undominated_cells(p: FillProblem) -> BoolArray:
         groups.setdefault((int(p.cell_type[i]), *copies[:, i].tolist()), []).append(i)
     cap = np.where(usable, p.useful_cap, 0.0)
     damp = np.where(usable, p.credit(), 0.0)
+    # per cell, figures where larger is better: allowed, C and credit per region, -leak, -area
+    better_up = np.concatenate([usable.astype(float), cap, damp, -p.leakage[None, :],
+                                -p.oxide_area[None, :]], axis=0).T
     for members in groups.values():
         if len(members) < 2:
             continue
         m = np.array(members)
-        # a dominates b: allowed where b is, at least b's cap everywhere, no more leakage/area
-        at_least = (np.all(usable[:, m][:, :, None] >= usable[:, m][:, None, :], axis=0)
-                    & np.all(cap[:, m][:, :, None] >= cap[:, m][:, None, :], axis=0)
-                    & np.all(damp[:, m][:, :, None] >= damp[:, m][:, None, :], axis=0)
-                    & (p.leakage[m][:, None] <= p.leakage[m][None, :])
-                    & (p.oxide_area[m][:, None] <= p.oxide_area[m][None, :]))
-        better = (np.any(usable[:, m][:, :, None] > usable[:, m][:, None, :], axis=0)
-                  | np.any(cap[:, m][:, :, None] > cap[:, m][:, None, :], axis=0)
-                  | np.any(damp[:, m][:, :, None] > damp[:, m][:, None, :], axis=0)
-                  | (p.leakage[m][:, None] < p.leakage[m][None, :])
-                  | (p.oxide_area[m][:, None] < p.oxide_area[m][None, :]))
-        earlier = np.arange(m.size)[:, None] < np.arange(m.size)[None, :]
-        dominated = (at_least & (better | earlier)).any(axis=0)
-        keep[m[dominated]] = False
+        order = np.lexsort((m, -usable[:, m].sum(axis=0), -damp[:, m].sum(axis=0),
+                            -cap[:, m].sum(axis=0), p.oxide_area[m], p.leakage[m]))
+        kept = np.empty((m.size, better_up.shape[1]))
+        n_kept = 0
+        for i in m[order].tolist():
+            if np.any(np.all(kept[:n_kept] >= better_up[i], axis=1)):
+                keep[i] = False
+            else:
+                kept[n_kept] = better_up[i]
+                n_kept += 1
     return np.asarray(keep)
-
-
 
 
 class FillTimeout(RuntimeError):
@@ -347,69 +370,120 @@ def _checked_targets(targets: FloatArray, levels: FloatArray, counts: Counts,
     return levels
 
 
+def _empty(p: FillProblem) -> Counts:
+    """The fill that places nothing (meets every budget; the elastic solve's first fill)."""
+    zero = np.zeros((p.n_regions, p.n_cells), dtype=np.int64)
+    return Counts([np.zeros(c.patterns.shape[0], dtype=np.int64) for c in p.row_classes],
+                  [np.zeros(p.n_cells, dtype=np.int64) for _ in p.open_classes], zero,
+                  zero.copy(), np.zeros(p.n_regions))
+
+
+def _kept(p: FillProblem, incumbent: _Found | None, targets: FloatArray,
+          mode: Literal["hard", "elastic"], phase: Literal["goal", "shortfall"],
+          bound: float) -> _Found | None:
+    """A fill handed in from an earlier solve, valued for this one (None when it does not
+    meet this solve's targets and budgets)."""
+    if incumbent is None:
+        return None
+    checked = _checked_targets(targets, targets, incumbent.counts, mode)
+    if violations(incumbent.problem, incumbent.counts, checked):
+        return None
+    return _Found(incumbent.problem, incumbent.counts,
+                  _natural(p, incumbent.counts, phase), bound, 0, incumbent.message)
+
+
+def _better(found: _Found | None, other: _Found | None) -> _Found | None:
+    """The fill of lower value (the first on a tie); None only when both are."""
+    if other is None or (found is not None and found.value <= other.value):
+        return found
+    return other
+
+
+def _with_bound(found: _Found, bound: float) -> _Found:
+    return _Found(found.problem, found.counts, found.value, max(found.bound, bound),
+                  found.status, found.message)
+
+
 def _solve_goal(p: FillProblem, targets: FloatArray, mode: Literal["hard", "elastic"],
-                phase: Literal["goal", "shortfall"], mip_rel_gap: float, deadline: float
-                ) -> _Found | None:
-    """One solve by the strategy of the module docstring. None when infeasible."""
+                phase: Literal["goal", "shortfall"], mip_rel_gap: float, deadline: float,
+                incumbent: _Found | None = None) -> _Found | None:
+    """One solve by the strategy of the module docstring. None when infeasible.
+
+    ``incumbent`` is a fill already known (from an earlier phase); it is kept whenever no
+    better one is found in time, so a solve that has one never ends in ``FillTimeout``."""
     scale = np.where(targets > 0, targets, 1.0)
     model = build_model(p, targets, mode, phase, p.leakage_budget, p.oxide_budget, scale)
     usable_cells = int(np.count_nonzero(p.usable().any(axis=0)))
     if model.n_vars <= DIRECT_LIMIT or usable_cells <= p.max_kinds:
-        return _exact(p, targets, mode, phase, mip_rel_gap, deadline)
+        try:
+            return _exact(p, targets, mode, phase, mip_rel_gap, deadline)
+        except FillTimeout:
+            relaxed = run_model(model, 0.0, max(deadline - time.perf_counter(), _MIN_RUN_S),
+                                relax=True)
+            bound = relaxed.objective if relaxed.values is not None else -np.inf
+            kept = _kept(p, incumbent, targets, mode, phase, bound)
+            if kept is None:
+                raise
+            return kept
     lp_start = time.perf_counter()
-    first = run_model(model, 0.0, deadline - lp_start, relax=True)
+    # the bound comes first, even past the deadline (one LP: a fraction of any limit)
+    first = run_model(model, 0.0, max(deadline - lp_start, _MIN_RUN_S), relax=True)
     lp_seconds = time.perf_counter() - lp_start
     if first.values is None:
-        return None if first.status == 2 else _exact(p, targets, mode, phase, mip_rel_gap,
-                                                     deadline)
+        if first.status == 2:
+            return None
+        return _exact(p, targets, mode, phase, mip_rel_gap, deadline)
     bound = first.objective
-    search_end = time.perf_counter() + 0.5 * max(deadline - time.perf_counter(), 0.0)
-    cells, _ = choose_kinds(model, first, search_end)
+    found = _kept(p, incumbent, targets, mode, phase, bound)
+    left = max(deadline - time.perf_counter(), 0.0)
+    cells, _ = choose_kinds(model, first, time.perf_counter() + _KIND_SHARE * left)
+    if len(cells) > p.max_kinds:  # no set of K kinds was LP-feasible: the incumbent's kinds
+        if found is not None:
+            cells = set(np.flatnonzero(found.counts.copies.sum(axis=0) > 0).tolist())
+        else:
+            y = {i: float(first.values[col]) for i, col in model.y_index.items()}
+            cells = set(sorted(cells, key=lambda i: -y.get(i, 0.0))[:p.max_kinds])
     sub = _restrict(p, cells)
     sub_model = build_model(sub, targets, mode, phase, p.leakage_budget, p.oxide_budget, scale)
-    relaxed = run_model(sub_model, 0.0, deadline - time.perf_counter(), relax=True)
-    found: _Found | None = None
+    relaxed = run_model(sub_model, 0.0, max(deadline - time.perf_counter(), _MIN_RUN_S),
+                        relax=True)
     sub_bound = relaxed.objective if relaxed.values is not None else bound
     if relaxed.values is not None:
         counts = round_down(relaxed)
         if np.any(targets > 0):
             counts = top_up(sub, counts, targets)
         if not violations(sub, counts, _checked_targets(targets, targets, counts, mode)):
-            found = _Found(sub, counts, _natural(p, counts, phase), bound, 0,
-                           "kinds from the LP search, LP rounded down")
+            found = _better(found, _Found(sub, counts, _natural(p, counts, phase), bound, 0,
+                                          "kinds from the LP search, LP rounded down"))
 
-    def worth_a_run(best_possible: float) -> bool:
+    def worth_a_run(best_possible: float, lps: float) -> bool:
         """Another HiGHS run may pay: no fill yet, or one that could still gain more than
-        the gap, with time left for at least a few LP solves."""
+        the gap, with time left for at least ``lps`` LP solves."""
         if found is None:
             return True
         gain = (found.value - best_possible) / max(abs(found.value), np.finfo(float).tiny)
         left = deadline - time.perf_counter()
-        return gain > mip_rel_gap and left > max(_MIN_RUN_S, 3 * lp_seconds)
+        return gain > mip_rel_gap and left > max(_MIN_RUN_S, lps * lp_seconds)
 
-    if worth_a_run(sub_bound):
+    if relaxed.values is not None and worth_a_run(sub_bound, 3):
         try:
             exact = _exact(sub, targets, mode, phase, mip_rel_gap, deadline)
         except FillTimeout:
-            if found is None:
-                raise
             exact = None
-        if exact is not None and (found is None or exact.value < found.value):
-            found = _Found(sub, exact.counts, exact.value, bound, exact.status,
-                           "kinds from the LP search; " + exact.message)
-    if worth_a_run(bound):
+        if exact is not None:
+            found = _better(found, _Found(sub, exact.counts, exact.value, bound, exact.status,
+                                          "kinds from the LP search; " + exact.message))
+    if worth_a_run(bound, _FULL_RUN_LPS):
         try:
             full = _exact(p, targets, mode, phase, mip_rel_gap, deadline)
         except FillTimeout:
             if found is None:
                 raise
             full = None
-        if full is not None and (found is None or full.value < found.value):
-            found = _Found(p, full.counts, full.value, max(bound, full.bound), full.status,
-                           full.message)
-        elif found is not None and full is not None:
-            found = _Found(found.problem, found.counts, found.value, max(bound, full.bound),
-                           found.status, found.message)
+        if full is not None:
+            found = _better(found, full)
+            assert found is not None
+            found = _with_bound(found, full.bound)
     if found is None:  # the LP is feasible, so a fill exists: the time ran out first
         raise FillTimeout("no fill found within the time limit")
     return found
@@ -423,14 +497,22 @@ def solve_fill(problem: FillProblem, mip_rel_gap: float = 5e-3,
     ----------
     problem : FillProblem
     mip_rel_gap : float   relative gap to the best bound at which the search stops
-    time_limit : float    seconds for the whole solve (each phase gets what is left)
+    time_limit : float    seconds for the whole solve (each phase gets what is left; where
+                          the targets cannot all be met, the least-shortfall solve gets at
+                          most ``SHORTFALL_SHARE`` of it)
 
     Returns
     -------
     FillSolution   integer counts meeting every budget; where the region targets cannot all
                    be met, ``shortfall`` says by how much (the fill is then the least-shortfall
-                   one, best by the goal among those); ``optimal`` when the certified gap is
-                   within ``mip_rel_gap``
+                   one found, best by the goal among those); ``mip_gap`` is the larger of the
+                   two solves' certified gaps; ``optimal`` when it is within ``mip_rel_gap``
+
+    Raises
+    ------
+    FillTimeout   only when the time ran out before any fill meeting the hard targets was
+                  found (never once the targets are known to be out of reach: the
+                  least-shortfall fill is kept then)
     """
     t0 = time.perf_counter()
     deadline = t0 + time_limit
@@ -439,23 +521,29 @@ def solve_fill(problem: FillProblem, mip_rel_gap: float = 5e-3,
     targets = np.asarray(p.target, dtype=float)
     lowered = targets.copy()
     found = _solve_goal(p, targets, "hard", "goal", mip_rel_gap, deadline)
+    gap = found.gap if found is not None else 0.0
     if found is None:  # the targets cannot all be met: least relative shortfall first
-        first = _solve_goal(p, targets, "elastic", "shortfall", mip_rel_gap, deadline)
+        empty = _Found(p, _empty(p), _natural(p, _empty(p), "shortfall"), 0.0, 0,
+                       "nothing placed")
+        share = time.perf_counter() + SHORTFALL_SHARE * max(deadline - time.perf_counter(), 0)
+        first = _solve_goal(p, targets, "elastic", "shortfall", mip_rel_gap, share,
+                            incumbent=empty)
         assert first is not None  # the empty fill is always feasible here
         reached = np.sum(first.counts.copies * p.useful_cap, axis=1)
-        # a region within the solver's tolerance of its target keeps the target
-        lowered = np.where(reached < targets * (1 - 1e-6), reached, targets)
-        found = _solve_goal(p, lowered, "hard", "goal", mip_rel_gap,
-                            max(deadline, time.perf_counter() + 1.0))
+        # the goal solve keeps what this fill reached, so the fill itself meets it
+        lowered = np.minimum(targets, reached)
+        found = _solve_goal(p, lowered, "hard", "goal", mip_rel_gap, deadline,
+                            incumbent=first)
         if found is None:  # numerically at the edge: keep the least-shortfall fill
             found = first
+        gap = max(first.gap, found.gap)
     counts = found.counts
     reached = np.sum(counts.copies * p.useful_cap, axis=1)
     shortfall = np.where(reached < targets * (1 - 1e-6), targets - reached, 0.0)
     return FillSolution(
         pattern_counts=counts.patterns, slot_counts=counts.slots, row_copies=counts.row_copies,
-        copies=counts.copies, shortfall=shortfall, optimal=found.gap <= mip_rel_gap * (1 + 1e-9),
-        status=found.message, mip_gap=found.gap, solve_seconds=time.perf_counter() - t0,
+        copies=counts.copies, shortfall=shortfall, optimal=gap <= mip_rel_gap * (1 + 1e-9),
+        status=found.message, mip_gap=gap, solve_seconds=time.perf_counter() - t0,
         lowered_targets=lowered, row_patterns=[c.patterns for c in found.problem.row_classes])
 
 

@@ -14,6 +14,7 @@ from hypothesis import strategies as st
 from celllab.planner import fill as fill_module
 from celllab.planner.fill import (
     FillProblem,
+    FillSolution,
     OpenClass,
     RowClass,
     goal_value,
@@ -256,3 +257,71 @@ def test_empty_fill_when_nothing_is_affordable(budget_nA: float) -> None:
                 leak_budget=budget_nA, area_budget=10.0, max_kinds=2)
     s = solve_fill(case.problem(), mip_rel_gap=1e-9)
     assert s.copies.sum() == 0 and s.optimal
+
+
+def _block_shaped(rng: np.random.Generator, targets_nF: tuple[float, float]) -> FillProblem:
+    """A small problem of the benchmark's shape: two regions, 24 in-row gap classes, 12 cells
+    over four footprints, a binding leakage budget, at most two kinds."""
+    n = 12
+    widths = rng.choice([2, 3, 4, 6], n)
+    types = sorted(set(widths.tolist()))
+    cell_type = np.array([types.index(w) for w in widths])
+    ones = [1] * len(types)
+    rows = [RowClass(int(g % 2), int(rng.integers(20, 200)), row_patterns(int(w), 1, types,
+                                                                          ones))
+            for g, w in enumerate(range(5, 29))]
+    cap = rng.uniform(5, 50, (2, n)) * FF
+    return FillProblem(useful_cap=cap, allowed=np.ones((2, n), bool), weight=np.ones(2),
+                       target=np.array(targets_nF) * NA, cell_type=cell_type,
+                       leakage=rng.uniform(0, 3, n) * NA, oxide_area=np.zeros(n),
+                       row_classes=rows, open_classes=[], leakage_budget=2000 * NA,
+                       max_kinds=2)
+
+
+def _assert_within_every_limit(p: FillProblem, s: FillSolution) -> None:
+    total = s.copies.sum(axis=0)
+    assert np.all(s.copies >= 0) and s.copies.sum() > 0
+    assert total @ p.leakage <= p.leakage_budget * (1 + 1e-9)
+    assert np.count_nonzero(total) <= p.max_kinds
+    for g, c in enumerate(p.row_classes):
+        assert s.pattern_counts[g].sum() <= c.count
+    for r in range(p.n_regions):
+        placed = np.bincount(p.cell_type, weights=s.row_copies[r], minlength=p.n_types)
+        room = sum((s.pattern_counts[g] @ s.row_patterns[g] for g, c in
+                    enumerate(p.row_classes) if c.region == r), np.zeros(p.n_types))
+        assert np.all(placed <= room)
+    reached = np.sum(s.copies * p.useful_cap, axis=1)
+    assert np.all(reached + s.shortfall >= p.target * (1 - 1e-9))
+
+
+@pytest.mark.parametrize("targets_nF", [(0.0, 0.0), (0.02, 0.02), (1.0, 0.02)])
+def test_a_fill_is_returned_when_every_milp_run_runs_out_of_time(
+        monkeypatch: pytest.MonkeyPatch, targets_nF: tuple[float, float]) -> None:
+    # Source: the problem statement (a fill within every limit is returned whenever the LP
+    # relaxation and its rounding give one, even if HiGHS finds nothing before its time
+    # limit). Every branch-and-bound run is made to stop as at the time limit with no fill;
+    # no targets, reachable ones (20 pF: a few thousand copies of 5-50 fF fit each region,
+    # checked by the full solve below), and an unreachable one (1 nF in region 0).
+    from celllab.planner import fill_model
+
+    real = fill_model.run_model
+
+    def out_of_time(model: fill_model.Model, mip_rel_gap: float, time_limit: float,
+                    relax: bool = False, **kw: object) -> fill_model.Raw:
+        if relax:
+            return real(model, mip_rel_gap, time_limit, relax=True, **kw)  # type: ignore[arg-type]
+        return fill_model.Raw(model, None, 1, "Time limit reached (simulated)", 0.0)
+
+    p = _block_shaped(np.random.default_rng(3), targets_nF)
+    unhindered = solve_fill(p, mip_rel_gap=5e-3)
+    assert (unhindered.shortfall[0] > 0) == (targets_nF[0] >= 1.0)
+    assert unhindered.shortfall[1] == 0
+    monkeypatch.setattr(fill_module, "DIRECT_LIMIT", 10)
+    monkeypatch.setattr(fill_module, "run_model", out_of_time)
+    s = solve_fill(p, mip_rel_gap=5e-3, time_limit=5.0)
+    _assert_within_every_limit(p, s)
+    if targets_nF[0] < 1.0:  # reachable: met by the rounded LP of the chosen kinds
+        assert s.shortfall.max() == 0
+    else:  # unreachable: the least-shortfall fill found is kept, its shortfall reported
+        assert s.shortfall[0] > 0
+    assert s.mip_gap >= 0 and np.isfinite(s.mip_gap)
