@@ -227,19 +227,7 @@ def test_dominated_cells_are_dropped() -> None:
 def test_kind_search_path_matches_the_direct_solve(monkeypatch: pytest.MonkeyPatch) -> None:
     # Source: the direct HiGHS solve of the same problem (exact to 1e-9); the LP-guided kind
     # search must return a fill within its reported certified gap of that optimum
-    rng = np.random.default_rng(5)
-    n = 12
-    widths = rng.choice([2, 3, 4, 6], n)
-    types = sorted(set(widths.tolist()))
-    cell_type = np.array([types.index(w) for w in widths])
-    ones = [1] * len(types)
-    rows = [RowClass(int(g % 2), int(rng.integers(20, 200)), row_patterns(int(w), 1, types,
-                                                                          ones))
-            for g, w in enumerate(range(5, 25))]
-    p = FillProblem(useful_cap=rng.uniform(5, 50, (2, n)) * FF, allowed=np.ones((2, n), bool),
-                    weight=np.ones(2), target=np.zeros(2), cell_type=cell_type,
-                    leakage=rng.uniform(0, 3, n) * NA, oxide_area=np.zeros(n),
-                    row_classes=rows, open_classes=[], leakage_budget=2000 * NA, max_kinds=2)
+    p = _block_shaped(np.random.default_rng(5), (0.0, 0.0), widths_to=25)
     direct = solve_fill(p, mip_rel_gap=1e-9)
     monkeypatch.setattr(fill_module, "DIRECT_LIMIT", 10)
     searched = solve_fill(p, mip_rel_gap=1e-3)
@@ -259,9 +247,11 @@ def test_empty_fill_when_nothing_is_affordable(budget_nA: float) -> None:
     assert s.copies.sum() == 0 and s.optimal
 
 
-def _block_shaped(rng: np.random.Generator, targets_nF: tuple[float, float]) -> FillProblem:
-    """A small problem of the benchmark's shape: two regions, 24 in-row gap classes, 12 cells
-    over four footprints, a binding leakage budget, at most two kinds."""
+def _block_shaped(rng: np.random.Generator, targets_nF: tuple[float, float],
+                  widths_to: int = 29) -> FillProblem:
+    """A small problem of the benchmark's shape: two regions, in-row gap classes of widths 5 to
+    ``widths_to`` - 1 sites (24 by default), 12 cells over four footprints, a binding leakage
+    budget, at most two kinds."""
     n = 12
     widths = rng.choice([2, 3, 4, 6], n)
     types = sorted(set(widths.tolist()))
@@ -269,7 +259,7 @@ def _block_shaped(rng: np.random.Generator, targets_nF: tuple[float, float]) -> 
     ones = [1] * len(types)
     rows = [RowClass(int(g % 2), int(rng.integers(20, 200)), row_patterns(int(w), 1, types,
                                                                           ones))
-            for g, w in enumerate(range(5, 29))]
+            for g, w in enumerate(range(5, widths_to))]
     cap = rng.uniform(5, 50, (2, n)) * FF
     return FillProblem(useful_cap=cap, allowed=np.ones((2, n), bool), weight=np.ones(2),
                        target=np.array(targets_nF) * NA, cell_type=cell_type,
