@@ -566,8 +566,9 @@ def _cells_built_without_esd(db: sqlite_utils.Database, run: CharacterizationRun
 
 
 def remove_run(db: sqlite_utils.Database, run_id: int) -> int:
-    """Take back a ``store_run`` that superseded nothing: its cells, the run and, when no other
-    run used it, its deck. One transaction; returns the number of cells removed.
+    """Take back a ``store_run`` that superseded and completed nothing (``StoreReport``): its
+    cells, the run and, when no other run used it, its deck. One transaction; returns the number
+    of cells removed.
 
     Refused (CatalogError) when the run is not the latest of its deck: later runs may build on
     it. The caller knows whether the store superseded anything (``StoreReport.superseded``).

@@ -587,7 +587,9 @@ class WhatIfScreen(TaskScreen):
         if self.saved_as is None or report is None:
             self.notify("nothing saved here to take back", severity="warning")
             return
-        if report.superseded or report.run_id is None:
+        # a save that replaced results (or completed ones stored without the ESD events) took
+        # their rows out; removing its run would lose them
+        if report.superseded or report.completed or report.run_id is None:
             self.notify("this save replaced earlier results; it cannot be taken back here",
                         severity="warning")
             return
