@@ -124,16 +124,16 @@ def test_ctrl_c_during_a_build_stores_nothing(tmp_path: Path, monkeypatch: pytes
     catalog = tmp_path / "c.sqlite"
     with open_catalog(catalog) as cat:
         cat.store_run(_run())
-    original = celllab.engine._record
+    original = celllab.engine._records  # the records of one circuit-structure part at a time
     calls = []
 
-    def record_then_interrupt(*args, **kwargs):  # type: ignore[no-untyped-def]
+    def records_then_interrupt(*args, **kwargs):  # type: ignore[no-untyped-def]
         calls.append(1)
         if len(calls) == 3:
             raise KeyboardInterrupt
         return original(*args, **kwargs)
 
-    monkeypatch.setattr(celllab.engine, "_record", record_then_interrupt)
+    monkeypatch.setattr(celllab.engine, "_records", records_then_interrupt)
     cells = REPO / "process_decks" / "cells" / "lumen130_cells.toml"
     code, _, err = run_cli("build", "--deck", str(lumen130_path), "--cells", str(cells),
                            "--catalog", str(catalog), "--quiet")
