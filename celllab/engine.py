@@ -108,36 +108,6 @@ def _risk(deck: Deck, corners: CornerSet, topology: str, out: Any, cells: list[C
     return found
 
 
-def _risk_figures(risk: tuple[CatalogRisk, int] | None, n_corner: int, j: int) -> dict[str, float]:
-    if risk is None:
-        return {}
-    fig, k = risk
-    r = k * n_corner + j
-
-    def above(ev: Any) -> float:  # empty, not zero, for a cell without gate oxide
-        return float(ev.time_above_s[0, r]) if np.isfinite(ev.peak_oxide_V[0, r]) else float("nan")
-
-    return dict(
-        hbm_peak_oxide_V=float(np.abs(fig.hbm.peak_oxide_V[0, r])), hbm_time_above_s=above(fig.hbm),
-        cdm_peak_oxide_V=float(np.abs(fig.cdm.peak_oxide_V[0, r])), cdm_time_above_s=above(fig.cdm),
-        hbm_oxide_share=float(fig.hbm.shielding[0, r]), esd_series_helps=float(fig.series_helps[r]),
-        fault_current_A=float(fig.fault_current_A[r]), fault_power_W=float(fig.fault_power_W[r]),
-        fault_survives=float(fig.fault_survives[r]))
-
-
-def _series_inductance(out: Any, k: int, j: int) -> float:
-    """ESL: the circuit's rail-loop inductance element (the sweep often ends below the SRF)."""
-    try:
-        value = np.broadcast_to(out.netlist.element("l_loop").value, (out.n_variant * out.n_corner,))
-    except KeyError:
-        return float(out.summary["esl_H"][k, j])
-    return float(value[k * out.n_corner + j])
-
-
-def _finite(x: float) -> float:
-    return float(x) if np.isfinite(x) else float("nan")
-
-
 _WORD_CHARS = frozenset("ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789_")
 
 
@@ -162,10 +132,8 @@ ESD_EVENT_METRICS = ("hbm_oxide_peak_V", "hbm_over_vbd_ns", "hbm_margin_V", "cdm
 
 def _empty_metric_flags(metrics: dict[str, float], flags: list[str]) -> list[str]:
     """A flag for the metrics that came out empty or infinite and no flag explains yet."""
-    overflow = [k for k, v in metrics.items() if math.isinf(v)]
-    missing = [k for k, v in metrics.items() if math.isnan(v)]
-    overflow = [k for k in overflow if not _names(k, flags)]
-    missing = [k for k in missing if not _names(k, flags)]
+    overflow = [k for k, v in metrics.items() if math.isinf(v) and not _names(k, flags)]
+    missing = [k for k, v in metrics.items() if math.isnan(v) and not _names(k, flags)]
     out = []
     if overflow:
         out.append(f"out_of_range: {', '.join(overflow)} stored empty: the model overflows the float "
@@ -190,55 +158,6 @@ def _band_flags(out: Any, k: int, j: int, top_Hz: float) -> list[str]:
             flags.append(f"{name}_beyond_band: {label} {value} lies above the analysed band (to {top}); "
                          "computed from the equivalent circuit, an extrapolation of the lumped model")
     return flags
-
-
-def _record(spec: CellSpec, geo: Any, corners: CornerSet, group: Any, index: int, freq: np.ndarray,
-            risk: tuple[CatalogRisk, int] | None = None, esd_run: bool = True) -> CellResult:
-    """The record of one variant, built corner by corner from scalars: the reference path that
-    ``_records`` (what ``characterize`` runs) builds in bulk; ``tests/test_engine_bulk.py`` holds
-    them equal."""
-    out, k = group.row(index)
-    corner_results = []
-    notes = list(out.notes)
-    for j, cname in enumerate(corners.names):
-        flags = list(out.flags[k][j]) + _band_flags(out, k, j, float(freq[-1]))
-        if risk is not None:
-            flags += [f for f in risk[0].flags[risk[1] * len(corners.names) + j] if f not in flags]
-        bw = float(out.summary["bandwidth_Hz"][k, j])
-        srf = float(out.summary["srf_Hz"][k, j])
-        figures = CornerFigures(
-            area_um2=geo.area_um2, c_lf_F=float(out.summary["c_lf_F"][k, j]), cap_ox_F=float(out.cap_ox_F[k, j]),
-            esr_lf_ohm=float(out.summary["esr_lf_ohm"][k, j]), esr_probe_ohm=float(out.summary["esr_at_ohm"][k, j, 0]),
-            bandwidth_Hz=bw, bandwidth_is_bound=bool(out.summary["bandwidth_is_bound"][k, j]),
-            esl_H=_series_inductance(out, k, j), srf_Hz=srf, srf_is_bound=bool(out.summary["srf_is_bound"][k, j]),
-            tau_s=float(out.summary["tau_s"][k, j]),
-            gate_leakage_A=float(out.gate_leakage_A[k, j]), junction_leakage_A=float(out.junction_leakage_A[k, j]),
-            e_ox_V_per_m=float(out.e_ox_V_per_m[k, j]), tddb_rate_per_s_m2=float(out.tddb_rate_per_s_m2[k, j]),
-            vbd_pulse_V=float(out.vbd_pulse_V[k, j]),
-            **_risk_figures(risk, len(corners.names), j))
-        m = {metric.name: float(metric.compute(figures)) for metric in METRICS}  # type: ignore[misc]
-        if not esd_run:  # say why the event columns are empty, before the generic flag does
-            skipped = [name for name in ESD_EVENT_METRICS if np.isnan(m.get(name, 0.0))]
-            if skipped:
-                flags.append(_esd_not_run_flag(skipped))
-        flags += _empty_metric_flags(m, flags)
-        m = {key: _finite(v) for key, v in m.items()}
-        cv = None
-        if out.cv_bias is not None:
-            cv = CVCurve(bias_V=np.asarray(out.cv_bias[k, j], dtype=float), cap_F=np.asarray(out.cv_cap[k, j], dtype=float),
-                         operating_bias_V=float(out.cv_operating_V[k, j]), operating_cap_F=float(out.cv_operating_F[k, j]))
-        corner_results.append(CornerResult(
-            corner=cname, temperature_C=float(from_si(corners.temperature_K[j], "degC")),
-            supply_V=float(out.supply_V[k, j]), metrics=m,
-            response=FrequencyResponse(freq_Hz=freq.copy(), z_ohm=out.z_ohm[k, j].copy()), cv=cv, flags=flags))
-    if risk is not None and risk[0].notes[risk[1] * len(corners.names)] != "no gate oxide":
-        notes.append(_hbm_note(spec, corners, risk[0].notes[risk[1] * len(corners.names)]))
-    return CellResult(
-        name=spec.name, cell_hash=spec.content_hash, family=spec.family, topology=spec.topology, oxide=spec.oxide,
-        geometry=_geometry(spec, geo), area_um2=geo.area_um2, width_sites=spec.width_sites,
-        height_rows=spec.height_rows, gate_area_um2=_gate_area(geo), esd_safe=spec.esd_safe, corners=corner_results,
-        netlist={cname: out.netlist_for(k, j) for j, cname in enumerate(corners.names)}, notes=notes,
-        placement=spec.placement, rail=spec.rail)
 
 
 def _esd_not_run_flag(skipped: Sequence[str]) -> str:
@@ -280,7 +199,8 @@ def _gate_area(geo: Any) -> float:
 # ----------------------------------------------------------------------------- bulk records
 # ``_records`` builds the records of a whole circuit-structure part at once: every figure and
 # metric as an (n_variant, n_corner) array, flags only where a mask says one is due, circuits on
-# demand (``records.CornerCircuits``). Same values as ``_record`` (``tests/test_engine_bulk.py``).
+# demand (``records.CornerCircuits``). Same values as building each variant from scalars, corner
+# by corner (the reference path in ``tests/test_engine_bulk.py``).
 
 
 def _part_figures(part: Any, geos: Sequence[Any], risks: Sequence[tuple[CatalogRisk, int] | None],

@@ -1,5 +1,5 @@
 """The engine's bulk record path (``engine._records``, what ``characterize`` runs) against its
-reference path (``engine._record``, one variant and one corner at a time from scalars).
+reference path (``_record`` below, one variant and one corner at a time from scalars).
 
 No outside source applies: these are equivalence checks between two ways of computing the same
 values (the values themselves are checked against outside sources in ``tests/test_engine.py``).
@@ -12,6 +12,7 @@ import dataclasses
 import math
 import pickle
 import re
+from typing import Any
 
 import numpy as np
 import pytest
@@ -22,14 +23,106 @@ from celllab import engine, topologies
 from celllab.cells import CellSpec, load_cells, resolve
 from celllab.characterization.params import CornerSet
 from celllab.deck import load_deck
-from celllab.records import METRICS, CornerCircuits, CornerFigures, netlist_to_dict
+from celllab.records import (
+    METRICS,
+    CellResult,
+    CornerCircuits,
+    CornerFigures,
+    CornerResult,
+    CVCurve,
+    FrequencyResponse,
+    netlist_to_dict,
+)
+from celllab.units import from_si
 
 DECK = "process_decks/lumen130.toml"
 CELLS = "process_decks/cells/lumen130_cells.toml"
 
 
+# --- the reference path: one variant, one corner at a time, from scalars -----------------------
+
+def _risk_figures(risk: tuple[Any, int] | None, n_corner: int, j: int) -> dict[str, float]:
+    if risk is None:
+        return {}
+    fig, k = risk
+    r = k * n_corner + j
+
+    def above(ev: Any) -> float:  # empty, not zero, for a cell without gate oxide
+        return float(ev.time_above_s[0, r]) if np.isfinite(ev.peak_oxide_V[0, r]) else float("nan")
+
+    return dict(
+        hbm_peak_oxide_V=float(np.abs(fig.hbm.peak_oxide_V[0, r])), hbm_time_above_s=above(fig.hbm),
+        cdm_peak_oxide_V=float(np.abs(fig.cdm.peak_oxide_V[0, r])), cdm_time_above_s=above(fig.cdm),
+        hbm_oxide_share=float(fig.hbm.shielding[0, r]), esd_series_helps=float(fig.series_helps[r]),
+        fault_current_A=float(fig.fault_current_A[r]), fault_power_W=float(fig.fault_power_W[r]),
+        fault_survives=float(fig.fault_survives[r]))
+
+
+def _series_inductance(out: Any, k: int, j: int) -> float:
+    """ESL: the circuit's rail-loop inductance element (the sweep often ends below the SRF)."""
+    try:
+        value = np.broadcast_to(out.netlist.element("l_loop").value, (out.n_variant * out.n_corner,))
+    except KeyError:
+        return float(out.summary["esl_H"][k, j])
+    return float(value[k * out.n_corner + j])
+
+
+def _finite(x: float) -> float:
+    return float(x) if np.isfinite(x) else float("nan")
+
+
+
+
+def _record(spec: CellSpec, geo: Any, corners: CornerSet, group: Any, index: int, freq: np.ndarray,
+            risk: tuple[Any, int] | None = None, esd_run: bool = True) -> CellResult:
+    """The record of one variant, built corner by corner from scalars: the reference for what
+    ``engine._records`` (what ``characterize`` runs) builds in bulk."""
+    out, k = group.row(index)
+    corner_results = []
+    notes = list(out.notes)
+    for j, cname in enumerate(corners.names):
+        flags = list(out.flags[k][j]) + engine._band_flags(out, k, j, float(freq[-1]))
+        if risk is not None:
+            flags += [f for f in risk[0].flags[risk[1] * len(corners.names) + j] if f not in flags]
+        bw = float(out.summary["bandwidth_Hz"][k, j])
+        srf = float(out.summary["srf_Hz"][k, j])
+        figures = CornerFigures(
+            area_um2=geo.area_um2, c_lf_F=float(out.summary["c_lf_F"][k, j]), cap_ox_F=float(out.cap_ox_F[k, j]),
+            esr_lf_ohm=float(out.summary["esr_lf_ohm"][k, j]), esr_probe_ohm=float(out.summary["esr_at_ohm"][k, j, 0]),
+            bandwidth_Hz=bw, bandwidth_is_bound=bool(out.summary["bandwidth_is_bound"][k, j]),
+            esl_H=_series_inductance(out, k, j), srf_Hz=srf, srf_is_bound=bool(out.summary["srf_is_bound"][k, j]),
+            tau_s=float(out.summary["tau_s"][k, j]),
+            gate_leakage_A=float(out.gate_leakage_A[k, j]), junction_leakage_A=float(out.junction_leakage_A[k, j]),
+            e_ox_V_per_m=float(out.e_ox_V_per_m[k, j]), tddb_rate_per_s_m2=float(out.tddb_rate_per_s_m2[k, j]),
+            vbd_pulse_V=float(out.vbd_pulse_V[k, j]),
+            **_risk_figures(risk, len(corners.names), j))
+        m = {metric.name: float(metric.compute(figures)) for metric in METRICS}  # type: ignore[misc]
+        if not esd_run:  # say why the event columns are empty, before the generic flag does
+            skipped = [name for name in engine.ESD_EVENT_METRICS if np.isnan(m.get(name, 0.0))]
+            if skipped:
+                flags.append(engine._esd_not_run_flag(skipped))
+        flags += engine._empty_metric_flags(m, flags)
+        m = {key: _finite(v) for key, v in m.items()}
+        cv = None
+        if out.cv_bias is not None:
+            cv = CVCurve(bias_V=np.asarray(out.cv_bias[k, j], dtype=float), cap_F=np.asarray(out.cv_cap[k, j], dtype=float),
+                         operating_bias_V=float(out.cv_operating_V[k, j]), operating_cap_F=float(out.cv_operating_F[k, j]))
+        corner_results.append(CornerResult(
+            corner=cname, temperature_C=float(from_si(corners.temperature_K[j], "degC")),
+            supply_V=float(out.supply_V[k, j]), metrics=m,
+            response=FrequencyResponse(freq_Hz=freq.copy(), z_ohm=out.z_ohm[k, j].copy()), cv=cv, flags=flags))
+    if risk is not None and risk[0].notes[risk[1] * len(corners.names)] != "no gate oxide":
+        notes.append(engine._hbm_note(spec, corners, risk[0].notes[risk[1] * len(corners.names)]))
+    return CellResult(
+        name=spec.name, cell_hash=spec.content_hash, family=spec.family, topology=spec.topology, oxide=spec.oxide,
+        geometry=engine._geometry(spec, geo), area_um2=geo.area_um2, width_sites=spec.width_sites,
+        height_rows=spec.height_rows, gate_area_um2=engine._gate_area(geo), esd_safe=spec.esd_safe, corners=corner_results,
+        netlist={cname: out.netlist_for(k, j) for j, cname in enumerate(corners.names)}, notes=notes,
+        placement=spec.placement, rail=spec.rail)
+
+
 def _reference(deck, cells, esd):
-    """Every cell's record through ``engine._record`` (the per-variant scalar path)."""
+    """Every cell's record through ``_record`` (the per-variant scalar path)."""
     corners = CornerSet.from_deck(deck, None)
     geos = [resolve(c, deck) for c in cells]
     freq = engine.sweep_frequencies(deck.analysis)
@@ -43,7 +136,7 @@ def _reference(deck, cells, esd):
             group = topologies.evaluate(topology, deck, corners, g_cells, g_geos, freq)
             risk = engine._risk(deck, corners, topology, group, g_cells, g_geos) if esd else {}
             for k, i in enumerate(idx):
-                out[cells[i].name] = engine._record(cells[i], geos[i], corners, group, k, freq, risk.get(k),
+                out[cells[i].name] = _record(cells[i], geos[i], corners, group, k, freq, risk.get(k),
                                                     esd_run=esd)
     return out
 
