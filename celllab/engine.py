@@ -24,6 +24,7 @@ from celllab.characterization.params import CornerSet
 from celllab.characterization.risk_inputs import inputs_from_group
 from celllab.deck.schema import AnalysisBand, Deck
 from celllab.records import (
+    ESD_NOT_RUN,
     METRIC_NAMES,
     METRICS,
     CellResult,
@@ -161,7 +162,7 @@ def _band_flags(out: Any, k: int, j: int, top_Hz: float) -> list[str]:
 
 
 def _esd_not_run_flag(skipped: Sequence[str]) -> str:
-    return (f"esd_not_run: {', '.join(skipped)} stored empty: built without the deck's ESD events "
+    return (f"{ESD_NOT_RUN}: {', '.join(skipped)} stored empty: built without the deck's ESD events "
             "(build --no-esd, characterize(esd=False))")
 
 

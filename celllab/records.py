@@ -35,8 +35,12 @@ MetricInfo = Column
 __all__ = [
     "CELL_COLUMNS", "METRICS", "METRIC_BY_NAME", "METRIC_NAMES", "Better", "CVCurve", "CellResult",
     "CharacterizationRun", "CornerFigures", "CornerResult", "FrequencyResponse", "MetricInfo", "corner_bounds", "corner_metrics",
-    "netlist_from_dict", "netlist_to_dict", "CornerCircuits",
+    "netlist_from_dict", "netlist_to_dict", "CornerCircuits", "ESD_NOT_RUN",
 ]
+
+#: The flag a corner carries when it was built without the deck's ESD events (its event
+#: columns empty): the engine writes it, a later build with the events looks for it.
+ESD_NOT_RUN = "esd_not_run"
 
 
 @dataclass(frozen=True)

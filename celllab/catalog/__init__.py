@@ -114,8 +114,7 @@ class Catalog:
         sql = ("SELECT cell_hash, name FROM cells c WHERE deck_hash = ? AND model_version = ? "
                "AND current = 1")
         if with_esd:
-            sql += (" AND NOT EXISTS (SELECT 1 FROM corner_metrics m WHERE m.cell_id = c.cell_id "
-                    "AND m.flags_json LIKE '%esd_not_run:%')")
+            sql += f" AND NOT {_store.BUILT_WITHOUT_ESD}"
         with self._access() as db:
             return {(str(h), str(n)) for h, n in db.execute(sql, [deck_hash, model_version]).fetchall()}
 

@@ -34,6 +34,7 @@ from celllab.display import nan_to_none, none_to_nan  # SQLite stores NaN as NUL
 from celllab.errors import CatalogError, Problem
 from celllab.records import (
     CELL_COLUMNS,
+    ESD_NOT_RUN,
     METRIC_NAMES,
     CellResult,
     CharacterizationRun,
@@ -549,20 +550,21 @@ def store_run(db: sqlite_utils.Database, run: CharacterizationRun) -> StoreRepor
     return StoreReport(run_id, len(new), unchanged, superseded, differing, len(completing))
 
 
-_ESD_NOT_RUN = "esd_not_run:"
+#: SQL: the cell ``c`` was stored without the deck's ESD events (a corner carries the flag).
+BUILT_WITHOUT_ESD = ("EXISTS (SELECT 1 FROM corner_metrics m WHERE m.cell_id = c.cell_id "
+                     f"AND m.flags_json LIKE '%{ESD_NOT_RUN}:%')")
 
 
 def _has_esd(cell: PreparedCell) -> bool:
     """Whether this prepared result was built with the deck's ESD events."""
-    return not any(_ESD_NOT_RUN in row["flags_json"] for row in cell.corner_rows)
+    return not any(f"{ESD_NOT_RUN}:" in row["flags_json"] for row in cell.corner_rows)
 
 
 def _cells_built_without_esd(db: sqlite_utils.Database, run: CharacterizationRun) -> set[int]:
     """cell_id of the results of this deck and model version stored without the ESD events."""
     return {int(r[0]) for r in db.execute(
-        "SELECT DISTINCT c.cell_id FROM cells c JOIN corner_metrics m ON m.cell_id = c.cell_id "
-        "WHERE c.deck_hash = ? AND c.model_version = ? AND m.flags_json LIKE ?",
-        [run.deck_hash, run.model_version, f"%{_ESD_NOT_RUN}%"])}
+        f"SELECT cell_id FROM cells c WHERE deck_hash = ? AND model_version = ? AND {BUILT_WITHOUT_ESD}",
+        [run.deck_hash, run.model_version])}
 
 
 def remove_run(db: sqlite_utils.Database, run_id: int) -> int:

@@ -90,7 +90,8 @@ def cmd_build(args: argparse.Namespace) -> int:
             reports.append((deck.name, len(cells), len(cells) - len(todo), report))
     if args.json:
         print(json.dumps([{"deck": d, "cells": n, "run_id": r.run_id, "inserted": r.inserted,
-                           "unchanged": r.unchanged + skipped, "superseded": r.superseded}
+                           "unchanged": r.unchanged + skipped, "superseded": r.superseded,
+                           "completed": r.completed}
                           for d, n, skipped, r in reports]))
     else:
         for d, n, skipped, r in reports:
@@ -102,9 +103,8 @@ def cmd_build(args: argparse.Namespace) -> int:
 def build_summary(report, skipped: int) -> str:  # type: ignore[no-untyped-def]
     """What a build did, in words: new results, results already stored, results replaced."""
     unchanged = report.unchanged + skipped
-    completed = getattr(report, "completed", 0)
-    new = f"{report.inserted} new" + (f" ({completed} of them with the ESD events an earlier "
-                                      "--no-esd build left out)" if completed else "")
+    new = f"{report.inserted} new" + (f" ({report.completed} of them with the ESD events an earlier "
+                                      "--no-esd build left out)" if report.completed else "")
     parts = [new, f"{unchanged} already stored"]
     if report.superseded:
         if report.inserted:

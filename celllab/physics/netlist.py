@@ -134,8 +134,8 @@ class Element:
         """This element with plain float values for one variant.
 
         Built without ``__post_init__``: every variant's values were checked when this element
-        was made, and one variant's plain floats pass the same checks (``_checked_variant`` is
-        the checking twin; ``tests/physics/test_netlist_variant.py`` holds them equal).
+        was made, and one variant's plain floats pass the same checks
+        (``tests/physics/test_netlist_variant.py`` holds it equal to the constructor's result).
         """
         new = object.__new__(Element)
         fields_ = new.__dict__
@@ -144,11 +144,6 @@ class Element:
         if self.c_total is not None:
             fields_["c_total"] = _pick(self.c_total, index)
         return new
-
-    def _checked_variant(self, index: int) -> Element:
-        """``variant`` through the constructor and its checks."""
-        c = None if self.c_total is None else _pick(self.c_total, index)
-        return replace(self, value=_pick(self.value, index), c_total=c)
 
 
 def _pick(v: FloatArray | float, index: int) -> float:
@@ -222,7 +217,8 @@ class Netlist:
         """The netlist of one variant: every element value a plain float (for rendering).
 
         Names, ports and nodes were checked when this netlist was made and one variant keeps
-        them, so it is built without ``__post_init__`` (``_checked_variant``: the checking twin).
+        them, so it is built without ``__post_init__`` (equal to the constructors' result:
+        ``tests/physics/test_netlist_variant.py``).
         """
         if not -self.n_variant <= index < self.n_variant:
             raise IndexError(f"variant {index} out of range for {self.n_variant} variants")
@@ -230,12 +226,6 @@ class Netlist:
         new.__dict__.update(name=self.name, elements=tuple(el.variant(index) for el in self.elements),
                             ports=self.ports, _n_variant=1)
         return new
-
-    def _checked_variant(self, index: int) -> Netlist:
-        """``variant`` through the constructors and their checks."""
-        if not -self.n_variant <= index < self.n_variant:
-            raise IndexError(f"variant {index} out of range for {self.n_variant} variants")
-        return Netlist(self.name, tuple(el._checked_variant(index) for el in self.elements), self.ports)
 
     def take(self, rows: ArrayLike) -> Netlist:
         """The netlist of the given variants, in that order (a value shared by all stays one)."""

@@ -66,15 +66,12 @@ class MergedGroup:
     """Several GroupResults (sub-groups with different circuit structure) in one variant order."""
 
     parts: list[tuple[list[int], GroupResult]]
-    _rows: dict[int, tuple[GroupResult, int]] = field(default_factory=dict, init=False, repr=False, compare=False)
 
     def row(self, variant: int) -> tuple[GroupResult, int]:
-        if not self._rows:
-            self._rows.update({i: (part, k) for idx, part in self.parts for k, i in enumerate(idx)})
-        try:
-            return self._rows[variant]
-        except KeyError:
-            raise IndexError(variant) from None
+        for idx, part in self.parts:
+            if variant in idx:
+                return part, idx.index(variant)
+        raise IndexError(variant)
 
 
 @dataclass(frozen=True)

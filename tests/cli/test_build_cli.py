@@ -113,7 +113,7 @@ def test_a_build_with_esd_completes_results_an_earlier_no_esd_build_stored(tmp_p
     assert hbm_margins() == [None, None]
     assert main(args) == 0
     done = json.loads(capsys.readouterr().out)[0]
-    assert done["inserted"] == 2 and done["unchanged"] == 0
+    assert done["inserted"] == 2 and done["unchanged"] == 0 and done["completed"] == 2
     margins = hbm_margins()
     assert len(margins) == 2 and all(m is not None for m in margins)
     with open_catalog(cat) as c:  # replaced, not kept beside: two results in all, history included
