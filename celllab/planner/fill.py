@@ -523,8 +523,8 @@ def solve_fill(problem: FillProblem, mip_rel_gap: float = 5e-3,
     found = _solve_goal(p, targets, "hard", "goal", mip_rel_gap, deadline)
     gap = found.gap if found is not None else 0.0
     if found is None:  # the targets cannot all be met: least relative shortfall first
-        empty = _Found(p, _empty(p), _natural(p, _empty(p), "shortfall"), 0.0, 0,
-                       "nothing placed")
+        nothing = _empty(p)
+        empty = _Found(p, nothing, _natural(p, nothing, "shortfall"), 0.0, 0, "nothing placed")
         share = time.perf_counter() + SHORTFALL_SHARE * max(deadline - time.perf_counter(), 0)
         first = _solve_goal(p, targets, "elastic", "shortfall", mip_rel_gap, share,
                             incumbent=empty)

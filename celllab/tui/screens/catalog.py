@@ -442,20 +442,22 @@ class CatalogScreen(TaskScreen):
         self.app.push_screen(CompareScreen([(n, d or self.lab.current_deck) for n, d in marked],
                                            self.lab.current_corner))
 
-    def action_fill_risk(self) -> None:
+    def _highlighted_cell(self) -> tuple[str, str | None] | None:
+        """(name, deck) of the highlighted row; None (with a warning) when there is none."""
         row = self.query_one(CatalogTable).highlighted_row()
         if row is None:
             self.notify("no cell highlighted", severity="warning")
-            return
-        from celllab.tui.screens.fill_risk import FillRiskScreen
+            return None
+        return str(row["name"]), row.get("deck") or self.lab.current_deck
 
-        self.app.push_screen(FillRiskScreen(str(row["name"]), row.get("deck") or self.lab.current_deck))
+    def action_fill_risk(self) -> None:
+        if (cell := self._highlighted_cell()) is not None:
+            from celllab.tui.screens.fill_risk import FillRiskScreen
+
+            self.app.push_screen(FillRiskScreen(*cell))
 
     def action_what_if(self) -> None:
-        row = self.query_one(CatalogTable).highlighted_row()
-        if row is None:
-            self.notify("no cell highlighted", severity="warning")
-            return
-        from celllab.tui.screens.whatif import WhatIfScreen
+        if (cell := self._highlighted_cell()) is not None:
+            from celllab.tui.screens.whatif import WhatIfScreen
 
-        self.app.push_screen(WhatIfScreen(str(row["name"]), row.get("deck") or self.lab.current_deck))
+            self.app.push_screen(WhatIfScreen(*cell))
