@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import copy
 import dataclasses
+import gc
 import math
 from collections.abc import Callable, Sequence
 from typing import Any
@@ -60,9 +61,18 @@ def characterize(deck: Deck, cells: Sequence[CellSpec], corners: Sequence[str] |
     empty.
     """
     corner_set = CornerSet.from_deck(deck, list(corners) if corners else None)
-    geometries = [resolve(c, deck) for c in cells]
-    with np.errstate(all="ignore"):  # out-of-range values become flagged empty metrics, not warnings
-        return _characterize(deck, cells, corner_set, geometries, progress, sources, esd)
+    # the run makes millions of small objects and no reference cycles worth collecting: the
+    # cyclic collector would walk every live object again at each of its passes (a cost that
+    # grows with the run), so it pauses for the run
+    collecting = gc.isenabled()
+    gc.disable()
+    try:
+        geometries = [resolve(c, deck) for c in cells]
+        with np.errstate(all="ignore"):  # out-of-range values become flagged empty metrics, not warnings
+            return _characterize(deck, cells, corner_set, geometries, progress, sources, esd)
+    finally:
+        if collecting:
+            gc.enable()
 
 
 def _characterize(deck: Deck, cells: Sequence[CellSpec], corner_set: CornerSet, geometries: list[Any],

@@ -43,21 +43,23 @@ def _gamma(r_total: ArrayLike, c_total: ArrayLike, omega: ArrayLike) -> ComplexA
 
 
 def _coth_over_gamma_minus_inverse_square(gamma: ComplexArray) -> ComplexArray:
-    """h(gamma) = coth(gamma)/gamma - 1/gamma^2, finite at gamma = 0 (h(0) = 1/3)."""
-    g2 = gamma * gamma
-    small = np.abs(gamma) < _SERIES_LIMIT
-    large = gamma.real > _EXP_LIMIT
-    safe = np.where(small, 1.0, gamma)
-    # coth from exp(-2 gamma) for large gamma, from cosh/sinh otherwise
-    decay = np.exp(-2.0 * np.where(large, safe, 1.0))
-    coth_large = (1.0 + decay) / (1.0 - decay)
-    moderate = np.where(large | small, 1.0, safe)
-    coth_moderate = np.cosh(moderate) / np.sinh(moderate)
-    coth = np.where(large, coth_large, coth_moderate)
-    exact = coth / safe - 1.0 / (safe * safe)
-    # coth(x)/x = 1/x^2 + 1/3 - x^2/45 + 2x^4/945 - x^6/4725 + ...
-    series = 1.0 / 3.0 - g2 / 45.0 + 2.0 * g2**2 / 945.0 - g2**3 / 4725.0
-    return np.where(small, series, exact)
+    """h(gamma) = coth(gamma)/gamma - 1/gamma^2, finite at gamma = 0 (h(0) = 1/3).
+
+    h is even in gamma, so it is evaluated at the root with Re >= 0, where
+    coth = (1 + e) / (1 - e) with e = exp(-2 gamma), |e| <= 1, cannot overflow (one exponential
+    instead of cosh and sinh); below |gamma| = 0.05 from its Taylor series (cancellation).
+    """
+    gamma = np.asarray(gamma)
+    g = np.where(gamma.real < 0, -gamma, gamma)
+    small = np.abs(g) < _SERIES_LIMIT
+    safe = np.where(small, 1.0, g)
+    e = np.exp(-2.0 * safe)
+    out = np.atleast_1d((1.0 + e) / ((1.0 - e) * safe) - 1.0 / (safe * safe))
+    if small.any():
+        # coth(x)/x = 1/x^2 + 1/3 - x^2/45 + 2x^4/945 - x^6/4725 + ...
+        g2 = g[small] ** 2
+        out[np.atleast_1d(small)] = 1.0 / 3.0 - g2 / 45.0 + 2.0 * g2**2 / 945.0 - g2**3 / 4725.0
+    return out.reshape(g.shape)
 
 
 def rc_line_impedance(

@@ -42,6 +42,7 @@ from numpy.typing import ArrayLike, NDArray
 
 from celllab.physics.constants import FloatArray
 from celllab.physics.distributed_rc import rc_line_even_odd_admittances, rc_line_impedance
+from celllab.physics.series_parallel import ReductionPlan, reduced_impedance, reduction_plan
 
 ComplexArray = NDArray[np.complex128]
 ElementKind = Literal["R", "C", "L", "RCLINE"]
@@ -599,7 +600,8 @@ def _variant_count(*rows: int) -> int:
     return n_var
 
 
-def solve_impedance(netlist: Netlist, freq_Hz: ArrayLike) -> ComplexArray:
+def solve_impedance(netlist: Netlist, freq_Hz: ArrayLike,
+                    method: Literal["auto", "nodal"] = "auto") -> ComplexArray:
     """Impedance between the two ports of every variant at every frequency.
 
     Parameters
@@ -607,6 +609,10 @@ def solve_impedance(netlist: Netlist, freq_Hz: ArrayLike) -> ComplexArray:
     netlist : Netlist
     freq_Hz : array_like   frequencies, Hz, > 0: shape (n_freq,) shared by all variants, or
                            (n_variant, n_freq) per variant
+    method : {"auto", "nodal"}   "auto": a series-parallel circuit is reduced element-wise
+                           (`celllab.physics.series_parallel`), every other circuit and every
+                           variant with a zero-valued element (or a non-finite reduced value)
+                           is solved by nodal analysis; "nodal": nodal analysis throughout
 
     Returns
     -------
@@ -623,6 +629,8 @@ def solve_impedance(netlist: Netlist, freq_Hz: ArrayLike) -> ComplexArray:
     last, so the real part of a mostly capacitive low-frequency Z (omega R C ~ 1e-9) keeps full
     relative precision. Every component other than the reference one must reach the network
     through some element at each frequency (a floating node makes the matrix singular).
+    The series-parallel reduction gives the same impedance (it is exact too; the two differ at
+    the rounding level, ``tests/physics/test_series_parallel.py``).
     """
     f = _frequencies(freq_Hz)
     try:
@@ -631,8 +639,37 @@ def solve_impedance(netlist: Netlist, freq_Hz: ArrayLike) -> ComplexArray:
         raise ValueError(
             f"freq_Hz rows {f.shape[0]} and netlist variants {netlist.n_variant} do not broadcast"
         ) from None
-    z = solve_transfer(netlist, f, [netlist.ports[0]])
-    return np.asarray(np.broadcast_to(z[..., 0, 0], (n_var, f.shape[1])), dtype=complex)
+    plan = _reduction_plan(netlist) if method == "auto" else None
+    if plan is None:
+        z = solve_transfer(netlist, f, [netlist.ports[0]])
+        return np.asarray(np.broadcast_to(z[..., 0, 0], (n_var, f.shape[1])), dtype=complex)
+    with np.errstate(all="ignore"):  # a non-finite value is solved again below
+        reduced = reduced_impedance(netlist, plan, 2.0 * np.pi * f)
+    out = np.array(np.broadcast_to(reduced, (n_var, f.shape[1])), dtype=complex)
+    again = ~np.isfinite(out).all(axis=1)
+    for el in netlist.elements:  # a zero value is a short or an open: not for reciprocals
+        again |= np.broadcast_to(np.asarray(el.value) == 0, (n_var,))
+        if el.c_total is not None:
+            again |= np.broadcast_to(np.asarray(el.c_total) == 0, (n_var,))
+    if again.any():
+        rows = np.flatnonzero(again)
+        sub = netlist.take(rows) if netlist.n_variant > 1 else netlist
+        out[rows] = solve_transfer(sub, f[rows] if f.shape[0] > 1 else f, [netlist.ports[0]])[..., 0, 0]
+    return out
+
+
+_PLANS: dict[tuple[object, ...], ReductionPlan | None] = {}
+_MAX_PLANS = 512
+
+
+def _reduction_plan(netlist: Netlist) -> ReductionPlan | None:
+    """`reduction_plan` of the netlist's structure, found once per structure."""
+    key = structure_key(netlist)
+    if key not in _PLANS:
+        if len(_PLANS) >= _MAX_PLANS:
+            _PLANS.clear()
+        _PLANS[key] = reduction_plan(netlist)
+    return _PLANS[key]
 
 
 def solve_transfer(

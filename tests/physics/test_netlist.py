@@ -2,16 +2,31 @@
 
 from __future__ import annotations
 
+import functools
+from collections.abc import Iterator
+
 import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from celllab.physics.distributed_rc import rc_line_impedance
-from celllab.physics.netlist import Element, Netlist, ladder_expansion, parallel, solve_impedance
+from celllab.physics import netlist as netlist_module
+from celllab.physics.netlist import Element, Netlist, ladder_expansion, parallel
 
 F = np.geomspace(1e3, 1e12, 37)
 W = 2 * np.pi * F
+solve_impedance = netlist_module.solve_impedance
+
+
+@pytest.fixture(autouse=True, scope="module", params=["auto", "nodal"])
+def _solver(request: pytest.FixtureRequest) -> Iterator[str]:
+    """Every check here runs twice: through the series-parallel reduction where a circuit has
+    one ("auto", the default) and through nodal analysis alone ("nodal")."""
+    global solve_impedance
+    solve_impedance = functools.partial(netlist_module.solve_impedance, method=request.param)
+    yield request.param
+    solve_impedance = netlist_module.solve_impedance
 
 
 def _line(r: object, c: object, ends: int = 1) -> Netlist:
