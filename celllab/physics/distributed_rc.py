@@ -59,7 +59,7 @@ def _coth_over_gamma_minus_inverse_square(gamma: ComplexArray) -> ComplexArray:
         # coth(x)/x = 1/x^2 + 1/3 - x^2/45 + 2x^4/945 - x^6/4725 + ...
         g2 = g[small] ** 2
         out[np.atleast_1d(small)] = 1.0 / 3.0 - g2 / 45.0 + 2.0 * g2**2 / 945.0 - g2**3 / 4725.0
-    return out.reshape(g.shape)
+    return np.asarray(out.reshape(g.shape), dtype=complex)
 
 
 def rc_line_impedance(

@@ -10,8 +10,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from celllab.physics.distributed_rc import rc_line_impedance
 from celllab.physics import netlist as netlist_module
+from celllab.physics.distributed_rc import rc_line_impedance
 from celllab.physics.netlist import Element, Netlist, ladder_expansion, parallel
 
 F = np.geomspace(1e3, 1e12, 37)
