@@ -258,3 +258,30 @@ def test_corner_circuits_behave_as_a_dict(deck) -> None:
     assert circuits.get("no_such_corner") is None
     back = pickle.loads(pickle.dumps(run.cells[1]))
     assert type(back.netlist) is dict and back.netlist == plain
+
+
+def test_parts_give_each_cell_the_result_of_one_call() -> None:
+    """Equivalence check: `characterize_parts` (5 cells at a time) against one `characterize`
+    call over the same cells (Z(f) and flags equal, metrics to the band searches' tolerance);
+    progress counts over all the cells."""
+    from celllab.engine import characterize, characterize_parts
+
+    deck = load_deck(DECK)
+    cells = load_cells(CELLS, deck)[:23]
+    whole = characterize(deck, cells, esd=False)
+    seen: list[tuple[int, int]] = []
+    parts = list(characterize_parts(deck, cells, esd=False, size=5,
+                                    progress=lambda stage, done, total: seen.append((done, total))))
+    assert [len(p.cells) for p in parts] == [5, 5, 5, 5, 3]
+    got = [c for p in parts for c in p.cells]
+    assert [c.name for c in got] == [c.name for c in whole.cells]
+    for a, b in zip(got, whole.cells):
+        for ca, cb in zip(a.corners, b.corners):
+            assert list(ca.metrics) == list(cb.metrics)
+            # the band searches stop when every row of their batch has converged, so a crossing
+            # found in a smaller batch may differ at the search's tolerance
+            np.testing.assert_allclose(list(ca.metrics.values()), list(cb.metrics.values()), rtol=1e-9)
+            np.testing.assert_array_equal(ca.response.z_ohm, cb.response.z_ohm)
+            assert ca.flags == cb.flags
+    assert seen[-1] == (23, 23) and all(t == 23 for _, t in seen)
+    assert [len(p.cells) for p in characterize_parts(deck, [], esd=False)] == [0]

@@ -16,7 +16,7 @@ import contextlib
 import sqlite3
 import sys
 import threading
-from collections.abc import Iterator
+from collections.abc import Iterable, Iterator
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Self
 
@@ -101,6 +101,13 @@ class Catalog:
         """Store a run in one transaction (unchanged deck + cell + model version: no-op)."""
         with self._access() as db:
             return _store.store_run(db, run)
+
+    def store_runs(self, parts: Iterable[CharacterizationRun]) -> StoreReport:
+        """Store the parts of one run (one build characterized a part at a time) in one
+        transaction and one run record, each part written before the next is computed
+        (``store.store_runs``)."""
+        with self._access() as db:
+            return _store.store_runs(db, parts)
 
     def stored_cells(self, deck_hash: str, model_version: str, *, with_esd: bool = False
                      ) -> set[tuple[str, str]]:

@@ -470,13 +470,42 @@ def _ensure_deck(db: sqlite_utils.Database, run: CharacterizationRun, now: str) 
 
 def store_run(db: sqlite_utils.Database, run: CharacterizationRun) -> StoreReport:
     """Store ``run`` in one transaction; see the module docstring for what is skipped or superseded."""
-    validate_run(run)
-    prepared = [prepare_cell(c) for c in run.cells]
+    return store_runs(db, [run])
+
+
+def store_runs(db: sqlite_utils.Database, parts: Iterable[CharacterizationRun]) -> StoreReport:
+    """Store the parts of one run (the same deck, model version and corners; consecutive cells
+    of one build, characterized a part at a time) in one transaction, as one run record.
+
+    Each part is checked, encoded and written before the next is taken from ``parts``, so a
+    build holds one part in memory, not the whole run; a part that fails its checks (or an
+    exception from the iterator, e.g. Ctrl-C during the next part's characterization) rolls
+    back every part before it: nothing is written.
+    """
     now = utc_now()
     with write_transaction(db):
-        superseded = _supersede_other_decks(db, run)
-        deck_written = _ensure_deck(db, run, now)
-        existing = {
+        session: _StoreSession | None = None
+        for run in parts:
+            validate_run(run)
+            if session is None:
+                session = _StoreSession(db, run, now)
+            else:
+                session.check_same_run(run)
+            session.store([prepare_cell(c) for c in run.cells])
+        if session is None:
+            raise ValueError("store_runs needs at least one part")
+        return session.report()
+
+
+class _StoreSession:
+    """What one run's store knows across its parts: the stored keys of its deck and model
+    version, the run record (written once something is to be stored), the counts so far."""
+
+    def __init__(self, db: sqlite_utils.Database, run: CharacterizationRun, now: str) -> None:
+        self.db, self.run, self.now = db, run, now
+        self.superseded = _supersede_other_decks(db, run)
+        self.deck_written = _ensure_deck(db, run, now)
+        self.existing = {
             (r[0]): (r[1], r[2], r[3])
             for r in db.execute(
                 "SELECT cell_hash, cell_id, result_digest, current FROM cells "
@@ -484,8 +513,35 @@ def store_run(db: sqlite_utils.Database, run: CharacterizationRun) -> StoreRepor
                 [run.deck_hash, run.model_version],
             )
         }
-        without_esd = _cells_built_without_esd(db, run) if existing else set()
-        new, unchanged, differing, revive, completing = [], 0, [], [], []
+        self.without_esd = _cells_built_without_esd(db, run) if self.existing else set()
+        self.run_id: int | None = None
+        self.current_names: set[str] = set()
+        self.writer: CellWriter | None = None
+        self.inserted = self.unchanged = self.completed = 0
+        self.differing: list[str] = []
+        self.seen_names: set[str] = set()
+        self.seen_hashes: set[str] = set()
+
+    def check_same_run(self, run: CharacterizationRun) -> None:
+        """A later part must belong to the same run."""
+        first = self.run
+        same = (run.deck_hash, run.model_version, list(run.corners)) == (
+            first.deck_hash, first.model_version, list(first.corners))
+        if not same:
+            raise CatalogError.single(
+                f"run of deck {first.deck_name}", "parts",
+                "every part of one stored run needs the same deck version, model version and corners")
+
+    def store(self, prepared: list[PreparedCell]) -> None:
+        repeats = [p.name for p in prepared if p.name in self.seen_names or p.cell_hash in self.seen_hashes]
+        if repeats:
+            raise CatalogError.single(f"run of deck {self.run.deck_name}", "cells",
+                                      "name or cell_hash repeats an earlier part of the run: "
+                                      + ", ".join(repeats[:5]))
+        self.seen_names.update(p.name for p in prepared)
+        self.seen_hashes.update(p.cell_hash for p in prepared)
+        new, revive, completing = [], [], []
+        existing, without_esd = self.existing, self.without_esd
         for p in prepared:
             if p.cell_hash in existing and existing[p.cell_hash][0] in without_esd and _has_esd(p):
                 # the same key, stored without the ESD events: the new result holds everything the
@@ -494,60 +550,73 @@ def store_run(db: sqlite_utils.Database, run: CharacterizationRun) -> StoreRepor
                 new.append(p)
             elif p.cell_hash in existing:
                 cell_id, digest, current = existing[p.cell_hash]
-                unchanged += 1
+                self.unchanged += 1
                 # a result without the ESD events next to a stored one with them differs only there
                 if digest != p.digest and (_has_esd(p) or cell_id in without_esd):
-                    differing.append(p.name)
+                    self.differing.append(p.name)
                 if not current:
                     revive.append((p.name, cell_id))
             else:
                 new.append(p)
-        if not (new or revive or deck_written or superseded):
-            last = db.execute(
-                "SELECT MAX(run_id) FROM runs WHERE deck_hash = ? AND model_version = ?",
-                [run.deck_hash, run.model_version],
-            ).fetchone()[0]
-            return StoreReport(last, 0, unchanged, 0, differing)
-        cur = db.execute(
-            "INSERT INTO runs (run_uid, deck_hash, model_version, created_utc, corners_json, "
-            "source_files_json) VALUES (?, ?, ?, ?, ?, ?)",
-            [
-                uuid.uuid4().hex,
-                run.deck_hash,
-                run.model_version,
-                now,
-                canonical_json(list(run.corners)),
-                canonical_json([str(s) for s in run.source_files]),
-            ],
-        )
-        run_id = int(cur.lastrowid or 0)
+        if not (new or revive or self.deck_written or self.superseded):
+            return
+        db = self.db
+        if self.run_id is None:
+            run = self.run
+            cur = db.execute(
+                "INSERT INTO runs (run_uid, deck_hash, model_version, created_utc, corners_json, "
+                "source_files_json) VALUES (?, ?, ?, ?, ?, ?)",
+                [
+                    uuid.uuid4().hex,
+                    run.deck_hash,
+                    run.model_version,
+                    self.now,
+                    canonical_json(list(run.corners)),
+                    canonical_json([str(s) for s in run.source_files]),
+                ],
+            )
+            self.run_id = int(cur.lastrowid or 0)
+            self.current_names = {
+                r[0]
+                for r in db.execute(
+                    "SELECT name FROM cells WHERE deck_hash = ? AND current = 1", [run.deck_hash]
+                )
+            }
+            self.writer = CellWriter(db)
+        assert self.writer is not None
         for cell_id in completing:  # their rows of every table go with them (ON DELETE CASCADE)
             db.execute("DELETE FROM cells WHERE cell_id = ?", [cell_id])
-        current_names = {
-            r[0]
-            for r in db.execute(
-                "SELECT name FROM cells WHERE deck_hash = ? AND current = 1", [run.deck_hash]
-            )
-        }
         for name, cell_id in revive:
-            if name in current_names:
-                superseded += _retire_name(db, run.deck_hash, name)
+            if name in self.current_names:
+                self.superseded += _retire_name(db, self.run.deck_hash, name)
             db.execute("UPDATE cells SET current = 1 WHERE cell_id = ?", [cell_id])
-        writer = CellWriter(db)
-        for n, p in enumerate(new, start=1):
-            if p.name in current_names:
-                superseded += _retire_name(db, run.deck_hash, p.name)
-            writer.add(
+        for p in new:
+            if p.name in self.current_names:
+                self.superseded += _retire_name(db, self.run.deck_hash, p.name)
+            self.writer.add(
                 p,
-                deck_hash=run.deck_hash,
-                model_version=run.model_version,
-                run_id=run_id,
-                stored_utc=now,
+                deck_hash=self.run.deck_hash,
+                model_version=self.run.model_version,
+                run_id=self.run_id,
+                stored_utc=self.now,
             )
+            self.inserted += 1
             if _cell_stored_hook is not None:
-                _cell_stored_hook(n)
-        writer.finish()
-    return StoreReport(run_id, len(new), unchanged, superseded, differing, len(completing))
+                _cell_stored_hook(self.inserted)
+        self.completed += len(completing)
+        self.writer.flush()
+
+    def report(self) -> StoreReport:
+        if self.writer is not None:
+            self.writer.finish()
+        run_id = self.run_id
+        if run_id is None:
+            run_id = self.db.execute(
+                "SELECT MAX(run_id) FROM runs WHERE deck_hash = ? AND model_version = ?",
+                [self.run.deck_hash, self.run.model_version],
+            ).fetchone()[0]
+        return StoreReport(run_id, self.inserted, self.unchanged, self.superseded, self.differing,
+                           self.completed)
 
 
 #: SQL: the cell ``c`` was stored without the deck's ESD events (a corner carries the flag).

@@ -3,13 +3,15 @@
 from __future__ import annotations
 
 import math
+import sqlite3
 import threading
 from dataclasses import replace
+from pathlib import Path
 
 import numpy as np
 import pytest
 
-from celllab.catalog import Catalog, store
+from celllab.catalog import Catalog, open_catalog, store
 from celllab.errors import CatalogError
 from celllab.records import METRIC_NAMES, CharacterizationRun
 
@@ -247,3 +249,36 @@ def test_remove_run_takes_back_the_latest_run_and_a_deck_it_alone_used(tmp_path)
     with pytest.raises(CatalogError):
         catalog.remove_run(second.run_id)  # gone already
     catalog.close()
+
+
+def test_parts_of_a_run_store_as_one_run(tmp_path: Path) -> None:
+    """`store_runs` writes the parts of one run under one run record, with the same rows as
+    `store_run` of the whole; a bad part rolls every part back; parts of different runs are
+    refused."""
+    run = make_run(n_cells=9, seed=4)
+    whole, split = open_catalog(tmp_path / "a.sqlite"), open_catalog(tmp_path / "b.sqlite")
+    whole.store_run(run)
+    parts = [replace(run, cells=run.cells[i:i + 4]) for i in range(0, 9, 4)]
+    report = split.store_runs(iter(parts))
+    assert report.inserted == 9 and report.run_id == 1
+    for cat in (whole, split):
+        cat.close()
+
+    def rows(name: str) -> list[tuple[object, ...]]:
+        db = sqlite3.connect(tmp_path / name)
+        out = sorted(db.execute("SELECT name, result_digest, run_id FROM cells").fetchall())
+        out.append(db.execute("SELECT COUNT(*) FROM runs").fetchone())
+        db.close()
+        return out
+
+    assert rows("a.sqlite") == rows("b.sqlite")
+    fresh = open_catalog(tmp_path / "c.sqlite")
+    broken = replace(parts[2], cells=[replace(parts[2].cells[0], name="")])
+    with pytest.raises(CatalogError):
+        fresh.store_runs([parts[0], parts[1], broken])
+    with pytest.raises(CatalogError, match="same deck version"):
+        fresh.store_runs([parts[0], replace(parts[1], model_version="other")])
+    with pytest.raises(CatalogError, match="repeats an earlier part"):
+        fresh.store_runs([parts[0], parts[0]])
+    assert _counts(fresh)["cells"] == 0 and _counts(fresh)["runs"] == 0
+    fresh.close()

@@ -5,6 +5,7 @@ from __future__ import annotations
 import json
 from pathlib import Path
 
+import numpy as np
 import pytest
 
 from celllab.cli.main import build_parser, main
@@ -142,3 +143,34 @@ def test_the_stored_deck_keeps_its_corner_order(tmp_path, capsys) -> None:
     assert in_file[0] == "typ_25C" and in_file != sorted(in_file)  # the check can tell
     with open_catalog(cat) as c:
         assert list(c.deck_params("lumen130")["corners"]) == in_file
+
+
+def test_build_in_parts_is_one_run_equal_to_a_build_in_one_part(tmp_path, capsys, monkeypatch) -> None:
+    """A build computes and stores a part of the cells at a time (memory of one part); split in
+    parts of 7 cells it stores the same results, under one run record, as in one part."""
+    import sqlite3
+
+    import celllab.engine
+
+    common = ["--deck", DECK, "--cells", CELLS, "--json", "--corners", "typ_25C,slow_125C", "--no-esd"]
+    assert main(["build", *common, "--catalog", str(tmp_path / "one.sqlite")]) == 0
+    one = json.loads(capsys.readouterr().out)[0]
+    monkeypatch.setattr(celllab.engine, "part_size", lambda esd: 7)
+    assert main(["build", *common, "--catalog", str(tmp_path / "parts.sqlite")]) == 0
+    parts = json.loads(capsys.readouterr().out)[0]
+    assert parts["inserted"] == one["inserted"] == one["cells"] > 14
+
+    def stored(name: str) -> tuple[list[tuple[object, ...]], int]:
+        db = sqlite3.connect(tmp_path / name)
+        rows = sorted(db.execute("SELECT c.name, m.corner, m.cap_fF, m.esr_ohm, m.bandwidth_GHz FROM cells c "
+                                 "JOIN corner_metrics m USING (cell_id)").fetchall())
+        runs = db.execute("SELECT COUNT(*) FROM runs").fetchone()[0]
+        db.close()
+        return rows, runs
+
+    (got, runs), (want, _) = stored("parts.sqlite"), stored("one.sqlite")
+    assert runs == 1 and len(got) == len(want) == 2 * one["cells"]
+    assert [r[:2] for r in got] == [r[:2] for r in want]
+    # equal values; a band search's result (bandwidth) to the search tolerance
+    np.testing.assert_allclose(np.array([r[2:] for r in got], dtype=float),
+                               np.array([r[2:] for r in want], dtype=float), rtol=1e-9)
