@@ -485,13 +485,15 @@ def store_runs(db: sqlite_utils.Database, parts: Iterable[CharacterizationRun]) 
     now = utc_now()
     with write_transaction(db):
         session: _StoreSession | None = None
-        for run in parts:
+        pending = iter(parts)
+        while (run := next(pending, None)) is not None:
             validate_run(run)
             if session is None:
                 session = _StoreSession(db, run, now)
             else:
                 session.check_same_run(run)
             session.store([prepare_cell(c) for c in run.cells])
+            del run  # not held while the next part is computed
         if session is None:
             raise ValueError("store_runs needs at least one part")
         return session.report()
