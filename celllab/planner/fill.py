@@ -54,12 +54,19 @@ tightened.
 
 Solving: a model of at most ``DIRECT_LIMIT`` variables, or one whose kind limit cannot bind,
 goes to HiGHS branch and bound as it is. A larger one first gets its LP relaxation (a bound
-on every fill) and K kinds from the LP-guided search of ``kinds`` (at most ``_KIND_SHARE`` of
-the time left); the fill restricted to those kinds (patterns projected onto their footprints)
-is rounded from its LP (rounded down, a target the rounding just missed topped up) and, while
-that is further than the requested gap from the restricted LP, solved by HiGHS. While the
-certified gap to the full bound is above the requested one and at least ``_FULL_RUN_LPS`` LP
-times remain, the full model goes to HiGHS as well and the better fill is kept.
+on every fill), then its kind relaxation: the same model with only the y_i integer (counts
+continuous), by HiGHS through ``highspy`` (``fill_model.run_kinds``) with the incumbent's kinds
+(or the K kinds the LP uses most) as its start, for at most ``_KIND_RELAX_SHARE`` of the time
+left. It is a relaxation of the fill MILP, so its proven bound bounds every fill, and it is far
+tighter than the LP (the LP lets a cell at y = 0.1 give a tenth of its room, the kind
+relaxation does not). Its kinds (or, if it ends without any, those of the LP-guided search of
+``kinds``) make the restricted fill (patterns projected onto their footprints), rounded from
+its LP (rounded down, a target the rounding just missed topped up) and, while that is further
+than the requested gap from the bound, solved by HiGHS. With that exact run done, the kind
+relaxation with the row sum_{i not in S} y_i >= 1 bounds every fill using a cell outside the
+chosen S; the lower of it and the exact run's bound bounds every fill. While the certified gap
+is above the requested one and at least ``_FULL_RUN_LPS`` LP times remain, the full model goes
+to HiGHS as well and the better fill is kept.
 
 A fill found is never dropped for lack of time: the least-shortfall solve starts from the
 empty fill, the goal solve under the lowered targets from the least-shortfall fill (the
@@ -84,8 +91,10 @@ from celllab.planner.fill_model import (
     BUDGET_TOLERANCE,
     Counts,
     build_model,
+    excluding_subsets,
     extract,
     round_down,
+    run_kinds,
     run_model,
     top_up,
     violations,
@@ -118,8 +127,14 @@ Goal = Literal["max_useful_cap", "min_leakage"]
 DIRECT_LIMIT = 2500
 #: A further HiGHS run is started only with at least this much of the time limit left, s.
 _MIN_RUN_S = 0.1
-#: Share of the time left that the LP-guided kind search may take.
+#: Share of the time left that the LP-guided kind search may take (when the kind relaxation
+#: ends without a choice of kinds).
 _KIND_SHARE = 0.3
+#: Share of the time left that the kind relaxation (y_i integer, counts continuous) may take.
+_KIND_RELAX_SHARE = 0.85
+#: The kind relaxation stops at this fraction of the requested gap (the counts' rounding and
+#: the integer patterns take the rest).
+_KIND_RELAX_GAP = 0.5
 #: The full model goes to HiGHS only with at least this many LP solve times left: its root
 #: work (presolve, cuts, heuristics) does not stop at the time limit (the bench's main case
 #: ran up to 1.7 s past a 0.8 s limit with LP solves of 0.05-0.1 s; measured, no source).
@@ -435,14 +450,29 @@ def _solve_goal(p: FillProblem, targets: FloatArray, mode: Literal["hard", "elas
         return _exact(p, targets, mode, phase, mip_rel_gap, deadline)
     bound = first.objective
     found = _kept(p, incumbent, targets, mode, phase, bound)
+    # the kind relaxation: y_i integer, counts continuous; its proven bound bounds every fill
     left = max(deadline - time.perf_counter(), 0.0)
-    cells, _ = choose_kinds(model, first, time.perf_counter() + _KIND_SHARE * left)
-    if len(cells) > p.max_kinds:  # no set of K kinds was LP-feasible: the incumbent's kinds
+    lp_y = {i: float(first.values[col]) for i, col in model.y_index.items()}
+    start = (set(np.flatnonzero(found.counts.copies.sum(axis=0) > 0).tolist())
+             if found is not None else set())
+    if not start:  # no incumbent kinds: the K kinds the LP uses most
+        start = set(sorted(lp_y, key=lambda i: -lp_y[i])[:p.max_kinds])
+    kinds_run = run_kinds(model, mip_rel_gap * _KIND_RELAX_GAP,
+                          max(_KIND_RELAX_SHARE * left, _MIN_RUN_S), start)
+    if kinds_run.status == 2 and found is None:
+        return None  # no choice of kinds is feasible even with fractional counts
+    bound = max(bound, kinds_run.dual_bound)
+    if kinds_run.values is not None:
+        cells = {i for i, col in model.y_index.items() if kinds_run.values[col] > 0.5}
+    else:
+        left = max(deadline - time.perf_counter(), 0.0)
+        cells, _ = choose_kinds(model, first, time.perf_counter() + _KIND_SHARE * left)
+    if len(cells) > p.max_kinds or not cells:  # no K kinds found: the incumbent's kinds
         if found is not None:
             cells = set(np.flatnonzero(found.counts.copies.sum(axis=0) > 0).tolist())
         else:
             y = {i: float(first.values[col]) for i, col in model.y_index.items()}
-            cells = set(sorted(cells, key=lambda i: -y.get(i, 0.0))[:p.max_kinds])
+            cells = set(sorted(y, key=lambda i: -y[i])[:p.max_kinds])
     sub = _restrict(p, cells)
     sub_model = build_model(sub, targets, mode, phase, p.leakage_budget, p.oxide_budget, scale)
     relaxed = run_model(sub_model, 0.0, max(deadline - time.perf_counter(), _MIN_RUN_S),
@@ -454,7 +484,7 @@ def _solve_goal(p: FillProblem, targets: FloatArray, mode: Literal["hard", "elas
             counts = top_up(sub, counts, targets)
         if not violations(sub, counts, _checked_targets(targets, targets, counts, mode)):
             found = _better(found, _Found(sub, counts, _natural(p, counts, phase), bound, 0,
-                                          "kinds from the LP search, LP rounded down"))
+                                          "kinds from the kind relaxation, LP rounded down"))
 
     def worth_a_run(best_possible: float, lps: float) -> bool:
         """Another HiGHS run may pay: no fill yet, or one that could still gain more than
@@ -465,14 +495,25 @@ def _solve_goal(p: FillProblem, targets: FloatArray, mode: Literal["hard", "elas
         left = deadline - time.perf_counter()
         return gain > mip_rel_gap and left > max(_MIN_RUN_S, lps * lp_seconds)
 
-    if relaxed.values is not None and worth_a_run(sub_bound, 3):
+    exact = None
+    if relaxed.values is not None and worth_a_run(max(sub_bound, bound), 3):
         try:
             exact = _exact(sub, targets, mode, phase, mip_rel_gap, deadline)
         except FillTimeout:
             exact = None
         if exact is not None:
             found = _better(found, _Found(sub, exact.counts, exact.value, bound, exact.status,
-                                          "kinds from the LP search; " + exact.message))
+                                          "kinds from the kind relaxation; " + exact.message))
+    # fills of those kinds are bounded by the exact run; every other choice of kinds by the
+    # kind relaxation without them: the lower of the two bounds every fill
+    if (exact is not None and kinds_run.values is not None and found is not None
+            and worth_a_run(bound, 3)):
+        others = run_kinds(excluding_subsets(model, cells), mip_rel_gap * _KIND_RELAX_GAP,
+                           max(deadline - time.perf_counter(), _MIN_RUN_S))
+        other_bound = np.inf if others.status == 2 else others.dual_bound
+        bound = max(bound, min(exact.bound, other_bound))
+    if found is not None:
+        found = _with_bound(found, bound)
     if worth_a_run(bound, _FULL_RUN_LPS):
         try:
             full = _exact(p, targets, mode, phase, mip_rel_gap, deadline)

@@ -21,7 +21,9 @@ __all__ = [
     "Raw",
     "Rows",
     "build_model",
+    "excluding_subsets",
     "extract",
+    "run_kinds",
     "run_model",
     "type_room",
     "violations",
@@ -270,13 +272,15 @@ def build_model(p: FillProblem, targets: FloatArray, mode: Literal["hard", "elas
 
 @dataclass(frozen=True)
 class Raw:
-    """One HiGHS run: the model, the values found (None: none), status, message, gap."""
+    """One HiGHS run: the model, the values found (None: none), status, message, gap, and
+    HiGHS's proven bound on the minimized objective in natural units (-inf: none)."""
 
     model: Model
     values: FloatArray | None
     status: int
     message: str
     mip_gap: float
+    dual_bound: float = -np.inf
 
     @property
     def objective(self) -> float:
@@ -287,9 +291,12 @@ class Raw:
 
 def run_model(model: Model, mip_rel_gap: float, time_limit: float, relax: bool = False,
               fixed_kinds: BoolArray | None = None,
-              kind_bounds: dict[int, tuple[float, float]] | None = None) -> Raw:
+              kind_bounds: dict[int, tuple[float, float]] | None = None,
+              kinds_only: bool = False) -> Raw:
     """One HiGHS run of ``model`` (the LP relaxation when ``relax``). ``fixed_kinds`` fixes
-    every y_i; ``kind_bounds`` bounds chosen y_i (cell -> (lower, upper))."""
+    every y_i; ``kind_bounds`` bounds chosen y_i (cell -> (lower, upper)). ``kinds_only``
+    keeps only the y_i integer (the kind relaxation: counts continuous, a relaxation of the
+    fill MILP, so its proven bound bounds every fill)."""
     lower = np.zeros(model.n_vars)
     upper = model.upper.copy()
     if fixed_kinds is not None:
@@ -299,6 +306,9 @@ def run_model(model: Model, mip_rel_gap: float, time_limit: float, relax: bool =
         if i in model.y_index:
             lower[model.y_index[i]], upper[model.y_index[i]] = lo, hi
     integrality = np.zeros(model.n_vars) if relax else model.integral
+    if kinds_only and not relax:
+        integrality = np.zeros(model.n_vars)
+        integrality[list(model.y_index.values())] = 1.0
     constraints = []
     if model.rows.lower:
         constraints.append(LinearConstraint(model.rows.matrix(), np.array(model.rows.lower),
@@ -309,7 +319,82 @@ def run_model(model: Model, mip_rel_gap: float, time_limit: float, relax: bool =
     result = milp(model.objective, integrality=integrality, bounds=Bounds(lower, upper),
                   constraints=constraints, options=options)
     gap = float(getattr(result, "mip_gap", 0.0) or 0.0)
-    return Raw(model, result.x, int(result.status), str(result.message), gap)
+    if relax:
+        dual = (float(model.objective @ result.x) * model.objective_scale
+                if result.x is not None and result.status == 0 else -np.inf)
+    else:
+        raw_dual = getattr(result, "mip_dual_bound", None)
+        dual = (float(raw_dual) * model.objective_scale
+                if raw_dual is not None and np.isfinite(raw_dual) else -np.inf)
+    return Raw(model, result.x, int(result.status), str(result.message), gap, dual)
+
+
+def run_kinds(model: Model, mip_rel_gap: float, time_limit: float,
+              start: set[int] | None = None) -> Raw:
+    """The kind relaxation of ``model`` (only the y_i integer, counts continuous; a relaxation
+    of the fill MILP, so its proven bound bounds every fill) by HiGHS through ``highspy``,
+    which takes a starting choice of kinds: ``start`` (cells used; HiGHS fixes those y_i and
+    solves the LP for the rest, so a start whose kinds are LP-feasible is an incumbent from
+    the outset and prunes the search)."""
+    import highspy
+
+    a = model.rows.matrix().tocsr()
+    a.sort_indices()
+    lp = highspy.HighsLp()
+    lp.num_col_, lp.num_row_ = model.n_vars, a.shape[0]
+    lp.col_cost_ = model.objective
+    lp.col_lower_ = np.zeros(model.n_vars)
+    lp.col_upper_ = model.upper
+    lp.row_lower_ = np.array(model.rows.lower, dtype=float)
+    lp.row_upper_ = np.array(model.rows.upper, dtype=float)
+    lp.a_matrix_.format_ = highspy.MatrixFormat.kRowwise
+    lp.a_matrix_.num_col_, lp.a_matrix_.num_row_ = model.n_vars, a.shape[0]
+    lp.a_matrix_.start_ = a.indptr.astype(np.int32)
+    lp.a_matrix_.index_ = a.indices.astype(np.int32)
+    lp.a_matrix_.value_ = a.data.astype(float)
+    kinds = np.zeros(model.n_vars, dtype=bool)
+    kinds[list(model.y_index.values())] = True
+    lp.integrality_ = [highspy.HighsVarType.kInteger if k else highspy.HighsVarType.kContinuous
+                       for k in kinds.tolist()]
+    h = highspy.Highs()
+    h.setOptionValue("output_flag", False)
+    h.setOptionValue("time_limit", float(max(time_limit, 1e-3)))
+    h.setOptionValue("mip_rel_gap", float(mip_rel_gap))
+    h.setOptionValue("threads", 1)
+    h.passModel(lp)
+    if start is not None and model.y_index:
+        cols = np.array(list(model.y_index.values()), dtype=np.int32)
+        vals = np.array([1.0 if i in start else 0.0 for i in model.y_index])
+        h.setSolution(int(cols.size), cols, vals)
+    h.run()
+    status = h.getModelStatus()
+    info = h.getInfo()
+    ms = highspy.HighsModelStatus
+    code = {ms.kOptimal: 0, ms.kInfeasible: 2, ms.kTimeLimit: 1}.get(status, 4)
+    values = None
+    if info.primal_solution_status == 2:  # kSolutionStatusFeasible
+        values = np.asarray(h.getSolution().col_value, dtype=float)
+    dual = info.mip_dual_bound
+    dual = float(dual) * model.objective_scale if np.isfinite(dual) else -np.inf
+    if code == 2:
+        dual = np.inf
+    gap = float(info.mip_gap) if np.isfinite(info.mip_gap) else np.inf
+    return Raw(model, values, code, h.modelStatusToString(status), gap, dual)
+
+
+def excluding_subsets(model: Model, cells: set[int]) -> Model:
+    """``model`` with one more row, sum_{i not in cells} y_i >= 1: every fill whose kinds are
+    all among ``cells`` is cut off, every other fill kept (a bound of this model bounds the
+    fills that use a cell outside ``cells``)."""
+    from copy import deepcopy
+
+    out = deepcopy(model.rows)
+    others = np.array([col for i, col in model.y_index.items() if i not in cells],
+                      dtype=np.int64)
+    out.add("outside-kinds", others, np.ones(others.size), 1.0, np.inf)
+    from dataclasses import replace
+
+    return replace(model, rows=out)
 
 
 def _counts(model: Model, v: FloatArray, short: FloatArray) -> Counts:
