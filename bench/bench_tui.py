@@ -8,7 +8,7 @@ Builds a synthetic catalog of N cells (default 100 000; invented numbers, stored
   both for Enter (applied at once) and for typing (applied after the debounce pause);
 * paging to the next page and a sort change.
 
-    python bench/bench_tui.py [--cells 100000] [--catalog PATH] [--keep]
+    python bench/bench_tui.py [--cells 100000] [--catalog PATH (kept; reused when it exists)]
 """
 
 from __future__ import annotations

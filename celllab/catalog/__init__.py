@@ -87,6 +87,16 @@ class Catalog:
         with self._lock:
             self._db.close()
 
+    def reader(self) -> Catalog:
+        """A second connection to the same file, for reads beside this one's (in SQLite's
+        write-ahead log mode readers do not wait for each other or for a writer)."""
+        return Catalog(self.path, create=False)
+
+    def interrupt(self) -> None:
+        """Abort the statement this connection is running, if any (safe from another thread);
+        the interrupted call raises CatalogError. A statement started later is not affected."""
+        self._db.conn.interrupt()
+
     def __enter__(self) -> Self:
         return self
 

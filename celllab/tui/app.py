@@ -118,6 +118,9 @@ class CelllabApp(App[None]):
         #: block files given to the app (the planning view also offers ./process_decks/blocks)
         self.block_paths = [Path(p) for p in block_paths]
         self.catalog_lock = threading.Lock()
+        #: a second connection for row counts (``counting_catalog``), opened on first use
+        self._counter: Any = None
+        self._counter_lock = threading.Lock()
         #: shared choices of the catalog screen, read by the ranking screen
         self.current_deck: str | None = next(iter(self.decks), None)
         self.current_corner: str = "worst"
@@ -136,6 +139,41 @@ class CelllabApp(App[None]):
                                         "--catalog PATH", has_value=False)])
         with self.catalog_lock:
             yield self.catalog
+
+    @contextlib.contextmanager
+    def counting_catalog(self) -> Iterator[Any]:
+        """A second connection to the catalog, for row counts (call from worker threads only):
+        a page query never waits behind a count (a count over a large filtered catalog takes a
+        few hundred ms). The main connection when no second one can be opened."""
+        if self.catalog is None or not Path(self.catalog.path).is_file():
+            with self.using_catalog() as catalog:
+                yield catalog
+            return
+        with self._counter_lock:
+            if self._counter is None:
+                try:
+                    self._counter = self.catalog.reader()
+                except CelllabError:
+                    self._counter = False
+            if self._counter is False:
+                with self.using_catalog() as catalog:
+                    yield catalog
+            else:
+                yield self._counter
+
+    def interrupt_count(self) -> None:
+        """Stop a row count still running for an older filter (its call raises CatalogError)."""
+        if self._counter:
+            self._counter.interrupt()
+
+    def close_counter(self) -> None:
+        with self._counter_lock:
+            if self._counter:
+                self._counter.close()
+            self._counter = None
+
+    def on_unmount(self) -> None:
+        self.close_counter()
 
     def deck_named(self, name: str | None) -> Any:
         """The Deck of that name, as the catalog stored it (its cells were computed with it);
@@ -335,6 +373,7 @@ def run_app(catalog_path: str | Path | None = None, deck_paths: Sequence[str | P
     try:
         app.run()
     finally:
+        app.close_counter()
         catalog.close()
     if app.crash is not None:
         log = write_crash_log(app.crash, log_folder)

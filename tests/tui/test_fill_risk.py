@@ -218,8 +218,9 @@ async def test_fill_risk_from_the_catalog_and_esc_leaves_while_computing(
         assert isinstance(catalog_screen, CatalogScreen)
         catalog_screen.query_one("#catalog-table").focus()
         await pilot.press("f")
+        # the view loads the deck and cell first: on a loaded machine that alone can take seconds
         await ui.wait_until(pilot, lambda: isinstance(app.screen, FillRiskScreen)
-                            and app.screen.computing)
+                            and app.screen.computing, timeout=60.0)
         assert app.screen.cell_name == THIN
         assert "esc leaves" in ui.screen_text(app)
         await pilot.press("escape")

@@ -238,16 +238,28 @@ class CatalogScreen(TaskScreen):
             if worker.is_cancelled:
                 return
             self.post_message(PageLoaded(query, rows, None))
-            if query.want_count:
-                with self.lab.using_catalog() as catalog:
-                    if worker.is_cancelled:
-                        return
-                    total = catalog.count(deck=query.deck, corner=query.corner, where=query.where)
-                self.post_message(RowsCounted((query.deck, query.corner, query.where), total))
         except FilterError as exc:
             self.post_message(QueryFailed(exc.problems, "filter"))
         except CelllabError as exc:
             self.post_message(QueryFailed(exc.problems, "catalog"))
+
+    @work(thread=True, exclusive=True, group="catalog-count")
+    def _count(self, key: tuple[str | None, str, str]) -> None:
+        """The row count for the status line, on the app's second connection: the page
+        queries never wait for it, and a newer count stops one still running."""
+        worker = get_current_worker()
+        self.lab.interrupt_count()
+        try:
+            with self.lab.counting_catalog() as catalog:
+                if worker.is_cancelled:
+                    return
+                total = catalog.count(deck=key[0], corner=key[1], where=key[2])
+        except CelllabError as exc:
+            if not worker.is_cancelled:  # a stale count stopped on purpose says nothing
+                self.post_message(QueryFailed(exc.problems, "catalog"))
+            return
+        if not worker.is_cancelled:
+            self.post_message(RowsCounted(key, total))
 
     def _schedule_prefetch(self, shown: PageQuery, n_rows: int) -> None:
         """Once the user rests on a full page, fetch the next one (] then needs no query)."""
@@ -286,6 +298,9 @@ class CatalogScreen(TaskScreen):
                                                self._table_total(), self.order_by, self.descending)
         self._update_status()
         self._schedule_prefetch(message.query, len(message.rows))
+        if message.query.want_count:
+            q = message.query
+            self._count((q.deck, q.corner, q.where))
 
     def on_rows_counted(self, message: RowsCounted) -> None:
         self._counts[message.key] = message.total
