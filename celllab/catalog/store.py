@@ -159,6 +159,11 @@ def _f64(values: Iterable[Any]) -> bytes:
     return np.array([math.nan if v is None else v for v in values], dtype=_F64).tobytes()
 
 
+def _framed(parts: Iterable[bytes]) -> bytes:
+    """``parts`` each preceded by its length (8 bytes, little-endian): what ``_feed`` hashes."""
+    return b"".join(b for p in parts for b in (len(p).to_bytes(8, "little"), p))
+
+
 def result_digest(
     cell_row: Mapping[str, Any],
     corner_rows: Iterable[Mapping[str, Any]],
@@ -170,17 +175,18 @@ def result_digest(
     Takes the rows as stored (REAL values float or None, as both ``prepare_cell`` and SQLite
     give them). Two results with the same digest hold the same numbers bit for bit.
     """
-    h = hashlib.sha256()
-    _feed(h, json.dumps([cell_row[k] for k in _DIGEST_TEXT_KEYS]).encode())
-    _feed(h, _f64(_column_value(k, cell_row.get(k)) for k in _NUMBER_CELL_COLUMNS))
+    head = [
+        json.dumps([cell_row[k] for k in _DIGEST_TEXT_KEYS]).encode(),
+        _f64(_column_value(k, cell_row.get(k)) for k in _NUMBER_CELL_COLUMNS),
+    ]
     text_cells = [cell_row.get(k) for k in _TEXT_CELL_COLUMNS]
     if any(v is not None for v in text_cells):  # results stored before these columns keep their digest
-        _feed(h, json.dumps(text_cells).encode())
+        head.append(json.dumps(text_cells).encode())
     parts: dict[str, list[bytes]] = {}
     for row in corner_rows:
         parts[row["corner"]] = [
             json.dumps([row["corner"], row["flags_json"]]).encode(),
-            _f64([row["temperature_C"], row["supply_V"], *(row.get(m) for m in METRIC_NAMES)]),
+            _f64([row["temperature_C"], row["supply_V"], *[row.get(m) for m in METRIC_NAMES]]),
         ]
     for row in response_rows:
         parts[row["corner"]] += [b"response", bytes(row["freq_Hz"]), bytes(row["z_ohm"])]
@@ -191,10 +197,8 @@ def result_digest(
             bytes(row["cap_F"]),
             _f64([nan_to_none(row["operating_bias_V"]), nan_to_none(row["operating_cap_F"])]),
         ]
-    for corner in sorted(parts):
-        for part in parts[corner]:
-            _feed(h, part)
-    return h.hexdigest()
+    # hashed as one string: the same bytes as feeding the parts one by one
+    return hashlib.sha256(_framed([*head, *(p for c in sorted(parts) for p in parts[c])])).hexdigest()
 
 
 def stored_result_digest(db: sqlite_utils.Database, cell_id: int) -> str:
@@ -209,39 +213,21 @@ def stored_result_digest(db: sqlite_utils.Database, cell_id: int) -> str:
     )
 
 
-def _corner_problems(where: str, c: CornerResult, run_corners: set[str]) -> list[str]:
-    out = []
-    if run_corners and c.corner not in run_corners:
-        out.append(
-            f"{where}.corner = {c.corner!r} -> not one of the run's corners "
-            f"({', '.join(sorted(run_corners))})"
-        )
-    keys = set(c.metrics)
-    if missing := [m for m in METRIC_NAMES if m not in keys]:
-        out.append(f"{where}.metrics -> missing {', '.join(missing)}")
-    if extra := sorted(keys - set(METRIC_NAMES)):
-        out.append(
-            f"{where}.metrics -> unknown {', '.join(extra)}; allowed: {', '.join(METRIC_NAMES)}"
-        )
-    f, z = np.asarray(c.response.freq_Hz), np.asarray(c.response.z_ohm)
-    if f.ndim != 1 or f.shape != z.shape:
-        out.append(
-            f"{where}.response -> freq_Hz {f.shape} and z_ohm {z.shape} must be equal 1-D arrays"
-        )
-    if c.cv is not None:
-        b, cap = np.asarray(c.cv.bias_V), np.asarray(c.cv.cap_F)
-        if b.ndim != 1 or b.shape != cap.shape:
-            out.append(
-                f"{where}.cv -> bias_V {b.shape} and cap_F {cap.shape} must be equal 1-D arrays"
-            )
-    return out
-
-
 def validate_run(run: CharacterizationRun) -> None:
-    """Raise CatalogError listing every structural problem of ``run`` (nothing is written)."""
+    """Raise CatalogError listing every structural problem of ``run`` (nothing is written).
+
+    The corners are checked all at once (``validate.unchecked_corners``); the per-value checks
+    run on those it cannot clear, and give the messages.
+    """
     # imported here: the checks read the deck and topology schemas (pydantic, scipy), which a
     # catalog opened only to query never needs
-    from celllab.catalog.validate import DECK_NAME, cell_problems, shown
+    from celllab.catalog.validate import (
+        DECK_NAME,
+        cell_problems,
+        run_corner_problems,
+        shown,
+        unchecked_corners,
+    )
 
     label = f"run of deck {shown(run.deck_name)}"
     msgs: list[str] = []
@@ -253,6 +239,7 @@ def validate_run(run: CharacterizationRun) -> None:
     seen_names: dict[str, int] = {}
     seen_hashes: dict[str, int] = {}
     run_corners = set(run.corners)
+    suspect = unchecked_corners(run.cells, run_corners)
     for i, cell in enumerate(run.cells):
         where = f"cells[{i}] ({shown(cell.name, 40)})"
         if cell.name in seen_names:
@@ -264,15 +251,44 @@ def validate_run(run: CharacterizationRun) -> None:
         corner_names = [c.corner for c in cell.corners]
         if len(set(corner_names)) != len(corner_names):
             msgs.append(f"{where}.corners -> repeated corner names {corner_names}")
-        for j, c in enumerate(cell.corners):
-            msgs += _corner_problems(f"{where}.corners[{j}]", c, run_corners)
-        msgs += cell_problems(where, cell)
+        for j in suspect[i]:
+            msgs += run_corner_problems(f"{where}.corners[{j}]", cell.corners[j], run_corners)
+        msgs += cell_problems(where, cell, suspect[i])
     if msgs:
         raise CatalogError([Problem(label, "", m) for m in msgs])
 
 
+#: Per-corner numbers of a ``corner_metrics`` row, in column order.
+_CORNER_NUMBERS = ("temperature_C", "supply_V", *METRIC_NAMES)
+
+
+def _corner_numbers(corners: list[CornerResult]) -> list[list[float | None]]:
+    """Per corner its ``_CORNER_NUMBERS`` as stored: float, None for None and NaN
+    (``display.nan_to_none`` of each), all corners converted at once."""
+    if not corners:
+        return []
+    numbers = np.array(
+        [(c.temperature_C, c.supply_V, *[c.metrics[m] for m in METRIC_NAMES]) for c in corners],
+        dtype=float,
+    )
+    values = numbers.astype(object)
+    values[np.isnan(numbers)] = None
+    return values.tolist()  # type: ignore[no-any-return]
+
+
 def prepare_cell(cell: CellResult) -> PreparedCell:
     """Encode one cell result as catalog rows and compute its digest (no database access)."""
+    return prepare_cells([cell])[0]
+
+
+def prepare_cells(cells: Iterable[CellResult]) -> list[PreparedCell]:
+    """``prepare_cell`` of each cell; the per-corner numbers of all of them converted at once."""
+    cells = list(cells)
+    numbers = iter(_corner_numbers([c for cell in cells for c in cell.corners]))
+    return [_prepare(cell, [next(numbers) for _ in cell.corners]) for cell in cells]
+
+
+def _prepare(cell: CellResult, numbers: list[list[float | None]]) -> PreparedCell:
     try:
         geometry_json = canonical_json(cell.geometry)
         notes_json = canonical_json(list(cell.notes))
@@ -290,15 +306,9 @@ def prepare_cell(cell: CellResult) -> PreparedCell:
         **{k: _column_value(k, getattr(cell, k)) for k in CELL_COLUMNS},
     }
     corner_rows, response_rows, cv_rows = [], [], []
-    for c, flags_json in zip(cell.corners, flags, strict=True):
+    for c, flags_json, values in zip(cell.corners, flags, numbers, strict=True):
         corner_rows.append(
-            {
-                "corner": c.corner,
-                "temperature_C": nan_to_none(c.temperature_C),
-                "supply_V": nan_to_none(c.supply_V),
-                **{m: nan_to_none(c.metrics[m]) for m in METRIC_NAMES},
-                "flags_json": flags_json,
-            }
+            {"corner": c.corner, **dict(zip(_CORNER_NUMBERS, values, strict=True)), "flags_json": flags_json}
         )
         response_rows.append(
             {
@@ -471,7 +481,7 @@ def _ensure_deck(db: sqlite_utils.Database, run: CharacterizationRun, now: str) 
 def store_run(db: sqlite_utils.Database, run: CharacterizationRun) -> StoreReport:
     """Store ``run`` in one transaction; see the module docstring for what is skipped or superseded."""
     validate_run(run)
-    prepared = [prepare_cell(c) for c in run.cells]
+    prepared = prepare_cells(run.cells)
     now = utc_now()
     with write_transaction(db):
         superseded = _supersede_other_decks(db, run)
