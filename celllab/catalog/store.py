@@ -96,11 +96,15 @@ def _json_default(value: Any) -> Any:
     raise TypeError(f"{type(value).__name__} is not JSON serialisable")
 
 
+#: One encoder for all canonical text (``json.dumps`` with these options builds one per call).
+_CANONICAL = json.JSONEncoder(
+    sort_keys=True, separators=(",", ":"), default=_json_default, allow_nan=True
+)
+
+
 def canonical_json(value: Any) -> str:
     """JSON text with sorted keys and no spaces, so equal content gives equal text."""
-    return json.dumps(
-        value, sort_keys=True, separators=(",", ":"), default=_json_default, allow_nan=True
-    )
+    return _CANONICAL.encode(value)
 
 
 def _column_value(name: str, value: Any) -> Any:
@@ -155,8 +159,9 @@ def _feed(h: Any, data: bytes) -> None:
 
 
 def _f64(values: Iterable[Any]) -> bytes:
-    """Values as float64 bytes, empty -> NaN (one canonical NaN, since NaN is stored as empty)."""
-    return np.array([math.nan if v is None else v for v in values], dtype=_F64).tobytes()
+    """Values as float64 bytes, empty -> NaN (one canonical NaN, since NaN is stored as empty:
+    numpy reads None as that NaN)."""
+    return np.array(list(values), dtype=_F64).tobytes()
 
 
 def _framed(parts: Iterable[bytes]) -> bytes:
@@ -186,7 +191,7 @@ def result_digest(
     for row in corner_rows:
         parts[row["corner"]] = [
             json.dumps([row["corner"], row["flags_json"]]).encode(),
-            _f64([row["temperature_C"], row["supply_V"], *[row.get(m) for m in METRIC_NAMES]]),
+            _f64([row["temperature_C"], row["supply_V"], *map(row.get, METRIC_NAMES)]),
         ]
     for row in response_rows:
         parts[row["corner"]] += [b"response", bytes(row["freq_Hz"]), bytes(row["z_ohm"])]
