@@ -19,6 +19,7 @@ from __future__ import annotations
 import gc
 import hashlib
 import json
+import math
 import uuid
 from collections.abc import Callable, Iterable, Iterator, Mapping
 from contextlib import contextmanager
@@ -103,9 +104,21 @@ _CANONICAL = json.JSONEncoder(
 )
 
 
+#: A str as ``json`` writes it by default (ASCII, escaped).
+_json_text = json.encoder.encode_basestring_ascii
+
+
 def canonical_json(value: Any) -> str:
     """JSON text with sorted keys and no spaces, so equal content gives equal text."""
     return _CANONICAL.encode(value)
+
+
+def _text_list_json(values: Iterable[Any]) -> str:
+    """``canonical_json(list(values))``, written directly when every value is a str."""
+    values = list(values)
+    if all(type(v) is str for v in values):
+        return "[" + ",".join(map(_json_text, values)) + "]"
+    return canonical_json(values)
 
 
 def _column_value(name: str, value: Any) -> Any:
@@ -170,6 +183,13 @@ def _framed(parts: Iterable[bytes]) -> bytes:
     return b"".join(b for p in parts for b in (len(p).to_bytes(8, "little"), p))
 
 
+def _corner_text(corner: Any, flags_json: Any) -> bytes:
+    """``json.dumps([corner, flags_json]).encode()``, written directly for two str."""
+    if type(corner) is str and type(flags_json) is str:
+        return f"[{_json_text(corner)}, {_json_text(flags_json)}]".encode()
+    return json.dumps([corner, flags_json]).encode()
+
+
 def result_digest(
     cell_row: Mapping[str, Any],
     corner_rows: Iterable[Mapping[str, Any]],
@@ -191,7 +211,7 @@ def result_digest(
     parts: dict[str, list[bytes]] = {}
     for row in corner_rows:
         parts[row["corner"]] = [
-            json.dumps([row["corner"], row["flags_json"]]).encode(),
+            _corner_text(row["corner"], row["flags_json"]),
             _f64([row["temperature_C"], row["supply_V"], *map(row.get, METRIC_NAMES)]),
         ]
     for row in response_rows:
@@ -297,8 +317,8 @@ def prepare_cells(cells: Iterable[CellResult]) -> list[PreparedCell]:
 def _prepare(cell: CellResult, numbers: list[list[float | None]]) -> PreparedCell:
     try:
         geometry_json = canonical_json(cell.geometry)
-        notes_json = canonical_json(list(cell.notes))
-        flags = [canonical_json(list(c.flags)) for c in cell.corners]
+        notes_json = _text_list_json(cell.notes)
+        flags = [_text_list_json(c.flags) for c in cell.corners]
     except TypeError as exc:
         raise CatalogError.single(f"cell {cell.name}", "geometry", str(exc)) from None
     cell_row: dict[str, Any] = {
@@ -641,7 +661,44 @@ def _circuit_json(netlist: Any, corner: str) -> str | None:
         netlist = netlist.get(corner)
     if netlist is None:
         return None
-    return canonical_json(netlist_to_dict(netlist))
+    return _plain_circuit_json(netlist) or canonical_json(netlist_to_dict(netlist))
+
+
+def _json_float(x: float) -> str:
+    """A float as ``json`` writes it (``allow_nan``)."""
+    if x != x:
+        return "NaN"
+    if x in (math.inf, -math.inf):
+        return "Infinity" if x > 0 else "-Infinity"
+    return float.__repr__(x)
+
+
+def _plain_circuit_json(netlist: Any) -> str | None:
+    """``canonical_json(netlist_to_dict(netlist))`` written directly, for a one-variant netlist
+    of plain str names and float values (None for anything else: the caller then takes that
+    path). Keys in sorted order, as ``canonical_json`` puts them."""
+    q = _json_text
+    if type(netlist.name) is not str or not all(type(p) is str for p in netlist.ports):
+        return None
+    items = []
+    for el in netlist.elements:
+        kind, value = el.kind, el.value
+        if not (type(kind) is type(el.name) is type(el.node_a) is type(el.node_b) is str
+                and type(value) is float):
+            return None
+        common = (f'"kind":{q(kind)},"name":{q(el.name)},"node_a":{q(el.node_a)},'
+                  f'"node_b":{q(el.node_b)}')
+        if kind != "RCLINE":
+            items.append(f'{{{common},"value":{_json_float(value)}}}')
+            continue
+        c_total, ends, far = el.c_total, el.contacted_ends, el.node_far
+        if type(c_total) is not float or type(ends) is not int or not (far is None or type(far) is str):
+            return None
+        far_item = "" if far is None else f',"node_far":{q(far)}'
+        items.append(f'{{"c_total":{_json_float(c_total)},"contacted_ends":{ends},{common}'
+                     f'{far_item},"value":{_json_float(value)}}}')
+    ports = ",".join(map(q, netlist.ports))
+    return f'{{"elements":[{",".join(items)}],"name":{q(netlist.name)},"ports":[{ports}]}}'
 
 
 def load_cell(db: sqlite_utils.Database, cell_id: int) -> CellResult:

@@ -4,10 +4,11 @@
   the per-value checks only on the corners it could not clear. The reference checks every corner
   one by one (``unchecked_corners`` replaced by "all of them"). Both must refuse the same runs
   with the same messages, on generated runs full of bad values.
-* ``store.prepare_cells`` converts the numbers of all corners at once and ``result_digest``
-  hashes one joined string. The reference is the per-value encoding and the part-by-part digest
-  as first written, kept below: the rows and the digests must be the same bit for bit (stored
-  catalogs keep their digests).
+* ``store.prepare_cells`` converts the numbers of all corners at once, writes the JSON of
+  flags, notes and circuits directly, and ``result_digest`` hashes one joined string. The
+  reference is the per-value encoding through ``json.dumps`` / ``records.netlist_to_dict`` and
+  the part-by-part digest as first written, kept below: the rows and the digests must be the
+  same bit for bit (stored catalogs keep their digests).
 """
 
 from __future__ import annotations
@@ -19,7 +20,7 @@ from collections.abc import Iterable, Iterator, Mapping
 from contextlib import contextmanager
 from dataclasses import replace
 from pathlib import Path
-from types import MappingProxyType
+from types import MappingProxyType, SimpleNamespace
 from typing import Any
 from unittest import mock
 
@@ -37,7 +38,7 @@ from celllab.catalog.store import (
     PreparedCell,
     _circuit_json,
     _column_value,
-    canonical_json,
+    _json_default,
     encode_c128,
     encode_f64,
     prepare_cell,
@@ -48,7 +49,14 @@ from celllab.catalog.store import (
 )
 from celllab.display import nan_to_none
 from celllab.errors import CatalogError
-from celllab.records import CELL_COLUMNS, METRIC_NAMES, CellResult, CharacterizationRun, CVCurve
+from celllab.records import (
+    CELL_COLUMNS,
+    METRIC_NAMES,
+    CellResult,
+    CharacterizationRun,
+    CVCurve,
+    netlist_to_dict,
+)
 
 from .conftest import make_run
 
@@ -228,6 +236,17 @@ def reference_digest(cell_row: Mapping[str, Any], corner_rows: Iterable[Mapping[
     return h.hexdigest()
 
 
+def canonical_json(value: Any) -> str:
+    return json.dumps(value, sort_keys=True, separators=(",", ":"), default=_json_default,
+                      allow_nan=True)
+
+
+def reference_circuit_json(netlist: Any, corner: str) -> str | None:
+    if isinstance(netlist, Mapping):
+        netlist = netlist.get(corner)
+    return None if netlist is None else canonical_json(netlist_to_dict(netlist))
+
+
 def reference_prepare(cell: CellResult) -> PreparedCell:
     cell_row: dict[str, Any] = {
         "name": cell.name, "cell_hash": cell.cell_hash, "family": cell.family,
@@ -247,7 +266,7 @@ def reference_prepare(cell: CellResult) -> PreparedCell:
         response_rows.append({
             "corner": c.corner, "n_freq": int(np.size(c.response.freq_Hz)),
             "freq_Hz": encode_f64(c.response.freq_Hz), "z_ohm": encode_c128(c.response.z_ohm),
-            "circuit_json": _circuit_json(cell.netlist, c.corner),
+            "circuit_json": reference_circuit_json(cell.netlist, c.corner),
         })
         if c.cv is not None:
             cv_rows.append({
@@ -274,6 +293,8 @@ def _same(fast: PreparedCell, reference: PreparedCell) -> None:
     assert (fast.name, fast.cell_hash) == (reference.name, reference.cell_hash)
 
 
+_TEXTS = st.lists(st.sampled_from(["plain", "é ü", "quote \" and \\", "tab\tnew\nline", "\x00\x1b[31m",
+                                   "😀", "", "cap_fF empty"]), max_size=3)
 _ODD_VALUES = st.sampled_from([
     math.nan, -math.nan, None, 0.0, -0.0, math.inf, -math.inf, 5e-324, 1.7976931348623157e308,
     np.float64(1.25), np.float64(math.nan), np.float32(0.1), 7, True, 0.1 + 0.2,
@@ -282,9 +303,12 @@ _ODD_VALUES = st.sampled_from([
 
 @settings(max_examples=200, deadline=None, derandomize=True, database=None)
 @given(st.lists(st.tuples(st.integers(0, 2), st.integers(0, 2), st.sampled_from(
-    ["temperature_C", "supply_V", *METRIC_NAMES]), _ODD_VALUES), max_size=8))
-def test_prepared_rows_and_digests_match_the_reference(changes: list[Any]) -> None:
+    ["temperature_C", "supply_V", *METRIC_NAMES]), _ODD_VALUES), max_size=8),
+    st.lists(st.tuples(st.integers(0, 2), st.integers(0, 2), _TEXTS), max_size=3), _TEXTS)
+def test_prepared_rows_and_digests_match_the_reference(changes: list[Any], flags: list[Any],
+                                                      notes: list[str]) -> None:
     cells = [replace(c, corners=list(c.corners)) for c in _BASE.cells]
+    cells[0] = replace(cells[0], notes=notes)
     for i, j, name, value in changes:
         c = cells[i].corners[j]
         if name in METRIC_NAMES:
@@ -292,6 +316,8 @@ def test_prepared_rows_and_digests_match_the_reference(changes: list[Any]) -> No
         else:
             c = replace(c, **{name: value})
         cells[i].corners[j] = c
+    for i, j, texts in flags:
+        cells[i].corners[j] = replace(cells[i].corners[j], flags=texts)
     for fast, cell in zip(prepare_cells(cells), cells, strict=True):
         reference = reference_prepare(cell)
         _same(fast, reference)
@@ -300,18 +326,45 @@ def test_prepared_rows_and_digests_match_the_reference(changes: list[Any]) -> No
         _same(prepare_cell(cell), reference)
 
 
+def _element(kind: str, name: str, value: Any, **extra: Any) -> SimpleNamespace:
+    return SimpleNamespace(kind=kind, name=name, node_a="a", node_b="b", value=value,
+                           **{"c_total": None, "contacted_ends": 1, "node_far": None, **extra})
+
+
+@pytest.mark.parametrize("netlist", [
+    SimpleNamespace(name="n", ports=("vdd", "vss"), elements=(
+        _element("R", "r1", 1.5), _element("C", "é", 1e-15), _element("L", "l\"q", 5e-324),
+        _element("RCLINE", "ch", 3.0, c_total=2e-14, contacted_ends=2),
+        _element("RCLINE", "thru", 0.1, c_total=1e-15, node_far="far\n"),
+        _element("R", "odd", math.inf), _element("R", "odder", -math.inf), _element("R", "nan", math.nan),
+        _element("C", "zero", -0.0))),
+    SimpleNamespace(name="😀", ports=["p", "q"], elements=()),
+    # values or names that are not plain str / float: the path through netlist_to_dict
+    SimpleNamespace(name="n", ports=("a", "b"), elements=(_element("R", "r", np.float64(2.0)),)),
+    SimpleNamespace(name="n", ports=("a", "b"), elements=(_element("R", "r", np.array([2.0, 3.0])),)),
+    SimpleNamespace(name="n", ports=("a", "b"), elements=(
+        _element("RCLINE", "ch", 3.0, c_total=np.float32(2e-14), contacted_ends=True),)),
+])
+def test_circuit_text_matches_the_reference(netlist: Any) -> None:
+    assert _circuit_json(netlist, "typ") == reference_circuit_json(netlist, "typ")
+    assert _circuit_json({"typ": netlist}, "typ") == reference_circuit_json({"typ": netlist}, "typ")
+    assert _circuit_json({"typ": netlist}, "slow") is None
+
+
 @pytest.mark.parametrize("esd", [False, True])
 def test_engine_results_prepare_and_store_as_the_reference(esd: bool, tmp_path: Path) -> None:
     from celllab.cells import CellSpec
     from celllab.deck import load_deck
     from celllab.engine import characterize
+    from celllab.topologies import REGISTRY
 
     deck = load_deck(Path(__file__).resolve().parents[2] / "process_decks" / "lumen130.toml")
     specs = [CellSpec(name=f"v{i}", topology=t, width_sites=8 + i, height_rows=1 + i % 2)
-             for i, t in enumerate(["nmos_inversion", "pmos_inversion", "accumulation", "mom"])]
+             for i, t in enumerate(REGISTRY.names())]
     run = characterize(deck, specs, esd=esd)
     assert _both(run) == (None, None)
     prepared = prepare_cells(run.cells)
+    assert all(r["circuit_json"] for p in prepared for r in p.response_rows)
     for fast, cell in zip(prepared, run.cells, strict=True):
         _same(fast, reference_prepare(cell))
     catalog = open_catalog(tmp_path / "c.sqlite")
