@@ -180,7 +180,7 @@ def _f64(values: Iterable[Any]) -> bytes:
 
 def _framed(parts: Iterable[bytes]) -> bytes:
     """``parts`` each preceded by its length (8 bytes, little-endian): what ``_feed`` hashes."""
-    return b"".join(b for p in parts for b in (len(p).to_bytes(8, "little"), p))
+    return b"".join([b for p in parts for b in (len(p).to_bytes(8, "little"), p)])
 
 
 def _corner_text(corner: Any, flags_json: Any) -> bytes:
@@ -664,19 +664,11 @@ def _circuit_json(netlist: Any, corner: str) -> str | None:
     return _plain_circuit_json(netlist) or canonical_json(netlist_to_dict(netlist))
 
 
-def _json_float(x: float) -> str:
-    """A float as ``json`` writes it (``allow_nan``)."""
-    if x != x:
-        return "NaN"
-    if x in (math.inf, -math.inf):
-        return "Infinity" if x > 0 else "-Infinity"
-    return float.__repr__(x)
-
-
 def _plain_circuit_json(netlist: Any) -> str | None:
     """``canonical_json(netlist_to_dict(netlist))`` written directly, for a one-variant netlist
-    of plain str names and float values (None for anything else: the caller then takes that
-    path). Keys in sorted order, as ``canonical_json`` puts them."""
+    of plain str names and finite float values (None for anything else: the caller then takes
+    that path). Keys in sorted order, as ``canonical_json`` puts them; a finite float as its
+    ``repr``, as ``json`` writes it."""
     q = _json_text
     if type(netlist.name) is not str or not all(type(p) is str for p in netlist.ports):
         return None
@@ -684,19 +676,20 @@ def _plain_circuit_json(netlist: Any) -> str | None:
     for el in netlist.elements:
         kind, value = el.kind, el.value
         if not (type(kind) is type(el.name) is type(el.node_a) is type(el.node_b) is str
-                and type(value) is float):
+                and type(value) is float and math.isfinite(value)):
             return None
         common = (f'"kind":{q(kind)},"name":{q(el.name)},"node_a":{q(el.node_a)},'
                   f'"node_b":{q(el.node_b)}')
         if kind != "RCLINE":
-            items.append(f'{{{common},"value":{_json_float(value)}}}')
+            items.append(f'{{{common},"value":{value!r}}}')
             continue
         c_total, ends, far = el.c_total, el.contacted_ends, el.node_far
-        if type(c_total) is not float or type(ends) is not int or not (far is None or type(far) is str):
+        if not (type(c_total) is float and math.isfinite(c_total) and type(ends) is int
+                and (far is None or type(far) is str)):
             return None
         far_item = "" if far is None else f',"node_far":{q(far)}'
-        items.append(f'{{"c_total":{_json_float(c_total)},"contacted_ends":{ends},{common}'
-                     f'{far_item},"value":{_json_float(value)}}}')
+        items.append(f'{{"c_total":{c_total!r},"contacted_ends":{ends},{common}'
+                     f'{far_item},"value":{value!r}}}')
     ports = ",".join(map(q, netlist.ports))
     return f'{{"elements":[{",".join(items)}],"name":{q(netlist.name)},"ports":[{ports}]}}'
 

@@ -18,6 +18,7 @@ oxide (30 nm) 180 V.
 
 from __future__ import annotations
 
+import itertools
 import math
 import operator
 import re
@@ -279,7 +280,7 @@ def unchecked_corners(cells: Sequence[CellResult], run_corners: Collection[str])
 
 def _unchecked_batch(cells: Sequence[CellResult], run_corners: Collection[str]) -> list[list[int]]:
     names_ok: dict[str, bool] = {}
-    flag_words: dict[tuple[str, ...], list[int] | None] = {}
+    flag_metrics: dict[str, list[int]] = {}  # flag -> the metrics it names ([-1]: too long)
     where: list[tuple[int, int]] = []  # (cell, corner) of each corner number k
     bad: set[int] = set()
     rows: list[tuple[Any, ...]] = []
@@ -303,17 +304,21 @@ def _unchecked_batch(cells: Sequence[CellResult], run_corners: Collection[str]) 
                     ok = names_ok[name] = bool(CORNER_NAME.fullmatch(name)) and (
                         not run_corners or name in run_corners)
             ok = ok and type(metrics) is dict and metrics.keys() == _METRIC_SET
-            words = None
-            if ok and isinstance(flags, (list, tuple)) and all(type(f) is str for f in flags):
-                key = tuple(flags)
-                if key in flag_words:
-                    words = flag_words[key]
-                elif all(len(f) <= MAX_TEXT for f in key):
-                    found = _METRIC_SET.intersection(_WORD.findall("\n".join(key)))
-                    words = flag_words[key] = [_METRIC_INDEX[m] for m in found]
-                else:
-                    flag_words[key] = None
-            ok = words is not None
+            flagged: list[int] = []  # indices of the metrics its flags name
+            if ok and isinstance(flags, (list, tuple)):
+                for flag in flags:
+                    if type(flag) is not str:
+                        ok = False
+                        break
+                    found = flag_metrics.get(flag)
+                    if found is None:
+                        found = flag_metrics[flag] = (
+                            [_METRIC_INDEX[m] for m in _METRIC_SET.intersection(_WORD.findall(flag))]
+                            if len(flag) <= MAX_TEXT else [-1])
+                    flagged += found
+                ok = ok and -1 not in flagged
+            else:
+                ok = False
             f, z = (response.freq_Hz, response.z_ohm) if ok else (None, None)
             ok = ok and _plain_array(f, "fiu") and _plain_array(z, "fciu") and f.shape == z.shape
             if ok and cv is not None:
@@ -334,14 +339,15 @@ def _unchecked_batch(cells: Sequence[CellResult], run_corners: Collection[str]) 
             conditions.append((c.temperature_C, c.supply_V))
             freqs.append((k, f))
             others.append((k, z))
-            named_k += [k] * len(words)
-            named_m += words
+            named_k += [k] * len(flagged)
+            named_m += flagged
     if not where:
         return [[] for _ in cells]
-    for k, row in enumerate(rows):  # values of other types go to metric_problem
-        if not _PLAIN.issuperset(map(type, row)):
-            bad.add(k)
-            rows[k] = clear_row
+    if not _PLAIN.issuperset(map(type, itertools.chain.from_iterable(rows))):
+        for k, row in enumerate(rows):  # values of other types go to metric_problem
+            if not _PLAIN.issuperset(map(type, row)):
+                bad.add(k)
+                rows[k] = clear_row
     for k, pair in enumerate(conditions):
         if type(pair[0]) not in _PLAIN_FLOATS or type(pair[1]) not in _PLAIN_FLOATS:
             bad.add(k)
