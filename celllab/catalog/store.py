@@ -201,13 +201,6 @@ def result_digest(
     Takes the rows as stored (REAL values float or None, as both ``prepare_cell`` and SQLite
     give them). Two results with the same digest hold the same numbers bit for bit.
     """
-    head = [
-        json.dumps([cell_row[k] for k in _DIGEST_TEXT_KEYS]).encode(),
-        _f64(_column_value(k, cell_row.get(k)) for k in _NUMBER_CELL_COLUMNS),
-    ]
-    text_cells = [cell_row.get(k) for k in _TEXT_CELL_COLUMNS]
-    if any(v is not None for v in text_cells):  # results stored before these columns keep their digest
-        head.append(json.dumps(text_cells).encode())
     parts: dict[str, list[bytes]] = {}
     for row in corner_rows:
         parts[row["corner"]] = [
@@ -215,16 +208,37 @@ def result_digest(
             _f64([row["temperature_C"], row["supply_V"], *map(row.get, METRIC_NAMES)]),
         ]
     for row in response_rows:
-        parts[row["corner"]] += [b"response", bytes(row["freq_Hz"]), bytes(row["z_ohm"])]
+        parts[row["corner"]] += _response_parts(row)
     for row in cv_rows:
-        parts[row["corner"]] += [
-            b"cv",
-            bytes(row["bias_V"]),
-            bytes(row["cap_F"]),
-            _f64([nan_to_none(row["operating_bias_V"]), nan_to_none(row["operating_cap_F"])]),
-        ]
+        parts[row["corner"]] += _cv_parts(row)
+    return _hash_parts(cell_row, parts)
+
+
+def _response_parts(row: Mapping[str, Any]) -> list[bytes]:
+    return [b"response", bytes(row["freq_Hz"]), bytes(row["z_ohm"])]
+
+
+def _cv_parts(row: Mapping[str, Any]) -> list[bytes]:
+    return [
+        b"cv",
+        bytes(row["bias_V"]),
+        bytes(row["cap_F"]),
+        _f64([nan_to_none(row["operating_bias_V"]), nan_to_none(row["operating_cap_F"])]),
+    ]
+
+
+def _hash_parts(cell_row: Mapping[str, Any], corner_parts: dict[str, list[bytes]]) -> str:
+    """The digest of a cell row and the parts of each of its corners (``result_digest``)."""
+    head = [
+        json.dumps([cell_row[k] for k in _DIGEST_TEXT_KEYS]).encode(),
+        _f64(_column_value(k, cell_row.get(k)) for k in _NUMBER_CELL_COLUMNS),
+    ]
+    text_cells = [cell_row.get(k) for k in _TEXT_CELL_COLUMNS]
+    if any(v is not None for v in text_cells):  # results stored before these columns keep their digest
+        head.append(json.dumps(text_cells).encode())
     # hashed as one string: the same bytes as feeding the parts one by one
-    return hashlib.sha256(_framed([*head, *(p for c in sorted(parts) for p in parts[c])])).hexdigest()
+    corners = (p for c in sorted(corner_parts) for p in corner_parts[c])
+    return hashlib.sha256(_framed([*head, *corners])).hexdigest()
 
 
 def stored_result_digest(db: sqlite_utils.Database, cell_id: int) -> str:
@@ -288,18 +302,22 @@ def validate_run(run: CharacterizationRun) -> None:
 _CORNER_NUMBERS = ("temperature_C", "supply_V", *METRIC_NAMES)
 
 
-def _corner_numbers(corners: list[CornerResult]) -> list[list[float | None]]:
-    """Per corner its ``_CORNER_NUMBERS`` as stored: float, None for None and NaN
-    (``display.nan_to_none`` of each), all corners converted at once."""
+def _corner_numbers(corners: list[CornerResult]) -> list[tuple[list[float | None], bytes]]:
+    """Per corner its ``_CORNER_NUMBERS`` as stored (float, None for None and NaN:
+    ``display.nan_to_none`` of each) and as ``result_digest`` hashes them (float64 bytes, one
+    NaN for the empty ones); all corners converted at once."""
     if not corners:
         return []
     numbers = np.array(
         [(c.temperature_C, c.supply_V, *[c.metrics[m] for m in METRIC_NAMES]) for c in corners],
-        dtype=float,
+        dtype=_F64,
     )
+    empty = np.isnan(numbers)
     values = numbers.astype(object)
-    values[np.isnan(numbers)] = None
-    return values.tolist()  # type: ignore[no-any-return]
+    values[empty] = None
+    numbers[empty] = np.nan  # the one NaN None stands for (a NaN may carry a sign or payload)
+    blob, size = numbers.tobytes(), numbers.shape[1] * _F64.itemsize
+    return [(row, blob[k * size:(k + 1) * size]) for k, row in enumerate(values.tolist())]
 
 
 def prepare_cell(cell: CellResult) -> PreparedCell:
@@ -314,7 +332,7 @@ def prepare_cells(cells: Iterable[CellResult]) -> list[PreparedCell]:
     return [_prepare(cell, [next(numbers) for _ in cell.corners]) for cell in cells]
 
 
-def _prepare(cell: CellResult, numbers: list[list[float | None]]) -> PreparedCell:
+def _prepare(cell: CellResult, numbers: list[tuple[list[float | None], bytes]]) -> PreparedCell:
     try:
         geometry_json = canonical_json(cell.geometry)
         notes_json = _text_list_json(cell.notes)
@@ -332,7 +350,8 @@ def _prepare(cell: CellResult, numbers: list[list[float | None]]) -> PreparedCel
         **{k: _column_value(k, getattr(cell, k)) for k in CELL_COLUMNS},
     }
     corner_rows, response_rows, cv_rows = [], [], []
-    for c, flags_json, values in zip(cell.corners, flags, numbers, strict=True):
+    parts: dict[str, list[bytes]] = {}  # what result_digest hashes per corner, from the encoding
+    for c, flags_json, (values, number_bytes) in zip(cell.corners, flags, numbers, strict=True):
         corner_rows.append(
             {"corner": c.corner, **dict(zip(_CORNER_NUMBERS, values, strict=True)), "flags_json": flags_json}
         )
@@ -345,6 +364,8 @@ def _prepare(cell: CellResult, numbers: list[list[float | None]]) -> PreparedCel
                 "circuit_json": _circuit_json(cell.netlist, c.corner),
             }
         )
+        parts[c.corner] = [_corner_text(c.corner, flags_json), number_bytes,
+                           *_response_parts(response_rows[-1])]
         if c.cv is not None:
             cv_rows.append(
                 {
@@ -356,7 +377,11 @@ def _prepare(cell: CellResult, numbers: list[list[float | None]]) -> PreparedCel
                     "operating_cap_F": float(c.cv.operating_cap_F),
                 }
             )
-    digest = result_digest(cell_row, corner_rows, response_rows, cv_rows)
+            parts[c.corner] += _cv_parts(cv_rows[-1])
+    if len(parts) == len(corner_rows):
+        digest = _hash_parts(cell_row, parts)
+    else:  # a corner name repeats: the rows decide which parts go together
+        digest = result_digest(cell_row, corner_rows, response_rows, cv_rows)
     return PreparedCell(
         cell.name, cell.cell_hash, cell_row, corner_rows, response_rows, cv_rows, digest
     )

@@ -303,7 +303,8 @@ _ODD_VALUES = st.sampled_from([
 
 @settings(max_examples=200, deadline=None, derandomize=True, database=None)
 @given(st.lists(st.tuples(st.integers(0, 2), st.integers(0, 2), st.sampled_from(
-    ["temperature_C", "supply_V", *METRIC_NAMES]), _ODD_VALUES), max_size=8),
+    ["temperature_C", "supply_V", "operating_bias_V", "operating_cap_F", "corner", *METRIC_NAMES]),
+    _ODD_VALUES), max_size=8),
     st.lists(st.tuples(st.integers(0, 2), st.integers(0, 2), _TEXTS), max_size=3), _TEXTS)
 def test_prepared_rows_and_digests_match_the_reference(changes: list[Any], flags: list[Any],
                                                       notes: list[str]) -> None:
@@ -313,6 +314,11 @@ def test_prepared_rows_and_digests_match_the_reference(changes: list[Any], flags
         c = cells[i].corners[j]
         if name in METRIC_NAMES:
             c = replace(c, metrics={**c.metrics, name: value})
+        elif name == "corner":  # a repeated corner name
+            c = replace(c, corner=cells[i].corners[(j + 1) % 3].corner)
+        elif name.startswith("operating"):
+            if c.cv is not None and value is not None:
+                c = replace(c, cv=replace(c.cv, **{name: value}))
         else:
             c = replace(c, **{name: value})
         cells[i].corners[j] = c
