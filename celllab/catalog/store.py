@@ -399,6 +399,23 @@ def insert_rows(db: sqlite_utils.Database, table: str, rows: list[dict[str, Any]
     db.conn.executemany(sql, [[r[c] for c in cols] for r in rows])
 
 
+def _insert_with_cell_id(db: sqlite_utils.Database, table: str,
+                         rows: list[tuple[dict[str, Any], int]]) -> None:
+    """``insert_rows`` of each (row, cell_id) as the row plus its ``cell_id`` column."""
+    if not rows:
+        return
+    keys = tuple(rows[0][0])
+    cols = [*keys, "cell_id"]
+    sql = (
+        f"INSERT INTO {_q(table)} ({', '.join(_q(c) for c in cols)}) "
+        f"VALUES ({', '.join('?' for _ in cols)})"
+    )
+    db.conn.executemany(sql, [
+        [*r.values(), cell_id] if tuple(r) == keys else [*map(r.__getitem__, keys), cell_id]
+        for r, cell_id in rows
+    ])
+
+
 class CellWriter:
     """Inserts prepared cells in bulk: ids are assigned up front (after the largest stored one,
     which is what SQLite would pick inside the write transaction), rows are buffered and written
@@ -411,8 +428,9 @@ class CellWriter:
         cells table between adds (merge checks names against what it imported so far)."""
         self.db = db
         self.defer_cells = defer_cells
-        self.pending: dict[str, list[dict[str, Any]]] = {
-            "cells": [],  # first: the per-corner rows refer to it
+        self.cells: list[dict[str, Any]] = []  # written first: the per-corner rows refer to them
+        #: per-corner table -> (row, its cell_id)
+        self.pending: dict[str, list[tuple[dict[str, Any], int]]] = {
             "corner_metrics": [],
             "responses": [],
             "cv_curves": [],
@@ -433,7 +451,7 @@ class CellWriter:
         current: bool = True,
     ) -> int:
         cell_id = self.first_new_id + self.n + 1
-        self.pending["cells"].append(
+        self.cells.append(
             {
                 "cell_id": cell_id,
                 **cell.cell_row,
@@ -446,22 +464,24 @@ class CellWriter:
             }
         )
         if not self.defer_cells:
-            insert_rows(self.db, "cells", self.pending["cells"])
-            self.pending["cells"].clear()
+            insert_rows(self.db, "cells", self.cells)
+            self.cells.clear()
         for table, rows in (
             ("corner_metrics", cell.corner_rows),
             ("responses", cell.response_rows),
             ("cv_curves", cell.cv_rows),
         ):
-            self.pending[table] += [{**r, "cell_id": cell_id} for r in rows]
+            self.pending[table] += [(r, cell_id) for r in rows]
         self.n += 1
         if self.n % self.FLUSH_EVERY == 0:
             self.flush()
         return cell_id
 
     def flush(self) -> None:
-        for table, rows in self.pending.items():  # in the order rows refer to each other
-            insert_rows(self.db, table, rows)
+        insert_rows(self.db, "cells", self.cells)
+        self.cells.clear()
+        for table, rows in self.pending.items():
+            _insert_with_cell_id(self.db, table, rows)
             rows.clear()
 
     def finish(self) -> None:
