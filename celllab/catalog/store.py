@@ -18,6 +18,7 @@ from __future__ import annotations
 
 import gc
 import hashlib
+import itertools
 import json
 import math
 import uuid
@@ -300,6 +301,7 @@ def validate_run(run: CharacterizationRun) -> None:
 
 #: Per-corner numbers of a ``corner_metrics`` row, in column order.
 _CORNER_NUMBERS = ("temperature_C", "supply_V", *METRIC_NAMES)
+_FLOAT_OR_NONE = frozenset({float, type(None)})
 
 
 def _corner_numbers(corners: list[CornerResult]) -> list[tuple[list[float | None], bytes]]:
@@ -308,16 +310,21 @@ def _corner_numbers(corners: list[CornerResult]) -> list[tuple[list[float | None
     NaN for the empty ones); all corners converted at once."""
     if not corners:
         return []
-    numbers = np.array(
-        [(c.temperature_C, c.supply_V, *[c.metrics[m] for m in METRIC_NAMES]) for c in corners],
-        dtype=_F64,
-    )
+    given = [(c.temperature_C, c.supply_V, *[c.metrics[m] for m in METRIC_NAMES]) for c in corners]
+    numbers = np.array(given, dtype=_F64)
     empty = np.isnan(numbers)
-    values = numbers.astype(object)
-    values[empty] = None
+    if _FLOAT_OR_NONE.issuperset(map(type, itertools.chain.from_iterable(given))):
+        # the engine's values: the float objects themselves are stored (as float() keeps them)
+        values = [list(row) for row in given]
+        for k, j in zip(*(a.tolist() for a in np.nonzero(empty)), strict=True):
+            values[k][j] = None
+    else:
+        converted = numbers.astype(object)
+        converted[empty] = None
+        values = converted.tolist()
     numbers[empty] = np.nan  # the one NaN None stands for (a NaN may carry a sign or payload)
     blob, size = numbers.tobytes(), numbers.shape[1] * _F64.itemsize
-    return [(row, blob[k * size:(k + 1) * size]) for k, row in enumerate(values.tolist())]
+    return [(row, blob[k * size:(k + 1) * size]) for k, row in enumerate(values)]
 
 
 def prepare_cell(cell: CellResult) -> PreparedCell:

@@ -373,6 +373,9 @@ def test_engine_results_prepare_and_store_as_the_reference(esd: bool, tmp_path: 
     assert all(r["circuit_json"] for p in prepared for r in p.response_rows)
     for fast, cell in zip(prepared, run.cells, strict=True):
         _same(fast, reference_prepare(cell))
+        # the engine's float objects are stored as they are, not copied (memory of a library build)
+        assert all(fast.corner_rows[j][m] is v for j, c in enumerate(cell.corners)
+                   for m, v in c.metrics.items() if v == v)
     catalog = open_catalog(tmp_path / "c.sqlite")
     catalog.store_run(run)
     db = catalog._db
