@@ -16,11 +16,14 @@ impedance as little-endian complex128 blobs.
 
 from __future__ import annotations
 
+import gc
 import hashlib
+import itertools
 import json
 import math
 import uuid
-from collections.abc import Callable, Iterable, Mapping
+from collections.abc import Callable, Iterable, Iterator, Mapping
+from contextlib import contextmanager
 from dataclasses import dataclass, field
 from datetime import UTC, datetime
 from pathlib import Path
@@ -96,11 +99,27 @@ def _json_default(value: Any) -> Any:
     raise TypeError(f"{type(value).__name__} is not JSON serialisable")
 
 
+#: One encoder for all canonical text (``json.dumps`` with these options builds one per call).
+_CANONICAL = json.JSONEncoder(
+    sort_keys=True, separators=(",", ":"), default=_json_default, allow_nan=True
+)
+
+
+#: A str as ``json`` writes it by default (ASCII, escaped).
+_json_text = json.encoder.encode_basestring_ascii
+
+
 def canonical_json(value: Any) -> str:
     """JSON text with sorted keys and no spaces, so equal content gives equal text."""
-    return json.dumps(
-        value, sort_keys=True, separators=(",", ":"), default=_json_default, allow_nan=True
-    )
+    return _CANONICAL.encode(value)
+
+
+def _text_list_json(values: Iterable[Any]) -> str:
+    """``canonical_json(list(values))``, written directly when every value is a str."""
+    values = list(values)
+    if all(type(v) is str for v in values):
+        return "[" + ",".join(map(_json_text, values)) + "]"
+    return canonical_json(values)
 
 
 def _column_value(name: str, value: Any) -> Any:
@@ -155,8 +174,21 @@ def _feed(h: Any, data: bytes) -> None:
 
 
 def _f64(values: Iterable[Any]) -> bytes:
-    """Values as float64 bytes, empty -> NaN (one canonical NaN, since NaN is stored as empty)."""
-    return np.array([math.nan if v is None else v for v in values], dtype=_F64).tobytes()
+    """Values as float64 bytes, empty -> NaN (one canonical NaN, since NaN is stored as empty:
+    numpy reads None as that NaN)."""
+    return np.array(list(values), dtype=_F64).tobytes()
+
+
+def _framed(parts: Iterable[bytes]) -> bytes:
+    """``parts`` each preceded by its length (8 bytes, little-endian): what ``_feed`` hashes."""
+    return b"".join([b for p in parts for b in (len(p).to_bytes(8, "little"), p)])
+
+
+def _corner_text(corner: Any, flags_json: Any) -> bytes:
+    """``json.dumps([corner, flags_json]).encode()``, written directly for two str."""
+    if type(corner) is str and type(flags_json) is str:
+        return f"[{_json_text(corner)}, {_json_text(flags_json)}]".encode()
+    return json.dumps([corner, flags_json]).encode()
 
 
 def result_digest(
@@ -170,31 +202,44 @@ def result_digest(
     Takes the rows as stored (REAL values float or None, as both ``prepare_cell`` and SQLite
     give them). Two results with the same digest hold the same numbers bit for bit.
     """
-    h = hashlib.sha256()
-    _feed(h, json.dumps([cell_row[k] for k in _DIGEST_TEXT_KEYS]).encode())
-    _feed(h, _f64(_column_value(k, cell_row.get(k)) for k in _NUMBER_CELL_COLUMNS))
-    text_cells = [cell_row.get(k) for k in _TEXT_CELL_COLUMNS]
-    if any(v is not None for v in text_cells):  # results stored before these columns keep their digest
-        _feed(h, json.dumps(text_cells).encode())
     parts: dict[str, list[bytes]] = {}
     for row in corner_rows:
         parts[row["corner"]] = [
-            json.dumps([row["corner"], row["flags_json"]]).encode(),
-            _f64([row["temperature_C"], row["supply_V"], *(row.get(m) for m in METRIC_NAMES)]),
+            _corner_text(row["corner"], row["flags_json"]),
+            _f64([row["temperature_C"], row["supply_V"], *map(row.get, METRIC_NAMES)]),
         ]
     for row in response_rows:
-        parts[row["corner"]] += [b"response", bytes(row["freq_Hz"]), bytes(row["z_ohm"])]
+        parts[row["corner"]] += _response_parts(row)
     for row in cv_rows:
-        parts[row["corner"]] += [
-            b"cv",
-            bytes(row["bias_V"]),
-            bytes(row["cap_F"]),
-            _f64([nan_to_none(row["operating_bias_V"]), nan_to_none(row["operating_cap_F"])]),
-        ]
-    for corner in sorted(parts):
-        for part in parts[corner]:
-            _feed(h, part)
-    return h.hexdigest()
+        parts[row["corner"]] += _cv_parts(row)
+    return _hash_parts(cell_row, parts)
+
+
+def _response_parts(row: Mapping[str, Any]) -> list[bytes]:
+    return [b"response", bytes(row["freq_Hz"]), bytes(row["z_ohm"])]
+
+
+def _cv_parts(row: Mapping[str, Any]) -> list[bytes]:
+    return [
+        b"cv",
+        bytes(row["bias_V"]),
+        bytes(row["cap_F"]),
+        _f64([nan_to_none(row["operating_bias_V"]), nan_to_none(row["operating_cap_F"])]),
+    ]
+
+
+def _hash_parts(cell_row: Mapping[str, Any], corner_parts: dict[str, list[bytes]]) -> str:
+    """The digest of a cell row and the parts of each of its corners (``result_digest``)."""
+    head = [
+        json.dumps([cell_row[k] for k in _DIGEST_TEXT_KEYS]).encode(),
+        _f64(_column_value(k, cell_row.get(k)) for k in _NUMBER_CELL_COLUMNS),
+    ]
+    text_cells = [cell_row.get(k) for k in _TEXT_CELL_COLUMNS]
+    if any(v is not None for v in text_cells):  # results stored before these columns keep their digest
+        head.append(json.dumps(text_cells).encode())
+    # hashed as one string: the same bytes as feeding the parts one by one
+    corners = (p for c in sorted(corner_parts) for p in corner_parts[c])
+    return hashlib.sha256(_framed([*head, *corners])).hexdigest()
 
 
 def stored_result_digest(db: sqlite_utils.Database, cell_id: int) -> str:
@@ -209,39 +254,21 @@ def stored_result_digest(db: sqlite_utils.Database, cell_id: int) -> str:
     )
 
 
-def _corner_problems(where: str, c: CornerResult, run_corners: set[str]) -> list[str]:
-    out = []
-    if run_corners and c.corner not in run_corners:
-        out.append(
-            f"{where}.corner = {c.corner!r} -> not one of the run's corners "
-            f"({', '.join(sorted(run_corners))})"
-        )
-    keys = set(c.metrics)
-    if missing := [m for m in METRIC_NAMES if m not in keys]:
-        out.append(f"{where}.metrics -> missing {', '.join(missing)}")
-    if extra := sorted(keys - set(METRIC_NAMES)):
-        out.append(
-            f"{where}.metrics -> unknown {', '.join(extra)}; allowed: {', '.join(METRIC_NAMES)}"
-        )
-    f, z = np.asarray(c.response.freq_Hz), np.asarray(c.response.z_ohm)
-    if f.ndim != 1 or f.shape != z.shape:
-        out.append(
-            f"{where}.response -> freq_Hz {f.shape} and z_ohm {z.shape} must be equal 1-D arrays"
-        )
-    if c.cv is not None:
-        b, cap = np.asarray(c.cv.bias_V), np.asarray(c.cv.cap_F)
-        if b.ndim != 1 or b.shape != cap.shape:
-            out.append(
-                f"{where}.cv -> bias_V {b.shape} and cap_F {cap.shape} must be equal 1-D arrays"
-            )
-    return out
-
-
 def validate_run(run: CharacterizationRun) -> None:
-    """Raise CatalogError listing every structural problem of ``run`` (nothing is written)."""
+    """Raise CatalogError listing every structural problem of ``run`` (nothing is written).
+
+    The corners are checked all at once (``validate.unchecked_corners``); the per-value checks
+    run on those it cannot clear, and give the messages.
+    """
     # imported here: the checks read the deck and topology schemas (pydantic, scipy), which a
     # catalog opened only to query never needs
-    from celllab.catalog.validate import DECK_NAME, cell_problems, shown
+    from celllab.catalog.validate import (
+        DECK_NAME,
+        cell_problems,
+        run_corner_problems,
+        shown,
+        unchecked_corners,
+    )
 
     label = f"run of deck {shown(run.deck_name)}"
     msgs: list[str] = []
@@ -253,6 +280,7 @@ def validate_run(run: CharacterizationRun) -> None:
     seen_names: dict[str, int] = {}
     seen_hashes: dict[str, int] = {}
     run_corners = set(run.corners)
+    suspect = unchecked_corners(run.cells, run_corners)
     for i, cell in enumerate(run.cells):
         where = f"cells[{i}] ({shown(cell.name, 40)})"
         if cell.name in seen_names:
@@ -264,19 +292,58 @@ def validate_run(run: CharacterizationRun) -> None:
         corner_names = [c.corner for c in cell.corners]
         if len(set(corner_names)) != len(corner_names):
             msgs.append(f"{where}.corners -> repeated corner names {corner_names}")
-        for j, c in enumerate(cell.corners):
-            msgs += _corner_problems(f"{where}.corners[{j}]", c, run_corners)
-        msgs += cell_problems(where, cell)
+        for j in suspect[i]:
+            msgs += run_corner_problems(f"{where}.corners[{j}]", cell.corners[j], run_corners)
+        msgs += cell_problems(where, cell, suspect[i])
     if msgs:
         raise CatalogError([Problem(label, "", m) for m in msgs])
 
 
+#: Per-corner numbers of a ``corner_metrics`` row, in column order.
+_CORNER_NUMBERS = ("temperature_C", "supply_V", *METRIC_NAMES)
+_FLOAT_OR_NONE = frozenset({float, type(None)})
+
+
+def _corner_numbers(corners: list[CornerResult]) -> list[tuple[list[float | None], bytes]]:
+    """Per corner its ``_CORNER_NUMBERS`` as stored (float, None for None and NaN:
+    ``display.nan_to_none`` of each) and as ``result_digest`` hashes them (float64 bytes, one
+    NaN for the empty ones); all corners converted at once."""
+    if not corners:
+        return []
+    given = [(c.temperature_C, c.supply_V, *[c.metrics[m] for m in METRIC_NAMES]) for c in corners]
+    numbers = np.array(given, dtype=_F64)
+    empty = np.isnan(numbers)
+    if _FLOAT_OR_NONE.issuperset(map(type, itertools.chain.from_iterable(given))):
+        # the engine's values: the float objects themselves are stored (as float() keeps them)
+        values = [list(row) for row in given]
+        for k, j in zip(*(a.tolist() for a in np.nonzero(empty)), strict=True):
+            values[k][j] = None
+    else:
+        converted = numbers.astype(object)
+        converted[empty] = None
+        values = converted.tolist()
+    numbers[empty] = np.nan  # the one NaN None stands for (a NaN may carry a sign or payload)
+    blob, size = numbers.tobytes(), numbers.shape[1] * _F64.itemsize
+    return [(row, blob[k * size:(k + 1) * size]) for k, row in enumerate(values)]
+
+
 def prepare_cell(cell: CellResult) -> PreparedCell:
     """Encode one cell result as catalog rows and compute its digest (no database access)."""
+    return prepare_cells([cell])[0]
+
+
+def prepare_cells(cells: Iterable[CellResult]) -> list[PreparedCell]:
+    """``prepare_cell`` of each cell; the per-corner numbers of all of them converted at once."""
+    cells = list(cells)
+    numbers = iter(_corner_numbers([c for cell in cells for c in cell.corners]))
+    return [_prepare(cell, [next(numbers) for _ in cell.corners]) for cell in cells]
+
+
+def _prepare(cell: CellResult, numbers: list[tuple[list[float | None], bytes]]) -> PreparedCell:
     try:
         geometry_json = canonical_json(cell.geometry)
-        notes_json = canonical_json(list(cell.notes))
-        flags = [canonical_json(list(c.flags)) for c in cell.corners]
+        notes_json = _text_list_json(cell.notes)
+        flags = [_text_list_json(c.flags) for c in cell.corners]
     except TypeError as exc:
         raise CatalogError.single(f"cell {cell.name}", "geometry", str(exc)) from None
     cell_row: dict[str, Any] = {
@@ -290,15 +357,10 @@ def prepare_cell(cell: CellResult) -> PreparedCell:
         **{k: _column_value(k, getattr(cell, k)) for k in CELL_COLUMNS},
     }
     corner_rows, response_rows, cv_rows = [], [], []
-    for c, flags_json in zip(cell.corners, flags, strict=True):
+    parts: dict[str, list[bytes]] = {}  # what result_digest hashes per corner, from the encoding
+    for c, flags_json, (values, number_bytes) in zip(cell.corners, flags, numbers, strict=True):
         corner_rows.append(
-            {
-                "corner": c.corner,
-                "temperature_C": nan_to_none(c.temperature_C),
-                "supply_V": nan_to_none(c.supply_V),
-                **{m: nan_to_none(c.metrics[m]) for m in METRIC_NAMES},
-                "flags_json": flags_json,
-            }
+            {"corner": c.corner, **dict(zip(_CORNER_NUMBERS, values, strict=True)), "flags_json": flags_json}
         )
         response_rows.append(
             {
@@ -309,6 +371,8 @@ def prepare_cell(cell: CellResult) -> PreparedCell:
                 "circuit_json": _circuit_json(cell.netlist, c.corner),
             }
         )
+        parts[c.corner] = [_corner_text(c.corner, flags_json), number_bytes,
+                           *_response_parts(response_rows[-1])]
         if c.cv is not None:
             cv_rows.append(
                 {
@@ -320,7 +384,11 @@ def prepare_cell(cell: CellResult) -> PreparedCell:
                     "operating_cap_F": float(c.cv.operating_cap_F),
                 }
             )
-    digest = result_digest(cell_row, corner_rows, response_rows, cv_rows)
+            parts[c.corner] += _cv_parts(cv_rows[-1])
+    if len(parts) == len(corner_rows):
+        digest = _hash_parts(cell_row, parts)
+    else:  # a corner name repeats: the rows decide which parts go together
+        digest = result_digest(cell_row, corner_rows, response_rows, cv_rows)
     return PreparedCell(
         cell.name, cell.cell_hash, cell_row, corner_rows, response_rows, cv_rows, digest
     )
@@ -338,6 +406,23 @@ def insert_rows(db: sqlite_utils.Database, table: str, rows: list[dict[str, Any]
     db.conn.executemany(sql, [[r[c] for c in cols] for r in rows])
 
 
+def _insert_with_cell_id(db: sqlite_utils.Database, table: str,
+                         rows: list[tuple[dict[str, Any], int]]) -> None:
+    """``insert_rows`` of each (row, cell_id) as the row plus its ``cell_id`` column."""
+    if not rows:
+        return
+    keys = tuple(rows[0][0])
+    cols = [*keys, "cell_id"]
+    sql = (
+        f"INSERT INTO {_q(table)} ({', '.join(_q(c) for c in cols)}) "
+        f"VALUES ({', '.join('?' for _ in cols)})"
+    )
+    db.conn.executemany(sql, [
+        [*r.values(), cell_id] if tuple(r) == keys else [*map(r.__getitem__, keys), cell_id]
+        for r, cell_id in rows
+    ])
+
+
 class CellWriter:
     """Inserts prepared cells in bulk: ids are assigned up front (after the largest stored one,
     which is what SQLite would pick inside the write transaction), rows are buffered and written
@@ -350,8 +435,9 @@ class CellWriter:
         cells table between adds (merge checks names against what it imported so far)."""
         self.db = db
         self.defer_cells = defer_cells
-        self.pending: dict[str, list[dict[str, Any]]] = {
-            "cells": [],  # first: the per-corner rows refer to it
+        self.cells: list[dict[str, Any]] = []  # written first: the per-corner rows refer to them
+        #: per-corner table -> (row, its cell_id)
+        self.pending: dict[str, list[tuple[dict[str, Any], int]]] = {
             "corner_metrics": [],
             "responses": [],
             "cv_curves": [],
@@ -372,7 +458,7 @@ class CellWriter:
         current: bool = True,
     ) -> int:
         cell_id = self.first_new_id + self.n + 1
-        self.pending["cells"].append(
+        self.cells.append(
             {
                 "cell_id": cell_id,
                 **cell.cell_row,
@@ -385,22 +471,24 @@ class CellWriter:
             }
         )
         if not self.defer_cells:
-            insert_rows(self.db, "cells", self.pending["cells"])
-            self.pending["cells"].clear()
+            insert_rows(self.db, "cells", self.cells)
+            self.cells.clear()
         for table, rows in (
             ("corner_metrics", cell.corner_rows),
             ("responses", cell.response_rows),
             ("cv_curves", cell.cv_rows),
         ):
-            self.pending[table] += [{**r, "cell_id": cell_id} for r in rows]
+            self.pending[table] += [(r, cell_id) for r in rows]
         self.n += 1
         if self.n % self.FLUSH_EVERY == 0:
             self.flush()
         return cell_id
 
     def flush(self) -> None:
-        for table, rows in self.pending.items():  # in the order rows refer to each other
-            insert_rows(self.db, table, rows)
+        insert_rows(self.db, "cells", self.cells)
+        self.cells.clear()
+        for table, rows in self.pending.items():
+            _insert_with_cell_id(self.db, table, rows)
             rows.clear()
 
     def finish(self) -> None:
@@ -468,6 +556,24 @@ def _ensure_deck(db: sqlite_utils.Database, run: CharacterizationRun, now: str) 
     return False
 
 
+@contextmanager
+def _cycle_collector_paused() -> Iterator[None]:
+    """Python's cycle collector off for the block (as it was after it).
+
+    Storing a run makes hundreds of thousands of small objects and no cycles; each time they
+    pile up the collector would walk every object of the run (a library build: a quarter of
+    the time ``store_run`` takes). The objects are freed when the store returns, so the
+    collector does not catch up on them later either.
+    """
+    was_on = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if was_on:
+            gc.enable()
+
+
 def store_run(db: sqlite_utils.Database, run: CharacterizationRun) -> StoreReport:
     """Store ``run`` in one transaction; see the module docstring for what is skipped or superseded."""
     return store_runs(db, [run])
@@ -480,19 +586,21 @@ def store_runs(db: sqlite_utils.Database, parts: Iterable[CharacterizationRun]) 
     Each part is checked, encoded and written before the next is taken from ``parts``, so a
     build holds one part in memory, not the whole run; a part that fails its checks (or an
     exception from the iterator, e.g. Ctrl-C during the next part's characterization) rolls
-    back every part before it: nothing is written.
+    back every part before it: nothing is written. The cycle collector pauses while a part is
+    stored (not while the next one is computed).
     """
     now = utc_now()
     with write_transaction(db):
         session: _StoreSession | None = None
         pending = iter(parts)
         while (run := next(pending, None)) is not None:
-            validate_run(run)
-            if session is None:
-                session = _StoreSession(db, run, now)
-            else:
-                session.check_same_run(run)
-            session.store([prepare_cell(c) for c in run.cells])
+            with _cycle_collector_paused():
+                validate_run(run)
+                if session is None:
+                    session = _StoreSession(db, run, now)
+                else:
+                    session.check_same_run(run)
+                session.store(prepare_cells(run.cells))
             del run  # not held while the next part is computed
         if session is None:
             raise ValueError("store_runs needs at least one part")
@@ -677,7 +785,37 @@ def _circuit_json(netlist: Any, corner: str) -> str | None:
         netlist = netlist.get(corner)
     if netlist is None:
         return None
-    return canonical_json(netlist_to_dict(netlist))
+    return _plain_circuit_json(netlist) or canonical_json(netlist_to_dict(netlist))
+
+
+def _plain_circuit_json(netlist: Any) -> str | None:
+    """``canonical_json(netlist_to_dict(netlist))`` written directly, for a one-variant netlist
+    of plain str names and finite float values (None for anything else: the caller then takes
+    that path). Keys in sorted order, as ``canonical_json`` puts them; a finite float as its
+    ``repr``, as ``json`` writes it."""
+    q = _json_text
+    if type(netlist.name) is not str or not all(type(p) is str for p in netlist.ports):
+        return None
+    items = []
+    for el in netlist.elements:
+        kind, value = el.kind, el.value
+        if not (type(kind) is type(el.name) is type(el.node_a) is type(el.node_b) is str
+                and type(value) is float and math.isfinite(value)):
+            return None
+        common = (f'"kind":{q(kind)},"name":{q(el.name)},"node_a":{q(el.node_a)},'
+                  f'"node_b":{q(el.node_b)}')
+        if kind != "RCLINE":
+            items.append(f'{{{common},"value":{value!r}}}')
+            continue
+        c_total, ends, far = el.c_total, el.contacted_ends, el.node_far
+        if not (type(c_total) is float and math.isfinite(c_total) and type(ends) is int
+                and (far is None or type(far) is str)):
+            return None
+        far_item = "" if far is None else f',"node_far":{q(far)}'
+        items.append(f'{{"c_total":{c_total!r},"contacted_ends":{ends},{common}'
+                     f'{far_item},"value":{value!r}}}')
+    ports = ",".join(map(q, netlist.ports))
+    return f'{{"elements":[{",".join(items)}],"name":{q(netlist.name)},"ports":[{ports}]}}'
 
 
 def load_cell(db: sqlite_utils.Database, cell_id: int) -> CellResult:

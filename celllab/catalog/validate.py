@@ -18,9 +18,11 @@ oxide (30 nm) 180 V.
 
 from __future__ import annotations
 
+import itertools
 import math
+import operator
 import re
-from collections.abc import Iterable, Sequence
+from collections.abc import Collection, Iterable, Sequence
 from typing import Any
 
 import numpy as np
@@ -151,8 +153,12 @@ def corner_problems(where: str, c: CornerResult) -> list[str]:
     return out
 
 
-def cell_problems(where: str, cell: CellResult) -> list[str]:
-    """Problems of one cell result's identity, per-cell columns and corners (not its keys)."""
+def cell_problems(where: str, cell: CellResult, corners: Iterable[int] | None = None) -> list[str]:
+    """Problems of one cell result's identity, per-cell columns and corners (not its keys).
+
+    ``corners``: indices of the corners to check (None: all); ``unchecked_corners`` tells which
+    a run's cells need.
+    """
     out = []
     rules = (("name", cell.name, CELL_NAME, "letters, digits, _, - and ., starting with a letter, "
               "at most 80"), ("family", cell.family, FAMILY_NAME, "empty, or a name like a cell name"))
@@ -183,6 +189,186 @@ def cell_problems(where: str, cell: CellResult) -> list[str]:
         out.append(f"{where}.esd_safe = {shown(cell.esd_safe)} -> must be true or false")
     if why := _text_list_problem(cell.notes, "notes"):
         out.append(f"{where}.notes -> {why}")
-    for j, c in enumerate(cell.corners):
+    all_corners = list(cell.corners)
+    for j in range(len(all_corners)) if corners is None else corners:
+        c = all_corners[j]
         out += corner_problems(f"{where}.corners[{j}] ({shown(c.corner, 40)})", c)
+    return out
+
+
+def run_corner_problems(where: str, c: CornerResult, run_corners: Collection[str]) -> list[str]:
+    """How a corner of a fresh run fits it: one of the run's corners (when it names any), every
+    metric present and none unknown, response and C-V arrays of matching 1-D shapes."""
+    out = []
+    if run_corners and c.corner not in run_corners:
+        out.append(
+            f"{where}.corner = {c.corner!r} -> not one of the run's corners "
+            f"({', '.join(sorted(run_corners))})"
+        )
+    keys = set(c.metrics)
+    if missing := [m for m in METRIC_NAMES if m not in keys]:
+        out.append(f"{where}.metrics -> missing {', '.join(missing)}")
+    if extra := sorted(keys - set(METRIC_NAMES)):
+        out.append(
+            f"{where}.metrics -> unknown {', '.join(extra)}; allowed: {', '.join(METRIC_NAMES)}"
+        )
+    f, z = np.asarray(c.response.freq_Hz), np.asarray(c.response.z_ohm)
+    if f.ndim != 1 or f.shape != z.shape:
+        out.append(
+            f"{where}.response -> freq_Hz {f.shape} and z_ohm {z.shape} must be equal 1-D arrays"
+        )
+    if c.cv is not None:
+        b, cap = np.asarray(c.cv.bias_V), np.asarray(c.cv.cap_F)
+        if b.ndim != 1 or b.shape != cap.shape:
+            out.append(
+                f"{where}.cv -> bias_V {b.shape} and cap_F {cap.shape} must be equal 1-D arrays"
+            )
+    return out
+
+
+# --------------------------------------------------------------------------- batch check
+#
+# A library build stores thousands of cells x corners; checking every metric value one by one
+# (``metric_problem``) costs more than writing them. ``unchecked_corners`` checks all corners of
+# a run at once with numpy and hands back only the corners it cannot clear; ``corner_problems``
+# and ``run_corner_problems`` then say what is wrong with those. It clears a corner only when
+# both would find nothing, so the messages are those of the per-value checks; anything it does
+# not recognise at a glance (a value that is not a plain float, an array that is not a 1-D
+# numeric ndarray, ...) is left to them.
+
+#: Cells checked together (bounds the memory of the joined response arrays).
+BATCH_CELLS = 1024
+#: A whole word of a flag, as ``flag_names_metric`` delimits it.
+_WORD = re.compile(r"[A-Za-z0-9_]+")
+assert all(_WORD.fullmatch(m) for m in METRIC_NAMES)  # so a metric is named iff it is a word
+_METRIC_SET = frozenset(METRIC_NAMES)
+_METRIC_INDEX = {m: k for k, m in enumerate(METRIC_NAMES)}
+_metric_values = operator.itemgetter(*METRIC_NAMES)
+_RANGES = [METRIC_RANGES.get(m, (-math.inf, math.inf, True)) for m in METRIC_NAMES]
+_LO = np.array([r[0] for r in _RANGES])
+_HI = np.array([r[1] for r in _RANGES])
+_LO_SHUT = ~np.array([r[2] for r in _RANGES])
+#: Value types read straight into a float array: exact, and None / NaN both become NaN.
+_PLAIN = frozenset({float, np.float64, type(None)})
+_PLAIN_FLOATS = (float, np.float64)
+
+
+def _plain_array(a: Any, kinds: str) -> bool:
+    return type(a) is np.ndarray and a.ndim == 1 and a.dtype.kind in kinds
+
+
+def _bad_arrays(arrays: list[tuple[int, np.ndarray]], positive: bool = False) -> set[int]:
+    """Numbers k of the (k, array) pairs holding a value that is not finite (or, ``positive``,
+    not > 0): all arrays joined first, one by one only when the joined one fails."""
+    if not arrays:
+        return set()
+    joined = np.concatenate([a for _, a in arrays])
+    if np.isfinite(joined).all() and (not positive or (joined > 0).all()):
+        return set()
+    return {k for k, a in arrays
+            if not np.isfinite(a).all() or (positive and not (a > 0).all())}
+
+
+def unchecked_corners(cells: Sequence[CellResult], run_corners: Collection[str]) -> list[list[int]]:
+    """Per cell, the indices of the corners that may have a problem under ``corner_problems`` or
+    ``run_corner_problems``; every other corner has none (checked here all at once)."""
+    out: list[list[int]] = []
+    for start in range(0, len(cells), BATCH_CELLS):
+        out += _unchecked_batch(cells[start:start + BATCH_CELLS], run_corners)
+    return out
+
+
+def _unchecked_batch(cells: Sequence[CellResult], run_corners: Collection[str]) -> list[list[int]]:
+    names_ok: dict[str, bool] = {}
+    flag_metrics: dict[str, list[int]] = {}  # flag -> the metrics it names ([-1]: too long)
+    where: list[tuple[int, int]] = []  # (cell, corner) of each corner number k
+    bad: set[int] = set()
+    rows: list[tuple[Any, ...]] = []
+    conditions: list[tuple[Any, Any]] = []
+    named_k: list[int] = []  # (corner number, metric index) of the metrics a flag names
+    named_m: list[int] = []
+    freqs: list[tuple[int, np.ndarray]] = []
+    others: list[tuple[int, np.ndarray]] = []
+    operating: list[tuple[Any, Any]] = []
+    operating_k: list[int] = []
+    clear_row = (1.0,) * len(METRIC_NAMES)
+    for i, cell in enumerate(cells):
+        for j, c in enumerate(cell.corners):
+            k = len(where)
+            where.append((i, j))
+            name, metrics, flags, response, cv = c.corner, c.metrics, c.flags, c.response, c.cv
+            ok = type(name) is str
+            if ok:
+                ok = names_ok.get(name)  # type: ignore[assignment]
+                if ok is None:
+                    ok = names_ok[name] = bool(CORNER_NAME.fullmatch(name)) and (
+                        not run_corners or name in run_corners)
+            ok = ok and type(metrics) is dict and metrics.keys() == _METRIC_SET
+            flagged: list[int] = []  # indices of the metrics its flags name
+            if ok and isinstance(flags, (list, tuple)):
+                for flag in flags:
+                    if type(flag) is not str:
+                        ok = False
+                        break
+                    found = flag_metrics.get(flag)
+                    if found is None:
+                        found = flag_metrics[flag] = (
+                            [_METRIC_INDEX[m] for m in _METRIC_SET.intersection(_WORD.findall(flag))]
+                            if len(flag) <= MAX_TEXT else [-1])
+                    flagged += found
+                ok = ok and -1 not in flagged
+            else:
+                ok = False
+            f, z = (response.freq_Hz, response.z_ohm) if ok else (None, None)
+            ok = ok and _plain_array(f, "fiu") and _plain_array(z, "fciu") and f.shape == z.shape
+            if ok and cv is not None:
+                b, cap = cv.bias_V, cv.cap_F
+                ok = (_plain_array(b, "fciu") and _plain_array(cap, "fciu") and b.shape == cap.shape
+                      and type(cv.operating_bias_V) in _PLAIN_FLOATS
+                      and type(cv.operating_cap_F) in _PLAIN_FLOATS)
+                if ok:
+                    others += [(k, b), (k, cap)]
+                    operating.append((cv.operating_bias_V, cv.operating_cap_F))
+                    operating_k.append(k)
+            if not ok:
+                bad.add(k)
+                rows.append(clear_row)
+                conditions.append((25.0, 1.0))
+                continue
+            rows.append(_metric_values(metrics))
+            conditions.append((c.temperature_C, c.supply_V))
+            freqs.append((k, f))
+            others.append((k, z))
+            named_k += [k] * len(flagged)
+            named_m += flagged
+    if not where:
+        return [[] for _ in cells]
+    if not _PLAIN.issuperset(map(type, itertools.chain.from_iterable(rows))):
+        for k, row in enumerate(rows):  # values of other types go to metric_problem
+            if not _PLAIN.issuperset(map(type, row)):
+                bad.add(k)
+                rows[k] = clear_row
+    for k, pair in enumerate(conditions):
+        if type(pair[0]) not in _PLAIN_FLOATS or type(pair[1]) not in _PLAIN_FLOATS:
+            bad.add(k)
+            conditions[k] = (25.0, 1.0)
+    values = np.array(rows, dtype=float)
+    named = np.zeros(values.shape, dtype=bool)
+    named[named_k, named_m] = True
+    empty = np.isnan(values)
+    refused = np.where(empty, ~named, ~np.isfinite(values) | (values < _LO)
+                       | ((values == _LO) & _LO_SHUT) | (values > _HI))
+    cond = np.array(conditions, dtype=float)
+    lo_t, hi_t = TEMPERATURE_RANGE_C
+    lo_v, hi_v = SUPPLY_RANGE_V
+    refused_cond = ~((lo_t < cond[:, 0]) & (cond[:, 0] <= hi_t) & (lo_v < cond[:, 1]) & (cond[:, 1] <= hi_v))
+    bad.update(np.flatnonzero(refused.any(axis=1) | refused_cond).tolist())
+    if operating:
+        finite = np.isfinite(np.array(operating, dtype=float)).all(axis=1)
+        bad.update(k for k, ok in zip(operating_k, finite.tolist(), strict=True) if not ok)
+    bad |= _bad_arrays(freqs, positive=True) | _bad_arrays(others)
+    out: list[list[int]] = [[] for _ in cells]
+    for k in sorted(bad):
+        i, j = where[k]
+        out[i].append(j)
     return out
