@@ -409,6 +409,14 @@ def _count_variants(netlist: Netlist, nonlinear: Sequence[Nonlinear]) -> int:
     return sizes.pop() if sizes else 1
 
 
+Rows = NDArray[np.int_] | None
+"""Variant rows a law is evaluated for (None: all)."""
+
+
+def _take(param: FloatArray, rows: Rows) -> FloatArray:
+    return param if rows is None else param[rows]
+
+
 @dataclass
 class _Family:
     """Nonlinear branches of one law: currents from row ``plus`` to row ``minus``."""
@@ -416,18 +424,23 @@ class _Family:
     plus: NDArray[np.int_]            # (m,) unknown index, -1 = none
     minus: NDArray[np.int_]
     controls: NDArray[np.int_]        # (m, K) unknown indices read, -1 = ground
-    law: Callable[[FloatArray], tuple[FloatArray, FloatArray]]  # (v, m, K) -> I, dI
+    law: Callable[[FloatArray, Rows], tuple[FloatArray, FloatArray]]  # (v (rows, m, K), rows) -> I, dI
     names: tuple[str, ...]
+    per_row: bool = True              # False: the law must see every variant (a supplied law)
 
 
 def _square_law(sign: FloatArray, beta: FloatArray, vt: FloatArray) -> Callable[
-        [FloatArray], tuple[FloatArray, FloatArray]]:
-    def law(v: FloatArray) -> tuple[FloatArray, FloatArray]:
+        [FloatArray, Rows], tuple[FloatArray, FloatArray]]:
+    def law(v: FloatArray, rows: Rows) -> tuple[FloatArray, FloatArray]:
+        b, t = _take(beta, rows), _take(vt, rows)
         va, vb, vg = v[..., 0], v[..., 1], v[..., 2]
-        ua = np.maximum(sign * (vg - va) - vt, 0.0)
-        ub = np.maximum(sign * (vg - vb) - vt, 0.0)
-        current = sign * 0.5 * beta * (ub * ub - ua * ua)
-        grad = np.stack([beta * ua, -beta * ub, beta * (ub - ua)], axis=-1)
+        ua = np.maximum(sign * (vg - va) - t, 0.0)
+        ub = np.maximum(sign * (vg - vb) - t, 0.0)
+        current = sign * 0.5 * b * (ub * ub - ua * ua)
+        grad = np.empty(v.shape)
+        grad[..., 0] = b * ua
+        grad[..., 1] = -b * ub
+        grad[..., 2] = b * (ub - ua)
         return current, grad
 
     return law
@@ -442,32 +455,40 @@ def _softplus(x: FloatArray) -> tuple[FloatArray, FloatArray]:
 
 
 def _clamp_law(v_on: FloatArray, g_on: FloatArray, v_d: FloatArray, g_d: FloatArray) -> Callable[
-        [FloatArray], tuple[FloatArray, FloatArray]]:
-    def law(v: FloatArray) -> tuple[FloatArray, FloatArray]:
+        [FloatArray, Rows], tuple[FloatArray, FloatArray]]:
+    def law(v: FloatArray, rows: Rows) -> tuple[FloatArray, FloatArray]:
+        gon, gd = _take(g_on, rows), _take(g_d, rows)
         vd = v[..., 0] - v[..., 1]
         s = v[..., 2]
-        on, on_slope = _softplus(vd - v_on)
-        rev, rev_slope = _softplus(-vd - v_d)
-        current = s * g_on * on - g_d * rev
-        dv = s * g_on * on_slope + g_d * rev_slope
-        return current, np.stack([dv, -dv, g_on * on], axis=-1)
+        on, on_slope = _softplus(vd - _take(v_on, rows))
+        rev, rev_slope = _softplus(-vd - _take(v_d, rows))
+        current = s * gon * on - gd * rev
+        dv = s * gon * on_slope + gd * rev_slope
+        grad = np.empty(v.shape)
+        grad[..., 0] = dv
+        grad[..., 1] = -dv
+        grad[..., 2] = gon * on
+        return current, grad
 
     return law
 
 
-def _activation_law(v_on: FloatArray) -> Callable[[FloatArray], tuple[FloatArray, FloatArray]]:
-    def law(v: FloatArray) -> tuple[FloatArray, FloatArray]:
-        th = np.tanh((v[..., 0] - v[..., 1] - v_on) / SMOOTHING_V)
+def _activation_law(v_on: FloatArray) -> Callable[[FloatArray, Rows], tuple[FloatArray, FloatArray]]:
+    def law(v: FloatArray, rows: Rows) -> tuple[FloatArray, FloatArray]:
+        th = np.tanh((v[..., 0] - v[..., 1] - _take(v_on, rows)) / SMOOTHING_V)
         da = 0.5 * (1.0 - th * th) / SMOOTHING_V
         # state row: tau ds/dt + s - a(v) = 0, so the "current" leaving the row is -a(v)
-        return -0.5 * (1.0 + th), np.stack([-da, da], axis=-1)
+        grad = np.empty(v.shape)
+        grad[..., 0] = -da
+        grad[..., 1] = da
+        return -0.5 * (1.0 + th), grad
 
     return law
 
 
 def _user_law(fn: Callable[[FloatArray], tuple[ArrayLike, ArrayLike]]) -> Callable[
-        [FloatArray], tuple[FloatArray, FloatArray]]:
-    def law(v: FloatArray) -> tuple[FloatArray, FloatArray]:
+        [FloatArray, Rows], tuple[FloatArray, FloatArray]]:
+    def law(v: FloatArray, rows: Rows) -> tuple[FloatArray, FloatArray]:
         i, di = fn(v[..., 0, 0] - v[..., 0, 1])
         shape = v.shape[:-1]
         di_arr = np.broadcast_to(np.asarray(di, dtype=float)[..., None], shape)
@@ -477,8 +498,32 @@ def _user_law(fn: Callable[[FloatArray], tuple[ArrayLike, ArrayLike]]) -> Callab
     return law
 
 
+def _inverse(J: FloatArray) -> FloatArray:
+    """Batched inverse; a singular (or non-finite) matrix gives NaN (its Newton fails)."""
+    with np.errstate(all="ignore"):
+        try:
+            return np.asarray(np.linalg.inv(J), dtype=np.float64)
+        except np.linalg.LinAlgError:
+            out = np.full(J.shape, np.nan)
+            for k in range(J.shape[0]):
+                try:
+                    out[k] = np.linalg.inv(J[k])
+                except np.linalg.LinAlgError:
+                    pass
+            return out
+
+
+def _matvec(A: FloatArray, x: FloatArray) -> FloatArray:
+    """Batched A x: (v, n, n) @ (v, n) -> (v, n)."""
+    return (A @ x[:, :, None])[:, :, 0]
+
+
 class _System:
     """Assembled matrices, sources and nonlinear families of an expanded circuit."""
+
+    use_reduced = True
+    """Transient stages iterate on the nonlinear unknowns (`newton_reduced`); False: the
+    full-system chord iteration `newton` (the reference path of the equivalence tests)."""
 
     def __init__(self, expanded: Expanded, sources: Sequence[Source], ground: str,
                  n_var: int, gmin: float) -> None:
@@ -587,6 +632,22 @@ class _System:
             start += size
         self._cache: dict[float | None, tuple[FloatArray, FloatArray | None]] = {}
         self._chord: dict[float | None, FloatArray] = {}
+        # the unknowns the nonlinear elements read or feed (the reduced Newton's unknowns z)
+        touched = np.concatenate([self.controls.reshape(-1), plus, minus])
+        self.nl_index = np.unique(touched[touched >= 0])
+        self.p = p = self.nl_index.size
+        position = np.full(n + 1, p)  # unknown -> position in z; ground (-1 = n) -> p (a zero)
+        position[self.nl_index] = np.arange(p)
+        self.controls_z = position[self.controls]
+        # (3, m, p) one-hot: d f_j / d z = sum_c grads[j, c] onehot[c, j]
+        self._onehot = np.zeros((3, self.m, p + 1))
+        for c in range(3):
+            self._onehot[c, np.arange(self.m), self.controls_z[:, c]] = 1.0
+        self._onehot = np.ascontiguousarray(self._onehot[:, :, :p])
+        self.per_row = all(fam.per_row for fam in self.families)
+        self._reduced: dict[float, tuple[FloatArray, FloatArray, FloatArray]] = {}
+        self._chord_z: dict[float, FloatArray] = {}
+        self._c_scaled: dict[float, FloatArray] = {}
 
     def _families(self, nonlinear: Sequence[SquareLawChannel | RailClamp | NonlinearConductance],
                   clamps: Sequence[RailClamp]) -> list[_Family]:
@@ -632,7 +693,7 @@ class _System:
             if isinstance(nl, NonlinearConductance):
                 a, b = ix[nl.node_a], ix[nl.node_b]
                 out.append(_Family(np.array([a]), np.array([b]), np.array([[a, b]]),
-                                   _user_law(nl.current), (nl.name,)))
+                                   _user_law(nl.current), (nl.name,), per_row=False))
         return out
 
     # -- nonlinear evaluation ------------------------------------------------------------------
@@ -647,10 +708,35 @@ class _System:
         currents = np.empty((n_var, self.m))
         grads = np.zeros((n_var, self.m, 3))
         for fam, (sl, k) in zip(self.families, self._slices):
-            i, g = fam.law(v[:, sl, :k])
+            i, g = fam.law(v[:, sl, :k], None)
             currents[:, sl] = i
             grads[:, sl, :k] = g
         return currents, grads, self.controls
+
+    def evaluate_z(self, z: FloatArray, rows: NDArray[np.int_] | None,
+                   z_all: FloatArray) -> tuple[FloatArray, FloatArray]:
+        """`evaluate` on the reduced unknowns ``z`` (len(rows), p) of the variants ``rows``
+        (None: all); ``z_all`` (n_var, p) holds every variant's z for a law that must see all."""
+        k = z.shape[0]
+        z_ext = np.empty((k, self.p + 1))
+        z_ext[:, : self.p] = z
+        z_ext[:, self.p] = 0.0
+        v = z_ext[:, self.controls_z]
+        currents = np.empty((k, self.m))
+        grads = np.zeros((k, self.m, 3))
+        for fam, (sl, n_ctrl) in zip(self.families, self._slices):
+            if fam.per_row or rows is None:
+                i, g = fam.law(v[:, sl, :n_ctrl], rows)
+            else:  # a supplied law sees every variant: evaluate all, keep the rows
+                full = np.empty((z_all.shape[0], self.p + 1))
+                full[:, : self.p] = z_all
+                full[:, self.p] = 0.0
+                full[rows] = z_ext
+                i_all, g_all = fam.law(full[:, self.controls_z[sl, :n_ctrl]], None)
+                i, g = i_all[rows], g_all[rows]
+            currents[:, sl] = i
+            grads[:, sl, :n_ctrl] = g
+        return currents, grads
 
     def nonlinear_rows(self, currents: FloatArray) -> FloatArray:
         """f(x): the nonlinear currents scattered onto their rows, (n_var, n)."""
@@ -676,19 +762,139 @@ class _System:
             self._cache[key] = (M, None if self.m else np.linalg.inv(M))
         return self._cache[key]
 
-    def jacobian_inverse(self, h: float | None, grads: FloatArray) -> FloatArray:
-        """(M + d f / d x)^-1 at the given branch gradients, cached as the chord matrix."""
+    def jacobian_inverse(self, h: float | None, grads: FloatArray,
+                         rows: NDArray[np.int_] | None = None) -> FloatArray:
+        """(M + d f / d x)^-1 at the given branch gradients, cached as the chord matrix.
+
+        ``rows``: form it again only for these variants (``grads`` holds every variant's), the
+        others keep their cached rows."""
+        key = None if h is None else float(h)
         M = self.matrices(h)[0]
+        prior = self._chord.get(key)
+        if rows is None or prior is None:
+            rows = None
+        else:
+            M, grads = M[rows], grads[rows]
         n_var = grads.shape[0]
         J = np.zeros((n_var, self.n + 1, self.n + 1))
         J[:, : self.n, : self.n] = M
         ctrl = self.controls.reshape(-1)
-        for rows, sign in ((self.plus, 1.0), (self.minus, -1.0)):
-            np.add.at(J, (slice(None), np.repeat(rows, 3), ctrl),  # type: ignore[arg-type]  # numpy stubs
+        for plus, sign in ((self.plus, 1.0), (self.minus, -1.0)):
+            np.add.at(J, (slice(None), np.repeat(plus, 3), ctrl),  # type: ignore[arg-type]  # numpy stubs
                       sign * grads.reshape(n_var, -1))
         inverse = np.asarray(np.linalg.inv(J[:, : self.n, : self.n]), dtype=np.float64)
-        self._chord[None if h is None else float(h)] = inverse
+        if rows is not None and prior is not None:
+            prior[rows] = inverse
+            return prior
+        self._chord[key] = inverse
         return inverse
+
+    def scaled_C(self, h: float) -> FloatArray:
+        """C / (kappa h), cached per step."""
+        key = float(h)
+        if key not in self._c_scaled:
+            self._c_scaled[key] = self.C / (KAPPA * h)
+        return self._c_scaled[key]
+
+    def reduction(self, h: float) -> tuple[FloatArray, FloatArray, FloatArray]:
+        """(M^-1, V = M^-1 U, W = V restricted to the nonlinear unknowns) for a step h.
+
+        With them the stage equation M x + U i(x_z) = rhs reads x = M^-1 rhs - V i(z) and,
+        on the nonlinear unknowns z, z + W i(z) = (M^-1 rhs)_z (a Schur complement of the
+        linear rest of the circuit onto the unknowns the nonlinear elements touch).
+        """
+        key = float(h)
+        if key not in self._reduced:
+            M = self.matrices(h)[0]
+            Minv = np.asarray(np.linalg.inv(M), dtype=np.float64)
+            V = np.ascontiguousarray(Minv @ self.U)
+            W = np.ascontiguousarray(V[:, self.nl_index, :])
+            self._reduced[key] = (Minv, V, W)
+        return self._reduced[key]
+
+    def _chord_z_inverse(self, W: FloatArray, grads: FloatArray) -> FloatArray:
+        """(I + W d i / d z)^-1 for the given rows' W (k, p, m) and gradients (k, m, 3)."""
+        Di = np.einsum("kjc,cjq->kjq", grads, self._onehot)  # (k, m, p)
+        J = W @ Di
+        J[:, np.arange(self.p), np.arange(self.p)] += 1.0
+        return _inverse(J)
+
+    def newton_reduced(self, h: float, rhs: FloatArray, x0: FloatArray,
+                       max_iter: int = _MAX_NEWTON) -> tuple[FloatArray, NDArray[np.bool_], int]:
+        """Solve M x + f(x) = rhs for a step h from x0 on the nonlinear unknowns only.
+
+        Chord iteration on z + W i(z) = (M^-1 rhs)_z (see `reduction`), variant by variant:
+        a variant leaves the iteration once its update is within the tolerance, and its chord
+        matrix (I + W di/dz)^-1, kept across iterations, stages and steps of the same h, is
+        formed again when its iteration grows, contracts by less than half, or at its rate
+        would need more than two further iterations. Then x = M^-1 rhs - V i(z): the linear
+        unknowns follow exactly from the converged nonlinear ones. Same (x, converged,
+        iterations) contract as `newton`.
+        """
+        Minv, V, W = self.reduction(h)
+        n_var = x0.shape[0]
+        y = (Minv @ rhs[:, :, None])[:, :, 0]
+        y_z = y[:, self.nl_index]
+        z = np.array(x0[:, self.nl_index])
+        key = float(h)
+        chord = self._chord_z.get(key)
+        if chord is None:
+            chord = self._chord_z[key] = np.zeros((n_var, self.p, self.p))
+            stale = np.ones(n_var, dtype=bool)  # no chord yet
+        else:
+            stale = np.zeros(n_var, dtype=bool)
+        done = np.zeros(n_var, dtype=bool)
+        active = np.arange(n_var)
+        previous = np.full(n_var, np.inf)
+        fresh = np.zeros(n_var, dtype=bool)
+        it = 0
+        for it in range(1, max_iter + 1):
+            whole = active.size == n_var
+            rows = None if whole else active
+            za = z if whole else z[active]
+            Wa = W if whole else W[active]
+            with np.errstate(over="ignore", invalid="ignore"):
+                currents, grads = self.evaluate_z(za, rows, z)
+                resid = za - (y_z if whole else y_z[active]) + (Wa @ currents[:, :, None])[:, :, 0]
+            refresh = stale[active]
+            if np.any(refresh):
+                pick = active[refresh]
+                chord[pick] = self._chord_z_inverse(W[pick], np.nan_to_num(grads[refresh]))
+                fresh[pick] = True
+                stale[pick] = False
+            ca = chord if whole else chord[active]
+            dz = (ca @ resid[:, :, None])[:, :, 0]
+            with np.errstate(over="ignore", invalid="ignore"):
+                scaled = np.max(np.abs(dz) / (_ATOL + _RTOL * np.abs(za)), axis=1, initial=0.0)
+            scaled = np.where(np.isfinite(scaled), scaled, np.inf)
+            prev_a = previous[active]
+            growing = (scaled > prev_a) & ~fresh[active]
+            if np.any(growing):
+                # a stale chord diverges: keep z for these rows, form their chord and retry
+                stale[active[growing]] = True
+                keep = ~growing
+                active_step, dz, scaled, prev_a = (active[keep], dz[keep], scaled[keep],
+                                                   prev_a[keep])
+            else:
+                active_step = active
+            if active_step.size:
+                z_new = z[active_step] - np.where(np.isfinite(dz), dz, 0.0)
+                z[active_step] = z_new
+                ok = (scaled <= 1.0) & np.all(np.isfinite(z_new), axis=1)
+                done[active_step] = ok
+                with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+                    theta = scaled / prev_a
+                    slow = theta > 0.5
+                stale[active_step[slow & ~ok]] = True
+                previous[active_step] = scaled
+                fresh[active_step] = False
+            active = np.flatnonzero(~done)
+            if active.size == 0:
+                break
+        with np.errstate(over="ignore", invalid="ignore"):
+            currents, _ = self.evaluate_z(z, None, z)
+            x = y - (V @ currents[:, :, None])[:, :, 0]
+        return x, done, it
 
     def newton(self, h: float | None, rhs: FloatArray, x0: FloatArray,
                limit_V: float | None = None, max_iter: int = _MAX_NEWTON
@@ -712,11 +918,12 @@ class _System:
         for it in range(1, max_iter + 1):
             with np.errstate(over="ignore", invalid="ignore"):
                 currents, grads, _ = self.evaluate(x)
-                resid = np.einsum("vij,vj->vi", M, x) - rhs + self.nonlinear_rows(currents)
-            if chord is None:
-                chord = self.jacobian_inverse(h, np.nan_to_num(grads))
+                resid = _matvec(M, x) - rhs + self.nonlinear_rows(currents)
+            if chord is None:  # rows already converged keep their chord rows
+                chord = self.jacobian_inverse(h, np.nan_to_num(grads),
+                                              np.flatnonzero(~done) if np.any(done) else None)
                 fresh = True
-            dx = np.einsum("vij,vj->vi", chord, resid)
+            dx = _matvec(chord, resid)
             if limit_V is not None:
                 worst = np.max(np.abs(dx[:, : self.n_nodes]), axis=1, initial=0.0)
                 dx *= np.minimum(1.0, limit_V / np.maximum(worst, 1e-300))[:, None]
@@ -885,7 +1092,7 @@ def _consistent(system: _System, x0: FloatArray, b0: FloatArray, h_min: float) -
     currents of ``x0``: one backward-Euler step of 1e-6 h_min (a source that is already on
     at t = 0 then acts as a step at 0+, as in SPICE with ``uic``)."""
     h = 1e-6 * h_min / KAPPA  # so that C / (KAPPA h) = C / (1e-6 h_min)
-    rhs = b0 + np.einsum("vij,vj->vi", system.C / (KAPPA * h), x0)
+    rhs = b0 + _matvec(system.C / (KAPPA * h), x0)
     x, _, _ = system.newton(h, rhs, x0)
     return x
 
@@ -1056,17 +1263,20 @@ def simulate(
             return system.rhs(values[..., k_time])
         return system.rhs(system.source_values(np.array([t]))[..., 0])
 
+    reduce = system.m and system.use_reduced and 2 * system.p <= system.n
+    solve = system.newton_reduced if reduce else system.newton
+
     def advance(x_n: FloatArray, t: float, h: float, b_n: FloatArray, b_g: FloatArray,
                 b_1: FloatArray, depth: int) -> tuple[FloatArray, NDArray[np.bool_], int]:
-        C_scaled = system.C / (KAPPA * h)
+        C_scaled = system.scaled_C(h)
         cur, _, _ = system.evaluate(x_n)
-        r_n = b_n - np.einsum("vij,vj->vi", system.G, x_n) - system.nonlinear_rows(cur)
-        rhs1 = b_g + np.einsum("vij,vj->vi", C_scaled, x_n) + np.where(system.dynamic, r_n, 0.0)
-        x_g, ok1, _ = system.newton(h, rhs1, x_n)
+        r_n = b_n - _matvec(system.G, x_n) - system.nonlinear_rows(cur)
+        rhs1 = b_g + _matvec(C_scaled, x_n) + np.where(system.dynamic, r_n, 0.0)
+        x_g, ok1, _ = solve(h, rhs1, x_n)
         hist = _BDF_A * x_g - _BDF_B * x_n
-        rhs2 = b_1 + np.einsum("vij,vj->vi", C_scaled, hist)
+        rhs2 = b_1 + _matvec(C_scaled, hist)
         guess = x_n + (x_g - x_n) / GAMMA
-        x_1, ok2, _ = system.newton(h, rhs2, guess)
+        x_1, ok2, _ = solve(h, rhs2, guess)
         ok = ok1 & ok2
         if np.all(ok) or depth >= _MAX_SPLIT_DEPTH:
             return x_1, ok, 0
