@@ -698,8 +698,10 @@ class _System:
 
     # -- nonlinear evaluation ------------------------------------------------------------------
 
-    def evaluate(self, x: FloatArray) -> tuple[FloatArray, FloatArray, NDArray[np.int_]]:
-        """Branch currents (n_var, m), gradients (n_var, m, 3) and control indices (m, 3)."""
+    def evaluate(self, x: FloatArray, rows: NDArray[np.int_] | None = None
+                 ) -> tuple[FloatArray, FloatArray, NDArray[np.int_]]:
+        """Branch currents (k, m), gradients (k, m, 3) and control indices (m, 3) of the k
+        variants ``rows`` (None: all) at their unknowns ``x`` (k, n)."""
         n_var = x.shape[0]
         x_ext = np.empty((n_var, self.n + 1))
         x_ext[:, : self.n] = x
@@ -708,7 +710,13 @@ class _System:
         currents = np.empty((n_var, self.m))
         grads = np.zeros((n_var, self.m, 3))
         for fam, (sl, k) in zip(self.families, self._slices):
-            i, g = fam.law(v[:, sl, :k], None)
+            if fam.per_row or rows is None:
+                i, g = fam.law(v[:, sl, :k], rows)
+            else:  # a supplied law sees every variant: pad the others with the first row's
+                full = np.repeat(v[:1, sl, :k], self.n_var, axis=0)
+                full[rows] = v[:, sl, :k]
+                i_all, g_all = fam.law(full, None)
+                i, g = i_all[rows], g_all[rows]
             currents[:, sl] = i
             grads[:, sl, :k] = g
         return currents, grads, self.controls
@@ -766,28 +774,28 @@ class _System:
                          rows: NDArray[np.int_] | None = None) -> FloatArray:
         """(M + d f / d x)^-1 at the given branch gradients, cached as the chord matrix.
 
-        ``rows``: form it again only for these variants (``grads`` holds every variant's), the
-        others keep their cached rows."""
+        ``rows``: the variants ``grads`` belong to (None: all); only their rows of the cached
+        chord matrix are formed again."""
         key = None if h is None else float(h)
         M = self.matrices(h)[0]
-        prior = self._chord.get(key)
-        if rows is None or prior is None:
-            rows = None
-        else:
-            M, grads = M[rows], grads[rows]
-        n_var = grads.shape[0]
-        J = np.zeros((n_var, self.n + 1, self.n + 1))
+        if rows is not None:
+            M = M[rows]
+        k = grads.shape[0]
+        J = np.zeros((k, self.n + 1, self.n + 1))
         J[:, : self.n, : self.n] = M
         ctrl = self.controls.reshape(-1)
         for plus, sign in ((self.plus, 1.0), (self.minus, -1.0)):
             np.add.at(J, (slice(None), np.repeat(plus, 3), ctrl),  # type: ignore[arg-type]  # numpy stubs
-                      sign * grads.reshape(n_var, -1))
-        inverse = np.asarray(np.linalg.inv(J[:, : self.n, : self.n]), dtype=np.float64)
-        if rows is not None and prior is not None:
-            prior[rows] = inverse
-            return prior
-        self._chord[key] = inverse
-        return inverse
+                      sign * grads.reshape(k, -1))
+        inverse = _inverse(J[:, : self.n, : self.n])
+        if rows is None:
+            self._chord[key] = inverse
+            return inverse
+        chord = self._chord.get(key)
+        if chord is None:
+            chord = self._chord[key] = np.full((self.n_var, self.n, self.n), np.nan)
+        chord[rows] = inverse
+        return chord
 
     def scaled_C(self, h: float) -> FloatArray:
         """C / (kappa h), cached per step."""
@@ -909,45 +917,51 @@ class _System:
         M, Minv = self.matrices(h)
         x = x0.copy()
         n_var = x.shape[0]
+        if self.m == 0:  # linear: solve, then refine once
+            assert Minv is not None
+            for _ in range(2):
+                x = x - _matvec(Minv, _matvec(M, x) - rhs)
+            return x, np.ones(n_var, dtype=bool), 2
         done = np.zeros(n_var, dtype=bool)
         key = None if h is None else float(h)
-        chord = self._chord.get(key) if self.m else Minv
+        chord = self._chord.get(key)
         previous = np.full(n_var, np.inf)
         fresh = False
+        active = np.arange(n_var)  # variants still iterating (a converged one is left as is)
         it = 0
         for it in range(1, max_iter + 1):
+            whole = active.size == n_var
+            rows = None if whole else active
+            xa = x if whole else x[active]
             with np.errstate(over="ignore", invalid="ignore"):
-                currents, grads, _ = self.evaluate(x)
-                resid = _matvec(M, x) - rhs + self.nonlinear_rows(currents)
-            if chord is None:  # rows already converged keep their chord rows
-                chord = self.jacobian_inverse(h, np.nan_to_num(grads),
-                                              np.flatnonzero(~done) if np.any(done) else None)
+                currents, grads, _ = self.evaluate(xa, rows)
+                resid = (_matvec(M if whole else M[active], xa) - (rhs if whole else rhs[active])
+                         + self.nonlinear_rows(currents))
+            if chord is None:  # formed again for the variants still iterating only
+                chord = self.jacobian_inverse(h, np.nan_to_num(grads), rows)
                 fresh = True
-            dx = _matvec(chord, resid)
+            dx = _matvec(chord if whole else chord[active], resid)
             if limit_V is not None:
                 worst = np.max(np.abs(dx[:, : self.n_nodes]), axis=1, initial=0.0)
                 dx *= np.minimum(1.0, limit_V / np.maximum(worst, 1e-300))[:, None]
-            if self.m == 0:
-                x = x - dx
-                if it >= 2:
-                    done[:] = True
-                    break
-                continue
             with np.errstate(over="ignore", invalid="ignore"):
-                scaled = np.max(np.abs(dx) / (_ATOL + _RTOL * np.abs(x)), axis=1)
+                scaled = np.max(np.abs(dx) / (_ATOL + _RTOL * np.abs(xa)), axis=1)
             scaled = np.where(np.isfinite(scaled), scaled, np.inf)
-            growing = (scaled > previous) & ~done
-            if np.any(growing) and not fresh:
+            prev_a = previous[active]
+            if np.any(scaled > prev_a) and not fresh:
                 # a stale chord diverges: keep x, form the Jacobian here and try again
                 chord = None
                 continue
-            x = x - np.where(np.isfinite(dx), dx, 0.0)
-            done = (scaled <= 1.0) & np.all(np.isfinite(x), axis=1)
-            if np.all(done):
+            xa = xa - np.where(np.isfinite(dx), dx, 0.0)
+            x[active] = xa
+            ok = (scaled <= 1.0) & np.all(np.isfinite(xa), axis=1)
+            done[active] = ok
+            if np.all(ok):
                 break
-            if np.any((scaled > 0.5 * previous) & ~done):
+            if np.any((scaled > 0.5 * prev_a) & ~ok):
                 chord = None  # slow contraction: the Jacobian moved, form it again
-            previous = scaled
+            previous[active] = scaled
+            active = active[~ok]
             fresh = False
         return x, done, it
 
