@@ -20,8 +20,17 @@ ringing as under plain trapezoidal integration; rows without capacitance or indu
 ``M = G + C / (kappa h)``, kappa = gamma / 2, whose inverse is formed once per distinct step
 for all variants (batched). Nonlinear elements enter by chord (modified Newton) iteration at
 every stage: the inverse of M plus their Jacobian is kept across iterations, stages and steps
-and formed again (batched) when an iteration contracts too slowly. A step whose iteration does
-not converge is split in halves (up to 8 levels).
+and formed again (batched, only for the variants still iterating) when an iteration contracts
+too slowly; a variant whose update is within the tolerance (1e-8 + 1e-6 |x|) leaves the
+iteration. When the nonlinear elements read and feed at most half of the unknowns (a rail
+clamp on a linear cell: vdd, vss and the clamp's state), the iteration runs on those unknowns
+z alone: with V = M^-1 U (U scatters the nonlinear branch currents i onto their rows) the
+stage equation M x + U i(z) = rhs becomes z + V_z i(z) = (M^-1 rhs)_z, a Schur complement of
+the linear rest of the circuit, whose chord matrix is a small (I + V_z di/dz)^-1; then
+x = M^-1 rhs - V i(z). In exact arithmetic Newton on z and on x give the same iterates; the
+tests hold the two paths equal. A step whose iteration does not converge is split in halves
+(up to 8 levels). A linear circuit's stage, and its DC point, is one solve with M^-1 and one
+refinement.
 
 RCLINE elements become N-segment midpoint ladders (`ladder_expansion`). Unless given, N is
 the smallest number with omega R C / N^2 <= 0.03 at omega = 1 / (10 h_min) for every line and
@@ -909,10 +918,12 @@ class _System:
                ) -> tuple[FloatArray, NDArray[np.bool_], int]:
         """Solve M x + f(x) = rhs from x0; returns (x, converged per variant, iterations).
 
-        Linear circuits: one solve and one refinement with the cached inverse of M. Nonlinear:
-        chord (modified Newton) iteration with a Jacobian inverse kept across iterations, stages
-        and steps of the same h, formed again whenever an iteration contracts by less than half
-        (common practice in stiff integrators, e.g. Hairer & Wanner, Solving ODEs II, IV.8).
+        Linear circuits: one solve and one refinement with the cached inverse of M (exact; no
+        update limit). Nonlinear: chord (modified Newton) iteration with a Jacobian inverse kept
+        across iterations, stages and steps of the same h, formed again (for the variants still
+        iterating) whenever an iteration contracts by less than half (common practice in stiff
+        integrators, e.g. Hairer & Wanner, Solving ODEs II, IV.8). A variant whose update is
+        within the tolerance is left as it is. ``limit_V`` caps node-voltage updates (DC).
         """
         M, Minv = self.matrices(h)
         x = x0.copy()
