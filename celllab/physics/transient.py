@@ -865,7 +865,8 @@ class _System:
         previous = np.full(n_var, np.inf)
         fresh = np.zeros(n_var, dtype=bool)
         it = 0
-        for it in range(1, max_iter + 1):
+        while it < max_iter:
+            it += 1
             whole = active.size == n_var
             rows = None if whole else active
             za = z if whole else z[active]
@@ -940,7 +941,8 @@ class _System:
         fresh = False
         active = np.arange(n_var)  # variants still iterating (a converged one is left as is)
         it = 0
-        for it in range(1, max_iter + 1):
+        while it < max_iter:
+            it += 1
             whole = active.size == n_var
             rows = None if whole else active
             xa = x if whole else x[active]
