@@ -527,6 +527,18 @@ def _matvec(A: FloatArray, x: FloatArray) -> FloatArray:
     return (A @ x[:, :, None])[:, :, 0]
 
 
+@dataclass(frozen=True)
+class _StageOperators:
+    """Per-step operators of `_System.stage_operators` (arrays over variants)."""
+
+    V: FloatArray                   # (v, n, m)  M^-1 U
+    W: FloatArray                   # (v, p, m)  V on the nonlinear unknowns
+    first: FloatArray               # (v, n, n)  M^-1 (C / (kappa h) - D G)
+    second: FloatArray              # (v, n, n)  M^-1 C / (kappa h)
+    history_U: FloatArray           # (v, n, m)  M^-1 D U
+    Minv: FloatArray | None         # (v, n, n)  M^-1, kept only when there are sources
+
+
 class _System:
     """Assembled matrices, sources and nonlinear families of an expanded circuit."""
 
@@ -654,7 +666,7 @@ class _System:
             self._onehot[c, np.arange(self.m), self.controls_z[:, c]] = 1.0
         self._onehot = np.ascontiguousarray(self._onehot[:, :, :p])
         self.per_row = all(fam.per_row for fam in self.families)
-        self._reduced: dict[float, tuple[FloatArray, FloatArray, FloatArray]] = {}
+        self._stage_ops: dict[float, _StageOperators] = {}
         self._chord_z: dict[float, FloatArray] = {}
         self._c_scaled: dict[float, FloatArray] = {}
 
@@ -813,21 +825,30 @@ class _System:
             self._c_scaled[key] = self.C / (KAPPA * h)
         return self._c_scaled[key]
 
-    def reduction(self, h: float) -> tuple[FloatArray, FloatArray, FloatArray]:
-        """(M^-1, V = M^-1 U, W = V restricted to the nonlinear unknowns) for a step h.
+    def stage_operators(self, h: float) -> _StageOperators:
+        """The step-h operators of a TR-BDF2 step solved on the nonlinear unknowns (cached).
 
-        With them the stage equation M x + U i(x_z) = rhs reads x = M^-1 rhs - V i(z) and,
-        on the nonlinear unknowns z, z + W i(z) = (M^-1 rhs)_z (a Schur complement of the
-        linear rest of the circuit onto the unknowns the nonlinear elements touch).
+        With M = G + C / (kappa h), D the rows with a time derivative and U the scatter of the
+        nonlinear branch currents i onto their rows, the stage equation M x + U i(x_z) = rhs
+        reads x = M^-1 rhs - V i(z), V = M^-1 U, and on the nonlinear unknowns z alone
+        z + W i(z) = (M^-1 rhs)_z, W = V_z (a Schur complement of the linear rest of the
+        circuit). The stage right-hand sides of `simulate` need only M^-1 rhs:
+        first stage  M^-1 (C/(kappa h) - D G) x_n - M^-1 D U i(x_n) + M^-1 (b_g + D b_n),
+        second stage M^-1 C/(kappa h) (a x_g - b x_n) + M^-1 b_1.
         """
         key = float(h)
-        if key not in self._reduced:
-            M = self.matrices(h)[0]
-            Minv = np.asarray(np.linalg.inv(M), dtype=np.float64)
+        ops = self._stage_ops.get(key)
+        if ops is None:
+            C_scaled = self.C / (KAPPA * h)
+            Minv = _inverse(self.G + C_scaled)
             V = np.ascontiguousarray(Minv @ self.U)
-            W = np.ascontiguousarray(V[:, self.nl_index, :])
-            self._reduced[key] = (Minv, V, W)
-        return self._reduced[key]
+            first = Minv @ (C_scaled - np.where(self.dynamic[:, :, None], self.G, 0.0))
+            second = Minv @ C_scaled
+            history_U = Minv @ np.where(self.dynamic[:, :, None], self.U, 0.0)
+            ops = self._stage_ops[key] = _StageOperators(
+                V, np.ascontiguousarray(V[:, self.nl_index, :]), first, second, history_U,
+                Minv if self.sources else None)
+        return ops
 
     def _chord_z_inverse(self, W: FloatArray, grads: FloatArray) -> FloatArray:
         """(I + W d i / d z)^-1 for the given rows' W (k, p, m) and gradients (k, m, 3)."""
@@ -836,21 +857,20 @@ class _System:
         J[:, np.arange(self.p), np.arange(self.p)] += 1.0
         return _inverse(J)
 
-    def newton_reduced(self, h: float, rhs: FloatArray, x0: FloatArray,
-                       max_iter: int = _MAX_NEWTON) -> tuple[FloatArray, NDArray[np.bool_], int]:
-        """Solve M x + f(x) = rhs for a step h from x0 on the nonlinear unknowns only.
+    def newton_z(self, h: float, y: FloatArray, x0: FloatArray, max_iter: int = _MAX_NEWTON
+                 ) -> tuple[FloatArray, NDArray[np.bool_], int]:
+        """Solve M x + f(x) = rhs for a step h from x0 on the nonlinear unknowns only, given
+        y = M^-1 rhs; same (x, converged per variant, iterations) contract as `newton`.
 
-        Chord iteration on z + W i(z) = (M^-1 rhs)_z (see `reduction`), variant by variant:
-        a variant leaves the iteration once its update is within the tolerance, and its chord
-        matrix (I + W di/dz)^-1, kept across iterations, stages and steps of the same h, is
-        formed again when its iteration grows, contracts by less than half, or at its rate
-        would need more than two further iterations. Then x = M^-1 rhs - V i(z): the linear
-        unknowns follow exactly from the converged nonlinear ones. Same (x, converged,
-        iterations) contract as `newton`.
+        Chord iteration on z + W i(z) = y_z (see `stage_operators`), variant by variant: a
+        variant leaves the iteration once its update is within the tolerance; its chord matrix
+        (I + W di/dz)^-1, kept across iterations, stages and steps of the same h, is formed
+        again when its iteration grows (the update is then retried) or contracts by less than
+        half. Then x = y - V i(z): the linear unknowns follow exactly from the nonlinear ones.
         """
-        Minv, V, W = self.reduction(h)
+        ops = self.stage_operators(h)
+        V, W = ops.V, ops.W
         n_var = x0.shape[0]
-        y = (Minv @ rhs[:, :, None])[:, :, 0]
         y_z = y[:, self.nl_index]
         z = np.array(x0[:, self.nl_index])
         key = float(h)
@@ -1290,21 +1310,35 @@ def simulate(
             return system.rhs(values[..., k_time])
         return system.rhs(system.source_values(np.array([t]))[..., 0])
 
-    reduce = system.m and system.use_reduced and 2 * system.p <= system.n
-    solve = system.newton_reduced if reduce else system.newton
+    reduce = bool(system.m) and system.use_reduced and 2 * system.p <= system.n
 
-    def advance(x_n: FloatArray, t: float, h: float, b_n: FloatArray, b_g: FloatArray,
-                b_1: FloatArray, depth: int) -> tuple[FloatArray, NDArray[np.bool_], int]:
-        C_scaled = system.scaled_C(h)
+    def stages(x_n: FloatArray, h: float, b_n: FloatArray, b_g: FloatArray, b_1: FloatArray
+               ) -> tuple[FloatArray, NDArray[np.bool_]]:
         cur, _, _ = system.evaluate(x_n)
+        if reduce:  # the same stages through M^-1 (`_System.stage_operators`)
+            ops = system.stage_operators(h)
+            y1 = _matvec(ops.first, x_n) - _matvec(ops.history_U, cur)
+            if ops.Minv is not None:
+                y1 += _matvec(ops.Minv, b_g + np.where(system.dynamic, b_n, 0.0))
+            x_g, ok1, _ = system.newton_z(h, y1, x_n)
+            y2 = _matvec(ops.second, _BDF_A * x_g - _BDF_B * x_n)
+            if ops.Minv is not None:
+                y2 += _matvec(ops.Minv, b_1)
+            x_1, ok2, _ = system.newton_z(h, y2, x_n + (x_g - x_n) / GAMMA)
+            return x_1, ok1 & ok2
+        C_scaled = system.scaled_C(h)
         r_n = b_n - _matvec(system.G, x_n) - system.nonlinear_rows(cur)
         rhs1 = b_g + _matvec(C_scaled, x_n) + np.where(system.dynamic, r_n, 0.0)
-        x_g, ok1, _ = solve(h, rhs1, x_n)
+        x_g, ok1, _ = system.newton(h, rhs1, x_n)
         hist = _BDF_A * x_g - _BDF_B * x_n
         rhs2 = b_1 + _matvec(C_scaled, hist)
         guess = x_n + (x_g - x_n) / GAMMA
-        x_1, ok2, _ = solve(h, rhs2, guess)
-        ok = ok1 & ok2
+        x_1, ok2, _ = system.newton(h, rhs2, guess)
+        return x_1, ok1 & ok2
+
+    def advance(x_n: FloatArray, t: float, h: float, b_n: FloatArray, b_g: FloatArray,
+                b_1: FloatArray, depth: int) -> tuple[FloatArray, NDArray[np.bool_], int]:
+        x_1, ok = stages(x_n, h, b_n, b_g, b_1)
         if np.all(ok) or depth >= _MAX_SPLIT_DEPTH:
             return x_1, ok, 0
         half = 0.5 * h

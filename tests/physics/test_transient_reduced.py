@@ -3,6 +3,7 @@ full-system iteration, and an exact linear DC point."""
 
 from __future__ import annotations
 
+import dataclasses
 import numpy as np
 import pytest
 
@@ -47,17 +48,17 @@ def _worst_difference(a: tr.TransientResult, b: tr.TransientResult) -> float:
 
 def test_reduced_newton_equals_full_system_newton(monkeypatch: pytest.MonkeyPatch) -> None:
     """Equivalence check (fast path vs reference path): the stage Newton on the nonlinear
-    unknowns (Schur complement, `_System.newton_reduced`) against the full-system chord
-    iteration (`_System.newton`) on the same clamp circuit; every probe within 2e-5 of its
-    peak (a few Newton tolerances)."""
+    unknowns (Schur complement, `_System.stage_operators` and `_System.newton_z`) against the
+    full-system chord iteration (`_System.newton`) on the same clamp circuit; every probe within
+    2e-5 of its peak (a few Newton tolerances)."""
     calls = []
-    original = tr._System.newton_reduced
+    original = tr._System.newton_z
 
     def spy(self: tr._System, *args: object, **kwargs: object) -> object:
         calls.append(self.p)
         return original(self, *args, **kwargs)
 
-    monkeypatch.setattr(tr._System, "newton_reduced", spy)
+    monkeypatch.setattr(tr._System, "newton_z", spy)
     net, sources, nonlinear = _clamped_rail()
     fast = _run(net, sources, nonlinear, True, monkeypatch)
     assert calls and max(calls) == 2  # vdd and the clamp state; the ladder stays linear
@@ -72,15 +73,15 @@ def test_reduced_newton_equals_full_system_newton(monkeypatch: pytest.MonkeyPatc
 def test_equivalence_check_sees_a_perturbed_reduction(monkeypatch: pytest.MonkeyPatch) -> None:
     """Equivalence check of the check above: the same comparison fails when the reduced
     path's coupling V = M^-1 U is off by 1e-3."""
-    original = tr._System.reduction
+    original = tr._System.stage_operators
 
-    def perturbed(self: tr._System, h: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-        Minv, V, W = original(self, h)
-        return Minv, V * (1 + 1e-3), W * (1 + 1e-3)
+    def perturbed(self: tr._System, h: float) -> tr._StageOperators:
+        ops = original(self, h)
+        return dataclasses.replace(ops, V=ops.V * (1 + 1e-3), W=ops.W * (1 + 1e-3))
 
     net, sources, nonlinear = _clamped_rail()
     reference = _run(net, sources, nonlinear, False, monkeypatch)
-    monkeypatch.setattr(tr._System, "reduction", perturbed)
+    monkeypatch.setattr(tr._System, "stage_operators", perturbed)
     fast = _run(net, sources, nonlinear, True, monkeypatch)
     assert _worst_difference(fast, reference) > TOL
 
