@@ -4,6 +4,7 @@ full-system iteration, and an exact linear DC point."""
 from __future__ import annotations
 
 import dataclasses
+
 import numpy as np
 import pytest
 
