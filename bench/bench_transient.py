@@ -7,6 +7,12 @@ channels, nonlinear). Our solver runs every row in one call; ngspice runs the sa
 circuit (B-sources for the nonlinear laws) one row at a time, batch mode, process start included
 and also reported without it (a 1-step run's time subtracted).
 Reported: rows x steps per second for each, and the ratio.
+
+A second table times the HBM and CDM events of every lumen130 demo cell of a topology (all
+corners, as the catalog build runs them) with the stage Newton on the nonlinear unknowns
+(`_System.newton_reduced`, the default where the nonlinear elements touch few unknowns) against
+the full-system chord iteration (`_System.use_reduced = False`) in the same run, and the
+largest difference of their peak oxide voltages.
 Run:  .venv/bin/python bench/bench_transient.py   (prints a table; not a test)
 """
 
@@ -105,7 +111,45 @@ def _case_esd(topology: str, n_cells: int) -> tuple[str, int, int, float, float,
     return f"HBM on {topology}", res.rail_V.shape[0], res.t.size - 1, ours, full, start
 
 
+def _events_seconds(topology: str, reduced: bool) -> tuple[float, int, np.ndarray]:
+    """Seconds for the catalog's HBM and CDM events (`cell_risk.catalog_figures`, the coarse
+    grid, with the broken-oxide DC point) of the demo cells of ``topology``, all corners."""
+    from celllab.characterization.cell_risk import catalog_figures
+
+    deck = load_deck(ROOT / "process_decks" / "lumen130.toml")
+    cells = [c for c in load_cells(ROOT / "process_decks" / "cells" / "lumen130_cells.toml", deck)
+             if c.topology == topology]
+    groups = gather(deck, cells)
+    events = (EsdEvent("hbm", deck.esd.hbm_V), EsdEvent("cdm", deck.esd.cdm_V))
+    tr._System.use_reduced = reduced
+    peaks, rows = [], 0
+    t0 = time.perf_counter()
+    try:
+        for g in groups:
+            risk = catalog_figures(g, *events)
+            peaks += [risk.hbm.peak_oxide_V.reshape(-1), risk.cdm.peak_oxide_V.reshape(-1)]
+            rows += g.supply.size
+    finally:
+        tr._System.use_reduced = True
+    return time.perf_counter() - t0, rows, np.concatenate(peaks)
+
+
+def paths() -> None:
+    print(f"{'HBM + CDM events':<20} {'rows':>5} {'reduced s':>10} {'full s':>8} {'speed-up':>9} "
+          f"{'max rel diff of peak V_ox':>26}")
+    for topology in ("nmos_inversion", "tied_cmos", "mos_mom"):
+        fast, rows, p_fast = _events_seconds(topology, True)
+        full, _, p_full = _events_seconds(topology, False)
+        ok = np.isfinite(p_full) & (p_full != 0)
+        diff = float(np.max(np.abs(p_fast[ok] - p_full[ok]) / np.abs(p_full[ok]), initial=0.0))
+        print(f"{topology:<20} {rows:>5} {fast:>10.2f} {full:>8.2f} {full / fast:>9.1f} "
+              f"{diff:>26.1e}")
+    print("reduced: stage Newton on the nonlinear unknowns; full: full-system chord iteration "
+          "(same run, same circuits)\n")
+
+
 def main() -> None:
+    paths()
     if shutil.which("ngspice") is None:
         print("ngspice not found: nothing to compare against")
         return

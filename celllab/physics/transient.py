@@ -20,8 +20,17 @@ ringing as under plain trapezoidal integration; rows without capacitance or indu
 ``M = G + C / (kappa h)``, kappa = gamma / 2, whose inverse is formed once per distinct step
 for all variants (batched). Nonlinear elements enter by chord (modified Newton) iteration at
 every stage: the inverse of M plus their Jacobian is kept across iterations, stages and steps
-and formed again (batched) when an iteration contracts too slowly. A step whose iteration does
-not converge is split in halves (up to 8 levels).
+and formed again (batched, only for the variants still iterating) when an iteration contracts
+too slowly; a variant whose update is within the tolerance (1e-8 + 1e-6 |x|) leaves the
+iteration. When the nonlinear elements read and feed at most half of the unknowns (a rail
+clamp on a linear cell: vdd, vss and the clamp's state), the iteration runs on those unknowns
+z alone: with V = M^-1 U (U scatters the nonlinear branch currents i onto their rows) the
+stage equation M x + U i(z) = rhs becomes z + V_z i(z) = (M^-1 rhs)_z, a Schur complement of
+the linear rest of the circuit, whose chord matrix is a small (I + V_z di/dz)^-1; then
+x = M^-1 rhs - V i(z). In exact arithmetic Newton on z and on x give the same iterates; the
+tests hold the two paths equal. A step whose iteration does not converge is split in halves
+(up to 8 levels). A linear circuit's stage, and its DC point, is one solve with M^-1 and one
+refinement.
 
 RCLINE elements become N-segment midpoint ladders (`ladder_expansion`). Unless given, N is
 the smallest number with omega R C / N^2 <= 0.03 at omega = 1 / (10 h_min) for every line and
@@ -409,6 +418,14 @@ def _count_variants(netlist: Netlist, nonlinear: Sequence[Nonlinear]) -> int:
     return sizes.pop() if sizes else 1
 
 
+Rows = NDArray[np.int_] | None
+"""Variant rows a law is evaluated for (None: all)."""
+
+
+def _take(param: FloatArray, rows: Rows) -> FloatArray:
+    return param if rows is None else param[rows]
+
+
 @dataclass
 class _Family:
     """Nonlinear branches of one law: currents from row ``plus`` to row ``minus``."""
@@ -416,18 +433,23 @@ class _Family:
     plus: NDArray[np.int_]            # (m,) unknown index, -1 = none
     minus: NDArray[np.int_]
     controls: NDArray[np.int_]        # (m, K) unknown indices read, -1 = ground
-    law: Callable[[FloatArray], tuple[FloatArray, FloatArray]]  # (v, m, K) -> I, dI
+    law: Callable[[FloatArray, Rows], tuple[FloatArray, FloatArray]]  # (v (rows, m, K), rows) -> I, dI
     names: tuple[str, ...]
+    per_row: bool = True              # False: the law must see every variant (a supplied law)
 
 
 def _square_law(sign: FloatArray, beta: FloatArray, vt: FloatArray) -> Callable[
-        [FloatArray], tuple[FloatArray, FloatArray]]:
-    def law(v: FloatArray) -> tuple[FloatArray, FloatArray]:
+        [FloatArray, Rows], tuple[FloatArray, FloatArray]]:
+    def law(v: FloatArray, rows: Rows) -> tuple[FloatArray, FloatArray]:
+        b, t = _take(beta, rows), _take(vt, rows)
         va, vb, vg = v[..., 0], v[..., 1], v[..., 2]
-        ua = np.maximum(sign * (vg - va) - vt, 0.0)
-        ub = np.maximum(sign * (vg - vb) - vt, 0.0)
-        current = sign * 0.5 * beta * (ub * ub - ua * ua)
-        grad = np.stack([beta * ua, -beta * ub, beta * (ub - ua)], axis=-1)
+        ua = np.maximum(sign * (vg - va) - t, 0.0)
+        ub = np.maximum(sign * (vg - vb) - t, 0.0)
+        current = sign * 0.5 * b * (ub * ub - ua * ua)
+        grad = np.empty(v.shape)
+        grad[..., 0] = b * ua
+        grad[..., 1] = -b * ub
+        grad[..., 2] = b * (ub - ua)
         return current, grad
 
     return law
@@ -442,32 +464,40 @@ def _softplus(x: FloatArray) -> tuple[FloatArray, FloatArray]:
 
 
 def _clamp_law(v_on: FloatArray, g_on: FloatArray, v_d: FloatArray, g_d: FloatArray) -> Callable[
-        [FloatArray], tuple[FloatArray, FloatArray]]:
-    def law(v: FloatArray) -> tuple[FloatArray, FloatArray]:
+        [FloatArray, Rows], tuple[FloatArray, FloatArray]]:
+    def law(v: FloatArray, rows: Rows) -> tuple[FloatArray, FloatArray]:
+        gon, gd = _take(g_on, rows), _take(g_d, rows)
         vd = v[..., 0] - v[..., 1]
         s = v[..., 2]
-        on, on_slope = _softplus(vd - v_on)
-        rev, rev_slope = _softplus(-vd - v_d)
-        current = s * g_on * on - g_d * rev
-        dv = s * g_on * on_slope + g_d * rev_slope
-        return current, np.stack([dv, -dv, g_on * on], axis=-1)
+        on, on_slope = _softplus(vd - _take(v_on, rows))
+        rev, rev_slope = _softplus(-vd - _take(v_d, rows))
+        current = s * gon * on - gd * rev
+        dv = s * gon * on_slope + gd * rev_slope
+        grad = np.empty(v.shape)
+        grad[..., 0] = dv
+        grad[..., 1] = -dv
+        grad[..., 2] = gon * on
+        return current, grad
 
     return law
 
 
-def _activation_law(v_on: FloatArray) -> Callable[[FloatArray], tuple[FloatArray, FloatArray]]:
-    def law(v: FloatArray) -> tuple[FloatArray, FloatArray]:
-        th = np.tanh((v[..., 0] - v[..., 1] - v_on) / SMOOTHING_V)
+def _activation_law(v_on: FloatArray) -> Callable[[FloatArray, Rows], tuple[FloatArray, FloatArray]]:
+    def law(v: FloatArray, rows: Rows) -> tuple[FloatArray, FloatArray]:
+        th = np.tanh((v[..., 0] - v[..., 1] - _take(v_on, rows)) / SMOOTHING_V)
         da = 0.5 * (1.0 - th * th) / SMOOTHING_V
         # state row: tau ds/dt + s - a(v) = 0, so the "current" leaving the row is -a(v)
-        return -0.5 * (1.0 + th), np.stack([-da, da], axis=-1)
+        grad = np.empty(v.shape)
+        grad[..., 0] = -da
+        grad[..., 1] = da
+        return -0.5 * (1.0 + th), grad
 
     return law
 
 
 def _user_law(fn: Callable[[FloatArray], tuple[ArrayLike, ArrayLike]]) -> Callable[
-        [FloatArray], tuple[FloatArray, FloatArray]]:
-    def law(v: FloatArray) -> tuple[FloatArray, FloatArray]:
+        [FloatArray, Rows], tuple[FloatArray, FloatArray]]:
+    def law(v: FloatArray, rows: Rows) -> tuple[FloatArray, FloatArray]:
         i, di = fn(v[..., 0, 0] - v[..., 0, 1])
         shape = v.shape[:-1]
         di_arr = np.broadcast_to(np.asarray(di, dtype=float)[..., None], shape)
@@ -477,8 +507,44 @@ def _user_law(fn: Callable[[FloatArray], tuple[ArrayLike, ArrayLike]]) -> Callab
     return law
 
 
+def _inverse(J: FloatArray) -> FloatArray:
+    """Batched inverse; a singular (or non-finite) matrix gives NaN (its Newton fails)."""
+    with np.errstate(all="ignore"):
+        try:
+            return np.asarray(np.linalg.inv(J), dtype=np.float64)
+        except np.linalg.LinAlgError:
+            out = np.full(J.shape, np.nan)
+            for k in range(J.shape[0]):
+                try:
+                    out[k] = np.linalg.inv(J[k])
+                except np.linalg.LinAlgError:
+                    pass
+            return out
+
+
+def _matvec(A: FloatArray, x: FloatArray) -> FloatArray:
+    """Batched A x: (v, n, n) @ (v, n) -> (v, n)."""
+    return (A @ x[:, :, None])[:, :, 0]
+
+
+@dataclass(frozen=True)
+class _StageOperators:
+    """Per-step operators of `_System.stage_operators` (arrays over variants)."""
+
+    V: FloatArray                   # (v, n, m)  M^-1 U
+    W: FloatArray                   # (v, p, m)  V on the nonlinear unknowns
+    first: FloatArray               # (v, n, n)  M^-1 (C / (kappa h) - D G)
+    second: FloatArray              # (v, n, n)  M^-1 C / (kappa h)
+    history_U: FloatArray           # (v, n, m)  M^-1 D U
+    Minv: FloatArray | None         # (v, n, n)  M^-1, kept only when there are sources
+
+
 class _System:
     """Assembled matrices, sources and nonlinear families of an expanded circuit."""
+
+    use_reduced = True
+    """Transient stages iterate on the nonlinear unknowns (`newton_reduced`); False: the
+    full-system chord iteration `newton` (the reference path of the equivalence tests)."""
 
     def __init__(self, expanded: Expanded, sources: Sequence[Source], ground: str,
                  n_var: int, gmin: float) -> None:
@@ -587,6 +653,22 @@ class _System:
             start += size
         self._cache: dict[float | None, tuple[FloatArray, FloatArray | None]] = {}
         self._chord: dict[float | None, FloatArray] = {}
+        # the unknowns the nonlinear elements read or feed (the reduced Newton's unknowns z)
+        touched = np.concatenate([self.controls.reshape(-1), plus, minus])
+        self.nl_index = np.unique(touched[touched >= 0])
+        self.p = p = self.nl_index.size
+        position = np.full(n + 1, p)  # unknown -> position in z; ground (-1 = n) -> p (a zero)
+        position[self.nl_index] = np.arange(p)
+        self.controls_z = position[self.controls]
+        # (3, m, p) one-hot: d f_j / d z = sum_c grads[j, c] onehot[c, j]
+        self._onehot = np.zeros((3, self.m, p + 1))
+        for c in range(3):
+            self._onehot[c, np.arange(self.m), self.controls_z[:, c]] = 1.0
+        self._onehot = np.ascontiguousarray(self._onehot[:, :, :p])
+        self.per_row = all(fam.per_row for fam in self.families)
+        self._stage_ops: dict[float, _StageOperators] = {}
+        self._chord_z: dict[float, FloatArray] = {}
+        self._c_scaled: dict[float, FloatArray] = {}
 
     def _families(self, nonlinear: Sequence[SquareLawChannel | RailClamp | NonlinearConductance],
                   clamps: Sequence[RailClamp]) -> list[_Family]:
@@ -632,13 +714,15 @@ class _System:
             if isinstance(nl, NonlinearConductance):
                 a, b = ix[nl.node_a], ix[nl.node_b]
                 out.append(_Family(np.array([a]), np.array([b]), np.array([[a, b]]),
-                                   _user_law(nl.current), (nl.name,)))
+                                   _user_law(nl.current), (nl.name,), per_row=False))
         return out
 
     # -- nonlinear evaluation ------------------------------------------------------------------
 
-    def evaluate(self, x: FloatArray) -> tuple[FloatArray, FloatArray, NDArray[np.int_]]:
-        """Branch currents (n_var, m), gradients (n_var, m, 3) and control indices (m, 3)."""
+    def evaluate(self, x: FloatArray, rows: NDArray[np.int_] | None = None
+                 ) -> tuple[FloatArray, FloatArray, NDArray[np.int_]]:
+        """Branch currents (k, m), gradients (k, m, 3) and control indices (m, 3) of the k
+        variants ``rows`` (None: all) at their unknowns ``x`` (k, n)."""
         n_var = x.shape[0]
         x_ext = np.empty((n_var, self.n + 1))
         x_ext[:, : self.n] = x
@@ -647,10 +731,41 @@ class _System:
         currents = np.empty((n_var, self.m))
         grads = np.zeros((n_var, self.m, 3))
         for fam, (sl, k) in zip(self.families, self._slices):
-            i, g = fam.law(v[:, sl, :k])
+            if fam.per_row or rows is None:
+                i, g = fam.law(v[:, sl, :k], rows)
+            else:  # a supplied law sees every variant: pad the others with the first row's
+                full = np.repeat(v[:1, sl, :k], self.n_var, axis=0)
+                full[rows] = v[:, sl, :k]
+                i_all, g_all = fam.law(full, None)
+                i, g = i_all[rows], g_all[rows]
             currents[:, sl] = i
             grads[:, sl, :k] = g
         return currents, grads, self.controls
+
+    def evaluate_z(self, z: FloatArray, rows: NDArray[np.int_] | None,
+                   z_all: FloatArray) -> tuple[FloatArray, FloatArray]:
+        """`evaluate` on the reduced unknowns ``z`` (len(rows), p) of the variants ``rows``
+        (None: all); ``z_all`` (n_var, p) holds every variant's z for a law that must see all."""
+        k = z.shape[0]
+        z_ext = np.empty((k, self.p + 1))
+        z_ext[:, : self.p] = z
+        z_ext[:, self.p] = 0.0
+        v = z_ext[:, self.controls_z]
+        currents = np.empty((k, self.m))
+        grads = np.zeros((k, self.m, 3))
+        for fam, (sl, n_ctrl) in zip(self.families, self._slices):
+            if fam.per_row or rows is None:
+                i, g = fam.law(v[:, sl, :n_ctrl], rows)
+            else:  # a supplied law sees every variant: evaluate all, keep the rows
+                full = np.empty((z_all.shape[0], self.p + 1))
+                full[:, : self.p] = z_all
+                full[:, self.p] = 0.0
+                full[rows] = z_ext
+                i_all, g_all = fam.law(full[:, self.controls_z[sl, :n_ctrl]], None)
+                i, g = i_all[rows], g_all[rows]
+            currents[:, sl] = i
+            grads[:, sl, :n_ctrl] = g
+        return currents, grads
 
     def nonlinear_rows(self, currents: FloatArray) -> FloatArray:
         """f(x): the nonlinear currents scattered onto their rows, (n_var, n)."""
@@ -676,71 +791,210 @@ class _System:
             self._cache[key] = (M, None if self.m else np.linalg.inv(M))
         return self._cache[key]
 
-    def jacobian_inverse(self, h: float | None, grads: FloatArray) -> FloatArray:
-        """(M + d f / d x)^-1 at the given branch gradients, cached as the chord matrix."""
+    def jacobian_inverse(self, h: float | None, grads: FloatArray,
+                         rows: NDArray[np.int_] | None = None) -> FloatArray:
+        """(M + d f / d x)^-1 at the given branch gradients, cached as the chord matrix.
+
+        ``rows``: the variants ``grads`` belong to (None: all); only their rows of the cached
+        chord matrix are formed again."""
+        key = None if h is None else float(h)
         M = self.matrices(h)[0]
-        n_var = grads.shape[0]
-        J = np.zeros((n_var, self.n + 1, self.n + 1))
+        if rows is not None:
+            M = M[rows]
+        k = grads.shape[0]
+        J = np.zeros((k, self.n + 1, self.n + 1))
         J[:, : self.n, : self.n] = M
         ctrl = self.controls.reshape(-1)
-        for rows, sign in ((self.plus, 1.0), (self.minus, -1.0)):
-            np.add.at(J, (slice(None), np.repeat(rows, 3), ctrl),  # type: ignore[arg-type]  # numpy stubs
-                      sign * grads.reshape(n_var, -1))
-        inverse = np.asarray(np.linalg.inv(J[:, : self.n, : self.n]), dtype=np.float64)
-        self._chord[None if h is None else float(h)] = inverse
-        return inverse
+        for plus, sign in ((self.plus, 1.0), (self.minus, -1.0)):
+            np.add.at(J, (slice(None), np.repeat(plus, 3), ctrl),  # type: ignore[arg-type]  # numpy stubs
+                      sign * grads.reshape(k, -1))
+        inverse = _inverse(J[:, : self.n, : self.n])
+        if rows is None:
+            self._chord[key] = inverse
+            return inverse
+        chord = self._chord.get(key)
+        if chord is None:
+            chord = self._chord[key] = np.full((self.n_var, self.n, self.n), np.nan)
+        chord[rows] = inverse
+        return chord
+
+    def scaled_C(self, h: float) -> FloatArray:
+        """C / (kappa h), cached per step."""
+        key = float(h)
+        if key not in self._c_scaled:
+            self._c_scaled[key] = self.C / (KAPPA * h)
+        return self._c_scaled[key]
+
+    def stage_operators(self, h: float) -> _StageOperators:
+        """The step-h operators of a TR-BDF2 step solved on the nonlinear unknowns (cached).
+
+        With M = G + C / (kappa h), D the rows with a time derivative and U the scatter of the
+        nonlinear branch currents i onto their rows, the stage equation M x + U i(x_z) = rhs
+        reads x = M^-1 rhs - V i(z), V = M^-1 U, and on the nonlinear unknowns z alone
+        z + W i(z) = (M^-1 rhs)_z, W = V_z (a Schur complement of the linear rest of the
+        circuit). The stage right-hand sides of `simulate` need only M^-1 rhs:
+        first stage  M^-1 (C/(kappa h) - D G) x_n - M^-1 D U i(x_n) + M^-1 (b_g + D b_n),
+        second stage M^-1 C/(kappa h) (a x_g - b x_n) + M^-1 b_1.
+        """
+        key = float(h)
+        ops = self._stage_ops.get(key)
+        if ops is None:
+            C_scaled = self.C / (KAPPA * h)
+            Minv = _inverse(self.G + C_scaled)
+            V = np.ascontiguousarray(Minv @ self.U)
+            first = Minv @ (C_scaled - np.where(self.dynamic[:, :, None], self.G, 0.0))
+            second = Minv @ C_scaled
+            history_U = Minv @ np.where(self.dynamic[:, :, None], self.U, 0.0)
+            ops = self._stage_ops[key] = _StageOperators(
+                V, np.ascontiguousarray(V[:, self.nl_index, :]), first, second, history_U,
+                Minv if self.sources else None)
+        return ops
+
+    def _chord_z_inverse(self, W: FloatArray, grads: FloatArray) -> FloatArray:
+        """(I + W d i / d z)^-1 for the given rows' W (k, p, m) and gradients (k, m, 3)."""
+        Di = np.einsum("kjc,cjq->kjq", grads, self._onehot)  # (k, m, p)
+        J = W @ Di
+        J[:, np.arange(self.p), np.arange(self.p)] += 1.0
+        return _inverse(J)
+
+    def newton_z(self, h: float, y: FloatArray, x0: FloatArray, max_iter: int = _MAX_NEWTON
+                 ) -> tuple[FloatArray, NDArray[np.bool_], int]:
+        """Solve M x + f(x) = rhs for a step h from x0 on the nonlinear unknowns only, given
+        y = M^-1 rhs; same (x, converged per variant, iterations) contract as `newton`.
+
+        Chord iteration on z + W i(z) = y_z (see `stage_operators`), variant by variant: a
+        variant leaves the iteration once its update is within the tolerance; its chord matrix
+        (I + W di/dz)^-1, kept across iterations, stages and steps of the same h, is formed
+        again when its iteration grows (the update is then retried) or contracts by less than
+        half. Then x = y - V i(z): the linear unknowns follow exactly from the nonlinear ones.
+        """
+        ops = self.stage_operators(h)
+        V, W = ops.V, ops.W
+        n_var = x0.shape[0]
+        y_z = y[:, self.nl_index]
+        z = np.array(x0[:, self.nl_index])
+        key = float(h)
+        chord = self._chord_z.get(key)
+        if chord is None:
+            chord = self._chord_z[key] = np.zeros((n_var, self.p, self.p))
+            stale = np.ones(n_var, dtype=bool)  # no chord yet
+        else:
+            stale = np.zeros(n_var, dtype=bool)
+        done = np.zeros(n_var, dtype=bool)
+        active = np.arange(n_var)
+        previous = np.full(n_var, np.inf)
+        fresh = np.zeros(n_var, dtype=bool)
+        it = 0
+        while it < max_iter:
+            it += 1
+            whole = active.size == n_var
+            rows = None if whole else active
+            za = z if whole else z[active]
+            Wa = W if whole else W[active]
+            with np.errstate(over="ignore", invalid="ignore"):
+                currents, grads = self.evaluate_z(za, rows, z)
+                resid = za - (y_z if whole else y_z[active]) + (Wa @ currents[:, :, None])[:, :, 0]
+            refresh = stale[active]
+            if np.any(refresh):
+                pick = active[refresh]
+                chord[pick] = self._chord_z_inverse(W[pick], np.nan_to_num(grads[refresh]))
+                fresh[pick] = True
+                stale[pick] = False
+            ca = chord if whole else chord[active]
+            dz = (ca @ resid[:, :, None])[:, :, 0]
+            with np.errstate(over="ignore", invalid="ignore"):
+                scaled = np.max(np.abs(dz) / (_ATOL + _RTOL * np.abs(za)), axis=1, initial=0.0)
+            scaled = np.where(np.isfinite(scaled), scaled, np.inf)
+            prev_a = previous[active]
+            growing = (scaled > prev_a) & ~fresh[active]
+            if np.any(growing):
+                # a stale chord diverges: keep z for these rows, form their chord and retry
+                stale[active[growing]] = True
+                keep = ~growing
+                active_step, dz, scaled, prev_a = (active[keep], dz[keep], scaled[keep],
+                                                   prev_a[keep])
+            else:
+                active_step = active
+            if active_step.size:
+                z_new = z[active_step] - np.where(np.isfinite(dz), dz, 0.0)
+                z[active_step] = z_new
+                ok = (scaled <= 1.0) & np.all(np.isfinite(z_new), axis=1)
+                done[active_step] = ok
+                with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+                    theta = scaled / prev_a
+                    slow = theta > 0.5
+                stale[active_step[slow & ~ok]] = True
+                previous[active_step] = scaled
+                fresh[active_step] = False
+            active = np.flatnonzero(~done)
+            if active.size == 0:
+                break
+        with np.errstate(over="ignore", invalid="ignore"):
+            currents, _ = self.evaluate_z(z, None, z)
+            x = y - (V @ currents[:, :, None])[:, :, 0]
+        return x, done, it
 
     def newton(self, h: float | None, rhs: FloatArray, x0: FloatArray,
                limit_V: float | None = None, max_iter: int = _MAX_NEWTON
                ) -> tuple[FloatArray, NDArray[np.bool_], int]:
         """Solve M x + f(x) = rhs from x0; returns (x, converged per variant, iterations).
 
-        Linear circuits: one solve and one refinement with the cached inverse of M. Nonlinear:
-        chord (modified Newton) iteration with a Jacobian inverse kept across iterations, stages
-        and steps of the same h, formed again whenever an iteration contracts by less than half
-        (common practice in stiff integrators, e.g. Hairer & Wanner, Solving ODEs II, IV.8).
+        Linear circuits: one solve and one refinement with the cached inverse of M (exact; no
+        update limit). Nonlinear: chord (modified Newton) iteration with a Jacobian inverse kept
+        across iterations, stages and steps of the same h, formed again (for the variants still
+        iterating) whenever an iteration contracts by less than half (common practice in stiff
+        integrators, e.g. Hairer & Wanner, Solving ODEs II, IV.8). A variant whose update is
+        within the tolerance is left as it is. ``limit_V`` caps node-voltage updates (DC).
         """
         M, Minv = self.matrices(h)
         x = x0.copy()
         n_var = x.shape[0]
+        if self.m == 0:  # linear: solve, then refine once
+            assert Minv is not None
+            for _ in range(2):
+                x = x - _matvec(Minv, _matvec(M, x) - rhs)
+            return x, np.ones(n_var, dtype=bool), 2
         done = np.zeros(n_var, dtype=bool)
         key = None if h is None else float(h)
-        chord = self._chord.get(key) if self.m else Minv
+        chord = self._chord.get(key)
         previous = np.full(n_var, np.inf)
         fresh = False
+        active = np.arange(n_var)  # variants still iterating (a converged one is left as is)
         it = 0
-        for it in range(1, max_iter + 1):
+        while it < max_iter:
+            it += 1
+            whole = active.size == n_var
+            rows = None if whole else active
+            xa = x if whole else x[active]
             with np.errstate(over="ignore", invalid="ignore"):
-                currents, grads, _ = self.evaluate(x)
-                resid = np.einsum("vij,vj->vi", M, x) - rhs + self.nonlinear_rows(currents)
-            if chord is None:
-                chord = self.jacobian_inverse(h, np.nan_to_num(grads))
+                currents, grads, _ = self.evaluate(xa, rows)
+                resid = (_matvec(M if whole else M[active], xa) - (rhs if whole else rhs[active])
+                         + self.nonlinear_rows(currents))
+            if chord is None:  # formed again for the variants still iterating only
+                chord = self.jacobian_inverse(h, np.nan_to_num(grads), rows)
                 fresh = True
-            dx = np.einsum("vij,vj->vi", chord, resid)
+            dx = _matvec(chord if whole else chord[active], resid)
             if limit_V is not None:
                 worst = np.max(np.abs(dx[:, : self.n_nodes]), axis=1, initial=0.0)
                 dx *= np.minimum(1.0, limit_V / np.maximum(worst, 1e-300))[:, None]
-            if self.m == 0:
-                x = x - dx
-                if it >= 2:
-                    done[:] = True
-                    break
-                continue
             with np.errstate(over="ignore", invalid="ignore"):
-                scaled = np.max(np.abs(dx) / (_ATOL + _RTOL * np.abs(x)), axis=1)
+                scaled = np.max(np.abs(dx) / (_ATOL + _RTOL * np.abs(xa)), axis=1)
             scaled = np.where(np.isfinite(scaled), scaled, np.inf)
-            growing = (scaled > previous) & ~done
-            if np.any(growing) and not fresh:
+            prev_a = previous[active]
+            if np.any(scaled > prev_a) and not fresh:
                 # a stale chord diverges: keep x, form the Jacobian here and try again
                 chord = None
                 continue
-            x = x - np.where(np.isfinite(dx), dx, 0.0)
-            done = (scaled <= 1.0) & np.all(np.isfinite(x), axis=1)
-            if np.all(done):
+            xa = xa - np.where(np.isfinite(dx), dx, 0.0)
+            x[active] = xa
+            ok = (scaled <= 1.0) & np.all(np.isfinite(xa), axis=1)
+            done[active] = ok
+            if np.all(ok):
                 break
-            if np.any((scaled > 0.5 * previous) & ~done):
+            if np.any((scaled > 0.5 * prev_a) & ~ok):
                 chord = None  # slow contraction: the Jacobian moved, form it again
-            previous = scaled
+            previous[active] = scaled
+            active = active[~ok]
             fresh = False
         return x, done, it
 
@@ -885,7 +1139,7 @@ def _consistent(system: _System, x0: FloatArray, b0: FloatArray, h_min: float) -
     currents of ``x0``: one backward-Euler step of 1e-6 h_min (a source that is already on
     at t = 0 then acts as a step at 0+, as in SPICE with ``uic``)."""
     h = 1e-6 * h_min / KAPPA  # so that C / (KAPPA h) = C / (1e-6 h_min)
-    rhs = b0 + np.einsum("vij,vj->vi", system.C / (KAPPA * h), x0)
+    rhs = b0 + _matvec(system.C / (KAPPA * h), x0)
     x, _, _ = system.newton(h, rhs, x0)
     return x
 
@@ -1056,18 +1310,35 @@ def simulate(
             return system.rhs(values[..., k_time])
         return system.rhs(system.source_values(np.array([t]))[..., 0])
 
-    def advance(x_n: FloatArray, t: float, h: float, b_n: FloatArray, b_g: FloatArray,
-                b_1: FloatArray, depth: int) -> tuple[FloatArray, NDArray[np.bool_], int]:
-        C_scaled = system.C / (KAPPA * h)
+    reduce = bool(system.m) and system.use_reduced and 2 * system.p <= system.n
+
+    def stages(x_n: FloatArray, h: float, b_n: FloatArray, b_g: FloatArray, b_1: FloatArray
+               ) -> tuple[FloatArray, NDArray[np.bool_]]:
         cur, _, _ = system.evaluate(x_n)
-        r_n = b_n - np.einsum("vij,vj->vi", system.G, x_n) - system.nonlinear_rows(cur)
-        rhs1 = b_g + np.einsum("vij,vj->vi", C_scaled, x_n) + np.where(system.dynamic, r_n, 0.0)
+        if reduce:  # the same stages through M^-1 (`_System.stage_operators`)
+            ops = system.stage_operators(h)
+            y1 = _matvec(ops.first, x_n) - _matvec(ops.history_U, cur)
+            if ops.Minv is not None:
+                y1 += _matvec(ops.Minv, b_g + np.where(system.dynamic, b_n, 0.0))
+            x_g, ok1, _ = system.newton_z(h, y1, x_n)
+            y2 = _matvec(ops.second, _BDF_A * x_g - _BDF_B * x_n)
+            if ops.Minv is not None:
+                y2 += _matvec(ops.Minv, b_1)
+            x_1, ok2, _ = system.newton_z(h, y2, x_n + (x_g - x_n) / GAMMA)
+            return x_1, ok1 & ok2
+        C_scaled = system.scaled_C(h)
+        r_n = b_n - _matvec(system.G, x_n) - system.nonlinear_rows(cur)
+        rhs1 = b_g + _matvec(C_scaled, x_n) + np.where(system.dynamic, r_n, 0.0)
         x_g, ok1, _ = system.newton(h, rhs1, x_n)
         hist = _BDF_A * x_g - _BDF_B * x_n
-        rhs2 = b_1 + np.einsum("vij,vj->vi", C_scaled, hist)
+        rhs2 = b_1 + _matvec(C_scaled, hist)
         guess = x_n + (x_g - x_n) / GAMMA
         x_1, ok2, _ = system.newton(h, rhs2, guess)
-        ok = ok1 & ok2
+        return x_1, ok1 & ok2
+
+    def advance(x_n: FloatArray, t: float, h: float, b_n: FloatArray, b_g: FloatArray,
+                b_1: FloatArray, depth: int) -> tuple[FloatArray, NDArray[np.bool_], int]:
+        x_1, ok = stages(x_n, h, b_n, b_g, b_1)
         if np.all(ok) or depth >= _MAX_SPLIT_DEPTH:
             return x_1, ok, 0
         half = 0.5 * h
