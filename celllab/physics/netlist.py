@@ -2,7 +2,9 @@
 
 One data structure (`Netlist`: a name, two ports and a list of `Element`) describes every
 topology's equivalent circuit; one solver (`solve_impedance`) evaluates Z(f) between the ports
-for all variants and frequencies at once by complex modified nodal analysis (MNA).
+for all variants and frequencies at once: by series-parallel reduction when the circuit is
+series-parallel (`celllab.physics.series_parallel`), by complex modified nodal analysis (MNA)
+otherwise.
 
 Element kinds
 -------------
