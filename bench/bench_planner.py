@@ -139,8 +139,9 @@ def _slot(k: int, seed: int = 11) -> tuple[float, float]:
 
 
 def timed(problem: FillProblem) -> tuple[float, float, float, bool]:
-    """(LP reference s, MILP best of 3 s, certified gap, proven within GAP); a run that finds
-    no feasible fill within the time limit counts as the limit with an infinite gap."""
+    """(LP reference s, MILP s, certified gap, proven within GAP) of the best of 3 runs (the
+    smallest gap, then the fastest); a run that finds no feasible fill within the time limit
+    counts as the limit with an infinite gap."""
     lp = min(relaxation_seconds(problem) for _ in range(3))
     best: tuple[float, float, bool] | None = None
     for _ in range(3):
@@ -149,7 +150,9 @@ def timed(problem: FillProblem) -> tuple[float, float, float, bool]:
             run = (solution.solve_seconds, solution.mip_gap, solution.optimal)
         except FillTimeout:
             run = (LIMIT_S, float("inf"), False)
-        if best is None or run[0] < best[0]:
+        # the best run is the one with the smallest certified gap (then the fastest): a run
+        # that ends without a fill at the limit must not win for being "fast"
+        if best is None or (run[1], run[0]) < (best[1], best[0]):
             best = run
     assert best is not None
     return lp, *best
