@@ -132,6 +132,8 @@ _MIN_RUN_S = 0.1
 _KIND_SHARE = 0.3
 #: Share of the time left that the kind relaxation (y_i integer, counts continuous) may take.
 _KIND_RELAX_SHARE = 0.85
+#: The same share when no fill is known yet (the restricted solve must still find one).
+_KIND_RELAX_SHARE_NO_FILL = 0.35
 #: The kind relaxation stops at this fraction of the requested gap (the counts' rounding and
 #: the integer patterns take the rest).
 _KIND_RELAX_GAP = 0.5
@@ -457,8 +459,9 @@ def _solve_goal(p: FillProblem, targets: FloatArray, mode: Literal["hard", "elas
              if found is not None else set())
     if not start:  # no incumbent kinds: the K kinds the LP uses most
         start = set(sorted(lp_y, key=lambda i: -lp_y[i])[:p.max_kinds])
-    kinds_run = run_kinds(model, mip_rel_gap * _KIND_RELAX_GAP,
-                          max(_KIND_RELAX_SHARE * left, _MIN_RUN_S), start)
+    # without a fill yet, the restricted solve after it needs time of its own to find one
+    share = _KIND_RELAX_SHARE if found is not None else _KIND_RELAX_SHARE_NO_FILL
+    kinds_run = run_kinds(model, mip_rel_gap * _KIND_RELAX_GAP, max(share * left, _MIN_RUN_S), start)
     if kinds_run.status == 2 and found is None:
         return None  # no choice of kinds is feasible even with fractional counts
     bound = max(bound, kinds_run.dual_bound)
