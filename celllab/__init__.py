@@ -19,7 +19,7 @@ from pathlib import Path
 from typing import Any
 
 __version__ = "0.1.0"
-MODEL_VERSION = "celllab-models-0.2"
+MODEL_VERSION = "celllab-models-0.3"
 
 #: Said wherever numbers could drive tape-out decisions: exports, reports, help and the UI.
 CAUTION = (
