@@ -397,6 +397,14 @@ def expand(netlist: Netlist, nonlinear: Sequence[Nonlinear] = (), n_segments: in
 # --- assembly ----------------------------------------------------------------------------------
 
 
+def _with_ground(x: FloatArray) -> FloatArray:
+    """``x`` (k, n) with a column of zeros appended: index n reads the ground (0 V)."""
+    out = np.empty((x.shape[0], x.shape[1] + 1))
+    out[:, :-1] = x
+    out[:, -1] = 0.0
+    return out
+
+
 def _vec(value: ArrayLike, n_var: int, what: str) -> FloatArray:
     arr = np.asarray(value, dtype=float).reshape(-1)
     if arr.size not in (1, n_var):
@@ -723,45 +731,44 @@ class _System:
                  ) -> tuple[FloatArray, FloatArray, NDArray[np.int_]]:
         """Branch currents (k, m), gradients (k, m, 3) and control indices (m, 3) of the k
         variants ``rows`` (None: all) at their unknowns ``x`` (k, n)."""
-        n_var = x.shape[0]
-        x_ext = np.empty((n_var, self.n + 1))
-        x_ext[:, : self.n] = x
-        x_ext[:, self.n] = 0.0
-        v = x_ext[:, self.controls]
-        currents = np.empty((n_var, self.m))
-        grads = np.zeros((n_var, self.m, 3))
-        for fam, (sl, k) in zip(self.families, self._slices):
-            if fam.per_row or rows is None:
-                i, g = fam.law(v[:, sl, :k], rows)
-            else:  # a supplied law sees every variant: pad the others with the first row's
-                full = np.repeat(v[:1, sl, :k], self.n_var, axis=0)
-                full[rows] = v[:, sl, :k]
-                i_all, g_all = fam.law(full, None)
-                i, g = i_all[rows], g_all[rows]
-            currents[:, sl] = i
-            grads[:, sl, :k] = g
+        v = _with_ground(x)[:, self.controls]
+
+        def every_variant() -> FloatArray:  # the other variants padded with the first row's
+            full = np.repeat(v[:1], self.n_var, axis=0)
+            full[rows] = v
+            return full
+
+        currents, grads = self._laws(v, rows, every_variant)
         return currents, grads, self.controls
 
     def evaluate_z(self, z: FloatArray, rows: NDArray[np.int_] | None,
                    z_all: FloatArray) -> tuple[FloatArray, FloatArray]:
         """`evaluate` on the reduced unknowns ``z`` (len(rows), p) of the variants ``rows``
         (None: all); ``z_all`` (n_var, p) holds every variant's z for a law that must see all."""
-        k = z.shape[0]
-        z_ext = np.empty((k, self.p + 1))
-        z_ext[:, : self.p] = z
-        z_ext[:, self.p] = 0.0
-        v = z_ext[:, self.controls_z]
+        z_ext = _with_ground(z)
+
+        def every_variant() -> FloatArray:
+            full = _with_ground(z_all)
+            full[rows] = z_ext
+            return full[:, self.controls_z]
+
+        return self._laws(z_ext[:, self.controls_z], rows, every_variant)
+
+    def _laws(self, v: FloatArray, rows: NDArray[np.int_] | None,
+              every_variant: Callable[[], FloatArray]) -> tuple[FloatArray, FloatArray]:
+        """Currents (k, m) and gradients (k, m, 3) of every family at control voltages ``v``
+        (k, m, 3) of the variants ``rows``; a supplied law that must see every variant gets
+        ``every_variant()`` (n_var, m, 3) and its rows are kept."""
+        k = v.shape[0]
         currents = np.empty((k, self.m))
         grads = np.zeros((k, self.m, 3))
+        full: FloatArray | None = None
         for fam, (sl, n_ctrl) in zip(self.families, self._slices):
             if fam.per_row or rows is None:
                 i, g = fam.law(v[:, sl, :n_ctrl], rows)
-            else:  # a supplied law sees every variant: evaluate all, keep the rows
-                full = np.empty((z_all.shape[0], self.p + 1))
-                full[:, : self.p] = z_all
-                full[:, self.p] = 0.0
-                full[rows] = z_ext
-                i_all, g_all = fam.law(full[:, self.controls_z[sl, :n_ctrl]], None)
+            else:
+                full = every_variant() if full is None else full
+                i_all, g_all = fam.law(full[:, sl, :n_ctrl], None)
                 i, g = i_all[rows], g_all[rows]
             currents[:, sl] = i
             grads[:, sl, :n_ctrl] = g
