@@ -204,7 +204,21 @@ def test_read_inputs_takes_the_deck_schemas_limits(lumen130_deck: Any) -> None:
 
 
 async def test_fill_risk_from_the_catalog_and_esc_leaves_while_computing(
-        demo_catalog: Any, ui: Any) -> None:
+        demo_catalog: Any, ui: Any, monkeypatch: pytest.MonkeyPatch) -> None:
+    import threading
+
+    from celllab.tui.screens import fill_risk as screen_module
+
+    # the events' transients wait until the test lets them go, so the view is surely still
+    # computing when Esc is pressed (the computation itself takes ~1.5 s: too short to catch)
+    release = threading.Event()
+    original = screen_module.event_answer
+
+    def held(*args: Any, **kwargs: Any) -> Any:
+        release.wait(30.0)
+        return original(*args, **kwargs)
+
+    monkeypatch.setattr(screen_module, "event_answer", held)
     app = CelllabApp(catalog=demo_catalog)
     async with app.run_test(size=(120, 40)) as pilot:
         await ui.settle(pilot)
@@ -226,6 +240,7 @@ async def test_fill_risk_from_the_catalog_and_esc_leaves_while_computing(
         await pilot.press("escape")
         await pilot.pause()
         assert app.screen is catalog_screen
+        release.set()
         await ui.settle(pilot)
         assert app.screen is catalog_screen
 
