@@ -94,8 +94,10 @@ class Catalog:
 
     def interrupt(self) -> None:
         """Abort the statement this connection is running, if any (safe from another thread);
-        the interrupted call raises CatalogError. A statement started later is not affected."""
-        self._db.conn.interrupt()
+        the interrupted call raises CatalogError. A statement started later is not affected;
+        a closed catalog has nothing to stop."""
+        with contextlib.suppress(sqlite3.ProgrammingError):
+            self._db.conn.interrupt()
 
     def __enter__(self) -> Self:
         return self

@@ -168,3 +168,38 @@ def test_readers_during_several_writers(tmp_path: Path, tally: dict[str, object]
     }
     assert counts["api_reads"] > 0 and counts["cli_reads"] > 0
     assert (counts["refusals"], counts["lock_errors"], lost) == (0, 0, []), failures[:3]
+
+
+def test_reader_connection_and_interrupt(tmp_path: Path) -> None:
+    """A second connection (`Catalog.reader`) reads beside the first; `interrupt` stops the
+    statement running on it (CatalogError), leaves a later statement alone and is harmless on a
+    closed catalog. The UI counts rows this way so a page never waits behind a count."""
+    import threading
+
+    from celllab.errors import CatalogError
+
+    main = open_catalog(tmp_path / "c.sqlite")
+    reader = main.reader()
+    outcome: list[str] = []
+    slow = ("WITH RECURSIVE t(x) AS (SELECT 1 UNION ALL SELECT x + 1 FROM t WHERE x < 1000000000) "
+            "SELECT COUNT(*) FROM t")
+
+    def run() -> None:
+        try:
+            with reader._access() as db:
+                db.execute(slow).fetchone()
+            outcome.append("finished")
+        except CatalogError as exc:
+            outcome.append(str(exc))
+
+    worker = threading.Thread(target=run)
+    worker.start()
+    time.sleep(0.2)
+    assert main.count() == 0  # the first connection answers while the reader is busy
+    reader.interrupt()
+    worker.join(30)
+    assert not worker.is_alive() and len(outcome) == 1 and "interrupted" in outcome[0]
+    assert reader.count() == 0  # a statement after the interrupt runs normally
+    reader.close()
+    reader.interrupt()
+    main.close()
