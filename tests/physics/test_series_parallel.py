@@ -162,3 +162,20 @@ def test_random_series_parallel_circuits_equal_the_nodal_solve(net: Netlist) -> 
     z, ref = solve_impedance(net, f), solve_impedance(net, f, method="nodal")
     # the nodal solve's own rounding grows with the matrix's condition (values over 6 decades)
     np.testing.assert_allclose(z, ref, rtol=1e-7, atol=0)
+
+
+def test_blocks_of_variants_give_the_values_of_one_pass(monkeypatch: pytest.MonkeyPatch) -> None:
+    """Equivalence check: the reduction evaluated a few variants at a time (`BLOCK_VALUES`)
+    equals one pass over every variant, bit for bit (each value depends on its own row only);
+    shared values, per-variant frequencies and a single-variant netlist included."""
+    from celllab.physics import series_parallel
+
+    nets = _topology_circuits()
+    f_rows = np.geomspace(1e3, 1e12, 3 * 11).reshape(3, 11)
+    one_pass = [solve_impedance(net, f) for net in nets for f in (F, f_rows)]
+    one_pass.append(solve_impedance(nets[0].variant(1), F))
+    monkeypatch.setattr(series_parallel, "BLOCK_VALUES", 1)  # one variant per block
+    blocked = [solve_impedance(net, f) for net in nets for f in (F, f_rows)]
+    blocked.append(solve_impedance(nets[0].variant(1), F))
+    for a, b in zip(one_pass, blocked, strict=True):
+        np.testing.assert_array_equal(a, b)
