@@ -12,7 +12,8 @@ A second table times the HBM and CDM events of every lumen130 demo cell of a top
 corners, as the catalog build runs them) with the stage Newton on the nonlinear unknowns
 (`_System.newton_reduced`, the default where the nonlinear elements touch few unknowns) against
 the full-system chord iteration (`_System.use_reduced = False`) in the same run, and the
-largest difference of their peak oxide voltages.
+largest difference of their peak oxide voltages; then the cross-coupled pair's events with its
+chord matrix as a bordered band against the dense inverse (`_System.use_band = False`).
 Run:  .venv/bin/python bench/bench_transient.py   (prints a table; not a test)
 """
 
@@ -111,7 +112,8 @@ def _case_esd(topology: str, n_cells: int) -> tuple[str, int, int, float, float,
     return f"HBM on {topology}", res.rail_V.shape[0], res.t.size - 1, ours, full, start
 
 
-def _events_seconds(topology: str, reduced: bool) -> tuple[float, int, np.ndarray]:
+def _events_seconds(topology: str, reduced: bool, band: bool = True
+                    ) -> tuple[float, int, np.ndarray]:
     """Seconds for the catalog's HBM and CDM events (`cell_risk.catalog_figures`, the coarse
     grid, with the broken-oxide DC point) of the demo cells of ``topology``, all corners."""
     from celllab.characterization.cell_risk import catalog_figures
@@ -122,6 +124,7 @@ def _events_seconds(topology: str, reduced: bool) -> tuple[float, int, np.ndarra
     groups = gather(deck, cells)
     events = (EsdEvent("hbm", deck.esd.hbm_V), EsdEvent("cdm", deck.esd.cdm_V))
     tr._System.use_reduced = reduced
+    tr._System.use_band = band
     peaks, rows = [], 0
     t0 = time.perf_counter()
     try:
@@ -131,6 +134,7 @@ def _events_seconds(topology: str, reduced: bool) -> tuple[float, int, np.ndarra
             rows += g.supply.size
     finally:
         tr._System.use_reduced = True
+        tr._System.use_band = True
     return time.perf_counter() - t0, rows, np.concatenate(peaks)
 
 
@@ -146,6 +150,16 @@ def paths() -> None:
               f"{diff:>26.1e}")
     print("reduced: stage Newton on the nonlinear unknowns; full: full-system chord iteration "
           "(same run, same circuits)\n")
+    band, rows, p_band = _events_seconds("cross_coupled", True)
+    dense, _, p_dense = _events_seconds("cross_coupled", True, band=False)
+    ok = np.isfinite(p_dense) & (p_dense != 0)
+    diff = float(np.max(np.abs(p_band[ok] - p_dense[ok]) / np.abs(p_dense[ok]), initial=0.0))
+    print(f"{'HBM + CDM events':<20} {'rows':>5} {'band s':>10} {'dense s':>8} {'speed-up':>9} "
+          f"{'max rel diff of peak V_ox':>26}")
+    print(f"{'cross_coupled':<20} {rows:>5} {band:>10.2f} {dense:>8.2f} {dense / band:>9.1f} "
+          f"{diff:>26.1e}")
+    print("band: the pair's chord matrix as a bordered band LU (`_BorderedBand`); dense: "
+          "batched dense inverse (same run)\n")
 
 
 def main() -> None:

@@ -28,7 +28,11 @@ z alone: with V = M^-1 U (U scatters the nonlinear branch currents i onto their 
 stage equation M x + U i(z) = rhs becomes z + V_z i(z) = (M^-1 rhs)_z, a Schur complement of
 the linear rest of the circuit, whose chord matrix is a small (I + V_z di/dz)^-1; then
 x = M^-1 rhs - V i(z). In exact arithmetic Newton on z and on x give the same iterates; the
-tests hold the two paths equal. A step whose iteration does not converge is split in halves
+tests hold the two paths equal. Where the nonlinear elements touch most unknowns but the
+chord matrix is a narrow band with a few dense rows and columns (the cross-coupled pair: two
+channel ladders whose segments all read their gate plate), the full-system chord matrix is
+kept as a band LU and a Schur complement of the border (`_BorderedBand`) instead of a dense
+inverse: the same iterates, at O(n) instead of O(n^3) per refresh. A step whose iteration does not converge is split in halves
 (up to 8 levels). A linear circuit's stage, and its DC point, is one solve with M^-1 and one
 refinement.
 
@@ -535,6 +539,140 @@ def _matvec(A: FloatArray, x: FloatArray) -> FloatArray:
     return (A @ x[:, :, None])[:, :, 0]
 
 
+class _BorderedBand:
+    """Batched inverse of matrices whose pattern is a narrow band plus a few dense rows and
+    columns (two channel ladders whose segments all read their gate plate).
+
+    With the unknowns split into the inner set a (reordered by reverse Cuthill-McKee into a
+    band of kl sub- and ku super-diagonals) and the border b (the unknowns with more than
+    ``BORDER_DEGREE`` neighbours), J = [[A, E], [F, D]] and, with the Schur complement
+    S = D - F A^-1 E (G. H. Golub, C. F. Van Loan, Matrix Computations, 4th ed., 2013, 3.2.11
+    and 4.3 for the band LU), J^-1 = [[A^-1 + A^-1 E S^-1 F A^-1, -A^-1 E S^-1],
+    [-S^-1 F A^-1, S^-1]]. A^-1 and A^-1 E of every variant come from one LAPACK band LU
+    (dgbtrf/dgbtrs, partial pivoting) of the block-diagonal matrix that stacks the variants:
+    O(n_a (kl + ku) (n_a + n_b)) per variant instead of O(n^3). Any zero pivot or non-finite
+    result falls back to the dense batched inverse.
+    """
+
+    BORDER_DEGREE = 6
+    MAX_BORDER = 8
+    MAX_BAND = 6       # kl + ku
+    MIN_SIZE = 24      # smaller systems: the dense inverse is as fast
+
+    def __init__(self, inner: NDArray[np.int_], border: NDArray[np.int_], kl: int,
+                 ku: int) -> None:
+        self.inner, self.border, self.kl, self.ku = inner, border, kl, ku
+        n_a = inner.size
+        self.ldab = 2 * kl + ku + 1
+        i, j = np.meshgrid(np.arange(n_a), np.arange(n_a), indexing="ij")
+        keep = (i - j <= kl) & (j - i <= ku)
+        self._i, self._j = i[keep], j[keep]
+        self._row = kl + ku + self._i - self._j  # band storage row of A[i, j]
+        order = np.concatenate([inner, border])
+        self._undo = np.argsort(order)
+
+    @classmethod
+    def plan(cls, pattern: NDArray[np.bool_]) -> _BorderedBand | None:
+        """The split of a structural pattern (n, n), or None where it does not pay."""
+        from scipy.sparse import csr_matrix
+        from scipy.sparse.csgraph import reverse_cuthill_mckee
+
+        n = pattern.shape[0]
+        sym = pattern | pattern.T
+        np.fill_diagonal(sym, False)
+        degree = sym.sum(axis=1)
+        border = np.flatnonzero(degree > cls.BORDER_DEGREE)
+        rest = np.flatnonzero(degree <= cls.BORDER_DEGREE)
+        if n < cls.MIN_SIZE or border.size > cls.MAX_BORDER or rest.size < n // 2:
+            return None
+        sub = sym[np.ix_(rest, rest)]
+        perm = reverse_cuthill_mckee(csr_matrix(sub.astype(float)), symmetric_mode=True)
+        i, j = np.nonzero(pattern[np.ix_(rest[perm], rest[perm])])
+        kl = int(max(0, np.max(i - j, initial=0)))
+        ku = int(max(0, np.max(j - i, initial=0)))
+        if kl + ku > cls.MAX_BAND:
+            return None
+        return cls(rest[perm], border, kl, ku)
+
+    def factor(self, J: FloatArray) -> _BandFactors:
+        """The factors of every variant's J (k, n, n); see `_BandFactors`."""
+        from scipy.linalg.lapack import dgbtrf, dgbtrs
+
+        a, b = self.inner, self.border
+        k, n_a = J.shape[0], a.size
+        A = J[:, a[:, None], a]
+        E = J[:, a[:, None], b]
+        F = np.ascontiguousarray(J[:, b[:, None], a])
+        D = J[:, b[:, None], b]
+        ab = np.zeros((k, n_a, self.ldab))  # column j of the stacked band storage: ab[., j, .]
+        ab[:, self._j, self._row] = A[:, self._i, self._j]
+        with np.errstate(all="ignore"):
+            lu, piv, _ = dgbtrf(ab.reshape(k * n_a, self.ldab).T, self.kl, self.ku,
+                                overwrite_ab=1)
+            lu = lu.T.reshape(k, n_a, self.ldab)
+            pivot = lu[:, :, self.kl + self.ku]  # diagonal of U
+            bad = ~np.all(np.isfinite(lu), axis=(1, 2)) | np.any(pivot == 0.0, axis=1)
+            piv = piv.reshape(k, n_a) - (np.arange(k) * n_a)[:, None]
+            if np.any(bad):  # keep the stacked solve finite; these rows go dense
+                lu[bad] = 0.0
+                lu[bad, :, self.kl + self.ku] = 1.0
+                piv[bad] = np.arange(n_a)
+            A_inv_E, _ = dgbtrs(lu.reshape(k * n_a, self.ldab).T, self.kl, self.ku,
+                                np.asfortranarray(E.reshape(k * n_a, -1)),
+                                (piv + (np.arange(k) * n_a)[:, None]).reshape(-1))
+            A_inv_E = A_inv_E.reshape(k, n_a, b.size)
+            S_inv = _inverse(D - F @ A_inv_E)
+            bad |= ~(np.all(np.isfinite(S_inv), axis=(1, 2))
+                     & np.all(np.isfinite(A_inv_E), axis=(1, 2)))
+        return _BandFactors(lu, piv.astype(np.int32), np.ascontiguousarray(A_inv_E), S_inv, F,
+                            bad)
+
+
+@dataclass
+class _BandFactors:
+    """Per-variant factors of a bordered-band chord matrix (`_BorderedBand`): the band LU of
+    A (band storage per variant, block-relative pivots), A^-1 E, S^-1 and F; ``bad`` rows
+    (zero pivot or non-finite) are solved with a dense inverse ``dense`` instead."""
+
+    lu: FloatArray                  # (v, n_a, ldab)
+    piv: NDArray[np.int32]          # (v, n_a)
+    A_inv_E: FloatArray             # (v, n_a, n_b)
+    S_inv: FloatArray               # (v, n_b, n_b)
+    F: FloatArray                   # (v, n_b, n_a)
+    bad: NDArray[np.bool_]          # (v,)
+    dense: FloatArray | None = None  # (v, n, n) where bad
+
+
+def _band_solve(band: _BorderedBand, fac: _BandFactors, rows: NDArray[np.int_] | None,
+                r: FloatArray) -> FloatArray:
+    """J^-1 r for the variants ``rows`` (None: all) of the factors ``fac``; r (k, n)."""
+    from scipy.linalg.lapack import dgbtrs
+
+    a, b = band.inner, band.border
+    k, n_a = r.shape[0], a.size
+    if rows is None:
+        lu, piv, A_inv_E, S_inv, F, bad = (fac.lu, fac.piv, fac.A_inv_E, fac.S_inv, fac.F,
+                                           fac.bad)
+    else:
+        lu, piv, A_inv_E, S_inv, F, bad = (fac.lu[rows], fac.piv[rows], fac.A_inv_E[rows],
+                                           fac.S_inv[rows], fac.F[rows], fac.bad[rows])
+    offsets = np.arange(0, k * n_a, n_a, dtype=np.int32)[:, None]
+    with np.errstate(all="ignore"):
+        y, _ = dgbtrs(lu.reshape(k * n_a, band.ldab).T, band.kl, band.ku,
+                      r[:, a].reshape(-1, 1), (piv + offsets).reshape(-1))
+        y = y.reshape(k, n_a)
+        x_b = _matvec(S_inv, r[:, b] - _matvec(F, y))
+        out = np.empty_like(r)
+        out[:, a] = y - _matvec(A_inv_E, x_b)
+        out[:, b] = x_b
+        if np.any(bad):
+            assert fac.dense is not None
+            pick = np.flatnonzero(bad)
+            full = pick if rows is None else rows[pick]
+            out[pick] = _matvec(fac.dense[full], r[pick])
+    return out
+
+
 @dataclass(frozen=True)
 class _StageOperators:
     """Per-step operators of `_System.stage_operators` (arrays over variants)."""
@@ -549,6 +687,11 @@ class _StageOperators:
 
 class _System:
     """Assembled matrices, sources and nonlinear families of an expanded circuit."""
+
+    use_band = True
+    """Transient chord matrices of large circuits whose pattern is a band with a few dense
+    rows and columns (the pair's channel ladders) are inverted through `_BorderedBand`; False:
+    batched dense inverses (the reference path of the equivalence tests)."""
 
     use_reduced = True
     """Transient stages iterate on the nonlinear unknowns (`newton_reduced`); False: the
@@ -660,7 +803,7 @@ class _System:
             self._slices.append((slice(start, start + size), k))
             start += size
         self._cache: dict[float | None, tuple[FloatArray, FloatArray | None]] = {}
-        self._chord: dict[float | None, FloatArray] = {}
+        self._chord: dict[float | None, FloatArray | _BandFactors] = {}
         # the unknowns the nonlinear elements read or feed (the reduced Newton's unknowns z)
         touched = np.concatenate([self.controls.reshape(-1), plus, minus])
         self.nl_index = np.unique(touched[touched >= 0])
@@ -799,11 +942,12 @@ class _System:
         return self._cache[key]
 
     def jacobian_inverse(self, h: float | None, grads: FloatArray,
-                         rows: NDArray[np.int_] | None = None) -> FloatArray:
+                         rows: NDArray[np.int_] | None = None) -> FloatArray | _BandFactors:
         """(M + d f / d x)^-1 at the given branch gradients, cached as the chord matrix.
 
         ``rows``: the variants ``grads`` belong to (None: all); only their rows of the cached
-        chord matrix are formed again."""
+        chord matrix are formed again. A transient chord matrix with a bordered-band pattern
+        (`band_plan`) is kept as its factors instead (`_band_solve` applies it)."""
         key = None if h is None else float(h)
         M = self.matrices(h)[0]
         if rows is not None:
@@ -815,15 +959,56 @@ class _System:
         for plus, sign in ((self.plus, 1.0), (self.minus, -1.0)):
             np.add.at(J, (slice(None), np.repeat(plus, 3), ctrl),  # type: ignore[arg-type]  # numpy stubs
                       sign * grads.reshape(k, -1))
+        band = self.band_plan() if h is not None else None
+        if band is not None:
+            return self._band_chord(key, band, J[:, : self.n, : self.n], rows)
         inverse = _inverse(J[:, : self.n, : self.n])
         if rows is None:
             self._chord[key] = inverse
             return inverse
         chord = self._chord.get(key)
-        if chord is None:
-            chord = self._chord[key] = np.full((self.n_var, self.n, self.n), np.nan)
+        if not isinstance(chord, np.ndarray):
+            chord = np.full((self.n_var, self.n, self.n), np.nan)
+            self._chord[key] = chord
         chord[rows] = inverse
         return chord
+
+    def _band_chord(self, key: float | None, band: _BorderedBand, J: FloatArray,
+                    rows: NDArray[np.int_] | None) -> _BandFactors:
+        """`jacobian_inverse` kept as bordered-band factors (`_BorderedBand`)."""
+        fac = band.factor(J)
+        if np.any(fac.bad):
+            fac.dense = np.full(J.shape, np.nan)
+            fac.dense[fac.bad] = _inverse(J[fac.bad])
+        if rows is None:
+            self._chord[key] = fac
+            return fac
+        chord = self._chord.get(key)
+        if not isinstance(chord, _BandFactors):
+            n_a, n_b = band.inner.size, band.border.size
+            chord = self._chord[key] = _BandFactors(
+                np.zeros((self.n_var, n_a, band.ldab)), np.zeros((self.n_var, n_a), np.int32),
+                np.zeros((self.n_var, n_a, n_b)), np.zeros((self.n_var, n_b, n_b)),
+                np.zeros((self.n_var, n_b, n_a)), np.ones(self.n_var, dtype=bool),
+                np.full((self.n_var, self.n, self.n), np.nan))
+        for name in ("lu", "piv", "A_inv_E", "S_inv", "F", "bad"):
+            getattr(chord, name)[rows] = getattr(fac, name)
+        if np.any(fac.bad):
+            if chord.dense is None:
+                chord.dense = np.full((self.n_var, self.n, self.n), np.nan)
+            chord.dense[rows] = fac.dense
+        return chord
+
+    def band_plan(self) -> _BorderedBand | None:
+        """The bordered-band inverse of the chord matrices (`_BorderedBand.plan`), or None."""
+        if not hasattr(self, "_band"):
+            pattern = np.any(self.G != 0.0, axis=0) | np.any(self.C != 0.0, axis=0)
+            ext = np.zeros((self.n + 1, self.n + 1), dtype=bool)
+            ext[np.repeat(self.plus, 3), self.controls.reshape(-1)] = True
+            ext[np.repeat(self.minus, 3), self.controls.reshape(-1)] = True
+            pattern |= ext[: self.n, : self.n]
+            self._band = _BorderedBand.plan(pattern) if self.use_band else None
+        return self._band
 
     def scaled_C(self, h: float) -> FloatArray:
         """C / (kappa h), cached per step."""
@@ -980,7 +1165,12 @@ class _System:
             if chord is None:  # formed again for the variants still iterating only
                 chord = self.jacobian_inverse(h, np.nan_to_num(grads), rows)
                 fresh = True
-            dx = _matvec(chord if whole else chord[active], resid)
+            if isinstance(chord, _BandFactors):
+                band = self.band_plan()
+                assert band is not None
+                dx = _band_solve(band, chord, rows, resid)
+            else:
+                dx = _matvec(chord if whole else chord[active], resid)
             if limit_V is not None:
                 worst = np.max(np.abs(dx[:, : self.n_nodes]), axis=1, initial=0.0)
                 dx *= np.minimum(1.0, limit_V / np.maximum(worst, 1e-300))[:, None]
