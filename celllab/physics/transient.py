@@ -546,8 +546,7 @@ class _BorderedBand:
     With the unknowns split into the inner set a (reordered by reverse Cuthill-McKee into a
     band of kl sub- and ku super-diagonals) and the border b (the unknowns with more than
     ``BORDER_DEGREE`` neighbours), J = [[A, E], [F, D]] and, with the Schur complement
-    S = D - F A^-1 E (G. H. Golub, C. F. Van Loan, Matrix Computations, 4th ed., 2013, 3.2.11
-    and 4.3 for the band LU), J^-1 = [[A^-1 + A^-1 E S^-1 F A^-1, -A^-1 E S^-1],
+    S = D - F A^-1 E (docs/references.md [97]: block elimination and the band LU), J^-1 = [[A^-1 + A^-1 E S^-1 F A^-1, -A^-1 E S^-1],
     [-S^-1 F A^-1, S^-1]]. A^-1 and A^-1 E of every variant come from one LAPACK band LU
     (dgbtrf/dgbtrs, partial pivoting) of the block-diagonal matrix that stacks the variants:
     O(n_a (kl + ku) (n_a + n_b)) per variant instead of O(n^3). Any zero pivot or non-finite
