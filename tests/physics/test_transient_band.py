@@ -13,8 +13,7 @@ from celllab.physics.netlist import Element, Netlist
 # Newton tolerance 1e-8 + 1e-6 |x| per iteration: the two paths agree to a few times that
 TOL = 2e-5
 # Source: docs/references.md [133] (numpy.linalg.solve: LAPACK dgesv, dense LU with partial
-# pivoting) on the same
-# matrices; rel 1e-9 of the largest component (round-off only)
+# pivoting) on the same matrices; rel 1e-9 of the largest component (round-off only)
 SOLVE_RTOL = 1e-9
 
 
