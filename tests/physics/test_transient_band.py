@@ -3,6 +3,8 @@ pair's two channel ladders) against the dense batched inverse."""
 
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
 import pytest
 
@@ -78,17 +80,22 @@ def test_pair_pattern_is_a_bordered_band() -> None:
     assert band.kl + band.ku <= 4
 
 
-def test_band_solve_equals_dense_solve() -> None:
-    """Equivalence check (fast path vs reference path): J^-1 r from the bordered-band factors
-    (`_BorderedBand.factor`, `_band_solve`) against numpy.linalg.solve on the same chord
-    matrices, for every variant and for a subset of rows; round-off only."""
+def _factored() -> tuple[Any, Any, Any, np.ndarray, np.ndarray]:
+    """(system, band plan, its factors, right-hand sides r, numpy.linalg.solve of J x = r)."""
     system = _system()
     band = system.band_plan()
     assert band is not None
     J = _chord_matrices(system, 1)
     r = np.random.default_rng(2).standard_normal((system.n_var, system.n))
     reference = np.linalg.solve(J, r[:, :, None])[:, :, 0]
-    fac = band.factor(J)
+    return system, band, band.factor(J), r, reference
+
+
+def test_band_solve_equals_dense_solve() -> None:
+    """Equivalence check (fast path vs reference path): J^-1 r from the bordered-band factors
+    (`_BorderedBand.factor`, `_band_solve`) against numpy.linalg.solve on the same chord
+    matrices, for every variant and for a subset of rows; round-off only."""
+    _, band, fac, r, reference = _factored()
     assert not np.any(fac.bad)
     got = tr._band_solve(band, fac, None, r)
     assert np.max(np.abs(got - reference)) < SOLVE_RTOL * np.max(np.abs(reference))
@@ -99,13 +106,7 @@ def test_band_solve_equals_dense_solve() -> None:
 
 def test_band_solve_check_sees_a_perturbed_factor() -> None:
     """Equivalence check of the check above: a Schur complement off by 1e-6 fails it."""
-    system = _system()
-    band = system.band_plan()
-    assert band is not None
-    J = _chord_matrices(system, 1)
-    r = np.random.default_rng(2).standard_normal((system.n_var, system.n))
-    reference = np.linalg.solve(J, r[:, :, None])[:, :, 0]
-    fac = band.factor(J)
+    _, band, fac, r, reference = _factored()
     fac.S_inv *= 1 + 1e-6
     got = tr._band_solve(band, fac, None, r)
     assert np.max(np.abs(got - reference)) > SOLVE_RTOL * np.max(np.abs(reference))
