@@ -9,7 +9,6 @@ from __future__ import annotations
 
 import copy
 import dataclasses
-import gc
 import math
 from collections.abc import Callable, Iterator, Sequence
 from typing import Any
@@ -23,6 +22,7 @@ from celllab.characterization.cell_risk import CatalogRisk, catalog_figures
 from celllab.characterization.esd_events import EsdEvent
 from celllab.characterization.params import CornerSet
 from celllab.characterization.risk_inputs import inputs_from_group
+from celllab.collector import collector_paused
 from celllab.deck.schema import AnalysisBand, Deck
 from celllab.records import (
     ESD_NOT_RUN,
@@ -35,6 +35,7 @@ from celllab.records import (
     CornerResult,
     CVCurve,
     FrequencyResponse,
+    flag_names_metric,
 )
 from celllab.units import from_si, to_si
 
@@ -61,18 +62,10 @@ def characterize(deck: Deck, cells: Sequence[CellSpec], corners: Sequence[str] |
     empty.
     """
     corner_set = CornerSet.from_deck(deck, list(corners) if corners else None)
-    # the run makes millions of small objects and no reference cycles worth collecting: the
-    # cyclic collector would walk every live object again at each of its passes (a cost that
-    # grows with the run), so it pauses for the run
-    collecting = gc.isenabled()
-    gc.disable()
-    try:
+    with collector_paused():  # millions of small objects, no cycles (celllab.collector)
         geometries = [resolve(c, deck) for c in cells]
         with np.errstate(all="ignore"):  # out-of-range values become flagged empty metrics, not warnings
             return _characterize(deck, cells, corner_set, geometries, progress, sources, esd)
-    finally:
-        if collecting:
-            gc.enable()
 
 
 def part_size(esd: bool) -> int:
@@ -149,22 +142,6 @@ def _risk(deck: Deck, corners: CornerSet, topology: str, out: Any, cells: list[C
     return found
 
 
-_WORD_CHARS = frozenset("ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789_")
-
-
-def _names(metric: str, flags: list[str]) -> bool:
-    """True when a flag names ``metric`` as a word of its own: an occurrence with no letter,
-    digit or ``_`` on either side."""
-    n = len(metric)
-    for f in flags:
-        i = f.find(metric)
-        while i >= 0:
-            if (i == 0 or f[i - 1] not in _WORD_CHARS) and (i + n >= len(f) or f[i + n] not in _WORD_CHARS):
-                return True
-            i = f.find(metric, i + 1)
-    return False
-
-
 #: Columns only the ESD events and the broken-oxide figures fill (empty when they are not run).
 ESD_EVENT_METRICS = ("hbm_oxide_peak_V", "hbm_over_vbd_ns", "hbm_margin_V", "cdm_oxide_peak_V",
                      "cdm_over_vbd_ns", "cdm_margin_V", "hbm_oxide_share_pct", "esd_series_helps",
@@ -173,8 +150,8 @@ ESD_EVENT_METRICS = ("hbm_oxide_peak_V", "hbm_over_vbd_ns", "hbm_margin_V", "cdm
 
 def _empty_metric_flags(metrics: dict[str, float], flags: list[str]) -> list[str]:
     """A flag for the metrics that came out empty or infinite and no flag explains yet."""
-    overflow = [k for k, v in metrics.items() if math.isinf(v) and not _names(k, flags)]
-    missing = [k for k, v in metrics.items() if math.isnan(v) and not _names(k, flags)]
+    overflow = [k for k, v in metrics.items() if math.isinf(v) and not flag_names_metric(k, flags)]
+    missing = [k for k, v in metrics.items() if math.isnan(v) and not flag_names_metric(k, flags)]
     out = []
     if overflow:
         out.append(f"out_of_range: {', '.join(overflow)} stored empty: the model overflows the float "

@@ -16,14 +16,12 @@ impedance as little-endian complex128 blobs.
 
 from __future__ import annotations
 
-import gc
 import hashlib
 import itertools
 import json
 import math
 import uuid
-from collections.abc import Callable, Iterable, Iterator, Mapping
-from contextlib import contextmanager
+from collections.abc import Callable, Iterable, Mapping
 from dataclasses import dataclass, field
 from datetime import UTC, datetime
 from pathlib import Path
@@ -33,6 +31,7 @@ import numpy as np
 import sqlite_utils
 
 from celllab.catalog.schema import cell_column_type, fill_extremes, write_transaction
+from celllab.collector import collector_paused
 from celllab.display import nan_to_none, none_to_nan  # SQLite stores NaN as NULL
 from celllab.errors import CatalogError, Problem
 from celllab.records import (
@@ -556,24 +555,6 @@ def _ensure_deck(db: sqlite_utils.Database, run: CharacterizationRun, now: str) 
     return False
 
 
-@contextmanager
-def _cycle_collector_paused() -> Iterator[None]:
-    """Python's cycle collector off for the block (as it was after it).
-
-    Storing a run makes hundreds of thousands of small objects and no cycles; each time they
-    pile up the collector would walk every object of the run (a library build: a quarter of
-    the time ``store_run`` takes). The objects are freed when the store returns, so the
-    collector does not catch up on them later either.
-    """
-    was_on = gc.isenabled()
-    gc.disable()
-    try:
-        yield
-    finally:
-        if was_on:
-            gc.enable()
-
-
 def store_run(db: sqlite_utils.Database, run: CharacterizationRun) -> StoreReport:
     """Store ``run`` in one transaction; see the module docstring for what is skipped or superseded."""
     return store_runs(db, [run])
@@ -594,7 +575,7 @@ def store_runs(db: sqlite_utils.Database, parts: Iterable[CharacterizationRun]) 
         session: _StoreSession | None = None
         pending = iter(parts)
         while (run := next(pending, None)) is not None:
-            with _cycle_collector_paused():
+            with collector_paused():
                 validate_run(run)
                 if session is None:
                     session = _StoreSession(db, run, now)
