@@ -10,7 +10,7 @@ responses are stored in SI (Hz, ohm) as numpy arrays.
 from __future__ import annotations
 
 import math
-from collections.abc import Callable, Iterator, Mapping, Sequence
+from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -35,12 +35,30 @@ MetricInfo = Column
 __all__ = [
     "CELL_COLUMNS", "METRICS", "METRIC_BY_NAME", "METRIC_NAMES", "Better", "CVCurve", "CellResult",
     "CharacterizationRun", "CornerFigures", "CornerResult", "FrequencyResponse", "MetricInfo", "corner_bounds", "corner_metrics",
-    "netlist_from_dict", "netlist_to_dict", "CornerCircuits", "ESD_NOT_RUN",
+    "netlist_from_dict", "netlist_to_dict", "CornerCircuits", "ESD_NOT_RUN", "flag_names_metric",
 ]
 
 #: The flag a corner carries when it was built without the deck's ESD events (its event
 #: columns empty): the engine writes it, a later build with the events looks for it.
 ESD_NOT_RUN = "esd_not_run"
+
+_WORD_CHARS = frozenset("ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789_")
+
+
+def flag_names_metric(metric: str, flags: Iterable[Any]) -> bool:
+    """True when one of ``flags`` names ``metric`` as a word of its own: an occurrence with no
+    letter, digit or ``_`` on either side (what explains an empty metric; a flag that is not
+    text names nothing)."""
+    n = len(metric)
+    for f in flags:
+        if not isinstance(f, str):
+            continue
+        i = f.find(metric)
+        while i >= 0:
+            if (i == 0 or f[i - 1] not in _WORD_CHARS) and (i + n >= len(f) or f[i + n] not in _WORD_CHARS):
+                return True
+            i = f.find(metric, i + 1)
+    return False
 
 
 @dataclass(frozen=True)

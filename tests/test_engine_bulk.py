@@ -31,6 +31,7 @@ from celllab.records import (
     CornerResult,
     CVCurve,
     FrequencyResponse,
+    flag_names_metric,
     netlist_to_dict,
 )
 from celllab.units import from_si
@@ -242,8 +243,11 @@ def test_every_metric_computes_element_wise_as_it_does_per_corner(rows) -> None:
 @given(st.sampled_from(["esr_ohm", "cap_fF", "srf_GHz", "a.b", "x-y"]),
        st.lists(st.text(alphabet="esr_ohmcapfF GHz.,:;-x()ab", max_size=30), max_size=4))
 def test_a_flag_names_a_metric_only_as_a_word_of_its_own(metric, flags) -> None:
+    """Equivalence check: the shared whole-word rule (`records.flag_names_metric`, used by the
+    engine and the catalog checks) against the regular expression it replaced."""
     word = re.compile(rf"(?<![A-Za-z0-9_]){re.escape(metric)}(?![A-Za-z0-9_])")
-    assert engine._names(metric, flags) == any(word.search(f) for f in flags)
+    assert flag_names_metric(metric, flags) == any(word.search(f) for f in flags)
+    assert not flag_names_metric(metric, [None, 3.0])  # not text: names nothing
 
 
 def test_corner_circuits_behave_as_a_dict(deck) -> None:

@@ -27,7 +27,7 @@ from typing import Any
 
 import numpy as np
 
-from celllab.records import METRIC_NAMES, CellResult, CornerResult
+from celllab.records import METRIC_NAMES, CellResult, CornerResult, flag_names_metric
 
 #: The name rules of cell files (``cells.schema.CellSpec``) and decks (``deck.schema``).
 CELL_NAME = re.compile(r"[A-Za-z][A-Za-z0-9_\-.]{0,79}")
@@ -71,12 +71,6 @@ def shown(value: Any, limit: int = 60) -> str:
     """``repr`` of a value cut to ``limit`` characters (control characters escaped)."""
     text = repr(value)
     return text if len(text) <= limit else f"{text[: limit - 3]}... ({len(text)} characters)"
-
-
-def flag_names_metric(metric: str, flags: Iterable[str]) -> bool:
-    """True when one of ``flags`` names ``metric`` as a whole word."""
-    word = re.compile(rf"(?<![A-Za-z0-9_]){re.escape(metric)}(?![A-Za-z0-9_])")
-    return any(isinstance(f, str) and word.search(f) for f in flags)
 
 
 def _is_number(value: Any) -> bool:
