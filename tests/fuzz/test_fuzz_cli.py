@@ -135,9 +135,17 @@ def argument_lists(draw: st.DrawFn, places: dict[str, str]) -> list[str]:
     return argv
 
 
-def _run(argv: list[str]) -> tuple[int, str, str]:
+def _checkout_catalog_state() -> tuple[int, int] | None:
+    """(size, mtime in ns) of the checkout's default catalog, None when there is none."""
+    path = REPO / "db" / "celllab.sqlite"
+    return (path.stat().st_size, path.stat().st_mtime_ns) if path.exists() else None
+
+
+def _run(argv: list[str], folder: str) -> tuple[int, str, str]:
+    """``celllab argv`` in-process, run from ``folder``: a verb given no --catalog uses the
+    default db/celllab.sqlite of the working folder, which must not be the checkout's."""
     out, err = io.StringIO(), io.StringIO()
-    with contextlib.redirect_stdout(out), contextlib.redirect_stderr(err):
+    with contextlib.chdir(folder), contextlib.redirect_stdout(out), contextlib.redirect_stderr(err):
         try:
             code = main(argv)
         except SystemExit as exc:  # --help, --version
@@ -152,7 +160,9 @@ def test_command_lines_end_cleanly(places: dict[str, str], data: st.DataObject,
                                    outcomes: Counter[str]) -> None:
     argv = data.draw(argument_lists(places))
     outcomes["cli_args.cases"] += 1
-    code, out, err = _run(argv)
+    before = _checkout_catalog_state()
+    code, out, err = _run(argv, places["folder"])
+    assert _checkout_catalog_state() == before, argv  # the checkout's own catalog is not touched
     assert code in (0, 1, 2), (argv, code, err)
     assert "Traceback" not in err and "Traceback" not in out, (argv, err)
     assert "\x1b" not in err and "\x1b" not in out, (argv, err)
